@@ -1,0 +1,15 @@
+"""skfunc: functional data analysis for scikit-learn.
+
+Curves are rows of ``X``; every estimator is penalized least squares in a
+Hilbert space of functions, evaluated on the curves' grid.
+"""
+
+__version__ = "0.1.0"
+
+from . import hilbert
+from .preprocessing import BasisFeatures
+
+#: every public estimator class; the estimator-check test runs over this list
+ESTIMATORS = [BasisFeatures]
+
+__all__ = ["BasisFeatures", "ESTIMATORS", "hilbert", "__version__"]
