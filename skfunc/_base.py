@@ -10,11 +10,14 @@ import numpy as np
 from sklearn.utils.validation import validate_data
 
 from ._bases import BASES, make_basis
+from ._dask import (  # noqa: F401  (CHUNK_VALUES is re-exported)
+    CHUNK_VALUES,
+    is_dask_array,
+    map_row_blocks,
+    matmul_block,
+    validate_dask,
+)
 from ._grid import check_grid, grid_from_labels, resolve_grid
-
-#: rows per chunk are chosen so that one chunk of input holds about this many
-#: float64 values (32 MiB)
-CHUNK_VALUES = 1 << 22
 
 
 def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
@@ -25,7 +28,18 @@ def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
     DataFrame column labels, or evenly spaced points on [0, 1], and stored as
     ``estimator.grid_``. Otherwise X must have as many columns as at fit, and
     numeric DataFrame labels must match the fitted grid.
+
+    Dask arrays are validated without gathering them (see ``skfunc._dask``)
+    and returned as lazy dask arrays.
     """
+    if is_dask_array(X) or type(X).__module__.startswith("dask"):
+        out = validate_dask(estimator, X, y, reset=reset, allow_nan=allow_nan,
+                            **check_params)
+        if reset:
+            n_points = estimator.n_features_in_
+            estimator.grid_ = resolve_grid(getattr(estimator, "grid", None), None,
+                                           n_points)
+        return out
     X_in = X
     out = validate_data(
         estimator,
@@ -63,6 +77,30 @@ def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
                 "the fitted grid (for example with CurveSmoother(output_grid=...))."
             )
     return out
+
+
+def validate_partial(estimator, X, y="no_validation", **check_params):
+    """Validate a ``partial_fit`` batch; return ``(first, validated)``.
+
+    The first call (no ``n_samples_seen_`` yet) validates the parameters and
+    resolves the grid like ``fit``; later calls require the same number of
+    grid points, the same grid parameter and, for DataFrames, the same
+    numeric column labels as the first.
+    """
+    first = not hasattr(estimator, "n_samples_seen_")
+    if first:
+        estimator._validate_params()
+    elif getattr(estimator, "grid", None) is not None:
+        grid = check_grid(estimator.grid)
+        if grid.shape != estimator.grid_.shape or not np.allclose(
+            grid, estimator.grid_, rtol=1e-9, atol=0
+        ):
+            raise ValueError(
+                f"partial_fit of {type(estimator).__name__} got a grid that differs "
+                "from the grid of its earlier calls (grid_); all batches must be "
+                "sampled on one grid (call fit to start afresh)."
+            )
+    return first, validate_curves(estimator, X, y, reset=first, **check_params)
 
 
 def resolve_n_basis(basis, n_basis, n_points, degree=3, knots=None, cap=True):
@@ -112,8 +150,13 @@ def basis_for(estimator, grid, cap=True):
 def chunked_matmul(X, operator_T, chunk_size=None):
     """``X @ operator_T`` in row chunks, converting each chunk to float64.
 
-    Peak memory stays near input + output whatever X's dtype or layout.
+    Peak memory stays near input + output whatever X's dtype or layout. For a
+    dask array X the product runs block by block and a lazy dask array is
+    returned.
     """
+    if is_dask_array(X):
+        return map_row_blocks(matmul_block, X, operator_T.shape[1],
+                              operator_T=operator_T)
     n, m = X.shape
     out = np.empty((n, operator_T.shape[1]), dtype=np.float64)
     rows = chunk_size or max(1, CHUNK_VALUES // max(m, 1))

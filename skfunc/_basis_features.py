@@ -11,8 +11,9 @@ from sklearn.utils.validation import (
     check_is_fitted,
 )
 
-from ._base import basis_for, chunked_matmul, validate_curves
+from ._base import basis_for, chunked_matmul, validate_curves, validate_partial
 from ._bases import BASES, gram_sqrt
+from ._dask import compute_statistics, count_rows
 from ._grid import QUADRATURES, quadrature_weights
 from ._penalized import PenalizedPath
 
@@ -72,6 +73,9 @@ class BasisFeatures(TransformerMixin, BaseEstimator):
     reconstruction_ : ndarray of shape (n_features, n_basis_)
         Values on ``grid_`` of the orthonormalised basis functions, used by
         :meth:`inverse_transform`.
+    n_samples_seen_ : int
+        Number of curves validated by :meth:`fit`, or by all calls of
+        :meth:`partial_fit` since the first.
     n_features_in_ : int
         Number of grid points seen during fit.
     feature_names_in_ : ndarray of shape (n_features_in_,)
@@ -88,7 +92,13 @@ class BasisFeatures(TransformerMixin, BaseEstimator):
     -----
     The fit minimises ``sum_j w_j (x_j - f(t_j))^2 + alpha int (D^q f)^2``
     over ``f = sum_k c_k phi_k``, with quadrature weights ``w``, and returns
-    ``G^{1/2} c`` for the exact Gram matrix ``G``.
+    ``G^{1/2} c`` for the exact Gram matrix ``G``. The operator depends on
+    the grid, not on the curves, so :meth:`partial_fit` only validates
+    further batches against the first one's grid.
+
+    Dask arrays are accepted: ``fit`` validates them block by block on the
+    workers, and ``transform`` returns a lazy dask array computed block by
+    block (rows must not be split across blocks; see ``skfunc._dask``).
 
     References
     ----------
@@ -155,8 +165,33 @@ class BasisFeatures(TransformerMixin, BaseEstimator):
         self : object
             Fitted transformer.
         """
-        self._validate_params()
-        validate_curves(self, X, reset=True)
+        vars(self).pop("n_samples_seen_", None)  # start afresh: fit is a first batch
+        return self.partial_fit(X)
+
+    def partial_fit(self, X, y=None):
+        """Validate a batch of curves; the first batch fixes the grid.
+
+        Parameters
+        ----------
+        X : array-like of shape (n_samples, n_features)
+            Curves, one per row, on the grid of the first batch.
+        y : None
+            Ignored.
+
+        Returns
+        -------
+        self : object
+            Fitted transformer.
+        """
+        first, X = validate_partial(self, X)
+        if first:
+            self._fit_operator()
+            self.n_samples_seen_ = 0
+        self.n_samples_seen_ += compute_statistics(count_rows, X)["n_samples"]
+        return self
+
+    def _fit_operator(self):
+        """The projection and reconstruction operators on ``grid_``."""
         basis = basis_for(self, self.grid_, cap=self.alpha == 0)
         w = quadrature_weights(self.grid_, self.quadrature)
         phi = basis.evaluate(self.grid_)
@@ -170,7 +205,6 @@ class BasisFeatures(TransformerMixin, BaseEstimator):
         self.gram_ = gram
         self.projection_ = root @ path.operator(self.alpha) @ phi_w.T
         self.reconstruction_ = phi @ inv_root
-        return self
 
     def transform(self, X):
         """Coordinates of each curve's fitted function in the orthonormal basis.
@@ -183,6 +217,7 @@ class BasisFeatures(TransformerMixin, BaseEstimator):
         Returns
         -------
         Z : ndarray of shape (n_samples, n_basis_)
+            A lazy dask array when X is one.
         """
         check_is_fitted(self)
         X = validate_curves(self, X, reset=False)

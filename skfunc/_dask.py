@@ -1,0 +1,299 @@
+"""Fits as sums over row blocks, in this process or on Dask workers.
+
+Every skfunc fit is ``solve(merge(statistics of each block of rows))``: what a
+fit needs from the data (counts, sums, cross products) is additive over rows.
+This module runs that one path on whatever holds the rows:
+
+* :func:`compute_statistics` applies a per-block statistics function to row
+  blocks of numpy arrays (bounding the temporaries), or, for Dask arrays, to
+  every block on the workers, and reduces the results in a tree, so only
+  statistic-sized results (K x K, not n x m) travel;
+* :func:`map_row_blocks` applies a row-wise function (a transform, a predict)
+  block by block and returns a lazy Dask array;
+* :func:`validate_dask` validates Dask input like sklearn's ``validate_data``
+  does numpy input, without gathering it: shapes, dtype and the grid are
+  checked at once, finiteness per block when the blocks are computed.
+
+Dask is optional: :func:`is_dask_array` never imports it, and nothing here
+imports it unless a Dask array was passed in.
+
+Layout rules for Dask input
+---------------------------
+* Blocks must hold whole rows. An array chunked along its second (grid) axis
+  is rechunked lazily to one chunk along that axis, keeping its row chunks;
+  each block then holds ``row chunk x n_features`` values, so choose row
+  chunks with that in mind.
+* ``X`` and ``y`` must have the same row chunks (the statistics of a block
+  need the rows of both); otherwise a ``ValueError`` says how to rechunk. A
+  numpy ``y`` is split along ``X``'s row chunks.
+* Chunk sizes must be known (``X.compute_chunk_sizes()`` fixes arrays made
+  from data frames).
+* Non-finite values raise ``ValueError`` when the block holding them is
+  computed: during ``fit`` (which computes), or when the lazy result of
+  ``transform``/``predict`` is computed.
+"""
+
+import sys
+import warnings
+
+import numpy as np
+from sklearn.exceptions import DataConversionWarning
+from sklearn.utils import get_tags
+from sklearn.utils.validation import _check_feature_names, _check_n_features
+
+from ._penalized import merge as merge_sums
+
+#: rows per in-memory block are chosen so that one block of input holds about
+#: this many values (32 MiB of float64); same constant as ``chunked_matmul``
+CHUNK_VALUES = 1 << 22
+
+#: how many partial results one task of the tree reduction merges
+SPLIT_EVERY = 8
+
+
+def is_dask_array(X):
+    """Whether ``X`` is a Dask array, without importing Dask."""
+    module = sys.modules.get("dask.array")
+    return module is not None and isinstance(X, module.Array)
+
+
+def _is_dask_collection(X):
+    return type(X).__module__.split(".")[0] in ("dask", "dask_expr")
+
+
+def row_blocks(n_rows, n_features):
+    """``slice`` objects covering ``range(n_rows)`` in blocks of bounded size."""
+    rows = max(1, CHUNK_VALUES // max(int(n_features), 1))
+    return [slice(start, min(start + rows, n_rows)) for start in range(0, n_rows, rows)]
+
+
+def compute_statistics(statistics, X, *others, merge=merge_sums):
+    """Merged statistics of all rows of ``X`` (and the matching rows of ``others``).
+
+    Parameters
+    ----------
+    statistics : callable
+        ``statistics(X_block, *other_blocks)`` returning additive statistics
+        (for example a dict of arrays) of those rows. For Dask input it runs on
+        the workers, so it must be picklable (a module-level function, or a
+        bound method of a small fitted object).
+    X : ndarray or dask array of shape (n_samples, n_features)
+    *others : ndarray, dask array or None
+        Row-aligned arrays (targets, sample weights); None is passed through.
+    merge : callable, default=skfunc._penalized.merge
+        ``merge(*stats)`` combining statistics of disjoint blocks.
+
+    Returns
+    -------
+    stats : the merged statistics, in this process.
+    """
+    if is_dask_array(X):
+        return _reduce_blocks(statistics, X, *others, merge=merge)
+    parts = [
+        statistics(X[rows], *(None if o is None else o[rows] for o in others))
+        for rows in row_blocks(X.shape[0], X.shape[1] if X.ndim > 1 else 1)
+    ]
+    return merge(*parts)
+
+
+def count_rows(X, *others):
+    """Statistics of estimators whose fit needs only the number of rows."""
+    return {"n_samples": X.shape[0]}
+
+
+def _reduce_blocks(statistics, X, *others, merge):
+    """Per-block statistics on the workers, merged in a tree."""
+    import dask
+
+    blocks = [X.to_delayed().ravel()]
+    for other in others:
+        blocks.append(
+            [None] * len(blocks[0]) if other is None else other.to_delayed().ravel()
+        )
+    func = dask.delayed(statistics, pure=True)
+    parts = [func(*block) for block in zip(*blocks, strict=True)]
+    merge_task = dask.delayed(merge, pure=True)
+    while len(parts) > 1:
+        parts = [
+            merge_task(*parts[i : i + SPLIT_EVERY])
+            for i in range(0, len(parts), SPLIT_EVERY)
+        ]
+    (stats,) = dask.compute(parts[0])
+    return stats
+
+
+def map_row_blocks(func, X, n_out=None, **kwargs):
+    """``func(block, **kwargs)`` on each row block of ``X``, lazily.
+
+    ``func`` maps a block of rows to an array of shape (rows, n_out), or
+    (rows,) when ``n_out`` is None. Returns a float64 dask array.
+    """
+    if n_out is None:
+        return X.map_blocks(
+            func, drop_axis=1, chunks=(X.chunks[0],), meta=np.empty(0), **kwargs
+        )
+    return X.map_blocks(
+        func, chunks=(X.chunks[0], (int(n_out),)), meta=np.empty((0, 0)), **kwargs
+    )
+
+
+def matmul_block(block, operator_T):
+    """``block @ operator_T`` in float64 (the block function of transforms)."""
+    return np.asarray(block, dtype=np.float64) @ operator_T
+
+
+# --------------------------------------------------------------------------
+# validation
+# --------------------------------------------------------------------------
+
+
+def _check_block(block, name, allow_nan, block_info=None):
+    """Raise ValueError if a block holds values sklearn would reject."""
+    offset = 0
+    if block_info is not None and 0 in block_info:
+        offset = block_info[0]["array-location"][0][0]
+    if block.dtype.kind == "f" and not np.isfinite(np.sum(block)):
+        values = block.reshape(block.shape[0], -1)
+        bad = np.isinf(values) if allow_nan else ~np.isfinite(values)
+        if bad.any():
+            row = offset + int(np.flatnonzero(bad.any(axis=1))[0])
+            what = "infinity" if allow_nan else "NaN or infinity"
+            raise ValueError(
+                f"Input {name} contains {what} (first in row {row}); "
+                f"{'only NaN (missing values) is' if allow_nan else 'no NaN or inf is'}"
+                " accepted."
+            )
+        if allow_nan and name == "X":
+            empty = np.flatnonzero(np.all(np.isnan(values), axis=1))
+            if empty.size:
+                raise ValueError(
+                    f"Row {offset + int(empty[0])} of X is entirely NaN: a curve "
+                    "needs observed values to be represented."
+                )
+    return block
+
+
+def _float_dtype(array, name, accepted=(np.float64, np.float32)):
+    kind = array.dtype.kind
+    if array.dtype in accepted:
+        return array.dtype
+    if kind in "biuf":
+        return np.dtype(accepted[0])
+    if kind == "c":
+        raise ValueError(f"Complex data not supported: {name} has dtype {array.dtype}.")
+    raise TypeError(
+        f"{name} must hold numbers (float64, float32, integers or booleans); "
+        f"got a dask array of dtype {array.dtype}."
+    )
+
+
+def _whole_rows(array, name):
+    """Check chunk sizes are known and rechunk to whole rows if needed."""
+    if any(np.isnan(size) for sizes in array.chunks for size in sizes):
+        raise ValueError(
+            f"{name} has unknown chunk sizes; call {name}.compute_chunk_sizes() "
+            "(or to_dask_array(lengths=True) on a data frame) first."
+        )
+    if array.ndim == 2 and len(array.chunks[1]) > 1:
+        array = array.rechunk({1: -1})
+    return array
+
+
+def _validate_dask_X(estimator, X, reset, allow_nan, ensure_min_samples=1):
+    if X.ndim != 2:
+        raise ValueError(
+            f"Expected a 2-D dask array (one curve per row), got {X.ndim}-D with "
+            f"shape {X.shape}."
+        )
+    X = _whole_rows(X, "X")
+    dtype = _float_dtype(X, "X")
+    if X.dtype != dtype:
+        X = X.astype(dtype)
+    n, m = X.shape
+    if n < ensure_min_samples:
+        raise ValueError(
+            f"Found array with {n} sample(s) (shape={X.shape}) while a minimum of "
+            f"{ensure_min_samples} is required by {type(estimator).__name__}."
+        )
+    if m < 2:
+        raise ValueError(
+            f"X has {m} feature(s) (grid points); a curve needs at least "
+            f"2 grid points, one per column of X, to be represented."
+        )
+    _check_feature_names(estimator, X, reset=reset)
+    _check_n_features(estimator, X, reset=reset)
+    return X.map_blocks(
+        _check_block, "X", allow_nan, meta=np.empty((0, 0), dtype=X.dtype)
+    )
+
+
+def _validate_dask_y(estimator, y, X, multi_output, y_numeric):
+    import dask.array as da
+
+    if not is_dask_array(y):
+        y = np.asarray(y)
+        if y.ndim not in (1, 2) or y.shape[0] != X.shape[0]:
+            raise ValueError(
+                f"y must have one row per row of X ({X.shape[0]}); got shape {y.shape}."
+            )
+        y = da.from_array(y, chunks=(X.chunks[0],) + y.shape[1:])
+    if y.ndim not in (1, 2):
+        raise ValueError(f"y must be 1-D or 2-D; got a {y.ndim}-D dask array.")
+    y = _whole_rows(y, "y")
+    if y.shape[0] != X.shape[0]:
+        raise ValueError(
+            f"Found input variables with inconsistent numbers of samples: "
+            f"X has {X.shape[0]} rows, y has {y.shape[0]}."
+        )
+    if y.chunks[0] != X.chunks[0]:
+        raise ValueError(
+            "The row chunks of X and y do not line up: X has row chunks "
+            f"{X.chunks[0]}, y has {y.chunks[0]}. Rechunk one to the other, "
+            "for example y = y.rechunk({0: X.chunks[0]})."
+        )
+    if not multi_output and y.ndim == 2:
+        if y.shape[1] != 1:
+            raise ValueError(
+                f"y should be a 1d array, got an array of shape {y.shape} instead."
+            )
+        warnings.warn(
+            "A column-vector y was passed when a 1d array was expected. Please "
+            "change the shape of y to (n_samples, ), for example using ravel().",
+            DataConversionWarning,
+            stacklevel=3,
+        )
+        y = y[:, 0]
+    if y.dtype.kind == "c":
+        raise ValueError(f"Complex data not supported: y has dtype {y.dtype}.")
+    if y_numeric and y.dtype.kind == "O":
+        y = y.astype(np.float64)
+    return y.map_blocks(
+        _check_block, "y", False, meta=np.empty((0,) * y.ndim, dtype=y.dtype)
+    )
+
+
+def validate_dask(estimator, X, y="no_validation", *, reset, allow_nan=False,
+                  multi_output=False, y_numeric=False, ensure_min_samples=1):
+    """``validate_data`` for Dask input, without gathering it.
+
+    Checks and stores ``n_features_in_`` (and drops ``feature_names_in_``:
+    dask arrays carry no column names); converts X to float64 unless it is
+    float32, lazily; rechunks to whole rows; aligns y. Finiteness is checked
+    per block when the blocks are computed. Returns X, or (X, y).
+    """
+    if _is_dask_collection(X) and not is_dask_array(X):
+        raise TypeError(
+            f"{type(estimator).__name__} accepts dask arrays, not other dask "
+            f"collections (got {type(X).__name__}); pass "
+            "X.to_dask_array(lengths=True) and the grid with grid=."
+        )
+    no_y = y is None or (isinstance(y, str) and y == "no_validation")
+    if y is None and get_tags(estimator).target_tags.required:
+        raise ValueError(
+            f"This {type(estimator).__name__} estimator requires y to be passed, "
+            "but the target y is None."
+        )
+    X = _validate_dask_X(estimator, X, reset, allow_nan, ensure_min_samples)
+    if no_y:
+        return X
+    return X, _validate_dask_y(estimator, y, X, multi_output, y_numeric)
