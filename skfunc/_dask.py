@@ -118,8 +118,27 @@ def _reduce_blocks(statistics, X, *others, merge):
             merge_task(*parts[i : i + SPLIT_EVERY])
             for i in range(0, len(parts), SPLIT_EVERY)
         ]
-    (stats,) = dask.compute(parts[0])
+    with _single_threaded_blas_under_threads(parts[0]):
+        (stats,) = dask.compute(parts[0])
     return stats
+
+
+def _single_threaded_blas_under_threads(collection):
+    """Limit BLAS to one thread while Dask's local thread pool runs blocks.
+
+    That scheduler runs one block per core, so BLAS threads on top would
+    oversubscribe the cores. Distributed workers already start with one BLAS
+    thread per worker thread, and other schedulers need no limit.
+    """
+    import contextlib
+
+    import dask.threaded
+    from dask.base import get_scheduler
+    from threadpoolctl import threadpool_limits
+
+    if get_scheduler(collections=[collection]) is dask.threaded.get:
+        return threadpool_limits(limits=1, user_api="blas")
+    return contextlib.nullcontext()
 
 
 def map_row_blocks(func, X, n_out=None, **kwargs):
