@@ -107,9 +107,10 @@ def _reduce_blocks(statistics, X, *others, merge):
 
     blocks = [X.to_delayed().ravel()]
     for other in others:
-        blocks.append(
-            [None] * len(blocks[0]) if other is None else other.to_delayed().ravel()
-        )
+        if other is None:
+            blocks.append([None] * len(blocks[0]))
+        else:
+            blocks.append(_along_rows_of(X, other).to_delayed().ravel())
     func = dask.delayed(statistics, pure=True)
     parts = [func(*block) for block in zip(*blocks, strict=True)]
     merge_task = dask.delayed(merge, pure=True)
@@ -139,6 +140,34 @@ def _single_threaded_blas_under_threads(collection):
     if get_scheduler(collections=[collection]) is dask.threaded.get:
         return threadpool_limits(limits=1, user_api="blas")
     return contextlib.nullcontext()
+
+
+def _along_rows_of(X, other):
+    """``other`` (numpy or dask) as a dask array with X's row chunks."""
+    import dask.array as da
+
+    if not is_dask_array(other):
+        other = np.asarray(other)
+        return da.from_array(other, chunks=(X.chunks[0],) + other.shape[1:])
+    if other.chunks[0] != X.chunks[0]:
+        raise ValueError(
+            "The row chunks of X and y (or sample_weight) do not line up: X has "
+            "row chunks "
+            f"{X.chunks[0]}, y has {other.chunks[0]}. Rechunk one to the other, "
+            "for example y = y.rechunk({0: X.chunks[0]})."
+        )
+    return other.rechunk({i: -1 for i in range(1, other.ndim)})
+
+
+def apply_rows(func, X, n_out=None):
+    """``func(X)`` for a numpy X; for a dask X, ``func`` on each row block, lazily.
+
+    ``func`` must act on rows independently and return (rows, n_out), or
+    (rows,) when ``n_out`` is None.
+    """
+    if is_dask_array(X):
+        return map_row_blocks(func, X, n_out)
+    return func(X)
 
 
 def map_row_blocks(func, X, n_out=None, **kwargs):
@@ -247,29 +276,16 @@ def _validate_dask_X(estimator, X, reset, allow_nan, ensure_min_samples=1):
 
 
 def _validate_dask_y(estimator, y, X, multi_output, y_numeric):
-    import dask.array as da
-
     if not is_dask_array(y):
         y = np.asarray(y)
-        if y.ndim not in (1, 2) or y.shape[0] != X.shape[0]:
-            raise ValueError(
-                f"y must have one row per row of X ({X.shape[0]}); got shape {y.shape}."
-            )
-        y = da.from_array(y, chunks=(X.chunks[0],) + y.shape[1:])
     if y.ndim not in (1, 2):
-        raise ValueError(f"y must be 1-D or 2-D; got a {y.ndim}-D dask array.")
-    y = _whole_rows(y, "y")
+        raise ValueError(f"y must be 1-D or 2-D; got shape {y.shape}.")
     if y.shape[0] != X.shape[0]:
         raise ValueError(
             f"Found input variables with inconsistent numbers of samples: "
             f"X has {X.shape[0]} rows, y has {y.shape[0]}."
         )
-    if y.chunks[0] != X.chunks[0]:
-        raise ValueError(
-            "The row chunks of X and y do not line up: X has row chunks "
-            f"{X.chunks[0]}, y has {y.chunks[0]}. Rechunk one to the other, "
-            "for example y = y.rechunk({0: X.chunks[0]})."
-        )
+    y = _along_rows_of(X, y)
     if not multi_output and y.ndim == 2:
         if y.shape[1] != 1:
             raise ValueError(
