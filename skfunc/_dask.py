@@ -151,10 +151,9 @@ def _along_rows_of(X, other):
         return da.from_array(other, chunks=(X.chunks[0],) + other.shape[1:])
     if other.chunks[0] != X.chunks[0]:
         raise ValueError(
-            "The row chunks of X and y (or sample_weight) do not line up: X has "
-            "row chunks "
-            f"{X.chunks[0]}, y has {other.chunks[0]}. Rechunk one to the other, "
-            "for example y = y.rechunk({0: X.chunks[0]})."
+            "The row chunks of X and y (or sample_weight) do not line up: X "
+            f"has row chunks {X.chunks[0]}, y has {other.chunks[0]}. Rechunk "
+            "one to the other, for example y = y.rechunk({0: X.chunks[0]})."
         )
     return other.rechunk({i: -1 for i in range(1, other.ndim)})
 

@@ -200,7 +200,7 @@ def test_misaligned_row_chunks_are_an_error(sync):
     _, X, y = kiln_runs(60)
     features = BasisFeatures()
     Xd = da.from_array(X, chunks=(20, 121))
-    with pytest.raises(ValueError, match="row chunks of X and y do not line up"):
+    with pytest.raises(ValueError, match=r"row chunks of X and y \(or sample_weight\) do not line up"):
         validate_dask(features, Xd, da.from_array(y, chunks=15), reset=True)
     # a numpy y is split along X's row chunks
     _, yd = validate_dask(features, Xd, y, reset=True)
