@@ -173,15 +173,15 @@ class BasisFeatures(TransformerMixin, BaseEstimator):
 
         Parameters
         ----------
-        X : array-like of shape (n_samples, n_features)
-            Curves, one per row, on the grid of the first batch.
+        X : array-like or dask array of shape (n_samples, n_features)
+            A batch of curves, one per row, on the grid of the first batch.
         y : None
-            Ignored.
+            Ignored; accepted for pipeline compatibility.
 
         Returns
         -------
-        self : object
-            Fitted transformer.
+        self : BasisFeatures
+            The transformer, fitted on all batches so far.
         """
         first, X = validate_partial(self, X)
         if first:
