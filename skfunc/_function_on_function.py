@@ -252,7 +252,11 @@ class FunctionOnFunctionRidge(CurveResponseMixin, BaseEstimator):
         return response_statistics(chunked_matmul(X, psi_w), y, phi_w, sample_weight)
 
     def _solve(self, stats):
-        """Fit from (merged) statistics and store the fitted attributes."""
+        """Fit from (merged) statistics and store the fitted attributes.
+
+        For ``kind="concurrent"`` the band covariance needs a second pass over
+        the data (:meth:`_concurrent_covariance`); until then it is NaN.
+        """
         basis, weights = self._response_basis()
         phi = basis.evaluate(self.response_grid_)
         alphas = check_alphas(self.alphas)
