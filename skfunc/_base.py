@@ -15,6 +15,7 @@ from ._dask import (  # noqa: F401  (CHUNK_VALUES is re-exported)
     is_dask_array,
     map_row_blocks,
     matmul_block,
+    start_partial_fit,
     validate_dask,
 )
 from ._grid import check_grid, grid_from_labels, resolve_grid
@@ -32,7 +33,7 @@ def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
     Dask arrays are validated without gathering them (see ``skfunc._dask``)
     and returned as lazy dask arrays.
     """
-    if is_dask_array(X) or type(X).__module__.startswith("dask"):
+    if is_dask_array(X) or is_dask_array(y) or type(X).__module__.startswith("dask"):
         out = validate_dask(estimator, X, y, reset=reset, allow_nan=allow_nan,
                             **check_params)
         if reset:
@@ -89,19 +90,7 @@ def validate_partial(estimator, X, y="no_validation", **check_params):
     grid points, the same grid parameter and, for DataFrames, the same
     numeric column labels as the first.
     """
-    first = not hasattr(estimator, "n_samples_seen_")
-    if first:
-        estimator._validate_params()
-    elif getattr(estimator, "grid", None) is not None:
-        grid = check_grid(estimator.grid)
-        if grid.shape != estimator.grid_.shape or not np.allclose(
-            grid, estimator.grid_, rtol=1e-9, atol=0
-        ):
-            raise ValueError(
-                f"partial_fit of {type(estimator).__name__} got a grid that differs "
-                "from the grid of its earlier calls (grid_); all batches must be "
-                "sampled on one grid (call fit to start afresh)."
-            )
+    first = start_partial_fit(estimator)
     return first, validate_curves(estimator, X, y, reset=first, **check_params)
 
 

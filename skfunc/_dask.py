@@ -158,15 +158,15 @@ def _along_rows_of(X, other):
     return other.rechunk({i: -1 for i in range(1, other.ndim)})
 
 
-def apply_rows(func, X, n_out=None):
-    """``func(X)`` for a numpy X; for a dask X, ``func`` on each row block, lazily.
+def apply_rows(func, X, n_out=None, **kwargs):
+    """``func(X, **kwargs)``; for a dask X, on each row block, lazily.
 
     ``func`` must act on rows independently and return (rows, n_out), or
     (rows,) when ``n_out`` is None.
     """
     if is_dask_array(X):
-        return map_row_blocks(func, X, n_out)
-    return func(X)
+        return map_row_blocks(func, X, n_out, **kwargs)
+    return func(X, **kwargs)
 
 
 def map_row_blocks(func, X, n_out=None, **kwargs):
@@ -187,6 +187,53 @@ def map_row_blocks(func, X, n_out=None, **kwargs):
 def matmul_block(block, operator_T):
     """``block @ operator_T`` in float64 (the block function of transforms)."""
     return np.asarray(block, dtype=np.float64) @ operator_T
+
+
+def affine_block(block, coef, intercept):
+    """``block @ coef + intercept`` in float64 (the block function of predicts)."""
+    return np.asarray(block, dtype=np.float64) @ coef + intercept
+
+
+# --------------------------------------------------------------------------
+# partial_fit
+# --------------------------------------------------------------------------
+
+
+def start_partial_fit(estimator, grid_param="grid", grid_attr="grid_"):
+    """Whether this ``partial_fit`` call is the first; checks for later calls.
+
+    The first call (no ``n_samples_seen_`` yet) validates the parameters;
+    later calls require the grid parameter to still give the fitted grid.
+    """
+    first = not hasattr(estimator, "n_samples_seen_")
+    if first:
+        estimator._validate_params()
+        return True
+    grid = getattr(estimator, grid_param, None)
+    if grid is not None:
+        fitted = getattr(estimator, grid_attr)
+        grid = np.asarray(grid, dtype=np.float64)
+        if grid.shape != fitted.shape or not np.allclose(grid, fitted, rtol=1e-9, atol=0):
+            raise ValueError(
+                f"partial_fit of {type(estimator).__name__} got a {grid_param} that "
+                f"differs from the one of its earlier calls ({grid_attr}); all "
+                "batches must be sampled on one grid (call fit to start afresh)."
+            )
+    return False
+
+
+def running_statistics(estimator, stats, first, n_rows, merge=merge_sums):
+    """Add a batch's statistics to those of earlier ``partial_fit`` calls.
+
+    Keeps the sum in ``estimator._partial_statistics`` (a dict of arrays) and
+    the row count in ``n_samples_seen_``; returns the sum.
+    """
+    if not first:
+        stats = merge(estimator._partial_statistics, stats)
+        n_rows += estimator.n_samples_seen_
+    estimator._partial_statistics = stats
+    estimator.n_samples_seen_ = int(n_rows)
+    return stats
 
 
 # --------------------------------------------------------------------------
@@ -246,7 +293,7 @@ def _whole_rows(array, name):
     return array
 
 
-def _validate_dask_X(estimator, X, reset, allow_nan, ensure_min_samples=1):
+def _validate_dask_X(estimator, X, reset, allow_nan, ensure_min_samples, curves):
     if X.ndim != 2:
         raise ValueError(
             f"Expected a 2-D dask array (one curve per row), got {X.ndim}-D with "
@@ -262,10 +309,15 @@ def _validate_dask_X(estimator, X, reset, allow_nan, ensure_min_samples=1):
             f"Found array with {n} sample(s) (shape={X.shape}) while a minimum of "
             f"{ensure_min_samples} is required by {type(estimator).__name__}."
         )
-    if m < 2:
+    if curves and m < 2:
         raise ValueError(
             f"X has {m} feature(s) (grid points); a curve needs at least "
             f"2 grid points, one per column of X, to be represented."
+        )
+    if m < 1:
+        raise ValueError(
+            f"Found array with 0 feature(s) (shape={X.shape}) while a minimum of "
+            f"1 is required by {type(estimator).__name__}."
         )
     _check_feature_names(estimator, X, reset=reset)
     _check_n_features(estimator, X, reset=reset)
@@ -307,8 +359,12 @@ def _validate_dask_y(estimator, y, X, multi_output, y_numeric):
 
 
 def validate_dask(estimator, X, y="no_validation", *, reset, allow_nan=False,
-                  multi_output=False, y_numeric=False, ensure_min_samples=1):
-    """``validate_data`` for Dask input, without gathering it.
+                  multi_output=False, y_numeric=False, ensure_min_samples=1,
+                  curves=True):
+    """``validate_data`` for Dask input (X, y or both), without gathering it.
+
+    ``curves=True`` means the rows of X are curves (at least 2 columns);
+    False, scalar features.
 
     Checks and stores ``n_features_in_`` (and drops ``feature_names_in_``:
     dask arrays carry no column names); converts X to float64 unless it is
@@ -322,12 +378,24 @@ def validate_dask(estimator, X, y="no_validation", *, reset, allow_nan=False,
             "X.to_dask_array(lengths=True) and the grid with grid=."
         )
     no_y = y is None or (isinstance(y, str) and y == "no_validation")
+    if not no_y and is_dask_array(y) and not is_dask_array(X):
+        # a small in-memory X (covariates) beside dask curves y: split X the
+        # same way
+        import dask.array as da
+
+        X = np.asarray(X)
+        if X.ndim != 2 or X.shape[0] != y.shape[0]:
+            raise ValueError(
+                f"X must be 2-D with one row per row of y ({y.shape[0]}); got "
+                f"shape {X.shape}."
+            )
+        X = da.from_array(X, chunks=(y.chunks[0],) + X.shape[1:])
     if y is None and get_tags(estimator).target_tags.required:
         raise ValueError(
             f"This {type(estimator).__name__} estimator requires y to be passed, "
             "but the target y is None."
         )
-    X = _validate_dask_X(estimator, X, reset, allow_nan, ensure_min_samples)
+    X = _validate_dask_X(estimator, X, reset, allow_nan, ensure_min_samples, curves)
     if no_y:
         return X
     return X, _validate_dask_y(estimator, y, X, multi_output, y_numeric)

@@ -8,6 +8,15 @@ from sklearn.utils.validation import (
     validate_data,
 )
 
+from ._dask import (
+    affine_block,
+    apply_rows,
+    compute_statistics,
+    is_dask_array,
+    running_statistics,
+    start_partial_fit,
+    validate_dask,
+)
 from ._function_response import (
     RESPONSE_PARAMETER_CONSTRAINTS,
     CurveResponseMixin,
@@ -83,6 +92,9 @@ class FunctionOnScalarRidge(CurveResponseMixin, BaseEstimator):
         GCV score per candidate (lower is better).
     edf_ : ndarray of shape (n_alphas,)
         Effective degrees of freedom per candidate.
+    n_samples_seen_ : int
+        Number of observations fitted (by :meth:`fit`, or by all calls of
+        :meth:`partial_fit` since the first).
     n_features_in_ : int
         Number of covariates.
     feature_names_in_ : ndarray of shape (n_features_in_,)
@@ -105,7 +117,10 @@ class FunctionOnScalarRidge(CurveResponseMixin, BaseEstimator):
     autocorrelated residual curves on dense grids it may undersmooth, and
     :class:`~sklearn.model_selection.GridSearchCV` over ``alpha`` (which
     splits by curves) is the safer choice. The data enter only through
-    additive statistics (sums of cross products), read once.
+    additive statistics (sums of cross products), read once; so
+    :meth:`partial_fit` over batches equals :meth:`fit` on all of them, and
+    dask arrays ``X``/``y`` are fitted on the workers (statistics per block,
+    merged in a tree) and predicted lazily block by block.
 
     Confidence bands are pointwise normal-theory bands assuming independent
     curves with a common residual covariance; they ignore the smoothing bias
@@ -187,12 +202,40 @@ class FunctionOnScalarRidge(CurveResponseMixin, BaseEstimator):
         self : object
             Fitted estimator.
         """
-        self._validate_params()
+        vars(self).pop("n_samples_seen_", None)  # start afresh: fit is a first batch
+        return self.partial_fit(X, y, sample_weight)
+
+    def partial_fit(self, X, y, sample_weight=None):
+        """Add a batch of observations and refit from all batches so far.
+
+        The fit depends on the data only through additive statistics, so
+        fitting batch by batch gives the fit on all of them (GCV included).
+
+        Parameters
+        ----------
+        X : array-like or dask array of shape (n_samples, n_features)
+            Scalar covariates of the batch.
+        y : array-like or dask array of shape (n_samples, n_response_points)
+            Response curves of the batch, on the response grid of the first.
+        sample_weight : array-like of shape (n_samples,), default=None
+            Weights of the batch's observations.
+
+        Returns
+        -------
+        self : FunctionOnScalarRidge
+            The estimator, fitted on all batches so far.
+        """
+        first = start_partial_fit(self, "response_grid", "response_grid_")
         check_alphas(self.alphas)
-        X = validate_data(self, X, reset=True, dtype=np.float64)
-        y = validate_response(self, y, X.shape[0], reset=True)
+        if is_dask_array(X) or is_dask_array(y):
+            X, y = validate_dask(self, X, y, reset=first, multi_output=True,
+                                 curves=False)
+        else:
+            X = validate_data(self, X, reset=first, dtype=np.float64)
+        y = validate_response(self, y, X.shape[0], reset=first)
         w = _check_sample_weight(sample_weight, X)
-        return self._solve(self._statistics(X, y, w))
+        stats = compute_statistics(self._statistics, X, y, w)
+        return self._solve(running_statistics(self, stats, first, X.shape[0]))
 
     def _statistics(self, X, y, sample_weight=None):
         """Additive statistics of one chunk of (X, y); merge with ``merge``."""
@@ -234,11 +277,16 @@ class FunctionOnScalarRidge(CurveResponseMixin, BaseEstimator):
         Returns
         -------
         y_pred : ndarray of shape (n_samples, n_response_points or n_points)
+            A lazy dask array when X is one.
         """
         check_is_fitted(self)
-        X = validate_data(self, X, reset=False, dtype=np.float64)
+        if is_dask_array(X):
+            X = validate_dask(self, X, reset=False, curves=False)
+        else:
+            X = validate_data(self, X, reset=False, dtype=np.float64)
         if response_points is None:
             intercept, coef = self.intercept_function_, self.coef_function_
         else:
             intercept, coef = self.coef_functions_at(response_points)
-        return X @ coef + intercept
+        return apply_rows(affine_block, X, intercept.size, coef=coef,
+                          intercept=intercept)

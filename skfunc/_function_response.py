@@ -56,6 +56,7 @@ from sklearn.utils.validation import (
 
 from ._base import basis_for
 from ._bases import BASES
+from ._dask import is_dask_array
 from ._grid import (
     QUADRATURES,
     check_grid,
@@ -127,9 +128,11 @@ def validate_response(estimator, y, n_samples, *, reset):
             "is None; pass the response curves as a 2-D array."
         )
     y_in = y
-    y = check_array(
-        y, ensure_2d=False, dtype=np.float64, ensure_all_finite=True, input_name="y"
-    )
+    if not is_dask_array(y):  # dask y: validated per block by validate_dask
+        y = check_array(
+            y, ensure_2d=False, dtype=np.float64, ensure_all_finite=True,
+            input_name="y",
+        )
     if y.ndim != 2:
         raise ValueError(
             f"y must be 2-D: one response curve per row, its values on the response "

@@ -29,6 +29,7 @@ from skfunc._dask import (  # noqa: E402
     validate_dask,
 )
 from skfunc._penalized import cross_products  # noqa: E402
+from skfunc.linear_model import FunctionOnScalarRidge  # noqa: E402
 
 RTOL = 1e-10
 
@@ -112,6 +113,41 @@ def test_basis_features_on_cluster_equals_in_memory_and_quad(client):
         assert np.linalg.norm(Z[i]) ** 2 == pytest.approx(
             integrate.quad(f, 0, 1)[0], rel=1e-10
         )
+
+
+def settings_and_profiles(n_runs=400, n_points=15, seed=3):
+    """Invented kiln settings (peak set-point, ramp rate, load) and the
+    temperature profiles they produce, on a 10-hour grid."""
+    rng = np.random.default_rng(seed)
+    hours = np.linspace(0, 10, n_points)
+    settings = np.column_stack([rng.uniform(1150, 1250, n_runs),
+                                rng.uniform(100, 200, n_runs),
+                                rng.uniform(2, 4, n_runs)])
+    shape = np.sin(np.pi * hours / 10)
+    profiles = (20 + np.outer(settings[:, 0] - 20, shape)
+                + np.outer(settings[:, 1], shape * (1 - hours / 10))
+                + rng.normal(0, 5, (n_runs, n_points)))
+    return hours, settings, profiles
+
+
+def test_function_on_scalar_on_cluster_equals_in_memory_and_lstsq(client):
+    hours, S, Y = settings_and_profiles()
+    Sd, Yd = da.from_array(S, chunks=(48, 3)), da.from_array(Y, chunks=(48, 15))
+    # alpha=0 with as many B-splines as grid points interpolates, so the fit
+    # is ordinary least squares at every grid point: numpy.linalg.lstsq
+    exact = FunctionOnScalarRidge(n_basis=15, alpha=0.0, response_grid=hours)
+    exact.fit(Sd, Yd)
+    ols = np.linalg.lstsq(np.column_stack([np.ones(len(S)), S]), Y, rcond=None)[0]
+    assert_rel_close(exact.coef_function_, ols[1:], rtol=1e-8)
+    # GCV from pooled statistics: the same choice and fit as in memory
+    model = FunctionOnScalarRidge(response_grid=hours).fit(Sd, Yd)
+    reference = FunctionOnScalarRidge(response_grid=hours).fit(S, Y)
+    assert model.alpha_ == pytest.approx(reference.alpha_, rel=RTOL)
+    assert_rel_close(model.criterion_, reference.criterion_)
+    assert_rel_close(model.coef_function_, reference.coef_function_)
+    prediction = model.predict(Sd)
+    assert is_dask_array(prediction)
+    assert_rel_close(prediction.compute(), reference.predict(S))
 
 
 def test_statistics_are_reduced_on_workers_in_a_tree(client):
@@ -200,7 +236,7 @@ def test_misaligned_row_chunks_are_an_error(sync):
     _, X, y = kiln_runs(60)
     features = BasisFeatures()
     Xd = da.from_array(X, chunks=(20, 121))
-    with pytest.raises(ValueError, match=r"row chunks of X and y \(or sample_weight\) do not line up"):
+    with pytest.raises(ValueError, match=r"row chunks of X and y \(or sample_weight\)"):
         validate_dask(features, Xd, da.from_array(y, chunks=15), reset=True)
     # a numpy y is split along X's row chunks
     _, yd = validate_dask(features, Xd, y, reset=True)
@@ -266,6 +302,27 @@ def test_partial_fit_over_dask_batches(sync):
     assert_rel_close(batches.projection_, whole.projection_)
     with pytest.raises(ValueError, match="121 features"):
         batches.partial_fit(da.from_array(X[:, :60], chunks=10))
+
+
+def test_function_on_scalar_partial_fit_and_mixed_input(sync):
+    hours, S, Y = settings_and_profiles(n_runs=300)
+    reference = FunctionOnScalarRidge(response_grid=hours).fit(S, Y)
+    batches = FunctionOnScalarRidge(response_grid=hours)
+    for start in range(0, 300, 75):
+        batches.partial_fit(S[start : start + 75], Y[start : start + 75])
+    assert batches.n_samples_seen_ == 300
+    assert batches.alpha_ == pytest.approx(reference.alpha_, rel=RTOL)
+    assert_rel_close(batches.coef_function_, reference.coef_function_)
+    # in-memory covariates beside dask curves are split like the curves
+    mixed = FunctionOnScalarRidge(response_grid=hours).fit(
+        S, da.from_array(Y, chunks=(64, 15))
+    )
+    assert_rel_close(mixed.coef_function_, reference.coef_function_)
+    with pytest.raises(ValueError, match="response grid of 15 points"):
+        batches.partial_fit(S[:10], Y[:10, :12])
+    batches.set_params(response_grid=hours * 60)
+    with pytest.raises(ValueError, match="differs from the one of its earlier"):
+        batches.partial_fit(S[:10], Y[:10])
 
 
 def test_dask_is_not_imported_for_numpy_input():

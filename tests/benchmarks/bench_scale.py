@@ -46,16 +46,21 @@ def smooth_curves(n, m=M, seed=0):
     return t, X
 
 
-#: name -> (constructor keyword arguments, how fit is called); the call gets
-#: the estimator, curves X (n x m) and two responses: scalars s (n,) and
+#: name -> (estimator on grid t, how fit is called); the call gets the
+#: estimator, curves X (n x m) and two responses: scalars s (n,) and
 #: covariates S (n x 3). Estimators not in this skfunc are skipped.
 CASES = {
-    "BasisFeatures": ({"n_basis": 20}, lambda est, X, s, S: est.fit(X)),
-    "CurveSmoother": ({}, lambda est, X, s, S: est.fit(X)),
-    "FunctionalPCA": ({"n_components": 5}, lambda est, X, s, S: est.fit(X)),
-    "FunctionalRidge": ({}, lambda est, X, s, S: est.fit(X, s)),
-    "FunctionalRidgeCV": ({}, lambda est, X, s, S: est.fit(X, s)),
-    "FunctionOnScalarRidge": ({}, lambda est, X, s, S: est.fit(S, X)),
+    "BasisFeatures": (lambda cls, t: cls(n_basis=20, grid=t),
+                      lambda est, X, s, S: est.fit(X)),
+    "CurveSmoother": (lambda cls, t: cls(grid=t), lambda est, X, s, S: est.fit(X)),
+    "FunctionalPCA": (lambda cls, t: cls(n_components=5, grid=t),
+                      lambda est, X, s, S: est.fit(X)),
+    "FunctionalRidge": (lambda cls, t: cls(grid=t),
+                        lambda est, X, s, S: est.fit(X, s)),
+    "FunctionalRidgeCV": (lambda cls, t: cls(grid=t),
+                          lambda est, X, s, S: est.fit(X, s)),
+    "FunctionOnScalarRidge": (lambda cls, t: cls(response_grid=t),
+                              lambda est, X, s, S: est.fit(S, X)),
 }
 TRANSFORMERS = ("BasisFeatures", "CurveSmoother", "FunctionalPCA")
 
@@ -67,8 +72,8 @@ def available(names):
 
 def fit_case(name, cls, t, X, s=None, S=None):
     """A fresh estimator of a case, fitted."""
-    kwargs, call = CASES[name]
-    return call(cls(grid=t, **kwargs), X, s, S)
+    make, call = CASES[name]
+    return call(make(cls, t), X, s, S)
 
 
 def best_time(func, repeat):
