@@ -7,9 +7,10 @@ Hilbert space of functions, evaluated on the curves' grid.
 __version__ = "0.1.0"
 
 from . import hilbert
+from .decomposition import FunctionalPCA
 from .preprocessing import BasisFeatures
 
 #: every public estimator class; the estimator-check test runs over this list
-ESTIMATORS = [BasisFeatures]
+ESTIMATORS = [BasisFeatures, FunctionalPCA]
 
-__all__ = ["BasisFeatures", "ESTIMATORS", "hilbert", "__version__"]
+__all__ = ["BasisFeatures", "ESTIMATORS", "FunctionalPCA", "hilbert", "__version__"]
