@@ -52,7 +52,8 @@ def moments(X, operator_T=None, chunk_size=None):
             chunk = chunk @ operator_T
         mean = chunk.mean(axis=0)
         centred = chunk - mean
-        parts.append({"n": chunk.shape[0], "mean": mean, "scatter": centred.T @ centred})
+        scatter = centred.T @ centred
+        parts.append({"n": chunk.shape[0], "mean": mean, "scatter": scatter})
         if len(parts) == 2:
             parts = [merge_moments(*parts)]
     return parts[0]

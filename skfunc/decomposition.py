@@ -13,8 +13,8 @@ from sklearn.utils._param_validation import Interval, RealNotInt, StrOptions
 from sklearn.utils.validation import check_array, check_is_fitted
 
 from ._base import basis_for, chunked_matmul, validate_curves
-from ._basis_features import BasisFeatures
 from ._bases import BASES
+from ._basis_features import BasisFeatures
 from ._fpca import (
     CurveCoordinates,
     covariance_directions,
@@ -221,7 +221,8 @@ class FunctionalPCA(ClassNamePrefixFeaturesOutMixin, TransformerMixin, BaseEstim
     >>> from sklearn.decomposition import PCA
     >>> coarse = np.linspace(0, 10, 121)
     >>> ev_fine = fpca.explained_variance_
-    >>> ev_coarse = FunctionalPCA(2, grid=coarse).fit(firing(coarse)).explained_variance_
+    >>> coarse_fit = FunctionalPCA(2, grid=coarse).fit(firing(coarse))
+    >>> ev_coarse = coarse_fit.explained_variance_
     >>> np.round(ev_coarse / ev_fine, 2)
     array([1., 1.])
     >>> pca_ratio = (PCA(2).fit(firing(coarse)).explained_variance_
@@ -398,8 +399,9 @@ class FunctionalPCA(ClassNamePrefixFeaturesOutMixin, TransformerMixin, BaseEstim
         )
         del Z
         # the exact SVD has all directions, hence the whole scatter
-        full = solver == "full"
-        self.coordinate_scatter_ = (directions * squares) @ directions.T if full else None
+        self.coordinate_scatter_ = (
+            (directions * squares) @ directions.T if solver == "full" else None
+        )
         self._set_components(
             squares / (n - 1), directions, total, mean, n, n_wanted, coords
         )
