@@ -22,9 +22,12 @@ re-orthonormalised in L2 in order (Gram-Schmidt), so scores are ordinary L2
 inner products and their variances add up to at most the total variance.
 """
 
+import contextlib
+
 import numpy as np
 import scipy.linalg
 from sklearn.utils.extmath import randomized_svd
+from threadpoolctl import threadpool_limits
 
 from ._base import chunked_matmul
 from ._bases import gram_sqrt
@@ -121,17 +124,33 @@ def covariance_directions(covariance, n_wanted=None, penalty=None, alpha=0.0):
     K = covariance.shape[0]
     k = K if n_wanted is None else min(n_wanted, K)
     subset = None if k == K else [K - k, K - 1]
-    if alpha > 0:
-        _, vecs = scipy.linalg.eigh(
-            covariance, np.eye(K) + alpha * penalty, subset_by_index=subset
-        )
-        q, r = np.linalg.qr(vecs[:, ::-1])  # Gram-Schmidt in L2, in order
-        directions = q * np.sign(np.diag(r))
-        variances = np.einsum("ik,ij,jk->k", directions, covariance, directions)
-    else:
-        variances, directions = scipy.linalg.eigh(covariance, subset_by_index=subset)
-        variances, directions = variances[::-1], directions[:, ::-1]
+    with _single_thread(K):
+        if alpha > 0:
+            _, vecs = scipy.linalg.eigh(
+                covariance, np.eye(K) + alpha * penalty, subset_by_index=subset
+            )
+            q, r = np.linalg.qr(vecs[:, ::-1])  # Gram-Schmidt in L2, in order
+            directions = q * np.sign(np.diag(r))
+            variances = np.einsum("ik,ij,jk->k", directions, covariance, directions)
+        else:
+            variances, directions = scipy.linalg.eigh(
+                covariance, subset_by_index=subset
+            )
+            variances, directions = variances[::-1], directions[:, ::-1]
     return np.clip(variances, 0.0, None), directions
+
+
+def _single_thread(K):
+    """One BLAS thread for a K x K eigensolve of moderate size.
+
+    Up to K of a few thousand the symmetric eigensolver is bound by latency,
+    not arithmetic; extra BLAS threads only add synchronisation, which costs
+    several times the solve itself on a busy machine (partial_fit solves once
+    per chunk). Tiny problems skip the (millisecond) thread-pool switch.
+    """
+    if 64 <= K <= 2000:
+        return threadpool_limits(limits=1, user_api="blas")
+    return contextlib.nullcontext()
 
 
 def svd_directions(Z, n_wanted, solver, random_state=None, n_oversamples=10,
