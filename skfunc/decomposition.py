@@ -302,6 +302,7 @@ class FunctionalPCA(ClassNamePrefixFeaturesOutMixin, TransformerMixin, BaseEstim
         self._validate_params()
         X = self._validate(X, reset=True)
         coords = self._coordinates()
+        self._n_wanted(X.shape[0], coords.n_coordinates)  # fail before the work
         solver = self._solver(X.shape[0], coords.n_coordinates)
         if solver == "covariance_eigh":
             self._solve(self._statistics(X, coords), coords)
