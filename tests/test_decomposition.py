@@ -387,3 +387,21 @@ def test_bad_input_messages(rng):
         FunctionalPCA(quadrature="simpson", grid=uneven).fit(X[:, :5])
     with pytest.raises(ValueError, match="n_components_"):
         FunctionalPCA(2).fit(X).inverse_transform(np.zeros((1, 3)))
+
+
+def test_blockwise_statistics_merged_in_a_tree_equal_fit(rng):
+    # The contract a distributed fit relies on: _statistics per block,
+    # merge_moments in any order, then _solve, as in fit (numpy stacking is
+    # the reference).
+    from skfunc._base import validate_curves
+    from skfunc._moments import merge_moments
+
+    t = np.linspace(0, 1, 30)
+    X = low_rank_curves(rng, 200, t, noise=0.05)
+    est = FunctionalPCA(3, basis="fourier", n_basis=9, alpha=1e-6, grid=t)
+    validate_curves(est, X[:2], reset=True)
+    blocks = [est._statistics(b) for b in np.array_split(X, 4)]
+    est._solve(merge_moments(merge_moments(*blocks[2:]), merge_moments(*blocks[:2])))
+    fitted = FunctionalPCA(3, basis="fourier", n_basis=9, alpha=1e-6, grid=t).fit(X)
+    np.testing.assert_allclose(est.components_, fitted.components_, atol=1e-10)
+    np.testing.assert_allclose(est.transform(X), fitted.transform(X), atol=1e-10)
