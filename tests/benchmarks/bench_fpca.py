@@ -72,7 +72,7 @@ def main(argv=None):
     parser.add_argument("--repeat", type=int, default=3)
     args = parser.parse_args(argv)
     n, m, k, n_chunks = (4_000, 100, 10, 10) if args.quick else (50_000, 500, 10, 10)
-    repeat = 2 if args.quick else args.repeat
+    repeat = 1 if args.quick else args.repeat
     t, X = brownian_curves(n, m)
     print(f"FunctionalPCA benchmark: {n} curves x {m} points, {k} components, "
           f"{n_chunks} chunks for partial_fit")
