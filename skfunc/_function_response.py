@@ -64,7 +64,7 @@ from ._grid import (
     quadrature_weights,
     resolve_grid,
 )
-from ._penalized import PenalizedPath, centered, gcv_score
+from ._penalized import PenalizedPath, centered, cross_products, gcv_score
 
 #: eigenvalues below this fraction of the largest make a direction undetermined
 #: (minimum-norm solution, as numpy.linalg.lstsq)
@@ -191,36 +191,16 @@ def response_statistics(Z, Y, phi_w, sample_weight=None):
     """Additive statistics of a curve-response fit.
 
     The keys of :func:`skfunc._penalized.cross_products` (``n, sw, z_sum,
-    y_sum, zz, zy, yy``), computed with the tall response on the left of each
-    product (much faster in BLAS for many grid points), plus ``yproj``, the
-    weighted cross products of the projections ``Y_i' W Phi`` (K x K). Chunks
-    combine with :func:`skfunc._penalized.merge`.
+    y_sum, zz, zy, yy``) plus ``yproj``, the weighted cross products of the
+    projections ``Y_i' W Phi`` (K x K). Chunks combine with
+    :func:`skfunc._penalized.merge`.
     """
-    Z = np.asarray(Z, dtype=np.float64)
     Y = np.asarray(Y, dtype=np.float64)
-    n = Z.shape[0]
-    w = np.ones(n) if sample_weight is None else np.asarray(sample_weight, float)
-    Zw = np.column_stack([w, Z * w[:, None]])
-    ywz = (Y.T @ Zw).T  # (p + 1, m): weighted sums and Z'WY in one pass
+    stats = cross_products(Z, Y, sample_weight)
+    w = np.ones(Y.shape[0]) if sample_weight is None else np.asarray(sample_weight, float)
     proj = Y @ phi_w
-    return {
-        "n": n,
-        "sw": float(w.sum()),
-        "z_sum": Zw[:, 1:].sum(axis=0),
-        "y_sum": ywz[0],
-        "zz": Zw[:, 1:].T @ Z,
-        "zy": ywz[1:],
-        "yy": _weighted_squares(w, Y),
-        "yproj": (proj * w[:, None]).T @ proj,
-    }
-
-
-def _weighted_squares(w, Y, rows=2048):
-    out = np.zeros(Y.shape[1])
-    for start in range(0, Y.shape[0], rows):
-        chunk = Y[start : start + rows]
-        out += w[start : start + rows] @ (chunk * chunk)
-    return out
+    stats["yproj"] = (proj * w[:, None]).T @ proj
+    return stats
 
 
 def _block(corner, matrix):
