@@ -15,6 +15,7 @@ from sklearn.utils.validation import check_array, check_is_fitted
 from ._base import basis_for, chunked_matmul, validate_curves
 from ._bases import BASES
 from ._basis_features import BasisFeatures
+from ._dask import compute_statistics, is_dask_array
 from ._fpca import (
     CurveCoordinates,
     covariance_directions,
@@ -303,7 +304,7 @@ class FunctionalPCA(ClassNamePrefixFeaturesOutMixin, TransformerMixin, BaseEstim
         X = self._validate(X, reset=True)
         coords = self._coordinates()
         self._n_wanted(X.shape[0], coords.n_coordinates)  # fail before the work
-        solver = self._solver(X.shape[0], coords.n_coordinates)
+        solver = self._solver(X.shape[0], coords.n_coordinates, is_dask_array(X))
         if solver == "covariance_eigh":
             self._solve(self._statistics(X, coords), coords)
         else:
@@ -360,10 +361,11 @@ class FunctionalPCA(ClassNamePrefixFeaturesOutMixin, TransformerMixin, BaseEstim
         """Count, mean and centred scatter of the coordinates of X's rows.
 
         Additive over chunks through :func:`skfunc._moments.merge_moments`;
-        X must already be validated (``grid_`` set).
+        X must already be validated (``grid_`` set). Computed per row block,
+        on the workers for a dask X.
         """
         coords = self._coordinates() if coords is None else coords
-        return coords.statistics(X)
+        return compute_statistics(coords.statistics, X, merge=merge_moments)
 
     def _solve(self, stats, coords=None):
         """Set the fitted attributes from merged statistics."""
@@ -429,6 +431,10 @@ class FunctionalPCA(ClassNamePrefixFeaturesOutMixin, TransformerMixin, BaseEstim
 
     # ------------------------------------------------------------- helpers
     def _validate(self, X, reset):
+        if is_dask_array(X):  # NaN is rejected block by block when computed
+            return validate_curves(
+                self, X, reset=reset, ensure_min_samples=2 if reset else 1
+            )
         X = validate_curves(
             self, X, reset=reset, allow_nan=True, ensure_min_samples=2 if reset else 1
         )
@@ -489,8 +495,16 @@ class FunctionalPCA(ClassNamePrefixFeaturesOutMixin, TransformerMixin, BaseEstim
             self.n_components, Integral
         )
 
-    def _solver(self, n, K):
+    def _solver(self, n, K, distributed=False):
         solver = self.svd_solver
+        if distributed:
+            if solver not in ("auto", "covariance_eigh"):
+                raise ValueError(
+                    f"svd_solver={solver!r} needs all curves in one process; a "
+                    "dask array X is fitted from merged block statistics. Use "
+                    "svd_solver='auto' or 'covariance_eigh'."
+                )
+            return "covariance_eigh"
         if self.alpha > 0:
             if solver not in ("auto", "covariance_eigh"):
                 raise ValueError(

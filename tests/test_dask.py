@@ -29,6 +29,7 @@ from skfunc._dask import (  # noqa: E402
     validate_dask,
 )
 from skfunc._penalized import cross_products  # noqa: E402
+from skfunc.decomposition import FunctionalPCA  # noqa: E402
 from skfunc.linear_model import FunctionOnScalarRidge  # noqa: E402
 
 RTOL = 1e-10
@@ -148,6 +149,32 @@ def test_function_on_scalar_on_cluster_equals_in_memory_and_lstsq(client):
     prediction = model.predict(Sd)
     assert is_dask_array(prediction)
     assert_rel_close(prediction.compute(), reference.predict(S))
+
+
+def test_functional_pca_on_cluster_equals_in_memory_and_sklearn(client):
+    t, X, _ = kiln_runs(1500, n_minutes=41)
+    Xd = da.from_array(X, chunks=(200, 41))
+    model = FunctionalPCA(4, grid=t).fit(Xd)
+    reference = FunctionalPCA(4, grid=t).fit(X)
+    assert model.n_samples_seen_ == 1500
+    assert_rel_close(model.mean_, reference.mean_)
+    assert_rel_close(model.components_, reference.components_)
+    assert_rel_close(model.explained_variance_, reference.explained_variance_)
+    scores = model.transform(Xd)
+    assert is_dask_array(scores)
+    assert_rel_close(scores.compute(), reference.transform(X))
+    # Without a basis, functional PCA is PCA of the curves scaled by the
+    # square roots of the quadrature weights (common practice), here
+    # sklearn.decomposition.PCA.
+    from sklearn.decomposition import PCA
+
+    w = np.diff(t, prepend=t[0]) / 2 + np.diff(t, append=t[-1]) / 2  # trapezoid
+    pca = PCA(4, svd_solver="full").fit(X * np.sqrt(w))
+    assert_rel_close(model.explained_variance_, pca.explained_variance_, rtol=1e-8)
+    # smoothed components in a basis, from the same merged statistics
+    smooth = FunctionalPCA(3, grid=t, n_basis=12, alpha=1e-3).fit(Xd)
+    expected = FunctionalPCA(3, grid=t, n_basis=12, alpha=1e-3).fit(X)
+    assert_rel_close(smooth.components_, expected.components_)
 
 
 def test_statistics_are_reduced_on_workers_in_a_tree(client):
@@ -323,6 +350,21 @@ def test_function_on_scalar_partial_fit_and_mixed_input(sync):
     batches.set_params(response_grid=hours * 60)
     with pytest.raises(ValueError, match="differs from the one of its earlier"):
         batches.partial_fit(S[:10], Y[:10])
+
+
+def test_functional_pca_partial_fit_over_dask_batches(sync):
+    t, X, _ = kiln_runs(800, n_minutes=41)
+    reference = FunctionalPCA(3, grid=t, n_basis=15).fit(X)
+    batches = FunctionalPCA(3, grid=t, n_basis=15)
+    for start in range(0, 800, 200):
+        batches.partial_fit(da.from_array(X[start : start + 200], chunks=(64, 41)))
+    assert batches.n_samples_seen_ == 800
+    assert_rel_close(batches.components_, reference.components_)
+    with pytest.raises(ValueError, match="svd_solver='randomized' needs all curves"):
+        FunctionalPCA(3, svd_solver="randomized").fit(da.from_array(X, chunks=100))
+    X[5, 7] = np.nan
+    with pytest.raises(ValueError, match="row 5"):
+        FunctionalPCA(3).fit(da.from_array(X, chunks=100))
 
 
 def test_dask_is_not_imported_for_numpy_input():
