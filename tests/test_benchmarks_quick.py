@@ -15,7 +15,7 @@ def test_quick_benchmarks_run():
     scripts = sorted(p.name for p in BENCHMARKS.glob("bench_*.py"))
     assert "bench_scale.py" in scripts
     done = subprocess.run(
-        [sys.executable, str(BENCHMARKS / "run_all.py"), "--quick"],
+        [sys.executable, str(BENCHMARKS / "run_all.py"), "--quick", "--jobs", "2"],
         capture_output=True, text=True, timeout=300,
     )
     assert done.returncode == 0, done.stdout[-3000:] + done.stderr[-3000:]

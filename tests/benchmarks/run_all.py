@@ -6,8 +6,10 @@ Usage, from the repository root::
     python tests/benchmarks/run_all.py --quick   # small sizes, the CI smoke run
 
 Each ``bench_*.py`` runs in its own process (so peak-memory figures are not
-mixed up) with ``--quick`` passed through. The exit status is non-zero when
-any script fails; its error output is printed after its table.
+mixed up) with ``--quick`` passed through. ``--jobs 2`` runs two scripts at a
+time (for smoke runs; timings then compete for the cores). The exit status
+is non-zero when any script fails; its error output is printed after its
+table.
 """
 
 import argparse
@@ -16,6 +18,7 @@ import platform
 import subprocess
 import sys
 import time
+from concurrent.futures import ThreadPoolExecutor
 from pathlib import Path
 
 HERE = Path(__file__).resolve().parent
@@ -46,6 +49,7 @@ def machine():
 def main(argv=None):
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--quick", action="store_true", help="small sizes")
+    parser.add_argument("--jobs", type=int, default=1, help="scripts run at a time")
     parser.add_argument("scripts", nargs="*", help="only these bench_*.py names")
     args = parser.parse_args(argv)
     scripts = sorted(HERE.glob("bench_*.py"))
@@ -55,17 +59,20 @@ def main(argv=None):
     env["PYTHONPATH"] = os.pathsep.join(filter(None, [str(ROOT), env.get("PYTHONPATH")]))
     print(f"machine: {machine()}")
     print(f"command: python tests/benchmarks/run_all.py{' --quick' * args.quick}")
-    summary = []
-    for script in scripts:
+    def run(script):
         command = [sys.executable, str(script)] + (["--quick"] if args.quick else [])
         start = time.perf_counter()
         done = subprocess.run(command, cwd=ROOT, env=env, capture_output=True, text=True)
-        seconds = time.perf_counter() - start
-        print(f"\n=== {script.name} ({seconds:.1f} s) ===")
-        print(done.stdout.rstrip())
-        if done.returncode:
-            print(done.stderr.rstrip())
-        summary.append((script.name, seconds, done.returncode))
+        return script.name, time.perf_counter() - start, done
+
+    summary = []
+    with ThreadPoolExecutor(max_workers=max(1, args.jobs)) as pool:
+        for name, seconds, done in pool.map(run, scripts):
+            print(f"\n=== {name} ({seconds:.1f} s) ===")
+            print(done.stdout.rstrip())
+            if done.returncode:
+                print(done.stderr.rstrip())
+            summary.append((name, seconds, done.returncode))
     print(f"\n{'script':32s} {'seconds':>8s}  status")
     for name, seconds, code in summary:
         print(f"{name:32s} {seconds:8.1f}  {'ok' if code == 0 else f'FAILED ({code})'}")
