@@ -24,7 +24,7 @@ from sklearn.base import BaseEstimator, TransformerMixin
 from sklearn.utils._param_validation import Interval, StrOptions
 from sklearn.utils.validation import _check_feature_names_in, check_is_fitted
 
-from ._base import basis_for, chunked_matmul, validate_curves
+from ._base import CHUNK_VALUES, basis_for, chunked_matmul, validate_curves
 from ._bases import BASES
 from ._grid import check_grid, quadrature_weights
 from ._penalized import NotIdentifiableError, PenalizedPath, gcv_score, merge
@@ -97,6 +97,26 @@ def _with_row_sums(X, operator_T):
     extended = np.column_stack([operator_T, np.ones(operator_T.shape[0])])
     out = chunked_matmul(X, extended)
     return out[:, :-1], ~np.isfinite(out[:, -1])
+
+
+def _smooth_rows(X, projection_T, evaluation_T):
+    """``X @ projection_T @ evaluation_T`` in row chunks, and the NaN-row mask.
+
+    Both products run chunk by chunk, so the (rows, K) coefficients stay
+    small and X is read once; the row sums (see :func:`_with_row_sums`) come
+    from the same pass.
+    """
+    n, m = X.shape
+    extended = np.column_stack([projection_T, np.ones(m)])
+    out = np.empty((n, evaluation_T.shape[1]))
+    missing = np.empty(n, dtype=bool)
+    rows = max(1, CHUNK_VALUES // m)
+    for start in range(0, n, rows):
+        part = slice(start, min(start + rows, n))
+        coef = np.asarray(X[part], dtype=np.float64) @ extended
+        missing[part] = ~np.isfinite(coef[:, -1])
+        np.matmul(coef[:, :-1], evaluation_T, out=out[part])
+    return out, missing
 
 
 def _weighted_squares(X, w):
@@ -470,8 +490,8 @@ class CurveSmoother(TransformerMixin, BaseEstimator):
         ``rss`` and effective degrees of freedom ``edf`` per candidate, the
         number of observed points ``n_obs`` and their total weight.
         """
-        stats = [{"rss": np.zeros(self.alphas_.size), "edf": np.zeros(self.alphas_.size),
-                  "n_obs": 0, "weight": 0.0}]
+        zeros = np.zeros(self.alphas_.size)
+        stats = [{"rss": zeros, "edf": zeros, "n_obs": 0, "weight": 0.0}]
         for rows, rotated, yy, path, n_obs, weight in self._problem().blocks(X):
             # the reduction is quadratic in each rotated column, so its sum
             # over rows is the reduction of the column norms
@@ -519,14 +539,13 @@ class CurveSmoother(TransformerMixin, BaseEstimator):
         check_is_fitted(self)
         X = validate_curves(self, X, reset=False, allow_nan=True)
         if self.per_curve:
-            coef = self._per_curve(X)[0]
-        else:
-            coef, missing = _with_row_sums(X, self.projection_.T)
-            if missing.any():
-                rows = np.flatnonzero(missing)
-                for group, rotated, _, path, _, _ in self._problem().blocks(X, rows):
-                    coef[group] = path.coef(rotated, self.alpha_)
-        return chunked_matmul(coef, self.evaluation_.T)
+            return chunked_matmul(self._per_curve(X)[0], self.evaluation_.T)
+        out, missing = _smooth_rows(X, self.projection_.T, self.evaluation_.T)
+        if missing.any():
+            rows = np.flatnonzero(missing)
+            for group, rotated, _, path, _, _ in self._problem().blocks(X, rows):
+                out[group] = path.coef(rotated, self.alpha_) @ self.evaluation_.T
+        return out
 
     def choose_alphas(self, X):
         """The alpha GCV chooses for each curve among ``alphas_``.

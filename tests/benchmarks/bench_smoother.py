@@ -20,6 +20,7 @@ from pathlib import Path
 
 import numpy as np
 from scipy.interpolate import make_smoothing_spline
+from threadpoolctl import threadpool_limits
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
 
@@ -27,11 +28,18 @@ from skfunc.preprocessing import CurveSmoother  # noqa: E402
 
 
 def best_time(func, repeat):
-    best = np.inf
+    return best_times([func], repeat)[0]
+
+
+def best_times(funcs, repeat):
+    """Best wall time of each function, interleaving the repeats so that a
+    busy machine slows all of them alike."""
+    best = [np.inf] * len(funcs)
     for _ in range(repeat):
-        start = time.perf_counter()
-        func()
-        best = min(best, time.perf_counter() - start)
+        for i, func in enumerate(funcs):
+            start = time.perf_counter()
+            func()
+            best[i] = min(best[i], time.perf_counter() - start)
     return best
 
 
@@ -61,8 +69,7 @@ def bench_transform(n, rng):
     smoother = CurveSmoother(alpha=1e-6, n_basis=k).fit(X[:100])
     B = np.ascontiguousarray(smoother.projection_.T)
     C = np.ascontiguousarray(smoother.evaluation_.T)
-    ours = best_time(lambda: smoother.transform(X), 5)
-    bare = best_time(lambda: (X @ B) @ C, 5)
+    ours, bare = best_times([lambda: smoother.transform(X), lambda: (X @ B) @ C], 7)
     tracemalloc.start()
     out = smoother.transform(X)
     _, peak = tracemalloc.get_traced_memory()
@@ -79,9 +86,16 @@ def bench_transform(n, rng):
 def main(argv=None):
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--quick", action="store_true", help="small sizes")
+    parser.add_argument("--threads", type=int, default=None,
+                        help="limit BLAS threads (default: no limit)")
     args = parser.parse_args(argv)
+    with threadpool_limits(args.threads):
+        run(args.quick)
+
+
+def run(quick):
     rng = np.random.default_rng(0)
-    if args.quick:
+    if quick:
         rows = bench_per_curve(2_000, 5, rng) + bench_transform(10_000, rng)
     else:
         rows = bench_per_curve(20_000, 200, rng) + bench_transform(100_000, rng)
