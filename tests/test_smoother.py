@@ -196,13 +196,15 @@ def test_resolution_invariance_gcv_alpha():
     # cell has variance sigma^2 / w_j; with it the best alpha does not depend
     # on the sampling, and the GCV choice must not either (within one step of
     # the candidate grid).
-    chosen = {}
+    chosen, candidates = {}, []
     for name, t in _samplings().items():
         rng = np.random.default_rng(11)
         w = quadrature_weights(t)
         X = _curves(t, 30) + rng.normal(size=(30, t.size)) * 0.1 / np.sqrt(w)
         smoother = CurveSmoother(grid=t).fit(X)
         chosen[name] = smoother.alpha_
+        candidates.append(smoother.alphas_)
+    assert_allclose(candidates[1:], [candidates[0]] * 3, rtol=1e-12)
     step = smoother.alphas_[1] / smoother.alphas_[0]
     values = np.array(list(chosen.values()))
     assert values.max() / values.min() <= step * (1 + 1e-9), chosen
@@ -221,6 +223,9 @@ def test_fitted_attributes_and_gcv_curve(rng):
     assert 2 < smoother.edf_ < smoother.n_basis_
     # the GCV curve has an interior minimum for noisy smooth curves
     assert 0 < np.argmin(smoother.criterion_) < 24
+    fewer = CurveSmoother(alphas=7).fit(X)
+    assert_allclose(fewer.alphas_[[0, -1]], smoother.alphas_[[0, -1]])
+    assert fewer.alphas_.size == 7
     fixed = CurveSmoother(alpha=0.01).fit(X)
     assert fixed.alphas_.tolist() == [0.01] and fixed.alpha_ == 0.01
     # a huge penalty leaves the straight lines, 2 degrees of freedom (common
