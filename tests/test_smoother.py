@@ -333,6 +333,8 @@ def test_float32_input(rng):
         ({"alpha": "loo"}, "'alpha' parameter"),
         ({"penalty_order": 4}, "penalty_order=4 exceeds"),
         ({"alpha": 0.0, "n_basis": 40}, "n_basis=40 exceeds the 30 grid points"),
+        ({"grid": [0.0, 1.0, 2.0]}, "grid has 3 points but X has 30 columns"),
+        ({"grid": np.r_[0.0, 0.0, np.arange(1.0, 29.0)]}, "strictly increasing"),
     ],
 )
 def test_bad_parameters(params, match, rng):
@@ -356,6 +358,8 @@ def test_bad_rows(rng):
     X_few[4, :22] = np.nan  # 8 values for 10 unpenalized coefficients
     with pytest.raises(ValueError, match="Row 4 of X has 8 observed value"):
         fitted.transform(X_few)
+    with pytest.raises(ValueError, match="a curve needs at least 2 grid points"):
+        CurveSmoother().fit(X[:, :1])
     with pytest.raises(ValueError, match="X has 29 features"):
         fitted.transform(X[:, :-1])
     with pytest.raises(ValueError, match="contains infinity"):
