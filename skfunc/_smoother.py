@@ -86,36 +86,31 @@ def _check_output_grid(points):
     return check_grid(out, name="output_grid")
 
 
-def _with_row_sums(X, operator_T):
-    """``X @ operator_T`` and a mask of the rows of X holding NaN.
+def _products(X, first_T, second_T=None):
+    """``X @ first_T`` (then ``@ second_T``) in row chunks, and a mask of the
+    rows of X that hold NaN.
 
-    An extra column of ones gives each row's sum in the same pass over X;
-    it is NaN exactly when the row holds a NaN (inf is rejected on input).
-    Any non-finite sum (an overflow) is sent down the careful path too,
-    which handles complete rows correctly, so nothing is misclassified.
-    """
-    extended = np.column_stack([operator_T, np.ones(operator_T.shape[0])])
-    out = chunked_matmul(X, extended)
-    return out[:, :-1], ~np.isfinite(out[:, -1])
-
-
-def _smooth_rows(X, projection_T, evaluation_T):
-    """``X @ projection_T @ evaluation_T`` in row chunks, and the NaN-row mask.
-
-    Both products run chunk by chunk, so the (rows, K) coefficients stay
-    small and X is read once; the row sums (see :func:`_with_row_sums`) come
-    from the same pass.
+    Both products run chunk by chunk, so X is read once and the (rows, K)
+    intermediate stays small. An extra column of ones in ``first_T`` gives
+    each row's sum in the same pass: it is NaN exactly when the row holds a
+    NaN (inf is rejected on input). A row whose sum overflows is flagged
+    too and takes the careful per-pattern path, which also handles complete
+    rows, so nothing is misclassified.
     """
     n, m = X.shape
-    extended = np.column_stack([projection_T, np.ones(m)])
-    out = np.empty((n, evaluation_T.shape[1]))
+    extended = np.column_stack([first_T, np.ones(m)])
+    width = first_T.shape[1] if second_T is None else second_T.shape[1]
+    out = np.empty((n, width))
     missing = np.empty(n, dtype=bool)
     rows = max(1, CHUNK_VALUES // m)
     for start in range(0, n, rows):
         part = slice(start, min(start + rows, n))
         coef = np.asarray(X[part], dtype=np.float64) @ extended
         missing[part] = ~np.isfinite(coef[:, -1])
-        np.matmul(coef[:, :-1], evaluation_T, out=out[part])
+        if second_T is None:
+            out[part] = coef[:, :-1]
+        else:
+            np.matmul(coef[:, :-1], second_T, out=out[part])
     return out, missing
 
 
@@ -165,7 +160,7 @@ class _Problem:
         w = self.weights
         if rows is None:
             path = self.path(w)
-            rotated, missing = _with_row_sums(X, self.rotation(path, w))
+            rotated, missing = _products(X, self.rotation(path, w))
             complete = np.flatnonzero(~missing)
             if complete.size:
                 whole = complete.size == X.shape[0]
@@ -540,7 +535,7 @@ class CurveSmoother(TransformerMixin, BaseEstimator):
         X = validate_curves(self, X, reset=False, allow_nan=True)
         if self.per_curve:
             return chunked_matmul(self._per_curve(X)[0], self.evaluation_.T)
-        out, missing = _smooth_rows(X, self.projection_.T, self.evaluation_.T)
+        out, missing = _products(X, self.projection_.T, self.evaluation_.T)
         if missing.any():
             rows = np.flatnonzero(missing)
             for group, rotated, _, path, _, _ in self._problem().blocks(X, rows):
