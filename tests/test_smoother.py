@@ -362,5 +362,12 @@ def test_bad_rows(rng):
         CurveSmoother().fit(X[:, :1])
     with pytest.raises(ValueError, match="X has 29 features"):
         fitted.transform(X[:, :-1])
+    X_inf = np.where(X > 1, np.inf, X)
     with pytest.raises(ValueError, match="contains infinity"):
-        fitted.transform(np.where(X > 1, np.inf, X))
+        fitted.transform(X_inf)
+    per_curve = CurveSmoother(per_curve=True).fit(X)
+    for method in (per_curve.transform, per_curve.choose_alphas):
+        with pytest.raises(ValueError, match="contains infinity"):
+            method(X_inf)
+    with pytest.raises(ValueError, match="contains infinity"):
+        CurveSmoother().fit(X_inf)
