@@ -264,6 +264,20 @@ def test_missing_rows_match_fixed_alpha_and_per_curve(rng):
     assert_allclose(per_curve.transform(X_gap)[keep], per_curve.transform(X)[keep])
 
 
+def test_gcv_undefined_rows_get_the_largest_alpha(rng):
+    # two observations fit any straight line exactly: GCV's denominator
+    # (1 - edf / n)^2 vanishes for every candidate, so the smoothest is used,
+    # and the smooth is (nearly) the line through the two points
+    t = np.linspace(0, 1, 30)
+    X = _curves(t, 3) + rng.normal(scale=0.1, size=(3, t.size))
+    X[1] = np.nan
+    X[1, [5, 20]] = [1.0, 4.0]
+    smoother = CurveSmoother(per_curve=True).fit(X)
+    assert smoother.choose_alphas(X)[1] == smoother.alphas_.max()
+    line = 1.0 + 3.0 * (t - t[5]) / (t[20] - t[5])
+    assert_allclose(smoother.transform(X)[1], line, atol=1e-3)
+
+
 def test_tunable_in_grid_search(rng):
     from sklearn.linear_model import Ridge
     from sklearn.model_selection import GridSearchCV
