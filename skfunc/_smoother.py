@@ -25,8 +25,15 @@ from sklearn.base import BaseEstimator, TransformerMixin
 from sklearn.utils._param_validation import Interval, StrOptions
 from sklearn.utils.validation import _check_feature_names_in, check_is_fitted
 
-from ._base import CHUNK_VALUES, basis_for, chunked_matmul, validate_curves
+from ._base import (
+    CHUNK_VALUES,
+    basis_for,
+    chunked_matmul,
+    validate_curves,
+    validate_partial,
+)
 from ._bases import BASES
+from ._dask import apply_rows, compute_statistics, running_statistics
 from ._grid import check_grid, quadrature_weights
 from ._penalized import NotIdentifiableError, PenalizedPath, gcv_score, merge
 
@@ -289,6 +296,9 @@ class CurveSmoother(TransformerMixin, BaseEstimator):
     evaluation_ : ndarray of shape (n_outputs, n_basis_)
         Values (or derivatives of order ``derivative``) of the basis
         functions at ``output_grid_``.
+    n_samples_seen_ : int
+        Number of curves fitted (by :meth:`fit`, or by all calls of
+        :meth:`partial_fit` since the first).
     n_features_in_ : int
         Number of grid points seen during fit.
     feature_names_in_ : ndarray of shape (n_features_in_,)
@@ -431,10 +441,34 @@ class CurveSmoother(TransformerMixin, BaseEstimator):
         self : object
             Fitted smoother.
         """
-        self._validate_params()
-        X = validate_curves(self, X, reset=True, allow_nan=True)
-        self._setup()
-        return self._solve(self._statistics(X))
+        vars(self).pop("n_samples_seen_", None)  # start afresh: fit is a first batch
+        return self.partial_fit(X)
+
+    def partial_fit(self, X, y=None):
+        """Add a batch of curves to the pooled GCV statistics and refit.
+
+        The shared alpha is chosen from statistics summed over all batches
+        so far, so the fit equals :meth:`fit` on all of them. The first batch
+        fixes the grid and the candidate alphas.
+
+        Parameters
+        ----------
+        X : array-like or dask array of shape (n_samples, n_features)
+            A batch of curves on the grid of the first; NaN marks a missing
+            value.
+        y : None
+            Ignored; accepted for pipeline compatibility.
+
+        Returns
+        -------
+        self : CurveSmoother
+            The smoother, fitted on all batches so far.
+        """
+        first, X = validate_partial(self, X, allow_nan=True)
+        if first:
+            self._setup()
+        stats = compute_statistics(self._statistics, X)
+        return self._solve(running_statistics(self, stats, first, X.shape[0]))
 
     def _setup(self):
         """Everything that depends on the parameters and grid only."""
@@ -538,9 +572,14 @@ class CurveSmoother(TransformerMixin, BaseEstimator):
         Returns
         -------
         X_smooth : ndarray of shape (n_samples, n_outputs)
+            A lazy dask array when X is one.
         """
         check_is_fitted(self)
         X = self._validate_fast(X)
+        return apply_rows(self._smooth, X, self.evaluation_.shape[0])
+
+    def _smooth(self, X):
+        """The smoothed curves of validated in-memory rows."""
         if self.per_curve:
             return chunked_matmul(self._per_curve(X)[0], self.evaluation_.T)
         out, missing = _products(X, self.projection_.T, self.evaluation_.T)
@@ -563,9 +602,13 @@ class CurveSmoother(TransformerMixin, BaseEstimator):
         Returns
         -------
         alphas : ndarray of shape (n_samples,)
+            A lazy dask array when X is one.
         """
         check_is_fitted(self)
-        return self._per_curve(self._validate_fast(X))[1]
+        return apply_rows(self._chosen_alphas, self._validate_fast(X))
+
+    def _chosen_alphas(self, X):
+        return self._per_curve(X)[1]
 
     def _validate_fast(self, X):
         """Validate curves at transform time without a separate pass for inf.

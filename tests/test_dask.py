@@ -31,6 +31,7 @@ from skfunc._dask import (  # noqa: E402
 from skfunc._penalized import cross_products  # noqa: E402
 from skfunc.decomposition import FunctionalPCA  # noqa: E402
 from skfunc.linear_model import FunctionOnScalarRidge  # noqa: E402
+from skfunc.preprocessing import CurveSmoother  # noqa: E402
 
 RTOL = 1e-10
 
@@ -175,6 +176,26 @@ def test_functional_pca_on_cluster_equals_in_memory_and_sklearn(client):
     smooth = FunctionalPCA(3, grid=t, n_basis=12, alpha=1e-3).fit(Xd)
     expected = FunctionalPCA(3, grid=t, n_basis=12, alpha=1e-3).fit(X)
     assert_rel_close(smooth.components_, expected.components_)
+
+
+def test_curve_smoother_on_cluster_equals_in_memory(client):
+    t, X, _ = kiln_runs(600, n_minutes=61)
+    X[10, 5:9] = np.nan  # a thermocouple drop-out
+    lines = 300 + 80 * t  # straight ramps, in the penalty's null space
+    X[20:23] = lines
+    Xd = da.from_array(X, chunks=(90, 61))
+    model = CurveSmoother(grid=t).fit(Xd)
+    reference = CurveSmoother(grid=t).fit(X)
+    # the shared alpha by GCV from statistics pooled on the workers
+    assert model.alpha_ == pytest.approx(reference.alpha_, rel=RTOL)
+    assert_rel_close(model.criterion_, reference.criterion_)
+    smooth = model.transform(Xd)
+    assert is_dask_array(smooth)
+    smooth = smooth.compute()
+    assert_rel_close(smooth, reference.transform(X))
+    # A second-derivative roughness penalty leaves straight lines unchanged
+    # (common practice: lines are its null space), whatever alpha GCV chose.
+    np.testing.assert_allclose(smooth[20:23], np.broadcast_to(lines, (3, 61)), rtol=1e-9)
 
 
 def test_statistics_are_reduced_on_workers_in_a_tree(client):
@@ -365,6 +386,23 @@ def test_functional_pca_partial_fit_over_dask_batches(sync):
     X[5, 7] = np.nan
     with pytest.raises(ValueError, match="row 5"):
         FunctionalPCA(3).fit(da.from_array(X, chunks=100))
+
+
+def test_curve_smoother_partial_fit_pools_gcv_statistics(sync):
+    t, X, _ = kiln_runs(400, n_minutes=61)
+    reference = CurveSmoother(grid=t).fit(X)
+    batches = CurveSmoother(grid=t)
+    for start in range(0, 400, 100):
+        batches.partial_fit(da.from_array(X[start : start + 100], chunks=(30, 61)))
+    assert batches.n_samples_seen_ == 400
+    assert batches.alpha_ == pytest.approx(reference.alpha_, rel=RTOL)
+    assert_rel_close(batches.criterion_, reference.criterion_)
+    assert_rel_close(batches.projection_, reference.projection_)
+    with pytest.raises(ValueError, match="61 features"):
+        batches.partial_fit(X[:5, :30])
+    batches.set_params(grid=t * 60)
+    with pytest.raises(ValueError, match="grid that differs from the one of its earlier"):
+        batches.partial_fit(X[:5])
 
 
 def test_dask_is_not_imported_for_numpy_input():
