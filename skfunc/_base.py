@@ -6,6 +6,8 @@ their basis with :func:`basis_for`, and apply fitted linear operators with
 :func:`chunked_matmul`.
 """
 
+from types import SimpleNamespace
+
 import numpy as np
 from sklearn.utils.validation import validate_data
 
@@ -18,13 +20,16 @@ CHUNK_VALUES = 1 << 22
 
 
 def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
-                    **check_params):
+                    n_covariates=0, **check_params):
     """Validate curves (rows of X) and their grid.
 
     On ``reset`` the grid is resolved from ``estimator.grid``, numeric
     DataFrame column labels, or evenly spaced points on [0, 1], and stored as
     ``estimator.grid_``. Otherwise X must have as many columns as at fit, and
     numeric DataFrame labels must match the fitted grid.
+
+    ``n_covariates`` trailing columns of X are scalar covariates, not curve
+    values: the grid (and its column labels) covers the other columns only.
     """
     X_in = X
     out = validate_data(
@@ -37,23 +42,36 @@ def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
         **check_params,
     )
     X = out[0] if isinstance(out, tuple) else out
+    n_points = X.shape[1] - n_covariates
+    if n_covariates and n_points < 2:
+        raise ValueError(
+            f"X has {X.shape[1]} column(s), of which the last n_covariates="
+            f"{n_covariates} are scalar covariates, leaving {n_points} grid "
+            "point(s); a curve needs at least 2 grid points (columns of X) "
+            "before the covariates."
+        )
     if X.shape[1] < 2:
         raise ValueError(
             f"X has {X.shape[1]} feature(s) (grid points); a curve needs at least "
             f"2 grid points, one per column of X, to be represented."
         )
     if allow_nan:
-        empty = np.flatnonzero(np.all(np.isnan(X), axis=1))
+        empty = np.flatnonzero(np.all(np.isnan(X[:, :n_points]), axis=1))
         if empty.size:
             raise ValueError(
                 f"Row {int(empty[0])} of X is entirely NaN: a curve needs observed "
                 "values to be represented."
             )
+    labels = getattr(X_in, "columns", None)
+    labels = None if labels is None else list(labels)[:n_points]
     if reset:
-        estimator.grid_ = resolve_grid(getattr(estimator, "grid", None), X_in, X.shape[1])
+        estimator.grid_ = resolve_grid(
+            getattr(estimator, "grid", None),
+            None if labels is None else SimpleNamespace(columns=labels),
+            n_points,
+        )
     else:
-        labels = getattr(X_in, "columns", None)
-        inferred = grid_from_labels(list(labels)) if labels is not None else None
+        inferred = grid_from_labels(labels) if labels is not None else None
         if inferred is not None and not np.allclose(
             inferred, estimator.grid_, rtol=1e-9, atol=0
         ):

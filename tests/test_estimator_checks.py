@@ -9,7 +9,25 @@ from sklearn.utils.estimator_checks import parametrize_with_checks
 import skfunc
 
 #: {estimator class name: {check name: why it is expected to fail}}
-EXPECTED_FAILURES = {}
+EXPECTED_FAILURES = {
+    "FunctionalRidge": {
+        "check_regressor_data_not_an_array": (
+            "The check's DataFrame has integer column labels 0..9, which define "
+            "the grid 0..9 (documented grid inference) instead of the default "
+            "[0, 1]; at the same fixed alpha the roughness penalty on the longer "
+            "domain is a different model, so predictions differ by design."
+        ),
+    },
+    "FunctionalLogisticRegression": {
+        "check_sample_weight_equivalence_on_dense_data": (
+            "On the check's 15 random rows with 3 classes, the classes are "
+            "partially separable by the unpenalized part of beta (intercept and "
+            "straight lines), so the penalized likelihood has no finite "
+            "maximiser; coefficients diverge and probabilities on the "
+            "zero-weight rows depend on where the iterations stop."
+        ),
+    },
+}
 
 
 def _instances():
