@@ -104,7 +104,8 @@ class FunctionalLogisticRegression(IntegratedDesignMixin, ClassifierMixin, BaseE
     max_iter : int, default=100
         Maximum number of Newton iterations.
     tol : float, default=1e-10
-        Stop when half the squared Newton decrement falls below
+        Stop after a Newton step whose half squared Newton decrement (the
+        predicted decrease of the objective) is below
         ``tol * (1 + |objective|)``.
     grid : array-like of shape (n_features - n_covariates,), default=None
         Sampling points of the curve columns. None means their numeric
@@ -303,9 +304,6 @@ class FunctionalLogisticRegression(IntegratedDesignMixin, ClassifierMixin, BaseE
         for self.n_iter_ in range(1, self.max_iter + 1):
             step = _newton_step(hess + roughness + shift, grad)
             decrement = grad @ step
-            if decrement / 2 <= self.tol * (1.0 + abs(value)):
-                converged = True
-                break
             size = 1.0
             while True:
                 trial = theta - size * step.reshape(n_out, p)
@@ -315,11 +313,23 @@ class FunctionalLogisticRegression(IntegratedDesignMixin, ClassifierMixin, BaseE
                 size /= 2
             theta = trial
             value, grad, hess = objective(theta)
+            if decrement / 2 <= self.tol * (1.0 + abs(value)):
+                converged = True  # after a last step: Newton converges fast
+                break
         if not converged:
             warnings.warn(
                 f"FunctionalLogisticRegression did not converge in max_iter="
                 f"{self.max_iter} Newton iterations (the classes may be "
                 "separable by the curves); increase alpha or max_iter.",
+                ConvergenceWarning,
+                stacklevel=3,
+            )
+        elif _saturated(D @ theta.T, sample_weight):
+            warnings.warn(
+                "FunctionalLogisticRegression did not converge to a finite "
+                "maximum: fitted probabilities numerically 0 or 1 occurred, so "
+                "the classes are probably separable by the unpenalized part of "
+                "the model and the coefficients diverge; increase alpha.",
                 ConvergenceWarning,
                 stacklevel=3,
             )
@@ -394,6 +404,16 @@ class FunctionalLogisticRegression(IntegratedDesignMixin, ClassifierMixin, BaseE
         scores = self.decision_function(X)
         index = (scores > 0).astype(int) if scores.ndim == 1 else scores.argmax(axis=1)
         return self.classes_[index]
+
+
+def _saturated(eta, sample_weight, eps=1e-12):
+    """Whether a weighted row has a fitted probability within eps of 0 or 1,
+    the usual symptom of separation (common practice in GLM software)."""
+    if eta.shape[1] == 1:
+        eta = np.column_stack([np.zeros(len(eta)), eta])
+    log_prob = eta - logsumexp(eta, axis=1, keepdims=True)
+    rows = sample_weight > 0
+    return bool(np.any(log_prob[rows] < np.log(eps)))
 
 
 def _newton_step(hess, grad):
