@@ -61,9 +61,9 @@ _SHARED_ATTRIBUTES = """
         ``predict(X) = X @ coef_.T + intercept_``.
     intercept_ : float or ndarray of shape (n_targets,)
         The intercept b0 (0.0 when ``fit_intercept=False``).
-    edf_ : float
+    edf_ : float or ndarray of shape (n_targets,)
         Effective degrees of freedom, the trace of the hat matrix (including
-        the intercept and the covariates).
+        the intercept and the covariates); one per target when alpha is.
     noise_variance_ : float or ndarray of shape (n_targets,)
         ``sum w_i r_i^2 / (n_samples - edf_)``; NaN when ``edf_ >= n_samples``.
     coef_covariance_ : ndarray of shape (n_basis_, n_basis_) or (n_targets, ...)
@@ -155,19 +155,24 @@ class _FunctionalRidgeBase(IntegratedDesignMixin, RegressorMixin, BaseEstimator)
 
     def _solve(self, stats, alpha, basis, squeeze):
         """Coefficients, degrees of freedom, noise variance and posterior
-        covariance at ``alpha`` from merged statistics; sets the attributes."""
+        covariance at ``alpha`` (a scalar, or one per target) from merged
+        statistics; sets the attributes."""
         path, part = self._path(stats, self._penalty(basis), alpha)
-        theta = path.coef(part["rotated"], alpha)
+        rotated = part["rotated"]
+        per_target = np.broadcast_to(alpha, rotated.shape[:1])
+        theta = path.coef(rotated, per_target)
         intercept = part["y_mean"] - theta @ part["z_mean"]
-        rss = part["yy"] - path.rss_reduction(part["rotated"], [alpha])[:, 0]
-        rss = np.maximum(rss, 0.0)
-        edf = float(path.edf(alpha)) + self.fit_intercept
+        reduction = np.diagonal(path.rss_reduction(rotated, per_target))
+        rss = np.maximum(part["yy"] - reduction, 0.0)
+        edf = path.edf(per_target) + self.fit_intercept
         dof = stats["n"] - edf
-        sigma2 = rss / dof if dof > 0 else np.full_like(rss, np.nan)
+        sigma2 = np.where(dof > 0, rss / np.where(dof > 0, dof, 1.0), np.nan)
         k = basis.n_basis
-        covariance = sigma2[:, None, None] * path.operator(alpha)[:k, :k]
+        u = path.eigvecs[:k]
+        inv_d = 1.0 / path.denominators(per_target)
+        covariance = np.einsum("t,kj,tj,lj->tkl", sigma2, u, inv_d, u)
         self._set_coefficients(basis, theta, intercept, covariance, squeeze)
-        self.edf_ = edf
+        self.edf_ = float(edf[0]) if np.ndim(alpha) == 0 else edf
         self.noise_variance_ = float(sigma2[0]) if squeeze else sigma2
         return self
 
@@ -321,18 +326,24 @@ class FunctionalRidgeCV(_FunctionalRidgeBase):
         None uses ``criterion``; otherwise a scikit-learn splitter (an int
         means ``KFold(cv)``), and the criterion is the mean over folds of the
         weighted held-out mean squared error.
+    alpha_per_target : bool, default=False
+        With several targets, choose one alpha per target (as
+        :class:`sklearn.linear_model.RidgeCV` does) instead of one alpha
+        minimising the criterion averaged over targets.
 %(shared)s
 
     Attributes
     ----------
     alphas_ : ndarray of shape (n_alphas,)
         The candidate alphas.
-    criterion_ : ndarray of shape (n_alphas,)
+    criterion_ : ndarray of shape (n_alphas,) or (n_targets, n_alphas)
         GCV score, leave-one-out or K-fold mean squared error for each
-        candidate (lower is better), averaged over targets.
-    alpha_ : float
-        The chosen alpha (the first minimiser of ``criterion_``).
-    best_score_ : float
+        candidate (lower is better), averaged over targets; one row per
+        target with ``alpha_per_target=True``.
+    alpha_ : float or ndarray of shape (n_targets,)
+        The chosen alpha (the first minimiser of ``criterion_``); one per
+        target with ``alpha_per_target=True`` and several targets.
+    best_score_ : float or ndarray of shape (n_targets,)
         ``-criterion_`` at ``alpha_`` (higher is better, as in RidgeCV).
 %(attributes)s
 
@@ -378,6 +389,7 @@ class FunctionalRidgeCV(_FunctionalRidgeBase):
         "alphas": ["array-like", None],
         "criterion": [StrOptions({"gcv", "loo"})],
         "cv": ["cv_object"],
+        "alpha_per_target": ["boolean"],
     }
 
     def __init__(
@@ -386,6 +398,7 @@ class FunctionalRidgeCV(_FunctionalRidgeBase):
         *,
         criterion="gcv",
         cv=None,
+        alpha_per_target=False,
         basis="bspline",
         n_basis=None,
         degree=3,
@@ -399,6 +412,7 @@ class FunctionalRidgeCV(_FunctionalRidgeBase):
         self.alphas = alphas
         self.criterion = criterion
         self.cv = cv
+        self.alpha_per_target = alpha_per_target
         self.basis = basis
         self.n_basis = n_basis
         self.degree = degree
@@ -459,19 +473,28 @@ class FunctionalRidgeCV(_FunctionalRidgeBase):
             if self.criterion == "gcv":
                 rss = part["yy"][:, None] - path.rss_reduction(part["rotated"], alphas)
                 edf = path.edf(alphas) + self.fit_intercept
-                criterion = gcv_score(rss, edf, stats["n"], stats["sw"]).mean(axis=0)
+                criterion = gcv_score(rss, edf, stats["n"], stats["sw"])
             else:
                 criterion = self._loo_criterion(path, part, Z, y2, sample_weight, alphas)
-        best = int(np.argmin(criterion))
+        # criterion: (n_targets, n_alphas)
+        if not self.alpha_per_target:
+            criterion = criterion.mean(axis=0)
+        best = np.argmin(criterion, axis=-1)
         self.alphas_ = alphas
         self.criterion_ = criterion
-        self.alpha_ = float(alphas[best])
-        self.best_score_ = -float(criterion[best])
+        if self.alpha_per_target:
+            self.alpha_ = alphas[best]
+            self.best_score_ = -np.take_along_axis(criterion, best[:, None], 1)[:, 0]
+            if y.ndim == 1:
+                self.alpha_, self.best_score_ = float(self.alpha_[0]), float(self.best_score_[0])
+        else:
+            self.alpha_ = float(alphas[best])
+            self.best_score_ = -float(criterion[best])
         return self._solve(stats, self.alpha_, basis, squeeze=y.ndim == 1)
 
     def _held_out_error(self, path, part, Z, y2, sample_weight, alphas, leverage):
         """Weighted mean of squared (leave-one-out) residuals on rows of Z, for
-        every alpha, averaged over targets; ``leverage`` adds the LOO factor."""
+        every target and alpha; ``leverage`` adds the leave-one-out factor."""
         inv_d = 1.0 / path.denominators(alphas)  # (L, K)
         zu = (Z - part["z_mean"]) @ path.eigvecs
         divisor = 1.0
@@ -480,13 +503,13 @@ class FunctionalRidgeCV(_FunctionalRidgeBase):
             if self.fit_intercept:
                 h += (sample_weight / sample_weight.sum())[:, None]
             divisor = 1.0 - h
-        errors = np.zeros(len(alphas))
+        errors = np.zeros((y2.shape[1], len(alphas)))
         for j, rotated in enumerate(part["rotated"]):
             residual = (y2[:, j] - part["y_mean"][j])[:, None] - (zu * rotated) @ inv_d.T
             with np.errstate(divide="ignore", invalid="ignore"):
-                errors += sample_weight @ (residual / divisor) ** 2
-        with np.errstate(invalid="ignore"):
-            out = errors / (sample_weight.sum() * y2.shape[1])
+                errors[j] = sample_weight @ (residual / divisor) ** 2
+        with np.errstate(divide="ignore", invalid="ignore"):
+            out = errors / sample_weight.sum()
         return np.where(np.isfinite(out), out, np.inf)
 
     def _loo_criterion(self, path, part, Z, y2, sample_weight, alphas):

@@ -128,3 +128,20 @@ def test_bad_criterion(data):
     X, y = data
     with pytest.raises(ValueError, match="criterion"):
         FunctionalRidgeCV(criterion="aic").fit(X, y)
+
+
+def test_alpha_per_target_equals_separate_fits(data):
+    # Each target's alpha and fit equal a FunctionalRidgeCV fit on that
+    # target alone (the same convention as RidgeCV(alpha_per_target=True)).
+    X, y = data
+    Y = np.column_stack([y, 5 * y**2 + 1])
+    both = FunctionalRidgeCV(alphas=ALPHAS, alpha_per_target=True, n_basis=10).fit(X, Y)
+    for j, col in enumerate(Y.T):
+        one = FunctionalRidgeCV(alphas=ALPHAS, n_basis=10).fit(X, col)
+        assert both.alpha_[j] == one.alpha_
+        np.testing.assert_allclose(both.criterion_[j], one.criterion_, rtol=1e-10)
+        np.testing.assert_allclose(both.coef_function_[j], one.coef_function_, rtol=1e-8)
+        np.testing.assert_allclose(both.edf_[j], one.edf_, rtol=1e-10)
+        np.testing.assert_allclose(
+            both.confidence_band()[1][j], one.confidence_band()[1], rtol=1e-8
+        )
