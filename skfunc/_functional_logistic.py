@@ -57,7 +57,9 @@ def newton_statistics(D, Y, sample_weight, theta):
         log_norm = logsumexp(eta, axis=1)
         prob = np.exp(eta - log_norm[:, None])
         loss = sample_weight @ (log_norm - np.sum(Y * eta, axis=1))
-        curvature = np.eye(n_out) * prob[:, :, None] - prob[:, :, None] * prob[:, None, :]
+        curvature = (
+            np.eye(n_out) * prob[:, :, None] - prob[:, :, None] * prob[:, None, :]
+        )
     grad = ((prob - Y) * sample_weight[:, None]).T @ D
     hess = np.zeros((n_out, p, n_out, p))
     for a in range(n_out):
@@ -68,7 +70,9 @@ def newton_statistics(D, Y, sample_weight, theta):
     return float(loss), grad.ravel(), hess.reshape(n_out * p, n_out * p)
 
 
-class FunctionalLogisticRegression(IntegratedDesignMixin, ClassifierMixin, BaseEstimator):
+class FunctionalLogisticRegression(
+    IntegratedDesignMixin, ClassifierMixin, BaseEstimator
+):
     """Classification from curves by penalized functional logistic regression.
 
     The log-odds (binary) or the class scores (multinomial, softmax) are
@@ -284,7 +288,9 @@ class FunctionalLogisticRegression(IntegratedDesignMixin, ClassifierMixin, BaseE
         lead = int(self.fit_intercept)
         D = np.hstack([np.ones((Z.shape[0], lead)), Z - z_mean])
         n_out, p = Y.shape[1], D.shape[1]
-        roughness = np.kron(np.eye(n_out), self.alpha * np.pad(penalty, ((lead, 0),) * 2))
+        roughness = np.kron(
+            np.eye(n_out), self.alpha * np.pad(penalty, ((lead, 0),) * 2)
+        )
         # The softmax is unchanged by a common shift of all classes'
         # coefficients; a penalty on their sum over classes selects the
         # centered solution without moving the optimum (whose sum is zero)
@@ -301,7 +307,8 @@ class FunctionalLogisticRegression(IntegratedDesignMixin, ClassifierMixin, BaseE
         theta = np.zeros((n_out, p))
         value, grad, hess = objective(theta)
         converged = False
-        for self.n_iter_ in range(1, self.max_iter + 1):
+        for n_iter in range(1, self.max_iter + 1):
+            self.n_iter_ = n_iter
             step = _newton_step(hess + roughness + shift, grad)
             decrement = grad @ step
             size = 1.0

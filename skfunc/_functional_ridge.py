@@ -110,12 +110,15 @@ _SHARED_REFERENCES = """
 
 
 def _docstring(cls):
-    cls.__doc__ = (
-        cls.__doc__.replace("%(shared)s", _SHARED_DOC.strip("\n"))
-        .replace("%(attributes)s", _SHARED_ATTRIBUTES.strip("\n"))
-        .replace("%(notes)s", _SHARED_NOTES.strip("\n"))
-        .replace("%(references)s", _SHARED_REFERENCES.strip("\n"))
-    )
+    """Fill the shared sections (placeholders ``    %(name)s``) of a docstring."""
+    shared = {
+        "shared": _SHARED_DOC,
+        "attributes": _SHARED_ATTRIBUTES,
+        "notes": _SHARED_NOTES,
+        "references": _SHARED_REFERENCES,
+    }
+    for key, text in shared.items():
+        cls.__doc__ = cls.__doc__.replace(f"    %({key})s", text.strip("\n"))
     return cls
 
 
@@ -150,7 +153,10 @@ class _FunctionalRidgeBase(IntegratedDesignMixin, RegressorMixin, BaseEstimator)
             z_mean, y_mean = np.zeros(zz.shape[0]), np.zeros(zy.shape[1])
         path = self._checked_path(zz, penalty, alphas, stats["n"])
         return path, {
-            "z_mean": z_mean, "y_mean": y_mean, "yy": yy, "rotated": path.rotate(zy.T)
+            "z_mean": z_mean,
+            "y_mean": y_mean,
+            "yy": yy,
+            "rotated": path.rotate(zy.T),
         }
 
     def _solve(self, stats, alpha, basis, squeeze):
@@ -206,11 +212,11 @@ class FunctionalRidge(_FunctionalRidgeBase):
     alpha : float, default=1.0
         Roughness penalty weight; 0 for unpenalized least squares (which
         needs fewer basis functions than curves).
-%(shared)s
+    %(shared)s
 
     Attributes
     ----------
-%(attributes)s
+    %(attributes)s
 
     See Also
     --------
@@ -220,11 +226,11 @@ class FunctionalRidge(_FunctionalRidgeBase):
 
     Notes
     -----
-%(notes)s
+    %(notes)s
 
     References
     ----------
-%(references)s
+    %(references)s
 
     Examples
     --------
@@ -330,7 +336,7 @@ class FunctionalRidgeCV(_FunctionalRidgeBase):
         With several targets, choose one alpha per target (as
         :class:`sklearn.linear_model.RidgeCV` does) instead of one alpha
         minimising the criterion averaged over targets.
-%(shared)s
+    %(shared)s
 
     Attributes
     ----------
@@ -345,7 +351,7 @@ class FunctionalRidgeCV(_FunctionalRidgeBase):
         target with ``alpha_per_target=True`` and several targets.
     best_score_ : float or ndarray of shape (n_targets,)
         ``-criterion_`` at ``alpha_`` (higher is better, as in RidgeCV).
-%(attributes)s
+    %(attributes)s
 
     See Also
     --------
@@ -354,7 +360,7 @@ class FunctionalRidgeCV(_FunctionalRidgeBase):
 
     Notes
     -----
-%(notes)s
+    %(notes)s
 
     GCV is ``(RSS / sum w) / (1 - edf / n)^2`` with the intercept counted in
     ``edf``. Leave-one-out uses the exact identity ``y_i - yhat_{-i} =
@@ -364,7 +370,7 @@ class FunctionalRidgeCV(_FunctionalRidgeBase):
 
     References
     ----------
-%(references)s
+    %(references)s
 
     Craven, P. and Wahba, G. (1979). Smoothing noisy data with spline
     functions. *Numerische Mathematik* 31, 377-403.
@@ -475,7 +481,9 @@ class FunctionalRidgeCV(_FunctionalRidgeBase):
                 edf = path.edf(alphas) + self.fit_intercept
                 criterion = gcv_score(rss, edf, stats["n"], stats["sw"])
             else:
-                criterion = self._loo_criterion(path, part, Z, y2, sample_weight, alphas)
+                criterion = self._loo_criterion(
+                    path, part, Z, y2, sample_weight, alphas
+                )
         # criterion: (n_targets, n_alphas)
         if not self.alpha_per_target:
             criterion = criterion.mean(axis=0)
@@ -486,7 +494,10 @@ class FunctionalRidgeCV(_FunctionalRidgeBase):
             self.alpha_ = alphas[best]
             self.best_score_ = -np.take_along_axis(criterion, best[:, None], 1)[:, 0]
             if y.ndim == 1:
-                self.alpha_, self.best_score_ = float(self.alpha_[0]), float(self.best_score_[0])
+                self.alpha_, self.best_score_ = (
+                    float(self.alpha_[0]),
+                    float(self.best_score_[0]),
+                )
         else:
             self.alpha_ = float(alphas[best])
             self.best_score_ = -float(criterion[best])
@@ -505,7 +516,9 @@ class FunctionalRidgeCV(_FunctionalRidgeBase):
             divisor = 1.0 - h
         errors = np.zeros((y2.shape[1], len(alphas)))
         for j, rotated in enumerate(part["rotated"]):
-            residual = (y2[:, j] - part["y_mean"][j])[:, None] - (zu * rotated) @ inv_d.T
+            residual = (y2[:, j] - part["y_mean"][j])[:, None] - (
+                zu * rotated
+            ) @ inv_d.T
             with np.errstate(divide="ignore", invalid="ignore"):
                 errors[j] = sample_weight @ (residual / divisor) ** 2
         with np.errstate(divide="ignore", invalid="ignore"):

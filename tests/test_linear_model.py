@@ -137,16 +137,22 @@ def test_pipeline_and_column_transformer_with_covariates(rng):
         ],
         verbose_feature_names_out=False,
     ).set_output(transform="pandas")
-    pipe = make_pipeline(prep, FunctionalRidgeCV(alphas=np.logspace(-8, 0, 9), n_covariates=2))
+    pipe = make_pipeline(
+        prep, FunctionalRidgeCV(alphas=np.logspace(-8, 0, 9), n_covariates=2)
+    )
     pipe.fit(frame, y)
     model = pipe[-1]
     np.testing.assert_allclose(model.grid_, np.round(T, 2))
     assert list(model.feature_names_in_[-2:]) == ["peak_setpoint", "load_mass"]
     # the same model from plain arrays
     settings = StandardScaler().fit_transform(frame[["peak_setpoint", "load_mass"]])
-    direct = FunctionalRidgeCV(alphas=np.logspace(-8, 0, 9), n_covariates=2, grid=np.round(T, 2))
+    direct = FunctionalRidgeCV(
+        alphas=np.logspace(-8, 0, 9), n_covariates=2, grid=np.round(T, 2)
+    )
     direct.fit(np.hstack([X, settings]), y)
-    np.testing.assert_allclose(pipe.predict(frame), direct.predict(np.hstack([X, settings])))
+    np.testing.assert_allclose(
+        pipe.predict(frame), direct.predict(np.hstack([X, settings]))
+    )
     assert pipe.score(frame, y) > 0.9
 
 

@@ -100,7 +100,9 @@ def test_multiple_targets_average_the_criterion(data):
     Y = np.column_stack([y, y**2])
     both = FunctionalRidgeCV(alphas=ALPHAS, criterion="loo", n_basis=10).fit(X, Y)
     each = [
-        FunctionalRidgeCV(alphas=ALPHAS, criterion="loo", n_basis=10).fit(X, col).criterion_
+        FunctionalRidgeCV(alphas=ALPHAS, criterion="loo", n_basis=10)
+        .fit(X, col)
+        .criterion_
         for col in Y.T
     ]
     np.testing.assert_allclose(both.criterion_, np.mean(each, axis=0), rtol=1e-10)
@@ -140,7 +142,9 @@ def test_alpha_per_target_equals_separate_fits(data):
         one = FunctionalRidgeCV(alphas=ALPHAS, n_basis=10).fit(X, col)
         assert both.alpha_[j] == one.alpha_
         np.testing.assert_allclose(both.criterion_[j], one.criterion_, rtol=1e-10)
-        np.testing.assert_allclose(both.coef_function_[j], one.coef_function_, rtol=1e-8)
+        np.testing.assert_allclose(
+            both.coef_function_[j], one.coef_function_, rtol=1e-8
+        )
         np.testing.assert_allclose(both.edf_[j], one.edf_, rtol=1e-10)
         np.testing.assert_allclose(
             both.confidence_band()[1][j], one.confidence_band()[1], rtol=1e-8

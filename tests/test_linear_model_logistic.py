@@ -44,14 +44,18 @@ def test_vanishing_penalty_binary_equals_sklearn(rng):
     # Source: sklearn.linear_model.LogisticRegression without penalty
     # (C=inf) on the integrated design built with numpy's Legendre polynomials.
     X, y = make_data(rng)
-    ours = FunctionalLogisticRegression(alpha=0.0, basis="legendre", n_basis=5).fit(X, y)
+    ours = FunctionalLogisticRegression(alpha=0.0, basis="legendre", n_basis=5).fit(
+        X, y
+    )
     Z = legendre_design(X, 5)
     ref = LogisticRegression(C=np.inf, solver="newton-cg", tol=1e-12).fit(Z, y)
     np.testing.assert_array_equal(ours.classes_, ref.classes_)
     np.testing.assert_allclose(ours.basis_coef_, ref.coef_, rtol=1e-6)
     np.testing.assert_allclose(ours.intercept_, ref.intercept_, rtol=1e-6, atol=1e-8)
     np.testing.assert_allclose(ours.predict_proba(X), ref.predict_proba(Z), atol=1e-9)
-    np.testing.assert_allclose(ours.decision_function(X), ref.decision_function(Z), atol=1e-8)
+    np.testing.assert_allclose(
+        ours.decision_function(X), ref.decision_function(Z), atol=1e-8
+    )
     np.testing.assert_array_equal(ours.predict(X), ref.predict(Z))
 
 
@@ -59,7 +63,9 @@ def test_vanishing_penalty_multinomial_equals_sklearn(rng):
     # Source: as above, multinomial; probabilities are unique even though the
     # unpenalized coefficients are determined only up to a common shift.
     X, y = make_data(rng, n_classes=3)
-    ours = FunctionalLogisticRegression(alpha=0.0, basis="legendre", n_basis=4).fit(X, y)
+    ours = FunctionalLogisticRegression(alpha=0.0, basis="legendre", n_basis=4).fit(
+        X, y
+    )
     Z = legendre_design(X, 4)
     ref = LogisticRegression(C=np.inf, solver="newton-cg", tol=1e-12).fit(Z, y)
     np.testing.assert_allclose(ours.predict_proba(X), ref.predict_proba(Z), atol=1e-8)
@@ -97,7 +103,9 @@ def test_class_weight_equals_sklearn(rng):
         ref = LogisticRegression(
             C=np.inf, solver="newton-cg", tol=1e-12, class_weight=class_weight
         ).fit(Z, y)
-        np.testing.assert_allclose(ours.predict_proba(X), ref.predict_proba(Z), atol=1e-8)
+        np.testing.assert_allclose(
+            ours.predict_proba(X), ref.predict_proba(Z), atol=1e-8
+        )
 
 
 def test_recovers_beta_and_band(rng):
@@ -145,3 +153,39 @@ def test_bad_input(rng):
         FunctionalLogisticRegression(class_weight="equal").fit(X, y)
     with pytest.raises(ValueError, match=r"alpha > 0"):
         FunctionalLogisticRegression(alpha=0.0, n_basis=60).fit(X, y)
+
+
+def test_scalar_covariates_equal_sklearn(rng):
+    # Source: sklearn.linear_model.LogisticRegression (C=inf) on
+    # [integrated design, covariates].
+    X, y = make_data(rng)
+    S = rng.normal(size=(len(y), 2))
+    ours = FunctionalLogisticRegression(
+        alpha=0.0, basis="legendre", n_basis=4, n_covariates=2
+    ).fit(np.hstack([X, S]), y)
+    Z = np.hstack([legendre_design(X, 4), S])
+    ref = LogisticRegression(C=np.inf, solver="newton-cg", tol=1e-12).fit(Z, y)
+    np.testing.assert_allclose(ours.covariate_coef_, ref.coef_[:, 4:], rtol=1e-6)
+    np.testing.assert_allclose(
+        ours.predict_proba(np.hstack([X, S])), ref.predict_proba(Z), atol=1e-9
+    )
+
+
+def test_resolution_invariance(rng):
+    # Same curves on 201, 1001 and uneven 201-point grids: coefficient
+    # functions and probabilities agree with the 1001-point fit within 1e-3.
+    scores = curve_scores(300, rng)
+    y = (rng.uniform(size=300) < expit(2 * integral_with_beta(scores))).astype(int)
+    even = np.linspace(0, 1, 201)
+    uneven = even + np.r_[0, rng.uniform(-0.4, 0.4, size=199), 0] * even[1]
+
+    def fit(t):
+        X = curves_on(scores, t)
+        est = FunctionalLogisticRegression(alpha=1e-4, grid=t).fit(X, y)
+        return est.basis_coef_, est.predict_proba(X)
+
+    coef_ref, proba_ref = fit(np.linspace(0, 1, 1001))
+    for t in (even, uneven):
+        coef, proba = fit(t)
+        assert np.linalg.norm(coef - coef_ref) <= 1e-3 * np.linalg.norm(coef_ref)
+        assert np.abs(proba - proba_ref).max() <= 1e-3

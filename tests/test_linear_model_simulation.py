@@ -28,7 +28,9 @@ def test_error_below_ridgecv_and_band_coverage(n, noise):
     rng = np.random.default_rng(12345)
     scores = curve_scores(n, rng)
     X = curves_on(scores, T)
-    Y = integral_with_beta(scores)[:, None] + noise * rng.normal(size=(n, N_REPLICATIONS))
+    Y = integral_with_beta(scores)[:, None] + noise * rng.normal(
+        size=(n, N_REPLICATIONS)
+    )
     w = trapezoid_weights(T)
     beta = true_beta(T)
 

@@ -63,23 +63,39 @@ def main():
         seconds = best_time(lambda est=est: est.fit(X, y), repeat)
         rows.append((f"FunctionalRidgeCV, 50 alphas, {criterion}", seconds))
     kfold = FunctionalRidgeCV(alphas=alphas, cv=5)
-    rows.append(("FunctionalRidgeCV, 50 alphas, cv=5", best_time(lambda: kfold.fit(X, y), 1)))
+    rows.append(
+        ("FunctionalRidgeCV, 50 alphas, cv=5", best_time(lambda: kfold.fit(X, y), 1))
+    )
     search = GridSearchCV(FunctionalRidge(), {"alpha": alphas}, cv=5, n_jobs=1)
     grid_seconds = best_time(lambda: search.fit(X, y), 1)
     rows.append(("GridSearchCV(FunctionalRidge), 50 alphas, cv=5", grid_seconds))
     raw = RidgeCV(alphas=alphas)
-    rows.append(("sklearn RidgeCV on raw values, 50 alphas", best_time(lambda: raw.fit(X, y), 1)))
+    rows.append(
+        (
+            "sklearn RidgeCV on raw values, 50 alphas",
+            best_time(lambda: raw.fit(X, y), 1),
+        )
+    )
 
-    print(f"n_curves={n}, n_points={m}, 50 alphas, best of {repeat} (1 for the slow rows)")
-    print(f"{'method':50s} {'seconds':>9s} {'x one fit':>10s} {'grid search / this':>19s}")
+    print(
+        f"n_curves={n}, n_points={m}, 50 alphas, best of {repeat} (1 for the slow rows)"
+    )
+    print(
+        f"{'method':50s} {'seconds':>9s} {'x one fit':>10s} {'grid search / this':>19s}"
+    )
     for name, seconds in rows:
-        print(f"{name:50s} {seconds:9.3f} {seconds / one:10.2f} {grid_seconds / seconds:19.1f}")
+        ratios = f"{seconds / one:10.2f} {grid_seconds / seconds:19.1f}"
+        print(f"{name:50s} {seconds:9.3f} {ratios}")
     gcv = rows[1][1]
     print()
-    print(f"GCV path / one fit = {gcv / one:.2f}  (target <= 3): "
-          f"{'PASS' if gcv / one <= 3 else 'FAIL'}")
-    print(f"GridSearchCV / GCV path = {grid_seconds / gcv:.1f}  (target >= 20): "
-          f"{'PASS' if grid_seconds / gcv >= 20 else 'FAIL'}")
+    print(
+        f"GCV path / one fit = {gcv / one:.2f}  (target <= 3): "
+        f"{'PASS' if gcv / one <= 3 else 'FAIL'}"
+    )
+    print(
+        f"GridSearchCV / GCV path = {grid_seconds / gcv:.1f}  (target >= 20): "
+        f"{'PASS' if grid_seconds / gcv >= 20 else 'FAIL'}"
+    )
 
 
 if __name__ == "__main__":
