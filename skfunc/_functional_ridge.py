@@ -168,7 +168,10 @@ class _FunctionalRidgeBase(IntegratedDesignMixin, RegressorMixin, BaseEstimator)
         per_target = np.broadcast_to(alpha, rotated.shape[:1])
         theta = path.coef(rotated, per_target)
         intercept = part["y_mean"] - theta @ part["z_mean"]
-        reduction = np.diagonal(path.rss_reduction(rotated, per_target))
+        reduction = np.empty(len(rotated))
+        for value in np.unique(per_target):
+            rows = per_target == value
+            reduction[rows] = path.rss_reduction(rotated[rows], [value])[:, 0]
         rss = np.maximum(part["yy"] - reduction, 0.0)
         edf = path.edf(per_target) + self.fit_intercept
         dof = stats["n"] - edf
@@ -475,33 +478,30 @@ class FunctionalRidgeCV(_FunctionalRidgeBase):
         if self.cv is not None:
             criterion = self._kfold_criterion(Z, y2, sample_weight, penalty, alphas)
         else:
-            path, part = self._path(stats, penalty, alphas)
-            if self.criterion == "gcv":
-                rss = part["yy"][:, None] - path.rss_reduction(part["rotated"], alphas)
-                edf = path.edf(alphas) + self.fit_intercept
-                criterion = gcv_score(rss, edf, stats["n"], stats["sw"])
-            else:
-                criterion = self._loo_criterion(
-                    path, part, Z, y2, sample_weight, alphas
-                )
-        # criterion: (n_targets, n_alphas)
-        if not self.alpha_per_target:
-            criterion = criterion.mean(axis=0)
+            criterion = self._path_criterion(
+                stats, penalty, alphas, Z, y2, sample_weight
+            )
+        if not (self.alpha_per_target and y.ndim == 2):
+            criterion = criterion.mean(axis=0)  # one alpha for all targets
         best = np.argmin(criterion, axis=-1)
         self.alphas_ = alphas
         self.criterion_ = criterion
-        if self.alpha_per_target:
-            self.alpha_ = alphas[best]
-            self.best_score_ = -np.take_along_axis(criterion, best[:, None], 1)[:, 0]
-            if y.ndim == 1:
-                self.alpha_, self.best_score_ = (
-                    float(self.alpha_[0]),
-                    float(self.best_score_[0]),
-                )
+        if criterion.ndim == 1:
+            self.alpha_, self.best_score_ = float(alphas[best]), -float(criterion[best])
         else:
-            self.alpha_ = float(alphas[best])
-            self.best_score_ = -float(criterion[best])
+            self.alpha_ = alphas[best]
+            self.best_score_ = -criterion[np.arange(best.size), best]
         return self._solve(stats, self.alpha_, basis, squeeze=y.ndim == 1)
+
+    def _path_criterion(self, stats, penalty, alphas, Z, y2, sample_weight):
+        """GCV or exact leave-one-out for every target and alpha, from one
+        decomposition: shape (n_targets, n_alphas)."""
+        path, part = self._path(stats, penalty, alphas)
+        if self.criterion == "gcv":
+            rss = part["yy"][:, None] - path.rss_reduction(part["rotated"], alphas)
+            edf = path.edf(alphas) + self.fit_intercept
+            return gcv_score(rss, edf, stats["n"], stats["sw"])
+        return self._held_out_error(path, part, Z, y2, sample_weight, alphas, True)
 
     def _held_out_error(self, path, part, Z, y2, sample_weight, alphas, leverage):
         """Weighted mean of squared (leave-one-out) residuals on rows of Z, for
@@ -516,17 +516,13 @@ class FunctionalRidgeCV(_FunctionalRidgeBase):
             divisor = 1.0 - h
         errors = np.zeros((y2.shape[1], len(alphas)))
         for j, rotated in enumerate(part["rotated"]):
-            residual = (y2[:, j] - part["y_mean"][j])[:, None] - (
-                zu * rotated
-            ) @ inv_d.T
+            fitted = (zu * rotated) @ inv_d.T
+            residual = (y2[:, j] - part["y_mean"][j])[:, None] - fitted
             with np.errstate(divide="ignore", invalid="ignore"):
                 errors[j] = sample_weight @ (residual / divisor) ** 2
         with np.errstate(divide="ignore", invalid="ignore"):
             out = errors / sample_weight.sum()
         return np.where(np.isfinite(out), out, np.inf)
-
-    def _loo_criterion(self, path, part, Z, y2, sample_weight, alphas):
-        return self._held_out_error(path, part, Z, y2, sample_weight, alphas, True)
 
     def _kfold_criterion(self, Z, y2, sample_weight, penalty, alphas):
         cv = check_cv(self.cv)

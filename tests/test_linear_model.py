@@ -238,3 +238,38 @@ def test_more_basis_functions_than_curves_needs_alpha(rng):
         FunctionalRidge(alpha=0.0, n_basis=20).fit(X, y)
     assert "20 basis functions" in str(info.value) and "12 curves" in str(info.value)
     FunctionalRidge(alpha=1e-4, n_basis=20).fit(X, y)  # penalized: fine
+
+
+def test_no_intercept_equals_sklearn_ridge(rng):
+    # Source: sklearn.linear_model.Ridge(fit_intercept=False), setting as in
+    # test_identity_penalty_in_fourier_basis_equals_sklearn_ridge.
+    X, y = make_data(rng, n=40)
+    Z = BasisFeatures(basis="fourier", n_basis=9).fit_transform(X)
+    ours = FunctionalRidge(
+        alpha=0.3, basis="fourier", n_basis=9, penalty_order=0, fit_intercept=False
+    ).fit(X, y)
+    ref = Ridge(alpha=0.3, fit_intercept=False).fit(Z, y)
+    np.testing.assert_allclose(ours.basis_coef_, ref.coef_, rtol=1e-8, atol=1e-10)
+    assert ours.intercept_ == 0.0
+
+
+def test_fit_is_a_sum_over_chunks(rng):
+    # Statistics of chunks, merged, then solved, give the in-memory fit: the
+    # path partial_fit and distributed fits take.
+    from skfunc._penalized import merge
+
+    X, y = make_data(rng, n=50)
+    w = rng.uniform(0.5, 2, size=50)
+    full = FunctionalRidge(alpha=1e-4).fit(X, y, sample_weight=w)
+    chunked = FunctionalRidge(alpha=1e-4).fit(X[:5], y[:5])  # sets grid_
+    basis = chunked._basis()
+    operator = chunked._integration_operator(basis)
+    parts = [
+        chunked._statistics(X[s], y[s], w[s], operator)
+        for s in (slice(0, 20), slice(20, 50))
+    ]
+    chunked._solve(merge(*parts), 1e-4, basis, squeeze=True)
+    np.testing.assert_allclose(chunked.coef_, full.coef_, rtol=1e-10)
+    np.testing.assert_allclose(
+        chunked.noise_variance_, full.noise_variance_, rtol=1e-10
+    )
