@@ -28,7 +28,7 @@ from ._integrated_design import (
 from ._penalized import centered, cross_products
 
 
-def newton_statistics(D, Y, sample_weight, theta):
+def newton_statistics(D, Y, sample_weight, theta, derivatives=True):
     """Negative log-likelihood, gradient and Hessian summed over rows.
 
     Parameters
@@ -40,12 +40,16 @@ def newton_statistics(D, Y, sample_weight, theta):
         per class for the multinomial model.
     sample_weight : ndarray of shape (n,)
     theta : ndarray of shape (T, p)
+    derivatives : bool, default=True
+        False to compute the loss only.
 
     Returns
     -------
     loss : float
     grad : ndarray of shape (T * p,)
+        Only when ``derivatives``.
     hess : ndarray of shape (T * p, T * p)
+        Only when ``derivatives``.
     """
     eta = D @ theta.T
     n_out, p = theta.shape
@@ -60,6 +64,8 @@ def newton_statistics(D, Y, sample_weight, theta):
         curvature = (
             np.eye(n_out) * prob[:, :, None] - prob[:, :, None] * prob[:, None, :]
         )
+    if not derivatives:
+        return float(loss)
     grad = ((prob - Y) * sample_weight[:, None]).T @ D
     hess = np.zeros((n_out, p, n_out, p))
     for a in range(n_out):
@@ -297,24 +303,28 @@ class FunctionalLogisticRegression(
         # and makes the Hessian invertible.
         scale = np.diag(np.maximum(sample_weight @ D**2, 1.0)) / n_out
         shift = np.kron(np.ones((n_out, n_out)), scale) if n_out > 1 else 0.0
+        quadratic = roughness + shift
 
-        def objective(theta):
-            loss, grad, hess = newton_statistics(D, Y, sample_weight, theta)
+        def objective(theta, derivatives=True):
+            """Penalized loss (, gradient, Hessian of the likelihood part)."""
             flat = theta.ravel()
-            curvature = roughness + shift
-            return loss + flat @ curvature @ flat / 2, grad + curvature @ flat, hess
+            value = flat @ quadratic @ flat / 2
+            if not derivatives:
+                return value + newton_statistics(D, Y, sample_weight, theta, False)
+            loss, grad, hess = newton_statistics(D, Y, sample_weight, theta)
+            return value + loss, grad + quadratic @ flat, hess
 
         theta = np.zeros((n_out, p))
         value, grad, hess = objective(theta)
         converged = False
         for n_iter in range(1, self.max_iter + 1):
             self.n_iter_ = n_iter
-            step = _newton_step(hess + roughness + shift, grad)
+            step = _newton_step(hess + quadratic, grad)
             decrement = grad @ step
             size = 1.0
             while True:
                 trial = theta - size * step.reshape(n_out, p)
-                trial_value = objective(trial)[0]
+                trial_value = objective(trial, derivatives=False)
                 if trial_value <= value - 1e-4 * size * decrement or size < 1e-10:
                     break
                 size /= 2
