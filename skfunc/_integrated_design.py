@@ -107,12 +107,23 @@ class IntegratedDesignMixin:
                 )
             path.denominators(alphas)
         except NotIdentifiableError as exc:
+            if np.min(alphas) == 0:
+                advice = (
+                    "Use a roughness penalty alpha > 0 (the usual choice), fewer "
+                    "basis functions (n_basis) or more curves."
+                )
+            else:
+                advice = (
+                    "The penalty leaves functions with D^penalty_order = 0 (and "
+                    "the covariates) unpenalized, so the data must determine "
+                    "those: use more curves, a lower penalty_order or fewer "
+                    "covariates."
+                )
             raise NotIdentifiableError(
                 f"{type(self).__name__} cannot determine {n_coef} coefficients "
                 f"({n_coef - self.n_covariates} basis functions for beta and "
                 f"{self.n_covariates} covariate(s)) from {n_samples} curves: "
-                f"{exc}. Use a roughness penalty alpha > 0 (the usual choice), "
-                "fewer basis functions (n_basis) or more curves."
+                f"{exc}. {advice}"
             ) from exc
         return path
 

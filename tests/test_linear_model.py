@@ -273,3 +273,11 @@ def test_fit_is_a_sum_over_chunks(rng):
     np.testing.assert_allclose(
         chunked.noise_variance_, full.noise_variance_, rtol=1e-10
     )
+
+
+def test_too_few_curves_for_the_unpenalized_part(rng):
+    # Two centered curves cannot determine the straight-line part of beta
+    # that the second-derivative penalty leaves free.
+    X, y = make_data(rng, n=2)
+    with pytest.raises(ValueError, match="more curves, a lower penalty_order"):
+        FunctionalRidge(alpha=1.0).fit(X, y)
