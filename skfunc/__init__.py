@@ -6,17 +6,23 @@ Hilbert space of functions, evaluated on the curves' grid.
 
 __version__ = "0.1.0"
 
-from . import hilbert
+from . import hilbert, metrics
+from .decomposition import FunctionalPCA
 from .linear_model import (
     FunctionalLogisticRegression,
     FunctionalRidge,
     FunctionalRidgeCV,
+    FunctionOnFunctionRidge,
+    FunctionOnScalarRidge,
 )
 from .preprocessing import BasisFeatures
 
 #: every public estimator class; the estimator-check test runs over this list
 ESTIMATORS = [
     BasisFeatures,
+    FunctionalPCA,
+    FunctionOnScalarRidge,
+    FunctionOnFunctionRidge,
     FunctionalRidge,
     FunctionalRidgeCV,
     FunctionalLogisticRegression,
@@ -26,8 +32,12 @@ __all__ = [
     "BasisFeatures",
     "ESTIMATORS",
     "FunctionalLogisticRegression",
+    "FunctionalPCA",
     "FunctionalRidge",
     "FunctionalRidgeCV",
+    "FunctionOnFunctionRidge",
+    "FunctionOnScalarRidge",
     "hilbert",
+    "metrics",
     "__version__",
 ]

@@ -6,8 +6,6 @@ their basis with :func:`basis_for`, and apply fitted linear operators with
 :func:`chunked_matmul`.
 """
 
-from types import SimpleNamespace
-
 import numpy as np
 from sklearn.utils.validation import validate_data
 
@@ -32,6 +30,13 @@ def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
     values: the grid (and its column labels) covers the other columns only.
     """
     X_in = X
+    labels = getattr(X_in, "columns", None)
+    if labels is not None and n_covariates:
+        n_curve = len(labels) - n_covariates
+        # too few curve columns: left to the clear error below
+        labels = list(labels)[:n_curve] if n_curve >= 2 else None
+    # read the labels first: a mix of numbers and words gets our message
+    inferred = grid_from_labels(list(labels)) if labels is not None else None
     out = validate_data(
         estimator,
         X,
@@ -62,16 +67,10 @@ def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
                 f"Row {int(empty[0])} of X is entirely NaN: a curve needs observed "
                 "values to be represented."
             )
-    labels = getattr(X_in, "columns", None)
-    labels = None if labels is None else list(labels)[:n_points]
     if reset:
-        estimator.grid_ = resolve_grid(
-            getattr(estimator, "grid", None),
-            None if labels is None else SimpleNamespace(columns=labels),
-            n_points,
-        )
+        grid = getattr(estimator, "grid", None)
+        estimator.grid_ = resolve_grid(grid if grid is not None else inferred, X, n_points)
     else:
-        inferred = grid_from_labels(labels) if labels is not None else None
         if inferred is not None and not np.allclose(
             inferred, estimator.grid_, rtol=1e-9, atol=0
         ):
