@@ -22,7 +22,7 @@ from ._grid import check_grid, grid_from_labels, resolve_grid
 
 
 def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
-                    **check_params):
+                    n_covariates=0, **check_params):
     """Validate curves (rows of X) and their grid.
 
     On ``reset`` the grid is resolved from ``estimator.grid``, numeric
@@ -30,19 +30,26 @@ def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
     ``estimator.grid_``. Otherwise X must have as many columns as at fit, and
     numeric DataFrame labels must match the fitted grid.
 
+    ``n_covariates`` trailing columns of X are scalar covariates, not curve
+    values: the grid (and its column labels) covers the other columns only.
+
     Dask arrays are validated without gathering them (see ``skfunc._dask``)
     and returned as lazy dask arrays.
     """
     if is_dask_array(X) or is_dask_array(y) or type(X).__module__.startswith("dask"):
         out = validate_dask(estimator, X, y, reset=reset, allow_nan=allow_nan,
-                            **check_params)
+                            n_covariates=n_covariates, **check_params)
         if reset:
-            n_points = estimator.n_features_in_
+            n_points = estimator.n_features_in_ - n_covariates
             estimator.grid_ = resolve_grid(getattr(estimator, "grid", None), None,
                                            n_points)
         return out
     X_in = X
     labels = getattr(X_in, "columns", None)
+    if labels is not None and n_covariates:
+        n_curve = len(labels) - n_covariates
+        # too few curve columns: left to the clear error below
+        labels = list(labels)[:n_curve] if n_curve >= 2 else None
     # read the labels first: a mix of numbers and words gets our message
     inferred = grid_from_labels(list(labels)) if labels is not None else None
     out = validate_data(
@@ -55,6 +62,14 @@ def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
         **check_params,
     )
     X = out[0] if isinstance(out, tuple) else out
+    n_points = X.shape[1] - n_covariates
+    if n_covariates and n_points < 2:
+        raise ValueError(
+            f"X has {X.shape[1]} column(s), of which the last n_covariates="
+            f"{n_covariates} are scalar covariates, leaving {n_points} grid "
+            "point(s); a curve needs at least 2 grid points (columns of X) "
+            "before the covariates."
+        )
     if X.shape[1] < 2:
         raise ValueError(
             f"X has {X.shape[1]} feature(s) (grid points); a curve needs at least "
@@ -63,7 +78,7 @@ def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
     if allow_nan:
         # an all-NaN row starts with NaN: scan only those rows, not all of X
         suspect = np.flatnonzero(np.isnan(X[:, 0]))
-        empty = suspect[np.all(np.isnan(X[suspect]), axis=1)]
+        empty = suspect[np.all(np.isnan(X[suspect, :n_points]), axis=1)]
         if empty.size:
             raise ValueError(
                 f"Row {int(empty[0])} of X is entirely NaN: a curve needs observed "
@@ -71,7 +86,7 @@ def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
             )
     if reset:
         grid = getattr(estimator, "grid", None)
-        estimator.grid_ = resolve_grid(grid if grid is not None else inferred, X, X.shape[1])
+        estimator.grid_ = resolve_grid(grid if grid is not None else inferred, X, n_points)
     else:
         if inferred is not None and not np.allclose(
             inferred, estimator.grid_, rtol=1e-9, atol=0

@@ -241,7 +241,7 @@ def running_statistics(estimator, stats, first, n_rows, merge=merge_sums):
 # --------------------------------------------------------------------------
 
 
-def _check_block(block, name, allow_nan, block_info=None):
+def _check_block(block, name, allow_nan, n_points=None, block_info=None):
     """Raise ValueError if a block holds values sklearn would reject."""
     offset = 0
     if block_info is not None and 0 in block_info:
@@ -258,7 +258,7 @@ def _check_block(block, name, allow_nan, block_info=None):
                 " accepted."
             )
         if allow_nan and name == "X":
-            empty = np.flatnonzero(np.all(np.isnan(values), axis=1))
+            empty = np.flatnonzero(np.all(np.isnan(values[:, :n_points]), axis=1))
             if empty.size:
                 raise ValueError(
                     f"Row {offset + int(empty[0])} of X is entirely NaN: a curve "
@@ -293,7 +293,8 @@ def _whole_rows(array, name):
     return array
 
 
-def _validate_dask_X(estimator, X, reset, allow_nan, ensure_min_samples, curves):
+def _validate_dask_X(estimator, X, reset, allow_nan, ensure_min_samples, curves,
+                     n_covariates):
     if X.ndim != 2:
         raise ValueError(
             f"Expected a 2-D dask array (one curve per row), got {X.ndim}-D with "
@@ -309,6 +310,13 @@ def _validate_dask_X(estimator, X, reset, allow_nan, ensure_min_samples, curves)
             f"Found array with {n} sample(s) (shape={X.shape}) while a minimum of "
             f"{ensure_min_samples} is required by {type(estimator).__name__}."
         )
+    if curves and n_covariates and m - n_covariates < 2:
+        raise ValueError(
+            f"X has {m} column(s), of which the last n_covariates={n_covariates} "
+            f"are scalar covariates, leaving {m - n_covariates} grid point(s); a "
+            "curve needs at least 2 grid points (columns of X) before the "
+            "covariates."
+        )
     if curves and m < 2:
         raise ValueError(
             f"X has {m} feature(s) (grid points); a curve needs at least "
@@ -322,7 +330,8 @@ def _validate_dask_X(estimator, X, reset, allow_nan, ensure_min_samples, curves)
     _check_feature_names(estimator, X, reset=reset)
     _check_n_features(estimator, X, reset=reset)
     return X.map_blocks(
-        _check_block, "X", allow_nan, meta=np.empty((0, 0), dtype=X.dtype)
+        _check_block, "X", allow_nan, m - n_covariates,
+        meta=np.empty((0, 0), dtype=X.dtype),
     )
 
 
@@ -360,11 +369,11 @@ def _validate_dask_y(estimator, y, X, multi_output, y_numeric):
 
 def validate_dask(estimator, X, y="no_validation", *, reset, allow_nan=False,
                   multi_output=False, y_numeric=False, ensure_min_samples=1,
-                  curves=True):
+                  curves=True, n_covariates=0):
     """``validate_data`` for Dask input (X, y or both), without gathering it.
 
-    ``curves=True`` means the rows of X are curves (at least 2 columns);
-    False, scalar features.
+    ``curves=True`` means the rows of X are curves (at least 2 columns, not
+    counting ``n_covariates`` trailing scalar columns); False, scalar features.
 
     Checks and stores ``n_features_in_`` (and drops ``feature_names_in_``:
     dask arrays carry no column names); converts X to float64 unless it is
@@ -395,7 +404,8 @@ def validate_dask(estimator, X, y="no_validation", *, reset, allow_nan=False,
             f"This {type(estimator).__name__} estimator requires y to be passed, "
             "but the target y is None."
         )
-    X = _validate_dask_X(estimator, X, reset, allow_nan, ensure_min_samples, curves)
+    X = _validate_dask_X(estimator, X, reset, allow_nan, ensure_min_samples, curves,
+                         n_covariates)
     if no_y:
         return X
     return X, _validate_dask_y(estimator, y, X, multi_output, y_numeric)
