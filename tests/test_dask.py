@@ -30,10 +30,20 @@ from skfunc._dask import (  # noqa: E402
 )
 from skfunc._penalized import cross_products  # noqa: E402
 from skfunc.decomposition import FunctionalPCA  # noqa: E402
-from skfunc.linear_model import FunctionOnScalarRidge  # noqa: E402
+from skfunc.linear_model import (  # noqa: E402
+    FunctionalRidge,
+    FunctionalRidgeCV,
+    FunctionOnScalarRidge,
+)
 from skfunc.preprocessing import CurveSmoother  # noqa: E402
 
 RTOL = 1e-10
+#: The ridge engine centres raw cross products (sum z z' - n m m'); with kiln
+#: temperatures near 1200 C varying by tens of degrees that cancellation costs
+#: about 6 digits, so each ridge fit (in memory or by blocks) carries rounding
+#: near 5e-11 relative to the exactly centred fit, and two fits summing in
+#: different orders differ by up to about 1e-10.
+RIDGE_RTOL = 1e-9
 
 
 def assert_rel_close(actual, expected, rtol=RTOL):
@@ -196,6 +206,26 @@ def test_curve_smoother_on_cluster_equals_in_memory(client):
     # A second-derivative roughness penalty leaves straight lines unchanged
     # (common practice: lines are its null space), whatever alpha GCV chose.
     np.testing.assert_allclose(smooth[20:23], np.broadcast_to(lines, (3, 61)), rtol=1e-9)
+
+
+def test_functional_ridge_on_cluster_equals_in_memory_and_trapezoid(client):
+    t, X, strength = kiln_runs(500, n_minutes=61)
+    Xd = da.from_array(X, chunks=(70, 61))
+    model = FunctionalRidgeCV().fit(Xd, da.from_array(strength, chunks=70))
+    reference = FunctionalRidgeCV().fit(X, strength)
+    # alpha by GCV from statistics pooled on the workers
+    assert model.alpha_ == pytest.approx(reference.alpha_, rel=RTOL)
+    assert_rel_close(model.criterion_, reference.criterion_)
+    assert_rel_close(model.coef_function_, reference.coef_function_, RIDGE_RTOL)
+    prediction = model.predict(Xd)
+    assert is_dask_array(prediction)
+    assert_rel_close(prediction.compute(), reference.predict(X))
+    # y = 3 + int x(t) dt exactly (scipy.integrate.trapezoid): beta = 1 fits
+    # without error and without roughness, so any alpha recovers it
+    exact = 3 + integrate.trapezoid(X, t, axis=1)
+    ridge = FunctionalRidge(alpha=1.0, grid=t).fit(Xd, exact)
+    np.testing.assert_allclose(ridge.coef_function_, 1.0, rtol=1e-7)
+    assert ridge.intercept_ == pytest.approx(3.0, rel=1e-7)
 
 
 def test_statistics_are_reduced_on_workers_in_a_tree(client):
@@ -403,6 +433,30 @@ def test_curve_smoother_partial_fit_pools_gcv_statistics(sync):
     batches.set_params(grid=t * 60)
     with pytest.raises(ValueError, match="grid that differs from the one of its earlier"):
         batches.partial_fit(X[:5])
+
+
+def test_functional_ridge_partial_fit_and_memory_only_criteria(sync):
+    t, X, strength = kiln_runs(300, n_minutes=61)
+    targets = np.column_stack([strength, np.sqrt(strength)])
+    for cls, kwargs, y in [
+        (FunctionalRidge, {"alpha": 1e-3}, strength),
+        (FunctionalRidgeCV, {}, strength),
+        (FunctionalRidgeCV, {"alpha_per_target": True}, targets),
+    ]:
+        reference = cls(**kwargs).fit(X, y)
+        batches = cls(**kwargs)
+        for start in range(0, 300, 100):
+            batch = slice(start, start + 100)
+            batches.partial_fit(da.from_array(X[batch], chunks=(40, 61)), y[batch])
+        assert batches.n_samples_seen_ == 300
+        assert_rel_close(batches.coef_function_, reference.coef_function_, RIDGE_RTOL)
+    with pytest.raises(ValueError, match="every batch needs the same targets"):
+        batches.partial_fit(X[:10], strength[:10])
+    for kwargs in ({"criterion": "loo"}, {"cv": 3}):
+        with pytest.raises(ValueError, match="criterion='gcv' with cv=None only"):
+            FunctionalRidgeCV(**kwargs).partial_fit(X, strength)
+        with pytest.raises(ValueError, match="criterion='gcv' with cv=None only"):
+            FunctionalRidgeCV(**kwargs).fit(da.from_array(X, chunks=100), strength)
 
 
 def test_dask_is_not_imported_for_numpy_input():
