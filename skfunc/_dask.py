@@ -367,10 +367,23 @@ def _validate_dask_y(estimator, y, X, multi_output, y_numeric):
     )
 
 
+def check_accepts_dask(estimator):
+    """TypeError unless ``estimator`` opted in with ``_accepts_dask = True``."""
+    if not getattr(estimator, "_accepts_dask", False):
+        raise TypeError(
+            f"{type(estimator).__name__} does not accept dask arrays yet (its fit "
+            "would gather the rows into one process); pass numpy arrays, for "
+            "example X.compute() when X fits in memory."
+        )
+
+
 def validate_dask(estimator, X, y="no_validation", *, reset, allow_nan=False,
                   multi_output=False, y_numeric=False, ensure_min_samples=1,
                   curves=True, n_covariates=0):
     """``validate_data`` for Dask input (X, y or both), without gathering it.
+
+    Estimators opt in with a class attribute ``_accepts_dask = True`` once
+    their fit runs on :func:`compute_statistics`; others get a TypeError.
 
     ``curves=True`` means the rows of X are curves (at least 2 columns, not
     counting ``n_covariates`` trailing scalar columns); False, scalar features.
@@ -386,6 +399,7 @@ def validate_dask(estimator, X, y="no_validation", *, reset, allow_nan=False,
             f"collections (got {type(X).__name__}); pass "
             "X.to_dask_array(lengths=True) and the grid with grid=."
         )
+    check_accepts_dask(estimator)
     no_y = y is None or (isinstance(y, str) and y == "no_validation")
     if not no_y and is_dask_array(y) and not is_dask_array(X):
         # a small in-memory X (covariates) beside dask curves y: split X the

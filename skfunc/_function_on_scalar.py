@@ -161,6 +161,9 @@ class FunctionOnScalarRidge(CurveResponseMixin, BaseEstimator):
     0.97
     """
 
+    #: fit runs on skfunc._dask.compute_statistics, so dask arrays are accepted
+    _accepts_dask = True
+
     _parameter_constraints = RESPONSE_PARAMETER_CONSTRAINTS
 
     def __init__(

@@ -56,7 +56,7 @@ from sklearn.utils.validation import (
 
 from ._base import basis_for
 from ._bases import BASES
-from ._dask import is_dask_array
+from ._dask import check_accepts_dask, is_dask_array
 from ._grid import (
     QUADRATURES,
     check_grid,
@@ -128,7 +128,9 @@ def validate_response(estimator, y, n_samples, *, reset):
             "is None; pass the response curves as a 2-D array."
         )
     y_in = y
-    if not is_dask_array(y):  # dask y: validated per block by validate_dask
+    if is_dask_array(y):  # validated per block by validate_dask
+        check_accepts_dask(estimator)
+    else:
         y = check_array(
             y, ensure_2d=False, dtype=np.float64, ensure_all_finite=True,
             input_name="y",

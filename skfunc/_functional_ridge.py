@@ -133,6 +133,9 @@ def _docstring(cls):
 class _FunctionalRidgeBase(IntegratedDesignMixin, RegressorMixin, BaseEstimator):
     """Fit = statistics of the integrated design, merged, then solved."""
 
+    #: fit runs on skfunc._dask.compute_statistics, so dask arrays are accepted
+    _accepts_dask = True
+
     def __sklearn_tags__(self):
         tags = super().__sklearn_tags__()
         tags.target_tags.multi_output = True

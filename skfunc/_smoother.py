@@ -378,6 +378,9 @@ class CurveSmoother(TransformerMixin, BaseEstimator):
     True
     """
 
+    #: fit runs on skfunc._dask.compute_statistics, so dask arrays are accepted
+    _accepts_dask = True
+
     _parameter_constraints = {
         "basis": [StrOptions(set(BASES))],
         "n_basis": [Interval(Integral, 1, None, closed="left"), None],

@@ -232,6 +232,9 @@ class FunctionalPCA(ClassNamePrefixFeaturesOutMixin, TransformerMixin, BaseEstim
     array([0.2, 0.2])
     """
 
+    #: fit runs on skfunc._dask.compute_statistics, so dask arrays are accepted
+    _accepts_dask = True
+
     _parameter_constraints = {
         "n_components": [
             Interval(Integral, 1, None, closed="left"),

@@ -357,6 +357,17 @@ def test_other_dask_collections_are_refused_with_advice(sync):
         BasisFeatures().fit(dask.delayed(X))
 
 
+def test_estimators_without_dask_support_refuse_dask_input(sync):
+    from skfunc.linear_model import FunctionOnFunctionRidge
+
+    t, X, _ = kiln_runs(30)
+    Xd = da.from_array(X, chunks=10)
+    with pytest.raises(TypeError, match="does not accept dask arrays yet"):
+        FunctionOnFunctionRidge().fit(Xd, Xd)
+    with pytest.raises(TypeError, match="does not accept dask arrays yet"):
+        FunctionOnFunctionRidge().fit(X, Xd)
+
+
 def test_integer_and_float32_dtypes_follow_sklearn(sync):
     _, X, _ = kiln_runs(30)
     Xi = np.round(X).astype(np.int64)
