@@ -155,23 +155,55 @@ class _FunctionalRidgeBase(IntegratedDesignMixin, RegressorMixin, BaseEstimator)
         """Additive statistics of one chunk of curves (see ``merge``)."""
         return cross_products(self._design(X, operator), y, sample_weight)
 
-    def _pooled_statistics(self, X, y, sample_weight, basis, first):
-        """This batch's statistics (per row block, on the workers for a dask
-        X) added to those of the earlier ``partial_fit`` batches."""
+    def partial_fit(self, X, y, sample_weight=None):
+        """Add a batch of curves and refit from the statistics of all batches.
+
+        The fit depends on the curves only through additive statistics, so
+        after the last batch it equals :meth:`fit` on all of them. For
+        ``FunctionalRidgeCV`` alpha is chosen by GCV from the pooled
+        statistics; ``criterion="loo"`` and ``cv`` need every curve at once.
+
+        Parameters
+        ----------
+        X : array-like or dask array of shape (n_samples, n_features)
+            A batch of curves on the grid of the first batch; then
+            ``n_covariates`` scalar columns.
+        y : array-like or dask array of shape (n_samples,) or (n_samples, n_targets)
+            Outcomes of the batch, with the targets of the first.
+        sample_weight : array-like of shape (n_samples,), default=None
+            Non-negative weights of the batch's curves.
+
+        Returns
+        -------
+        self : object
+            The estimator, fitted on all batches so far.
+        """
+        self._check_pooled()
+        first = start_partial_fit(self)
+        X, y, sample_weight = self._validate_fit_input(X, y, sample_weight, first)
         if not first:
-            targets = self._partial_statistics["zy"].shape[1]
-            if (y.ndim == 1) != (np.ndim(self.intercept_) == 0) or (
-                y.ndim == 2 and y.shape[1] != targets
-            ):
-                raise ValueError(
-                    f"y of this partial_fit batch has shape {y.shape}; earlier "
-                    f"batches had {targets} target(s) "
-                    f"{'as a 1-D y' if np.ndim(self.intercept_) == 0 else 'as columns'}"
-                    "; every batch needs the same targets."
-                )
+            self._check_same_targets(y)
+        basis = self._basis()
+        # statistics per row block (on the workers for a dask X), merged
         block = partial(self._statistics, operator=self._integration_operator(basis))
         stats = compute_statistics(block, X, y, sample_weight)
-        return running_statistics(self, stats, first, X.shape[0])
+        stats = running_statistics(self, stats, first, X.shape[0])
+        return self._fit_pooled(stats, basis, y.ndim)
+
+    def _check_pooled(self):
+        """Raise if the estimator's settings need every curve at once."""
+
+    def _check_same_targets(self, y):
+        targets = self._partial_statistics["zy"].shape[1]
+        if (y.ndim == 1) != (np.ndim(self.intercept_) == 0) or (
+            y.ndim == 2 and y.shape[1] != targets
+        ):
+            raise ValueError(
+                f"y of this partial_fit batch has shape {y.shape}; earlier "
+                f"batches had {targets} target(s) "
+                f"{'as a 1-D y' if np.ndim(self.intercept_) == 0 else 'as columns'}"
+                "; every batch needs the same targets."
+            )
 
     def _path(self, stats, penalty, alphas):
         """The engine's path for the (centered) statistics, and the centered
@@ -337,29 +369,8 @@ class FunctionalRidge(_FunctionalRidgeBase):
         vars(self).pop("n_samples_seen_", None)  # start afresh: fit is a first batch
         return self.partial_fit(X, y, sample_weight)
 
-    def partial_fit(self, X, y, sample_weight=None):
-        """Add a batch of curves and refit from the statistics of all batches.
-
-        Parameters
-        ----------
-        X : array-like or dask array of shape (n_samples, n_features)
-            A batch of curves on the grid of the first batch; then
-            ``n_covariates`` scalar columns.
-        y : array-like or dask array of shape (n_samples,) or (n_samples, n_targets)
-            Outcomes of the batch, with the targets of the first.
-        sample_weight : array-like of shape (n_samples,), default=None
-            Non-negative weights of the batch's curves.
-
-        Returns
-        -------
-        self : FunctionalRidge
-            The estimator, fitted on all batches so far.
-        """
-        first = start_partial_fit(self)
-        X, y, sample_weight = self._validate_fit_input(X, y, sample_weight, first)
-        basis = self._basis()
-        stats = self._pooled_statistics(X, y, sample_weight, basis, first)
-        return self._solve(stats, self.alpha, basis, squeeze=y.ndim == 1)
+    def _fit_pooled(self, stats, basis, y_ndim):
+        return self._solve(stats, self.alpha, basis, squeeze=y_ndim == 1)
 
 
 @_docstring
@@ -540,41 +551,19 @@ class FunctionalRidgeCV(_FunctionalRidgeBase):
         running_statistics(self, stats, True, X.shape[0])
         return self._select(stats, criterion, alphas, basis, y.ndim)
 
-    def partial_fit(self, X, y, sample_weight=None):
-        """Add a batch of curves; choose alpha by GCV from all batches so far.
-
-        GCV needs only the pooled statistics, so the result equals :meth:`fit`
-        on all batches; leave-one-out (``criterion="loo"``) and K-fold
-        (``cv``) need every curve at once and are not available here.
-
-        Parameters
-        ----------
-        X : array-like or dask array of shape (n_samples, n_features)
-            A batch of curves on the grid of the first batch; then
-            ``n_covariates`` scalar columns.
-        y : array-like or dask array of shape (n_samples,) or (n_samples, n_targets)
-            Outcomes of the batch, with the targets of the first.
-        sample_weight : array-like of shape (n_samples,), default=None
-            Non-negative weights of the batch's curves.
-
-        Returns
-        -------
-        self : FunctionalRidgeCV
-            The estimator, fitted on all batches so far.
-        """
+    def _check_pooled(self):
         if self.criterion != "gcv" or self.cv is not None:
             raise ValueError(self._needs_memory("partial_fit"))
-        first = start_partial_fit(self)
+
+    def _fit_pooled(self, stats, basis, y_ndim):
+        """Alpha by GCV from pooled statistics, then the fit at it."""
         alphas = None if self.alphas is None else self._check_alphas()
-        X, y, sample_weight = self._validate_fit_input(X, y, sample_weight, first)
-        basis = self._basis()
-        stats = self._pooled_statistics(X, y, sample_weight, basis, first)
         penalty = self._penalty(basis)
         if alphas is None:
             path, _ = self._path(stats, penalty, 1.0)
             alphas = path.default_alphas(25)
         criterion = self._path_criterion(stats, penalty, alphas, None, None, None)
-        return self._select(stats, criterion, alphas, basis, y.ndim)
+        return self._select(stats, criterion, alphas, basis, y_ndim)
 
     def _needs_memory(self, what):
         return (
