@@ -89,9 +89,10 @@ def compute_statistics(statistics, X, *others, merge=merge_sums):
     """
     if is_dask_array(X):
         return _reduce_blocks(statistics, X, *others, merge=merge)
+    width = sum(int(np.prod(a.shape[1:])) for a in (X, *others) if a is not None)
     parts = [
         statistics(X[rows], *(None if o is None else o[rows] for o in others))
-        for rows in row_blocks(X.shape[0], X.shape[1] if X.ndim > 1 else 1)
+        for rows in row_blocks(X.shape[0], width)
     ]
     return merge(*parts)
 
