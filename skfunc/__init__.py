@@ -6,10 +6,19 @@ Hilbert space of functions, evaluated on the curves' grid.
 
 __version__ = "0.1.0"
 
-from . import hilbert
+from . import hilbert, metrics
+from .linear_model import FunctionOnFunctionRidge, FunctionOnScalarRidge
 from .preprocessing import BasisFeatures
 
 #: every public estimator class; the estimator-check test runs over this list
-ESTIMATORS = [BasisFeatures]
+ESTIMATORS = [BasisFeatures, FunctionOnScalarRidge, FunctionOnFunctionRidge]
 
-__all__ = ["BasisFeatures", "ESTIMATORS", "hilbert", "__version__"]
+__all__ = [
+    "BasisFeatures",
+    "ESTIMATORS",
+    "FunctionOnFunctionRidge",
+    "FunctionOnScalarRidge",
+    "hilbert",
+    "metrics",
+    "__version__",
+]

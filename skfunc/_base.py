@@ -27,6 +27,9 @@ def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
     numeric DataFrame labels must match the fitted grid.
     """
     X_in = X
+    labels = getattr(X_in, "columns", None)
+    # read the labels first: a mix of numbers and words gets our message
+    inferred = grid_from_labels(list(labels)) if labels is not None else None
     out = validate_data(
         estimator,
         X,
@@ -50,10 +53,9 @@ def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
                 "values to be represented."
             )
     if reset:
-        estimator.grid_ = resolve_grid(getattr(estimator, "grid", None), X_in, X.shape[1])
+        grid = getattr(estimator, "grid", None)
+        estimator.grid_ = resolve_grid(grid if grid is not None else inferred, X, X.shape[1])
     else:
-        labels = getattr(X_in, "columns", None)
-        inferred = grid_from_labels(list(labels)) if labels is not None else None
         if inferred is not None and not np.allclose(
             inferred, estimator.grid_, rtol=1e-9, atol=0
         ):

@@ -261,6 +261,8 @@ def gram_sqrt(gram):
     """
     s, v = np.linalg.eigh(gram)
     if s[0] <= 1e-14 * s[-1]:
-        raise ValueError("The basis Gram matrix is singular: basis functions are linearly dependent.")
+        raise ValueError(
+            "The basis Gram matrix is singular: the basis functions are linearly dependent."
+        )
     root = np.sqrt(s)
     return (v * root) @ v.T, (v / root) @ v.T

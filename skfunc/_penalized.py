@@ -150,20 +150,31 @@ def cross_products(Z, y, sample_weight=None):
     sums ``z_sum`` (K,) and ``y_sum`` (p,), and the cross products ``zz``
     (K, K), ``zy`` (K, p) and ``yy`` (p,). Statistics of disjoint chunks
     combine with :func:`merge`.
+
+    Products keep the tall response on the left (``(y' [w, WZ])'``), which
+    BLAS runs much faster than ``Z' W y`` when y has many columns, and the
+    squares of y are summed in row chunks to bound memory.
     """
     Z = np.asarray(Z, dtype=np.float64)
     y = np.asarray(y, dtype=np.float64)
     y2 = y.reshape(y.shape[0], -1)
-    w = np.ones(Z.shape[0]) if sample_weight is None else np.asarray(sample_weight)
-    Zw = Z * w[:, None]
+    n = Z.shape[0]
+    w = np.ones(n) if sample_weight is None else np.asarray(sample_weight, dtype=np.float64)
+    Zw = np.column_stack([w, Z * w[:, None]])
+    ywz = (y2.T @ Zw).T  # (K + 1, p): weighted sums of y, then Z'Wy
+    yy = np.zeros(y2.shape[1])
+    rows = max(1, (1 << 20) // max(y2.shape[1], 1))
+    for start in range(0, n, rows):
+        chunk = y2[start : start + rows]
+        yy += w[start : start + rows] @ (chunk * chunk)
     return {
-        "n": Z.shape[0],
+        "n": n,
         "sw": float(w.sum()),
-        "z_sum": Zw.sum(axis=0),
-        "y_sum": w @ y2,
-        "zz": Zw.T @ Z,
-        "zy": Zw.T @ y2,
-        "yy": np.einsum("i,ij,ij->j", w, y2, y2),
+        "z_sum": Zw[:, 1:].sum(axis=0),
+        "y_sum": ywz[0],
+        "zz": Zw[:, 1:].T @ Z,
+        "zy": ywz[1:],
+        "yy": yy,
     }
 
 

@@ -8,8 +8,75 @@ from sklearn.utils.estimator_checks import parametrize_with_checks
 
 import skfunc
 
+#: Curve-response regressors (multi-output only) get from sklearn's checks a
+#: target reshaped to ONE column (``_enforce_estimator_tags_y`` in
+#: sklearn/utils/estimator_checks.py), i.e. a response "curve" of one grid
+#: point, which they reject by design. tests/test_function_response.py re-runs
+#: every check listed here with a 3-column target (``test_sklearn_checks_with_
+#: curve_targets``), so they are still exercised.
+CURVE_TARGET_CHECKS = [
+    "check_all_zero_sample_weights_error",
+    "check_dict_unchanged",
+    "check_dont_overwrite_parameters",
+    "check_dtype_object",
+    "check_estimators_dtypes",
+    "check_estimators_fit_returns_self",
+    "check_estimators_nan_inf",
+    "check_estimators_overwrite_params",
+    "check_estimators_pickle",
+    "check_f_contiguous_array_estimator",
+    "check_fit2d_1sample",
+    "check_fit2d_predict1d",
+    "check_fit_check_is_fitted",
+    "check_fit_idempotent",
+    "check_fit_score_takes_y",
+    "check_methods_sample_order_invariance",
+    "check_methods_subset_invariance",
+    "check_n_features_in",
+    "check_n_features_in_after_fitting",
+    "check_pipeline_consistency",
+    "check_positive_only_tag_during_fit",
+    "check_readonly_memmap_input",
+    "check_regressors_int",
+    "check_regressors_no_decision_function",
+    "check_regressors_train",
+    "check_sample_weight_equivalence_on_dense_data",
+    "check_sample_weights_list",
+    "check_sample_weights_not_overwritten",
+    "check_sample_weights_shape",
+]
+_ONE_POINT_Y = (
+    "sklearn reshapes y to one column: a response curve needs >= 2 grid points; "
+    "re-run with 3-column y in tests/test_function_response.py"
+)
+_CURVE_RESPONSE_FAILURES = {
+    **{check: _ONE_POINT_Y for check in CURVE_TARGET_CHECKS},
+    "check_sample_weights_pandas_series": (
+        "builds a one-column DataFrame y itself: a response curve needs >= 2 "
+        "grid points (pandas weights are tested in test_function_response.py)"
+    ),
+    "check_sample_weights_not_an_array": (
+        "builds a one-column y itself: a response curve needs >= 2 grid points"
+    ),
+}
+
 #: {estimator class name: {check name: why it is expected to fail}}
-EXPECTED_FAILURES = {}
+EXPECTED_FAILURES = {
+    "FunctionOnScalarRidge": {
+        **_CURVE_RESPONSE_FAILURES,
+        "check_regressor_data_not_an_array": _ONE_POINT_Y,
+        "check_fit2d_1feature": _ONE_POINT_Y,
+    },
+    "FunctionOnFunctionRidge": {
+        **_CURVE_RESPONSE_FAILURES,
+        "check_regressor_data_not_an_array": (
+            "a DataFrame's integer column labels are the sampling points by "
+            "design (DESIGN.md), so the DataFrame fit uses grids 0..m-1 instead "
+            "of [0, 1] and a different s/t penalty balance; equal when the grids "
+            "are passed (test_dataframe_labels_are_grids)"
+        ),
+    },
+}
 
 
 def _instances():

@@ -1,0 +1,464 @@
+"""Penalized least squares with curve-valued responses.
+
+Both function-on-scalar and function-on-function (integral) regression are the
+same problem once the inputs are reduced to a design ``z_i`` (p numbers per
+observation): covariates themselves, or the basis coordinates
+``z_ia = int X_i(s) psi_a(s) ds`` of an input curve. With ``zc_i = z_i - zbar``
+(weighted mean), the model and criterion are
+
+    Y_i(t) = b_0(t) + sum_j zc_ij b_j(t) + eps_i(t),  b_j(t) = sum_k B_jk phi_k(t),
+
+    sum_i w_i int (Y_i - fit_i)^2 dt
+        + alpha [ tr(B' Ps B Gq) + tr(B' Gs B Pt) ],
+
+with the response basis ``phi`` on the response grid, ``Gq = Phi' W Phi``
+(quadrature Gram on the response grid), ``Pt = int D^q phi D^q phi'`` (exact)
+and the geometry ``(Gs, Ps)`` of the covariate index: ``(I, 0)`` for scalar
+covariates, the exact Gram and roughness matrices of the input basis for
+curves. The intercept row has ``Gs = 1, Ps = 0``: ``alpha int (D^q b_0)^2``.
+Centring the design decouples the intercept and keeps the fit invariant to
+shifts of the covariates.
+
+Normal equations: ``S B Gq + alpha (Ps B Gq + Gs B Pt) = R`` with
+``S = sum w zaug zaug'`` and ``R = sum w zaug (Phi' W Y_i)'``. The
+Demmler-Reinsch rotation ``U`` of the pair ``(Gq, Pt)``
+(:class:`~skfunc._penalized.PenalizedPath`) makes them separate over response
+directions k: ``A_k c_k = r_k`` with
+``A_k = mu_k (S + alpha Ps) + alpha (1 - mu_k) / scale Gs``, a small
+(p+1)-square system per direction and alpha. So GCV over every candidate alpha
+costs almost nothing once the additive statistics (:func:`response_statistics`)
+are known; the data are read once.
+
+Pointwise standard errors assume independent observations whose residual
+curves share one covariance (estimated in the basis from the same
+statistics); they ignore the smoothing bias.
+
+References
+----------
+Ramsay, J. O. and Silverman, B. W. (2005). *Functional Data Analysis*, 2nd
+ed., ch. 13-16. Springer.
+
+Craven, P. and Wahba, G. (1979). Smoothing noisy data with spline functions.
+*Numerische Mathematik* 31, 377-403.
+"""
+
+from numbers import Integral, Real
+
+import numpy as np
+from scipy.stats import norm as _normal
+from sklearn.base import RegressorMixin
+from sklearn.utils._param_validation import Interval, StrOptions
+from sklearn.utils.validation import (
+    check_array,
+    check_consistent_length,
+    check_is_fitted,
+)
+
+from ._base import basis_for
+from ._bases import BASES
+from ._grid import (
+    QUADRATURES,
+    check_grid,
+    grid_from_labels,
+    quadrature_weights,
+    resolve_grid,
+)
+from ._penalized import PenalizedPath, centered, cross_products, gcv_score
+
+#: eigenvalues below this fraction of the largest make a direction undetermined
+#: (minimum-norm solution, as numpy.linalg.lstsq)
+_PINV_RTOL = 1e-12
+
+#: candidate alphas (relative to the problem's scale) when alphas=None
+DEFAULT_ALPHA_RANGE = (1e-8, 1e4, 25)
+
+
+#: parameters shared by the curve-response regressors
+RESPONSE_PARAMETER_CONSTRAINTS = {
+    "basis": [StrOptions(set(BASES))],
+    "n_basis": [Interval(Integral, 1, None, closed="left"), None],
+    "degree": [Interval(Integral, 0, None, closed="left")],
+    "knots": ["array-like", None],
+    "alpha": [Interval(Real, 0, None, closed="left"), None],
+    "alphas": ["array-like", None],
+    "penalty_order": [Interval(Integral, 0, None, closed="left")],
+    "response_grid": ["array-like", None],
+    "quadrature": [StrOptions(set(QUADRATURES))],
+}
+
+
+def store_solution(estimator, basis, fitted):
+    """Store the output of ``solve_response`` (or alike) as fitted attributes."""
+    estimator.n_basis_ = basis.n_basis
+    estimator.basis_coef_ = fitted["basis_coef"]
+    estimator.coef_covariance_ = fitted["coef_covariance"]
+    estimator.alpha_ = fitted["alpha"]
+    estimator.alphas_ = fitted["alphas"]
+    estimator.criterion_ = fitted["criterion"]
+    estimator.edf_ = fitted["edf"]
+    estimator._store_functions()
+
+
+def check_alphas(alphas):
+    """Candidate alphas: a non-empty 1-D array of finite values >= 0."""
+    if alphas is None:
+        return None
+    arr = np.asarray(alphas, dtype=np.float64)
+    finite = arr.ndim == 1 and arr.size > 0 and np.all(np.isfinite(arr))
+    if not finite or np.any(arr < 0):
+        raise ValueError(
+            "alphas must be a non-empty 1-D array of finite penalties >= 0; got "
+            f"{alphas!r}."
+        )
+    return arr
+
+
+def validate_response(estimator, y, n_samples, *, reset):
+    """Validate curve-valued targets: 2-D, finite, at least 2 grid points.
+
+    On ``reset`` the response grid is resolved from ``estimator.response_grid``,
+    numeric DataFrame column labels of ``y``, or evenly spaced points on [0, 1],
+    and stored as ``estimator.response_grid_``; otherwise the number of columns
+    (and numeric labels) must match it.
+    """
+    if y is None:
+        raise ValueError(
+            f"{type(estimator).__name__} requires y to be passed, but the target y "
+            "is None; pass the response curves as a 2-D array."
+        )
+    y_in = y
+    y = check_array(
+        y, ensure_2d=False, dtype=np.float64, ensure_all_finite=True, input_name="y"
+    )
+    if y.ndim != 2:
+        raise ValueError(
+            f"y must be 2-D: one response curve per row, its values on the response "
+            f"grid as columns; got an array of shape {y.shape}. For a scalar "
+            "response use a scalar-outcome regressor; for a single curve pass "
+            "y.reshape(1, -1)."
+        )
+    check_consistent_length(np.empty((n_samples, 0)), y)
+    m = y.shape[1]
+    if m < 2:
+        raise ValueError(
+            f"y has {m} column(s) (response grid points); a response curve needs at "
+            "least 2 grid points to be represented."
+        )
+    labels = getattr(y_in, "columns", None)
+    inferred = grid_from_labels(list(labels)) if labels is not None else None
+    if reset:
+        grid = getattr(estimator, "response_grid", None)
+        if grid is not None and np.ndim(grid) == 1 and len(grid) != m:
+            raise ValueError(
+                f"response_grid has {len(grid)} points but y has {m} columns; the "
+                "response grid needs one point per column of y."
+            )
+        estimator.response_grid_ = resolve_grid(grid, y_in, m)
+        return y
+    if m != estimator.response_grid_.size:
+        raise ValueError(
+            f"y has {m} columns but {type(estimator).__name__} was fitted on a "
+            f"response grid of {estimator.response_grid_.size} points."
+        )
+    if inferred is not None and not np.allclose(
+        inferred, estimator.response_grid_, rtol=1e-9, atol=0
+    ):
+        raise ValueError(
+            "The column labels of y give a response grid that differs from the one "
+            f"{type(estimator).__name__} was fitted on; resample the response "
+            "curves to the fitted grid."
+        )
+    return y
+
+
+def check_points(points, domain, name="response_points"):
+    """Evaluation points inside the fitted domain."""
+    points = check_grid(points, name=name)
+    a, b = domain
+    tol = 1e-12 * max(1.0, abs(a), abs(b))
+    if points[0] < a - tol or points[-1] > b + tol:
+        raise ValueError(
+            f"{name} must lie in the fitted response domain [{a}, {b}]; got "
+            f"[{points[0]}, {points[-1]}]. Extrapolation is not supported."
+        )
+    return points
+
+
+def response_statistics(Z, Y, phi_w, sample_weight=None):
+    """Additive statistics of a curve-response fit.
+
+    The keys of :func:`skfunc._penalized.cross_products` (``n, sw, z_sum,
+    y_sum, zz, zy, yy``) plus ``yproj``, the weighted cross products of the
+    projections ``Y_i' W Phi`` (K x K). Chunks combine with
+    :func:`skfunc._penalized.merge`.
+    """
+    Y = np.asarray(Y, dtype=np.float64)
+    stats = cross_products(Z, Y, sample_weight)
+    w = np.ones(Y.shape[0]) if sample_weight is None else np.asarray(sample_weight, float)
+    proj = Y @ phi_w
+    stats["yproj"] = (proj * w[:, None]).T @ proj
+    return stats
+
+
+def _block(corner, matrix):
+    p = matrix.shape[0]
+    out = np.zeros((p + 1, p + 1))
+    out[0, 0] = corner
+    out[1:, 1:] = matrix
+    return out
+
+
+def _pinvh(A):
+    """Batched pseudo-inverse of symmetric positive semi-definite matrices."""
+    lam, vec = np.linalg.eigh(A)
+    keep = lam > _PINV_RTOL * lam.shape[-1] * np.maximum(lam[..., -1:], 0)
+    inv = np.zeros_like(lam)
+    np.divide(1.0, lam, out=inv, where=keep & (lam > 0))
+    return (vec * inv[..., None, :]) @ np.swapaxes(vec, -1, -2)
+
+
+def solve_response(stats, phi, weights, penalty_t, gram_s, penalty_s, alpha, alphas):
+    """Fit the coefficient functions from statistics; GCV over ``alphas``.
+
+    Parameters
+    ----------
+    stats : dict
+        From :func:`response_statistics` (merged over chunks).
+    phi : ndarray of shape (m, K)
+        Response basis on the response grid.
+    weights : ndarray of shape (m,)
+        Quadrature weights of the response grid.
+    penalty_t : ndarray of shape (K, K)
+        Roughness matrix of the response basis.
+    gram_s, penalty_s : ndarray of shape (p, p)
+        Geometry of the design index (identity and zeros for scalars).
+    alpha : float or None
+        Fixed penalty; None chooses one from ``alphas`` by GCV.
+    alphas : array-like or None
+        Candidates; None means a log-spaced range scaled to the problem.
+
+    Returns
+    -------
+    dict with ``basis_coef`` (p + 1, K) (row 0 the intercept, on the original
+    covariates), ``coef_covariance`` ((p + 1) K, (p + 1) K), ``alpha``,
+    ``alphas``, ``criterion`` and ``edf``.
+    """
+    sw = stats["sw"]
+    zz, zy, _, z_mean, y_mean = centered(stats)
+    phi_w = phi * weights[:, None]
+    path = PenalizedPath(phi_w.T @ phi, None if alpha == 0 else penalty_t)
+    mu, U = path.mu, path.eigvecs
+    S = _block(sw, zz)
+    Gs, Ps = _block(1.0, gram_s), _block(0.0, penalty_s)
+    rot = (np.vstack([sw * y_mean, zy]) @ phi_w) @ U  # r_k as columns, (p+1, K)
+    if alpha is not None:
+        candidates = np.array([float(alpha)])
+    elif alphas is None:
+        low, high, count = DEFAULT_ALPHA_RANGE
+        base = path.scale * np.trace(S) / np.trace(Gs)
+        candidates = base * np.logspace(np.log10(low), np.log10(high), count)
+    else:
+        candidates = np.asarray(alphas, dtype=np.float64).ravel()
+    a = candidates[:, None, None, None]
+    rough = ((1 - mu) / path.scale)[:, None, None]
+    A = mu[:, None, None] * (S + a * Ps) + a * rough * Gs
+    A_inv = _pinvh(A)  # (n_alphas, K, p+1, p+1)
+    C = np.einsum("akij,jk->aik", A_inv, rot)  # (n_alphas, p+1, K)
+    fit_sq = np.einsum("aik,ij,ajk,k->a", C, S, C, mu)
+    rss = stats["yy"] @ weights - 2 * np.einsum("aik,ik->a", C, rot) + fit_sq
+    sample_edf = mu * np.einsum("akij,ji->ak", A_inv, S)  # per direction
+    edf = sample_edf.sum(axis=1)
+    m = weights.size
+    criterion = gcv_score(np.maximum(rss, 0), edf, sw * m, sw * weights.sum())
+    best = int(np.argmin(criterion))
+    transform = np.eye(S.shape[0])
+    transform[0, 1:] = -z_mean  # back to the original (uncentred) covariates
+    coef_c = C[best]
+    cov = _coef_covariance(
+        stats, U, mu, S, rot, coef_c, A_inv[best], sw - sample_edf[best].max()
+    )
+    cov = np.einsum("ai,bk,kilm,cm,dl->abcd", transform, U, cov, transform, U,
+                    optimize=True)
+    p1, K = coef_c.shape
+    return {
+        "basis_coef": transform @ coef_c @ U.T,
+        "coef_covariance": cov.reshape(p1 * K, p1 * K),
+        "alpha": float(candidates[best]),
+        "alphas": candidates,
+        "criterion": criterion,
+        "edf": edf,
+    }
+
+
+def _coef_covariance(stats, U, mu, S, rot, C, A_inv, dof):
+    """Covariance of the rotated coefficients, indexed [k, i, l, j].
+
+    Residual covariance in the basis, ``Omega = U' sum w e e' U / dof`` with
+    projected residuals ``e_i = Phi'W Y_i - Gq B' zaug_i``, from the
+    statistics; then ``Cov(c_k, c_l) = A_k^+ S A_l^+ Omega_kl``.
+    """
+    M = np.diag(mu)
+    cross = rot.T @ C @ M
+    resid = U.T @ stats["yproj"] @ U - cross - cross.T + M @ C.T @ S @ C @ M
+    omega = resid / dof if dof > 0 else np.full_like(resid, np.nan)
+    AS = A_inv @ S
+    return np.einsum("kij,lmj->kilm", AS, A_inv) * omega[:, None, :, None]
+
+
+def pointwise_band(coef_covariance, n_functions, left, right, estimate, level):
+    """Pointwise normal-theory band of ``left @ B @ right'`` for basis coefs B.
+
+    ``coef_covariance`` is the covariance of the (n_functions, K) coefficient
+    matrix B flattened row-major; ``left`` (L, n_functions) combines its rows,
+    ``right`` (m, K) evaluates the basis. Returns (lower, upper) of shape
+    (L, m) around ``estimate``.
+    """
+    if not 0 < level < 1:
+        raise ValueError(f"level must be in (0, 1), e.g. 0.95; got {level!r}.")
+    K = right.shape[1]
+    cov = coef_covariance.reshape(n_functions, K, n_functions, K)
+    inner = np.einsum("la,abcd,lc->lbd", left, cov, left, optimize=True)
+    var = np.empty((left.shape[0], right.shape[0]))
+    rows = max(1, (1 << 22) // max(right.size, 1))
+    for start in range(0, left.shape[0], rows):
+        block = inner[start : start + rows]
+        var[start : start + rows] = np.einsum(
+            "tb,lbd,td->lt", right, block, right, optimize=True
+        )
+    half = _normal.ppf(0.5 + level / 2) * np.sqrt(np.maximum(var, 0))
+    return estimate - half, estimate + half
+
+
+class CurveResponseMixin(RegressorMixin):
+    """What the curve-response regressors share.
+
+    ``score`` is the integrated R^2; coefficient functions, their values at
+    any points and their pointwise bands come from ``basis_coef_`` (rows:
+    intercept, then the design's coefficient functions, in the response
+    basis) and ``coef_covariance_``. Subclasses define ``_coef_rows()``, the
+    rows combination giving ``coef_function_``.
+    """
+
+    def __sklearn_tags__(self):
+        tags = super().__sklearn_tags__()
+        tags.target_tags.required = True
+        tags.target_tags.multi_output = True
+        tags.target_tags.single_output = False
+        return tags
+
+    def _response_basis(self):
+        basis = basis_for(self, self.response_grid_, cap=self.alpha == 0)
+        return basis, quadrature_weights(self.response_grid_, self.quadrature)
+
+    def _penalty(self, basis):
+        """Roughness matrix of ``basis`` (zeros when ``alpha=0``).
+
+        On tiny grids the adaptive default basis is one polynomial of degree
+        below ``penalty_order`` (no interior knots), whose roughness is 0.
+        """
+        single_polynomial = (
+            basis.name == "bspline" and basis.n_basis == basis.degree + 1
+            and self.penalty_order > basis.degree
+        )
+        if self.alpha == 0 or single_polynomial:
+            return np.zeros((basis.n_basis, basis.n_basis))
+        return basis.penalty(self.penalty_order)
+
+    def _evaluate(self, left, points=None):
+        """``left @ basis_coef_`` as functions at ``points`` (rows), and Phi."""
+        basis = basis_for(self, self.response_grid_, cap=False)
+        if points is None:
+            points = self.response_grid_
+        else:
+            points = check_points(points, basis.domain)
+        phi = basis.evaluate(points)
+        return left @ self.basis_coef_ @ phi.T, phi
+
+    def _coef_shape(self, n_points):
+        rows = self._coef_rows().shape[0]
+        return (n_points,) if self._concurrent_like() else (rows, n_points)
+
+    def _concurrent_like(self):
+        return False
+
+    def _store_functions(self):
+        p1 = self.basis_coef_.shape[0]
+        self.intercept_function_ = self._evaluate(np.eye(p1)[:1])[0][0]
+        values = self._evaluate(self._coef_rows())[0]
+        self.coef_function_ = values.reshape(self._coef_shape(values.shape[1]))
+
+    def coef_functions_at(self, points):
+        """Intercept and coefficient functions evaluated at any points.
+
+        Parameters
+        ----------
+        points : array-like of shape (n_points,)
+            Increasing points inside the response domain.
+
+        Returns
+        -------
+        intercept : ndarray of shape (n_points,)
+        coef : ndarray
+            Shaped like ``coef_function_`` with ``n_points`` response points.
+        """
+        check_is_fitted(self)
+        p1 = self.basis_coef_.shape[0]
+        intercept = self._evaluate(np.eye(p1)[:1], points)[0][0]
+        values = self._evaluate(self._coef_rows(), points)[0]
+        return intercept, values.reshape(self._coef_shape(values.shape[1]))
+
+    def confidence_band(self, level=0.95, intercept=False):
+        """Pointwise confidence band of the coefficient functions.
+
+        Normal-theory intervals ``estimate -/+ z sd`` at every grid point,
+        assuming independent observations; they ignore the smoothing bias
+        and are not simultaneous over the grid.
+
+        Parameters
+        ----------
+        level : float, default=0.95
+            Coverage of each pointwise interval, in (0, 1).
+        intercept : bool, default=False
+            Band of ``intercept_function_`` instead of ``coef_function_``.
+
+        Returns
+        -------
+        lower, upper : ndarray
+            Shaped like ``coef_function_`` (or ``intercept_function_``); NaN
+            when the residual degrees of freedom are exhausted.
+        """
+        check_is_fitted(self)
+        p1 = self.basis_coef_.shape[0]
+        left = np.eye(p1)[:1] if intercept else self._coef_rows()
+        estimate, phi = self._evaluate(left)
+        lower, upper = pointwise_band(
+            self.coef_covariance_, p1, left, phi, estimate, level
+        )
+        shape = (self.intercept_function_ if intercept else self.coef_function_).shape
+        return lower.reshape(shape), upper.reshape(shape)
+
+    def score(self, X, y, sample_weight=None):
+        """Integrated R^2 of the predicted curves, ``1 - int SSE / int SST``.
+
+        Parameters
+        ----------
+        X : array-like
+            Inputs, as for :meth:`predict`.
+        y : array-like of shape (n_samples, n_response_points)
+            True response curves on ``response_grid_``.
+        sample_weight : array-like of shape (n_samples,), default=None
+            Weights of the curves.
+
+        Returns
+        -------
+        score : float
+            Quadrature-weighted R^2 (see :func:`skfunc.metrics.integrated_r2_score`).
+        """
+        from .metrics import integrated_r2_score
+
+        y_pred = self.predict(X)
+        y = validate_response(self, y, y_pred.shape[0], reset=False)
+        return integrated_r2_score(
+            y, y_pred, grid=self.response_grid_, quadrature=self.quadrature,
+            sample_weight=sample_weight,
+        )

@@ -1,0 +1,268 @@
+"""Scores for curve-valued predictions.
+
+Curves are rows sampled on a common ``grid``; integrals over the domain use
+quadrature weights, so scores do not depend on how densely or evenly the
+curves were sampled beyond the quadrature's own error.
+
+* :func:`integrated_squared_error`: mean over curves of ``int (y - y_hat)^2``.
+* :func:`integrated_r2_score`: ``1 - sum_i int (y_i - y_hat_i)^2 /
+  sum_i int (y_i - y_bar)^2``.
+* :func:`pointwise_r2_score`: ``R^2(t)`` at every grid point.
+
+The scorers :data:`integrated_r2_scorer` and
+:data:`neg_integrated_squared_error_scorer` plug into ``scoring=`` of
+:class:`~sklearn.model_selection.GridSearchCV` and
+:func:`~sklearn.model_selection.cross_val_score`; they take the grid from
+the fitted estimator's ``response_grid_`` (the last step of a pipeline), or
+from numeric column labels of a DataFrame ``y``.
+
+References
+----------
+Ramsay, J. O. and Silverman, B. W. (2005). *Functional Data Analysis*, 2nd
+ed., sec. 13.2 (pointwise and integrated R^2). Springer.
+"""
+
+import numpy as np
+from sklearn.utils.validation import (
+    _check_sample_weight,
+    check_array,
+    check_consistent_length,
+)
+
+from ._grid import check_grid, grid_from_labels, quadrature_weights
+
+__all__ = [
+    "integrated_squared_error",
+    "integrated_r2_score",
+    "pointwise_r2_score",
+    "make_curve_scorer",
+    "integrated_r2_scorer",
+    "neg_integrated_squared_error_scorer",
+]
+
+
+def _check_curves(y_true, y_pred, grid, quadrature, sample_weight):
+    y_true = check_array(y_true, dtype=np.float64, input_name="y_true")
+    y_pred = check_array(y_pred, dtype=np.float64, input_name="y_pred")
+    check_consistent_length(y_true, y_pred)
+    if y_true.shape != y_pred.shape:
+        raise ValueError(
+            f"y_true and y_pred must have the same shape (curves as rows, grid "
+            f"points as columns); got {y_true.shape} and {y_pred.shape}."
+        )
+    m = y_true.shape[1]
+    if grid is not None and np.ndim(grid) == 1 and len(grid) != m:
+        raise ValueError(
+            f"grid has {len(grid)} points but the curves have {m} columns; the grid "
+            "needs one point per column."
+        )
+    grid = np.linspace(0.0, 1.0, m) if grid is None else check_grid(grid, m)
+    weights = quadrature_weights(grid, quadrature)
+    sw = _check_sample_weight(sample_weight, y_true)
+    return y_true, y_pred, weights, sw
+
+
+def _sums(y_true, y_pred, sw):
+    """Weighted sums over curves of squared errors and squared deviations."""
+    mean = sw @ y_true / sw.sum()
+    sse = sw @ (y_true - y_pred) ** 2
+    sst = sw @ (y_true - mean) ** 2
+    return sse, sst
+
+
+def integrated_squared_error(y_true, y_pred, *, grid=None, quadrature="trapezoid",
+                             sample_weight=None):
+    """Mean integrated squared error ``mean_i int (y_i(t) - y_hat_i(t))^2 dt``.
+
+    Parameters
+    ----------
+    y_true, y_pred : array-like of shape (n_samples, n_points)
+        True and predicted curves on ``grid``.
+    grid : array-like of shape (n_points,), default=None
+        Sampling points; None means evenly spaced on [0, 1].
+    quadrature : {"trapezoid", "simpson"}, default="trapezoid"
+        Quadrature rule.
+    sample_weight : array-like of shape (n_samples,), default=None
+        Weights of the curves in the mean.
+
+    Returns
+    -------
+    float
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from skfunc.metrics import integrated_squared_error
+    >>> t = np.linspace(0, 1, 101)
+    >>> y = np.vstack([t, t])
+    >>> round(integrated_squared_error(y, y + 0.5, grid=t), 6)  # int 0.25 dt
+    0.25
+    """
+    y_true, y_pred, weights, sw = _check_curves(
+        y_true, y_pred, grid, quadrature, sample_weight
+    )
+    return float(sw @ ((y_true - y_pred) ** 2 @ weights) / sw.sum())
+
+
+def integrated_r2_score(y_true, y_pred, *, grid=None, quadrature="trapezoid",
+                        sample_weight=None):
+    """Integrated coefficient of determination ``1 - int SSE(t) / int SST(t)``.
+
+    ``SSE(t) = sum_i w_i (y_i(t) - y_hat_i(t))^2`` and
+    ``SST(t) = sum_i w_i (y_i(t) - y_bar(t))^2``, integrated over the grid
+    with quadrature weights. Like :func:`sklearn.metrics.r2_score`, 1 is a
+    perfect prediction and the mean curve scores 0. When the true curves do
+    not vary (SST = 0) the score is 1 for a perfect prediction and 0
+    otherwise, as scikit-learn's convention.
+
+    Parameters
+    ----------
+    y_true, y_pred : array-like of shape (n_samples, n_points)
+        True and predicted curves on ``grid``.
+    grid : array-like of shape (n_points,), default=None
+        Sampling points; None means evenly spaced on [0, 1].
+    quadrature : {"trapezoid", "simpson"}, default="trapezoid"
+        Quadrature rule.
+    sample_weight : array-like of shape (n_samples,), default=None
+        Weights of the curves.
+
+    Returns
+    -------
+    float
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from skfunc.metrics import integrated_r2_score
+    >>> y = np.array([[0.0, 1.0, 2.0], [2.0, 3.0, 4.0]])
+    >>> integrated_r2_score(y, y)
+    1.0
+    >>> integrated_r2_score(y, np.tile(y.mean(axis=0), (2, 1)))  # the mean curve
+    0.0
+    """
+    y_true, y_pred, weights, sw = _check_curves(
+        y_true, y_pred, grid, quadrature, sample_weight
+    )
+    sse, sst = _sums(y_true, y_pred, sw)
+    sse, sst = sse @ weights, sst @ weights
+    if sst == 0:
+        return 1.0 if sse == 0 else 0.0
+    return float(1.0 - sse / sst)
+
+
+def pointwise_r2_score(y_true, y_pred, *, sample_weight=None):
+    """``R^2(t) = 1 - SSE(t) / SST(t)`` at every grid point.
+
+    The same as :func:`sklearn.metrics.r2_score` with
+    ``multioutput="raw_values"``; points where the true curves do not vary
+    get 1 for a perfect prediction there and 0 otherwise.
+
+    Parameters
+    ----------
+    y_true, y_pred : array-like of shape (n_samples, n_points)
+        True and predicted curves.
+    sample_weight : array-like of shape (n_samples,), default=None
+        Weights of the curves.
+
+    Returns
+    -------
+    ndarray of shape (n_points,)
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from skfunc.metrics import pointwise_r2_score
+    >>> y = np.array([[0.0, 1.0], [2.0, 3.0]])
+    >>> pointwise_r2_score(y, [[0.0, 2.0], [2.0, 2.0]])
+    array([1., 0.])
+    """
+    y_true, y_pred, _, sw = _check_curves(y_true, y_pred, None, "trapezoid",
+                                          sample_weight)
+    sse, sst = _sums(y_true, y_pred, sw)
+    flat = sst == 0
+    with np.errstate(divide="ignore", invalid="ignore"):
+        r2 = 1.0 - sse / np.where(flat, 1.0, sst)
+    return np.where(flat, np.where(sse == 0, 1.0, 0.0), r2)
+
+
+def _final_step(estimator):
+    while hasattr(estimator, "steps"):
+        estimator = estimator.steps[-1][1]
+    return estimator
+
+
+class _CurveScorer:
+    """A ``scoring=`` callable ``(estimator, X, y, sample_weight=None)``."""
+
+    def __init__(self, score_func, sign, grid, quadrature):
+        self.score_func = score_func
+        self.sign = sign
+        self.grid = grid
+        self.quadrature = quadrature
+
+    def _grid_for(self, estimator, y):
+        if self.grid is not None:
+            return self.grid
+        labels = getattr(y, "columns", None)
+        if labels is not None:
+            inferred = grid_from_labels(list(labels))
+            if inferred is not None:
+                return inferred
+        return getattr(_final_step(estimator), "response_grid_", None)
+
+    def __call__(self, estimator, X, y, sample_weight=None):
+        y_pred = estimator.predict(X)
+        score = self.score_func(
+            y, y_pred, grid=self._grid_for(estimator, y),
+            quadrature=self.quadrature, sample_weight=sample_weight,
+        )
+        return self.sign * score
+
+    def __repr__(self):
+        sign = "" if self.sign > 0 else ", greater_is_better=False"
+        return f"make_curve_scorer({self.score_func.__name__}{sign})"
+
+
+def make_curve_scorer(score_func, *, greater_is_better=True, grid=None,
+                      quadrature="trapezoid"):
+    """Make a ``scoring=`` callable from an integrated curve metric.
+
+    Parameters
+    ----------
+    score_func : callable
+        ``score_func(y_true, y_pred, *, grid, quadrature, sample_weight)``,
+        such as :func:`integrated_r2_score` or :func:`integrated_squared_error`.
+    greater_is_better : bool, default=True
+        False for losses: the scorer returns their negative.
+    grid : array-like of shape (n_points,), default=None
+        Response grid. None means numeric column labels of a DataFrame ``y``,
+        else the estimator's ``response_grid_``, else evenly spaced on [0, 1].
+    quadrature : {"trapezoid", "simpson"}, default="trapezoid"
+        Quadrature rule.
+
+    Returns
+    -------
+    scorer : callable
+        ``scorer(estimator, X, y, sample_weight=None)``.
+
+    Examples
+    --------
+    >>> from sklearn.model_selection import GridSearchCV
+    >>> from skfunc.linear_model import FunctionOnScalarRidge
+    >>> from skfunc.metrics import integrated_squared_error, make_curve_scorer
+    >>> scorer = make_curve_scorer(integrated_squared_error, greater_is_better=False)
+    >>> search = GridSearchCV(FunctionOnScalarRidge(), {"alpha": [1e-3, 1.0]},
+    ...                       scoring=scorer)
+    """
+    if not callable(score_func):
+        raise TypeError(f"score_func must be callable; got {score_func!r}.")
+    grid = None if grid is None else check_grid(grid)
+    return _CurveScorer(score_func, 1 if greater_is_better else -1, grid, quadrature)
+
+
+#: ``scoring=`` callable: integrated R^2 (greater is better)
+integrated_r2_scorer = make_curve_scorer(integrated_r2_score)
+#: ``scoring=`` callable: minus the mean integrated squared error
+neg_integrated_squared_error_scorer = make_curve_scorer(
+    integrated_squared_error, greater_is_better=False
+)

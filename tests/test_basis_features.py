@@ -1,0 +1,171 @@
+import numpy as np
+import pandas as pd
+import pytest
+from numpy.polynomial import Legendre
+from numpy.polynomial import legendre as npleg
+from sklearn.linear_model import Ridge
+from sklearn.model_selection import GridSearchCV
+from sklearn.pipeline import make_pipeline
+
+from skfunc.preprocessing import BasisFeatures
+
+
+def smooth_curves(t, n=6, seed=0):
+    """Smooth random curves evaluated at t (a fixed family, any sampling)."""
+    rng = np.random.default_rng(seed)
+    a = rng.normal(size=(n, 4))
+    return (
+        a[:, [0]] * np.sin(2 * np.pi * t)
+        + a[:, [1]] * np.cos(3 * t)
+        + a[:, [2]] * np.exp(-((t - 0.4) ** 2) / 0.05)
+        + a[:, [3]] * t**2
+    )
+
+
+def test_euclidean_distance_equals_exact_l2_distance_legendre(rng):
+    # Reference: numpy.polynomial.Legendre. The fitted functions are rebuilt from a
+    # weighted least-squares fit done with numpy.linalg.lstsq on the Legendre
+    # Vandermonde matrix, and the L2 distance is integrated exactly (.integ()).
+    t = np.concatenate([[-1.0], np.sort(rng.uniform(-1, 3, 148)), [3.0]])
+    X = smooth_curves(t, n=2)
+    K = 7
+    Z = BasisFeatures(basis="legendre", n_basis=K, grid=t).fit_transform(X)
+    w = BasisFeatures(grid=t).fit(X).quadrature_weights_
+    V = npleg.legvander(2 * (t + 1) / 4 - 1, K - 1) * np.sqrt(w)[:, None]
+    c = [np.linalg.lstsq(V, x * np.sqrt(w), rcond=None)[0] for x in X]
+    diff = Legendre(c[0] - c[1], domain=[-1, 3])
+    sq = (diff * diff).integ(lbnd=-1)
+    exact = np.sqrt(sq(3.0))
+    assert abs(np.linalg.norm(Z[0] - Z[1]) - exact) < 1e-10
+
+
+def test_square_wave_fourier_coefficients():
+    # Standard Fourier series: sign(sin 2 pi t) = sum_{k odd} 4/(pi k) sin(2 pi k t);
+    # in the orthonormal basis sqrt(2) sin(2 pi k t) the coordinate is 4/(pi k)/sqrt(2).
+    t = np.linspace(0, 1, 20001)
+    x = np.sign(np.sin(2 * np.pi * t))
+    Z = BasisFeatures(basis="fourier", n_basis=11, grid=t).fit_transform(x[None, :])[0]
+    names = list(BasisFeatures(basis="fourier", n_basis=11).fit(x[None, :]).get_feature_names_out())
+    for k in range(1, 6):
+        expected = 4 / (np.pi * k) / np.sqrt(2) if k % 2 else 0.0
+        assert abs(Z[names.index(f"sin{k}")] - expected) < 1e-3
+        assert abs(Z[names.index(f"cos{k}")]) < 1e-3
+    assert abs(Z[0]) < 1e-3
+
+
+@pytest.mark.parametrize("basis, n_basis", [("bspline", 15), ("fourier", 9), ("legendre", 10)])
+def test_resolution_invariance(rng, basis, n_basis):
+    # The same smooth curves sampled on 51, 201, 1001 points and an uneven grid of
+    # 201 points give the same coordinates up to the quadrature's error.
+    def features(t):
+        return BasisFeatures(basis=basis, n_basis=n_basis, grid=t).fit_transform(smooth_curves(t))
+
+    ref = features(np.linspace(0, 1, 1001))
+    uneven = np.concatenate([[0.0], np.sort(rng.uniform(0, 1, 199)), [1.0]])
+    scale = np.linalg.norm(ref)
+    for t, tol in [(np.linspace(0, 1, 201), 1e-3), (uneven, 1e-3), (np.linspace(0, 1, 51), 1e-2)]:
+        assert np.linalg.norm(features(t) - ref) / scale < tol
+
+
+def test_penalized_projection_matches_augmented_least_squares(rng):
+    # Reference: numpy.linalg.lstsq on the augmented system [sqrt(W) Phi; sqrt(alpha) R]
+    # with P = R'R, the textbook form of penalized least squares (common practice).
+    t = np.sort(rng.uniform(0, 1, 60))
+    t[0], t[-1] = 0.0, 1.0
+    X = smooth_curves(t, n=3) + rng.normal(scale=0.1, size=(3, t.size))
+    alpha = 1e-4
+    est = BasisFeatures(n_basis=12, alpha=alpha, grid=t).fit(X)
+    from skfunc._bases import BSplineBasis
+    from skfunc._grid import quadrature_weights
+
+    basis = BSplineBasis((0.0, 1.0), 12)
+    phi = basis.evaluate(t)
+    s, v = np.linalg.eigh(basis.penalty(2))
+    R = (v * np.sqrt(np.clip(s, 0, None))).T
+    sw = np.sqrt(quadrature_weights(t))
+    A = np.vstack([phi * sw[:, None], np.sqrt(alpha) * R])
+    for x, xhat in zip(X, est.inverse_transform(est.transform(X))):
+        c = np.linalg.lstsq(A, np.concatenate([x * sw, np.zeros(12)]), rcond=None)[0]
+        np.testing.assert_allclose(xhat, phi @ c, rtol=1e-8, atol=1e-10)
+
+
+def test_interpolation_reproduces_curves(rng):
+    # With as many basis functions as points, least squares interpolates.
+    t = np.linspace(0, 1, 8)
+    X = rng.normal(size=(5, 8))
+    for basis in ("bspline", "legendre"):
+        est = BasisFeatures(basis=basis, n_basis=8).fit(X)
+        np.testing.assert_allclose(est.inverse_transform(est.transform(X)), X, atol=1e-8)
+    assert est.grid_.tolist() == t.tolist()
+
+
+def test_chunked_transform_equals_single_product(rng, monkeypatch):
+    X = rng.normal(size=(1000, 40))
+    est = BasisFeatures(n_basis=10).fit(X)
+    full = X @ est.projection_.T
+    import skfunc._base as base
+
+    monkeypatch.setattr(base, "CHUNK_VALUES", 40 * 7)  # 7 rows per chunk
+    np.testing.assert_allclose(est.transform(X), full, rtol=1e-12)
+    np.testing.assert_allclose(
+        est.transform(X.astype(np.float32)), X.astype(np.float32) @ est.projection_.T, rtol=1e-6
+    )
+
+
+def test_dataframe_grid_and_pandas_output():
+    minutes = np.arange(0, 600, 5)
+    X = pd.DataFrame(smooth_curves(minutes / 600, n=4), columns=minutes)
+    est = BasisFeatures(n_basis=8).set_output(transform="pandas").fit(X)
+    np.testing.assert_array_equal(est.grid_, minutes)
+    out = est.transform(X)
+    assert isinstance(out, pd.DataFrame)
+    assert list(out.columns) == [f"bspline{k}" for k in range(8)]
+    shifted = X.rename(columns=lambda c: c + 1)
+    with pytest.raises(ValueError, match="differs from the grid"):
+        est.transform(shifted)
+    with pytest.raises(ValueError, match="mix numbers and words"):
+        BasisFeatures().fit(X.rename(columns={0: "start"}))
+
+
+def test_in_pipeline_under_grid_search(rng):
+    t = np.linspace(0, 1, 101)
+    X = smooth_curves(t, n=80, seed=1)
+    y = X @ (np.cos(np.pi * t) / t.size) + rng.normal(scale=0.01, size=80)
+    pipe = make_pipeline(BasisFeatures(grid=t), Ridge())
+    search = GridSearchCV(
+        pipe, {"basisfeatures__n_basis": [6, 10], "ridge__alpha": [1e-3, 1.0]}, cv=3
+    )
+    search.fit(X, y)
+    assert search.best_score_ > 0.9
+
+
+@pytest.mark.parametrize(
+    "params, X, match",
+    [
+        ({"grid": [0, 1, 1, 2]}, np.ones((3, 4)), "strictly increasing"),
+        ({"grid": [0, 1, 2]}, np.ones((3, 4)), "has 3 points but X has 4 columns"),
+        ({}, np.array([[0.0, np.nan, 1.0, 2.0]]), "NaN"),
+        ({}, np.array([[0.0, np.inf, 1.0, 2.0]]), "infinity"),
+        ({}, np.ones(4), "2D array"),
+        ({}, np.ones((2, 2, 2)), "dim 3"),
+        ({}, np.ones((3, 1)), "at least 2 grid points"),
+        ({"n_basis": 5}, np.ones((3, 4)), "n_basis=5 exceeds the 4 grid points"),
+        ({"n_basis": 4, "degree": 4}, np.ones((3, 10)), "n_basis >= 5"),
+        ({"degree": -1}, np.ones((3, 10)), "'degree' parameter"),
+        ({"alpha": -1.0}, np.ones((3, 10)), "'alpha' parameter"),
+        ({"basis": "wavelet"}, np.ones((3, 10)), "'basis' parameter"),
+        ({"quadrature": "gauss"}, np.ones((3, 10)), "'quadrature' parameter"),
+        ({}, np.ones((0, 10)), "0 sample"),
+    ],
+)
+def test_bad_input(params, X, match):
+    with pytest.raises((ValueError, TypeError), match=match):
+        BasisFeatures(**params).fit(X)
+
+
+def test_transform_with_other_number_of_points():
+    est = BasisFeatures().fit(np.ones((3, 10)))
+    with pytest.raises(ValueError, match="X has 9 features, but BasisFeatures is expecting 10"):
+        est.transform(np.ones((3, 9)))
+    with pytest.raises(ValueError, match="expects 10 coordinates"):
+        est.inverse_transform(np.ones((3, 4)))
