@@ -7,15 +7,22 @@ Hilbert space of functions, evaluated on the curves' grid.
 __version__ = "0.1.0"
 
 from . import hilbert, metrics
+from .decomposition import FunctionalPCA
 from .linear_model import FunctionOnFunctionRidge, FunctionOnScalarRidge
 from .preprocessing import BasisFeatures
 
 #: every public estimator class; the estimator-check test runs over this list
-ESTIMATORS = [BasisFeatures, FunctionOnScalarRidge, FunctionOnFunctionRidge]
+ESTIMATORS = [
+    BasisFeatures,
+    FunctionalPCA,
+    FunctionOnScalarRidge,
+    FunctionOnFunctionRidge,
+]
 
 __all__ = [
     "BasisFeatures",
     "ESTIMATORS",
+    "FunctionalPCA",
     "FunctionOnFunctionRidge",
     "FunctionOnScalarRidge",
     "hilbert",
