@@ -49,37 +49,47 @@ def baseline_model():
     )
 
 
+def _preprocessing(minutes):
+    """The step that turns logged curves (with gaps) into complete curves."""
+    import skfunc
+
+    if hasattr(skfunc, "CurveSmoother"):
+        return "smooth", skfunc.CurveSmoother(grid=minutes), {
+            "smooth__alpha": [1e-2, 1.0, 1e2]
+        }
+    return "fill", FunctionTransformer(interpolate_gaps), {}
+
+
 def functional_search(minutes, cv, n_jobs=None):
     """GridSearchCV over skfunc's pipeline for curves -> strength.
 
-    Uses CurveSmoother -> FunctionalPCA -> Ridge, and FunctionalRidge, when
-    those estimators are available; until then BasisFeatures -> Ridge.
+    The pipeline smooths the curves (CurveSmoother, or linear gap filling
+    until that exists), reduces them to functional principal component
+    scores and fits a ridge regression; when FunctionalRidge exists, the
+    search also tries it in place of the last two steps.
     """
     import skfunc
 
-    if hasattr(skfunc, "CurveSmoother") and hasattr(skfunc, "FunctionalPCA"):
-        pipe = Pipeline([
-            ("smooth", skfunc.CurveSmoother(grid=minutes)),
-            ("fpca", skfunc.FunctionalPCA()),
-            ("ridge", Ridge()),
-        ])
-        grid = {
-            "smooth__alpha": [1e-2, 1.0, 1e2],
-            "fpca__n_components": [4, 8, 12],
-            "ridge__alpha": np.logspace(-4, 2, 7),
-        }
-    else:
-        pipe = Pipeline([
-            ("fill", FunctionTransformer(interpolate_gaps)),
-            ("basis", skfunc.BasisFeatures(grid=minutes)),
-            ("ridge", Ridge()),
-        ])
-        grid = {
-            "basis__n_basis": [8, 12, 20],
-            "basis__alpha": [0.0, 1e-4, 1e-2],
-            "ridge__alpha": np.logspace(-4, 2, 7),
-        }
-    return GridSearchCV(pipe, grid, cv=cv, scoring="r2", n_jobs=n_jobs)
+    name, prep, prep_grid = _preprocessing(minutes)
+    pipe = Pipeline([
+        (name, prep),
+        ("fpca", skfunc.FunctionalPCA(grid=minutes, n_basis=20)),
+        ("regression", Ridge()),
+    ])
+    grids = [{
+        **prep_grid,
+        "fpca__n_basis": [15, 25],
+        "fpca__n_components": [4, 8, 12],
+        "regression__alpha": np.logspace(2, 9, 8),
+    }]
+    if hasattr(skfunc, "FunctionalRidge"):
+        grids.append({
+            **prep_grid,
+            "fpca": ["passthrough"],
+            "regression": [skfunc.FunctionalRidge(grid=minutes)],
+            "regression__alpha": np.logspace(-2, 4, 7),
+        })
+    return GridSearchCV(pipe, grids, cv=cv, scoring="r2", n_jobs=n_jobs)
 
 
 # --------------------------------------------------------------------- options
@@ -275,7 +285,8 @@ def _plain(params):
 
 
 def _draw_figure(kiln, final, path, force):
-    """Curves, the coefficient function with its band, and components."""
+    """Curves with their band, the coefficient function with its confidence
+    band beside the true one, and the leading principal components."""
     try:
         import matplotlib
 
@@ -290,15 +301,14 @@ def _draw_figure(kiln, final, path, force):
 
     if path.exists() and not force:
         raise FileExistsError(f"{path} already exists; pass --force to replace it.")
-    fpca = _step(final, "fpca")
-    rows = 1 if fpca is None else 2
-    fig = plt.figure(figsize=(13, 3.75 * rows), layout="constrained")
-    panels = np.atleast_1d(fig.subfigures(rows, 1))
-    ax_curves, ax_coef = panels[0].subplots(1, 2)
+    curves = clone(_preprocessing(kiln.minutes)[1]).fit_transform(kiln.data)
+    fig = plt.figure(figsize=(13, 7.5), layout="constrained")
+    top, bottom = fig.subfigures(2, 1)
+    ax_curves, ax_coef = top.subplots(1, 2)
     plotting.CurveBandDisplay.from_data(kiln.data, grid=kiln.minutes, ax=ax_curves)
     ax_curves.set(title="Invented firing curves", xlabel="minute",
                   ylabel="temperature (°C)")
-    coef_estimator = _coefficient_model(kiln)
+    coef_estimator = _coefficient_model(kiln.minutes, curves, kiln.strength)
     if coef_estimator is not None:
         plotting.CoefficientFunctionDisplay.from_estimator(
             coef_estimator, reference=kiln.coef_function, ax=ax_coef
@@ -307,13 +317,19 @@ def _draw_figure(kiln, final, path, force):
     else:
         ax_coef.plot(kiln.minutes, kiln.coef_function, "k--", label="true")
         ax_coef.legend()
-        ax_coef.set_title("True β(t) (FunctionalRidge not available yet)")
+        ax_coef.set_title("True β(t) (no FunctionalRidgeCV in this version)")
     ax_coef.set(xlabel="minute", ylabel="MPa per °C·min")
-    if fpca is not None:
-        axes = panels[1].subplots(1, 3, sharey=True)
-        plotting.ComponentPerturbationDisplay.from_estimator(fpca, ax=axes)
-        for ax in axes:
-            ax.set_xlabel("minute")
+    fpca = _step(final, "fpca")
+    if not hasattr(fpca, "components_") or len(fpca.components_) < 3:
+        from .decomposition import FunctionalPCA
+
+        fpca = FunctionalPCA(n_components=3, n_basis=25, grid=kiln.minutes)
+        fpca.fit(curves)
+    axes = bottom.subplots(1, 3, sharey=True)
+    plotting.ComponentPerturbationDisplay.from_estimator(fpca, ax=axes)
+    for ax in axes:
+        ax.set_xlabel("minute")
+    axes[0].set_ylabel("temperature (°C)")
     fig.savefig(path, dpi=90)
     plt.close(fig)
     return path, f"wrote the figure {path}"
@@ -323,16 +339,12 @@ def _step(pipeline, name):
     return getattr(pipeline, "named_steps", {}).get(name)
 
 
-def _coefficient_model(kiln):
+def _coefficient_model(minutes, curves, strength):
     """A FunctionalRidgeCV on all runs for the coefficient-function panel."""
     import skfunc
 
     cls = getattr(skfunc, "FunctionalRidgeCV", None)
-    smoother = getattr(skfunc, "CurveSmoother", None)
-    if cls is None or smoother is None:
-        return None
-    X = smoother(grid=kiln.minutes).fit_transform(kiln.data)
-    return cls(grid=kiln.minutes).fit(X, kiln.strength)
+    return None if cls is None else cls(grid=minutes).fit(curves, strength)
 
 
 def _summary(results, stream):
