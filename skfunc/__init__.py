@@ -9,11 +9,12 @@ __version__ = "0.1.0"
 from . import hilbert, metrics
 from .decomposition import FunctionalPCA
 from .linear_model import FunctionOnFunctionRidge, FunctionOnScalarRidge
-from .preprocessing import BasisFeatures
+from .preprocessing import BasisFeatures, CurveSmoother
 
 #: every public estimator class; the estimator-check test runs over this list
 ESTIMATORS = [
     BasisFeatures,
+    CurveSmoother,
     FunctionalPCA,
     FunctionOnScalarRidge,
     FunctionOnFunctionRidge,
@@ -21,6 +22,7 @@ ESTIMATORS = [
 
 __all__ = [
     "BasisFeatures",
+    "CurveSmoother",
     "ESTIMATORS",
     "FunctionalPCA",
     "FunctionOnFunctionRidge",

@@ -46,7 +46,9 @@ def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
             f"2 grid points, one per column of X, to be represented."
         )
     if allow_nan:
-        empty = np.flatnonzero(np.all(np.isnan(X), axis=1))
+        # an all-NaN row starts with NaN: scan only those rows, not all of X
+        suspect = np.flatnonzero(np.isnan(X[:, 0]))
+        empty = suspect[np.all(np.isnan(X[suspect]), axis=1)]
         if empty.size:
             raise ValueError(
                 f"Row {int(empty[0])} of X is entirely NaN: a curve needs observed "

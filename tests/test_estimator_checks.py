@@ -60,8 +60,18 @@ _CURVE_RESPONSE_FAILURES = {
     ),
 }
 
+_PICKLE_NAN = (
+    "the check fits 2-point curves with NaN put in at random, leaving rows with "
+    "a single observed value; one value cannot determine the straight line that "
+    "a second-derivative penalty leaves free, and the issue asks for a clear "
+    "error naming such a row. Pickling (with NaN) is tested in test_smoother.py."
+)
 #: {estimator class name: {check name: why it is expected to fail}}
 EXPECTED_FAILURES = {
+    "CurveSmoother": {
+        "check_estimators_pickle": _PICKLE_NAN,
+        "check_estimators_pickle(readonly_memmap=True)": _PICKLE_NAN,
+    },
     "FunctionOnScalarRidge": {
         **_CURVE_RESPONSE_FAILURES,
         "check_regressor_data_not_an_array": _ONE_POINT_Y,
