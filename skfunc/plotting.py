@@ -55,6 +55,20 @@ def _fitted_attributes(estimator, names, what):
     return [getattr(estimator, n) for n in names]
 
 
+def _coef_grid(estimator, n_points):
+    """The grid a coefficient function lives on: ``grid_`` (curve inputs) or
+    ``response_grid_`` (curve responses), whichever matches its length."""
+    for name in ("grid_", "response_grid_"):
+        grid = getattr(estimator, name, None)
+        if grid is not None and np.size(grid) == n_points:
+            return np.asarray(grid)
+    raise ValueError(
+        "CoefficientFunctionDisplay needs a fitted estimator whose grid_ or "
+        "response_grid_ has one point per value of coef_function_ "
+        f"({n_points}); {type(estimator).__name__} has neither."
+    )
+
+
 class _Display:
     """Shared bookkeeping: where the display drew."""
 
@@ -366,13 +380,14 @@ class CoefficientFunctionDisplay(_Display):
         Parameters
         ----------
         estimator : fitted estimator
-            With ``grid_``, ``coef_function_`` and a method
+            With ``coef_function_`` on ``grid_`` (curve inputs) or on
+            ``response_grid_`` (curve responses), and a method
             ``confidence_band(level)`` returning (lower, upper).
         level : float in (0, 1), default=0.95
             Confidence level.
         target : int, default=0
-            Which coefficient function, when ``coef_function_`` holds one
-            per target (2-D).
+            Which row of ``coef_function_`` when it is 2-D: a target, or a
+            covariate of a function-on-scalar model.
         reference : array-like of shape (n_points,), default=None
             A known coefficient function on ``grid_`` to draw for comparison.
         ax : matplotlib Axes, default=None
@@ -381,9 +396,10 @@ class CoefficientFunctionDisplay(_Display):
         -------
         display : CoefficientFunctionDisplay
         """
-        grid, coef = _fitted_attributes(
-            estimator, ["grid_", "coef_function_"], "CoefficientFunctionDisplay"
+        (coef,) = _fitted_attributes(
+            estimator, ["coef_function_"], "CoefficientFunctionDisplay"
         )
+        grid = _coef_grid(estimator, np.shape(coef)[-1])
         if not callable(getattr(estimator, "confidence_band", None)):
             raise ValueError(
                 f"CoefficientFunctionDisplay needs an estimator with a "
@@ -398,7 +414,6 @@ class CoefficientFunctionDisplay(_Display):
                 f"target must be an int from 0 to {len(coef) - 1} (one per "
                 f"coefficient function); got {target!r}."
             )
-        grid = np.asarray(grid)
         if reference is not None:
             reference = check_array(reference, ensure_2d=False, input_name="reference")
             if reference.shape != grid.shape:

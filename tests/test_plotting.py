@@ -227,6 +227,24 @@ def test_real_functional_pca_if_available():
     np.testing.assert_allclose(display.plus_lines_[0].get_ydata(), fpca.mean_ + shift)
 
 
+def test_function_on_scalar_coefficients_on_the_response_grid():
+    from skfunc.linear_model import FunctionOnScalarRidge
+
+    kiln = make_kiln_firing(60, minutes=np.arange(0, 600, 10), random_state=0)
+    est = FunctionOnScalarRidge(response_grid=kiln.minutes).fit(
+        kiln.settings, kiln.true_curves
+    )
+    display = CoefficientFunctionDisplay.from_estimator(est, target=3, level=0.9)
+    np.testing.assert_allclose(display.line_.get_xdata(), kiln.minutes)
+    np.testing.assert_allclose(display.line_.get_ydata(), est.coef_function_[3])
+    lower, upper = est.confidence_band(0.9)
+    assert _contains_points(_vertices(display.band_), kiln.minutes, upper[3])
+    with pytest.raises(ValueError, match="grid_ or response_grid_"):
+        CoefficientFunctionDisplay.from_estimator(
+            Fitted(coef_function_=np.ones(3), confidence_band=lambda level: (0, 0))
+        )
+
+
 def test_real_coefficient_estimators_if_available():
     names = ["FunctionalRidge", "FunctionalRidgeCV"]
     classes = [getattr(skfunc, n) for n in names if hasattr(skfunc, n)]
