@@ -551,6 +551,9 @@ class AlphaCriterionDisplay(_Display):
             for a in chosen
         ]
         ax.set_xscale("log")
+        finite = criterion[np.isfinite(criterion)]
+        if finite.size and finite.min() > 0 and finite.max() > 100 * finite.min():
+            ax.set_yscale("log")  # criteria spanning decades
         ax.set_xlabel("alpha (penalty)")
         ax.set_ylabel(f"{self.criterion_name} (lower is better)")
         if single:
