@@ -8,7 +8,13 @@ __version__ = "0.1.0"
 
 from . import hilbert, metrics
 from .decomposition import FunctionalPCA
-from .linear_model import FunctionOnFunctionRidge, FunctionOnScalarRidge
+from .linear_model import (
+    FunctionalLogisticRegression,
+    FunctionalRidge,
+    FunctionalRidgeCV,
+    FunctionOnFunctionRidge,
+    FunctionOnScalarRidge,
+)
 from .preprocessing import BasisFeatures, CurveSmoother
 
 #: every public estimator class; the estimator-check test runs over this list
@@ -18,13 +24,19 @@ ESTIMATORS = [
     FunctionalPCA,
     FunctionOnScalarRidge,
     FunctionOnFunctionRidge,
+    FunctionalRidge,
+    FunctionalRidgeCV,
+    FunctionalLogisticRegression,
 ]
 
 __all__ = [
     "BasisFeatures",
     "CurveSmoother",
     "ESTIMATORS",
+    "FunctionalLogisticRegression",
     "FunctionalPCA",
+    "FunctionalRidge",
+    "FunctionalRidgeCV",
     "FunctionOnFunctionRidge",
     "FunctionOnScalarRidge",
     "hilbert",

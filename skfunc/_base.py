@@ -18,16 +18,23 @@ CHUNK_VALUES = 1 << 22
 
 
 def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
-                    **check_params):
+                    n_covariates=0, **check_params):
     """Validate curves (rows of X) and their grid.
 
     On ``reset`` the grid is resolved from ``estimator.grid``, numeric
     DataFrame column labels, or evenly spaced points on [0, 1], and stored as
     ``estimator.grid_``. Otherwise X must have as many columns as at fit, and
     numeric DataFrame labels must match the fitted grid.
+
+    ``n_covariates`` trailing columns of X are scalar covariates, not curve
+    values: the grid (and its column labels) covers the other columns only.
     """
     X_in = X
     labels = getattr(X_in, "columns", None)
+    if labels is not None and n_covariates:
+        n_curve = len(labels) - n_covariates
+        # too few curve columns: left to the clear error below
+        labels = list(labels)[:n_curve] if n_curve >= 2 else None
     # read the labels first: a mix of numbers and words gets our message
     inferred = grid_from_labels(list(labels)) if labels is not None else None
     out = validate_data(
@@ -40,6 +47,14 @@ def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
         **check_params,
     )
     X = out[0] if isinstance(out, tuple) else out
+    n_points = X.shape[1] - n_covariates
+    if n_covariates and n_points < 2:
+        raise ValueError(
+            f"X has {X.shape[1]} column(s), of which the last n_covariates="
+            f"{n_covariates} are scalar covariates, leaving {n_points} grid "
+            "point(s); a curve needs at least 2 grid points (columns of X) "
+            "before the covariates."
+        )
     if X.shape[1] < 2:
         raise ValueError(
             f"X has {X.shape[1]} feature(s) (grid points); a curve needs at least "
@@ -48,7 +63,7 @@ def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
     if allow_nan:
         # an all-NaN row starts with NaN: scan only those rows, not all of X
         suspect = np.flatnonzero(np.isnan(X[:, 0]))
-        empty = suspect[np.all(np.isnan(X[suspect]), axis=1)]
+        empty = suspect[np.all(np.isnan(X[suspect, :n_points]), axis=1)]
         if empty.size:
             raise ValueError(
                 f"Row {int(empty[0])} of X is entirely NaN: a curve needs observed "
@@ -56,7 +71,7 @@ def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
             )
     if reset:
         grid = getattr(estimator, "grid", None)
-        estimator.grid_ = resolve_grid(grid if grid is not None else inferred, X, X.shape[1])
+        estimator.grid_ = resolve_grid(grid if grid is not None else inferred, X, n_points)
     else:
         if inferred is not None and not np.allclose(
             inferred, estimator.grid_, rtol=1e-9, atol=0

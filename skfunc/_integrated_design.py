@@ -1,0 +1,181 @@
+"""The integrated design shared by the scalar-outcome functional linear models.
+
+A curve ``x_i`` enters a linear predictor through ``int x_i(t) beta(t) dt``.
+With ``beta = sum_k c_k phi_k`` and quadrature weights ``w`` on the grid, that
+integral is row ``i`` of ``Z c`` with the *integrated design*
+
+    Z = X W Phi        (n x K, Z[i, k] ~ int x_i phi_k),
+
+so a functional linear model is an ordinary linear model in ``c`` with the
+roughness penalty ``alpha c' P c``, ``P = int (D^q phi)(D^q phi)'``. Trailing
+scalar covariates (the partial functional linear model) are appended to ``Z``
+as unpenalized columns.
+
+Once fitted, the model's linear predictor is ``X @ coef_ + intercept_`` with
+``coef_`` = ``w * beta(grid)`` on the curve columns followed by the covariate
+coefficients: one chunked matrix product, resolution invariant because the
+quadrature weights carry the grid spacing.
+
+References
+----------
+Ramsay, J. O. and Silverman, B. W. (2005). *Functional Data Analysis*, 2nd
+ed., ch. 15. Springer.
+
+Cardot, H., Ferraty, F. and Sarda, P. (2003). Spline estimators for the
+functional linear model. *Statistica Sinica* 13, 571-591.
+"""
+
+from numbers import Integral, Real
+
+import numpy as np
+from scipy.linalg import block_diag
+from scipy.stats import norm
+from sklearn.utils._param_validation import Interval, StrOptions
+from sklearn.utils.validation import check_is_fitted
+
+from ._base import basis_for, chunked_matmul, validate_curves
+from ._bases import BASES
+from ._grid import QUADRATURES, quadrature_weights
+from ._penalized import _RCOND, NotIdentifiableError, PenalizedPath
+
+#: parameter constraints common to every model on the integrated design
+DESIGN_CONSTRAINTS = {
+    "basis": [StrOptions(set(BASES))],
+    "n_basis": [Interval(Integral, 1, None, closed="left"), None],
+    "degree": [Interval(Integral, 0, None, closed="left")],
+    "knots": ["array-like", None],
+    "penalty_order": [Interval(Integral, 0, None, closed="left")],
+    "n_covariates": [Interval(Integral, 0, None, closed="left")],
+    "fit_intercept": ["boolean"],
+    "grid": ["array-like", None],
+    "quadrature": [StrOptions(set(QUADRATURES))],
+}
+
+ALPHA_CONSTRAINT = [Interval(Real, 0, None, closed="left")]
+
+
+class IntegratedDesignMixin:
+    """Curves (and trailing covariates) to the integrated design, and back.
+
+    Subclasses set ``basis``, ``n_basis``, ``degree``, ``knots``,
+    ``penalty_order``, ``n_covariates``, ``grid`` and ``quadrature``.
+    """
+
+    def _validate_curves(self, X, y="no_validation", *, reset, **check_params):
+        return validate_curves(
+            self, X, y, reset=reset, n_covariates=self.n_covariates, **check_params
+        )
+
+    def _basis(self):
+        """The basis for beta, rebuilt from the parameters and ``grid_``."""
+        return basis_for(self, self.grid_, cap=False)
+
+    def _integration_operator(self, basis):
+        """``W Phi`` (m x K): curves times it give the integrated design."""
+        w = quadrature_weights(self.grid_, self.quadrature)
+        return basis.evaluate(self.grid_) * w[:, None]
+
+    def _design(self, X, operator):
+        """The integrated design ``[X_curves W Phi, covariates]`` (n x K + p)."""
+        m = operator.shape[0]
+        Z = chunked_matmul(X[:, :m], operator)
+        if self.n_covariates:
+            Z = np.hstack([Z, np.asarray(X[:, m:], dtype=np.float64)])
+        return Z
+
+    def _penalty(self, basis):
+        """Roughness matrix for ``[basis coefficients, covariate coefficients]``;
+        the covariates are unpenalized."""
+        k, degree = basis.n_basis, getattr(basis, "degree", None)
+        if degree is not None and k == degree + 1 and self.penalty_order > degree:
+            # B-splines without interior knots (the adaptive default on a tiny
+            # grid) span polynomials of degree < q, whose D^q vanishes.
+            roughness = np.zeros((k, k))
+        else:
+            roughness = basis.penalty(self.penalty_order)
+        return block_diag(roughness, np.zeros((self.n_covariates, self.n_covariates)))
+
+    def _checked_path(self, zz, penalty, alphas, n_samples):
+        """``PenalizedPath(zz, penalty)``, with errors that say what to change."""
+        n_coef = zz.shape[0]
+        try:
+            path = PenalizedPath(zz, penalty)
+            if np.min(alphas) == 0 and path.mu.min() <= _RCOND * n_coef:
+                raise NotIdentifiableError(
+                    "with alpha=0 the cross products of the integrated design "
+                    "are singular"
+                )
+            path.denominators(alphas)
+        except NotIdentifiableError as exc:
+            if np.min(alphas) == 0:
+                advice = (
+                    "Use a roughness penalty alpha > 0 (the usual choice), fewer "
+                    "basis functions (n_basis) or more curves."
+                )
+            else:
+                advice = (
+                    "The penalty leaves functions with D^penalty_order = 0 (and "
+                    "the covariates) unpenalized, so the data must determine "
+                    "those: use more curves, a lower penalty_order or fewer "
+                    "covariates."
+                )
+            raise NotIdentifiableError(
+                f"{type(self).__name__} cannot determine {n_coef} coefficients "
+                f"({n_coef - self.n_covariates} basis functions for beta and "
+                f"{self.n_covariates} covariate(s)) from {n_samples} curves: "
+                f"{exc}. {advice}"
+            ) from exc
+        return path
+
+    def _set_coefficients(self, basis, theta, intercept, covariance, squeeze):
+        """Store the fitted model from design coefficients ``theta`` (T, K + p),
+        ``intercept`` (T,) and the basis-coefficient covariance (T, K, K)."""
+        k = basis.n_basis
+        w = quadrature_weights(self.grid_, self.quadrature)
+        beta = theta[:, :k] @ basis.evaluate(self.grid_).T
+
+        def out(a):
+            return a[0] if squeeze else a
+
+        self.quadrature_weights_ = w
+        self.n_basis_ = k
+        self.basis_coef_ = out(theta[:, :k])
+        self.covariate_coef_ = out(theta[:, k:])
+        self.coef_function_ = out(beta)
+        self.coef_ = out(np.hstack([beta * w, theta[:, k:]]))
+        self.intercept_ = float(intercept[0]) if squeeze else intercept
+        self.coef_covariance_ = out(covariance)
+
+    def _linear_predictor(self, X):
+        """``X @ coef_.T + intercept_`` for validated curves X."""
+        check_is_fitted(self)
+        X = self._validate_curves(X, reset=False)
+        coef = np.atleast_2d(self.coef_)
+        eta = chunked_matmul(X, coef.T) + self.intercept_
+        return eta[:, 0] if np.ndim(self.coef_) == 1 else eta
+
+    def confidence_band(self, level=0.95):
+        """Pointwise confidence band for the coefficient function beta(t).
+
+        ``beta_hat(t) +/- z_{(1 + level)/2} sd(t)``, with ``sd(t)^2 =
+        phi(t)' coef_covariance_ phi(t)`` on ``grid_`` (see the class Notes
+        for which covariance is used).
+
+        Parameters
+        ----------
+        level : float, default=0.95
+            Pointwise coverage level, strictly between 0 and 1.
+
+        Returns
+        -------
+        lower, upper : ndarray, shaped like ``coef_function_``
+        """
+        check_is_fitted(self)
+        if not isinstance(level, Real) or not 0 < level < 1:
+            raise ValueError(
+                f"level must be a number strictly between 0 and 1; got {level!r}."
+            )
+        phi = self._basis().evaluate(self.grid_)
+        var = np.einsum("jk,...kl,jl->...j", phi, self.coef_covariance_, phi)
+        half = norm.ppf(0.5 + level / 2) * np.sqrt(np.maximum(var, 0.0))
+        return self.coef_function_ - half, self.coef_function_ + half

@@ -1,0 +1,119 @@
+"""Benchmark: the all-alpha path of FunctionalRidgeCV against refitting.
+
+Targets (issue 5): FunctionalRidgeCV over 50 alphas on 50,000 curves x 500
+points costs at most 3x one FunctionalRidge fit at a fixed alpha, and is at
+least 20x faster than GridSearchCV(FunctionalRidge(), 50 alphas, cv=5), in
+the same run. sklearn's RidgeCV on the raw grid values is shown for scale.
+
+Run from the repository root::
+
+    python tests/benchmarks/bench_ridge.py           # full size (about 2 min)
+    python tests/benchmarks/bench_ridge.py --quick   # small, < 20 s
+"""
+
+import argparse
+import os
+import sys
+import time
+
+import numpy as np
+
+sys.path.insert(0, os.path.abspath(os.path.join(os.path.dirname(__file__), "..", "..")))
+
+from sklearn.linear_model import RidgeCV  # noqa: E402
+from sklearn.model_selection import GridSearchCV  # noqa: E402
+
+from skfunc import FunctionalRidge, FunctionalRidgeCV  # noqa: E402
+
+
+def make_data(n, m, seed=0):
+    """Brownian-motion-like curves (15 Karhunen-Loeve terms) and a smooth beta."""
+    rng = np.random.default_rng(seed)
+    t = np.linspace(0, 1, m)
+    k = np.arange(1, 16) - 0.5
+    scores = rng.normal(size=(n, k.size)) / (k * np.pi)
+    X = scores @ (np.sqrt(2) * np.sin(np.pi * np.outer(k, t)))
+    beta = 2 * np.sin(2 * np.pi * t) + 1.5 * np.cos(np.pi * t)
+    y = X @ (beta * np.gradient(t)) + 0.2 * rng.normal(size=n)
+    return X, y
+
+
+def best_times(funcs, repeat):
+    """Best of ``repeat`` wall-clock times of each function, run in turns so
+    that all see the same load on a shared machine."""
+    times = {name: [] for name in funcs}
+    for _ in range(repeat):
+        for name, func in funcs.items():
+            start = time.perf_counter()
+            func()
+            times[name].append(time.perf_counter() - start)
+    return {name: min(values) for name, values in times.items()}
+
+
+def main():
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--quick", action="store_true", help="small sizes (< 20 s)")
+    args = parser.parse_args()
+    n, m = (1_000, 100) if args.quick else (50_000, 500)
+    X, y = make_data(n, m)
+    alphas = np.logspace(-9, 0, 50)
+    repeat = 5
+
+    fast = best_times(
+        {
+            "FunctionalRidge, one fit at fixed alpha": lambda: FunctionalRidge(
+                alpha=1e-5
+            ).fit(X, y),
+            "FunctionalRidgeCV, 50 alphas, gcv": lambda: FunctionalRidgeCV(
+                alphas=alphas
+            ).fit(X, y),
+            "FunctionalRidgeCV, 50 alphas, loo": lambda: FunctionalRidgeCV(
+                alphas=alphas, criterion="loo"
+            ).fit(X, y),
+        },
+        repeat,
+    )
+    rows = list(fast.items())
+    one, gcv = rows[0][1], rows[1][1]
+
+    def best_time(func, repeat):
+        return best_times({"": func}, repeat)[""]
+
+    kfold = FunctionalRidgeCV(alphas=alphas, cv=5)
+    rows.append(
+        ("FunctionalRidgeCV, 50 alphas, cv=5", best_time(lambda: kfold.fit(X, y), 1))
+    )
+    search = GridSearchCV(FunctionalRidge(), {"alpha": alphas}, cv=5, n_jobs=1)
+    grid_seconds = best_time(lambda: search.fit(X, y), 1)
+    rows.append(("GridSearchCV(FunctionalRidge), 50 alphas, cv=5", grid_seconds))
+    raw = RidgeCV(alphas=alphas)
+    rows.append(
+        (
+            "sklearn RidgeCV on raw values, 50 alphas",
+            best_time(lambda: raw.fit(X, y), 1),
+        )
+    )
+
+    print(
+        f"n_curves={n}, n_points={m}, 50 alphas, "
+        f"best of {repeat} in turns (1 for the slow rows)"
+    )
+    print(
+        f"{'method':50s} {'seconds':>9s} {'x one fit':>10s} {'grid search / this':>19s}"
+    )
+    for name, seconds in rows:
+        ratios = f"{seconds / one:10.2f} {grid_seconds / seconds:19.1f}"
+        print(f"{name:50s} {seconds:9.3f} {ratios}")
+    print()
+    print(
+        f"GCV path / one fit = {gcv / one:.2f}  (target <= 3): "
+        f"{'PASS' if gcv / one <= 3 else 'FAIL'}"
+    )
+    print(
+        f"GridSearchCV / GCV path = {grid_seconds / gcv:.1f}  (target >= 20): "
+        f"{'PASS' if grid_seconds / gcv >= 20 else 'FAIL'}"
+    )
+
+
+if __name__ == "__main__":
+    main()

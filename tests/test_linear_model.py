@@ -1,0 +1,283 @@
+"""FunctionalRidge: external checks, covariates, pipelines, bad input.
+
+Cross-validation (FunctionalRidgeCV) is in test_linear_model_cv.py, the
+classifier in test_linear_model_logistic.py, the seeded simulation (error and
+band coverage) in test_linear_model_simulation.py.
+"""
+
+import numpy as np
+import pandas as pd
+import pytest
+from _linear_model_data import (
+    curve_scores,
+    curves_on,
+    integral_with_beta,
+    trapezoid_weights,
+)
+from numpy.polynomial import legendre
+from sklearn.compose import ColumnTransformer
+from sklearn.linear_model import LinearRegression, Ridge
+from sklearn.pipeline import make_pipeline
+from sklearn.preprocessing import StandardScaler
+
+from skfunc import FunctionalRidge, FunctionalRidgeCV
+from skfunc.preprocessing import BasisFeatures
+
+T = np.linspace(0, 1, 101)
+
+
+def make_data(rng, n=60, t=T, noise=0.1):
+    scores = curve_scores(n, rng)
+    X = curves_on(scores, t)
+    y = integral_with_beta(scores) + noise * rng.normal(size=n)
+    return X, y
+
+
+def legendre_design(X, t, n_basis):
+    """Integrated design int x_i P_k built with numpy's Legendre polynomials
+    and trapezoid weights, independently of skfunc."""
+    phi = legendre.legvander(2 * t - 1, n_basis - 1)
+    return X @ (trapezoid_weights(t)[:, None] * phi)
+
+
+def test_identity_penalty_in_fourier_basis_equals_sklearn_ridge(rng):
+    # Source: sklearn.linear_model.Ridge on BasisFeatures output. The Fourier
+    # basis is L2-orthonormal and the trapezoid rule integrates its products
+    # exactly on this closed even grid (common practice), so BasisFeatures'
+    # coordinates are the integrated design and penalty_order=0 gives P = I.
+    X, y = make_data(rng, n=40)
+    w = rng.uniform(0.5, 2.0, size=40)
+    Z = BasisFeatures(basis="fourier", n_basis=9).fit_transform(X)
+    for alpha in (1e-3, 0.1, 10.0):
+        ours = FunctionalRidge(alpha=alpha, basis="fourier", n_basis=9, penalty_order=0)
+        ours.fit(X, y, sample_weight=w)
+        ref = Ridge(alpha=alpha).fit(Z, y, sample_weight=w)
+        np.testing.assert_allclose(ours.basis_coef_, ref.coef_, rtol=1e-8, atol=1e-10)
+        np.testing.assert_allclose(ours.intercept_, ref.intercept_, rtol=1e-8)
+        np.testing.assert_allclose(ours.predict(X), ref.predict(Z), rtol=1e-8)
+
+
+def test_multiple_targets_equal_sklearn_ridge(rng):
+    # Source: sklearn.linear_model.Ridge with 2-D y, same setting as above.
+    X, y = make_data(rng, n=40)
+    Y = np.column_stack([y, -2 * y + rng.normal(size=40)])
+    Z = BasisFeatures(basis="fourier", n_basis=7).fit_transform(X)
+    ours = FunctionalRidge(alpha=0.5, basis="fourier", n_basis=7, penalty_order=0)
+    ours.fit(X, Y)
+    ref = Ridge(alpha=0.5).fit(Z, Y)
+    np.testing.assert_allclose(ours.basis_coef_, ref.coef_, rtol=1e-8, atol=1e-10)
+    assert ours.coef_function_.shape == (2, T.size)
+    assert ours.predict(X).shape == (40, 2)
+    lower, upper = ours.confidence_band()
+    assert lower.shape == upper.shape == (2, T.size)
+
+
+def test_alpha_zero_equals_least_squares(rng):
+    # Source: sklearn.linear_model.LinearRegression on the integrated design
+    # built with numpy's Legendre polynomials (OLS when alpha = 0, K <= n).
+    X, y = make_data(rng, n=50)
+    ours = FunctionalRidge(alpha=0.0, basis="legendre", n_basis=6).fit(X, y)
+    Z = legendre_design(X, T, 6)
+    ref = LinearRegression().fit(Z, y)
+    np.testing.assert_allclose(ours.basis_coef_, ref.coef_, rtol=1e-7)
+    np.testing.assert_allclose(ours.intercept_, ref.intercept_, rtol=1e-7, atol=1e-9)
+    np.testing.assert_allclose(ours.predict(X), ref.predict(Z), rtol=1e-9)
+    # beta on the grid is the Legendre series with those coefficients
+    np.testing.assert_allclose(
+        ours.coef_function_, legendre.legval(2 * T - 1, ref.coef_), rtol=1e-7
+    )
+
+
+def test_scalar_covariates_equal_least_squares(rng):
+    # Source: sklearn.linear_model.LinearRegression on [integrated design,
+    # covariates] (the partial functional linear model, unpenalized at alpha=0).
+    X, y = make_data(rng, n=50)
+    S = rng.normal(size=(50, 2))
+    y = y + S @ np.array([0.7, -1.2])
+    ours = FunctionalRidge(alpha=0.0, basis="legendre", n_basis=5, n_covariates=2)
+    ours.fit(np.hstack([X, S]), y)
+    ref = LinearRegression().fit(np.hstack([legendre_design(X, T, 5), S]), y)
+    np.testing.assert_allclose(ours.basis_coef_, ref.coef_[:5], rtol=1e-7)
+    np.testing.assert_allclose(ours.covariate_coef_, ref.coef_[5:], rtol=1e-7)
+    assert ours.grid_.shape == (T.size,)
+    assert ours.coef_.shape == (T.size + 2,)
+
+
+def test_covariates_are_not_penalized(rng):
+    # With a large penalty beta is forced to a straight line (the null space of
+    # the second-derivative penalty), but the covariate coefficient is still
+    # the least-squares one (Frisch-Waugh-Lovell; common practice).
+    X, y = make_data(rng, n=80)
+    s = rng.normal(size=(80, 1))
+    y = y + 3.0 * s[:, 0]
+    ours = FunctionalRidge(alpha=1e6, n_basis=10, n_covariates=1)
+    ours.fit(np.hstack([X, s]), y)
+    line = ours.coef_function_
+    np.testing.assert_allclose(np.diff(line, 2), 0, atol=1e-5 * np.abs(line).max())
+    phi_line = np.column_stack([np.ones_like(T), T])
+    Z_line = X @ (trapezoid_weights(T)[:, None] * phi_line)
+    ref = LinearRegression().fit(np.hstack([Z_line, s]), y)
+    np.testing.assert_allclose(ours.covariate_coef_, ref.coef_[2:], rtol=1e-4)
+
+
+def test_pipeline_and_column_transformer_with_covariates(rng):
+    # Curves first, scalar settings last: a ColumnTransformer passes the curve
+    # columns through and scales the settings; the estimator reads the grid
+    # from the numeric column labels of the pandas output.
+    X, y = make_data(rng, n=60)
+    curve_cols = [f"{v:.2f}" for v in T]
+    frame = pd.DataFrame(X, columns=curve_cols)
+    frame["peak_setpoint"] = rng.normal(1200, 30, size=60)
+    frame["load_mass"] = rng.normal(500, 50, size=60)
+    y = y + 0.01 * (frame["peak_setpoint"] - 1200)
+    prep = ColumnTransformer(
+        [
+            ("curve", "passthrough", curve_cols),
+            ("settings", StandardScaler(), ["peak_setpoint", "load_mass"]),
+        ],
+        verbose_feature_names_out=False,
+    ).set_output(transform="pandas")
+    pipe = make_pipeline(
+        prep, FunctionalRidgeCV(alphas=np.logspace(-8, 0, 9), n_covariates=2)
+    )
+    pipe.fit(frame, y)
+    model = pipe[-1]
+    np.testing.assert_allclose(model.grid_, np.round(T, 2))
+    assert list(model.feature_names_in_[-2:]) == ["peak_setpoint", "load_mass"]
+    # the same model from plain arrays
+    settings = StandardScaler().fit_transform(frame[["peak_setpoint", "load_mass"]])
+    direct = FunctionalRidgeCV(
+        alphas=np.logspace(-8, 0, 9), n_covariates=2, grid=np.round(T, 2)
+    )
+    direct.fit(np.hstack([X, settings]), y)
+    np.testing.assert_allclose(
+        pipe.predict(frame), direct.predict(np.hstack([X, settings]))
+    )
+    assert pipe.score(frame, y) > 0.9
+
+
+def test_edf_and_noise_variance_from_the_hat_matrix(rng):
+    # Source: edf = trace of the hat matrix, sigma^2 = RSS / (n - edf)
+    # (Hastie and Tibshirani, 1990, Generalized Additive Models, sec. 3.5;
+    # common practice). The hat matrix is built here with numpy from the
+    # Legendre integrated design and the exact penalty of the basis.
+    X, y = make_data(rng, n=40)
+    est = FunctionalRidge(alpha=1e-4, basis="legendre", n_basis=8).fit(X, y)
+    Z = legendre_design(X, T, 8)
+    D = np.column_stack([np.ones(40), Z])
+    P = np.zeros((9, 9))
+    P[1:, 1:] = est._basis().penalty(2)
+    H = D @ np.linalg.solve(D.T @ D + 1e-4 * P, D.T)
+    rss = np.sum((y - H @ y) ** 2)
+    np.testing.assert_allclose(est.edf_, np.trace(H), rtol=1e-8)
+    np.testing.assert_allclose(est.noise_variance_, rss / (40 - np.trace(H)), rtol=1e-6)
+    np.testing.assert_allclose(est.predict(X), H @ y, rtol=1e-8, atol=1e-10)
+
+
+def test_resolution_invariance(rng):
+    # Same curves on 201, 1001 and uneven 201-point grids: beta and
+    # predictions agree with the 1001-point fit within 1e-3 relative at a
+    # fixed alpha, and the chosen alpha is the same.
+    scores = curve_scores(80, rng)
+    y = integral_with_beta(scores) + 0.05 * rng.normal(size=80)
+    even = np.linspace(0, 1, 201)
+    uneven = even + np.r_[0, rng.uniform(-0.4, 0.4, size=199), 0] * even[1]
+    grids = {"201": even, "uneven": uneven}
+    fine = np.linspace(0, 1, 1001)
+    alphas = np.logspace(-9, -1, 17)
+
+    def fit(t):
+        X = curves_on(scores, t)
+        fixed = FunctionalRidge(alpha=1e-5, grid=t).fit(X, y)
+        chosen = FunctionalRidgeCV(alphas=alphas, grid=t).fit(X, y).alpha_
+        return fixed.basis_coef_, fixed.predict(X), chosen
+
+    coef_ref, pred_ref, alpha_ref = fit(fine)
+    for t in grids.values():
+        coef, pred, alpha = fit(t)
+        assert np.linalg.norm(coef - coef_ref) <= 1e-3 * np.linalg.norm(coef_ref)
+        assert np.linalg.norm(pred - pred_ref) <= 1e-3 * np.linalg.norm(pred_ref)
+        assert alpha == alpha_ref
+
+
+def test_dataframe_grid_must_match_at_predict(rng):
+    X, y = make_data(rng, n=30)
+    frame = pd.DataFrame(X, columns=T)
+    est = FunctionalRidge(alpha=1e-3).fit(frame, y)
+    shifted = pd.DataFrame(X, columns=T + 1)
+    with pytest.raises(ValueError, match="differs from the grid"):
+        est.predict(shifted)
+    with pytest.raises(ValueError, match="features"):
+        est.predict(X[:, :50])
+
+
+def test_bad_input(rng):
+    X, y = make_data(rng, n=30)
+    with pytest.raises(ValueError, match="NaN"):
+        FunctionalRidge().fit(X, np.where(np.arange(30) == 3, np.nan, y))
+    with pytest.raises(ValueError, match="inconsistent numbers of samples"):
+        FunctionalRidge().fit(X, y[:-1])
+    with pytest.raises(ValueError, match="Negative values in data passed to"):
+        FunctionalRidge().fit(X, y, sample_weight=np.r_[-1.0, np.ones(29)])
+    with pytest.raises(ValueError, match="sample_weight.shape"):
+        FunctionalRidge().fit(X, y, sample_weight=np.ones(29))
+    with pytest.raises(ValueError, match="alpha"):
+        FunctionalRidge(alpha=-1.0).fit(X, y)
+    with pytest.raises(ValueError, match="n_covariates=100"):
+        FunctionalRidge(n_covariates=100).fit(X, y)
+    with pytest.raises(ValueError, match="penalty_order=4 exceeds"):
+        FunctionalRidge(penalty_order=4).fit(X, y)
+    est = FunctionalRidge(alpha=1e-3).fit(X, y)
+    with pytest.raises(ValueError, match="level must be"):
+        est.confidence_band(level=95)
+
+
+def test_more_basis_functions_than_curves_needs_alpha(rng):
+    X, y = make_data(rng, n=12)
+    with pytest.raises(ValueError, match=r"alpha > 0") as info:
+        FunctionalRidge(alpha=0.0, n_basis=20).fit(X, y)
+    assert "20 basis functions" in str(info.value) and "12 curves" in str(info.value)
+    FunctionalRidge(alpha=1e-4, n_basis=20).fit(X, y)  # penalized: fine
+
+
+def test_no_intercept_equals_sklearn_ridge(rng):
+    # Source: sklearn.linear_model.Ridge(fit_intercept=False), setting as in
+    # test_identity_penalty_in_fourier_basis_equals_sklearn_ridge.
+    X, y = make_data(rng, n=40)
+    Z = BasisFeatures(basis="fourier", n_basis=9).fit_transform(X)
+    ours = FunctionalRidge(
+        alpha=0.3, basis="fourier", n_basis=9, penalty_order=0, fit_intercept=False
+    ).fit(X, y)
+    ref = Ridge(alpha=0.3, fit_intercept=False).fit(Z, y)
+    np.testing.assert_allclose(ours.basis_coef_, ref.coef_, rtol=1e-8, atol=1e-10)
+    assert ours.intercept_ == 0.0
+
+
+def test_fit_is_a_sum_over_chunks(rng):
+    # Statistics of chunks, merged, then solved, give the in-memory fit: the
+    # path partial_fit and distributed fits take.
+    from skfunc._penalized import merge
+
+    X, y = make_data(rng, n=50)
+    w = rng.uniform(0.5, 2, size=50)
+    full = FunctionalRidge(alpha=1e-4).fit(X, y, sample_weight=w)
+    chunked = FunctionalRidge(alpha=1e-4).fit(X[:5], y[:5])  # sets grid_
+    basis = chunked._basis()
+    operator = chunked._integration_operator(basis)
+    parts = [
+        chunked._statistics(X[s], y[s], w[s], operator)
+        for s in (slice(0, 20), slice(20, 50))
+    ]
+    chunked._solve(merge(*parts), 1e-4, basis, squeeze=True)
+    np.testing.assert_allclose(chunked.coef_, full.coef_, rtol=1e-10)
+    np.testing.assert_allclose(
+        chunked.noise_variance_, full.noise_variance_, rtol=1e-10
+    )
+
+
+def test_too_few_curves_for_the_unpenalized_part(rng):
+    # Two centered curves cannot determine the straight-line part of beta
+    # that the second-derivative penalty leaves free.
+    X, y = make_data(rng, n=2)
+    with pytest.raises(ValueError, match="more curves, a lower penalty_order"):
+        FunctionalRidge(alpha=1.0).fit(X, y)
