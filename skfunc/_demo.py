@@ -57,9 +57,10 @@ def functional_search(minutes, cv, memory=None, n_jobs=None):
 
     The pipeline smooths the curves (filling the thermocouple gaps), reduces
     them to functional principal component scores and fits a ridge
-    regression; when FunctionalRidge exists the search also tries it in
-    place of the last two steps. ``memory`` caches the smoothing step across
-    candidates (as :class:`~sklearn.pipeline.Pipeline` does).
+    regression; the search also tries FunctionalRidgeCV (a coefficient
+    function with its penalty chosen by GCV) in place of the last two steps.
+    ``memory`` caches the smoothing step across candidates (as
+    :class:`~sklearn.pipeline.Pipeline` does).
     """
     import skfunc
 
@@ -74,16 +75,15 @@ def functional_search(minutes, cv, memory=None, n_jobs=None):
     smoothing = {"smooth__alpha": [1e2, 1e4, 1e6]}
     grids = [{
         **smoothing,
-        "fpca__n_components": [4, 6, 10],
+        "fpca__n_components": [5, 10, 15],
         "regression__alpha": np.logspace(4, 8, 5),
     }]
-    if hasattr(skfunc, "FunctionalRidge"):
-        grids.append({
-            **smoothing,
-            "fpca": ["passthrough"],
-            "regression": [skfunc.FunctionalRidge(grid=minutes)],
-            "regression__alpha": np.logspace(-2, 4, 7),
-        })
+    grids.append({
+        **smoothing,
+        "fpca": ["passthrough"],
+        "regression": [skfunc.FunctionalRidgeCV(grid=minutes)],
+        "regression__n_basis": [20, 30],
+    })
     return GridSearchCV(pipe, grids, cv=cv, scoring="r2", n_jobs=n_jobs)
 
 
@@ -306,16 +306,11 @@ def _draw_figure(kiln, final, path, force):
     plotting.CurveBandDisplay.from_data(kiln.data, grid=kiln.minutes, ax=ax_curves)
     ax_curves.set(title="Invented firing curves", xlabel="minute",
                   ylabel="temperature (°C)")
-    coef_estimator = _coefficient_model(kiln.minutes, curves, kiln.strength)
-    if coef_estimator is not None:
-        plotting.CoefficientFunctionDisplay.from_estimator(
-            coef_estimator, reference=kiln.coef_function, ax=ax_coef
-        )
-        ax_coef.set_title("Strength coefficient function β(t)")
-    else:
-        ax_coef.plot(kiln.minutes, kiln.coef_function, "k--", label="true")
-        ax_coef.legend()
-        ax_coef.set_title("True β(t) (no FunctionalRidgeCV in this version)")
+    coef_estimator = _coefficient_model(final, kiln.minutes, curves, kiln.strength)
+    plotting.CoefficientFunctionDisplay.from_estimator(
+        coef_estimator, reference=kiln.coef_function, ax=ax_coef
+    )
+    ax_coef.set_title("Strength coefficient function β(t)")
     ax_coef.set(xlabel="minute", ylabel="MPa per °C·min")
     fpca = _step(final, "fpca")
     if not hasattr(fpca, "components_") or len(fpca.components_) < 3:
@@ -337,12 +332,14 @@ def _step(pipeline, name):
     return getattr(pipeline, "named_steps", {}).get(name)
 
 
-def _coefficient_model(minutes, curves, strength):
-    """A FunctionalRidgeCV on all runs for the coefficient-function panel."""
-    import skfunc
+def _coefficient_model(final, minutes, curves, strength):
+    """The chosen FunctionalRidgeCV, or one fitted for the figure."""
+    from .linear_model import FunctionalRidgeCV
 
-    cls = getattr(skfunc, "FunctionalRidgeCV", None)
-    return None if cls is None else cls(grid=minutes).fit(curves, strength)
+    chosen = final.named_steps["regression"]
+    if isinstance(chosen, FunctionalRidgeCV):
+        return chosen
+    return FunctionalRidgeCV(grid=minutes, n_basis=30).fit(curves, strength)
 
 
 def _summary(results, stream):

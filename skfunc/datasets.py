@@ -28,8 +28,9 @@ KILN_MINUTES = 600
 AMBIENT_C = 25.0
 #: fine grid on which the invented responses are integrated (half minutes)
 _FINE = np.linspace(0.0, KILN_MINUTES - 1.0, 2 * (KILN_MINUTES - 1) + 1)
-#: standard deviation (deg C) of each harmonic of the slow controller wander
-_WANDER = np.array([6.0, 5.0, 4.0, 3.0, 2.0, 1.5])
+#: standard deviation (deg C) of each harmonic of the controller wander (periods
+#: of 600 down to 50 minutes)
+_WANDER = 8.0 / (1.0 + np.arange(12) / 3.0)
 #: column names of the programmed settings
 SETTINGS_NAMES = ("peak_setpoint_c", "ramp_rate_c_per_min", "soak_min", "load_mass_kg")
 
