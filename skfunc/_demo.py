@@ -360,8 +360,10 @@ def _summary(results, stream):
         f"the baseline: CV R^2 {gain:+.3f}, held-out R^2 {held_out:+.3f} (a grid "
         "search's best CV score is slightly optimistic; held-out runs are not)",
         f"  model saved to        {results['output']} (load it with "
-        "skfunc.persistence.load_model; joblib files run code when loaded, so "
-        "load only your own)",
+        "skfunc.persistence.load_model; "
+        + ("skops files load trusting only skfunc's and scikit-learn's types)"
+           if results["output"].lower().endswith(".skops") else
+           "joblib files run code when loaded, so load only your own)"),
     ]
     if results["figure"]:
         lines.append(f"  figure                {results['figure']}")
