@@ -134,13 +134,14 @@ def gcv_score(rss, edf, n_obs, total_weight=None):
     """Generalised cross-validation ``(RSS / sum w) / (1 - edf / n)^2``.
 
     With unit weights this is Craven and Wahba's ``n RSS / (n - tr S)^2``
-    divided by n. Returns inf where ``edf >= n_obs``.
+    divided by n. Returns inf where the fit interpolates (``edf`` equals
+    ``n_obs`` up to rounding), where GCV is undefined.
     """
     total_weight = n_obs if total_weight is None else total_weight
     denom = (1.0 - np.asarray(edf) / n_obs) ** 2
     with np.errstate(divide="ignore", invalid="ignore"):
         score = (np.asarray(rss) / total_weight) / denom
-    return np.where(np.asarray(edf) < n_obs, score, np.inf)
+    return np.where(np.asarray(edf) < n_obs * (1 - 1e-9), score, np.inf)
 
 
 def cross_products(Z, y, sample_weight=None):

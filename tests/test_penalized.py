@@ -76,3 +76,20 @@ def test_statistics_are_sums(rng):
     yc = y - y_mean
     np.testing.assert_allclose(yy, (w[:, None] * yc**2).sum(axis=0), rtol=1e-10)
     np.testing.assert_allclose(zy, (Z - z_mean).T @ (w[:, None] * yc), rtol=1e-10)
+
+
+def test_huge_alpha_limit_is_least_squares_on_the_penalty_null_space(problem):
+    # Common practice: as alpha -> inf, penalized least squares tends to least
+    # squares restricted to the null space of P (here straight lines for a
+    # second-derivative penalty). Reference: scipy.linalg.null_space and
+    # numpy.linalg.lstsq. (Rounding limits the agreement to about
+    # alpha / scale * 1e-16 relative: see DEVELOPERS.md, known numerical limits.)
+    from scipy.linalg import null_space
+
+    Z, y, P = problem
+    N = null_space(P, rcond=1e-10)
+    assert N.shape[1] == 2
+    path = PenalizedPath(Z.T @ Z, P)
+    c = path.coef(path.rotate((Z.T @ y).T), 1e9 * path.scale)
+    ref = N @ np.linalg.lstsq(Z @ N, y, rcond=None)[0]
+    np.testing.assert_allclose(Z @ c.T, Z @ ref, rtol=1e-5, atol=1e-7)
