@@ -7,13 +7,12 @@ from sklearn.base import BaseEstimator, TransformerMixin
 from sklearn.utils._param_validation import Interval, StrOptions
 from sklearn.utils.validation import (
     _check_feature_names_in,
-    check_array,
     check_is_fitted,
 )
 
 from ._base import basis_for, chunked_matmul, validate_curves, validate_partial
 from ._bases import BASES, gram_sqrt
-from ._dask import compute_statistics, count_rows
+from ._dask import check_rows, compute_statistics, count_rows
 from ._grid import QUADRATURES, quadrature_weights
 from ._penalized import PenalizedPath
 
@@ -239,7 +238,7 @@ class BasisFeatures(TransformerMixin, BaseEstimator):
         curves : ndarray of shape (n_samples, n_features_in_)
         """
         check_is_fitted(self)
-        X = check_array(X, dtype=[np.float64, np.float32])
+        X = check_rows(X)
         if X.shape[1] != self.n_basis_:
             raise ValueError(
                 f"inverse_transform expects {self.n_basis_} coordinates per row "

@@ -39,7 +39,11 @@ import warnings
 import numpy as np
 from sklearn.exceptions import DataConversionWarning
 from sklearn.utils import get_tags
-from sklearn.utils.validation import _check_feature_names, _check_n_features
+from sklearn.utils.validation import (
+    _check_feature_names,
+    _check_n_features,
+    check_array,
+)
 
 from ._penalized import merge as merge_sums
 
@@ -334,6 +338,19 @@ def _validate_dask_X(estimator, X, reset, allow_nan, ensure_min_samples, curves,
         _check_block, "X", allow_nan, m - n_covariates,
         meta=np.empty((0, 0), dtype=X.dtype),
     )
+
+
+def check_rows(X):
+    """``check_array(X, dtype=[float64, float32])``; for a dask X the lazy
+    equivalent (2-D, numbers, whole rows, finiteness checked per block)."""
+    if not is_dask_array(X):
+        return check_array(X, dtype=[np.float64, np.float32])
+    if X.ndim != 2:
+        raise ValueError(f"Expected a 2-D dask array, got shape {X.shape}.")
+    X = _whole_rows(X, "X")
+    dtype = _float_dtype(X, "X")
+    X = X.astype(dtype) if X.dtype != dtype else X
+    return X.map_blocks(_check_block, "X", False, meta=np.empty((0, 0), dtype=dtype))
 
 
 def _validate_dask_y(estimator, y, X, multi_output, y_numeric):

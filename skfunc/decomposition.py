@@ -10,12 +10,12 @@ from sklearn.base import (
 )
 from sklearn.utils import check_random_state
 from sklearn.utils._param_validation import Interval, RealNotInt, StrOptions
-from sklearn.utils.validation import check_array, check_is_fitted
+from sklearn.utils.validation import check_is_fitted
 
 from ._base import basis_for, chunked_matmul, validate_curves
 from ._bases import BASES
 from ._basis_features import BasisFeatures
-from ._dask import compute_statistics, is_dask_array
+from ._dask import check_rows, compute_statistics, is_dask_array
 from ._fpca import (
     CurveCoordinates,
     covariance_directions,
@@ -591,7 +591,7 @@ class FunctionalPCA(ClassNamePrefixFeaturesOutMixin, TransformerMixin, BaseEstim
         curves : ndarray of shape (n_samples, n_features_in_)
         """
         check_is_fitted(self)
-        X = check_array(X, dtype=[np.float64, np.float32])
+        X = check_rows(X)
         if X.shape[1] != self.n_components_:
             raise ValueError(
                 f"inverse_transform expects {self.n_components_} scores per row "

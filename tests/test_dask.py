@@ -301,6 +301,15 @@ def test_transform_is_lazy(sync):
     assert sorted(computed) == [10, 20, 20]
 
 
+def test_inverse_transforms_are_lazy(sync):
+    t, X, _ = kiln_runs(90, n_minutes=41)
+    for est in (BasisFeatures(n_basis=8, grid=t), FunctionalPCA(3, grid=t)):
+        Z = est.fit(X).transform(X)
+        curves = est.inverse_transform(da.from_array(Z, chunks=(25, 2)))
+        assert is_dask_array(curves) and curves.chunks[0] == (25, 25, 25, 15)
+        assert_rel_close(curves.compute(), est.inverse_transform(Z))
+
+
 def test_grid_axis_chunks_are_rechunked_to_whole_rows(sync):
     _, X, _ = kiln_runs(60)
     Xd = da.from_array(X, chunks=(25, 40))
