@@ -27,7 +27,12 @@ from ._integrated_design import (
     DESIGN_CONSTRAINTS,
     IntegratedDesignMixin,
 )
-from ._penalized import centered, cross_products, gcv_score
+from ._penalized import (
+    centered,
+    centered_cross_products,
+    cross_products,
+    gcv_score,
+)
 
 _SHARED_DOC = """
     basis : {"bspline", "fourier", "legendre"}, default="bspline"
@@ -153,7 +158,7 @@ class _FunctionalRidgeBase(IntegratedDesignMixin, RegressorMixin, BaseEstimator)
 
     def _statistics(self, X, y, sample_weight, operator):
         """Additive statistics of one chunk of curves (see ``merge``)."""
-        return cross_products(self._design(X, operator), y, sample_weight)
+        return centered_cross_products(self._design(X, operator), y, sample_weight)
 
     def partial_fit(self, X, y, sample_weight=None):
         """Add a batch of curves and refit from the statistics of all batches.
@@ -538,7 +543,7 @@ class FunctionalRidgeCV(_FunctionalRidgeBase):
         penalty = self._penalty(basis)
         Z = self._design(X, self._integration_operator(basis))
         y2 = y.reshape(y.shape[0], -1)
-        stats = cross_products(Z, y2, sample_weight)
+        stats = centered_cross_products(Z, y2, sample_weight)
         if alphas is None:
             path, _ = self._path(stats, penalty, 1.0)
             alphas = path.default_alphas(25)

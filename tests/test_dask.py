@@ -28,7 +28,11 @@ from skfunc._dask import (  # noqa: E402
     is_dask_array,
     validate_dask,
 )
-from skfunc._penalized import cross_products  # noqa: E402
+from skfunc._penalized import (  # noqa: E402
+    centered,
+    centered_cross_products,
+    cross_products,
+)
 from skfunc.decomposition import FunctionalPCA  # noqa: E402
 from skfunc.linear_model import (  # noqa: E402
     FunctionalRidge,
@@ -38,12 +42,6 @@ from skfunc.linear_model import (  # noqa: E402
 from skfunc.preprocessing import CurveSmoother  # noqa: E402
 
 RTOL = 1e-10
-#: The ridge engine centres raw cross products (sum z z' - n m m'); with kiln
-#: temperatures near 1200 C varying by tens of degrees that cancellation costs
-#: about 6 digits, so each ridge fit (in memory or by blocks) carries rounding
-#: near 5e-11 relative to the exactly centred fit, and two fits summing in
-#: different orders differ by up to about 1e-10.
-RIDGE_RTOL = 1e-9
 
 
 def assert_rel_close(actual, expected, rtol=RTOL):
@@ -216,7 +214,7 @@ def test_functional_ridge_on_cluster_equals_in_memory_and_trapezoid(client):
     # alpha by GCV from statistics pooled on the workers
     assert model.alpha_ == pytest.approx(reference.alpha_, rel=RTOL)
     assert_rel_close(model.criterion_, reference.criterion_)
-    assert_rel_close(model.coef_function_, reference.coef_function_, RIDGE_RTOL)
+    assert_rel_close(model.coef_function_, reference.coef_function_)
     prediction = model.predict(Xd)
     assert is_dask_array(prediction)
     assert_rel_close(prediction.compute(), reference.predict(X))
@@ -241,6 +239,28 @@ def test_statistics_are_reduced_on_workers_in_a_tree(client):
     assert_rel_close(stats["zz"], Z.T @ Z)
     assert_rel_close(stats["zy"], Z.T @ y)
     assert_rel_close(stats["yy"], (y**2).sum(axis=0))
+
+
+def test_centred_statistics_merge_exactly_on_workers(client):
+    # kiln-like design: means near 1200, spread of a few units
+    rng = np.random.default_rng(4)
+    Z = 1200 + rng.normal(size=(3000, 5)) * [1, 2, 3, 4, 5]
+    y = 900 + Z @ rng.normal(size=(5, 2)) * 0.01 + rng.normal(size=(3000, 2))
+    w = rng.uniform(0.5, 2.0, 3000)
+    stats = compute_statistics(
+        centered_cross_products,
+        da.from_array(Z, chunks=(125, 5)),
+        da.from_array(y, chunks=(125, 2)),
+        w,
+    )
+    zz, zy, yy, z_mean, _ = centered(stats)
+    # weighted scatter matrices by numpy.cov with frequency weights (fweights
+    # semantics: aweights with ddof=0 gives sum w (z - m)(z - m)' / sum w)
+    joint = np.cov(np.column_stack([Z, y]).T, aweights=w, ddof=0) * w.sum()
+    assert_rel_close(zz, joint[:5, :5])
+    assert_rel_close(zy, joint[:5, 5:])
+    assert_rel_close(yy, np.diag(joint[5:, 5:]))
+    assert_rel_close(z_mean, np.average(Z, axis=0, weights=w))
 
 
 def test_grid_search_of_pipeline_under_dask_joblib_backend(client):
@@ -469,7 +489,7 @@ def test_functional_ridge_partial_fit_and_memory_only_criteria(sync):
             batch = slice(start, start + 100)
             batches.partial_fit(da.from_array(X[batch], chunks=(40, 61)), y[batch])
         assert batches.n_samples_seen_ == 300
-        assert_rel_close(batches.coef_function_, reference.coef_function_, RIDGE_RTOL)
+        assert_rel_close(batches.coef_function_, reference.coef_function_)
     with pytest.raises(ValueError, match="every batch needs the same targets"):
         batches.partial_fit(X[:10], strength[:10])
     for kwargs in ({"criterion": "loo"}, {"cv": 3}):
