@@ -52,6 +52,17 @@ def assert_rel_close(actual, expected, rtol=RTOL):
     assert np.abs(actual - expected).max() <= rtol * scale
 
 
+def assert_same_gcv_fit(model, reference, X_lazy, X):
+    """A Dask fit chose alpha by GCV from pooled statistics as the in-memory
+    fit did, and predicts the same, lazily."""
+    assert model.alpha_ == pytest.approx(reference.alpha_, rel=RTOL)
+    assert_rel_close(model.criterion_, reference.criterion_)
+    assert_rel_close(model.coef_function_, reference.coef_function_)
+    prediction = model.predict(X_lazy)
+    assert is_dask_array(prediction)
+    assert_rel_close(prediction.compute(), reference.predict(X))
+
+
 def kiln_runs(n_runs, n_minutes=121, seed=0):
     """Invented kiln-firing temperature logs (deg C) over a 10-hour cycle.
 
@@ -152,12 +163,7 @@ def test_function_on_scalar_on_cluster_equals_in_memory_and_lstsq(client):
     # GCV from pooled statistics: the same choice and fit as in memory
     model = FunctionOnScalarRidge(response_grid=hours).fit(Sd, Yd)
     reference = FunctionOnScalarRidge(response_grid=hours).fit(S, Y)
-    assert model.alpha_ == pytest.approx(reference.alpha_, rel=RTOL)
-    assert_rel_close(model.criterion_, reference.criterion_)
-    assert_rel_close(model.coef_function_, reference.coef_function_)
-    prediction = model.predict(Sd)
-    assert is_dask_array(prediction)
-    assert_rel_close(prediction.compute(), reference.predict(S))
+    assert_same_gcv_fit(model, reference, Sd, S)
 
 
 def test_functional_pca_on_cluster_equals_in_memory_and_sklearn(client):
@@ -211,13 +217,7 @@ def test_functional_ridge_on_cluster_equals_in_memory_and_trapezoid(client):
     Xd = da.from_array(X, chunks=(70, 61))
     model = FunctionalRidgeCV().fit(Xd, da.from_array(strength, chunks=70))
     reference = FunctionalRidgeCV().fit(X, strength)
-    # alpha by GCV from statistics pooled on the workers
-    assert model.alpha_ == pytest.approx(reference.alpha_, rel=RTOL)
-    assert_rel_close(model.criterion_, reference.criterion_)
-    assert_rel_close(model.coef_function_, reference.coef_function_)
-    prediction = model.predict(Xd)
-    assert is_dask_array(prediction)
-    assert_rel_close(prediction.compute(), reference.predict(X))
+    assert_same_gcv_fit(model, reference, Xd, X)
     # y = 3 + int x(t) dt exactly (scipy.integrate.trapezoid): beta = 1 fits
     # without error and without roughness, so any alpha recovers it
     exact = 3 + integrate.trapezoid(X, t, axis=1)
