@@ -88,6 +88,9 @@ _SHARED_ATTRIBUTES = """
         Quadrature weights on ``grid_``.
     n_basis_ : int
         Number of basis functions for beta.
+    n_samples_seen_ : int
+        Number of curves fitted (by ``fit``, or by all calls of
+        ``partial_fit`` since the first).
     n_features_in_ : int
         Number of columns of X (grid points plus covariates).
     feature_names_in_ : ndarray of shape (n_features_in_,)
@@ -106,6 +109,11 @@ _SHARED_NOTES = """
     (sandwich) covariance ``sigma^2 A G A``, it accounts on average for the
     smoothing bias, so its coverage holds on average over the grid rather
     than at every point. Bands are conditional on alpha.
+
+    The data enter through additive statistics (centred cross products of
+    the integrated design, merged exactly), so ``partial_fit`` over batches
+    equals ``fit`` on all of them, and a dask array ``X`` is fitted on the
+    workers block by block and predicted lazily (alpha by GCV only).
 
     Predictions are statistical estimates: validate them on your own process
     data before they drive a quality or safety decision, and follow the
