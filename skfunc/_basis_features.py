@@ -238,12 +238,7 @@ class BasisFeatures(TransformerMixin, BaseEstimator):
         curves : ndarray of shape (n_samples, n_features_in_)
         """
         check_is_fitted(self)
-        X = check_rows(X)
-        if X.shape[1] != self.n_basis_:
-            raise ValueError(
-                f"inverse_transform expects {self.n_basis_} coordinates per row "
-                f"(n_basis_); got {X.shape[1]}."
-            )
+        X = check_rows(X, self.n_basis_, "coordinates per row (n_basis_)")
         return chunked_matmul(X, self.reconstruction_.T)
 
     def get_feature_names_out(self, input_features=None):

@@ -340,17 +340,25 @@ def _validate_dask_X(estimator, X, reset, allow_nan, ensure_min_samples, curves,
     )
 
 
-def check_rows(X):
+def check_rows(X, n_columns=None, what="values"):
     """``check_array(X, dtype=[float64, float32])``; for a dask X the lazy
-    equivalent (2-D, numbers, whole rows, finiteness checked per block)."""
+    equivalent (2-D, numbers, whole rows, finiteness checked per block).
+
+    With ``n_columns``, X must have that many columns (``what`` names them in
+    the error, e.g. "coordinates per row (n_basis_)").
+    """
     if not is_dask_array(X):
-        return check_array(X, dtype=[np.float64, np.float32])
-    if X.ndim != 2:
-        raise ValueError(f"Expected a 2-D dask array, got shape {X.shape}.")
-    X = _whole_rows(X, "X")
-    dtype = _float_dtype(X, "X")
-    X = X.astype(dtype) if X.dtype != dtype else X
-    return X.map_blocks(_check_block, "X", False, meta=np.empty((0, 0), dtype=dtype))
+        X = check_array(X, dtype=[np.float64, np.float32])
+    else:
+        if X.ndim != 2:
+            raise ValueError(f"Expected a 2-D dask array, got shape {X.shape}.")
+        X = _whole_rows(X, "X")
+        dtype = _float_dtype(X, "X")
+        X = X.astype(dtype) if X.dtype != dtype else X
+        X = X.map_blocks(_check_block, "X", False, meta=np.empty((0, 0), dtype=dtype))
+    if n_columns is not None and X.shape[1] != n_columns:
+        raise ValueError(f"Expected {n_columns} {what}; got {X.shape[1]}.")
+    return X
 
 
 def _validate_dask_y(estimator, y, X, multi_output, y_numeric):

@@ -591,12 +591,7 @@ class FunctionalPCA(ClassNamePrefixFeaturesOutMixin, TransformerMixin, BaseEstim
         curves : ndarray of shape (n_samples, n_features_in_)
         """
         check_is_fitted(self)
-        X = check_rows(X)
-        if X.shape[1] != self.n_components_:
-            raise ValueError(
-                f"inverse_transform expects {self.n_components_} scores per row "
-                f"(n_components_); got {X.shape[1]}."
-            )
+        X = check_rows(X, self.n_components_, "scores per row (n_components_)")
         curves = chunked_matmul(X, self.components_)
         curves += self.mean_
         return curves

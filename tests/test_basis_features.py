@@ -167,5 +167,5 @@ def test_transform_with_other_number_of_points():
     est = BasisFeatures().fit(np.ones((3, 10)))
     with pytest.raises(ValueError, match="X has 9 features, but BasisFeatures is expecting 10"):
         est.transform(np.ones((3, 9)))
-    with pytest.raises(ValueError, match="expects 10 coordinates"):
+    with pytest.raises(ValueError, match="Expected 10 coordinates per row"):
         est.inverse_transform(np.ones((3, 4)))

@@ -407,3 +407,10 @@ def test_blockwise_statistics_merged_in_a_tree_equal_fit(rng):
     fitted = FunctionalPCA(3, basis="fourier", n_basis=9, alpha=1e-6, grid=t).fit(X)
     np.testing.assert_allclose(est.components_, fitted.components_, atol=1e-10)
     np.testing.assert_allclose(est.transform(X), fitted.transform(X), atol=1e-10)
+
+
+def test_inverse_transform_checks_the_number_of_scores():
+    X = np.random.default_rng(0).normal(size=(20, 30))
+    fpca = FunctionalPCA(n_components=3).fit(X)
+    with pytest.raises(ValueError, match=r"Expected 3 scores per row \(n_components_\); got 4"):
+        fpca.inverse_transform(np.ones((2, 4)))
