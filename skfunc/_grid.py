@@ -12,7 +12,7 @@ import numpy as np
 QUADRATURES = ("trapezoid", "simpson")
 
 
-def check_grid(grid, n_points=None, *, name="grid"):
+def check_grid(grid, n_points=None, *, name="grid", data_name="X"):
     """Validate a grid and return it as a new 1-D float64 array.
 
     Parameters
@@ -23,6 +23,8 @@ def check_grid(grid, n_points=None, *, name="grid"):
         Required length (the number of columns of ``X``); not checked if None.
     name : str, default="grid"
         Name of the parameter, used in error messages.
+    data_name : str, default="X"
+        Name of the sampled data whose columns the grid describes.
 
     Returns
     -------
@@ -41,7 +43,7 @@ def check_grid(grid, n_points=None, *, name="grid"):
         )
     if n_points is not None and arr.shape[0] != n_points:
         raise ValueError(
-            f"{name} has {arr.shape[0]} points but X has {n_points} columns; "
+            f"{name} has {arr.shape[0]} points but {data_name} has {n_points} columns; "
             f"a grid needs one point per column."
         )
     if arr.shape[0] < 2:
@@ -109,6 +111,14 @@ def resolve_grid(grid, X, n_points):
     if n_points < 2:
         check_grid(np.zeros(n_points), n_points)  # raises the "at least 2" error
     return np.linspace(0.0, 1.0, n_points)
+
+
+def grid_weights(grid, n_points, quadrature="trapezoid", data_name="X"):
+    """Quadrature weights for data with ``n_points`` columns on ``grid``
+    (None: evenly spaced on [0, 1])."""
+    if grid is None:
+        grid = np.linspace(0.0, 1.0, n_points)
+    return quadrature_weights(check_grid(grid, n_points, data_name=data_name), quadrature)
 
 
 def check_quadrature(quadrature):

@@ -12,7 +12,7 @@ domain ``T = [t_0, t_{m-1}]`` of length ``|T|``.
 import numpy as np
 from sklearn.utils.validation import check_array
 
-from ._grid import check_grid, quadrature_weights
+from ._grid import grid_weights
 
 __all__ = [
     "inner_product",
@@ -34,12 +34,6 @@ def _curves(X, name="X"):
             f"{name} must be one curve (1-D) or curves as rows (2-D); got {X.ndim}-D."
         )
     return X
-
-
-def _weights(grid, n_points, quadrature):
-    if grid is None:
-        grid = np.linspace(0.0, 1.0, n_points)
-    return quadrature_weights(check_grid(grid, n_points), quadrature)
 
 
 def inner_product(x, y, *, grid=None, quadrature="trapezoid"):
@@ -73,7 +67,7 @@ def inner_product(x, y, *, grid=None, quadrature="trapezoid"):
             f"x and y must be sampled on the same grid; got {x.shape[-1]} and "
             f"{y.shape[-1]} points."
         )
-    w = _weights(grid, x.shape[-1], quadrature)
+    w = grid_weights(grid, x.shape[-1], quadrature)
     return (x * y) @ w
 
 
@@ -105,7 +99,7 @@ def l2_distance(X, Y=None, *, grid=None, quadrature="trapezoid"):
             f"X and Y must be sampled on the same grid; got {X.shape[1]} and "
             f"{Y.shape[1]} points."
         )
-    w = _weights(grid, X.shape[1], quadrature)
+    w = grid_weights(grid, X.shape[1], quadrature)
     sq = (X**2) @ w
     sq_y = (Y**2) @ w
     d2 = sq[:, None] + sq_y[None, :] - 2 * (X * w) @ Y.T
@@ -119,7 +113,7 @@ def mean_value(x, *, grid=None, quadrature="trapezoid"):
     approximation of the curve in L2.
     """
     x = _curves(x, "x")
-    w = _weights(grid, x.shape[-1], quadrature)
+    w = grid_weights(grid, x.shape[-1], quadrature)
     return (x @ w) / w.sum()
 
 

@@ -29,7 +29,7 @@ from sklearn.utils.validation import (
     check_consistent_length,
 )
 
-from ._grid import check_grid, grid_from_labels, quadrature_weights
+from ._grid import check_grid, grid_from_labels, grid_weights
 
 __all__ = [
     "integrated_squared_error",
@@ -50,14 +50,7 @@ def _check_curves(y_true, y_pred, grid, quadrature, sample_weight):
             f"y_true and y_pred must have the same shape (curves as rows, grid "
             f"points as columns); got {y_true.shape} and {y_pred.shape}."
         )
-    m = y_true.shape[1]
-    if grid is not None and np.ndim(grid) == 1 and len(grid) != m:
-        raise ValueError(
-            f"grid has {len(grid)} points but the curves have {m} columns; the grid "
-            "needs one point per column."
-        )
-    grid = np.linspace(0.0, 1.0, m) if grid is None else check_grid(grid, m)
-    weights = quadrature_weights(grid, quadrature)
+    weights = grid_weights(grid, y_true.shape[1], quadrature, data_name="y_true")
     sw = _check_sample_weight(sample_weight, y_true)
     return y_true, y_pred, weights, sw
 

@@ -138,7 +138,7 @@ def test_bad_input(curves):
     t, y_true, y_pred = curves
     with pytest.raises(ValueError, match="same shape"):
         integrated_r2_score(y_true, y_pred[:, 1:])
-    with pytest.raises(ValueError, match="grid has 5 points"):
+    with pytest.raises(ValueError, match="grid has 5 points but y_true has"):
         integrated_squared_error(y_true, y_pred, grid=np.linspace(0, 1, 5))
     with pytest.raises(ValueError, match="Expected 2D array"):
         pointwise_r2_score(y_true[0], y_pred[0])
