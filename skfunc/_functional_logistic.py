@@ -25,55 +25,12 @@ from ._integrated_design import (
     DESIGN_CONSTRAINTS,
     IntegratedDesignMixin,
 )
+from ._logistic_path import (
+    NULL_SPACE_RIDGE,
+    LogisticProblem,
+    penalty_split,
+)
 from ._penalized import centered, cross_products
-
-
-def newton_statistics(D, Y, sample_weight, theta, derivatives=True):
-    """Negative log-likelihood, gradient and Hessian summed over rows.
-
-    Parameters
-    ----------
-    D : ndarray of shape (n, p)
-        Design rows (first column: ones for the intercept).
-    Y : ndarray of shape (n, T)
-        0/1 labels: one column for the binary (logistic) model, one column
-        per class for the multinomial model.
-    sample_weight : ndarray of shape (n,)
-    theta : ndarray of shape (T, p)
-    derivatives : bool, default=True
-        False to compute the loss only.
-
-    Returns
-    -------
-    loss : float
-    grad : ndarray of shape (T * p,)
-        Only when ``derivatives``.
-    hess : ndarray of shape (T * p, T * p)
-        Only when ``derivatives``.
-    """
-    eta = D @ theta.T
-    n_out, p = theta.shape
-    if n_out == 1:
-        prob = expit(eta)
-        loss = sample_weight @ (np.logaddexp(0.0, eta[:, 0]) - Y[:, 0] * eta[:, 0])
-        curvature = (prob * (1 - prob))[:, :, None]  # (n, 1, 1)
-    else:
-        log_norm = logsumexp(eta, axis=1)
-        prob = np.exp(eta - log_norm[:, None])
-        loss = sample_weight @ (log_norm - np.sum(Y * eta, axis=1))
-        curvature = (
-            np.eye(n_out) * prob[:, :, None] - prob[:, :, None] * prob[:, None, :]
-        )
-    if not derivatives:
-        return float(loss)
-    grad = ((prob - Y) * sample_weight[:, None]).T @ D
-    hess = np.zeros((n_out, p, n_out, p))
-    for a in range(n_out):
-        for b in range(a, n_out):
-            block = (D * (sample_weight * curvature[:, a, b])[:, None]).T @ D
-            hess[a, :, b, :] = block
-            hess[b, :, a, :] = block.T
-    return float(loss), grad.ravel(), hess.reshape(n_out * p, n_out * p)
 
 
 class FunctionalLogisticRegression(
@@ -207,7 +164,7 @@ class FunctionalLogisticRegression(
 
     _parameter_constraints = {
         **DESIGN_CONSTRAINTS,
-        "alpha": ALPHA_CONSTRAINT,
+        "alpha": [StrOptions({"auto"}), *ALPHA_CONSTRAINT],
         "class_weight": [dict, StrOptions({"balanced"}), None],
         "max_iter": [Interval(Integral, 1, None, closed="left")],
         "tol": [Interval(Real, 0, None, closed="left")],
@@ -215,7 +172,7 @@ class FunctionalLogisticRegression(
 
     def __init__(
         self,
-        alpha=1.0,
+        alpha="auto",
         *,
         basis="bspline",
         n_basis=None,
@@ -285,80 +242,90 @@ class FunctionalLogisticRegression(
         return self._solve(Z, Y, sample_weight, basis)
 
     def _solve(self, Z, Y, sample_weight, basis):
-        penalty = self._penalty(basis)
-        stats = cross_products(Z, Y, sample_weight)
-        zz = centered(stats)[0] if self.fit_intercept else stats["zz"]
-        self._checked_path(zz, penalty, self.alpha, stats["n"])
-        # design of the centered curves, led by a column for the intercept
-        z_mean = stats["z_sum"] / stats["sw"] if self.fit_intercept else 0.0
-        lead = int(self.fit_intercept)
-        D = np.hstack([np.ones((Z.shape[0], lead)), Z - z_mean])
-        n_out, p = Y.shape[1], D.shape[1]
-        roughness = np.kron(
-            np.eye(n_out), self.alpha * np.pad(penalty, ((lead, 0),) * 2)
-        )
-        # The softmax is unchanged by a common shift of all classes'
-        # coefficients; a penalty on their sum over classes selects the
-        # centered solution without moving the optimum (whose sum is zero)
-        # and makes the Hessian invertible.
-        scale = np.diag(np.maximum(sample_weight @ D**2, 1.0)) / n_out
-        shift = np.kron(np.ones((n_out, n_out)), scale) if n_out > 1 else 0.0
-        quadratic = roughness + shift
-
-        def objective(theta, derivatives=True):
-            """Penalized loss (, gradient, Hessian of the likelihood part)."""
-            flat = theta.ravel()
-            value = flat @ quadratic @ flat / 2
-            if not derivatives:
-                return value + newton_statistics(D, Y, sample_weight, theta, False)
-            loss, grad, hess = newton_statistics(D, Y, sample_weight, theta)
-            return value + loss, grad + quadratic @ flat, hess
-
-        theta = np.zeros((n_out, p))
-        value, grad, hess = objective(theta)
-        converged = False
-        for n_iter in range(1, self.max_iter + 1):
-            self.n_iter_ = n_iter
-            step = _newton_step(hess + quadratic, grad)
-            decrement = grad @ step
-            size = 1.0
-            while True:
-                trial = theta - size * step.reshape(n_out, p)
-                trial_value = objective(trial, derivatives=False)
-                if trial_value <= value - 1e-4 * size * decrement or size < 1e-10:
-                    break
-                size /= 2
-            theta = trial
-            value, grad, hess = objective(theta)
-            if decrement / 2 <= self.tol * (1.0 + abs(value)):
-                converged = True  # after a last step: Newton converges fast
-                break
-        if not converged:
-            warnings.warn(
-                f"FunctionalLogisticRegression did not converge in max_iter="
-                f"{self.max_iter} Newton iterations (the classes may be "
-                "separable by the curves); increase alpha or max_iter.",
-                ConvergenceWarning,
-                stacklevel=3,
-            )
-        elif _saturated(D @ theta.T, sample_weight):
-            warnings.warn(
-                "FunctionalLogisticRegression did not converge to a finite "
-                "maximum: fitted probabilities numerically 0 or 1 occurred, so "
-                "the classes are probably separable by the unpenalized part of "
-                "the model and the coefficients diverge; increase alpha.",
-                ConvergenceWarning,
-                stacklevel=3,
-            )
         k = basis.n_basis
-        covariance = np.linalg.pinv(hess + roughness).reshape(n_out, p, n_out, p)
-        blocks = np.stack(
-            [covariance[c, lead : lead + k, c, lead : lead + k] for c in range(n_out)]
+        penalty = self._penalty(basis)[:k, :k]
+        stats = cross_products(Z, Y, sample_weight)
+        gram = centered(stats)[0] if self.fit_intercept else stats["zz"]
+        if self._fixed_alpha() == 0:
+            self._checked_path(gram, self._penalty(basis), 0.0, stats["n"])
+        transform, n_null, penalty01 = penalty_split(basis, self.penalty_order, penalty)
+        lead = int(self.fit_intercept)
+        z_mean = stats["z_sum"] / stats["sw"] if lead else np.zeros(Z.shape[1])
+        Zc = Z - z_mean
+        D = np.hstack([np.ones((len(Z), lead)), Zc[:, :k] @ transform, Zc[:, k:]])
+        # alpha = 1 weighs the roughness on [0, 1] like the variance of the
+        # integrated design: trace(G) / trace(P01), G its centred cross products
+        trace_g, trace_p = np.trace(gram[:k, :k]), np.trace(penalty01)
+        scale = trace_g / trace_p if trace_g > 0 and trace_p > 0 else 1.0
+        size = sample_weight @ D**2
+        ridge = np.zeros(D.shape[1])
+        null = slice(lead, lead + n_null)
+        if n_null:
+            ridge[null] = size[null].sum() / n_null
+        ridge[lead + k :] = size[lead + k :]
+        ridge = NULL_SPACE_RIDGE * np.where(ridge > 0, ridge, 1.0)
+        ridge[lead + n_null : lead + k] = 0.0
+        ridge[:lead] = 0.0
+        problem = LogisticProblem(
+            D, Y, sample_weight, (lead, n_null, k - n_null, Z.shape[1] - k),
+            scale, ridge,
         )
-        coef = theta[:, lead:]
+        auto = isinstance(self.alpha, str)
+        alphas = problem.candidate_alphas() if auto else np.array([self.alpha])
+        fit = problem.path(alphas, self.tol, self.max_iter)
+        j, theta, hess, converged = fit["best"], fit["theta"], fit["hess"], fit["converged"]
+        self.alpha_ = float(alphas[j])
+        self.alpha_path_ = alphas
+        self.criterion_path_ = fit["criterion"]
+        self.edf_path_ = fit["edf"]
+        self.n_iter_ = fit["n_iter"]
+        if alphas.size > 1 and j in (0, alphas.size - 1):
+            _warn_edge(self, j == 0, alphas, fit["edf"][j])
+        self._warn_convergence(converged, D @ theta.T, sample_weight)
+        n_out, p = theta.shape
+        pen = np.diag(problem.penalty(self.alpha_))
+        covariance = np.linalg.pinv(hess + np.kron(np.eye(n_out), pen))
+        covariance = covariance.reshape(n_out, p, n_out, p)
+        blocks = np.stack(
+            [
+                transform @ covariance[c, lead : lead + k, c, lead : lead + k]
+                @ transform.T
+                for c in range(n_out)
+            ]
+        )
+        coef = np.hstack([theta[:, lead : lead + k] @ transform.T, theta[:, lead + k :]])
         intercept = theta[:, 0] - coef @ z_mean if lead else np.zeros(n_out)
         self._set_coefficients(basis, coef, intercept, blocks, squeeze=False)
         return self
+
+    def _fixed_alpha(self):
+        return None if isinstance(self.alpha, str) else self.alpha
+
+    def _warn_convergence(self, converged, eta, sample_weight):
+        if not converged:
+            advice = (
+                " alpha=0 has no finite optimum when the classes are separable by "
+                "the curves: use alpha='auto' or alpha > 0."
+                if self.alpha_ == 0
+                else ""
+            )
+            warnings.warn(
+                f"FunctionalLogisticRegression did not converge in max_iter="
+                f"{self.max_iter} Newton iterations at alpha={self.alpha_:.3g}; "
+                f"increase max_iter.{advice}",
+                ConvergenceWarning,
+                stacklevel=4,
+            )
+        elif self.alpha_ == 0 and _saturated(eta, sample_weight):
+            warnings.warn(
+                "FunctionalLogisticRegression did not converge to a finite "
+                "maximum: fitted probabilities numerically 0 or 1 occurred, so "
+                "the classes are probably separable by the curves and the "
+                "unpenalized (alpha=0) coefficients diverge; use alpha='auto' or "
+                "alpha > 0, which keep them finite.",
+                ConvergenceWarning,
+                stacklevel=4,
+            )
 
     def decision_function(self, X):
         """Log-odds of ``classes_[1]`` (binary) or class scores (multinomial).
@@ -433,8 +400,24 @@ def _saturated(eta, sample_weight, eps=1e-12):
     return bool(np.any(log_prob[rows] < np.log(eps)))
 
 
-def _newton_step(hess, grad):
-    try:
-        return np.linalg.solve(hess, grad)
-    except np.linalg.LinAlgError:
-        return np.linalg.lstsq(hess, grad, rcond=None)[0]
+def _warn_edge(estimator, smallest, alphas, edf):
+    """Warn that the chosen alpha is at an end of the candidates."""
+    if smallest:
+        where, advice = "smallest", (
+            "the data ask for less smoothing than the candidates offer: a "
+            "larger n_basis, or a smaller alpha passed as a number, may fit "
+            "better."
+        )
+    else:
+        where, advice = "largest", (
+            "the data support little more than the penalty's null space (for "
+            "penalty_order=2, a straight line); a larger alpha changes the fit "
+            "little."
+        )
+    warnings.warn(
+        f"{type(estimator).__name__}: the chosen alpha_={alphas[0 if smallest else -1]:.3g} "
+        f"is the {where} of the {alphas.size} candidate alphas ({edf:.2f} "
+        f"effective degrees of freedom); {advice}",
+        UserWarning,
+        stacklevel=4,
+    )
