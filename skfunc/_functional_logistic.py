@@ -28,6 +28,7 @@ from ._integrated_design import (
 from ._logistic_path import (
     NULL_SPACE_RIDGE,
     LogisticProblem,
+    coef_covariance,
     penalty_split,
 )
 from ._penalized import centered, cross_products
@@ -45,10 +46,16 @@ class FunctionalLogisticRegression(
 
     Parameters
     ----------
-    alpha : float, default=1.0
-        Roughness penalty weight; 0 for unpenalized maximum likelihood.
-        With ``penalty_order=0`` in an orthonormal basis, ``alpha`` equals
-        ``1 / C`` of :class:`sklearn.linear_model.LogisticRegression`.
+    alpha : "auto" or float, default="auto"
+        Weight of the roughness penalty. ``"auto"`` chooses it from the
+        training data: the fit is computed along candidate alphas spanning
+        the effective degrees of freedom, from nearly the null-space fit (a
+        straight line for ``penalty_order=2``) to nearly the whole basis, and
+        the one with the smallest unbiased risk estimate (UBRE) is kept; see
+        Notes. A number fixes it; 0 means unpenalized maximum likelihood.
+        The penalty is measured on the domain mapped to [0, 1] and against
+        the spread of the data (Notes), so a value means the same smoothing
+        whatever the grid's unit or origin and the scale of X.
     basis : {"bspline", "fourier", "legendre"}, default="bspline"
         Basis for the coefficient functions.
     n_basis : int, default=None
@@ -69,7 +76,8 @@ class FunctionalLogisticRegression(
         Weights of the classes, multiplied into ``sample_weight``, as in
         scikit-learn's classifiers.
     max_iter : int, default=100
-        Maximum number of Newton iterations.
+        Maximum number of Newton iterations per fit (per candidate alpha
+        with ``alpha="auto"``).
     tol : float, default=1e-10
         Stop after a Newton step whose half squared Newton decrement (the
         predicted decrease of the objective) is below
@@ -84,6 +92,16 @@ class FunctionalLogisticRegression(
     ----------
     classes_ : ndarray of shape (n_classes,)
         Class labels.
+    alpha_ : float
+        The roughness penalty used: the chosen one with ``alpha="auto"``,
+        else ``alpha``.
+    alpha_path_ : ndarray of shape (n_alphas,)
+        Candidate alphas, ascending (just ``alpha`` when it is a number).
+    criterion_path_ : ndarray of shape (n_alphas,)
+        UBRE of the fit at each candidate alpha (smaller is better).
+    edf_path_ : ndarray of shape (n_alphas,)
+        Effective degrees of freedom of the fit at each candidate alpha,
+        intercept(s) included.
     coef_function_ : ndarray of shape (1, n_grid) or (n_classes, n_grid)
         beta(t) on ``grid_``: one row for two classes (log-odds of
         ``classes_[1]``), else one per class (centered over classes).
@@ -100,7 +118,7 @@ class FunctionalLogisticRegression(
         Approximate posterior covariance of ``basis_coef_``: the inverse
         penalized Hessian at the optimum (see Notes).
     n_iter_ : int
-        Number of Newton iterations run.
+        Number of Newton iterations run, over all candidate alphas.
     grid_ : ndarray of shape (n_grid,)
         The grid of the curve columns.
     quadrature_weights_ : ndarray of shape (n_grid,)
@@ -120,12 +138,40 @@ class FunctionalLogisticRegression(
 
     Notes
     -----
-    The objective is ``sum_i w_i l_i + alpha/2 sum_c c_c' P c_c`` (``l_i`` the
-    negative log-likelihood of curve ``i``); it is minimised by Newton's
-    method, which is penalized iteratively reweighted least squares. The
-    multinomial model uses one coefficient set per class and the centered
-    solution (sum over classes zero), as the softmax leaves a common shift
-    undetermined.
+    The objective is ``sum_i w_i l_i + (alpha s / 2) int_0^1 (D^q beta)^2``
+    (``l_i`` the negative log-likelihood of curve ``i``, beta mapped to the
+    unit domain) with ``s = trace(G) / trace(P01)``: ``G`` the centred,
+    sample-weighted cross products of the integrated design and ``P01`` the
+    roughness matrix of the basis on [0, 1]. Both scale alike when the grid
+    changes unit or X changes scale, so fits at a fixed alpha do not change
+    (common to every skfunc estimator). It is minimised by Newton's method
+    (penalized iteratively reweighted least squares) in coordinates where
+    the penalty is exactly diagonal (Demmler and Reinsch, 1975): the
+    intercept and the penalty's null space (functions with ``D^q beta = 0``)
+    are never shrunk by alpha, so a large alpha gives the null-space fit.
+
+    Separable classes have no finite maximum likelihood. For ``alpha > 0``
+    (and ``"auto"``) the null space, and each scalar covariate, carries a
+    small ridge ``NULL_SPACE_RIDGE = 1e-4`` times the design's own variance
+    there (the sum of squares of the centred null-space coordinates,
+    orthonormal in L2 of [0, 1], per dimension), much as the ``C`` of
+    :class:`sklearn.linear_model.LogisticRegression` penalizes every
+    coefficient; the coefficients are then always finite. ``alpha=0`` keeps
+    plain maximum likelihood and warns when it diverges.
+
+    ``alpha="auto"`` fits the candidates from the largest alpha down, each
+    fit starting from the previous one, and keeps the alpha minimising the
+    unbiased risk estimate ``UBRE = deviance / n - 1 + 2 edf / n`` with
+    ``edf = trace((H + S)^-1 H)`` (``H`` the likelihood's Hessian, ``S`` the
+    penalty's; ``n`` the weight total): Craven and Wahba's criterion for a
+    known dispersion, 1 for class labels, applied to penalized likelihood as
+    in O'Sullivan, Yandell and Raynor (1986), Gu (1992) and Wood (2008). Ties
+    go to the larger alpha; a warning names the end of the candidates when
+    the choice is there.
+
+    The multinomial model uses one coefficient set per class and the
+    centered solution (sum over classes zero), as the softmax leaves a
+    common shift undetermined.
 
     The confidence band uses the inverse penalized Hessian at the optimum,
     the large-sample Bayesian posterior covariance (Wahba, 1983, for the
@@ -148,6 +194,19 @@ class FunctionalLogisticRegression(
     Wahba, G. (1983). Bayesian "confidence intervals" for the cross-validated
     smoothing spline. *J. R. Statist. Soc. B* 45, 133-150.
 
+    O'Sullivan, F., Yandell, B. S. and Raynor, W. J. (1986). Automatic
+    smoothing of regression functions in generalized linear models. *J.
+    Amer. Statist. Assoc.* 81, 96-103.
+
+    Gu, C. (1992). Cross-validating non-Gaussian data. *J. Comput. Graph.
+    Statist.* 1, 169-179.
+
+    Wood, S. N. (2008). Fast stable direct fitting and smoothness selection
+    for generalized additive models. *J. R. Statist. Soc. B* 70, 495-518.
+
+    Demmler, A. and Reinsch, C. (1975). Oscillation matrices with spline
+    smoothing. *Numerische Mathematik* 24, 375-382.
+
     Examples
     --------
     >>> import numpy as np
@@ -157,9 +216,11 @@ class FunctionalLogisticRegression(
     >>> X = rng.normal(size=(200, 5)) @ np.sin(np.outer(np.arange(1, 6), np.pi * t))
     >>> logit = X @ (np.gradient(t) * 4 * np.sin(np.pi * t))
     >>> y = (rng.uniform(size=200) < 1 / (1 + np.exp(-logit))).astype(int)
-    >>> clf = FunctionalLogisticRegression(alpha=1e-4, n_basis=8).fit(X, y)
+    >>> clf = FunctionalLogisticRegression().fit(X, y)
     >>> clf.predict_proba(X[:2]).shape
     (2, 2)
+    >>> bool(clf.alpha_path_[0] <= clf.alpha_ <= clf.alpha_path_[-1])
+    True
     """
 
     _parameter_constraints = {
@@ -282,10 +343,8 @@ class FunctionalLogisticRegression(
         if alphas.size > 1 and j in (0, alphas.size - 1):
             _warn_edge(self, j == 0, alphas, fit["edf"][j])
         self._warn_convergence(converged, D @ theta.T, sample_weight)
-        n_out, p = theta.shape
-        pen = np.diag(problem.penalty(self.alpha_))
-        covariance = np.linalg.pinv(hess + np.kron(np.eye(n_out), pen))
-        covariance = covariance.reshape(n_out, p, n_out, p)
+        n_out = theta.shape[0]
+        covariance = coef_covariance(problem, theta, hess, self.alpha_)
         blocks = np.stack(
             [
                 transform @ covariance[c, lead : lead + k, c, lead : lead + k]

@@ -23,7 +23,7 @@ generalized additive models. *J. R. Statist. Soc. B* 70, 495-518.
 import contextlib
 
 import numpy as np
-from scipy.linalg import eigh
+from scipy.linalg import LinAlgError, cho_factor, cho_solve, eigh
 from scipy.special import expit, logsumexp
 from threadpoolctl import threadpool_limits
 
@@ -266,10 +266,9 @@ class LogisticProblem:
         is twice the negative log-likelihood.
         """
         try:
-            inverse = np.linalg.inv(hess + quadratic)
-        except np.linalg.LinAlgError:
+            edf = float(np.trace(_solve(hess + quadratic, hess)))
+        except (np.linalg.LinAlgError, LinAlgError):
             return np.inf, np.nan
-        edf = float(np.sum(inverse * hess.T))
         w = self.sample_weight
         deviance = 2 * float(w @ _row_loss(self.D @ theta.T, self.Y))
         return (deviance + 2 * edf) / w.sum() - 1.0, edf
@@ -371,11 +370,37 @@ def _single_thread(size):
     return contextlib.nullcontext()
 
 
+def _solve(matrix, rhs):
+    """Solve with a symmetric positive definite matrix (Cholesky)."""
+    return cho_solve(cho_factor(matrix), rhs)
+
+
 def _newton_step(hess, grad):
     try:
-        return np.linalg.solve(hess, grad)
-    except np.linalg.LinAlgError:
+        return _solve(hess, grad)
+    except (np.linalg.LinAlgError, LinAlgError):
         return np.linalg.lstsq(hess, grad, rcond=None)[0]
+
+
+def coef_covariance(problem, theta, hess, alpha):
+    """Inverse penalized Hessian at the optimum, of the centred coefficients.
+
+    The penalized Hessian maps the centred and the common-shift subspaces of
+    a multinomial model to themselves and the shift penalty acts on the
+    latter only, so projecting its inverse onto centred coefficients gives
+    the inverse on that subspace. Returns shape (T, p, T, p).
+    """
+    n_out, p = problem.shape
+    penalized = hess + np.kron(np.eye(n_out), np.diag(problem.penalty(alpha)))
+    with _single_thread(n_out * p):
+        try:
+            inverse = _solve(penalized + problem.shift, np.eye(n_out * p))
+        except (np.linalg.LinAlgError, LinAlgError):
+            inverse = np.linalg.pinv(penalized, hermitian=True)
+    if n_out > 1:
+        centre = np.kron(np.eye(n_out) - 1.0 / n_out, np.eye(p))
+        inverse = centre @ inverse @ centre
+    return inverse.reshape(n_out, p, n_out, p)
 
 
 def best_index(criterion):

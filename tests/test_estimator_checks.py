@@ -80,15 +80,6 @@ EXPECTED_FAILURES = {
             "domain is a different model, so predictions differ by design."
         ),
     },
-    "FunctionalLogisticRegression": {
-        "check_sample_weight_equivalence_on_dense_data": (
-            "On the check's 15 random rows with 3 classes, the classes are "
-            "partially separable by the unpenalized part of beta (intercept and "
-            "straight lines), so the penalized likelihood has no finite "
-            "maximiser; coefficients diverge and probabilities on the "
-            "zero-weight rows depend on where the iterations stop."
-        ),
-    },
     "FunctionOnScalarRidge": {
         **_CURVE_RESPONSE_FAILURES,
         "check_regressor_data_not_an_array": _ONE_POINT_Y,
