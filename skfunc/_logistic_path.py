@@ -25,7 +25,7 @@ import contextlib
 import numpy as np
 from scipy.linalg import LinAlgError, cho_factor, cho_solve, eigh
 from scipy.special import expit
-from threadpoolctl import threadpool_limits
+from threadpoolctl import ThreadpoolController
 
 #: Ridge on the penalty's null space (and on scalar covariates), relative to
 #: the design's own variance there; see FunctionalLogisticRegression's Notes.
@@ -212,7 +212,7 @@ class LogisticProblem:
                 theta[:, 0] = np.log(freq) - np.log(freq).mean()
         return theta
 
-    def newton(self, alpha, theta, tol, max_iter):
+    def newton(self, alpha, theta, tol, max_iter, guess=None):
         """Minimise the penalized loss from ``theta`` by damped Newton steps.
 
         Returns ``theta, n_iter, converged, hess`` with ``hess`` the
@@ -230,6 +230,8 @@ class LogisticProblem:
             loss, grad, hess = newton_statistics(D, Y, w, theta)
             return value + loss, grad + quadratic @ flat, hess
 
+        if guess is not None and objective(guess, False) < objective(theta, False):
+            theta = guess
         value, grad, hess = objective(theta)
         converged, n_iter = False, 0
         while n_iter < max_iter:
@@ -289,16 +291,21 @@ class LogisticProblem:
         theta, n_iter, fits = self.start(), 0, {}
         with _single_thread(self.D.shape[1] * self.Y.shape[1]):
             for j in range(alphas.size)[::-1]:
+                # the secant through the last two fits predicts the next one
+                # (equal steps in log alpha); Newton starts from the better
+                guess = 2 * fits[j + 1] - fits[j + 2] if j + 2 in fits else None
                 theta, it, converged, hess, quadratic = self.newton(
-                    alphas[j], theta, loose, max_iter
+                    alphas[j], theta, loose, max_iter, guess=guess
                 )
                 n_iter += it
                 criterion[j], edf[j] = self.ubre(theta, hess, quadratic)
                 fits[j] = theta
             best = alphas.size - 1 - best_index(criterion[::-1])
-            theta, it, converged, hess, _ = self.newton(
-                alphas[best], fits[best], tol, max_iter
-            )
+            if loose > tol or best != 0:  # the last fit made is at index 0
+                theta, it, converged, hess, _ = self.newton(
+                    alphas[best], fits[best], tol, max_iter
+                )
+                n_iter += it
         return {
             "criterion": criterion,
             "edf": edf,
@@ -306,7 +313,7 @@ class LogisticProblem:
             "theta": theta,
             "hess": hess,
             "converged": converged,
-            "n_iter": n_iter + it,
+            "n_iter": n_iter,
         }
 
     def candidate_alphas(self, n_alphas=None):
@@ -370,9 +377,15 @@ def _single_thread(size):
     threads only add synchronisation, which on a busy machine costs many
     times the solve itself.
     """
+    global _CONTROLLER
     if size <= 4000:
-        return threadpool_limits(limits=1, user_api="blas")
+        if _CONTROLLER is None:  # inspecting the loaded libraries is slow: once
+            _CONTROLLER = ThreadpoolController()
+        return _CONTROLLER.limit(limits=1, user_api="blas")
     return contextlib.nullcontext()
+
+
+_CONTROLLER = None
 
 
 def _solve(matrix, rhs):
@@ -402,10 +415,11 @@ def coef_covariance(problem, theta, hess, alpha):
             inverse = _solve(penalized + problem.shift, np.eye(n_out * p))
         except (np.linalg.LinAlgError, LinAlgError):
             inverse = np.linalg.pinv(penalized, hermitian=True)
-    if n_out > 1:
-        centre = np.kron(np.eye(n_out) - 1.0 / n_out, np.eye(p))
-        inverse = centre @ inverse @ centre
-    return inverse.reshape(n_out, p, n_out, p)
+    inverse = inverse.reshape(n_out, p, n_out, p)
+    if n_out > 1:  # centre over the class axes
+        inverse = inverse - inverse.mean(axis=0, keepdims=True)
+        inverse = inverse - inverse.mean(axis=2, keepdims=True)
+    return inverse
 
 
 def best_index(criterion):
