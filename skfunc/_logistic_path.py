@@ -363,15 +363,13 @@ class LogisticProblem:
         curvature = float(np.mean(freq * (1 - freq)))
         mu = mu * max(curvature, 1e-3) / self.roughness_scale
 
-        def alpha_for(edf):
-            lo, hi = np.log(mu[0]) - 30, np.log(mu[-1]) + 30
-            for _ in range(100):
-                mid = (lo + hi) / 2
-                if np.sum(mu / (mu + np.exp(mid))) > edf:
-                    lo = mid
-                else:
-                    hi = mid
-            return np.exp((lo + hi) / 2)
+        # edf(alpha) = sum mu / (mu + alpha) falls with log alpha: tabulate it
+        # finely (steps of 0.01 in log alpha) and interpolate the ends
+        log_alpha = np.arange(np.log(mu[0]) - 10, np.log(mu[-1]) + 10, 0.01)
+        edf = (mu / (mu + np.exp(log_alpha)[:, None])).sum(axis=1)
+
+        def alpha_for(target):
+            return np.exp(np.interp(-target, -edf, log_alpha))
 
         low, high = _EDF_ENDS
         return np.geomspace(alpha_for(high * mu.size), alpha_for(low), n_alphas)
