@@ -306,8 +306,8 @@ class FunctionalLogisticRegression(
         k = basis.n_basis
         penalty = self._penalty(basis)[:k, :k]
         stats = cross_products(Z, Y, sample_weight)
-        gram = centered(stats)[0] if self.fit_intercept else stats["zz"]
         if self._fixed_alpha() == 0:
+            gram = centered(stats)[0] if self.fit_intercept else stats["zz"]
             self._checked_path(gram, self._penalty(basis), 0.0, stats["n"])
         transform, n_null, penalty01 = penalty_split(basis, self.penalty_order, penalty)
         lead = int(self.fit_intercept)
@@ -316,7 +316,8 @@ class FunctionalLogisticRegression(
         D = np.hstack([np.ones((len(Z), lead)), Zc[:, :k] @ transform, Zc[:, k:]])
         # alpha = 1 weighs the roughness on [0, 1] like the variance of the
         # integrated design: trace(G) / trace(P01), G its centred cross products
-        trace_g, trace_p = np.trace(gram[:k, :k]), np.trace(penalty01)
+        trace_g = float(sample_weight @ np.sum(Zc[:, :k] ** 2, axis=1))
+        trace_p = np.trace(penalty01)
         scale = trace_g / trace_p if trace_g > 0 and trace_p > 0 else 1.0
         size = sample_weight @ D**2
         ridge = np.zeros(D.shape[1])
