@@ -1,34 +1,18 @@
 """FunctionOnScalarRidge: curve-valued responses from scalar covariates."""
 
 import numpy as np
-from sklearn.base import BaseEstimator
-from sklearn.utils.validation import (
-    _check_sample_weight,
-    check_is_fitted,
-    validate_data,
-)
+from sklearn.utils.validation import check_is_fitted, validate_data
 
-from ._dask import (
-    affine_block,
-    apply_rows,
-    compute_statistics,
-    is_dask_array,
-    running_statistics,
-    start_partial_fit,
-    validate_dask,
-)
+from ._blocks import affine_block, apply_rows, is_dask_array
+from ._dask import validate_dask
+from ._fit import AdditiveRegressorMixin
 from ._function_response import (
     RESPONSE_PARAMETER_CONSTRAINTS,
-    CurveResponseMixin,
-    check_alphas,
-    response_statistics,
-    solve_response,
-    store_solution,
-    validate_response,
+    CurveResponseRegressor,
 )
 
 
-class FunctionOnScalarRidge(CurveResponseMixin, BaseEstimator):
+class FunctionOnScalarRidge(AdditiveRegressorMixin, CurveResponseRegressor):
     """Function-on-scalar regression with roughness-penalized coefficient functions.
 
     Each row of ``y`` is a response curve sampled on a response grid, each row
@@ -52,7 +36,7 @@ class FunctionOnScalarRidge(CurveResponseMixin, BaseEstimator):
         exceed the number of response grid points.
     degree : int, default=3
         B-spline degree (ignored by the other bases).
-    knots : array-like of shape (n_knots,), default=None
+    interior_knots : array-like of shape (n_knots,), default=None
         Interior B-spline knots inside the response domain; None means evenly
         spaced.
     alpha : float, default=None
@@ -161,119 +145,53 @@ class FunctionOnScalarRidge(CurveResponseMixin, BaseEstimator):
     0.97
     """
 
-    #: fit runs on skfunc._dask.compute_statistics, so dask arrays are accepted
-    _accepts_dask = True
-
     _parameter_constraints = RESPONSE_PARAMETER_CONSTRAINTS
 
     def __init__(
         self,
+        alpha=None,
+        *,
+        alphas=None,
         basis="bspline",
         n_basis=None,
         degree=3,
-        knots=None,
-        alpha=None,
-        alphas=None,
+        interior_knots=None,
         penalty_order=2,
         response_grid=None,
         quadrature="trapezoid",
     ):
+        self.alpha = alpha
+        self.alphas = alphas
         self.basis = basis
         self.n_basis = n_basis
         self.degree = degree
-        self.knots = knots
-        self.alpha = alpha
-        self.alphas = alphas
+        self.interior_knots = interior_knots
         self.penalty_order = penalty_order
         self.response_grid = response_grid
         self.quadrature = quadrature
 
-    def fit(self, X, y, sample_weight=None):
-        """Fit the coefficient functions.
-
-        Parameters
-        ----------
-        X : array-like of shape (n_samples, n_features)
-            Scalar covariates.
-        y : array-like of shape (n_samples, n_response_points)
-            Response curves on the response grid (no NaN).
-        sample_weight : array-like of shape (n_samples,), default=None
-            Weights of the observations (frequency weights in the bands).
-
-        Returns
-        -------
-        self : object
-            Fitted estimator.
-        """
-        vars(self).pop("n_samples_seen_", None)  # start afresh: fit is a first batch
-        return self.partial_fit(X, y, sample_weight)
-
-    def partial_fit(self, X, y, sample_weight=None):
-        """Add a batch of observations and refit from all batches so far.
-
-        The fit depends on the data only through additive statistics, so
-        fitting batch by batch gives the fit on all of them (GCV included).
-
-        Parameters
-        ----------
-        X : array-like or dask array of shape (n_samples, n_features)
-            Scalar covariates of the batch.
-        y : array-like or dask array of shape (n_samples, n_response_points)
-            Response curves of the batch, on the response grid of the first.
-        sample_weight : array-like of shape (n_samples,), default=None
-            Weights of the batch's observations.
-
-        Returns
-        -------
-        self : FunctionOnScalarRidge
-            The estimator, fitted on all batches so far.
-        """
-        first = start_partial_fit(self, "response_grid", "response_grid_")
-        check_alphas(self.alphas)
+    def _validate_inputs(self, X, y, reset):
         if is_dask_array(X) or is_dask_array(y):
-            X, y = validate_dask(self, X, y, reset=first, multi_output=True,
+            return validate_dask(self, X, y, reset=reset, multi_output=True,
                                  curves=False)
-        else:
-            X = validate_data(self, X, reset=first, dtype=np.float64)
-        y = validate_response(self, y, X.shape[0], reset=first)
-        w = _check_sample_weight(sample_weight, X)
-        stats = compute_statistics(self._statistics, X, y, w)
-        return self._solve(running_statistics(self, stats, first, X.shape[0]))
+        return validate_data(self, X, reset=reset, dtype=np.float64), y
 
-    def _statistics(self, X, y, sample_weight=None):
-        """Additive statistics of one chunk of (X, y); merge with ``merge``."""
-        basis, weights = self._response_basis()
-        phi_w = basis.evaluate(self.response_grid_) * weights[:, None]
-        return response_statistics(X, y, phi_w, sample_weight)
-
-    def _solve(self, stats):
-        """Fit from (merged) statistics and store the fitted attributes."""
-        basis, weights = self._response_basis()
-        p = stats["zz"].shape[0]
-        store_solution(self, basis, solve_response(
-            stats,
-            basis.evaluate(self.response_grid_),
-            weights,
-            self._penalty(basis),
-            np.eye(p),
-            np.zeros((p, p)),
-            self.alpha,
-            check_alphas(self.alphas),
-        ))
-        return self
+    def _design_geometry(self):
+        p = self.n_features_in_
+        return np.eye(p), np.zeros((p, p))
 
     def _coef_rows(self):
         p1 = self.basis_coef_.shape[0]
         return np.eye(p1)[1:]
 
-    def predict(self, X, response_points=None):
+    def predict(self, X, eval_points=None):
         """Predicted response curves.
 
         Parameters
         ----------
         X : array-like of shape (n_samples, n_features)
             Scalar covariates.
-        response_points : array-like of shape (n_points,), default=None
+        eval_points : array-like of shape (n_points,), default=None
             Where to evaluate the curves, inside the response domain; None
             means ``response_grid_``.
 
@@ -287,9 +205,9 @@ class FunctionOnScalarRidge(CurveResponseMixin, BaseEstimator):
             X = validate_dask(self, X, reset=False, curves=False)
         else:
             X = validate_data(self, X, reset=False, dtype=np.float64)
-        if response_points is None:
+        if eval_points is None:
             intercept, coef = self.intercept_function_, self.coef_function_
         else:
-            intercept, coef = self.coef_functions_at(response_points)
+            intercept, coef = self.coef_functions_at(eval_points)
         return apply_rows(affine_block, X, intercept.size, coef=coef,
                           intercept=intercept)

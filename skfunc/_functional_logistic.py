@@ -20,6 +20,7 @@ from sklearn.utils.class_weight import compute_sample_weight
 from sklearn.utils.multiclass import check_classification_targets
 from sklearn.utils.validation import _check_sample_weight
 
+from ._docstrings import fill_doc
 from ._integrated_design import (
     ALPHA_CONSTRAINT,
     DESIGN_CONSTRAINTS,
@@ -76,6 +77,7 @@ def newton_statistics(D, Y, sample_weight, theta, derivatives=True):
     return float(loss), grad.ravel(), hess.reshape(n_out * p, n_out * p)
 
 
+@fill_doc
 class FunctionalLogisticRegression(
     IntegratedDesignMixin, ClassifierMixin, BaseEstimator
 ):
@@ -92,22 +94,7 @@ class FunctionalLogisticRegression(
         Roughness penalty weight; 0 for unpenalized maximum likelihood.
         With ``penalty_order=0`` in an orthonormal basis, ``alpha`` equals
         ``1 / C`` of :class:`sklearn.linear_model.LogisticRegression`.
-    basis : {"bspline", "fourier", "legendre"}, default="bspline"
-        Basis for the coefficient functions.
-    n_basis : int, default=None
-        Number of basis functions. None means the basis' default capped by
-        the number of grid points.
-    degree : int, default=3
-        Degree of the B-splines. Ignored by the other bases.
-    knots : array-like of shape (n_knots,), default=None
-        Interior B-spline knots; None means evenly spaced.
-    penalty_order : int, default=2
-        Derivative order ``q`` of the roughness penalty.
-    n_covariates : int, default=0
-        Number of trailing columns of X that are scalar covariates
-        (unpenalized); the grid covers the columns before them.
-    fit_intercept : bool, default=True
-        Whether to fit an unpenalized intercept.
+    %(scalar_outcome)s
     class_weight : dict, "balanced" or None, default=None
         Weights of the classes, multiplied into ``sample_weight``, as in
         scikit-learn's classifiers.
@@ -117,11 +104,6 @@ class FunctionalLogisticRegression(
         Stop after a Newton step whose half squared Newton decrement (the
         predicted decrease of the objective) is below
         ``tol * (1 + |objective|)``.
-    grid : array-like of shape (n_features - n_covariates,), default=None
-        Sampling points of the curve columns. None means their numeric
-        DataFrame column labels, else evenly spaced points on [0, 1].
-    quadrature : {"trapezoid", "simpson"}, default="trapezoid"
-        Quadrature rule for the integrals.
 
     Attributes
     ----------
@@ -176,9 +158,7 @@ class FunctionalLogisticRegression(
     the grid. For the multinomial model it refers to the centered
     coefficients.
 
-    Predicted probabilities are statistical estimates: validate them on your
-    own process data before they drive a quality or safety decision, and
-    follow the applicable standards and qualified practice.
+    %(cautions)s
 
     References
     ----------
@@ -220,7 +200,7 @@ class FunctionalLogisticRegression(
         basis="bspline",
         n_basis=None,
         degree=3,
-        knots=None,
+        interior_knots=None,
         penalty_order=2,
         n_covariates=0,
         fit_intercept=True,
@@ -234,7 +214,7 @@ class FunctionalLogisticRegression(
         self.basis = basis
         self.n_basis = n_basis
         self.degree = degree
-        self.knots = knots
+        self.interior_knots = interior_knots
         self.penalty_order = penalty_order
         self.n_covariates = n_covariates
         self.fit_intercept = fit_intercept

@@ -103,7 +103,7 @@ def test_chunked_transform_equals_single_product(rng, monkeypatch):
     X = rng.normal(size=(1000, 40))
     est = BasisFeatures(n_basis=10).fit(X)
     full = X @ est.projection_.T
-    import skfunc._base as base
+    import skfunc._blocks as base
 
     monkeypatch.setattr(base, "CHUNK_VALUES", 40 * 7)  # 7 rows per chunk
     np.testing.assert_allclose(est.transform(X), full, rtol=1e-12)

@@ -23,11 +23,8 @@ from sklearn.model_selection import GridSearchCV  # noqa: E402
 from sklearn.pipeline import Pipeline  # noqa: E402
 
 from skfunc import BasisFeatures  # noqa: E402
-from skfunc._dask import (  # noqa: E402
-    compute_statistics,
-    is_dask_array,
-    validate_dask,
-)
+from skfunc._blocks import compute_statistics, is_dask_array  # noqa: E402
+from skfunc._dask import validate_dask  # noqa: E402
 from skfunc._penalized import (  # noqa: E402
     centered,
     centered_cross_products,

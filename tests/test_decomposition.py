@@ -302,11 +302,11 @@ def test_smoothed_leading_component_solves_silverman_eigenproblem(rng):
     S = np.cov(coef, rowvar=False)
     _, vecs = scipy.linalg.eigh(gram @ S @ gram, gram + alpha * penalty)
     b = vecs[:, -1] / np.sqrt(vecs[:, -1] @ gram @ vecs[:, -1])
-    b *= np.sign(b @ fpca.components_coef_[0])
-    np.testing.assert_allclose(fpca.components_coef_[0], b, atol=1e-5)
+    b *= np.sign(b @ fpca.components_basis_coef_[0])
+    np.testing.assert_allclose(fpca.components_basis_coef_[0], b, atol=1e-5)
     # orthonormal in L2 after the final Gram-Schmidt step
     np.testing.assert_allclose(
-        fpca.components_coef_ @ gram @ fpca.components_coef_.T, np.eye(3), atol=1e-6
+        fpca.components_basis_coef_ @ gram @ fpca.components_basis_coef_.T, np.eye(3), atol=1e-6
     )
 
 
@@ -380,7 +380,7 @@ def test_bad_input_messages(rng):
     with pytest.raises(ValueError, match="randomized"):
         FunctionalPCA(0.5, svd_solver="randomized").fit(X)
     with pytest.raises(ValueError, match="alpha > 0"):
-        FunctionalPCA(2, alpha=1.0, svd_solver="randomized").fit(X)
+        FunctionalPCA(2, basis="bspline", alpha=1.0, svd_solver="randomized").fit(X)
     randomized = FunctionalPCA(2, svd_solver="randomized", random_state=0).fit(X)
     with pytest.raises(ValueError, match="cannot continue"):
         randomized.partial_fit(X)
@@ -395,7 +395,7 @@ def test_blockwise_statistics_merged_in_a_tree_equal_fit(rng):
     # The contract a distributed fit relies on: _statistics per block,
     # merge_moments in any order, then _solve, as in fit (numpy stacking is
     # the reference).
-    from skfunc._base import validate_curves
+    from skfunc._validation import validate_curves
     from skfunc._moments import merge_moments
 
     t = np.linspace(0, 1, 30)
