@@ -34,7 +34,7 @@ def check_level(level, name="level"):
     """A confidence level in (0, 1) (e.g. 0.95), as a float."""
     if (not isinstance(level, Real) or isinstance(level, bool)
             or not 0 < level < 1):
-        raise ValueError(f"{name} must be a number in (0, 1), e.g. 0.95; got {level!r}.")
+        raise ValueError(f"{name} must be in (0, 1), e.g. 0.95; got {level!r}.")
     return float(level)
 
 

@@ -53,20 +53,6 @@ def test_square_wave_fourier_coefficients():
     assert abs(Z[0]) < 1e-3
 
 
-@pytest.mark.parametrize("basis, n_basis", [("bspline", 15), ("fourier", 9), ("legendre", 10)])
-def test_resolution_invariance(rng, basis, n_basis):
-    # The same smooth curves sampled on 51, 201, 1001 points and an uneven grid of
-    # 201 points give the same coordinates up to the quadrature's error.
-    def features(t):
-        return BasisFeatures(basis=basis, n_basis=n_basis, grid=t).fit_transform(smooth_curves(t))
-
-    ref = features(np.linspace(0, 1, 1001))
-    uneven = np.concatenate([[0.0], np.sort(rng.uniform(0, 1, 199)), [1.0]])
-    scale = np.linalg.norm(ref)
-    for t, tol in [(np.linspace(0, 1, 201), 1e-3), (uneven, 1e-3), (np.linspace(0, 1, 51), 1e-2)]:
-        assert np.linalg.norm(features(t) - ref) / scale < tol
-
-
 def test_penalized_projection_matches_augmented_least_squares(rng):
     # Reference: numpy.linalg.lstsq on the augmented system [sqrt(W) Phi; sqrt(alpha) R]
     # with P = R'R, the textbook form of penalized least squares (common practice).
