@@ -32,10 +32,11 @@ Set ``_accepts_dask = True`` once all of that runs on
 
 from ._blocks import compute_statistics
 from ._penalized import merge as merge_sums
+from ._repr import ShortReprMixin
 from ._validation import check_batch_grid
 
 
-class AdditiveFitMixin:
+class AdditiveFitMixin(ShortReprMixin):
     """``fit`` and ``partial_fit`` from additive statistics (see module doc)."""
 
     #: combines the statistics of disjoint sets of rows

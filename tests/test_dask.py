@@ -3,7 +3,7 @@
 The distributed tests share one ``LocalCluster`` (two worker processes, one
 thread each, on loopback) started and closed by the module fixture; the rest
 run on Dask's synchronous scheduler. Results are compared with in-memory
-fits (the specification of the issue: equal within 1e-10 relative) and, where
+fits (equal within 1e-10 relative) and, where
 a value is known independently, with scipy or numpy.
 """
 
