@@ -13,6 +13,7 @@ from sklearn.utils.validation import (
 from ._bases import gram_sqrt
 from ._blocks import chunked_matmul
 from ._dask import check_rows
+from ._estimator import store_init_params
 from ._fit import AdditiveTransformerMixin
 from ._grid import quadrature_weights
 from ._penalized import PenalizedPath
@@ -144,26 +145,9 @@ class BasisFeatures(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
         "alpha": [Interval(Real, 0, None, closed="left")],
     }
 
-    def __init__(
-        self,
-        basis="bspline",
-        n_basis=None,
-        *,
-        degree=3,
-        interior_knots=None,
-        alpha=0.0,
-        penalty_order=2,
-        grid=None,
-        quadrature="trapezoid",
-    ):
-        self.basis = basis
-        self.n_basis = n_basis
-        self.degree = degree
-        self.interior_knots = interior_knots
-        self.alpha = alpha
-        self.penalty_order = penalty_order
-        self.grid = grid
-        self.quadrature = quadrature
+    def __init__(self, basis="bspline", n_basis=None, *, degree=3, interior_knots=None,
+                 alpha=0.0, penalty_order=2, grid=None, quadrature="trapezoid"):
+        store_init_params(self, locals())
 
     def _validate_batch(self, X, y, sample_weight, first):
         return (validate_curves(self, X, reset=first),)

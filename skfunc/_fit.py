@@ -31,8 +31,8 @@ Set ``_accepts_dask = True`` once all of that runs on
 """
 
 from ._blocks import compute_statistics
+from ._estimator import ShortReprMixin
 from ._penalized import merge as merge_sums
-from ._repr import ShortReprMixin
 from ._validation import check_batch_grid
 
 

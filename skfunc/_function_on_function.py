@@ -8,6 +8,7 @@ from sklearn.utils.validation import check_is_fitted
 
 from ._blocks import chunked_matmul, is_dask_array
 from ._docstrings import fill_doc
+from ._estimator import store_init_params
 from ._fit import AdditiveRegressorMixin
 from ._function_response import (
     RESPONSE_PARAMETER_CONSTRAINTS,
@@ -125,30 +126,10 @@ import numpy as np
 
     _batch_grids = (("grid", "grid_"), ("response_grid", "response_grid_"))
 
-    def __init__(
-        self,
-        alpha=None,
-        *,
-        alphas=None,
-        basis="bspline",
-        n_basis=None,
-        degree=3,
-        interior_knots=None,
-        penalty_order=2,
-        grid=None,
-        response_grid=None,
-        quadrature="trapezoid",
-    ):
-        self.alpha = alpha
-        self.alphas = alphas
-        self.basis = basis
-        self.n_basis = n_basis
-        self.degree = degree
-        self.interior_knots = interior_knots
-        self.penalty_order = penalty_order
-        self.grid = grid
-        self.response_grid = response_grid
-        self.quadrature = quadrature
+    def __init__(self, alpha=None, *, alphas=None, basis="bspline", n_basis=None,
+                 degree=3, interior_knots=None, penalty_order=2, grid=None,
+                 response_grid=None, quadrature="trapezoid"):
+        store_init_params(self, locals())
 
     def _validate_inputs(self, X, y, reset):
         if is_dask_array(X) or is_dask_array(y):

@@ -21,6 +21,7 @@ from sklearn.utils.multiclass import check_classification_targets
 from sklearn.utils.validation import _check_sample_weight
 
 from ._docstrings import fill_doc
+from ._estimator import store_init_params
 from ._integrated_design import (
     ALPHA_CONSTRAINT,
     DESIGN_CONSTRAINTS,
@@ -193,36 +194,11 @@ class FunctionalLogisticRegression(
         "tol": [Interval(Real, 0, None, closed="left")],
     }
 
-    def __init__(
-        self,
-        alpha=1.0,
-        *,
-        basis="bspline",
-        n_basis=None,
-        degree=3,
-        interior_knots=None,
-        penalty_order=2,
-        n_covariates=0,
-        fit_intercept=True,
-        class_weight=None,
-        max_iter=100,
-        tol=1e-10,
-        grid=None,
-        quadrature="trapezoid",
-    ):
-        self.alpha = alpha
-        self.basis = basis
-        self.n_basis = n_basis
-        self.degree = degree
-        self.interior_knots = interior_knots
-        self.penalty_order = penalty_order
-        self.n_covariates = n_covariates
-        self.fit_intercept = fit_intercept
-        self.class_weight = class_weight
-        self.max_iter = max_iter
-        self.tol = tol
-        self.grid = grid
-        self.quadrature = quadrature
+    def __init__(self, alpha=1.0, *, basis="bspline", n_basis=None, degree=3,
+                 interior_knots=None, penalty_order=2, n_covariates=0,
+                 fit_intercept=True, class_weight=None, max_iter=100, tol=1e-10,
+                 grid=None, quadrature="trapezoid"):
+        store_init_params(self, locals())
 
     def fit(self, X, y, sample_weight=None):
         """Fit the coefficient functions by penalized maximum likelihood.

@@ -18,6 +18,7 @@ from sklearn.utils.validation import check_is_fitted
 from ._bases import BASES
 from ._blocks import chunked_matmul, is_dask_array
 from ._dask import check_rows
+from ._estimator import store_init_params
 from ._fit import AdditiveTransformerMixin
 from ._fpca import (
     CurveCoordinates,
@@ -254,36 +255,11 @@ class FunctionalPCA(AdditiveTransformerMixin, ClassNamePrefixFeaturesOutMixin,
         "random_state": ["random_state"],
     }
 
-    def __init__(
-        self,
-        n_components=None,
-        *,
-        basis=None,
-        n_basis=None,
-        degree=3,
-        interior_knots=None,
-        alpha=0.0,
-        penalty_order=2,
-        svd_solver="auto",
-        n_oversamples=10,
-        iterated_power="auto",
-        random_state=None,
-        grid=None,
-        quadrature="trapezoid",
-    ):
-        self.n_components = n_components
-        self.basis = basis
-        self.n_basis = n_basis
-        self.degree = degree
-        self.interior_knots = interior_knots
-        self.alpha = alpha
-        self.penalty_order = penalty_order
-        self.svd_solver = svd_solver
-        self.n_oversamples = n_oversamples
-        self.iterated_power = iterated_power
-        self.random_state = random_state
-        self.grid = grid
-        self.quadrature = quadrature
+    def __init__(self, n_components=None, *, basis=None, n_basis=None, degree=3,
+                 interior_knots=None, alpha=0.0, penalty_order=2, svd_solver="auto",
+                 n_oversamples=10, iterated_power="auto", random_state=None, grid=None,
+                 quadrature="trapezoid"):
+        store_init_params(self, locals())
 
     # ------------------------------------------------------------------ fit
     #: keys ``n``, ``mean``, ``scatter`` (count, mean and centered scatter of

@@ -8,6 +8,7 @@ from sklearn.utils._param_validation import StrOptions
 
 from ._blocks import is_dask_array
 from ._docstrings import fill_doc
+from ._estimator import store_init_params
 from ._functional_ridge import FunctionalRidgeBase
 from ._integrated_design import DESIGN_CONSTRAINTS
 from ._penalized import centered_cross_products, cross_products, gcv_score
@@ -103,36 +104,11 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
         "alpha_per_target": ["boolean"],
     }
 
-    def __init__(
-        self,
-        alphas=None,
-        *,
-        criterion="gcv",
-        cv=None,
-        alpha_per_target=False,
-        basis="bspline",
-        n_basis=None,
-        degree=3,
-        interior_knots=None,
-        penalty_order=2,
-        n_covariates=0,
-        fit_intercept=True,
-        grid=None,
-        quadrature="trapezoid",
-    ):
-        self.alphas = alphas
-        self.criterion = criterion
-        self.cv = cv
-        self.alpha_per_target = alpha_per_target
-        self.basis = basis
-        self.n_basis = n_basis
-        self.degree = degree
-        self.interior_knots = interior_knots
-        self.penalty_order = penalty_order
-        self.n_covariates = n_covariates
-        self.fit_intercept = fit_intercept
-        self.grid = grid
-        self.quadrature = quadrature
+    def __init__(self, alphas=None, *, criterion="gcv", cv=None,
+                 alpha_per_target=False, basis="bspline", n_basis=None, degree=3,
+                 interior_knots=None, penalty_order=2, n_covariates=0,
+                 fit_intercept=True, grid=None, quadrature="trapezoid"):
+        store_init_params(self, locals())
 
     def _check_alphas(self):
         alphas = np.asarray(self.alphas, dtype=np.float64)

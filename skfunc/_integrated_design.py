@@ -34,9 +34,9 @@ from sklearn.utils._param_validation import Interval
 from sklearn.utils.validation import check_is_fitted
 
 from ._blocks import chunked_matmul
+from ._estimator import ShortReprMixin
 from ._grid import quadrature_weights
 from ._penalized import _RCOND, NotIdentifiableError, PenalizedPath
-from ._repr import ShortReprMixin
 from ._validation import BASIS_CONSTRAINTS, basis_for, check_level, validate_curves
 
 #: parameter constraints common to every model on the integrated design

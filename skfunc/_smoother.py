@@ -27,6 +27,7 @@ from sklearn.utils._param_validation import Interval, StrOptions
 from sklearn.utils.validation import _check_feature_names_in, check_is_fitted
 
 from ._blocks import apply_rows, chunked_matmul, row_blocks
+from ._estimator import store_init_params
 from ._fit import AdditiveTransformerMixin
 from ._grid import check_grid, quadrature_weights
 from ._penalized import NotIdentifiableError, PenalizedPath, gcv_score, merge
@@ -441,34 +442,10 @@ class CurveSmoother(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
         "eval_points": ["array-like", None],
     }
 
-    def __init__(
-        self,
-        alpha="gcv",
-        *,
-        alphas=None,
-        per_curve=False,
-        basis="bspline",
-        n_basis=None,
-        degree=3,
-        interior_knots=None,
-        penalty_order=2,
-        derivative=0,
-        eval_points=None,
-        grid=None,
-        quadrature="trapezoid",
-    ):
-        self.alpha = alpha
-        self.alphas = alphas
-        self.per_curve = per_curve
-        self.basis = basis
-        self.n_basis = n_basis
-        self.degree = degree
-        self.interior_knots = interior_knots
-        self.penalty_order = penalty_order
-        self.derivative = derivative
-        self.eval_points = eval_points
-        self.grid = grid
-        self.quadrature = quadrature
+    def __init__(self, alpha="gcv", *, alphas=None, per_curve=False, basis="bspline",
+                 n_basis=None, degree=3, interior_knots=None, penalty_order=2,
+                 derivative=0, eval_points=None, grid=None, quadrature="trapezoid"):
+        store_init_params(self, locals())
 
     def __sklearn_tags__(self):
         tags = super().__sklearn_tags__()

@@ -1,4 +1,10 @@
-"""A readable repr for estimators holding array parameters (grids, knots).
+"""What every skfunc estimator class shares beyond scikit-learn's BaseEstimator:
+hyperparameters stored as given, and a readable repr.
+
+:func:`store_init_params` stores the arguments of ``__init__`` unchanged,
+one attribute per parameter, as scikit-learn requires.
+
+A readable repr for estimators holding array parameters (grids, knots):
 
 scikit-learn prints an estimator with the parameters that differ from their
 defaults (``sklearn.utils._pprint._changed_params``) and writes an array
@@ -23,3 +29,11 @@ class ShortReprMixin:
     def __repr__(self, N_CHAR_MAX=700):
         with np.printoptions(threshold=ARRAY_THRESHOLD, edgeitems=ARRAY_EDGE_ITEMS):
             return super().__repr__(N_CHAR_MAX=N_CHAR_MAX)
+
+
+def store_init_params(estimator, arguments):
+    """Store ``__init__``'s arguments (its ``locals()``) unchanged on the
+    estimator, one attribute per parameter."""
+    for name, value in arguments.items():
+        if name not in ("self", "__class__"):
+            setattr(estimator, name, value)
