@@ -13,6 +13,7 @@ from sklearn.utils.validation import (
 from ._bases import gram_sqrt
 from ._blocks import chunked_matmul
 from ._dask import check_rows
+from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._fit import AdditiveTransformerMixin
 from ._grid import quadrature_weights
@@ -36,6 +37,7 @@ def orthonormal_operators(basis, grid, weights, alpha=0.0, penalty_order=2):
     return root @ path.operator(alpha) @ phi_w.T, phi @ inv_root
 
 
+@fill_doc
 class BasisFeatures(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
     """Project sampled curves onto a basis, in L2-orthonormal coordinates.
 
@@ -91,13 +93,8 @@ class BasisFeatures(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
     reconstruction_ : ndarray of shape (n_features, n_basis_)
         Values on ``grid_`` of the orthonormalised basis functions, used by
         :meth:`inverse_transform`.
-    n_samples_seen_ : int
-        Number of curves validated by :meth:`fit`, or by all calls of
-        :meth:`partial_fit` since the first.
-    n_features_in_ : int
-        Number of grid points seen during fit.
-    feature_names_in_ : ndarray of shape (n_features_in_,)
-        Column names of ``X`` when they are all strings.
+    %(n_samples_seen)s
+    %(curve_input_attributes)s
 
     See Also
     --------

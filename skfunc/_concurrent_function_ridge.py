@@ -63,10 +63,7 @@ class ConcurrentFunctionRidge(CurveResponseRegressor):
     %(curve_response_attributes)s
     n_samples_seen_ : int
         Number of curves fitted.
-    n_features_in_ : int
-        Number of grid points.
-    feature_names_in_ : ndarray of shape (n_features_in_,)
-        Column names of ``X`` when they are all strings.
+    %(curve_input_attributes)s
 
     See Also
     --------

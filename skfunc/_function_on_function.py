@@ -59,10 +59,7 @@ class FunctionOnFunctionRidge(AdditiveRegressorMixin, CurveResponseRegressor):
         Estimated covariance of ``basis_coef_`` flattened row-major.
     %(curve_response_attributes)s
     %(n_samples_seen)s
-    n_features_in_ : int
-        Number of input grid points.
-    feature_names_in_ : ndarray of shape (n_features_in_,)
-        Column names of ``X`` when they are all strings.
+    %(curve_input_attributes)s
 
     See Also
     --------
@@ -92,11 +89,7 @@ class FunctionOnFunctionRidge(AdditiveRegressorMixin, CurveResponseRegressor):
 
     References
     ----------
-    Ramsay, J. O. and Silverman, B. W. (2005). *Functional Data Analysis*,
-    2nd ed., ch. 16. Springer.
-
-    Craven, P. and Wahba, G. (1979). Smoothing noisy data with spline
-    functions. *Numerische Mathematik* 31, 377-403.
+    %(curve_response_references)s
 
     Examples
     --------

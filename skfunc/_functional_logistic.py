@@ -200,14 +200,13 @@ class FunctionalLogisticRegression(
                  grid=None, quadrature="trapezoid"):
         store_init_params(self, locals())
 
+    @fill_doc
     def fit(self, X, y, sample_weight=None):
         """Fit the coefficient functions by penalized maximum likelihood.
 
         Parameters
         ----------
-        X : array-like of shape (n_samples, n_features)
-            Curves, one per row, sampled on the grid; then ``n_covariates``
-            scalar columns.
+        %(scalar_outcome_X)s
         y : array-like of shape (n_samples,)
             Class labels.
         sample_weight : array-like of shape (n_samples,), default=None

@@ -18,6 +18,7 @@ from sklearn.utils.validation import check_is_fitted
 from ._bases import BASES
 from ._blocks import chunked_matmul, is_dask_array
 from ._dask import check_rows
+from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._fit import AdditiveTransformerMixin
 from ._fpca import (
@@ -33,6 +34,7 @@ from ._validation import BASIS_CONSTRAINTS, basis_for, validate_curves
 SVD_SOLVERS = ("auto", "full", "covariance_eigh", "randomized")
 
 
+@fill_doc
 class FunctionalPCA(AdditiveTransformerMixin, ClassNamePrefixFeaturesOutMixin,
                     TransformerMixin, BaseEstimator):
     """Functional principal components: the main modes of variation of curves.
@@ -147,10 +149,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ClassNamePrefixFeaturesOutMixin,
         ``n_samples_seen_`` and ``coordinate_mean_``, the statistics
         :meth:`partial_fit` continues from. None after a randomized fit,
         which does not compute them.
-    n_features_in_ : int
-        Number of grid points seen during fit.
-    feature_names_in_ : ndarray of shape (n_features_in_,)
-        Column names of ``X`` when they are all strings.
+    %(curve_input_attributes)s
 
     See Also
     --------

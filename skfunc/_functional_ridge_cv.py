@@ -124,14 +124,13 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
             )
         return alphas
 
+    @fill_doc
     def fit(self, X, y, sample_weight=None):
         """Score every alpha, choose one, and fit at it.
 
         Parameters
         ----------
-        X : array-like of shape (n_samples, n_features)
-            Curves, one per row, sampled on the grid; then ``n_covariates``
-            scalar columns.
+        %(scalar_outcome_X)s
         y : array-like of shape (n_samples,) or (n_samples, n_targets)
             Outcomes.
         sample_weight : array-like of shape (n_samples,), default=None

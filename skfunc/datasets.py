@@ -102,8 +102,8 @@ def _dropout_mask(minutes, n_runs, dropout_fraction, rng):
 
 @validate_params(
     {
-        "n_runs": [Interval(Integral, 1, None, closed="left")],
-        "minutes": ["array-like", None],
+        "n_samples": [Interval(Integral, 1, None, closed="left")],
+        "grid": ["array-like", None],
         "late_start_fraction": [Interval(Real, 0, 1, closed="both")],
         "dropout_fraction": [Interval(Real, 0, 1, closed="both")],
         "faulty_fraction": [Interval(Real, 0, 1, closed="both")],
@@ -115,9 +115,9 @@ def _dropout_mask(minutes, n_runs, dropout_fraction, rng):
     prefer_skip_nested_validation=True,
 )
 def make_kiln_firing(
-    n_runs=200,
+    n_samples=200,
     *,
-    minutes=None,
+    grid=None,
     late_start_fraction=0.1,
     dropout_fraction=0.1,
     faulty_fraction=0.03,
@@ -149,13 +149,13 @@ def make_kiln_firing(
     ``coef_function``. The crack flag is drawn from a functional logistic
     model with coefficient function ``crack_coef_function``. Integrals are
     computed on a fixed half-minute grid, so the responses do not depend on
-    ``minutes``.
+    ``grid``.
 
     Parameters
     ----------
-    n_runs : int, default=200
+    n_samples : int, default=200
         Number of firing runs (rows).
-    minutes : array-like of shape (n_points,), default=None
+    grid : array-like of shape (n_points,), default=None
         Time points (minutes since the cycle started) at which the curves are
         logged, strictly increasing within [0, 599]. None means every minute,
         ``0, 1, ..., 599``.
@@ -176,41 +176,41 @@ def make_kiln_firing(
         minutes (so skfunc infers the grid), ``target``, ``cracked`` and
         ``faulty`` are Series and ``settings`` is a DataFrame. Needs pandas.
     random_state : int, RandomState instance or None, default=None
-        Seed; the same seed gives the same runs at any ``minutes``.
+        Seed; the same seed gives the same runs at any ``grid``.
 
     Returns
     -------
     data : :class:`~sklearn.utils.Bunch`
         With the fields
 
-        data : ndarray or DataFrame of shape (n_runs, n_points)
+        data : ndarray or DataFrame of shape (n_samples, n_points)
             Logged temperature curves (°C), NaN where a thermocouple dropped
             out.
-        target : ndarray or Series of shape (n_runs,)
+        target : ndarray or Series of shape (n_samples,)
             Tile flexural strength (MPa), the same as ``strength``.
-        strength : ndarray or Series of shape (n_runs,)
-        cracked : ndarray or Series of shape (n_runs,)
+        strength : ndarray or Series of shape (n_samples,)
+        cracked : ndarray or Series of shape (n_samples,)
             1 when the crack inspection failed, else 0.
-        settings : ndarray or DataFrame of shape (n_runs, 4)
+        settings : ndarray or DataFrame of shape (n_samples, 4)
             Programmed settings, columns ``settings_names``.
         settings_names : list of str
             ``peak_setpoint_c``, ``ramp_rate_c_per_min``, ``soak_min``,
             ``load_mass_kg``.
-        minutes : ndarray of shape (n_points,)
+        grid : ndarray of shape (n_points,)
             The grid.
-        true_curves : ndarray of shape (n_runs, n_points)
-            Noise-free, gap-free curves on ``minutes``.
+        true_curves : ndarray of shape (n_samples, n_points)
+            Noise-free, gap-free curves on ``grid``.
         coef_function : ndarray of shape (n_points,)
-            True strength coefficient function on ``minutes``, MPa/(°C·min).
+            True strength coefficient function on ``grid``, MPa/(°C·min).
         intercept : float
             True strength intercept (MPa).
         crack_coef_function : ndarray of shape (n_points,)
-            True crack log-odds coefficient function on ``minutes``.
+            True crack log-odds coefficient function on ``grid``.
         crack_intercept : float
-        crack_probability : ndarray of shape (n_runs,)
-        start_delay : ndarray of shape (n_runs,)
+        crack_probability : ndarray of shape (n_samples,)
+        start_delay : ndarray of shape (n_samples,)
             Minutes from the start of the log to the start of heating.
-        late_start, faulty, has_dropout : ndarray of bool, shape (n_runs,)
+        late_start, faulty, has_dropout : ndarray of bool, shape (n_samples,)
         DESCR : str
 
     See Also
@@ -221,22 +221,22 @@ def make_kiln_firing(
     Examples
     --------
     >>> from skfunc.datasets import make_kiln_firing
-    >>> kiln = make_kiln_firing(n_runs=50, random_state=0)
+    >>> kiln = make_kiln_firing(n_samples=50, random_state=0)
     >>> kiln.data.shape, kiln.settings_names[0]
     ((50, 600), 'peak_setpoint_c')
     >>> bool(1100 < kiln.data[0, 300] < 1300)  # soaking near the peak
     True
     """
     rng = check_random_state(random_state)
-    if minutes is None:
-        minutes = np.arange(KILN_MINUTES, dtype=np.float64)
-    minutes = check_grid(minutes, name="minutes")
+    if grid is None:
+        grid = np.arange(KILN_MINUTES, dtype=np.float64)
+    minutes = check_grid(grid, name="grid")
     if minutes[0] < 0 or minutes[-1] > KILN_MINUTES - 1:
         raise ValueError(
-            f"minutes must lie within [0, {KILN_MINUTES - 1}] (the cycle); got "
+            f"grid must lie within [0, {KILN_MINUTES - 1}] (the cycle); got "
             f"values in [{minutes[0]}, {minutes[-1]}]."
         )
-    n = n_runs
+    n = n_samples
 
     def column(low, high):
         return rng.uniform(low, high, size=(n, 1))
@@ -284,7 +284,7 @@ def make_kiln_firing(
         cracked=cracked,
         settings=settings,
         settings_names=list(SETTINGS_NAMES),
-        minutes=minutes,
+        grid=minutes,
         true_curves=true_curves,
         coef_function=kiln_strength_coef(minutes),
         intercept=intercept,
@@ -319,7 +319,7 @@ def _to_frames(bunch):
             "as_frame=True needs pandas; install it (pip install pandas) or use "
             "as_frame=False for numpy arrays."
         ) from exc
-    labels = [int(m) if float(m).is_integer() else float(m) for m in bunch.minutes]
+    labels = [int(m) if float(m).is_integer() else float(m) for m in bunch.grid]
     bunch.data = pd.DataFrame(bunch.data, columns=labels)
     bunch.data.columns.name = "minute"
     for name in ("strength", "cracked"):
