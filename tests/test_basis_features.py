@@ -107,7 +107,7 @@ def test_dataframe_grid_and_pandas_output():
     assert isinstance(out, pd.DataFrame)
     assert list(out.columns) == [f"bspline{k}" for k in range(8)]
     shifted = X.rename(columns=lambda c: c + 1)
-    with pytest.raises(ValueError, match="differs from the grid"):
+    with pytest.raises(ValueError, match="differs from the one"):
         est.transform(shifted)
     with pytest.raises(ValueError, match="mix numbers and words"):
         BasisFeatures().fit(X.rename(columns={0: "start"}))

@@ -184,8 +184,8 @@ def test_functional_pca_on_cluster_equals_in_memory_and_sklearn(client):
     pca = PCA(4, svd_solver="full").fit(X * np.sqrt(w))
     assert_rel_close(model.explained_variance_, pca.explained_variance_, rtol=1e-8)
     # smoothed components in a basis, from the same merged statistics
-    smooth = FunctionalPCA(3, grid=t, n_basis=12, alpha=1e-3).fit(Xd)
-    expected = FunctionalPCA(3, grid=t, n_basis=12, alpha=1e-3).fit(X)
+    smooth = FunctionalPCA(3, grid=t, basis="bspline", n_basis=12, alpha=1e-3).fit(Xd)
+    expected = FunctionalPCA(3, grid=t, basis="bspline", n_basis=12, alpha=1e-3).fit(X)
     assert_rel_close(smooth.components_, expected.components_)
 
 
@@ -384,14 +384,15 @@ def test_other_dask_collections_are_refused_with_advice(sync):
 
 
 def test_estimators_without_dask_support_refuse_dask_input(sync):
-    from skfunc.linear_model import FunctionOnFunctionRidge
+    from skfunc.linear_model import FunctionalLogisticRegression
 
     t, X, _ = kiln_runs(30)
     Xd = da.from_array(X, chunks=10)
+    labels = np.arange(30) % 2
     with pytest.raises(TypeError, match="does not accept dask arrays yet"):
-        FunctionOnFunctionRidge().fit(Xd, Xd)
+        FunctionalLogisticRegression().fit(Xd, labels)
     with pytest.raises(TypeError, match="does not accept dask arrays yet"):
-        FunctionOnFunctionRidge().fit(X, Xd)
+        FunctionalLogisticRegression().fit(X, da.from_array(labels, chunks=10))
 
 
 def test_integer_and_float32_dtypes_follow_sklearn(sync):
@@ -442,8 +443,8 @@ def test_function_on_scalar_partial_fit_and_mixed_input(sync):
 
 def test_functional_pca_partial_fit_over_dask_batches(sync):
     t, X, _ = kiln_runs(800, n_minutes=41)
-    reference = FunctionalPCA(3, grid=t, n_basis=15).fit(X)
-    batches = FunctionalPCA(3, grid=t, n_basis=15)
+    reference = FunctionalPCA(3, grid=t, basis="bspline", n_basis=15).fit(X)
+    batches = FunctionalPCA(3, grid=t, basis="bspline", n_basis=15)
     for start in range(0, 800, 200):
         batches.partial_fit(da.from_array(X[start : start + 200], chunks=(64, 41)))
     assert batches.n_samples_seen_ == 800
