@@ -95,9 +95,7 @@ class FunctionOnFunctionRidge(AdditiveRegressorMixin, CurveResponseRegressor):
     --------
     The cool-down of kiln runs (invented data) from their heating curves:
 
-    >>> from functools import partial
-
-import numpy as np
+    >>> import numpy as np
     >>> from skfunc.linear_model import FunctionOnFunctionRidge
     >>> rng = np.random.default_rng(0)
     >>> s = np.linspace(0, 1, 41)
