@@ -82,7 +82,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ClassNamePrefixFeaturesOutMixin,
     svd_solver : {"auto", "full", "covariance_eigh", "randomized"}, default="auto"
         As in :class:`sklearn.decomposition.PCA`: "covariance_eigh" takes the
         eigendecomposition of the K x K covariance of the coordinates (the
-        route of :meth:`partial_fit`); "full" an exact SVD of the centred
+        route of :meth:`partial_fit`); "full" an exact SVD of the centered
         coordinates; "randomized" :func:`sklearn.utils.extmath.randomized_svd`
         (Halko et al., 2011). "auto" chooses like PCA: "covariance_eigh" when
         ``K <= 1000`` and ``n_samples >= 10 K``, else "full" for small
@@ -134,7 +134,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ClassNamePrefixFeaturesOutMixin,
         ``int var(x(t)) dt``.
     singular_values_ : ndarray of shape (n_components_,)
         ``sqrt((n_samples - 1) * explained_variance_)``: the singular values
-        of the centred curves in L2-orthonormal coordinates.
+        of the centered curves in L2-orthonormal coordinates.
     n_components_ : int
         Number of components kept.
     projection_ : ndarray of shape (n_components_, n_features)
@@ -145,7 +145,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ClassNamePrefixFeaturesOutMixin,
     coordinate_mean_ : ndarray of shape (K,)
         Mean of the curves' L2-orthonormal coordinates.
     coordinate_scatter_ : ndarray of shape (K, K) or None
-        Centred sums of squares and products of those coordinates: with
+        Centered sums of squares and products of those coordinates: with
         ``n_samples_seen_`` and ``coordinate_mean_``, the statistics
         :meth:`partial_fit` continues from. None after a randomized fit,
         which does not compute them.
@@ -171,7 +171,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ClassNamePrefixFeaturesOutMixin,
     over grid points: its eigenvalues scale with the number of points, and on
     uneven grids densely sampled stretches weigh more (see Examples).
 
-    :meth:`partial_fit` accumulates the count, mean and centred scatter
+    :meth:`partial_fit` accumulates the count, mean and centered scatter
     (K x K) of ``z`` over chunks (merged exactly, Chan et al., 1979), so its
     memory is one chunk plus K x K, and its result equals :meth:`fit` on the
     stacked data up to rounding when the coordinates represent the curves

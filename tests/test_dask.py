@@ -238,7 +238,7 @@ def test_statistics_are_reduced_on_workers_in_a_tree(client):
     assert_rel_close(stats["yy"], (y**2).sum(axis=0))
 
 
-def test_centred_statistics_merge_exactly_on_workers(client):
+def test_centered_statistics_merge_exactly_on_workers(client):
     # kiln-like design: means near 1200, spread of a few units
     rng = np.random.default_rng(4)
     Z = 1200 + rng.normal(size=(3000, 5)) * [1, 2, 3, 4, 5]

@@ -157,7 +157,7 @@ def test_gcv_criterion_matches_dense_hat_matrix(rng):
 
 
 def test_shifting_a_covariate_changes_only_the_intercept(rng):
-    # Property of the centred criterion: a shifted covariate x + c gives the
+    # Property of the centered criterion: a shifted covariate x + c gives the
     # same slopes and an intercept beta_0 - c beta_j (any linear model).
     X, Y, t, _ = _scalar_data(rng)
     a = FunctionOnScalarRidge(alpha=1e-3).fit(X, Y)
