@@ -1,16 +1,5 @@
-"""Data generators with a known truth (re-exported by :mod:`skfunc.datasets`).
-
-Every number these functions produce is **invented**. The kiln scenario is a
-made-up ceramics plant, meant to look and behave like process data so that the
-examples and the demo read naturally; it is not a model of any real kiln, clay
-body or standard, and nothing learnt from it applies to a real process.
-
-The underlying curves are smooth functions of continuous time, evaluated on
-whatever grid is asked for, and every integral that defines a response is
-computed on a fixed fine grid (or exactly), independently of that grid. The
-same ``random_state`` therefore gives the same underlying curves and the same
-responses at any resolution, which is what resolution-invariance tests need.
-"""
+"""Data generators with a known truth, re-exported (and described) by
+:mod:`skfunc.datasets`."""
 
 from numbers import Integral, Real
 

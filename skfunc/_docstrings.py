@@ -89,6 +89,28 @@ X : array-like of shape (n_samples, n_features)
     Curves, one per row, sampled on the grid; then ``n_covariates`` scalar
     columns.
 """,
+    "fit_weights_returns": """
+sample_weight : array-like of shape (n_samples,), default=None
+    Non-negative weights of the observations.
+
+Returns
+-------
+self : object
+    Fitted estimator.
+""",
+    "transformer_fit": """
+Parameters
+----------
+X : array-like or dask array of shape (n_samples, n_features)
+    Curves, one per row, sampled on the grid.
+y : None
+    Ignored.
+
+Returns
+-------
+self : object
+    Fitted transformer.
+""",
     "cautions": """
 Results are statistical estimates: read :doc:`/cautions` before they drive
 a quality or safety decision.

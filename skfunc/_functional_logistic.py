@@ -174,13 +174,10 @@ class FunctionalLogisticRegression(
 
     Examples
     --------
-    >>> import numpy as np
+    >>> from skfunc.datasets import make_smooth_regression
     >>> from skfunc.linear_model import FunctionalLogisticRegression
-    >>> rng = np.random.default_rng(0)
-    >>> t = np.linspace(0, 1, 101)
-    >>> X = rng.normal(size=(200, 5)) @ np.sin(np.outer(np.arange(1, 6), np.pi * t))
-    >>> logit = X @ (np.gradient(t) * 4 * np.sin(np.pi * t))
-    >>> y = (rng.uniform(size=200) < 1 / (1 + np.exp(-logit))).astype(int)
+    >>> X, outcome, _ = make_smooth_regression(200, grid=101, noise=0.5, random_state=0)
+    >>> y = (outcome > 0).astype(int)
     >>> clf = FunctionalLogisticRegression(alpha=1e-4, n_basis=8).fit(X, y)
     >>> clf.predict_proba(X[:2]).shape
     (2, 2)
@@ -209,13 +206,7 @@ class FunctionalLogisticRegression(
         %(scalar_outcome_X)s
         y : array-like of shape (n_samples,)
             Class labels.
-        sample_weight : array-like of shape (n_samples,), default=None
-            Non-negative weights of the curves.
-
-        Returns
-        -------
-        self : object
-            Fitted estimator.
+        %(fit_weights_returns)s
         """
         self._validate_params()
         X, y = self._validate_curves(X, y, reset=True, ensure_min_samples=2)
@@ -330,16 +321,7 @@ class FunctionalLogisticRegression(
         return scores[:, 0] if scores.shape[1] == 1 else scores
 
     def predict_proba(self, X):
-        """Class probabilities.
-
-        Parameters
-        ----------
-        X : array-like of shape (n_samples, n_features)
-
-        Returns
-        -------
-        proba : ndarray of shape (n_samples, n_classes)
-        """
+        """Class probabilities of the curves in X, shape (n_samples, n_classes)."""
         scores = self.decision_function(X)
         if scores.ndim == 1:
             p = expit(scores)
@@ -347,16 +329,7 @@ class FunctionalLogisticRegression(
         return np.exp(scores - logsumexp(scores, axis=1, keepdims=True))
 
     def predict_log_proba(self, X):
-        """Logarithms of the class probabilities.
-
-        Parameters
-        ----------
-        X : array-like of shape (n_samples, n_features)
-
-        Returns
-        -------
-        log_proba : ndarray of shape (n_samples, n_classes)
-        """
+        """Logarithms of :meth:`predict_proba`, shape (n_samples, n_classes)."""
         scores = self.decision_function(X)
         if scores.ndim == 1:
             return -np.logaddexp(0.0, np.column_stack([scores, -scores]))

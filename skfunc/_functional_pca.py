@@ -265,20 +265,12 @@ class FunctionalPCA(AdditiveTransformerMixin, ClassNamePrefixFeaturesOutMixin,
     #: the coordinates), merged exactly in any order (Chan et al., 1979)
     _merge_statistics = staticmethod(merge_moments)
 
+    @fill_doc
     def fit(self, X, y=None):
-        """Compute the mean function and the principal components of X.
+        """Compute the mean function and the principal components of X
+        (complete curves: no NaN).
 
-        Parameters
-        ----------
-        X : array-like of shape (n_samples, n_features)
-            Curves, one per row, sampled on the grid; complete (no NaN).
-        y : None
-            Ignored.
-
-        Returns
-        -------
-        self : object
-            Fitted transformer.
+        %(transformer_fit)s
         """
         self._validate_params()
         self._check_basis_parameters()

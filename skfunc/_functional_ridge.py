@@ -189,17 +189,14 @@ class FunctionalRidge(FunctionalRidgeBase):
 
     Examples
     --------
-    >>> import numpy as np
+    >>> from skfunc.datasets import make_smooth_regression
     >>> from skfunc.linear_model import FunctionalRidge
-    >>> rng = np.random.default_rng(0)
-    >>> t = np.linspace(0, 1, 101)
-    >>> X = rng.normal(size=(60, 6)) @ np.sin(np.outer(np.arange(1, 7), np.pi * t))
-    >>> y = X @ (np.gradient(t) * np.sin(np.pi * t)) + 0.01 * rng.normal(size=60)
+    >>> X, y, beta = make_smooth_regression(60, grid=101, noise=0.01, random_state=0)
     >>> model = FunctionalRidge(alpha=1e-6, n_basis=8).fit(X, y)
     >>> model.coef_function_.shape
     (101,)
     >>> lower, upper = model.confidence_band(level=0.95)
-    >>> bool(np.all(lower <= upper))
+    >>> bool((lower <= upper).all())
     True
     """
 

@@ -84,11 +84,9 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
     Examples
     --------
     >>> import numpy as np
+    >>> from skfunc.datasets import make_smooth_regression
     >>> from skfunc.linear_model import FunctionalRidgeCV
-    >>> rng = np.random.default_rng(0)
-    >>> t = np.linspace(0, 1, 101)
-    >>> X = rng.normal(size=(60, 6)) @ np.sin(np.outer(np.arange(1, 7), np.pi * t))
-    >>> y = X @ (np.gradient(t) * np.sin(np.pi * t)) + 0.1 * rng.normal(size=60)
+    >>> X, y, _ = make_smooth_regression(60, grid=101, random_state=0)
     >>> model = FunctionalRidgeCV(alphas=np.logspace(-8, 0, 9), n_basis=8).fit(X, y)
     >>> model.criterion_.shape
     (9,)
@@ -133,13 +131,7 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
         %(scalar_outcome_X)s
         y : array-like of shape (n_samples,) or (n_samples, n_targets)
             Outcomes.
-        sample_weight : array-like of shape (n_samples,), default=None
-            Non-negative weights of the curves.
-
-        Returns
-        -------
-        self : object
-            Fitted estimator.
+        %(fit_weights_returns)s
         """
         if self.criterion == "gcv" and self.cv is None:  # GCV: statistics suffice
             return self._fit_statistics(X, y, sample_weight)
