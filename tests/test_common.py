@@ -148,3 +148,16 @@ def test_persistence_round_trip(name, suffix, tmp_path):
     fitted = {k: v for k, v in vars(estimator).items() if k.endswith("_")}
     np.testing.assert_equal({k: getattr(loaded, k) for k in fitted}, fitted)
     np.testing.assert_array_equal(output(loaded, X), output(estimator, X))
+
+
+@pytest.mark.parametrize("name", NAMES)
+def test_docstring_documents_every_parameter(name):
+    # numpydoc convention (common practice): the Parameters section lists the
+    # constructor's parameters, no more and no fewer
+    import re
+
+    cls = dict(all_estimators())[name]
+    doc = cls.__doc__
+    section = doc[doc.index("Parameters\n"):doc.index("Attributes\n")]
+    documented = re.findall(r"^    (\w+) : ", section, re.MULTILINE)
+    assert sorted(documented) == sorted(cls().get_params()), name
