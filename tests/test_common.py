@@ -161,3 +161,19 @@ def test_docstring_documents_every_parameter(name):
     section = doc[doc.index("Parameters\n"):doc.index("Attributes\n")]
     documented = re.findall(r"^    (\w+) : ", section, re.MULTILINE)
     assert sorted(documented) == sorted(cls().get_params()), name
+
+
+@pytest.mark.parametrize("name", NAMES)
+def test_repr_of_a_pipeline_shows_every_step(name):
+    # scikit-learn cuts a repr of more than 700 non-blank characters
+    # (BaseEstimator.__repr__, N_CHAR_MAX) in the middle; a 600-point grid
+    # printed in full (about 7000 characters) would hide the other steps.
+    from sklearn.linear_model import Ridge
+    from sklearn.pipeline import make_pipeline
+
+    key = "grid" if ESTIMATOR_CASES[name]["curve_input"] else "response_grid"
+    estimator = dict(all_estimators())[name](**{key: np.linspace(0, 1, 600)})
+    text = repr(make_pipeline(estimator, Ridge()))
+    assert len("".join(text.split())) < 700
+    assert "shape=(600,)" in text and "('ridge', Ridge())" in text
+    assert np.get_printoptions()["threshold"] == 1000  # numpy's default kept
