@@ -125,6 +125,8 @@ class Basis(ABC):
         r = self.null_dimension(order)
         if r == self.n_basis:
             return np.eye(self.n_basis)
+        if r == 0:
+            return np.zeros((self.n_basis, 0))
         self.check_derivative(order, name="penalty_order")
         return self._null_space(r)
 
