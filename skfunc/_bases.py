@@ -26,9 +26,9 @@ import warnings
 from abc import ABC, abstractmethod
 
 import numpy as np
-from scipy.linalg import solve
 from numpy.polynomial import legendre as npleg
 from scipy.interpolate import BSpline
+from scipy.linalg import solve
 
 
 class Basis(ABC):

@@ -1,10 +1,22 @@
+import warnings
+
 import numpy as np
 import pytest
 from numpy.polynomial import legendre as npleg
+from numpy.polynomial.legendre import legvander
 from scipy.integrate import quad
 from scipy.interpolate import BSpline
 
-from skfunc._bases import BSplineBasis, FourierBasis, LegendreBasis, make_basis
+from skfunc._bases import (
+    BSplineBasis,
+    FourierBasis,
+    IllConditionedFitWarning,
+    LegendreBasis,
+    check_unpenalized_fit,
+    default_n_basis,
+    default_period,
+    make_basis,
+)
 
 
 @pytest.mark.parametrize(
@@ -102,14 +114,6 @@ def test_errors():
 
 # -- exact null spaces, unit-domain matrices, defaults ----------------------
 
-from numpy.polynomial.legendre import legvander  # noqa: E402
-
-from skfunc._bases import (  # noqa: E402
-    IllConditionedFitWarning,
-    check_unpenalized_fit,
-    default_n_basis,
-    default_period,
-)
 
 
 @pytest.mark.parametrize(
@@ -230,8 +234,6 @@ def test_unpenalized_near_interpolation_warns(rng):
     assert np.isclose(cond, ref, rtol=1e-4)
     small = BSplineBasis((0.0, 1.0), default_n_basis("bspline", t.size))
     phi = small.evaluate(t)
-    import warnings
-
     with warnings.catch_warnings():
         warnings.simplefilter("error")
         check_unpenalized_fit((phi * w[:, None]).T @ phi, small.gram())

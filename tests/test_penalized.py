@@ -1,14 +1,19 @@
 import numpy as np
 import pytest
 
-from skfunc._bases import BSplineBasis
+from skfunc._bases import BSplineBasis, FourierBasis, make_basis
 from skfunc._penalized import (
     NotIdentifiableError,
     PenalizedPath,
+    SplitPath,
     centered,
     cross_products,
+    engine_alpha,
     gcv_score,
     merge,
+    penalty_for,
+    penalty_scale,
+    power_of_two_scale,
 )
 
 
@@ -97,14 +102,6 @@ def test_huge_alpha_limit_is_least_squares_on_the_penalty_null_space(problem):
 
 # -- the split engine -------------------------------------------------------
 
-from skfunc._bases import FourierBasis, LegendreBasis, make_basis  # noqa: E402
-from skfunc._penalized import (  # noqa: E402
-    SplitPath,
-    engine_alpha,
-    penalty_for,
-    penalty_scale,
-    power_of_two_scale,
-)
 
 
 def _ridge_problem(rng, grid, basis, n=80, scale_x=1.0):
