@@ -92,9 +92,28 @@ def check_alpha(alpha, name="alpha"):
     return np.sort(arr)
 
 
-def _edf_above_null(path, lam):
-    s = path.s
-    return (s / (s + lam[:, None])).sum(axis=1)
+def _log_lambda_for_edf(s, targets):
+    """``x = log lam`` with ``sum_k s_k / (s_k + e^x) = target``, per target.
+
+    The function falls monotonically in x; a 256-point log grid brackets each
+    root, then safeguarded Newton steps (derivative ``-sum s e^x / (s + e^x)^2``)
+    converge to rounding. Vectorised over targets: a dozen array operations.
+    """
+    targets = np.asarray(targets, dtype=np.float64)
+    grid = np.linspace(np.log(s.min()) - 12.0, np.log(s.sum()) + 12.0, 256)
+    edf = (s / (s + np.exp(grid)[:, None])).sum(axis=1)  # decreasing
+    j = np.clip(np.searchsorted(-edf, -targets), 1, grid.size - 1)
+    lo, hi = grid[j - 1], grid[j]
+    x = (lo + hi) / 2
+    for _ in range(12):
+        e = np.exp(x)[:, None]
+        f = (s / (s + e)).sum(axis=1) - targets
+        df = -(s * e / (s + e) ** 2).sum(axis=1)
+        lo = np.where(f > 0, x, lo)
+        hi = np.where(f > 0, hi, x)
+        step = x - f / np.where(df < 0, df, -np.inf)
+        x = np.where((step >= lo) & (step <= hi), step, (lo + hi) / 2)
+    return x
 
 
 def candidate_alphas(path, n_alphas=N_ALPHAS, margin=EDF_MARGIN):
@@ -104,30 +123,18 @@ def candidate_alphas(path, n_alphas=N_ALPHAS, margin=EDF_MARGIN):
     null space (``edf = r + margin``: nearly the null-space fit, a straight
     line for a second-derivative penalty); the smallest leaves ``margin``
     below the identified dimension ``r + #(s > 0)`` (nearly the unpenalized
-    fit). Both ends are found by bisection on the exact ``edf`` from the
-    decomposition's eigenvalues, so they do not depend on the grid's units
-    or resolution. Returned in user units (ascending).
+    fit). Both ends solve the exact ``edf`` from the decomposition's
+    eigenvalues, so they do not depend on the grid's units or resolution.
+    Returned in user units (ascending).
     """
     s = path.s
     positive = s[s > 0]
     if positive.size == 0:
         # nothing the penalty acts on is seen by the data: every alpha fits alike
         return np.logspace(-2, 2, n_alphas)
-    n_pos = positive.size
-    margin = min(margin, n_pos / 4)
-
-    def solve(target):  # lam with edf_above_null(lam) = target, bisection in log
-        lo, hi = np.log(positive.min()) - 40.0, np.log(positive.sum()) + 40.0
-        for _ in range(100):
-            mid = (lo + hi) / 2
-            if _edf_above_null(path, np.exp([mid]))[0] > target:
-                lo = mid
-            else:
-                hi = mid
-        return np.exp((lo + hi) / 2)
-
-    high, low = solve(margin), solve(n_pos - margin)
-    return np.logspace(np.log10(low), np.log10(high), n_alphas) / path.scale
+    margin = min(margin, positive.size / 4)
+    high, low = _log_lambda_for_edf(positive, [margin, positive.size - margin])
+    return np.exp(np.linspace(low, high, n_alphas)) / path.scale
 
 
 def best_index(scores, alphas, *, criterion="GCV", warn=True):
