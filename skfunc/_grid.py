@@ -236,3 +236,29 @@ def quadrature_weights(grid, quadrature="trapezoid"):
         w[-2] += (h1**2 + 3 * h0 * h1) / (6 * h0)
         w[-3] -= h1**3 / (6 * h0 * (h0 + h1))
     return w
+
+
+#: data terms of a smoother: mean squared error over the observed points
+#: (measurement noise, the default) or the quadrature-weighted L2 distance
+DATA_TERMS = ("mean", "integral")
+
+
+def data_weights(grid, data_term="mean", observed=None):
+    """Weights of a smoother's data term ``sum_j w_j (x_j - f(t_j))^2``.
+
+    ``"mean"``: ``w_j = 1 / n_obs`` on the observed points, the mean squared
+    error -- noise of the same variance at every observation, the usual
+    measurement model, and what generalized cross-validation assumes
+    (Craven and Wahba 1979). ``"integral"``: trapezoid weights, so the data
+    term approximates ``int (x - f)^2`` for curves known as functions (noise
+    variance then effectively grows where points are dense). ``observed`` is
+    a boolean mask of the observed points (None: all).
+    """
+    if data_term not in DATA_TERMS:
+        raise ValueError(f"data_term must be one of {DATA_TERMS}; got {data_term!r}.")
+    grid = check_grid(grid)
+    mask = np.ones(grid.size, bool) if observed is None else np.asarray(observed, bool)
+    if data_term == "integral":
+        return quadrature_weights(grid) * mask
+    count = mask.sum()
+    return mask / count if count else mask.astype(np.float64)

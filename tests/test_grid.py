@@ -137,3 +137,18 @@ def test_other_labels_keep_the_even_default_and_mixtures_fail():
     tz = [pd.Timestamp("2024-01-01", tz="UTC"), pd.Timestamp("2024-01-02")]
     with pytest.raises(ValueError, match="cannot be compared"):
         grid_from_labels(tz)
+
+
+def test_data_weights():
+    # The mean data term weighs every observed point alike (1 / n_obs); the
+    # integral data term is the trapezoid rule (scipy.integrate.trapezoid).
+    from skfunc._grid import data_weights
+
+    t = np.array([0.0, 0.1, 0.5, 1.0])
+    np.testing.assert_allclose(data_weights(t), 0.25)
+    mask = np.array([True, False, True, True])
+    np.testing.assert_allclose(data_weights(t, observed=mask), mask / 3)
+    y = np.array([1.0, 2.0, 0.5, 3.0])
+    assert np.isclose(data_weights(t, "integral") @ y, trapezoid(y, x=t))
+    with pytest.raises(ValueError, match="data_term must be one of"):
+        data_weights(t, "sum")
