@@ -129,14 +129,24 @@ def candidate_alphas(path, n_alphas=N_ALPHAS, margin=EDF_MARGIN):
     eigenvalues, so they do not depend on the grid's units or resolution.
     Returned in user units (ascending).
     """
-    s = path.s
+    return candidates_from_eigenvalues(path.s, path.scale, n_alphas, margin)
+
+
+def candidates_from_eigenvalues(s, scale, n_alphas=N_ALPHAS, margin=EDF_MARGIN):
+    """:func:`candidate_alphas` from the data eigenvalues ``s`` of the
+    penalized directions (engine units, ``edf = r + sum s / (s + lam)``) and
+    the engine weight ``scale`` of alpha = 1; for problems whose
+    decomposition is not one :class:`~skfunc._penalized.SplitPath` (a
+    Kronecker-structured curve response: ``s`` the products of design and
+    response eigenvalues)."""
+    s = np.ravel(np.asarray(s, dtype=np.float64))
     positive = s[s > 0]
     if positive.size == 0:
         # nothing the penalty acts on is seen by the data: every alpha fits alike
         return np.logspace(-2, 2, n_alphas)
     margin = min(margin, positive.size / 4)
     high, low = _log_lambda_for_edf(positive, [margin, positive.size - margin])
-    return np.exp(np.linspace(low, high, n_alphas)) / path.scale
+    return np.exp(np.linspace(low, high, n_alphas)) / scale
 
 
 def best_index(scores, alphas, *, criterion="GCV", warn=True):
@@ -247,16 +257,26 @@ def reml_criterion(path, rotated, yy, n_obs, alphas, *, extra_null=0, pooled=Fal
     dof = n_obs - path.n_null - extra_null
     d_p = yy[:, None] - path.penalized_rss_reduction(rotated, alphas)
     logdet = path.log_det_ratio(alphas)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        if pooled:
-            k = rotated.shape[0]
-            total = k * dof
-            dp = np.maximum(d_p.sum(axis=0), 0.0)
-            out = total * (np.log(2 * np.pi * dp / total) + 1) + k * logdet
-            return np.where((dof > 0) & (dp > 0), out, np.inf)
-        out = dof * (np.log(2 * np.pi * np.maximum(d_p, 0.0) / dof) + 1) + logdet
-    out = np.where((dof > 0) & (d_p > 0), out, np.inf)
+    if pooled:
+        k = rotated.shape[0]
+        return reml_score(d_p.sum(axis=0), k * dof, k * logdet)
+    out = reml_score(d_p, dof, logdet)
     return out[0] if out.shape[0] == 1 else out
+
+
+def reml_score(penalized_rss, dof, log_det_ratio):
+    """``-2 l_R = dof (log(2 pi D_p / dof) + 1) + log_det_ratio`` (see
+    :func:`reml_criterion`); inf where undefined (``dof <= 0`` or ``D_p <= 0``).
+
+    The building block for problems whose decomposition is not one
+    :class:`~skfunc._penalized.SplitPath`: ``dof = n - (unpenalized
+    parameters)``, ``log_det_ratio = sum log(1 + s / lam)`` over the
+    penalized directions.
+    """
+    d_p = np.maximum(np.asarray(penalized_rss, dtype=np.float64), 0.0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        out = dof * (np.log(2 * np.pi * d_p / dof) + 1) + log_det_ratio
+    return np.where((np.asarray(dof) > 0) & (d_p > 0), out, np.inf)
 
 
 def choose_alpha(path, rotated, yy, n_obs, alpha=AUTO, *, criterion="gcv",
