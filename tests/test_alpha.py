@@ -271,3 +271,28 @@ def test_criteria_are_scale_safe(rng, criterion):
         assert np.all(np.isfinite(out["criterion"]))
         chosen.append(out["alpha"])
     assert chosen[0] == chosen[1] == chosen[2]
+
+
+@pytest.mark.parametrize("criterion", ["gcv", "reml"])
+def test_automatic_choice_does_not_depend_on_units(criterion):
+    # Change of variables t -> a + c t, X -> s X (calculus): the automatic
+    # choice and the predictions are the same (relative 1e-8) for a
+    # scalar-outcome ridge on [0, 1], on minutes 0..600 and on a grid in
+    # seconds with the curves in other units.
+    out = []
+    for a, c, s in [(0.0, 1.0, 1.0), (0.0, 600.0, 1.0), (3600.0, 36000.0, 1e-6)]:
+        rng = np.random.default_rng(5)
+        u = np.linspace(0, 1, 81)
+        grid = a + c * u
+        X = s * rng.normal(size=(70, 6)) @ np.sin(np.outer(np.arange(1, 7), np.pi * u))
+        y = (X / s) @ (np.gradient(u) * np.sin(np.pi * u)) + 0.1 * rng.normal(size=70)
+        basis = BSplineBasis((grid[0], grid[-1]), 15)
+        Z = (X * np.gradient(grid)) @ basis.evaluate(grid)
+        Zc, yc = Z - Z.mean(axis=0), y - y.mean()
+        path = SplitPath(Zc.T @ Zc, penalty_for(basis, 2))
+        r = path.rotate(Zc.T @ yc)
+        chosen = choose_alpha(path, r, yc @ yc, 70, criterion=criterion, extra_edf=1, warn=False)
+        out.append((chosen["alpha"], Zc @ path.coef(r, chosen["alpha"])))
+    for alpha, pred in out[1:]:
+        assert np.isclose(alpha, out[0][0], rtol=1e-8)
+        np.testing.assert_allclose(pred, out[0][1], rtol=1e-8, atol=1e-10 * np.abs(out[0][1]).max())
