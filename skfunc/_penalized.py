@@ -14,6 +14,14 @@ roughness matrix ``P``. One simultaneous diagonalisation of ``G`` and ``P``
 so coefficients, effective degrees of freedom ``sum mu / d`` and residual sums
 of squares for a whole grid of alphas cost O(K) per right-hand side and alpha.
 
+:class:`SplitPath` is the same path in the basis split into the penalty's
+null space and its complement (:class:`Penalty`, from the basis' exact null
+space), so the null space is exactly unpenalized at any alpha, and with the
+user's alpha made unit-free by :func:`engine_alpha` (the penalty on the
+domain mapped to [0, 1], weighed by the largest eigenvalue of the data's
+cross products against the unit-domain Gram matrix). :class:`PenalizedPath`
+remains for the estimators not yet moved to it.
+
 What a fit needs from the data is additive over rows (:func:`cross_products`,
 :func:`merge`), so in-memory fits, ``partial_fit`` and distributed fits share
 one path: statistics per chunk, merge, solve.
