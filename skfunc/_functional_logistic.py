@@ -20,10 +20,10 @@ from sklearn.utils.class_weight import compute_sample_weight
 from sklearn.utils.multiclass import check_classification_targets
 from sklearn.utils.validation import _check_sample_weight
 
+from ._alpha import ALPHA_CONSTRAINT, check_alpha
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._integrated_design import (
-    ALPHA_CONSTRAINT,
     DESIGN_CONSTRAINTS,
     IntegratedDesignMixin,
 )
@@ -31,9 +31,9 @@ from ._logistic_path import (
     NULL_SPACE_RIDGE,
     LogisticProblem,
     coef_covariance,
-    penalty_split,
+    split_coordinates,
 )
-from ._penalized import centered, cross_products
+from ._penalized import centered, cross_products, penalty_for, penalty_scale
 
 
 @fill_doc
@@ -49,13 +49,14 @@ class FunctionalLogisticRegression(
 
     Parameters
     ----------
-    alpha : "auto" or float, default="auto"
+    alpha : "auto", float or array-like of shape (n_alphas,), default="auto"
         Weight of the roughness penalty. ``"auto"`` chooses it from the
         training data: the fit is computed along candidate alphas spanning
         the effective degrees of freedom, from nearly the null-space fit (a
         straight line for ``penalty_order=2``) to nearly the whole basis, and
         the one with the smallest unbiased risk estimate (UBRE) is kept; see
         Notes. A number fixes it; 0 means unpenalized maximum likelihood.
+        An array of positive numbers is the candidates to choose from.
         The penalty is measured on the domain mapped to [0, 1] and against
         the spread of the data (Notes), so a value means the same smoothing
         whatever the grid's unit or origin and the scale of X.
@@ -78,9 +79,9 @@ class FunctionalLogisticRegression(
     alpha_ : float
         The roughness penalty used: the chosen one with ``alpha="auto"``,
         else ``alpha``.
-    alpha_path_ : ndarray of shape (n_alphas,)
+    alphas_ : ndarray of shape (n_alphas,)
         Candidate alphas, ascending (just ``alpha`` when it is a number).
-    criterion_path_ : ndarray of shape (n_alphas,)
+    criterion_ : ndarray of shape (n_alphas,)
         UBRE of the fit at each candidate alpha (smaller is better).
     edf_path_ : ndarray of shape (n_alphas,)
         Effective degrees of freedom of the fit at each candidate alpha,
@@ -123,11 +124,14 @@ class FunctionalLogisticRegression(
     -----
     The objective is ``sum_i w_i l_i + (alpha s / 2) int_0^1 (D^q beta)^2``
     (``l_i`` the negative log-likelihood of curve ``i``, beta mapped to the
-    unit domain) with ``s = trace(G) / trace(P01)``: ``G`` the centred,
-    sample-weighted cross products of the integrated design and ``P01`` the
-    roughness matrix of the basis on [0, 1]. Both scale alike when the grid
-    changes unit or X changes scale, so fits at a fixed alpha do not change
-    (common to every skfunc estimator). It is minimised by Newton's method
+    unit domain) with ``s`` the largest eigenvalue of ``G``, the centred,
+    sample-weighted cross products of the integrated design, relative to
+    the Gram matrix of the basis on [0, 1]: the definition of alpha shared
+    by every skfunc estimator (see :doc:`/bases_and_penalties`), the
+    Gaussian case of which is the mean squared error plus ``alpha s`` times
+    the roughness. ``s`` and the data term scale alike when the grid changes
+    unit or X changes scale, so fits at a fixed alpha do not change, and
+    ``s`` hardly moves with ``n_basis``. It is minimised by Newton's method
     (penalized iteratively reweighted least squares) in coordinates where
     the penalty is exactly diagonal (Demmler and Reinsch, 1975): the
     intercept and the penalty's null space (functions with ``D^q beta = 0``)
@@ -148,9 +152,10 @@ class FunctionalLogisticRegression(
     ``edf = trace((H + S)^-1 H)`` (``H`` the likelihood's Hessian, ``S`` the
     penalty's; ``n`` the weight total): Craven and Wahba's criterion for a
     known dispersion, 1 for class labels, applied to penalized likelihood as
-    in O'Sullivan, Yandell and Raynor (1986), Gu (1992) and Wood (2008). Ties
-    go to the larger alpha; a warning names the end of the candidates when
-    the choice is there.
+    in O'Sullivan, Yandell and Raynor (1986), Gu (1992) and Wood (2008). The
+    candidates and the choice follow the rules of every skfunc estimator:
+    ties go to the larger alpha, and an ``AlphaAtEdgeWarning`` names the end
+    of the candidates when the choice is there.
 
     The multinomial model uses one coefficient set per class and the
     centered solution (sum over classes zero), as the softmax leaves a
@@ -197,13 +202,13 @@ class FunctionalLogisticRegression(
     >>> clf = FunctionalLogisticRegression().fit(X, y)
     >>> clf.predict_proba(X[:2]).shape
     (2, 2)
-    >>> bool(clf.alpha_path_[0] <= clf.alpha_ <= clf.alpha_path_[-1])
+    >>> bool(clf.alphas_[0] <= clf.alpha_ <= clf.alphas_[-1])
     True
     """
 
     _parameter_constraints = {
         **DESIGN_CONSTRAINTS,
-        "alpha": [StrOptions({"auto"}), *ALPHA_CONSTRAINT],
+        "alpha": ALPHA_CONSTRAINT,
         "class_weight": [dict, StrOptions({"balanced"}), None],
         "max_iter": [Interval(Integral, 1, None, closed="left")],
         "tol": [Interval(Real, 0, None, closed="left")],
@@ -250,21 +255,22 @@ class FunctionalLogisticRegression(
 
     def _solve(self, Z, Y, sample_weight, basis):
         k = basis.n_basis
-        penalty = self._penalty(basis)[:k, :k]
+        alpha = check_alpha(self.alpha)
         stats = cross_products(Z, Y, sample_weight)
-        if self._fixed_alpha() == 0:
+        if isinstance(alpha, float) and alpha == 0:
             gram = centered(stats)[0] if self.fit_intercept else stats["zz"]
             self._checked_path(gram, self._penalty(basis), 0.0, stats["n"])
-        transform, n_null, penalty01 = penalty_split(basis, self.penalty_order, penalty)
+        penalty = penalty_for(basis, self.penalty_order)
+        transform, n_null = split_coordinates(basis, penalty), penalty.n_null
         lead = int(self.fit_intercept)
         z_mean = stats["z_sum"] / stats["sw"] if lead else np.zeros(Z.shape[1])
         Zc = Z - z_mean
         D = np.hstack([np.ones((len(Z), lead)), Zc[:, :k] @ transform, Zc[:, k:]])
-        # alpha = 1 weighs the roughness on [0, 1] like the variance of the
-        # integrated design: trace(G) / trace(P01), G its centred cross products
-        trace_g = float(sample_weight @ np.sum(Zc[:, :k] ** 2, axis=1))
-        trace_p = np.trace(penalty01)
-        scale = trace_g / trace_p if trace_g > 0 and trace_p > 0 else 1.0
+        # the one definition of alpha (skfunc._penalized.penalty_scale): the
+        # roughness on [0, 1] weighed by the largest eigenvalue of the centred
+        # data Gram matrix relative to the unit-domain Gram matrix
+        weighted = Zc[:, :k] * sample_weight[:, None]
+        scale = penalty_scale(weighted.T @ Zc[:, :k], penalty)
         size = sample_weight @ D**2
         ridge = np.zeros(D.shape[1])
         null = slice(lead, lead + n_null)
@@ -278,17 +284,17 @@ class FunctionalLogisticRegression(
             D, Y, sample_weight, (lead, n_null, k - n_null, Z.shape[1] - k),
             scale, ridge,
         )
-        auto = isinstance(self.alpha, str)
-        alphas = problem.candidate_alphas() if auto else np.array([self.alpha])
+        if isinstance(alpha, str):
+            alphas = problem.candidate_alphas()
+        else:
+            alphas = np.atleast_1d(alpha)
         fit = problem.path(alphas, self.tol, self.max_iter)
         j, theta, hess, converged = fit["best"], fit["theta"], fit["hess"], fit["converged"]
         self.alpha_ = float(alphas[j])
-        self.alpha_path_ = alphas
-        self.criterion_path_ = fit["criterion"]
+        self.alphas_ = alphas
+        self.criterion_ = fit["criterion"]
         self.edf_path_ = fit["edf"]
         self.n_iter_ = fit["n_iter"]
-        if alphas.size > 1 and j in (0, alphas.size - 1):
-            _warn_edge(self, j == 0, alphas, fit["edf"][j])
         self._warn_convergence(converged, D @ theta.T, sample_weight)
         n_out = theta.shape[0]
         covariance = coef_covariance(problem, theta, hess, self.alpha_)
@@ -303,9 +309,6 @@ class FunctionalLogisticRegression(
         intercept = theta[:, 0] - coef @ z_mean if lead else np.zeros(n_out)
         self._set_coefficients(basis, coef, intercept, blocks, squeeze=False)
         return self
-
-    def _fixed_alpha(self):
-        return None if isinstance(self.alpha, str) else self.alpha
 
     def _warn_convergence(self, converged, eta, sample_weight):
         if not converged:
@@ -386,26 +389,3 @@ def _saturated(eta, sample_weight, eps=1e-12):
     log_prob = eta - logsumexp(eta, axis=1, keepdims=True)
     rows = sample_weight > 0
     return bool(np.any(log_prob[rows] < np.log(eps)))
-
-
-def _warn_edge(estimator, smallest, alphas, edf):
-    """Warn that the chosen alpha is at an end of the candidates."""
-    if smallest:
-        where, advice = "smallest", (
-            "the data ask for less smoothing than the candidates offer: a "
-            "larger n_basis, or a smaller alpha passed as a number, may fit "
-            "better."
-        )
-    else:
-        where, advice = "largest", (
-            "the data support little more than the penalty's null space (for "
-            "penalty_order=2, a straight line); a larger alpha changes the fit "
-            "little."
-        )
-    warnings.warn(
-        f"{type(estimator).__name__}: the chosen alpha_={alphas[0 if smallest else -1]:.3g} "
-        f"is the {where} of the {alphas.size} candidate alphas ({edf:.2f} "
-        f"effective degrees of freedom); {advice}",
-        UserWarning,
-        stacklevel=4,
-    )

@@ -28,19 +28,16 @@ from scipy.linalg import (
     cho_factor,
     cho_solve,
     cholesky,
-    eigh,
     solve_triangular,
 )
 from scipy.special import expit
 from threadpoolctl import ThreadpoolController
 
+from ._alpha import best_index, candidates_from_eigenvalues
+
 #: Ridge on the penalty's null space (and on scalar covariates), relative to
 #: the design's own variance there; see FunctionalLogisticRegression's Notes.
 NULL_SPACE_RIDGE = 1e-4
-
-#: eigenvalues of the roughness matrix (relative to the Gram matrix, on the
-#: unit domain) below this fraction of the largest are its null space
-_NULL_RCOND = 1e-9
 
 #: number of candidate alphas of ``alpha="auto"``
 N_ALPHAS = 12
@@ -52,57 +49,22 @@ N_ALPHAS = 12
 #: small ones, at half the Newton iterations (at most 2x a fixed-alpha fit)
 PATH_TOL = 1e-1
 
-#: effective degrees of freedom of the penalized part at the ends of the
-#: candidates: from nearly the null-space fit to nearly the full basis
-_EDF_ENDS = (0.05, 0.95)
 
+def split_coordinates(basis, penalty):
+    """``c = transform @ theta`` with the penalty exactly diagonal in theta.
 
-def penalty_split(basis, order, penalty):
-    """Coordinates in which the roughness penalty on [0, 1] is exactly diagonal.
-
-    Solves the generalized eigenproblem of the roughness matrix and the Gram
-    matrix, both for the basis mapped to the unit domain (Demmler and
-    Reinsch, 1975). Eigenvalues below ``_NULL_RCOND`` times the largest are
-    the penalty's null space (for a second-derivative penalty on B-splines,
-    the constant and linear functions); they are set to exactly zero, so the
-    null space is never shrunk, whatever alpha.
-
-    Parameters
-    ----------
-    basis : Basis
-        The basis of beta on the grid's domain.
-    order : int
-        Derivative order q of the roughness penalty.
-    penalty : ndarray of shape (K, K)
-        Roughness matrix ``int D^q phi D^q phi'`` of ``basis`` on its domain.
-
-    Returns
-    -------
-    transform : ndarray of shape (K, K)
-        ``c = transform @ theta``: the first ``n_null`` columns span the null
-        space, orthonormal in L2 of the unit domain; the others have unit
-        roughness on the unit domain and are L2-orthogonal to the null space.
-    n_null : int
-        Dimension of the null space.
-    penalty01 : ndarray of shape (K, K)
-        The roughness matrix on the unit domain.
-
-    Notes
-    -----
-    This is the one place the null-space split is computed for the logistic
-    model; a shared engine function returning the same can replace it.
+    The engine's split (:class:`~skfunc._penalized.Penalty`: exact null
+    space, whitened complement with ``T_C' P01 T_C = I``) with its null-space
+    columns made orthonormal in L2 of the unit domain, so that the
+    null-space ridge weighs every function of the null space alike.
     """
-    a, b = basis.domain
-    length = b - a
-    # t = a + length * u: D_t^q = length^-q D_u^q and dt = length du
-    penalty01 = penalty * length ** (2 * order - 1)
-    gram01 = basis.gram() / length
-    values, vectors = eigh(penalty01, gram01)
-    top = max(values[-1], 0.0)
-    null = values <= _NULL_RCOND * top if top > 0 else np.ones(values.size, bool)
-    # eigh sorts ascending: the null space comes first
-    scaled = vectors[:, ~null] / np.sqrt(values[~null])
-    return np.hstack([vectors[:, null], scaled]), int(null.sum()), penalty01
+    transform = penalty.transform.copy()
+    r = penalty.n_null
+    if r:
+        null = transform[:, :r]
+        lower = np.linalg.cholesky(null.T @ basis.unit_gram() @ null)
+        transform[:, :r] = solve_triangular(lower, null.T, lower=True).T
+    return transform
 
 
 def newton_statistics(D, Y, sample_weight, theta, derivatives=True):
@@ -172,8 +134,8 @@ class LogisticProblem:
     blocks : tuple of int
         Numbers of columns ``(lead, null, penalized, covariates)``.
     roughness_scale : float
-        ``trace(G) / trace(P01)``: an alpha of 1 weighs the roughness like
-        the data's variance.
+        Weight of the roughness at ``alpha = 1``:
+        :func:`~skfunc._penalized.penalty_scale` of the centred design.
     ridge : ndarray of shape (p,)
         The null-space ridge on every column (zero on the intercept and the
         penalized columns).
@@ -293,14 +255,15 @@ class LogisticProblem:
         deviance = 2 * float(w @ _row_loss(self.D @ theta.T, self.Y))
         return (deviance + 2 * edf) / w.sum() - 1.0, edf
 
-    def path(self, alphas, tol, max_iter, path_tol=None):
+    def path(self, alphas, tol, max_iter, path_tol=None, warn=True):
         """Fit at every alpha, largest first, each fit starting from the last.
 
         ``alphas`` is ascending. The fits along the path stop at the looser
         ``max(tol, path_tol)``; the chosen one is then refined to ``tol``.
 
         Returns a dict: ``criterion`` and ``edf`` (one per alpha), ``best``
-        (index of the smallest finite criterion, ties to the larger alpha),
+        (:func:`~skfunc._alpha.best_index`, which warns when it is an end of
+        several candidates and ``warn``),
         ``theta``, ``hess`` and ``converged`` of the fit there, and ``n_iter``
         (Newton iterations in all).
         """
@@ -321,7 +284,11 @@ class LogisticProblem:
                 n_iter += it
                 criterion[j], edf[j] = self.ubre(alphas[j], theta, hess, quadratic)
                 fits[j] = theta
-            best = alphas.size - 1 - best_index(criterion[::-1])
+            best = (
+                best_index(criterion, alphas, criterion="UBRE", warn=warn)
+                if alphas.size > 1
+                else 0
+            )
             if loose > tol or best != 0:  # the last fit made is at index 0
                 theta, it, converged, hess, _ = self.newton(
                     alphas[best], fits[best], tol, max_iter
@@ -340,10 +307,11 @@ class LogisticProblem:
     def candidate_alphas(self, n_alphas=None):
         """Log-spaced alphas spanning the effective degrees of freedom.
 
-        From the least-squares effective degrees of freedom of the penalized
-        columns (after the unpenalized ones), with the logistic curvature of
-        the intercept-only fit: the largest alpha leaves about 0.05 of them
-        (nearly the null-space fit), the smallest about 0.95 of their rank.
+        The engine's candidates (:func:`~skfunc._alpha.candidates_from_eigenvalues`)
+        for the eigenvalues of the penalized columns after the unpenalized
+        ones are profiled out, weighted by the logistic curvature of the
+        intercept-only fit: from nearly the null-space fit to nearly the
+        full basis.
         """
         n_alphas = N_ALPHAS if n_alphas is None else n_alphas
         D, w = self.D, self.sample_weight
@@ -357,22 +325,11 @@ class LogisticProblem:
             pen = pen - free @ coef
         mu = np.linalg.eigvalsh((pen * w[:, None]).T @ pen)
         mu = mu[mu > 1e-12 * max(mu[-1], np.finfo(float).tiny)]
-        if mu.size == 0:
-            return np.array([1.0])
         freq = w @ self.Y / w.sum()
-        curvature = float(np.mean(freq * (1 - freq)))
-        mu = mu * max(curvature, 1e-3) / self.roughness_scale
-
-        # edf(alpha) = sum mu / (mu + alpha) falls with log alpha: tabulate it
-        # finely (steps of 0.01 in log alpha) and interpolate the ends
-        log_alpha = np.arange(np.log(mu[0]) - 10, np.log(mu[-1]) + 10, 0.01)
-        edf = (mu / (mu + np.exp(log_alpha)[:, None])).sum(axis=1)
-
-        def alpha_for(target):
-            return np.exp(np.interp(-target, -edf, log_alpha))
-
-        low, high = _EDF_ENDS
-        return np.geomspace(alpha_for(high * mu.size), alpha_for(low), n_alphas)
+        curvature = max(float(np.mean(freq * (1 - freq))), 1e-3)
+        return candidates_from_eigenvalues(
+            mu * curvature, self.roughness_scale, n_alphas
+        )
 
 
 def _logsumexp(eta):
@@ -439,19 +396,3 @@ def coef_covariance(problem, theta, hess, alpha):
         inverse = inverse - inverse.mean(axis=0, keepdims=True)
         inverse = inverse - inverse.mean(axis=2, keepdims=True)
     return inverse
-
-
-def best_index(criterion):
-    """Index of the smallest finite criterion; ties go to the larger alpha.
-
-    ``criterion`` is ordered by decreasing alpha, so the first minimum is
-    the largest alpha among ties. Raises ValueError when none is finite.
-    """
-    criterion = np.asarray(criterion, dtype=np.float64)
-    finite = np.isfinite(criterion)
-    if not finite.any():
-        raise ValueError(
-            "The criterion is not finite at any candidate alpha; pass a "
-            "number as alpha."
-        )
-    return int(np.argmin(np.where(finite, criterion, np.inf)))

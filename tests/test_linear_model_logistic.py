@@ -16,7 +16,7 @@ from sklearn.exceptions import ConvergenceWarning
 from sklearn.linear_model import LogisticRegression
 
 from skfunc import FunctionalLogisticRegression
-from skfunc._logistic_path import best_index
+from skfunc._alpha import AlphaAtEdgeWarning
 from skfunc.preprocessing import BasisFeatures
 
 T = np.linspace(0, 1, 101)
@@ -77,9 +77,10 @@ def test_vanishing_penalty_multinomial_equals_sklearn(rng):
 def test_identity_penalty_equals_sklearn_l2(rng, n_classes):
     # Source: sklearn.linear_model.LogisticRegression on BasisFeatures output.
     # With penalty_order=0 in the Fourier basis, orthonormal on [0, 1], the
-    # penalty is (alpha s / 2) ||c||^2 with s = trace(Zc'Zc) / trace(I_7)
-    # (Zc the centred design), i.e. scikit-learn's ||c||^2 / (2 C) with
-    # C = 1 / (alpha s); for three classes both use one (centered)
+    # penalty is (alpha s / 2) ||c||^2 with s the largest eigenvalue of
+    # Zc'Zc (Zc the centred design; the unit-domain Gram matrix is I_7), i.e.
+    # scikit-learn's ||c||^2 / (2 C) with C = 1 / (alpha s); a trace ratio
+    # trace(Zc'Zc) / 7 in its place would fail; for three classes both use one (centered)
     # coefficient set per class. No null space: no extra ridge.
     X, y = make_data(rng, n_classes=n_classes)
     alpha = 0.5
@@ -88,7 +89,7 @@ def test_identity_penalty_equals_sklearn_l2(rng, n_classes):
     ).fit(X, y)
     Z = BasisFeatures(basis="fourier", n_basis=7).fit_transform(X)
     Zc = Z - Z.mean(axis=0)
-    C = 1 / (alpha * np.trace(Zc.T @ Zc) / 7)
+    C = 1 / (alpha * np.linalg.eigvalsh(Zc.T @ Zc)[-1])
     ref = LogisticRegression(C=C, solver="newton-cg", tol=1e-12).fit(Z, y)
     np.testing.assert_allclose(ours.basis_coef_, ref.coef_, rtol=1e-5, atol=1e-7)
     np.testing.assert_allclose(ours.predict_proba(X), ref.predict_proba(Z), atol=1e-7)
@@ -208,7 +209,7 @@ def test_ubre_at_alpha_zero_equals_statsmodels_aic(rng):
     Z = sm.add_constant(legendre_design(X, 4))
     ref = sm.GLM((y == "sound").astype(float), Z, family=sm.families.Binomial()).fit()
     assert est.edf_path_[0] == pytest.approx(5, rel=1e-8)
-    assert est.criterion_path_[0] == pytest.approx(ref.aic / len(y) - 1, rel=1e-8)
+    assert est.criterion_[0] == pytest.approx(ref.aic / len(y) - 1, rel=1e-8)
 
 def test_auto_path_and_edge_warning(rng):
     # The candidates span the effective degrees of freedom: from nearly the
@@ -216,24 +217,16 @@ def test_auto_path_and_edge_warning(rng):
     # choice is the smallest criterion (ties to the larger alpha).
     X, y = make_data(rng, n=200)
     est = FunctionalLogisticRegression().fit(X, y)
-    assert np.all(np.diff(est.alpha_path_) > 0)
+    assert np.all(np.diff(est.alphas_) > 0)
     assert est.edf_path_[-1] < 3.2 < 6 < est.edf_path_.max()
-    best = np.flatnonzero(est.criterion_path_ == est.criterion_path_.min())[-1]
-    assert est.alpha_ == est.alpha_path_[best]
+    best = np.flatnonzero(est.criterion_ == est.criterion_.min())[-1]
+    assert est.alpha_ == est.alphas_[best]
     # labels unrelated to the curves: the best is the largest alpha (fewest
     # degrees of freedom), which is reported.
     noise = rng.integers(0, 2, size=200)
-    with pytest.warns(UserWarning, match="is the largest of the 12 candidate"):
+    with pytest.warns(AlphaAtEdgeWarning, match="UBRE choice is the largest"):
         est = FunctionalLogisticRegression().fit(X, noise)
-    assert est.alpha_ == est.alpha_path_[-1]
-
-def test_best_index_policy():
-    # ordered by decreasing alpha: ties go to the first (larger alpha),
-    # non-finite values are skipped, none finite is an error
-    assert best_index([3.0, 1.0, 1.0, 2.0]) == 1
-    assert best_index([np.nan, np.inf, 2.0, 5.0]) == 2
-    with pytest.raises(ValueError, match="not finite at any candidate"):
-        best_index([np.nan, np.inf])
+    assert est.alpha_ == est.alphas_[-1]
 
 def test_converges_quietly(rng):
     with warnings.catch_warnings():
