@@ -481,17 +481,19 @@ def _draw_figure(kiln, final, path, force, new_seed):
         raise FileExistsError(f"{path} already exists; pass --force to replace it.")
     minutes = kiln.minutes
     curves = final.named_steps["smooth"].transform(kiln.data)
-    fig = plt.figure(figsize=(15, 9), layout="constrained")
+    fig = plt.figure(figsize=(15, 10.5), layout="constrained")
     fig.suptitle(
         "skfunc demo on invented kiln-firing data (every number is invented)",
         fontsize="large",
     )
-    top, bottom = fig.subfigures(2, 1)
+    top, bottom = fig.subfigures(2, 1, height_ratios=[1.25, 1])
     ax_curves, ax_coef, ax_rates = top.subplots(1, 3)
     plotting.CurveBandDisplay.from_data(kiln.data, grid=minutes, max_curves=40,
                                         ax=ax_curves)
-    ax_curves.set(title=f"Training runs as logged ({len(kiln.data)}, every minute)",
+    ax_curves.set(title=f"Training runs as logged\n({len(kiln.data)} runs, "
+                        "every minute; NaN gaps are dropouts)",
                   xlabel="minute", ylabel="temperature (°C)")
+    _legend_below(ax_curves)
     _coefficient_panel(final, minutes, curves, kiln, ax_coef)
     _rates_panel(final, new_seed, ax_rates)
 
@@ -526,7 +528,8 @@ def _coefficient_panel(final, minutes, curves, kiln, ax):
         plotting.CoefficientFunctionDisplay.from_estimator(
             chosen, reference=kiln.coef_function, ax=ax
         )
-        ax.set_title("β(t) of the chosen pipeline (FunctionalRidgeCV)")
+        ax.set_title("Strength coefficient function β(t):\nthe chosen pipeline's "
+                     "FunctionalRidgeCV")
     else:
         # FPCA scores <x - mean, xi_k> into a linear model: the prediction is
         # the integral of x times sum_k c_k xi_k, the pipeline's own beta(t)
@@ -536,25 +539,36 @@ def _coefficient_panel(final, minutes, curves, kiln, ax):
         display = plotting.CoefficientFunctionDisplay.from_estimator(
             separate, reference=kiln.coef_function, ax=ax
         )
-        display.line_.set_label("separate FunctionalRidgeCV fit")
+        display.line_.set_label("separate FunctionalRidgeCV fit (for its band)")
         ax.plot(minutes, own, color="C1", linewidth=1.5,
                 label="chosen pipeline (FPCA + Ridge): Σ c_k ξ_k(t)")
-        ax.legend(loc="lower left", fontsize="small")
-        ax.set_title("β(t): chosen pipeline, and a FunctionalRidgeCV with its band")
+        ax.set_title("Strength coefficient function β(t):\nchosen pipeline and "
+                     "a separate FunctionalRidgeCV")
     ax.set(xlabel="minute", ylabel="MPa per °C·min")
+    _legend_below(ax)
 
 
 def _rates_panel(final, new_seed, ax):
-    """One new run as three kilns log it, with each prediction."""
+    """One new run as three kilns log it, around the older kiln's dropout,
+    with each kiln's predicted strength."""
     rates = logging_rates()
     logs = [make_kiln_firing(N_NEW_RUNS, minutes=minutes, dropout_fraction=dropouts,
                              random_state=new_seed)
             for _, minutes, dropouts in rates]
-    # the first new run that the older kiln logged with a dropout
-    i = int(np.flatnonzero(logs[2].has_dropout)[0])
-    styles = [{"linewidth": 3, "color": "0.75"},
-              {"linewidth": 0.8, "color": "C0"},
-              {"linestyle": "none", "marker": "o", "markersize": 2.5, "color": "C3"}]
+    # the first new run that the older kiln logged with a dropout, shown
+    # from 20 minutes before its first dropout to 20 minutes after it
+    old_minutes, old_log = rates[2][1], logs[2]
+    i = int(np.flatnonzero(old_log.has_dropout)[0])
+    lost = np.isnan(old_log.data[i])
+    first = int(np.flatnonzero(lost)[0])
+    after = np.flatnonzero(~lost[first:])
+    last = first + int(after[0]) - 1 if after.size else lost.size - 1
+    gap = (old_minutes[max(first - 1, 0)], old_minutes[min(last + 1, lost.size - 1)])
+    window = (max(gap[0] - 20.0, 0.0), min(gap[1] + 20.0, old_minutes[-1]))
+    styles = [{"linewidth": 4, "color": "0.8"},
+              {"linewidth": 0, "marker": ".", "markersize": 3, "color": "C0"},
+              {"linestyle": "none", "marker": "o", "markersize": 5, "color": "C3",
+               "markerfacecolor": "none"}]
     for k, ((label, minutes, _), log) in enumerate(zip(rates, logs)):
         X = log.data[i : i + 1]
         if k == 0:
@@ -562,11 +576,22 @@ def _rates_panel(final, new_seed, ax):
         else:
             resample = smoother_for_grid(final, minutes).fit(X)
             pred = final[1:].predict(resample.transform(X))[0]
-        ax.plot(minutes, X[0], label=f"{label}: predicted {pred:.1f} MPa", **styles[k])
-    ax.set(title=f"One new run as three kilns log it (true strength "
-                 f"{logs[0].strength[i]:.1f} MPa)",
+        shown = (minutes >= window[0]) & (minutes <= window[1])
+        ax.plot(minutes[shown], X[0, shown], label=f"{label}: predicted {pred:.1f} MPa",
+                **styles[k])
+    ax.axvspan(*gap, color="C3", alpha=0.08,
+               label="older kiln's thermocouple dropout")
+    ax.set(title=f"One new run as three kilns log it\n(true strength "
+                 f"{logs[0].strength[i]:.1f} MPa; minutes {window[0]:.0f}-{window[1]:.0f})",
            xlabel="minute", ylabel="temperature (°C)")
-    ax.legend(loc="lower center", fontsize="small")
+    _legend_below(ax)
+
+
+def _legend_below(ax):
+    """The legend under the panel, clear of its curves (the demo's panels
+    sit side by side, so there is no room beside them)."""
+    ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.2), fontsize="small",
+              frameon=False)
 
 
 def _summary(results, stream):
