@@ -632,7 +632,9 @@ def _summary(results, stream):
 
 def main(argv=None):
     parser = build_parser()
-    args = parser.parse_args(argv)
+    args, unknown = parser.parse_known_args(argv)
+    if unknown:  # reported with the usage line of the command they follow
+        args.command_parser.error(f"unrecognized arguments: {' '.join(unknown)}")
     if args.command == "demo":
         _check_paths(args.command_parser, args)
         # the demo's linear algebra is on small matrices, where BLAS threads

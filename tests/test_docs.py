@@ -12,6 +12,7 @@ pytest.importorskip("sphinx")
 pytest.importorskip("numpydoc")
 
 
+@pytest.mark.slow
 def test_docs_build_without_warnings(tmp_path):
     result = subprocess.run(
         [sys.executable, "-m", "sphinx", "-W", "--keep-going", "-q", "-E",

@@ -16,6 +16,7 @@ def test_there_are_kiln_examples():
     assert len(kiln) >= 4
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("script", EXAMPLES, ids=lambda p: p.name)
 def test_example_runs(script, tmp_path):
     env = dict(os.environ)
