@@ -1,5 +1,6 @@
-"""The same firing runs logged at three rates: plain PCA changes, functional
-PCA does not.
+"""
+The same firing runs logged at three rates: PCA changes, FunctionalPCA does not
+===============================================================================
 
 Invented kiln data. The same 80 runs are logged every minute, every 5
 minutes, and on an uneven schedule (dense during the ramp, sparse later).
@@ -52,4 +53,3 @@ for ax in axes:
 if args.output:
     fig.savefig(args.output, dpi=80)
     print(f"saved {args.output}")
-plt.show()

@@ -1,4 +1,6 @@
-"""Smoothing firing curves with dropouts, and their cooling rates.
+"""
+Smoothing firing curves with dropouts, and their cooling rates
+==============================================================
 
 Invented kiln data: each run logs the kiln temperature once a minute, and
 some thermocouples drop out for a few minutes (NaN). CurveSmoother fits every
@@ -54,4 +56,3 @@ axes[1].set(title="Heating / cooling rate", xlabel="minute", ylabel="°C per min
 axes[1].legend()
 AlphaCriterionDisplay.from_estimator(smoother, ax=axes[2], criterion_name="GCV")
 axes[2].set_title("Choice of the smoothing penalty")
-plt.show()

@@ -1,5 +1,8 @@
-"""The same kiln-firing runs logged at three rates: FunctionalRidgeCV against
-RidgeCV on the raw grid values (the table in docs/scalar_on_function.rst).
+"""
+Kiln runs logged at three rates: FunctionalRidgeCV against RidgeCV on raw values
+================================================================================
+
+The table in the user guide's scalar-on-function page comes from this script.
 
 Every number here is invented: runs ramp from 20 degC to a peak of
 1150-1250 degC, soak, and cool; flexural strength (MPa) grows with the
