@@ -21,7 +21,8 @@ from sklearn.decomposition import PCA
 from skfunc.datasets import make_kiln_firing
 from skfunc.decomposition import FunctionalPCA
 
-parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+parser = argparse.ArgumentParser(
+    description="The same runs at three logging rates: PCA against FunctionalPCA.")
 parser.add_argument("--output", help="save the figure to this file")
 args = parser.parse_args()
 
