@@ -276,7 +276,7 @@ def test_curve_band_says_when_max_curves_left_curves_out():
     assert "drawn" not in every.ax_.get_title()
 
 
-def _kiln_fpca_and_curves(n_runs=40):
+def _kiln_fpca_and_curves(n_runs=25):
     kiln = make_kiln_firing(n_runs, minutes=np.arange(0, 600, 5), dropout_fraction=0.0,
                             random_state=0)
     fpca = skfunc.FunctionalPCA(n_components=3, grid=kiln.minutes).fit(kiln.data)
