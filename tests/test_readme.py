@@ -31,17 +31,17 @@ def test_two_setup_commands():
 
 def test_main_job_command_installs_matplotlib_and_ci_runs_the_test_command():
     import shlex
-    import tomllib
 
     root = README.parent
-    project = tomllib.loads((root / "pyproject.toml").read_text())
-    extras = project["project"]["optional-dependencies"]
+    pyproject = (root / "pyproject.toml").read_text()
+    # (tomllib is Python 3.11+; the package supports 3.10, so read the lines)
+    plot = re.search(r"^plot = \[(.*)\]$", pyproject, re.M).group(1)
+    addopts = shlex.split(re.search(r"^addopts = \"(.*)\"$", pyproject, re.M).group(1))
     # the demo's figure needs matplotlib: the main-job command installs it
-    assert any(dep.startswith("matplotlib") for dep in extras["plot"])
+    assert '"matplotlib' in plot
     # the README's test command is the one CI runs, and it selects every test
     # (pyproject's default run deselects the slow ones)
     ci = (root / ".ci" / "run").read_text()
     test_command = _setup_commands()[1]
     assert test_command in ci.splitlines()
-    addopts = shlex.split(project["tool"]["pytest"]["ini_options"]["addopts"])
     assert addopts[addopts.index("-m") + 1] == "not slow"
