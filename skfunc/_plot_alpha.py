@@ -11,10 +11,14 @@ CRITERION_NAMES = {"gcv": "GCV", "loo": "leave-one-out", "reml": "REML"}
 def criterion_name_of(estimator):
     """The name of the criterion that chose ``estimator``'s alpha.
 
-    Read from the estimator's ``criterion`` parameter, else from an
-    ``alpha`` given as a criterion name (``alpha="gcv"``), else GCV for the
-    estimators whose ``alpha=None`` means GCV.
+    Cross-validation when the estimator has a ``cv`` splitter set (which
+    overrides its ``criterion``), else read from its ``criterion``
+    parameter, else from an ``alpha`` given as a criterion name
+    (``alpha="gcv"``), else GCV for the estimators whose ``alpha=None``
+    means GCV.
     """
+    if getattr(estimator, "cv", None) is not None:
+        return "cross-validation"
     for param in ("criterion", "alpha"):
         value = getattr(estimator, param, None)
         if isinstance(value, str):
@@ -176,7 +180,9 @@ class AlphaCriterionDisplay(_Display):
         finite = criterion[np.isfinite(criterion)]
         if finite.size and finite.min() > 0 and finite.max() > 100 * finite.min():
             ax.set_yscale("log")  # criteria spanning decades
-        ylabel = "leave-one-out error" if name == "leave-one-out" else f"{name} score"
+        errors = {"leave-one-out": "leave-one-out error",
+                  "cross-validation": "cross-validated error"}
+        ylabel = errors.get(name, f"{name} score")
         _label(ax, title=f"{name} over the candidate penalties",
                xlabel="alpha (roughness penalty)", ylabel=f"{ylabel} (lower is better)")
         _legend_beside(ax)

@@ -366,6 +366,10 @@ def test_criterion_is_named_from_the_estimator():
                   alpha_=2.0, criterion="reml")
     assert AlphaCriterionDisplay.from_estimator(reml).ax_.get_ylabel() == (
         "REML score (lower is better)")
+    folds = skfunc.FunctionalRidgeCV(grid=kiln.minutes, cv=3).fit(
+        kiln.true_curves, kiln.strength)
+    assert AlphaCriterionDisplay.from_estimator(folds).ax_.get_ylabel() == (
+        "cross-validated error (lower is better)")
 
 
 def test_per_curve_choices_are_drawn_as_their_distribution():
