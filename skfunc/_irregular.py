@@ -18,6 +18,11 @@ TIME_SCALES = ("absolute", "relative")
 MAX_VALUES = 10**9
 
 
+def _plain(value):
+    """A numpy scalar as the Python value (for readable messages)."""
+    return value.item() if isinstance(value, np.generic) else value
+
+
 def _column(data, name, what):
     try:
         column = data[name]
@@ -151,7 +156,7 @@ def _assemble(sample, times, values, n_samples, label, *, grid, domain, time_sca
     missing = np.argwhere(~seen)
     if missing.size:
         i, c = missing[0]
-        which = "" if channel_names is None else f" of channel {channel_names[c]!r}"
+        which = "" if channel_names is None else f" of channel {_plain(channel_names[c])!r}"
         raise ValueError(
             f"Sample {label(i)!r} has no observed values{which}: a curve needs at "
             "least one observation (drop the sample"
@@ -319,7 +324,7 @@ def curves_from_table(data, *, sample="sample", time="time", value="value", chan
     rank[order] = np.arange(order.size)
     sample_index = rank[sample_index.ravel()]
     sample_ids = unique[order]
-    times = _check_times(times, domain, lambda r: f"Row {r} (sample {ids[r]!r})")
+    times = _check_times(times, domain, lambda r: f"Row {r} (sample {_plain(ids[r])!r})")
     channel_index = channel_names = None
     keys = [sample_index, times]
     if channel is not None:
@@ -337,12 +342,12 @@ def curves_from_table(data, *, sample="sample", time="time", value="value", chan
         keys = [sample_index, channel_index, times]
 
     def row_label(r):
-        where = f" of channel {channels[r]!r}" if channel is not None else ""
-        return f"Row {r}: sample {ids[r]!r} at time {times[r]!r}{where}"
+        where = f" of channel {_plain(channels[r])!r}" if channel is not None else ""
+        return f"Row {r}: sample {_plain(ids[r])!r} at time {_plain(times[r])!r}{where}"
 
     _check_duplicates(keys, row_label)
     blocks, grids = _assemble(
-        sample_index, times, values, sample_ids.size, lambda i: sample_ids[i], grid=grid,
+        sample_index, times, values, sample_ids.size, lambda i: _plain(sample_ids[i]), grid=grid,
         domain=domain, time_scale=time_scale, channel=channel_index,
         channel_names=channel_names,
     )
@@ -436,13 +441,15 @@ def curves_from_arrays(times, values, *, sample_ids=None, channels=None, grid=No
         t = np.asarray(t, dtype=np.float64)
         v = np.asarray(v, dtype=np.float64)
         if t.ndim != 1:
-            raise ValueError(f"times of sample {ids[i]!r} must be 1-D; got shape {t.shape}.")
+            raise ValueError(
+                f"times of sample {_plain(ids[i])!r} must be 1-D; got shape {t.shape}."
+            )
         if t.size == 0:
-            raise ValueError(f"Sample {ids[i]!r} has no observations: a curve needs at "
+            raise ValueError(f"Sample {_plain(ids[i])!r} has no observations: a curve needs at "
                              "least one (drop the sample).")
         if v.ndim not in (1, 2) or v.shape[0] != t.size:
             raise ValueError(
-                f"Sample {ids[i]!r} has {t.size} times but values of shape {v.shape}; "
+                f"Sample {_plain(ids[i])!r} has {t.size} times but values of shape {v.shape}; "
                 "give one value (or one row of channel values) per time."
             )
         w = 0 if v.ndim == 1 else v.shape[1]
@@ -450,8 +457,8 @@ def curves_from_arrays(times, values, *, sample_ids=None, channels=None, grid=No
             width = w
         elif w != width:
             raise ValueError(
-                f"Sample {ids[i]!r} has {w or 'no'} channel column(s) but sample "
-                f"{ids[0]!r} has {width or 'none'}: every sample needs the same "
+                f"Sample {_plain(ids[i])!r} has {w or 'no'} channel column(s) but sample "
+                f"{_plain(ids[0])!r} has {width or 'none'}: every sample needs the same "
                 "channels."
             )
         t_list.append(t)
@@ -459,9 +466,9 @@ def curves_from_arrays(times, values, *, sample_ids=None, channels=None, grid=No
     counts = np.array([t.size for t in t_list])
     sample = np.repeat(np.arange(n_samples), counts)
     flat_t = np.concatenate(t_list)
-    _check_times(flat_t, domain, lambda r: f"Sample {ids[sample[r]]!r}")
+    _check_times(flat_t, domain, lambda r: f"Sample {_plain(ids[sample[r]])!r}")
     _check_duplicates([sample, flat_t],
-                      lambda r: f"Sample {ids[sample[r]]!r} at time {flat_t[r]!r}")
+                      lambda r: f"Sample {_plain(ids[sample[r]])!r} at time {_plain(flat_t[r])!r}")
     channel_index = channel_names = None
     flat_v = np.concatenate(v_list)
     if width:
@@ -479,7 +486,7 @@ def curves_from_arrays(times, values, *, sample_ids=None, channels=None, grid=No
     elif channels is not None:
         raise ValueError("channels names the columns of 2-D values; the values are 1-D.")
     blocks, grids = _assemble(
-        sample, flat_t, flat_v, n_samples, lambda i: ids[i], grid=grid, domain=domain,
+        sample, flat_t, flat_v, n_samples, lambda i: _plain(ids[i]), grid=grid, domain=domain,
         time_scale=time_scale, channel=channel_index, channel_names=channel_names,
     )
     return _result(blocks, grids, ids, "sample", channel_names, as_frame)
