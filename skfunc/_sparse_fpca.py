@@ -4,10 +4,11 @@ The method of Yao, Mueller and Wang (2005), principal components analysis
 through conditional expectation, built on the package's penalized engine:
 
 1. **Mean.** All observed values are pooled and the mean function is a
-   penalized B-spline fit to them (one alpha chosen by GCV over one
-   :class:`~skfunc._penalized.SplitPath`, as every penalized fit here).
+   penalized B-spline fit to them, on one
+   :class:`~skfunc._penalized.SplitPath` with alpha chosen among the
+   package's candidates by cross-validation over curves (:class:`_CurveFoldFit`).
    Observations share the columns of the NaN-padded matrix, so the fit needs
-   only the count, sum and sum of squares per column.
+   only the count, sum and sum of squares per column (and fold of rows).
 2. **Covariance.** Raw covariances ``(y_ij - mu(t_ij)) (y_il - mu(t_il))``
    of pairs of *different* observations of one curve (the diagonal
    ``j = l`` carries the measurement error and is left out) are pooled in
@@ -139,6 +140,19 @@ class _CurveFoldFit:
                 "more distinct times."
             ) from exc
 
+    def _fold_paths(self):
+        """The decomposition without each fold (None where that leaves the fit
+        undetermined), built once and shared by every right-hand side."""
+        if not hasattr(self, "_folds"):
+            self._folds = []
+            for gram in self.grams:
+                try:
+                    fold = SplitPath(self.total - gram, self.penalty, scale=self.path.scale)
+                except NotIdentifiableError:
+                    fold = None
+                self._folds.append(fold)
+        return self._folds
+
     def solve(self, rhs, yy, alpha):
         """Coefficients and the alpha used (chosen when ``alpha`` asks)."""
         path = self.path
@@ -149,10 +163,8 @@ class _CurveFoldFit:
             return path.coef(rotated, value), value
         alphas = candidate_alphas(path) if value is AUTO else value
         scores, used = np.zeros(alphas.size), 0
-        for gram, b, y2 in zip(self.grams, rhs, yy):
-            try:
-                fold = SplitPath(self.total - gram, self.penalty, scale=path.scale)
-            except NotIdentifiableError:
+        for fold, gram, b, y2 in zip(self._fold_paths(), self.grams, rhs, yy):
+            if fold is None:
                 continue  # the other folds alone cannot determine the fit
             coefs = (fold.rotate(total - b) / fold.denominators(alphas)) @ fold.eigvecs.T
             scores += y2 - 2 * coefs @ b + np.einsum("lk,kj,lj->l", coefs, gram, coefs)
@@ -248,12 +260,13 @@ class SparseFunctionalPCA(ClassNamePrefixFeaturesOutMixin, TransformerMixin, Bas
         for the mean, ``int int (d_s^q G)^2 + (d_t^q G)^2`` for the surface.
     alpha : "auto", float or array-like, default="auto"
         Roughness penalty of the mean (and of the pointwise variance):
-        "auto" chooses it by GCV over the pooled observations, a number
+        "auto" chooses it by 10-fold cross-validation over curves (see
+        Notes), a number
         fixes it (unit-free: the same number smooths alike on any time
         unit and data scale), an array gives the candidates.
     covariance_alpha : "auto", float or array-like, default="auto"
         Roughness penalty of the covariance surface, in the same forms,
-        chosen by GCV over the pooled raw covariances.
+        chosen by the same cross-validation over curves.
     noise_variance : "auto" or float, default="auto"
         Variance ``sigma^2`` of the measurement error. "auto" estimates it
         from the data (see Notes); a number >= 0 fixes it (in the units of
@@ -328,9 +341,13 @@ class SparseFunctionalPCA(ClassNamePrefixFeaturesOutMixin, TransformerMixin, Bas
     The mean and the covariance are pooled over observations and pairs of
     observations, equally weighted (Yao et al., 2005); the covariance is
     therefore an average of products with denominator the number of pairs,
-    not ``n - 1``. GCV treats pooled observations as independent, which
-    curves are not; it tends to undersmooth the mean slightly, and a fixed
-    ``alpha`` can be passed instead.
+    not ``n - 1``. The observations of one curve are correlated, so the
+    smoothing parameters are chosen by leaving out whole curves (rows are
+    dealt to 10 folds in turn, row ``i`` to fold ``i mod 10``; Rice and
+    Silverman, 1991) rather than by GCV, which treats pooled observations
+    as independent and undersmooths. Candidates span the effective degrees
+    of freedom and ties and edges follow the package's one rule; alpha is
+    unit-free.
 
     The measurement-error variance is ``(2 / |T|) int_{T_1} (V(t) - G(t, t))
     dt`` over the middle half ``T_1`` of the domain ``T``, with ``V`` the
@@ -358,6 +375,10 @@ class SparseFunctionalPCA(ClassNamePrefixFeaturesOutMixin, TransformerMixin, Bas
     Yao, F., Mueller, H.-G. and Wang, J.-L. (2005). Functional data analysis
     for sparse longitudinal data. *Journal of the American Statistical
     Association* 100(470), 577-590.
+
+    Rice, J. A. and Silverman, B. W. (1991). Estimating the mean and
+    covariance structure nonparametrically when the data are curves.
+    *Journal of the Royal Statistical Society, Series B* 53(1), 233-243.
 
     Eilers, P. H. C. and Marx, B. D. (1996). Flexible smoothing with
     B-splines and penalties. *Statistical Science* 11(2), 89-121.
