@@ -13,6 +13,8 @@ from sklearn.utils.validation import (
 from ._bases import gram_sqrt
 from ._blocks import chunked_matmul
 from ._dask import check_rows
+from ._docstrings import fill_doc
+from ._estimator import store_init_params
 from ._fit import AdditiveTransformerMixin
 from ._grid import quadrature_weights
 from ._penalized import PenalizedPath
@@ -35,6 +37,7 @@ def orthonormal_operators(basis, grid, weights, alpha=0.0, penalty_order=2):
     return root @ path.operator(alpha) @ phi_w.T, phi @ inv_root
 
 
+@fill_doc
 class BasisFeatures(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
     """Project sampled curves onto a basis, in L2-orthonormal coordinates.
 
@@ -90,13 +93,8 @@ class BasisFeatures(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
     reconstruction_ : ndarray of shape (n_features, n_basis_)
         Values on ``grid_`` of the orthonormalised basis functions, used by
         :meth:`inverse_transform`.
-    n_samples_seen_ : int
-        Number of curves validated by :meth:`fit`, or by all calls of
-        :meth:`partial_fit` since the first.
-    n_features_in_ : int
-        Number of grid points seen during fit.
-    feature_names_in_ : ndarray of shape (n_features_in_,)
-        Column names of ``X`` when they are all strings.
+    %(n_samples_seen)s
+    %(curve_input_attributes)s
 
     See Also
     --------
@@ -144,26 +142,9 @@ class BasisFeatures(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
         "alpha": [Interval(Real, 0, None, closed="left")],
     }
 
-    def __init__(
-        self,
-        basis="bspline",
-        n_basis=None,
-        *,
-        degree=3,
-        interior_knots=None,
-        alpha=0.0,
-        penalty_order=2,
-        grid=None,
-        quadrature="trapezoid",
-    ):
-        self.basis = basis
-        self.n_basis = n_basis
-        self.degree = degree
-        self.interior_knots = interior_knots
-        self.alpha = alpha
-        self.penalty_order = penalty_order
-        self.grid = grid
-        self.quadrature = quadrature
+    def __init__(self, basis="bspline", n_basis=None, *, degree=3, interior_knots=None,
+                 alpha=0.0, penalty_order=2, grid=None, quadrature="trapezoid"):
+        store_init_params(self, locals())
 
     def _validate_batch(self, X, y, sample_weight, first):
         return (validate_curves(self, X, reset=first),)

@@ -7,6 +7,7 @@ from sklearn.utils.validation import _check_sample_weight, check_is_fitted
 
 from ._blocks import compute_statistics, is_dask_array
 from ._docstrings import fill_doc
+from ._estimator import store_init_params
 from ._function_response import (
     RESPONSE_PARAMETER_CONSTRAINTS,
     CurveResponseRegressor,
@@ -62,10 +63,7 @@ class ConcurrentFunctionRidge(CurveResponseRegressor):
     %(curve_response_attributes)s
     n_samples_seen_ : int
         Number of curves fitted.
-    n_features_in_ : int
-        Number of grid points.
-    feature_names_in_ : ndarray of shape (n_features_in_,)
-        Column names of ``X`` when they are all strings.
+    %(curve_input_attributes)s
 
     See Also
     --------
@@ -105,28 +103,10 @@ class ConcurrentFunctionRidge(CurveResponseRegressor):
     }
     del _parameter_constraints["response_grid"]
 
-    def __init__(
-        self,
-        alpha=None,
-        *,
-        alphas=None,
-        basis="bspline",
-        n_basis=None,
-        degree=3,
-        interior_knots=None,
-        penalty_order=2,
-        grid=None,
-        quadrature="trapezoid",
-    ):
-        self.alpha = alpha
-        self.alphas = alphas
-        self.basis = basis
-        self.n_basis = n_basis
-        self.degree = degree
-        self.interior_knots = interior_knots
-        self.penalty_order = penalty_order
-        self.grid = grid
-        self.quadrature = quadrature
+    def __init__(self, alpha=None, *, alphas=None, basis="bspline", n_basis=None,
+                 degree=3, interior_knots=None, penalty_order=2, grid=None,
+                 quadrature="trapezoid"):
+        store_init_params(self, locals())
 
     def fit(self, X, y, sample_weight=None):
         """Fit the coefficient functions and their band covariance.

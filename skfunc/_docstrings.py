@@ -71,6 +71,46 @@ n_samples_seen_ : int
     Number of rows fitted (by :meth:`fit`, or by all calls of
     :meth:`partial_fit` since the first).
 """,
+    "curve_input_attributes": """
+n_features_in_ : int
+    Number of grid points (columns of ``X``) seen during fit.
+feature_names_in_ : ndarray of shape (n_features_in_,)
+    Column names of ``X`` when they are all strings.
+""",
+    "curve_response_references": """
+Ramsay, J. O. and Silverman, B. W. (2005). *Functional Data Analysis*,
+2nd ed., ch. 13-16. Springer.
+
+Craven, P. and Wahba, G. (1979). Smoothing noisy data with spline
+functions. *Numerische Mathematik* 31, 377-403.
+""",
+    "scalar_outcome_X": """
+X : array-like of shape (n_samples, n_features)
+    Curves, one per row, sampled on the grid; then ``n_covariates`` scalar
+    columns.
+""",
+    "fit_weights_returns": """
+sample_weight : array-like of shape (n_samples,), default=None
+    Non-negative weights of the observations.
+
+Returns
+-------
+self : object
+    Fitted estimator.
+""",
+    "transformer_fit": """
+Parameters
+----------
+X : array-like or dask array of shape (n_samples, n_features)
+    Curves, one per row, sampled on the grid.
+y : None
+    Ignored.
+
+Returns
+-------
+self : object
+    Fitted transformer.
+""",
     "cautions": """
 Results are statistical estimates: read :doc:`/cautions` before they drive
 a quality or safety decision.

@@ -31,11 +31,13 @@ Set ``_accepts_dask = True`` once all of that runs on
 """
 
 from ._blocks import compute_statistics
+from ._docstrings import fill_doc
+from ._estimator import ShortReprMixin
 from ._penalized import merge as merge_sums
 from ._validation import check_batch_grid
 
 
-class AdditiveFitMixin:
+class AdditiveFitMixin(ShortReprMixin):
     """``fit`` and ``partial_fit`` from additive statistics (see module doc)."""
 
     #: combines the statistics of disjoint sets of rows
@@ -80,20 +82,11 @@ class AdditiveFitMixin:
 class AdditiveTransformerMixin(AdditiveFitMixin):
     """The skeleton for transformers: ``fit(X, y=None)``, ``partial_fit(X, y=None)``."""
 
+    @fill_doc
     def fit(self, X, y=None):
         """Fit on the curves in X (forgetting earlier batches).
 
-        Parameters
-        ----------
-        X : array-like or dask array of shape (n_samples, n_features)
-            Curves, one per row, sampled on the grid.
-        y : None
-            Ignored.
-
-        Returns
-        -------
-        self : object
-            Fitted transformer.
+        %(transformer_fit)s
         """
         return self._fit_statistics(X)
 
@@ -122,6 +115,7 @@ class AdditiveTransformerMixin(AdditiveFitMixin):
 class AdditiveRegressorMixin(AdditiveFitMixin):
     """The skeleton for supervised estimators: ``fit(X, y, sample_weight=None)``."""
 
+    @fill_doc
     def fit(self, X, y, sample_weight=None):
         """Fit on (X, y) (forgetting earlier batches).
 
@@ -131,13 +125,7 @@ class AdditiveRegressorMixin(AdditiveFitMixin):
             Inputs, one observation per row.
         y : array-like or dask array of shape (n_samples,) or (n_samples, n_targets)
             Targets (outcomes, or response curves on the response grid).
-        sample_weight : array-like of shape (n_samples,), default=None
-            Non-negative weights of the observations.
-
-        Returns
-        -------
-        self : object
-            Fitted estimator.
+        %(fit_weights_returns)s
         """
         return self._fit_statistics(X, y, sample_weight)
 

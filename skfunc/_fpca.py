@@ -167,7 +167,7 @@ def _single_thread(K):
 
 def svd_directions(Z, n_wanted, solver, random_state=None, n_oversamples=10,
                    iterated_power="auto"):
-    """Principal directions from the SVD of centred coordinates ``Z`` (n, K).
+    """Principal directions from the SVD of centered coordinates ``Z`` (n, K).
 
     Returns ``(squared singular values, directions (K, k))``: ``n_wanted``
     of them for the randomized solver, all ``min(n, K)`` for the exact one.

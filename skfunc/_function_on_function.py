@@ -8,6 +8,7 @@ from sklearn.utils.validation import check_is_fitted
 
 from ._blocks import chunked_matmul, is_dask_array
 from ._docstrings import fill_doc
+from ._estimator import store_init_params
 from ._fit import AdditiveRegressorMixin
 from ._function_response import (
     RESPONSE_PARAMETER_CONSTRAINTS,
@@ -58,10 +59,7 @@ class FunctionOnFunctionRidge(AdditiveRegressorMixin, CurveResponseRegressor):
         Estimated covariance of ``basis_coef_`` flattened row-major.
     %(curve_response_attributes)s
     %(n_samples_seen)s
-    n_features_in_ : int
-        Number of input grid points.
-    feature_names_in_ : ndarray of shape (n_features_in_,)
-        Column names of ``X`` when they are all strings.
+    %(curve_input_attributes)s
 
     See Also
     --------
@@ -91,19 +89,13 @@ class FunctionOnFunctionRidge(AdditiveRegressorMixin, CurveResponseRegressor):
 
     References
     ----------
-    Ramsay, J. O. and Silverman, B. W. (2005). *Functional Data Analysis*,
-    2nd ed., ch. 16. Springer.
-
-    Craven, P. and Wahba, G. (1979). Smoothing noisy data with spline
-    functions. *Numerische Mathematik* 31, 377-403.
+    %(curve_response_references)s
 
     Examples
     --------
     The cool-down of kiln runs (invented data) from their heating curves:
 
-    >>> from functools import partial
-
-import numpy as np
+    >>> import numpy as np
     >>> from skfunc.linear_model import FunctionOnFunctionRidge
     >>> rng = np.random.default_rng(0)
     >>> s = np.linspace(0, 1, 41)
@@ -125,30 +117,10 @@ import numpy as np
 
     _batch_grids = (("grid", "grid_"), ("response_grid", "response_grid_"))
 
-    def __init__(
-        self,
-        alpha=None,
-        *,
-        alphas=None,
-        basis="bspline",
-        n_basis=None,
-        degree=3,
-        interior_knots=None,
-        penalty_order=2,
-        grid=None,
-        response_grid=None,
-        quadrature="trapezoid",
-    ):
-        self.alpha = alpha
-        self.alphas = alphas
-        self.basis = basis
-        self.n_basis = n_basis
-        self.degree = degree
-        self.interior_knots = interior_knots
-        self.penalty_order = penalty_order
-        self.grid = grid
-        self.response_grid = response_grid
-        self.quadrature = quadrature
+    def __init__(self, alpha=None, *, alphas=None, basis="bspline", n_basis=None,
+                 degree=3, interior_knots=None, penalty_order=2, grid=None,
+                 response_grid=None, quadrature="trapezoid"):
+        store_init_params(self, locals())
 
     def _validate_inputs(self, X, y, reset):
         if is_dask_array(X) or is_dask_array(y):

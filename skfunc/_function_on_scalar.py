@@ -5,6 +5,8 @@ from sklearn.utils.validation import check_is_fitted, validate_data
 
 from ._blocks import affine_block, apply_rows, is_dask_array
 from ._dask import validate_dask
+from ._docstrings import fill_doc
+from ._estimator import store_init_params
 from ._fit import AdditiveRegressorMixin
 from ._function_response import (
     RESPONSE_PARAMETER_CONSTRAINTS,
@@ -12,6 +14,7 @@ from ._function_response import (
 )
 
 
+@fill_doc
 class FunctionOnScalarRidge(AdditiveRegressorMixin, CurveResponseRegressor):
     """Function-on-scalar regression with roughness-penalized coefficient functions.
 
@@ -28,29 +31,10 @@ class FunctionOnScalarRidge(AdditiveRegressorMixin, CurveResponseRegressor):
 
     Parameters
     ----------
-    basis : {"bspline", "fourier", "legendre"}, default="bspline"
-        Basis of the coefficient functions on the response domain.
-    n_basis : int, default=None
-        Number of basis functions; None means the basis' default capped by
-        the number of response grid points. With ``alpha=0`` it may not
-        exceed the number of response grid points.
-    degree : int, default=3
-        B-spline degree (ignored by the other bases).
-    interior_knots : array-like of shape (n_knots,), default=None
-        Interior B-spline knots inside the response domain; None means evenly
-        spaced.
-    alpha : float, default=None
-        Roughness penalty. None chooses it by GCV from ``alphas``.
-    alphas : array-like of shape (n_alphas,), default=None
-        Candidates for GCV when ``alpha=None``; None means 25 log-spaced
-        values scaled to the problem.
-    penalty_order : int, default=2
-        Derivative order ``q`` of the roughness penalty.
-    response_grid : array-like of shape (n_response_points,), default=None
-        Sampling points of the columns of ``y``. None means the numeric
-        column labels of a DataFrame ``y``, else evenly spaced on [0, 1].
-    quadrature : {"trapezoid", "simpson"}, default="trapezoid"
-        Quadrature rule on the response grid.
+    %(curve_response_alpha)s
+    %(basis)s
+    %(response_grid)s
+    %(quadrature)s
 
     Attributes
     ----------
@@ -66,19 +50,8 @@ class FunctionOnScalarRidge(AdditiveRegressorMixin, CurveResponseRegressor):
     coef_covariance_ : ndarray of shape ((n_features_in_ + 1) * n_basis_,) * 2
         Estimated covariance of ``basis_coef_`` flattened row-major, used by
         :meth:`confidence_band`.
-    n_basis_ : int
-        Number of basis functions.
-    alpha_ : float
-        The penalty used.
-    alphas_ : ndarray of shape (n_alphas,)
-        Candidates (only ``alpha`` when it was given).
-    criterion_ : ndarray of shape (n_alphas,)
-        GCV score per candidate (lower is better).
-    edf_ : ndarray of shape (n_alphas,)
-        Effective degrees of freedom per candidate.
-    n_samples_seen_ : int
-        Number of observations fitted (by :meth:`fit`, or by all calls of
-        :meth:`partial_fit` since the first).
+    %(curve_response_attributes)s
+    %(n_samples_seen)s
     n_features_in_ : int
         Number of covariates.
     feature_names_in_ : ndarray of shape (n_features_in_,)
@@ -94,7 +67,7 @@ class FunctionOnScalarRidge(AdditiveRegressorMixin, CurveResponseRegressor):
     -----
     The fit minimises ``sum_i w_i int (Y_i - fit_i)^2 dt + alpha sum_j int
     (D^q beta_j)^2`` (sample weights ``w_i``, integrals by quadrature on the
-    response grid) with centred covariates, so the result does not change
+    response grid) with centered covariates, so the result does not change
     when a covariate is shifted. Rank-deficient designs get the
     minimum-norm solution, as :func:`numpy.linalg.lstsq`. GCV treats the
     ``n_samples * n_response_points`` residuals as independent; with strongly
@@ -108,17 +81,12 @@ class FunctionOnScalarRidge(AdditiveRegressorMixin, CurveResponseRegressor):
 
     Confidence bands are pointwise normal-theory bands assuming independent
     curves with a common residual covariance; they ignore the smoothing bias
-    and are not simultaneous. Predictions are statistical estimates: validate
-    them on your own process data before they drive a quality or safety
-    decision, and follow the applicable standards and qualified practice.
+    and are not simultaneous.
+    %(cautions)s
 
     References
     ----------
-    Ramsay, J. O. and Silverman, B. W. (2005). *Functional Data Analysis*,
-    2nd ed., ch. 13. Springer.
-
-    Craven, P. and Wahba, G. (1979). Smoothing noisy data with spline
-    functions. *Numerische Mathematik* 31, 377-403.
+    %(curve_response_references)s
 
     Examples
     --------
@@ -147,28 +115,10 @@ class FunctionOnScalarRidge(AdditiveRegressorMixin, CurveResponseRegressor):
 
     _parameter_constraints = RESPONSE_PARAMETER_CONSTRAINTS
 
-    def __init__(
-        self,
-        alpha=None,
-        *,
-        alphas=None,
-        basis="bspline",
-        n_basis=None,
-        degree=3,
-        interior_knots=None,
-        penalty_order=2,
-        response_grid=None,
-        quadrature="trapezoid",
-    ):
-        self.alpha = alpha
-        self.alphas = alphas
-        self.basis = basis
-        self.n_basis = n_basis
-        self.degree = degree
-        self.interior_knots = interior_knots
-        self.penalty_order = penalty_order
-        self.response_grid = response_grid
-        self.quadrature = quadrature
+    def __init__(self, alpha=None, *, alphas=None, basis="bspline", n_basis=None,
+                 degree=3, interior_knots=None, penalty_order=2, response_grid=None,
+                 quadrature="trapezoid"):
+        store_init_params(self, locals())
 
     def _validate_inputs(self, X, y, reset):
         if is_dask_array(X) or is_dask_array(y):

@@ -60,7 +60,7 @@ from ._dask import check_accepts_dask
 from ._fit import AdditiveFitMixin
 from ._grid import check_grid, grid_from_labels, quadrature_weights, resolve_grid
 from ._penalized import PenalizedPath, centered, cross_products, gcv_score
-from ._validation import BASIS_CONSTRAINTS, basis_for, check_level
+from ._validation import BASIS_CONSTRAINTS, basis_for, check_labels, check_level
 
 #: eigenvalues below this fraction of the largest make a direction undetermined
 #: (minimum-norm solution, as numpy.linalg.lstsq)
@@ -190,14 +190,7 @@ def validate_response(estimator, y, n_samples, *, reset):
             f"y has {m} columns but {type(estimator).__name__} was fitted on a "
             f"response grid of {estimator.response_grid_.size} points."
         )
-    if inferred is not None and not np.allclose(
-        inferred, estimator.response_grid_, rtol=1e-9, atol=0
-    ):
-        raise ValueError(
-            "The column labels of y give a response grid that differs from the one "
-            f"{type(estimator).__name__} was fitted on; resample the response "
-            "curves to the fitted grid."
-        )
+    check_labels(estimator, inferred, estimator.response_grid_, "y", "response grid")
     return y
 
 

@@ -18,6 +18,8 @@ from sklearn.utils.validation import check_is_fitted
 from ._bases import BASES
 from ._blocks import chunked_matmul, is_dask_array
 from ._dask import check_rows
+from ._docstrings import fill_doc
+from ._estimator import store_init_params
 from ._fit import AdditiveTransformerMixin
 from ._fpca import (
     CurveCoordinates,
@@ -32,6 +34,7 @@ from ._validation import BASIS_CONSTRAINTS, basis_for, validate_curves
 SVD_SOLVERS = ("auto", "full", "covariance_eigh", "randomized")
 
 
+@fill_doc
 class FunctionalPCA(AdditiveTransformerMixin, ClassNamePrefixFeaturesOutMixin,
                     TransformerMixin, BaseEstimator):
     """Functional principal components: the main modes of variation of curves.
@@ -79,7 +82,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ClassNamePrefixFeaturesOutMixin,
     svd_solver : {"auto", "full", "covariance_eigh", "randomized"}, default="auto"
         As in :class:`sklearn.decomposition.PCA`: "covariance_eigh" takes the
         eigendecomposition of the K x K covariance of the coordinates (the
-        route of :meth:`partial_fit`); "full" an exact SVD of the centred
+        route of :meth:`partial_fit`); "full" an exact SVD of the centered
         coordinates; "randomized" :func:`sklearn.utils.extmath.randomized_svd`
         (Halko et al., 2011). "auto" chooses like PCA: "covariance_eigh" when
         ``K <= 1000`` and ``n_samples >= 10 K``, else "full" for small
@@ -131,7 +134,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ClassNamePrefixFeaturesOutMixin,
         ``int var(x(t)) dt``.
     singular_values_ : ndarray of shape (n_components_,)
         ``sqrt((n_samples - 1) * explained_variance_)``: the singular values
-        of the centred curves in L2-orthonormal coordinates.
+        of the centered curves in L2-orthonormal coordinates.
     n_components_ : int
         Number of components kept.
     projection_ : ndarray of shape (n_components_, n_features)
@@ -142,14 +145,11 @@ class FunctionalPCA(AdditiveTransformerMixin, ClassNamePrefixFeaturesOutMixin,
     coordinate_mean_ : ndarray of shape (K,)
         Mean of the curves' L2-orthonormal coordinates.
     coordinate_scatter_ : ndarray of shape (K, K) or None
-        Centred sums of squares and products of those coordinates: with
+        Centered sums of squares and products of those coordinates: with
         ``n_samples_seen_`` and ``coordinate_mean_``, the statistics
         :meth:`partial_fit` continues from. None after a randomized fit,
         which does not compute them.
-    n_features_in_ : int
-        Number of grid points seen during fit.
-    feature_names_in_ : ndarray of shape (n_features_in_,)
-        Column names of ``X`` when they are all strings.
+    %(curve_input_attributes)s
 
     See Also
     --------
@@ -171,7 +171,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ClassNamePrefixFeaturesOutMixin,
     over grid points: its eigenvalues scale with the number of points, and on
     uneven grids densely sampled stretches weigh more (see Examples).
 
-    :meth:`partial_fit` accumulates the count, mean and centred scatter
+    :meth:`partial_fit` accumulates the count, mean and centered scatter
     (K x K) of ``z`` over chunks (merged exactly, Chan et al., 1979), so its
     memory is one chunk plus K x K, and its result equals :meth:`fit` on the
     stacked data up to rounding when the coordinates represent the curves
@@ -254,56 +254,23 @@ class FunctionalPCA(AdditiveTransformerMixin, ClassNamePrefixFeaturesOutMixin,
         "random_state": ["random_state"],
     }
 
-    def __init__(
-        self,
-        n_components=None,
-        *,
-        basis=None,
-        n_basis=None,
-        degree=3,
-        interior_knots=None,
-        alpha=0.0,
-        penalty_order=2,
-        svd_solver="auto",
-        n_oversamples=10,
-        iterated_power="auto",
-        random_state=None,
-        grid=None,
-        quadrature="trapezoid",
-    ):
-        self.n_components = n_components
-        self.basis = basis
-        self.n_basis = n_basis
-        self.degree = degree
-        self.interior_knots = interior_knots
-        self.alpha = alpha
-        self.penalty_order = penalty_order
-        self.svd_solver = svd_solver
-        self.n_oversamples = n_oversamples
-        self.iterated_power = iterated_power
-        self.random_state = random_state
-        self.grid = grid
-        self.quadrature = quadrature
+    def __init__(self, n_components=None, *, basis=None, n_basis=None, degree=3,
+                 interior_knots=None, alpha=0.0, penalty_order=2, svd_solver="auto",
+                 n_oversamples=10, iterated_power="auto", random_state=None, grid=None,
+                 quadrature="trapezoid"):
+        store_init_params(self, locals())
 
     # ------------------------------------------------------------------ fit
     #: keys ``n``, ``mean``, ``scatter`` (count, mean and centered scatter of
     #: the coordinates), merged exactly in any order (Chan et al., 1979)
     _merge_statistics = staticmethod(merge_moments)
 
+    @fill_doc
     def fit(self, X, y=None):
-        """Compute the mean function and the principal components of X.
+        """Compute the mean function and the principal components of X
+        (complete curves: no NaN).
 
-        Parameters
-        ----------
-        X : array-like of shape (n_samples, n_features)
-            Curves, one per row, sampled on the grid; complete (no NaN).
-        y : None
-            Ignored.
-
-        Returns
-        -------
-        self : object
-            Fitted transformer.
+        %(transformer_fit)s
         """
         self._validate_params()
         self._check_basis_parameters()

@@ -16,6 +16,7 @@ from sklearn.base import BaseEstimator, RegressorMixin
 from sklearn.utils.validation import _check_sample_weight
 
 from ._docstrings import fill_doc
+from ._estimator import store_init_params
 from ._fit import AdditiveRegressorMixin
 from ._integrated_design import (
     ALPHA_CONSTRAINT,
@@ -188,17 +189,14 @@ class FunctionalRidge(FunctionalRidgeBase):
 
     Examples
     --------
-    >>> import numpy as np
+    >>> from skfunc.datasets import make_smooth_regression
     >>> from skfunc.linear_model import FunctionalRidge
-    >>> rng = np.random.default_rng(0)
-    >>> t = np.linspace(0, 1, 101)
-    >>> X = rng.normal(size=(60, 6)) @ np.sin(np.outer(np.arange(1, 7), np.pi * t))
-    >>> y = X @ (np.gradient(t) * np.sin(np.pi * t)) + 0.01 * rng.normal(size=60)
+    >>> X, y, beta = make_smooth_regression(60, grid=101, noise=0.01, random_state=0)
     >>> model = FunctionalRidge(alpha=1e-6, n_basis=8).fit(X, y)
     >>> model.coef_function_.shape
     (101,)
     >>> lower, upper = model.confidence_band(level=0.95)
-    >>> bool(np.all(lower <= upper))
+    >>> bool((lower <= upper).all())
     True
     """
 
@@ -212,30 +210,10 @@ class FunctionalRidge(FunctionalRidgeBase):
         tags.regressor_tags.poor_score = True
         return tags
 
-    def __init__(
-        self,
-        alpha=1.0,
-        *,
-        basis="bspline",
-        n_basis=None,
-        degree=3,
-        interior_knots=None,
-        penalty_order=2,
-        n_covariates=0,
-        fit_intercept=True,
-        grid=None,
-        quadrature="trapezoid",
-    ):
-        self.alpha = alpha
-        self.basis = basis
-        self.n_basis = n_basis
-        self.degree = degree
-        self.interior_knots = interior_knots
-        self.penalty_order = penalty_order
-        self.n_covariates = n_covariates
-        self.fit_intercept = fit_intercept
-        self.grid = grid
-        self.quadrature = quadrature
+    def __init__(self, alpha=1.0, *, basis="bspline", n_basis=None, degree=3,
+                 interior_knots=None, penalty_order=2, n_covariates=0,
+                 fit_intercept=True, grid=None, quadrature="trapezoid"):
+        store_init_params(self, locals())
 
     def _fit_pooled(self, stats, basis, y_ndim):
         return self._solve_at(stats, self.alpha, basis, squeeze=y_ndim == 1)

@@ -8,6 +8,7 @@ from sklearn.utils._param_validation import StrOptions
 
 from ._blocks import is_dask_array
 from ._docstrings import fill_doc
+from ._estimator import store_init_params
 from ._functional_ridge import FunctionalRidgeBase
 from ._integrated_design import DESIGN_CONSTRAINTS
 from ._penalized import centered_cross_products, cross_products, gcv_score
@@ -83,11 +84,9 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
     Examples
     --------
     >>> import numpy as np
+    >>> from skfunc.datasets import make_smooth_regression
     >>> from skfunc.linear_model import FunctionalRidgeCV
-    >>> rng = np.random.default_rng(0)
-    >>> t = np.linspace(0, 1, 101)
-    >>> X = rng.normal(size=(60, 6)) @ np.sin(np.outer(np.arange(1, 7), np.pi * t))
-    >>> y = X @ (np.gradient(t) * np.sin(np.pi * t)) + 0.1 * rng.normal(size=60)
+    >>> X, y, _ = make_smooth_regression(60, grid=101, random_state=0)
     >>> model = FunctionalRidgeCV(alphas=np.logspace(-8, 0, 9), n_basis=8).fit(X, y)
     >>> model.criterion_.shape
     (9,)
@@ -103,36 +102,11 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
         "alpha_per_target": ["boolean"],
     }
 
-    def __init__(
-        self,
-        alphas=None,
-        *,
-        criterion="gcv",
-        cv=None,
-        alpha_per_target=False,
-        basis="bspline",
-        n_basis=None,
-        degree=3,
-        interior_knots=None,
-        penalty_order=2,
-        n_covariates=0,
-        fit_intercept=True,
-        grid=None,
-        quadrature="trapezoid",
-    ):
-        self.alphas = alphas
-        self.criterion = criterion
-        self.cv = cv
-        self.alpha_per_target = alpha_per_target
-        self.basis = basis
-        self.n_basis = n_basis
-        self.degree = degree
-        self.interior_knots = interior_knots
-        self.penalty_order = penalty_order
-        self.n_covariates = n_covariates
-        self.fit_intercept = fit_intercept
-        self.grid = grid
-        self.quadrature = quadrature
+    def __init__(self, alphas=None, *, criterion="gcv", cv=None,
+                 alpha_per_target=False, basis="bspline", n_basis=None, degree=3,
+                 interior_knots=None, penalty_order=2, n_covariates=0,
+                 fit_intercept=True, grid=None, quadrature="trapezoid"):
+        store_init_params(self, locals())
 
     def _check_alphas(self):
         alphas = np.asarray(self.alphas, dtype=np.float64)
@@ -148,23 +122,16 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
             )
         return alphas
 
+    @fill_doc
     def fit(self, X, y, sample_weight=None):
         """Score every alpha, choose one, and fit at it.
 
         Parameters
         ----------
-        X : array-like of shape (n_samples, n_features)
-            Curves, one per row, sampled on the grid; then ``n_covariates``
-            scalar columns.
+        %(scalar_outcome_X)s
         y : array-like of shape (n_samples,) or (n_samples, n_targets)
             Outcomes.
-        sample_weight : array-like of shape (n_samples,), default=None
-            Non-negative weights of the curves.
-
-        Returns
-        -------
-        self : object
-            Fitted estimator.
+        %(fit_weights_returns)s
         """
         if self.criterion == "gcv" and self.cv is None:  # GCV: statistics suffice
             return self._fit_statistics(X, y, sample_weight)

@@ -34,6 +34,7 @@ from sklearn.utils._param_validation import Interval
 from sklearn.utils.validation import check_is_fitted
 
 from ._blocks import chunked_matmul
+from ._estimator import ShortReprMixin
 from ._grid import quadrature_weights
 from ._penalized import _RCOND, NotIdentifiableError, PenalizedPath
 from ._validation import BASIS_CONSTRAINTS, basis_for, check_level, validate_curves
@@ -48,7 +49,7 @@ DESIGN_CONSTRAINTS = {
 ALPHA_CONSTRAINT = [Interval(Real, 0, None, closed="left")]
 
 
-class IntegratedDesignMixin:
+class IntegratedDesignMixin(ShortReprMixin):
     """Curves (and trailing covariates) to the integrated design, and back.
 
     Subclasses set ``basis``, ``n_basis``, ``degree``, ``interior_knots``,

@@ -27,6 +27,8 @@ from sklearn.utils._param_validation import Interval, StrOptions
 from sklearn.utils.validation import _check_feature_names_in, check_is_fitted
 
 from ._blocks import apply_rows, chunked_matmul, row_blocks
+from ._docstrings import fill_doc
+from ._estimator import store_init_params
 from ._fit import AdditiveTransformerMixin
 from ._grid import check_grid, quadrature_weights
 from ._penalized import NotIdentifiableError, PenalizedPath, gcv_score, merge
@@ -256,6 +258,7 @@ class _Problem:
                    float(w_p.sum()))
 
 
+@fill_doc
 class CurveSmoother(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
     """Smooth sampled curves with a roughness penalty chosen by GCV or given.
 
@@ -347,13 +350,8 @@ class CurveSmoother(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
     evaluation_ : ndarray of shape (n_outputs, n_basis_)
         Values (or derivatives of order ``derivative``) of the basis
         functions at ``eval_points_``.
-    n_samples_seen_ : int
-        Number of curves fitted (by :meth:`fit`, or by all calls of
-        :meth:`partial_fit` since the first).
-    n_features_in_ : int
-        Number of grid points seen during fit.
-    feature_names_in_ : ndarray of shape (n_features_in_,)
-        Column names of ``X`` when they are all strings.
+    %(n_samples_seen)s
+    %(curve_input_attributes)s
 
     See Also
     --------
@@ -441,34 +439,10 @@ class CurveSmoother(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
         "eval_points": ["array-like", None],
     }
 
-    def __init__(
-        self,
-        alpha="gcv",
-        *,
-        alphas=None,
-        per_curve=False,
-        basis="bspline",
-        n_basis=None,
-        degree=3,
-        interior_knots=None,
-        penalty_order=2,
-        derivative=0,
-        eval_points=None,
-        grid=None,
-        quadrature="trapezoid",
-    ):
-        self.alpha = alpha
-        self.alphas = alphas
-        self.per_curve = per_curve
-        self.basis = basis
-        self.n_basis = n_basis
-        self.degree = degree
-        self.interior_knots = interior_knots
-        self.penalty_order = penalty_order
-        self.derivative = derivative
-        self.eval_points = eval_points
-        self.grid = grid
-        self.quadrature = quadrature
+    def __init__(self, alpha="gcv", *, alphas=None, per_curve=False, basis="bspline",
+                 n_basis=None, degree=3, interior_knots=None, penalty_order=2,
+                 derivative=0, eval_points=None, grid=None, quadrature="trapezoid"):
+        store_init_params(self, locals())
 
     def __sklearn_tags__(self):
         tags = super().__sklearn_tags__()
@@ -610,7 +584,7 @@ class CurveSmoother(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
         Parameters
         ----------
         X : array-like of shape (n_samples, n_features)
-            Curves on the fitted grid; NaN marks a missing value.
+            Curves, as for :meth:`transform`.
 
         Returns
         -------

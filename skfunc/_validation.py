@@ -44,7 +44,7 @@ def check_level(level, name="level"):
     """A confidence level in (0, 1) (e.g. 0.95), as a float."""
     if (not isinstance(level, Real) or isinstance(level, bool)
             or not 0 < level < 1):
-        raise ValueError(f"{name} must be a number in (0, 1), e.g. 0.95; got {level!r}.")
+        raise ValueError(f"{name} must be in (0, 1), e.g. 0.95; got {level!r}.")
     return float(level)
 
 
@@ -121,15 +121,18 @@ def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
         grid = getattr(estimator, "grid", None)
         estimator.grid_ = resolve_grid(grid if grid is not None else inferred, X, n_points)
     else:
-        if inferred is not None and not np.allclose(
-            inferred, estimator.grid_, rtol=1e-9, atol=0
-        ):
-            raise ValueError(
-                "The column labels of X give a grid that differs from the grid "
-                f"{type(estimator).__name__} was fitted on; resample the curves to "
-                "the fitted grid (for example with CurveSmoother(eval_points=...))."
-            )
+        check_labels(estimator, inferred, estimator.grid_, "X", "grid")
     return out
+
+
+def check_labels(estimator, inferred, fitted, data_name, grid_name):
+    """ValueError if numeric column labels give a grid other than the fitted one."""
+    if inferred is not None and not np.allclose(inferred, fitted, rtol=1e-9, atol=0):
+        raise ValueError(
+            f"The column labels of {data_name} give a {grid_name} that differs from "
+            f"the one {type(estimator).__name__} was fitted on; resample the curves "
+            "to the fitted grid (for example with CurveSmoother(eval_points=...))."
+        )
 
 
 def check_batch_grid(estimator, grid_param="grid", grid_attr="grid_"):

@@ -1,7 +1,5 @@
 """Utilities for working with skfunc's estimators."""
 
-import inspect
-
 __all__ = ["all_estimators"]
 
 #: the public modules that export estimators
@@ -25,6 +23,7 @@ def all_estimators():
     >>> dict(all_estimators())["CurveSmoother"].__name__
     'CurveSmoother'
     """
+    import inspect
     from importlib import import_module
 
     from sklearn.base import BaseEstimator

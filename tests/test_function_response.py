@@ -157,7 +157,7 @@ def test_gcv_criterion_matches_dense_hat_matrix(rng):
 
 
 def test_shifting_a_covariate_changes_only_the_intercept(rng):
-    # Property of the centred criterion: a shifted covariate x + c gives the
+    # Property of the centered criterion: a shifted covariate x + c gives the
     # same slopes and an intercept beta_0 - c beta_j (any linear model).
     X, Y, t, _ = _scalar_data(rng)
     a = FunctionOnScalarRidge(alpha=1e-3).fit(X, Y)
@@ -298,43 +298,6 @@ def _curves(s, scores):
     return scores @ np.vstack(shapes)
 
 
-def test_resolution_invariance_function_on_scalar():
-    rng = np.random.default_rng(4)
-    X = rng.normal(size=(30, 2))
-    common = np.linspace(0, 1, 57)
-    preds = []
-    for t in _grids().values():
-        Y = 1 + t + X @ np.vstack([np.sin(2 * np.pi * t), t**2])
-        model = FunctionOnScalarRidge(alpha=1e-6, n_basis=15, response_grid=t)
-        preds.append(model.fit(X, Y).predict(X, eval_points=common))
-    for p in preds[1:]:
-        assert np.max(np.abs(p - preds[0])) < 1e-3 * np.max(np.abs(preds[0]))
-
-
-@pytest.mark.parametrize("cls", [FunctionOnFunctionRidge, ConcurrentFunctionRidge])
-def test_resolution_invariance_function_on_function(cls):
-    rng = np.random.default_rng(5)
-    scores = rng.normal(size=(40, 3))
-    common = np.linspace(0, 1, 57)
-    preds = []
-    for s in _grids().values():
-        X = _curves(s, scores)
-        if cls is FunctionOnFunctionRidge:
-            kernel = np.exp(-((s[:, None] - s[None, :]) ** 2) / 0.1)
-            Y = X @ (kernel * _trapezoid(s)[:, None]) + s
-        else:
-            Y = np.sin(2 * s) + X * (1 + s**2)
-        grids = {"response_grid": s} if cls is FunctionOnFunctionRidge else {}
-        model = cls(alpha=1e-6, n_basis=12, grid=s, **grids).fit(X, Y)
-        if cls is FunctionOnFunctionRidge:
-            preds.append(model.predict(X, eval_points=common))
-        else:
-            intercept, coef = model.coef_functions_at(common)
-            preds.append(intercept + _curves(common, scores) * coef)
-    for p in preds[1:]:
-        assert np.max(np.abs(p - preds[0])) < 1e-3 * np.max(np.abs(preds[0]))
-
-
 # --------------------------------------------------------------------------
 # scikit-learn integration, statistics, pandas
 
@@ -461,4 +424,3 @@ def test_bad_input_messages(rng):
     fof = FunctionOnFunctionRidge(n_basis=5).fit(Xf, Xf)
     with pytest.raises(ValueError, match="X has 10 features"):
         fof.predict(Xf[:, 1:])
-

@@ -179,18 +179,6 @@ def _samplings():
     }
 
 
-def test_resolution_invariance_fixed_alpha():
-    out = np.linspace(0, 1, 101)
-    smooth = {}
-    for name, t in _samplings().items():
-        X = _curves(t, 8)
-        smoother = CurveSmoother(alpha=1e-5, grid=t, eval_points=out)
-        smooth[name] = smoother.fit_transform(X)
-    tol = {"201": 1e-3, "uneven 201": 1e-3, "51": 1e-2}
-    for name, limit in tol.items():
-        assert _relative(smooth[name], smooth["1001"]) < limit, name
-
-
 def test_resolution_invariance_gcv_alpha():
     # Noise of a continuous white-noise record averaged over each point's
     # cell has variance sigma^2 / w_j; with it the best alpha does not depend
