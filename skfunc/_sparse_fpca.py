@@ -54,6 +54,8 @@ from ._alpha import (
 from ._bases import BSplineBasis, default_n_basis, gram_sqrt
 from ._blocks import row_blocks
 from ._dask import check_rows
+from ._docstrings import fill_doc
+from ._estimator import store_init_params
 from ._fpca import _single_thread, sign_convention
 from ._penalized import (
     NotIdentifiableError,
@@ -223,6 +225,7 @@ def covariance_sums(rows, bins, residuals, n_rows, n_bins):
     return tuple(out)
 
 
+@fill_doc
 class SparseFunctionalPCA(ClassNamePrefixFeaturesOutMixin, TransformerMixin, BaseEstimator):
     """Functional principal components of sparse, irregularly observed curves.
 
@@ -277,9 +280,7 @@ class SparseFunctionalPCA(ClassNamePrefixFeaturesOutMixin, TransformerMixin, Bas
         equal-width bins of the domain, each placed at the mean time of its
         observations. This bounds the surface fit at this number squared
         cells whatever the number of curves or distinct times.
-    grid : array-like of shape (n_features,), default=None
-        Times of the columns of ``X``. None means the numeric column labels
-        of a DataFrame, else evenly spaced points on [0, 1].
+    %(grid)s
 
     Attributes
     ----------
@@ -322,10 +323,7 @@ class SparseFunctionalPCA(ClassNamePrefixFeaturesOutMixin, TransformerMixin, Bas
         Degree of the surface's B-splines.
     n_observations_ : int
         Number of observed values (non-NaN entries) in the fit.
-    n_features_in_ : int
-        Number of columns of X (grid points).
-    feature_names_in_ : ndarray of shape (n_features_in_,)
-        Column names of ``X`` when they are all strings.
+    %(curve_input_attributes)s
 
     See Also
     --------
@@ -367,8 +365,7 @@ class SparseFunctionalPCA(ClassNamePrefixFeaturesOutMixin, TransformerMixin, Bas
     smoothed mean), so there is no ``partial_fit``; :meth:`transform` is
     row by row.
 
-    Results are statistical estimates: read :doc:`/cautions` before they
-    drive a quality or safety decision.
+    %(cautions)s
 
     References
     ----------
@@ -395,7 +392,7 @@ class SparseFunctionalPCA(ClassNamePrefixFeaturesOutMixin, TransformerMixin, Bas
     >>> from skfunc.datasets import make_kiln_firing
     >>> from skfunc.decomposition import SparseFunctionalPCA
     >>> minutes = np.arange(0, 600, 10.0)
-    >>> runs = make_kiln_firing(150, minutes=minutes, dropout_fraction=0,
+    >>> runs = make_kiln_firing(150, grid=minutes, dropout_fraction=0,
     ...                         late_start_fraction=0, random_state=0)
     >>> rng = np.random.default_rng(0)
     >>> keep = rng.random(runs.data.shape).argsort(axis=1) < 5
@@ -439,16 +436,7 @@ class SparseFunctionalPCA(ClassNamePrefixFeaturesOutMixin, TransformerMixin, Bas
         max_covariance_points=100,
         grid=None,
     ):
-        self.n_components = n_components
-        self.n_basis = n_basis
-        self.covariance_n_basis = covariance_n_basis
-        self.degree = degree
-        self.penalty_order = penalty_order
-        self.alpha = alpha
-        self.covariance_alpha = covariance_alpha
-        self.noise_variance = noise_variance
-        self.max_covariance_points = max_covariance_points
-        self.grid = grid
+        store_init_params(self, locals())
 
     def __sklearn_tags__(self):
         tags = super().__sklearn_tags__()

@@ -194,7 +194,7 @@ def test_kiln_readings_pipeline_with_smoother_and_sparse_fpca():
     from skfunc.datasets import make_kiln_firing
 
     minutes = np.arange(0, 600, 10.0)
-    runs = make_kiln_firing(60, minutes=minutes, random_state=0)
+    runs = make_kiln_firing(60, grid=minutes, random_state=0)
     assert np.isnan(runs.data).any()
     filled = CurveSmoother(grid=minutes).fit_transform(runs.data)
     assert not np.isnan(filled).any()
