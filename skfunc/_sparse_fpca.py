@@ -704,7 +704,7 @@ class SparseFunctionalPCA(ClassNamePrefixFeaturesOutMixin, TransformerMixin, Bas
         X = check_rows(X, self.n_components_, "scores per row (n_components_)")
         return np.asarray(X, dtype=np.float64) @ self.components_ + self.mean_
 
-    def predict_curves(self, X, *, level=0.95, points=None):
+    def predict_curves(self, X, *, level=0.95, eval_points=None):
         """Predicted whole curves with pointwise bands.
 
         Parameters
@@ -713,14 +713,14 @@ class SparseFunctionalPCA(ClassNamePrefixFeaturesOutMixin, TransformerMixin, Bas
             Curves on the fitted grid, NaN where not observed.
         level : float, default=0.95
             Pointwise coverage of the bands, in (0, 1).
-        points : array-like of shape (n_points,), default=None
+        eval_points : array-like of shape (n_points,), default=None
             Times at which to predict, inside the grid's range; None means
             ``grid_``.
 
         Returns
         -------
         result : :class:`~sklearn.utils.Bunch`
-            ``points``; ``curves``, ``lower``, ``upper`` of shape
+            ``eval_points``; ``curves``, ``lower``, ``upper`` of shape
             (n_samples, n_points): ``mean + scores @ components`` and
             ``curves -+ z sd``, with ``sd(t)^2 = phi(t)' Omega_i phi(t)`` and
             ``Omega_i`` the conditional covariance of curve i's scores (Yao
@@ -728,12 +728,12 @@ class SparseFunctionalPCA(ClassNamePrefixFeaturesOutMixin, TransformerMixin, Bas
         """
         level = check_level(level)
         scores, covs = self._conditional(self._validate(X))
-        if points is None:
+        if eval_points is None:
             points, comps, mean = self.grid_, self.components_, self.mean_
         else:
-            points = np.asarray(points, dtype=np.float64)
+            points = np.asarray(eval_points, dtype=np.float64)
             if points.ndim != 1 or not np.all(np.isfinite(points)):
-                raise ValueError("points must be a 1-D array of finite times.")
+                raise ValueError("eval_points must be a 1-D array of finite times.")
             domain = (self.grid_[0], self.grid_[-1])
             basis = BSplineBasis(domain, self.n_basis_, degree=self.degree_)
             cbasis = BSplineBasis(domain, self.covariance_n_basis_,
@@ -743,4 +743,5 @@ class SparseFunctionalPCA(ClassNamePrefixFeaturesOutMixin, TransformerMixin, Bas
         curves = scores @ comps + mean
         sd = np.sqrt(np.maximum(np.einsum("ap,nab,bp->np", comps, covs, comps), 0.0))
         z = norm.ppf(0.5 + level / 2)
-        return Bunch(points=points, curves=curves, lower=curves - z * sd, upper=curves + z * sd)
+        return Bunch(eval_points=points, curves=curves, lower=curves - z * sd,
+                     upper=curves + z * sd)
