@@ -55,7 +55,7 @@ from ._bases import BSplineBasis, default_n_basis, gram_sqrt
 from ._blocks import row_blocks
 from ._dask import check_rows
 from ._docstrings import fill_doc
-from ._estimator import store_init_params
+from ._estimator import ShortReprMixin, store_init_params
 from ._fpca import _single_thread, sign_convention
 from ._penalized import (
     NotIdentifiableError,
@@ -226,7 +226,8 @@ def covariance_sums(rows, bins, residuals, n_rows, n_bins):
 
 
 @fill_doc
-class SparseFunctionalPCA(ClassNamePrefixFeaturesOutMixin, TransformerMixin, BaseEstimator):
+class SparseFunctionalPCA(ShortReprMixin, ClassNamePrefixFeaturesOutMixin, TransformerMixin,
+                          BaseEstimator):
     """Functional principal components of sparse, irregularly observed curves.
 
     Each row of ``X`` is a curve observed at a few of the grid's points:

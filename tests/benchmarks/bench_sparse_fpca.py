@@ -86,8 +86,13 @@ def main(argv=None):
         print(f"{n:>8} {n_obs:>9} {ingest:>9.2f} {fit:>7.2f} {transform:>11.2f} "
               f"{1e6 * fit / n_obs:>12.2f}")
     (n0, o0, f0), (n1, o1, f1) = rows[-2], rows[-1]
-    print(f"fit time ratio {n1} / {n0} curves: {f1 / f0:.2f} (observations x{o1 / o0:.2f}; "
-          "linear cost gives about the same ratio)")
+    obs, fits = np.array([r[1] for r in rows], float), np.array([r[2] for r in rows])
+    slope, fixed = np.polyfit(obs, fits, 1)
+    worst = np.max(np.abs(fits - (fixed + slope * obs)) / fits)
+    print(f"fit time = {fixed:.2f} s (smoothing problems of fixed size) + "
+          f"{1e6 * slope:.2f} us per observation; worst deviation from that line "
+          f"{100 * worst:.0f}% (a straight line in the observations is linear cost)")
+    print(f"fit time ratio {n1} / {n0} curves: {f1 / f0:.2f} (observations x{o1 / o0:.2f})")
 
     # the dense baseline on the largest size
     grid = np.linspace(0, 10, N_POINTS)
