@@ -169,19 +169,6 @@ ESTIMATOR_CASES = {
 }
 
 
-def sparse_curves(rng, n=N_CURVES, n_points=41, low=2, high=10):
-    """Curves observed at ``low``..``high`` of ``n_points`` times on [0, 1]
-    (NaN elsewhere): two smooth modes of variation plus noise."""
-    grid = np.linspace(0, 1, n_points)
-    scores = rng.standard_normal((n, 2)) * [2.0, 1.0]
-    curves = (np.sin(2 * grid) + scores[:, :1] * np.cos(np.pi * grid)
-              + scores[:, 1:] * np.sin(np.pi * grid))
-    counts = rng.integers(low, high + 1, n)
-    keep = rng.random((n, n_points)).argsort(axis=1) < counts[:, None]
-    X = np.where(keep, curves + 0.1 * rng.standard_normal(curves.shape), np.nan)
-    return X, grid
-
-
 def make_case(name, grid):
     """``(estimator, X, y, output)`` for the estimator ``name`` on ``grid``."""
     from skfunc.utils import all_estimators
