@@ -24,7 +24,7 @@ from sklearn.pipeline import Pipeline, make_pipeline
 from sklearn.preprocessing import FunctionTransformer
 from threadpoolctl import threadpool_limits
 
-from .datasets import KILN_MINUTES, make_kiln_firing
+from ._datasets import KILN_MINUTES, make_kiln_firing
 from .persistence import save_model
 
 #: candidate penalties of the raw-grid baseline: wide enough for values in °C

@@ -136,7 +136,7 @@ def test_smoother_for_another_grid_learns_nothing_from_the_values():
     b = smoother_for_grid(pipe, coarse).fit(2 * other[:3] + 100.0)
     np.testing.assert_allclose(a.projection_, b.projection_)
     assert a.alpha_ == pipe.named_steps["smooth"].alpha_
-    np.testing.assert_array_equal(a.output_grid_, kiln.grid)
+    np.testing.assert_array_equal(a.eval_points_, kiln.grid)
 
 
 @pytest.mark.slow

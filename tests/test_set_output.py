@@ -17,7 +17,7 @@ polars = pytest.importorskip("polars")
 
 TRANSFORMERS = [
     skfunc.BasisFeatures(n_basis=12),
-    skfunc.CurveSmoother(n_basis=20, output_grid=np.arange(0.0, 600.0, 25.0)),
+    skfunc.CurveSmoother(n_basis=20, eval_points=np.arange(0.0, 600.0, 25.0)),
     skfunc.FunctionalPCA(n_components=3),
 ]
 
@@ -47,7 +47,7 @@ def test_pipeline_reads_the_grid_from_the_previous_step_labels(library):
 
     X, minutes = _kiln()
     out = np.arange(0.0, 600.0, 30.0)
-    pipe = make_pipeline(skfunc.CurveSmoother(grid=minutes, output_grid=out),
+    pipe = make_pipeline(skfunc.CurveSmoother(grid=minutes, eval_points=out),
                          skfunc.FunctionalPCA(n_components=2))
     scores = pipe.set_output(transform=library).fit_transform(X)
     np.testing.assert_allclose(pipe[-1].grid_, out)  # read from the labels
