@@ -419,8 +419,11 @@ def test_bad_input_messages(rng):
     with pytest.raises(ValueError, match="n_basis=60 exceeds"):
         FunctionOnScalarRidge(alpha=0, n_basis=60).fit(X, Y)
     Xf = rng.normal(size=(20, 11))
-    with pytest.raises(ValueError, match="one shared grid"):
-        ConcurrentFunctionRidge().fit(Xf, rng.normal(size=(20, 9)))
+    with pytest.raises(ValueError, match="response_grid must lie in the input grid's"):
+        ConcurrentFunctionRidge(response_grid=np.linspace(0.5, 1.5, 9)).fit(
+            Xf, rng.normal(size=(20, 9)))
+    with pytest.raises(ValueError, match="response_grid has 2 point"):
+        ConcurrentFunctionRidge(response_grid=[0.1, 0.2]).fit(Xf, Xf[:, :1])
     fof = FunctionOnFunctionRidge(n_basis=5).fit(Xf, Xf)
     with pytest.raises(ValueError, match="X has 10 features"):
         fof.predict(Xf[:, 1:])
