@@ -61,6 +61,18 @@ def _pca_output(est, X):
     return np.concatenate([est.explained_variance_, np.abs(est.transform(X)).ravel()])
 
 
+def _sparse_pca_output(est, X):
+    # eigenvalues and the component functions at common points; the scores
+    # are conditional expectations that weigh every observation alike (sums
+    # over points, not integrals), so on curves outside the components' span
+    # they change with the number of points by O(1/m), as they should
+    from skfunc._bases import BSplineBasis
+
+    basis = BSplineBasis((0.0, 1.0), est.covariance_n_basis_, degree=est.covariance_degree_)
+    components = est.components_basis_coef_ @ basis.evaluate(COMMON_POINTS).T
+    return np.concatenate([est.explained_variance_, np.abs(components).ravel()])
+
+
 def _curve_prediction(est, X):
     return est.predict(X, eval_points=COMMON_POINTS)
 
@@ -72,6 +84,12 @@ def _concurrent_output(est, X):
 
 def _curves_only(grid):
     return smooth_curves(grid)[0], None
+
+
+def _smoother_curves_only(grid):
+    # 5 Fourier terms: a covariance surface that 15 x 15 B-splines represent
+    # (11 terms put variation at scales the smoothed surface leaves to noise)
+    return make_smooth_regression(N_CURVES, grid=grid, n_terms=5, random_state=0)[0], None
 
 
 def _curves_and_outcome(grid):
@@ -129,6 +147,20 @@ ESTIMATOR_CASES = {
         params=lambda grid: {"alpha": 1e-6, "n_basis": 10, "grid": grid,
                              "response_grid": grid},
         data=_curves_and_curves, output=_curve_prediction, curve_input=True,
+    ),
+    "SparseFunctionalPCA": dict(
+        # fixed alphas: the automatic choice may step to a neighbouring
+        # candidate between samplings, which is not what these tests check
+        params=lambda grid: {"n_components": 3, "alpha": 1e-6, "covariance_alpha": 1e-6,
+                             "max_covariance_points": 201, "grid": grid},
+        data=_smoother_curves_only, output=_sparse_pca_output, curve_input=True,
+        # observations are pooled with equal weights (Yao, Mueller and Wang
+        # 2005), not quadrature weights: a grid dense at the ends weighs the
+        # ends more (a different, equally consistent estimate), and on even
+        # grids the end points weigh a full step instead of half of one, an
+        # O(h) = 1/200 relative difference; 2e-2 leaves room (a sum in place
+        # of an integral would change eigenvalues 5x)
+        even_grids_only=True, resolution_rtol=2e-2,
     ),
     "ConcurrentFunctionRidge": dict(
         params=lambda grid: {"alpha": 1e-6, "n_basis": 12, "grid": grid},
