@@ -82,7 +82,7 @@ class ConcurrentFunctionRidge(CurveResponseRegressor):
 
     Notes
     -----
-    The fit reads the data through additive sums at every grid point, then
+    The fit reads the data through additive sums at every response point, then
     once more for the sandwich covariance of the bands; both passes run per
     row block (on the workers for dask arrays). The bands need the fitted
     coefficients, so there is no ``partial_fit``.
@@ -197,7 +197,7 @@ class ConcurrentFunctionRidge(CurveResponseRegressor):
         return X[:, left] * (1 - frac) + X[:, left + 1] * frac
 
     def _statistics(self, X, y, sample_weight=None):
-        """Weighted sums over curves at every grid point.
+        """Weighted sums over curves at every response point.
 
         Keys ``n``, ``sw`` (count and weight total), ``x``, ``xx``, ``y``,
         ``xy``, ``yy`` (weighted sums of X, X^2, y, X y, y^2 per response
