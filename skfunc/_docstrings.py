@@ -194,6 +194,17 @@ smoothing spline. *J. R. Statist. Soc. B* 45, 133-150.
 Nychka, D. (1988). Bayesian confidence intervals for smoothing splines.
 *J. Amer. Statist. Assoc.* 83, 1134-1143.
 """,
+    "plot_backend": """
+>>> import matplotlib
+>>> matplotlib.use("Agg")
+""",
+    "kiln_fpca_example": """
+%(plot_backend)s
+>>> from skfunc.datasets import make_kiln_firing
+>>> from skfunc.decomposition import FunctionalPCA
+>>> kiln = make_kiln_firing(60, dropout_fraction=0, random_state=0)
+>>> fpca = FunctionalPCA(n_components=3, grid=kiln.grid).fit(kiln.data)
+""",
 }
 
 

@@ -2,6 +2,8 @@
 
 import numpy as np
 
+from ._docstrings import fill_doc
+from ._estimator import store_init_params
 from ._plot_base import _Display, _fitted_attributes, _label, _legend_beside
 
 #: display names of the selection criteria estimators name in their parameters
@@ -28,6 +30,7 @@ def criterion_name_of(estimator):
     return "selection criterion"
 
 
+@fill_doc
 class AlphaCriterionDisplay(_Display):
     """The model-selection criterion over candidate penalties ``alpha``.
 
@@ -70,8 +73,7 @@ class AlphaCriterionDisplay(_Display):
 
     Examples
     --------
-    >>> import matplotlib
-    >>> matplotlib.use("Agg")
+    %(plot_backend)s
     >>> from skfunc.datasets import make_kiln_firing
     >>> from skfunc.plotting import AlphaCriterionDisplay
     >>> from skfunc.preprocessing import CurveSmoother
@@ -88,11 +90,7 @@ class AlphaCriterionDisplay(_Display):
 
     def __init__(self, *, alphas, criterion, alpha, criterion_name="selection criterion",
                  per_curve_alphas=None):
-        self.alphas = alphas
-        self.criterion = criterion
-        self.alpha = alpha
-        self.criterion_name = criterion_name
-        self.per_curve_alphas = per_curve_alphas
+        store_init_params(self, locals())
 
     @classmethod
     def from_estimator(cls, estimator, X=None, *, criterion_name=None, max_lines=20,

@@ -3,6 +3,8 @@
 import numpy as np
 from sklearn.utils.validation import check_array
 
+from ._docstrings import fill_doc
+from ._estimator import store_init_params
 from ._plot_base import GRID_LABEL, _Display, _fitted_attributes, _label, _legend_beside
 
 
@@ -20,6 +22,7 @@ def _coef_grid(estimator, n_points):
     )
 
 
+@fill_doc
 class CoefficientFunctionDisplay(_Display):
     """A coefficient function with its pointwise confidence band.
 
@@ -49,8 +52,7 @@ class CoefficientFunctionDisplay(_Display):
 
     Examples
     --------
-    >>> import matplotlib
-    >>> matplotlib.use("Agg")
+    %(plot_backend)s
     >>> from skfunc.datasets import make_smooth_regression
     >>> from skfunc.linear_model import FunctionalRidgeCV
     >>> from skfunc.plotting import CoefficientFunctionDisplay
@@ -62,12 +64,7 @@ class CoefficientFunctionDisplay(_Display):
     """
 
     def __init__(self, *, grid, coef, lower, upper, level, reference=None):
-        self.grid = grid
-        self.coef = coef
-        self.lower = lower
-        self.upper = upper
-        self.level = level
-        self.reference = reference
+        store_init_params(self, locals())
 
     @classmethod
     def from_estimator(cls, estimator, *, level=0.95, target=0, reference=None,

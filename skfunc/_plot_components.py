@@ -3,6 +3,8 @@ the mean curve."""
 
 import numpy as np
 
+from ._docstrings import fill_doc
+from ._estimator import store_init_params
 from ._plot_base import (
     GRID_LABEL,
     VALUE_LABEL,
@@ -15,6 +17,7 @@ from ._plot_base import (
 )
 
 
+@fill_doc
 class ComponentPerturbationDisplay(_Display):
     """Functional principal components as perturbations of the mean curve.
 
@@ -53,26 +56,16 @@ class ComponentPerturbationDisplay(_Display):
 
     Examples
     --------
-    >>> import matplotlib
-    >>> matplotlib.use("Agg")
-    >>> from skfunc.datasets import make_kiln_firing
-    >>> from skfunc.decomposition import FunctionalPCA
+    %(kiln_fpca_example)s
     >>> from skfunc.plotting import ComponentPerturbationDisplay
-    >>> kiln = make_kiln_firing(40, dropout_fraction=0, random_state=0)
-    >>> fpca = FunctionalPCA(n_components=2, grid=kiln.grid).fit(kiln.data)
     >>> display = ComponentPerturbationDisplay.from_estimator(fpca)
     >>> len(display.axes_)
-    2
+    3
     """
 
     def __init__(self, *, grid, mean, components, explained_variance,
                  explained_variance_ratio=None, n_sd=2.0):
-        self.grid = grid
-        self.mean = mean
-        self.components = components
-        self.explained_variance = explained_variance
-        self.explained_variance_ratio = explained_variance_ratio
-        self.n_sd = n_sd
+        store_init_params(self, locals())
 
     @classmethod
     def from_estimator(cls, estimator, *, n_components=None, n_sd=2.0, ax=None):

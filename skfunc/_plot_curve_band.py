@@ -3,10 +3,13 @@
 import numpy as np
 from sklearn.utils.validation import check_array
 
+from ._docstrings import fill_doc
+from ._estimator import store_init_params
 from ._grid import resolve_grid
 from ._plot_base import GRID_LABEL, VALUE_LABEL, _check_n_sd, _Display, _label, _legend_beside
 
 
+@fill_doc
 class CurveBandDisplay(_Display):
     """Curves with their pointwise mean and a mean +- ``n_sd`` SD band.
 
@@ -39,8 +42,7 @@ class CurveBandDisplay(_Display):
 
     Examples
     --------
-    >>> import matplotlib
-    >>> matplotlib.use("Agg")
+    %(plot_backend)s
     >>> from skfunc.datasets import make_kiln_firing
     >>> from skfunc.plotting import CurveBandDisplay
     >>> kiln = make_kiln_firing(30, random_state=0)
@@ -51,12 +53,7 @@ class CurveBandDisplay(_Display):
     """
 
     def __init__(self, *, grid, curves, mean, sd, n_sd=2.0, n_curves=None):
-        self.grid = grid
-        self.curves = curves
-        self.mean = mean
-        self.sd = sd
-        self.n_sd = n_sd
-        self.n_curves = n_curves
+        store_init_params(self, locals())
 
     @classmethod
     def from_data(cls, X, *, grid=None, n_sd=2.0, max_curves=50, ax=None):

@@ -2,6 +2,8 @@
 
 import numpy as np
 
+from ._docstrings import fill_doc
+from ._estimator import store_init_params
 from ._plot_base import _Display, _fitted_attributes, _label, _legend_beside
 
 
@@ -41,6 +43,7 @@ def _row_selection(highlight, n_rows):
     return sel % n_rows
 
 
+@fill_doc
 class ComponentScoreDisplay(_Display):
     """The curves' scores on two functional principal components.
 
@@ -81,29 +84,18 @@ class ComponentScoreDisplay(_Display):
 
     Examples
     --------
-    >>> import matplotlib
-    >>> matplotlib.use("Agg")
-    >>> from skfunc.datasets import make_kiln_firing
-    >>> from skfunc.decomposition import FunctionalPCA
+    %(kiln_fpca_example)s
     >>> from skfunc.plotting import ComponentScoreDisplay
-    >>> kiln = make_kiln_firing(60, dropout_fraction=0, random_state=0)
-    >>> fpca = FunctionalPCA(n_components=3, grid=kiln.grid).fit(kiln.data)
     >>> display = ComponentScoreDisplay.from_estimator(
     ...     fpca, kiln.data, highlight=kiln.faulty, color=kiln.strength,
     ...     color_label="strength (MPa)")
-    >>> len(display.annotations_) == kiln.faulty.sum()
+    >>> bool(len(display.annotations_) == kiln.faulty.sum())
     True
     """
 
     def __init__(self, *, scores, components=(0, 1), explained_variance_ratio=None,
                  labels=None, highlight=None, color=None, color_label=None):
-        self.scores = scores
-        self.components = components
-        self.explained_variance_ratio = explained_variance_ratio
-        self.labels = labels
-        self.highlight = highlight
-        self.color = color
-        self.color_label = color_label
+        store_init_params(self, locals())
 
     @classmethod
     def from_estimator(cls, estimator, X, *, components=(0, 1), labels=None,
