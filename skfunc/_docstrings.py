@@ -103,6 +103,9 @@ Parameters
 ----------
 X : array-like or dask array of shape (n_samples, n_features)
     Curves, one per row, sampled on the grid.
+%(y_ignored_returns_transformer)s
+""",
+    "y_ignored_returns_transformer": """
 y : None
     Ignored.
 

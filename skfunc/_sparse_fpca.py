@@ -445,6 +445,7 @@ class SparseFunctionalPCA(ShortReprMixin, ClassNamePrefixFeaturesOutMixin, Trans
         return tags
 
     # ------------------------------------------------------------------ fit
+    @fill_doc
     def fit(self, X, y=None):
         """Estimate the mean, covariance, components and noise variance.
 
@@ -453,13 +454,7 @@ class SparseFunctionalPCA(ShortReprMixin, ClassNamePrefixFeaturesOutMixin, Trans
         X : array-like of shape (n_samples, n_features)
             Curves, one per row, on the grid; NaN where a curve was not
             observed. Every row needs at least one observed value.
-        y : None
-            Ignored.
-
-        Returns
-        -------
-        self : object
-            Fitted transformer.
+        %(y_ignored_returns_transformer)s
         """
         self._validate_params()
         X = validate_curves(self, X, reset=True, allow_nan=True, ensure_min_samples=2)
