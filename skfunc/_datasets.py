@@ -7,6 +7,7 @@ import numpy as np
 from sklearn.utils import Bunch, check_random_state
 from sklearn.utils._param_validation import Interval, validate_params
 
+from ._docstrings import fill_doc
 from ._grid import check_grid, quadrature_weights
 
 #: length of a firing cycle in minutes; the default grid is minutes 0..599
@@ -352,6 +353,7 @@ def _evaluation_grid(grid, name="grid"):
     },
     prefer_skip_nested_validation=True,
 )
+@fill_doc
 def make_smooth_regression(
     n_samples=100,
     *,
@@ -378,9 +380,7 @@ def make_smooth_regression(
     ----------
     n_samples : int, default=100
         Number of curves.
-    grid : int or array-like of shape (n_points,), default=None
-        Sampling points (strictly increasing), or a number of evenly spaced
-        points on [0, 1]. None means 101 points on [0, 1].
+    %(dataset_grid)s
     n_terms : int, default=11
         Number of Fourier functions in the curves and in ``beta``.
     noise : float, default=0.1
@@ -389,8 +389,7 @@ def make_smooth_regression(
         Standard deviation of independent noise added to every curve value.
     intercept : float, default=0.0
         Intercept of the model.
-    random_state : int, RandomState instance or None, default=None
-        Seed.
+    %(dataset_random_state)s
 
     Returns
     -------
@@ -433,6 +432,7 @@ def make_smooth_regression(
     },
     prefer_skip_nested_validation=True,
 )
+@fill_doc
 def make_brownian_paths(n_samples=100, *, grid=None, sigma=1.0, random_state=None):
     """Brownian motion paths started at 0 at the first grid point.
 
@@ -447,13 +447,10 @@ def make_brownian_paths(n_samples=100, *, grid=None, sigma=1.0, random_state=Non
     ----------
     n_samples : int, default=100
         Number of paths.
-    grid : int or array-like of shape (n_points,), default=None
-        Sampling points (strictly increasing), or a number of evenly spaced
-        points on [0, 1]. None means 101 points on [0, 1].
+    %(dataset_grid)s
     sigma : float, default=1.0
         Diffusion coefficient.
-    random_state : int, RandomState instance or None, default=None
-        Seed.
+    %(dataset_random_state)s
 
     Returns
     -------

@@ -197,16 +197,27 @@ smoothing spline. *J. R. Statist. Soc. B* 45, 133-150.
 Nychka, D. (1988). Bayesian confidence intervals for smoothing splines.
 *J. Amer. Statist. Assoc.* 83, 1134-1143.
 """,
-    "plot_backend": """
+    "plot_examples": """
+Examples
+--------
 >>> import matplotlib
 >>> matplotlib.use("Agg")
 """,
     "kiln_fpca_example": """
-%(plot_backend)s
+%(plot_examples)s
 >>> from skfunc.datasets import make_kiln_firing
 >>> from skfunc.decomposition import FunctionalPCA
 >>> kiln = make_kiln_firing(60, dropout_fraction=0, random_state=0)
 >>> fpca = FunctionalPCA(n_components=3, grid=kiln.grid).fit(kiln.data)
+""",
+    "dataset_grid": """
+grid : int or array-like of shape (n_points,), default=None
+    Sampling points (strictly increasing), or a number of evenly spaced
+    points on [0, 1]. None means 101 points on [0, 1].
+""",
+    "dataset_random_state": """
+random_state : int, RandomState instance or None, default=None
+    Seed.
 """,
 }
 

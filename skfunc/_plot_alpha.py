@@ -71,9 +71,7 @@ class AlphaCriterionDisplay(_Display):
     Craven, P. and Wahba, G. (1979). Smoothing noisy data with spline
     functions. *Numerische Mathematik* 31, 377-403.
 
-    Examples
-    --------
-    %(plot_backend)s
+    %(plot_examples)s
     >>> from skfunc.datasets import make_kiln_firing
     >>> from skfunc.plotting import AlphaCriterionDisplay
     >>> from skfunc.preprocessing import CurveSmoother

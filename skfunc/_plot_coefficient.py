@@ -50,9 +50,7 @@ class CoefficientFunctionDisplay(_Display):
     --------
     skfunc.linear_model.FunctionalRidge
 
-    Examples
-    --------
-    %(plot_backend)s
+    %(plot_examples)s
     >>> from skfunc.datasets import make_smooth_regression
     >>> from skfunc.linear_model import FunctionalRidgeCV
     >>> from skfunc.plotting import CoefficientFunctionDisplay

@@ -54,8 +54,6 @@ class ComponentPerturbationDisplay(_Display):
     Ramsay, J. O. and Silverman, B. W. (2005). *Functional Data Analysis*,
     2nd ed., section 8.3. Springer.
 
-    Examples
-    --------
     %(kiln_fpca_example)s
     >>> from skfunc.plotting import ComponentPerturbationDisplay
     >>> display = ComponentPerturbationDisplay.from_estimator(fpca)

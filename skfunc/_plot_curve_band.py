@@ -40,9 +40,7 @@ class CurveBandDisplay(_Display):
     --------
     skfunc.hilbert.mean_function, skfunc.hilbert.variance_function
 
-    Examples
-    --------
-    %(plot_backend)s
+    %(plot_examples)s
     >>> from skfunc.datasets import make_kiln_firing
     >>> from skfunc.plotting import CurveBandDisplay
     >>> kiln = make_kiln_firing(30, random_state=0)

@@ -82,8 +82,6 @@ class ComponentScoreDisplay(_Display):
     skfunc.decomposition.FunctionalPCA
     ComponentPerturbationDisplay : What moving along a component looks like.
 
-    Examples
-    --------
     %(kiln_fpca_example)s
     >>> from skfunc.plotting import ComponentScoreDisplay
     >>> display = ComponentScoreDisplay.from_estimator(
