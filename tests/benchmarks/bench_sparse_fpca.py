@@ -18,14 +18,11 @@ the best of ``--repeat`` runs.
 """
 
 import argparse
-import sys
 import time
 import warnings
-from pathlib import Path
 
 import numpy as np
-
-sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
+from _common import best_time  # first: puts the repository on sys.path
 
 from skfunc.decomposition import FunctionalPCA, SparseFunctionalPCA  # noqa: E402
 from skfunc.irregular import curves_from_arrays  # noqa: E402
@@ -49,15 +46,6 @@ def interpolate(times, values, grid):
     return np.array([np.interp(grid, t, v) for t, v in zip(times, values)])
 
 
-def best(job, repeat):
-    out = np.inf
-    for _ in range(repeat):
-        start = time.perf_counter()
-        job()
-        out = min(out, time.perf_counter() - start)
-    return out
-
-
 def main(argv=None):
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--quick", action="store_true", help="small sizes, a smoke run")
@@ -79,8 +67,8 @@ def main(argv=None):
         curves = curves_from_arrays(list(times), list(values), grid=N_POINTS, domain=(0, 10))
         ingest = time.perf_counter() - start
         est = SparseFunctionalPCA(2, grid=curves.grid)
-        fit = best(lambda est=est, X=curves.X: est.fit(X), repeat)
-        transform = best(lambda est=est, X=curves.X: est.transform(X), repeat)
+        fit = best_time(lambda est=est, X=curves.X: est.fit(X), repeat)
+        transform = best_time(lambda est=est, X=curves.X: est.transform(X), repeat)
         n_obs = int(np.isfinite(curves.X).sum())
         rows.append((n, n_obs, fit))
         print(f"{n:>8} {n_obs:>9} {ingest:>9.2f} {fit:>7.2f} {transform:>11.2f} "
@@ -100,8 +88,8 @@ def main(argv=None):
     dense = interpolate(times, values, grid)
     interp = time.perf_counter() - start
     fpca = FunctionalPCA(2, grid=grid)
-    dense_fit = best(lambda: fpca.fit(dense), repeat)
-    dense_transform = best(lambda: fpca.transform(dense), repeat)
+    dense_fit = best_time(lambda: fpca.fit(dense), repeat)
+    dense_transform = best_time(lambda: fpca.transform(dense), repeat)
     print(f"dense FunctionalPCA(2) on the same {n1} curves interpolated to {N_POINTS} "
           f"points: interpolation {interp:.2f} s, fit {dense_fit:.2f} s, transform "
           f"{dense_transform:.2f} s")
