@@ -341,10 +341,16 @@ def _evaluation_grid(grid, name="grid"):
     return check_grid(grid, name=name)
 
 
+#: constraints of ``n_samples`` and of a ``grid`` given as points or a count
+_SAMPLES_ON_A_GRID = {
+    "n_samples": [Interval(Integral, 1, None, closed="left")],
+    "grid": ["array-like", Interval(Integral, 2, None, closed="left"), None],
+}
+
+
 @validate_params(
     {
-        "n_samples": [Interval(Integral, 1, None, closed="left")],
-        "grid": ["array-like", Interval(Integral, 2, None, closed="left"), None],
+        **_SAMPLES_ON_A_GRID,
         "n_terms": [Interval(Integral, 1, None, closed="left")],
         "noise": [Interval(Real, 0, None, closed="left")],
         "curve_noise": [Interval(Real, 0, None, closed="left")],
@@ -378,9 +384,7 @@ def make_smooth_regression(
 
     Parameters
     ----------
-    n_samples : int, default=100
-        Number of curves.
-    %(dataset_grid)s
+    %(dataset_samples_grid)s
     n_terms : int, default=11
         Number of Fourier functions in the curves and in ``beta``.
     noise : float, default=0.1
@@ -425,8 +429,7 @@ def make_smooth_regression(
 
 @validate_params(
     {
-        "n_samples": [Interval(Integral, 1, None, closed="left")],
-        "grid": ["array-like", Interval(Integral, 2, None, closed="left"), None],
+        **_SAMPLES_ON_A_GRID,
         "sigma": [Interval(Real, 0, None, closed="neither")],
         "random_state": ["random_state"],
     },
@@ -445,9 +448,7 @@ def make_brownian_paths(n_samples=100, *, grid=None, sigma=1.0, random_state=Non
 
     Parameters
     ----------
-    n_samples : int, default=100
-        Number of paths.
-    %(dataset_grid)s
+    %(dataset_samples_grid)s
     sigma : float, default=1.0
         Diffusion coefficient.
     %(dataset_random_state)s

@@ -210,7 +210,9 @@ Examples
 >>> kiln = make_kiln_firing(60, dropout_fraction=0, random_state=0)
 >>> fpca = FunctionalPCA(n_components=3, grid=kiln.grid).fit(kiln.data)
 """,
-    "dataset_grid": """
+    "dataset_samples_grid": """
+n_samples : int, default=100
+    Number of curves.
 grid : int or array-like of shape (n_points,), default=None
     Sampling points (strictly increasing), or a number of evenly spaced
     points on [0, 1]. None means 101 points on [0, 1].
