@@ -6,7 +6,8 @@ Hilbert space of functions, evaluated on the curves' grid.
 
 __version__ = "0.1.0"
 
-from . import hilbert, metrics
+from . import alignment, hilbert, metrics
+from .alignment import ElasticAligner, LandmarkAligner, ShiftAligner
 from .decomposition import FunctionalPCA
 from .linear_model import (
     FunctionalLogisticRegression,
@@ -27,10 +28,17 @@ ESTIMATORS = [
     FunctionalRidge,
     FunctionalRidgeCV,
     FunctionalLogisticRegression,
+    ShiftAligner,
+    LandmarkAligner,
+    ElasticAligner,
 ]
 
 __all__ = [
     "BasisFeatures",
+    "ElasticAligner",
+    "LandmarkAligner",
+    "ShiftAligner",
+    "alignment",
     "CurveSmoother",
     "ESTIMATORS",
     "FunctionalLogisticRegression",

@@ -1,0 +1,152 @@
+"""What the aligners share: validation, output choice, warps as features,
+putting aligned curves back on their own clocks."""
+
+import numpy as np
+from sklearn.base import BaseEstimator, TransformerMixin
+from sklearn.utils._param_validation import StrOptions
+from sklearn.utils.validation import _check_feature_names_in, check_is_fitted
+
+from ._base import CHUNK_VALUES, validate_curves
+from ._grid import check_grid
+from ._warping import compose, warp_coordinates
+
+#: what ``transform`` returns
+OUTPUTS = ("curves", "warps", "warp_coordinates")
+
+
+class AlignerBase(TransformerMixin, BaseEstimator):
+    """Base of the aligners.
+
+    Subclasses implement ``_fit(X)`` (sets ``template_`` and whatever else
+    they need) and ``_align(X, **kwargs)`` returning ``(aligned, warps)`` for
+    validated curves: ``warps[i]`` is curve i's clock, ``X[i] ~ template o
+    warps[i]``, and ``aligned[i] = X[i] o warps[i]^{-1}``.
+    """
+
+    _output_constraint = {"output": [StrOptions(set(OUTPUTS))], "grid": ["array-like", None]}
+
+    # -- validation -----------------------------------------------------------
+
+    def _validate(self, X, reset):
+        X = validate_curves(self, X, reset=reset)
+        return np.asarray(X, dtype=np.float64)
+
+    def _check_template(self, template):
+        """A user template as a curve on the fitted grid."""
+        m = self.grid_.size
+        try:
+            values = np.asarray(template, dtype=np.float64)
+        except (TypeError, ValueError) as exc:
+            raise TypeError(
+                f"template must be an array of numbers; got {type(template).__name__}."
+            ) from exc
+        values = values.reshape(-1) if values.ndim == 2 and 1 in values.shape else values
+        if values.ndim != 1 or values.size != m:
+            raise ValueError(
+                f"template has shape {np.shape(template)} but X has {m} columns; "
+                "give the template's values on the curves' grid, one per column "
+                "of X (resample it first if it was sampled elsewhere)."
+            )
+        if not np.all(np.isfinite(values)):
+            raise ValueError("template must contain only finite values; got NaN or inf.")
+        return values
+
+    # -- public methods -------------------------------------------------------
+
+    def _row_chunks(self, n):
+        rows = max(1, CHUNK_VALUES // max(self.grid_.size, 1))
+        for start in range(0, n, rows):
+            yield slice(start, min(start + rows, n))
+
+    def _transform(self, X, **kwargs):
+        check_is_fitted(self)
+        X = self._validate(X, reset=False)
+        aligned, warps = self._align(X, **kwargs)
+        if self.output == "curves":
+            return aligned
+        if self.output == "warps":
+            return warps
+        return warp_coordinates(self.grid_, warps)
+
+    def _warps(self, X, **kwargs):
+        check_is_fitted(self)
+        X = self._validate(X, reset=False)
+        return self._align(X, **kwargs)[1]
+
+    def inverse_transform(self, X, warps=None):
+        """Put aligned curves back on their own clocks: ``X[i] o warps[i]``.
+
+        Parameters
+        ----------
+        X : array-like of shape (n_samples, n_features)
+            Aligned curves on the fitted grid (the output of :meth:`transform`
+            with ``output="curves"``).
+        warps : array-like of shape (n_samples, n_features)
+            Each curve's warp on the fitted grid, as returned by
+            :meth:`transform_warps` for the original curves.
+
+        Returns
+        -------
+        X_original : ndarray of shape (n_samples, n_features)
+        """
+        check_is_fitted(self)
+        if self.output != "curves":
+            raise ValueError(
+                f"inverse_transform needs aligned curves; this aligner has "
+                f"output={self.output!r}, whose values cannot be put back on a "
+                "clock. Use output='curves'."
+            )
+        if warps is None:
+            raise ValueError(
+                "inverse_transform needs warps=: each curve's warp on the fitted "
+                "grid, as returned by transform_warps(X) for the original curves."
+            )
+        X = self._validate(X, reset=False)
+        warps = np.asarray(warps, dtype=np.float64)
+        if warps.shape != X.shape:
+            raise ValueError(
+                f"warps has shape {warps.shape} but X has shape {X.shape}; give "
+                "one warp per row of X on the fitted grid."
+            )
+        if not np.all(np.isfinite(warps)):
+            raise ValueError("warps must contain only finite values; got NaN or inf.")
+        return compose(self.grid_, X, warps)
+
+    def get_feature_names_out(self, input_features=None):
+        """Names of the output columns.
+
+        For ``output="curves"``: the input feature names when X had string
+        column names, else the grid points written as numbers. For warps and
+        their coordinates: the class name, ``warp`` and the column index.
+
+        Parameters
+        ----------
+        input_features : array-like of str or None, default=None
+            Input feature names, validated against ``feature_names_in_``.
+
+        Returns
+        -------
+        feature_names_out : ndarray of str objects
+        """
+        check_is_fitted(self)
+        names = _check_feature_names_in(self, input_features, generate_names=False)
+        if self.output == "curves":
+            if names is not None:
+                return np.asarray(names, dtype=object)
+            return np.asarray([repr(float(t)) for t in self.grid_], dtype=object)
+        prefix = type(self).__name__.lower()
+        kind = "warp" if self.output == "warps" else "warp_coordinate"
+        return np.asarray(
+            [f"{prefix}_{kind}{j}" for j in range(self.grid_.size)], dtype=object
+        )
+
+
+def check_grid_points(grid, minimum, what):
+    """Refuse grids with fewer than ``minimum`` points, saying why."""
+    grid = check_grid(grid)
+    if grid.size < minimum:
+        raise ValueError(
+            f"X has {grid.size} grid points (columns); {what} needs at least "
+            f"{minimum}."
+        )
+    return grid

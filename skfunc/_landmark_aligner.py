@@ -1,0 +1,264 @@
+"""LandmarkAligner: smooth monotone warps that map landmarks onto targets."""
+
+import numpy as np
+from scipy.interpolate import PchipInterpolator
+from sklearn.utils._param_validation import StrOptions
+
+from ._aligner_base import AlignerBase, check_grid_points
+from ._warping import compose, invert_warps
+
+FINDERS = ("peak", "trough")
+
+
+def find_extremum(grid, X, sign=1.0):
+    """Time of each row's largest interior value (``sign=1``) or smallest
+    (``sign=-1``), refined by the vertex of the parabola through the best
+    grid point and its neighbours, so the result lies strictly inside the
+    domain and does not jump with the grid."""
+    Y = sign * X[:, 1:-1]
+    j = np.argmax(Y, axis=1) + 1
+    rows = np.arange(X.shape[0])
+    t0, t1, t2 = grid[j - 1], grid[j], grid[j + 1]
+    y0, y1, y2 = sign * X[rows, j - 1], sign * X[rows, j], sign * X[rows, j + 1]
+    # vertex of the parabola through three points (common practice)
+    num = (t1 - t0) ** 2 * (y1 - y2) - (t1 - t2) ** 2 * (y1 - y0)
+    den = (t1 - t0) * (y1 - y2) - (t1 - t2) * (y1 - y0)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        vertex = np.where(den != 0, t1 - 0.5 * num / den, t1)
+    return np.clip(vertex, 0.5 * (t0 + t1), 0.5 * (t1 + t2))[:, None]
+
+
+class LandmarkAligner(AlignerBase):
+    """Align curves by smooth monotone warps through landmark times.
+
+    Each curve has ``k`` landmark times (a peak, a threshold crossing, the
+    start of a phase), given per curve or found by a function. Curve i is
+    read on the warp that carries the target times ``tau_1 < ... < tau_k``
+    onto its landmarks ``l_i1 < ... < l_ik`` and the ends onto the ends,
+    a monotone piecewise-cubic (PCHIP) interpolant: smooth, strictly
+    increasing, and exact at the landmarks, so every aligned curve has its
+    landmarks at the targets.
+
+    Parameters
+    ----------
+    landmarks : {"peak", "trough"} or callable, default="peak"
+        How landmarks are found when they are not passed to ``fit`` or
+        ``transform``: the time of each curve's largest (``"peak"``) or
+        smallest (``"trough"``) interior value, refined between grid points;
+        or a function ``landmarks(X, grid)`` returning an array of shape
+        (n_samples, k).
+    target_landmarks : array-like of shape (k,), default=None
+        Where the landmarks go, strictly increasing and strictly inside the
+        domain. None means the mean landmark times of the training curves.
+    output : {"curves", "warps", "warp_coordinates"}, default="curves"
+        What :meth:`transform` returns: the aligned curves, each curve's warp
+        on the grid, or the warps' L2-orthonormal coordinates
+        ``sqrt(w_j) (gamma(t_j) - t_j)`` (phase as features).
+    grid : array-like of shape (n_features,), default=None
+        Sampling points of the columns of ``X``. None means the numeric column
+        labels of a DataFrame, else evenly spaced points on [0, 1].
+
+    Attributes
+    ----------
+    grid_ : ndarray of shape (n_features,)
+    target_landmarks_ : ndarray of shape (k,)
+    landmarks_ : ndarray of shape (n_samples, k)
+        Landmark times of the training curves.
+    template_ : ndarray of shape (n_features,)
+        Mean of the aligned training curves.
+    n_features_in_ : int
+    feature_names_in_ : ndarray of shape (n_features_in_,)
+
+    See Also
+    --------
+    ShiftAligner : One shift per curve.
+    ElasticAligner : General warps by the Fisher-Rao metric.
+
+    Notes
+    -----
+    The warp returned by :meth:`transform_warps` is curve i's clock
+    ``gamma_i`` (``gamma_i(l_ik) = tau_k``); aligned curves are
+    ``x_i o gamma_i^{-1}``, where ``gamma_i^{-1}`` is the PCHIP interpolant
+    itself, so landmarks map exactly. ``gamma_i`` is its inverse evaluated
+    on the grid (exact at the grid's image points, linear between them).
+
+    References
+    ----------
+    Ramsay, J. O. and Silverman, B. W. (2005). *Functional Data Analysis*,
+    2nd ed., ch. 7 (landmark registration). Springer.
+
+    Fritsch, F. N. and Carlson, R. E. (1980). Monotone piecewise cubic
+    interpolation. *SIAM J. Numer. Anal.* 17(2), 238-246.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from skfunc.alignment import LandmarkAligner
+    >>> t = np.linspace(0, 1, 101)
+    >>> X = np.exp(-((t - np.array([[0.4], [0.6]])) / 0.1) ** 2)
+    >>> aligner = LandmarkAligner(target_landmarks=[0.5]).fit(X)
+    >>> aligned = aligner.transform(X)
+    >>> t[np.argmax(aligned, axis=1)]
+    array([0.5, 0.5])
+    """
+
+    _parameter_constraints = {
+        "landmarks": [StrOptions(set(FINDERS)), callable],
+        "target_landmarks": ["array-like", None],
+        **AlignerBase._output_constraint,
+    }
+
+    def __init__(self, landmarks="peak", *, target_landmarks=None, output="curves",
+                 grid=None):
+        self.landmarks = landmarks
+        self.target_landmarks = target_landmarks
+        self.output = output
+        self.grid = grid
+
+    # -- landmarks ------------------------------------------------------------
+
+    def _landmarks(self, X, landmarks):
+        if landmarks is None:
+            if callable(self.landmarks):
+                landmarks = self.landmarks(X, self.grid_.copy())
+                source = "the landmarks function"
+            else:
+                check_grid_points(self.grid_, 3, f"landmarks={self.landmarks!r}")
+                sign = 1.0 if self.landmarks == "peak" else -1.0
+                return find_extremum(self.grid_, X, sign)
+        else:
+            source = "landmarks"
+        values = np.asarray(landmarks, dtype=np.float64)
+        if values.ndim == 1:
+            values = values[:, None]
+        if values.ndim != 2 or values.shape[0] != X.shape[0]:
+            raise ValueError(
+                f"{source} gave an array of shape {np.shape(landmarks)}; expected "
+                f"(n_samples, k) = ({X.shape[0]}, k): k landmark times per curve."
+            )
+        return self._check_times(values, source)
+
+    def _check_times(self, values, name):
+        a, b = self.grid_[0], self.grid_[-1]
+        if values.size == 0 or not np.all(np.isfinite(values)):
+            raise ValueError(f"{name} must be finite landmark times; got NaN, inf or none.")
+        outside = (values <= a) | (values >= b)
+        if np.any(outside):
+            i, k = np.argwhere(outside)[0]
+            raise ValueError(
+                f"{name}[{i}, {k}]={values[i, k]!r} is not strictly inside the "
+                f"domain ({a}, {b}); warps keep the ends fixed, so landmarks "
+                "must lie between them."
+            )
+        order = np.diff(values, axis=1) <= 0
+        if np.any(order):
+            i, k = np.argwhere(order)[0]
+            raise ValueError(
+                f"{name} must be strictly increasing along each row; row {i} has "
+                f"{values[i, k]!r} followed by {values[i, k + 1]!r}."
+            )
+        return values
+
+    # -- fit / transform ------------------------------------------------------
+
+    def fit(self, X, y=None, landmarks=None):
+        """Find the training landmarks, the targets and the template.
+
+        Parameters
+        ----------
+        X : array-like of shape (n_samples, n_features)
+            Curves, one per row, on the grid.
+        y : None
+            Ignored.
+        landmarks : array-like of shape (n_samples, k), default=None
+            Landmark times of each curve; None means find them with the
+            ``landmarks`` parameter.
+
+        Returns
+        -------
+        self : LandmarkAligner
+        """
+        self._validate_params()
+        X = self._validate(X, reset=True)
+        self.landmarks_ = self._landmarks(X, landmarks)
+        if self.target_landmarks is None:
+            self.target_landmarks_ = self.landmarks_.mean(axis=0)
+        else:
+            targets = np.asarray(self.target_landmarks, dtype=np.float64).reshape(1, -1)
+            self.target_landmarks_ = self._check_times(targets, "target_landmarks")[0]
+        if self.target_landmarks_.size != self.landmarks_.shape[1]:
+            raise ValueError(
+                f"target_landmarks has {self.target_landmarks_.size} times but the "
+                f"curves have {self.landmarks_.shape[1]} landmarks each."
+            )
+        aligned, _ = self._align(X, landmarks=self.landmarks_)
+        self.template_ = aligned.mean(axis=0)
+        return self
+
+    def _phi(self, times):
+        """``gamma_i^{-1}`` on the grid: PCHIP through (targets -> landmarks)."""
+        t = self.grid_
+        a, b = t[0], t[-1]
+        n = times.shape[0]
+        knots = np.concatenate([[a], self.target_landmarks_, [b]])
+        values = np.column_stack([np.full(n, a), times, np.full(n, b)])
+        phi = PchipInterpolator(knots, values.T, axis=0)(t).T
+        phi[:, 0], phi[:, -1] = a, b
+        return phi
+
+    def _align(self, X, landmarks=None):
+        times = self._landmarks(X, landmarks)
+        if times.shape[1] != self.target_landmarks_.size:
+            raise ValueError(
+                f"landmarks has {times.shape[1]} times per curve; the aligner was "
+                f"fitted with {self.target_landmarks_.size}."
+            )
+        phi = self._phi(times)
+        return compose(self.grid_, X, phi), invert_warps(self.grid_, phi)
+
+    def transform(self, X, landmarks=None):
+        """Warp curves so their landmarks fall on the fitted targets.
+
+        Parameters
+        ----------
+        X : array-like of shape (n_samples, n_features)
+            Curves on the fitted grid.
+        landmarks : array-like of shape (n_samples, k), default=None
+            Landmark times of each curve; None means find them.
+
+        Returns
+        -------
+        X_out : ndarray of shape (n_samples, n_features)
+            Aligned curves, warps or warp coordinates (see ``output``).
+        """
+        return self._transform(X, landmarks=landmarks)
+
+    def fit_transform(self, X, y=None, landmarks=None):
+        """Fit, then transform the same curves with the same landmarks.
+
+        Parameters
+        ----------
+        X : array-like of shape (n_samples, n_features)
+        y : None
+            Ignored.
+        landmarks : array-like of shape (n_samples, k), default=None
+
+        Returns
+        -------
+        X_out : ndarray of shape (n_samples, n_features)
+        """
+        return self.fit(X, landmarks=landmarks).transform(X, landmarks=landmarks)
+
+    def transform_warps(self, X, landmarks=None):
+        """Each curve's warp ``gamma_i`` (its clock) on the fitted grid.
+
+        Parameters
+        ----------
+        X : array-like of shape (n_samples, n_features)
+        landmarks : array-like of shape (n_samples, k), default=None
+
+        Returns
+        -------
+        warps : ndarray of shape (n_samples, n_features)
+        """
+        return self._warps(X, landmarks=landmarks)
