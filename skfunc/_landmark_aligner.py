@@ -1,11 +1,10 @@
 """LandmarkAligner: smooth monotone warps that map landmarks onto targets."""
 
 import numpy as np
-from scipy.interpolate import PchipInterpolator
 from sklearn.utils._param_validation import StrOptions
 
 from ._aligner_base import AlignerBase, check_grid_points
-from ._warping import compose, invert_warps
+from ._warping import compose, pchip_rows
 
 FINDERS = ("peak", "trough")
 
@@ -78,9 +77,11 @@ class LandmarkAligner(AlignerBase):
     -----
     The warp returned by :meth:`transform_warps` is curve i's clock
     ``gamma_i`` (``gamma_i(l_ik) = tau_k``); aligned curves are
-    ``x_i o gamma_i^{-1}``, where ``gamma_i^{-1}`` is the PCHIP interpolant
-    itself, so landmarks map exactly. ``gamma_i`` is its inverse evaluated
-    on the grid (exact at the grid's image points, linear between them).
+    ``x_i o phi_i``, where ``phi_i`` is the PCHIP interpolant through
+    (targets -> landmarks), so landmarks map exactly. ``gamma_i`` is the PCHIP
+    interpolant through (landmarks -> targets): also exact at the landmarks,
+    and equal to ``phi_i^{-1}`` up to the interpolation error (both are
+    monotone cubic interpolants of the same points).
 
     References
     ----------
@@ -195,16 +196,18 @@ class LandmarkAligner(AlignerBase):
         self.template_ = aligned.mean(axis=0)
         return self
 
-    def _phi(self, times):
-        """``gamma_i^{-1}`` on the grid: PCHIP through (targets -> landmarks)."""
+    def _warp_pair(self, times):
+        """``(gamma_i^{-1}, gamma_i)`` on the grid: PCHIP through
+        (targets -> landmarks) and through (landmarks -> targets)."""
         t = self.grid_
         a, b = t[0], t[-1]
         n = times.shape[0]
-        knots = np.concatenate([[a], self.target_landmarks_, [b]])
-        values = np.column_stack([np.full(n, a), times, np.full(n, b)])
-        phi = PchipInterpolator(knots, values.T, axis=0)(t).T
-        phi[:, 0], phi[:, -1] = a, b
-        return phi
+        targets = np.tile(np.concatenate([[a], self.target_landmarks_, [b]]), (n, 1))
+        own = np.column_stack([np.full(n, a), times, np.full(n, b)])
+        phi, gamma = pchip_rows(targets, own, t), pchip_rows(own, targets, t)
+        for warp in (phi, gamma):
+            warp[:, 0], warp[:, -1] = a, b
+        return phi, gamma
 
     def _align(self, X, landmarks=None):
         times = self._landmarks(X, landmarks)
@@ -213,8 +216,8 @@ class LandmarkAligner(AlignerBase):
                 f"landmarks has {times.shape[1]} times per curve; the aligner was "
                 f"fitted with {self.target_landmarks_.size}."
             )
-        phi = self._phi(times)
-        return compose(self.grid_, X, phi), invert_warps(self.grid_, phi)
+        phi, gamma = self._warp_pair(times)
+        return compose(self.grid_, X, phi), gamma
 
     def transform(self, X, landmarks=None):
         """Warp curves so their landmarks fall on the fitted targets.
