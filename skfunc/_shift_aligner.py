@@ -10,6 +10,10 @@ from ._grid import quadrature_weights
 from ._warping import interp_rows, partial_weights
 
 ENDS = ("constant", "overlap")
+#: candidate shifts on each side of zero: spacing max_shift / 32 whatever the
+#: grid (so the search does not depend on the sampling), refined between
+#: candidates by a parabola
+N_HALF = 32
 
 
 def shift_costs(grid, X, template, shifts, ends):
@@ -26,7 +30,7 @@ def shift_costs(grid, X, template, shifts, ends):
     lo = a + np.maximum(shifts, 0.0)
     hi = b + np.minimum(shifts, 0.0)
     W = partial_weights(grid, lo, hi)  # (K, m), over s in [lo, hi]
-    T_shift = interp_rows(grid[None, :] - shifts[:, None], grid, template[None, :])
+    T_shift = np.interp(grid[None, :] - shifts[:, None], grid, template)
     WT = W * T_shift
     cost = (X * X) @ W.T
     cost -= 2.0 * (X @ WT.T)
@@ -107,8 +111,8 @@ class ShiftAligner(AlignerBase):
     shifts_ : ndarray of shape (n_samples,)
         Shifts of the training curves against ``template_``.
     candidate_shifts_ : ndarray of shape (n_candidates,)
-        Evenly spaced shifts searched before parabolic refinement (spacing
-        the mean grid step).
+        The 65 evenly spaced shifts in ``[-max_shift, max_shift]`` scored
+        before parabolic refinement.
     n_iter_ : int
         Number of Procrustes iterations run.
     n_features_in_ : int
@@ -188,8 +192,7 @@ class ShiftAligner(AlignerBase):
                 f"max_shift={self.max_shift} must be shorter than the domain "
                 f"[{t[0]}, {t[-1]}] (length {length}): no overlap would remain."
             )
-        n_half = max(1, int(np.ceil(max_shift / (length / (t.size - 1)))))
-        self.candidate_shifts_ = np.linspace(-max_shift, max_shift, 2 * n_half + 1)
+        self.candidate_shifts_ = np.linspace(-max_shift, max_shift, 2 * N_HALF + 1)
         w = quadrature_weights(t)
         if self.template is not None:
             self.template_ = self._check_template(self.template)
