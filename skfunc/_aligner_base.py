@@ -17,10 +17,11 @@ OUTPUTS = ("curves", "warps", "warp_coordinates")
 class AlignerBase(TransformerMixin, BaseEstimator):
     """Base of the aligners.
 
-    Subclasses implement ``_fit(X)`` (sets ``template_`` and whatever else
-    they need) and ``_align(X, **kwargs)`` returning ``(aligned, warps)`` for
-    validated curves: ``warps[i]`` is curve i's clock, ``X[i] ~ template o
-    warps[i]``, and ``aligned[i] = X[i] o warps[i]^{-1}``.
+    Subclasses implement ``fit`` (setting ``template_``) and
+    ``_align(X, curves=True, warps=True, **kwargs)`` returning ``(aligned,
+    warps)`` for validated curves, each None when not asked for:
+    ``warps[i]`` is curve i's clock, ``X[i] ~ template o warps[i]``, and
+    ``aligned[i] = X[i] o warps[i]^{-1}``.
     """
 
     _output_constraint = {"output": [StrOptions(set(OUTPUTS))], "grid": ["array-like", None]}
@@ -61,9 +62,9 @@ class AlignerBase(TransformerMixin, BaseEstimator):
     def _transform(self, X, **kwargs):
         check_is_fitted(self)
         X = self._validate(X, reset=False)
-        aligned, warps = self._align(X, **kwargs)
         if self.output == "curves":
-            return aligned
+            return self._align(X, warps=False, **kwargs)[0]
+        warps = self._align(X, curves=False, **kwargs)[1]
         if self.output == "warps":
             return warps
         return warp_coordinates(self.grid_, warps)
@@ -71,7 +72,7 @@ class AlignerBase(TransformerMixin, BaseEstimator):
     def _warps(self, X, **kwargs):
         check_is_fitted(self)
         X = self._validate(X, reset=False)
-        return self._align(X, **kwargs)[1]
+        return self._align(X, curves=False, **kwargs)[1]
 
     def inverse_transform(self, X, warps=None):
         """Put aligned curves back on their own clocks: ``X[i] o warps[i]``.

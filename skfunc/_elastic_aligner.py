@@ -177,9 +177,10 @@ class ElasticAligner(AlignerBase):
         return dynamic_program_warps(self.grid_, self.template_srsf_,
                                      srsf(self.grid_, X), self.penalty)
 
-    def _align(self, X):
+    def _align(self, X, curves=True, warps=True):
         phi = self._phi(X)
-        return compose(self.grid_, X, phi), invert_warps(self.grid_, phi)
+        return (compose(self.grid_, X, phi) if curves else None,
+                invert_warps(self.grid_, phi) if warps else None)
 
     def transform(self, X):
         """Align curves to the fitted template.

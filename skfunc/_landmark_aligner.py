@@ -192,32 +192,31 @@ class LandmarkAligner(AlignerBase):
                 f"target_landmarks has {self.target_landmarks_.size} times but the "
                 f"curves have {self.landmarks_.shape[1]} landmarks each."
             )
-        aligned, _ = self._align(X, landmarks=self.landmarks_)
+        aligned, _ = self._align(X, warps=False, landmarks=self.landmarks_)
         self.template_ = aligned.mean(axis=0)
         return self
 
-    def _warp_pair(self, times):
-        """``(gamma_i^{-1}, gamma_i)`` on the grid: PCHIP through
-        (targets -> landmarks) and through (landmarks -> targets)."""
+    def _warp(self, times, inverse):
+        """``gamma_i`` on the grid, PCHIP through (landmarks -> targets), or
+        ``gamma_i^{-1}``, PCHIP through (targets -> landmarks)."""
         t = self.grid_
         a, b = t[0], t[-1]
         n = times.shape[0]
         targets = np.tile(np.concatenate([[a], self.target_landmarks_, [b]]), (n, 1))
         own = np.column_stack([np.full(n, a), times, np.full(n, b)])
-        phi, gamma = pchip_rows(targets, own, t), pchip_rows(own, targets, t)
-        for warp in (phi, gamma):
-            warp[:, 0], warp[:, -1] = a, b
-        return phi, gamma
+        warp = pchip_rows(targets, own, t) if inverse else pchip_rows(own, targets, t)
+        warp[:, 0], warp[:, -1] = a, b
+        return warp
 
-    def _align(self, X, landmarks=None):
+    def _align(self, X, curves=True, warps=True, landmarks=None):
         times = self._landmarks(X, landmarks)
         if times.shape[1] != self.target_landmarks_.size:
             raise ValueError(
                 f"landmarks has {times.shape[1]} times per curve; the aligner was "
                 f"fitted with {self.target_landmarks_.size}."
             )
-        phi, gamma = self._warp_pair(times)
-        return compose(self.grid_, X, phi), gamma
+        return (compose(self.grid_, X, self._warp(times, True)) if curves else None,
+                self._warp(times, False) if warps else None)
 
     def transform(self, X, landmarks=None):
         """Warp curves so their landmarks fall on the fitted targets.

@@ -225,9 +225,10 @@ class ShiftAligner(AlignerBase):
                                     self.grid_, X[rows])
         return out
 
-    def _align(self, X):
+    def _align(self, X, curves=True, warps=True):
         shifts = self._shifts(X, self.template_)
-        return self._shifted(X, shifts), self.grid_[None, :] - shifts[:, None]
+        return (self._shifted(X, shifts) if curves else None,
+                self.grid_[None, :] - shifts[:, None] if warps else None)
 
     def transform(self, X):
         """Shift curves towards the fitted template.
