@@ -401,3 +401,47 @@ def test_other_bad_inputs():
         ShiftAligner(output="warps").fit(X).inverse_transform(X, np.zeros_like(X))
     with pytest.raises(ValueError, match="same shape"):
         fisher_rao_distance(X, X[:, :5])
+
+
+def test_dynamic_program_reaches_the_textbook_minimum():
+    # the recursion of Srivastava et al. (2011, section 3.3) written cell by
+    # cell for one curve: E(i, j) = min over steps of E(k, l) + segment cost,
+    # with the segment cost by Simpson's rule. The vectorised table must reach
+    # the same minimum for every curve of a block, and its path must be a warp.
+    from skfunc._warping import DP_STEPS, _DynamicProgram, srsf
+
+    t = np.linspace(0, 1, 25)
+    f = two_bumps(t)
+    X = np.interp(warp_family(t, [-0.5, 0.0, 0.6]), t, f)
+    q1, Q = srsf(t, f[None, :])[0], srsf(t, X)
+    program = _DynamicProgram(t, q1, Q, 0.0)
+    phi = program.warps()
+
+    def segment(q2, k, ll, i, j):
+        h, u = t[i] - t[k], t[j] - t[ll]
+        r = np.sqrt(u / h)
+        mid1 = np.interp((t[i] + t[k]) / 2, t, q1)
+        mid2 = np.interp((t[j] + t[ll]) / 2, t, q2)
+        return h / 6 * ((q1[k] - r * q2[ll]) ** 2 + 4 * (mid1 - r * mid2) ** 2
+                        + (q1[i] - r * q2[j]) ** 2)
+
+    for row, q2 in enumerate(Q):
+        E = {(0, 0): 0.0}
+        for i in range(1, t.size):
+            for j in range(1, t.size):
+                options = [E[i - di, j - dj] + segment(q2, i - di, j - dj, i, j)
+                           for di, dj in DP_STEPS if (i - di, j - dj) in E]
+                if options:
+                    E[i, j] = min(options)
+        best = E[t.size - 1, t.size - 1]
+        assert program.energy[-1, row, -1] == pytest.approx(best, rel=1e-9, abs=1e-12)
+        # the path walked back costs that minimum: its vertices are where phi
+        # meets a grid point (coprime steps pass between grid points)
+        steps = (t.size - 1) * phi[row]
+        vertices = np.flatnonzero(np.abs(steps - np.round(steps)) < 1e-9)
+        cells = [(i, int(round(steps[i]))) for i in vertices]
+        path_cost = sum(segment(q2, k, ll, i, j)
+                        for (k, ll), (i, j) in zip(cells[:-1], cells[1:]))
+        assert path_cost == pytest.approx(best, rel=1e-9, abs=1e-12)
+    assert np.all(np.diff(phi, axis=1) > 0)
+    np.testing.assert_array_equal(phi[:, [0, -1]], [[0.0, 1.0]] * 3)
