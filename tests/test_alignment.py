@@ -381,6 +381,9 @@ def test_curves_shorter_than_the_dynamic_program_needs():
         ElasticAligner().fit(np.array([[0.0, 1.0], [0.0, 2.0]]))
     with pytest.raises(ValueError, match="needs at least 3"):
         amplitude_distance([[0.0, 1.0]], [[0.0, 2.0]])
+    # two grid points leave no interior point for a peak
+    with pytest.raises(ValueError, match="landmarks='peak' needs at least 3"):
+        LandmarkAligner().fit(np.array([[0.0, 1.0], [0.0, 2.0]]))
 
 
 @pytest.mark.parametrize("cls", [ShiftAligner, ElasticAligner])
