@@ -60,13 +60,13 @@ def firing_landmarks(X, grid):
     ])
 
 
-kiln = make_kiln_firing(150, late_start_fraction=0.25, random_state=0)
-minutes = kiln.minutes
+kiln = make_kiln_firing(n_samples=150, late_start_fraction=0.25, random_state=0)
+grid = kiln.grid  # minutes since the cycle started
 
 # fill the thermocouple dropouts and remove measurement noise first
-curves = CurveSmoother(grid=minutes, n_basis=60).fit_transform(kiln.data)
+curves = CurveSmoother(grid=grid, n_basis=60).fit_transform(kiln.data)
 
-aligner = LandmarkAligner(firing_landmarks, grid=minutes).fit(curves)
+aligner = LandmarkAligner(firing_landmarks, grid=grid).fit(curves)
 aligned = aligner.transform(curves)
 warps = aligner.transform_warps(curves)  # run minute -> template minute
 delay = kiln.start_delay
@@ -74,12 +74,12 @@ print(f"runs: {len(curves)}, late starts: {kiln.late_start.sum()}")
 print("target landmark minutes: " + ", ".join(f"{v:.0f}" for v in aligner.target_landmarks_))
 print("heating-start landmark vs true start delay: correlation "
       f"{np.corrcoef(aligner.landmarks_[:, 0], delay)[0, 1]:.3f}")
-shift = ShiftAligner(max_shift=90.0, grid=minutes).fit(curves)
+shift = ShiftAligner(max_shift=90.0, grid=grid).fit(curves)
 print("ShiftAligner's shift vs true start delay: correlation "
       f"{np.corrcoef(shift.shifts_, delay)[0, 1]:.3f}")
 
-raw_fpca = FunctionalPCA(n_components=3, grid=minutes).fit(curves)
-aligned_fpca = FunctionalPCA(n_components=3, grid=minutes).fit(aligned)
+raw_fpca = FunctionalPCA(n_components=3, grid=grid).fit(curves)
+aligned_fpca = FunctionalPCA(n_components=3, grid=grid).fit(aligned)
 for name, fpca, X in (("raw", raw_fpca, curves), ("aligned", aligned_fpca, aligned)):
     first = fpca.transform(X)[:, 0]
     print(f"{name:8s} first component: {fpca.explained_variance_ratio_[0]:.0%} of "
@@ -90,19 +90,19 @@ fig, axes = plt.subplots(2, 2, figsize=(11, 7), layout="constrained")
 late = kiln.late_start
 for ax, values, title in ((axes[0, 0], curves, "raw (smoothed) curves"),
                           (axes[0, 1], aligned, "aligned curves")):
-    ax.plot(minutes, values[~late].T, color="0.6", lw=0.5)
-    ax.plot(minutes, values[late].T, color="tab:red", lw=0.6)
-    ax.plot(minutes, aligner.template_, color="black", lw=2, label="template")
+    ax.plot(grid, values[~late].T, color="0.6", lw=0.5)
+    ax.plot(grid, values[late].T, color="tab:red", lw=0.6)
+    ax.plot(grid, aligner.template_, color="black", lw=2, label="template")
     ax.set(title=f"{title} (late starts in red)", xlabel="minute",
            ylabel="temperature (°C)")
     ax.legend(loc="lower center")
-axes[1, 0].plot(minutes, (warps[~late] - minutes).T, color="0.6", lw=0.6)
-axes[1, 0].plot(minutes, (warps[late] - minutes).T, color="tab:red", lw=0.8)
+axes[1, 0].plot(grid, (warps[~late] - grid).T, color="0.6", lw=0.6)
+axes[1, 0].plot(grid, (warps[late] - grid).T, color="tab:red", lw=0.8)
 axes[1, 0].set(title="warps gamma(t) - t: below 0, the run is behind the template",
                xlabel="the run's own minute t",
                ylabel="template minute - run minute")
 for fpca, style, name in ((raw_fpca, "--", "raw"), (aligned_fpca, "-", "aligned")):
-    axes[1, 1].plot(minutes, fpca.components_[0], style,
+    axes[1, 1].plot(grid, fpca.components_[0], style,
                     label=f"{name}: {fpca.explained_variance_ratio_[0]:.0%} of variance")
 axes[1, 1].set(title="first functional principal component", xlabel="minute",
                ylabel="1 / sqrt(minute)")

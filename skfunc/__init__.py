@@ -6,10 +6,11 @@ Hilbert space of functions, evaluated on the curves' grid.
 
 __version__ = "0.1.0"
 
-from . import alignment, hilbert, metrics
+from . import alignment, hilbert, metrics, utils
 from .alignment import ElasticAligner, LandmarkAligner, ShiftAligner
 from .decomposition import FunctionalPCA
 from .linear_model import (
+    ConcurrentFunctionRidge,
     FunctionalLogisticRegression,
     FunctionalRidge,
     FunctionalRidgeCV,
@@ -18,36 +19,22 @@ from .linear_model import (
 )
 from .preprocessing import BasisFeatures, CurveSmoother
 
-#: every public estimator class; the estimator-check test runs over this list
-ESTIMATORS = [
-    BasisFeatures,
-    CurveSmoother,
-    FunctionalPCA,
-    FunctionOnScalarRidge,
-    FunctionOnFunctionRidge,
-    FunctionalRidge,
-    FunctionalRidgeCV,
-    FunctionalLogisticRegression,
-    ShiftAligner,
-    LandmarkAligner,
-    ElasticAligner,
-]
-
 __all__ = [
     "BasisFeatures",
-    "ElasticAligner",
-    "LandmarkAligner",
-    "ShiftAligner",
-    "alignment",
+    "ConcurrentFunctionRidge",
     "CurveSmoother",
-    "ESTIMATORS",
+    "ElasticAligner",
     "FunctionalLogisticRegression",
     "FunctionalPCA",
     "FunctionalRidge",
     "FunctionalRidgeCV",
     "FunctionOnFunctionRidge",
     "FunctionOnScalarRidge",
+    "LandmarkAligner",
+    "ShiftAligner",
+    "alignment",
     "hilbert",
     "metrics",
+    "utils",
     "__version__",
 ]

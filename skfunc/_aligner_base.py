@@ -4,24 +4,27 @@ putting aligned curves back on their own clocks."""
 import numpy as np
 from sklearn.base import BaseEstimator, TransformerMixin
 from sklearn.utils._param_validation import StrOptions
-from sklearn.utils.validation import _check_feature_names_in, check_is_fitted
+from sklearn.utils.validation import _check_feature_names_in, check_array, check_is_fitted
 
-from ._base import CHUNK_VALUES, validate_curves
-from ._grid import check_grid
+from ._blocks import row_blocks
+from ._estimator import ShortReprMixin
+from ._validation import validate_curves
 from ._warping import compose, warp_coordinates
 
 #: what ``transform`` returns
 OUTPUTS = ("curves", "warps", "warp_coordinates")
 
 
-class AlignerBase(TransformerMixin, BaseEstimator):
+class AlignerBase(ShortReprMixin, TransformerMixin, BaseEstimator):
     """Base of the aligners.
 
     Subclasses implement ``fit`` (setting ``template_``) and
     ``_align(X, curves=True, warps=True, **kwargs)`` returning ``(aligned,
     warps)`` for validated curves, each None when not asked for:
     ``warps[i]`` is curve i's clock, ``X[i] ~ template o warps[i]``, and
-    ``aligned[i] = X[i] o warps[i]^{-1}``.
+    ``aligned[i] = X[i] o warps[i]^{-1}``. Subclasses whose ``_align`` takes
+    keyword arguments override :meth:`transform` and
+    :meth:`transform_warps` to expose them.
     """
 
     _output_constraint = {"output": [StrOptions(set(OUTPUTS))], "grid": ["array-like", None]}
@@ -35,12 +38,8 @@ class AlignerBase(TransformerMixin, BaseEstimator):
     def _check_template(self, template):
         """A user template as a curve on the fitted grid."""
         m = self.grid_.size
-        try:
-            values = np.asarray(template, dtype=np.float64)
-        except (TypeError, ValueError) as exc:
-            raise TypeError(
-                f"template must be an array of numbers; got {type(template).__name__}."
-            ) from exc
+        values = check_array(template, ensure_2d=False, dtype=np.float64,
+                             input_name="template")
         values = values.reshape(-1) if values.ndim == 2 and 1 in values.shape else values
         if values.ndim != 1 or values.size != m:
             raise ValueError(
@@ -48,16 +47,41 @@ class AlignerBase(TransformerMixin, BaseEstimator):
                 "give the template's values on the curves' grid, one per column "
                 "of X (resample it first if it was sampled elsewhere)."
             )
-        if not np.all(np.isfinite(values)):
-            raise ValueError("template must contain only finite values; got NaN or inf.")
         return values
 
     # -- public methods -------------------------------------------------------
 
-    def _row_chunks(self, n):
-        rows = max(1, CHUNK_VALUES // max(self.grid_.size, 1))
-        for start in range(0, n, rows):
-            yield slice(start, min(start + rows, n))
+    def _row_blocks(self, n):
+        return row_blocks(n, self.grid_.size)
+
+    def transform(self, X):
+        """Align curves to the fitted template.
+
+        Parameters
+        ----------
+        X : array-like of shape (n_samples, n_features)
+            Curves on the fitted grid.
+
+        Returns
+        -------
+        X_out : ndarray of shape (n_samples, n_features)
+            Aligned curves, warps or warp coordinates (see ``output``).
+        """
+        return self._transform(X)
+
+    def transform_warps(self, X):
+        """Each curve's warp ``gamma_i`` (its clock) on the fitted grid.
+
+        Parameters
+        ----------
+        X : array-like of shape (n_samples, n_features)
+            Curves on the fitted grid.
+
+        Returns
+        -------
+        warps : ndarray of shape (n_samples, n_features)
+        """
+        return self._warps(X)
 
     def _transform(self, X, **kwargs):
         check_is_fitted(self)
@@ -141,13 +165,3 @@ class AlignerBase(TransformerMixin, BaseEstimator):
             [f"{prefix}_{kind}{j}" for j in range(self.grid_.size)], dtype=object
         )
 
-
-def check_grid_points(grid, minimum, what):
-    """Refuse grids with fewer than ``minimum`` points, saying why."""
-    grid = check_grid(grid)
-    if grid.size < minimum:
-        raise ValueError(
-            f"X has {grid.size} grid points (columns); {what} needs at least "
-            f"{minimum}."
-        )
-    return grid

@@ -7,10 +7,11 @@ import numpy as np
 from sklearn.utils._param_validation import Interval
 from sklearn.utils.validation import check_is_fitted
 
-from ._aligner_base import AlignerBase, check_grid_points
+from ._aligner_base import AlignerBase
+from ._docstrings import fill_doc
+from ._estimator import store_init_params
 from ._grid import check_grid, quadrature_weights
 from ._warping import (
-    MIN_ELASTIC_POINTS,
     compose,
     dynamic_program_warps,
     interp_rows,
@@ -22,6 +23,7 @@ from ._warping import (
 )
 
 
+@fill_doc
 class ElasticAligner(AlignerBase):
     """Align curves by general warps under the Fisher-Rao metric.
 
@@ -49,13 +51,8 @@ class ElasticAligner(AlignerBase):
     tol : float, default=1e-3
         Stop when the template's square-root slope function changes by less
         than ``tol`` times its L2 norm.
-    output : {"curves", "warps", "warp_coordinates"}, default="curves"
-        What :meth:`transform` returns: the aligned curves, each curve's warp
-        on the grid, or the warps' L2-orthonormal coordinates
-        ``sqrt(w_j) (gamma(t_j) - t_j)`` (phase as features).
-    grid : array-like of shape (n_features,), default=None
-        Sampling points of the columns of ``X``. None means the numeric column
-        labels of a DataFrame, else evenly spaced points on [0, 1].
+    %(aligner_output)s
+    %(grid)s
 
     Attributes
     ----------
@@ -68,8 +65,7 @@ class ElasticAligner(AlignerBase):
         mean, or that of the given template).
     n_iter_ : int
         Number of Karcher-mean iterations run.
-    n_features_in_ : int
-    feature_names_in_ : ndarray of shape (n_features_in_,)
+    %(curve_input_attributes)s
 
     See Also
     --------
@@ -78,9 +74,12 @@ class ElasticAligner(AlignerBase):
 
     Notes
     -----
-    The slope is estimated by second-order finite differences, so curves
-    need at least 3 grid points; with fewer than 4 the only warp through grid
-    points is the identity. Noise in the curves enters ``q`` through the
+    The slope is estimated by second-order finite differences (on a grid of
+    two points, by the secant). A warp through grid points that keeps the
+    ends fixed needs an interior point to move, and with steps of slope
+    1/4 to 4 it needs at least 4 grid points; on 2 or 3 grid points the
+    only such warp is the identity, so curves are returned unchanged, every
+    warp is the identity and the phase distances are 0. Noise in the curves enters ``q`` through the
     slope: smooth noisy curves first (for example with ``CurveSmoother``).
     The dynamic program runs one row of its table at a time for a whole
     block of curves, in numpy; steps ``(di, dj)`` are coprime pairs up to 4.
@@ -118,18 +117,7 @@ class ElasticAligner(AlignerBase):
 
     def __init__(self, penalty=0.0, *, template=None, max_iter=5, tol=1e-3,
                  output="curves", grid=None):
-        self.penalty = penalty
-        self.template = template
-        self.max_iter = max_iter
-        self.tol = tol
-        self.output = output
-        self.grid = grid
-
-    def _validate(self, X, reset):
-        X = super()._validate(X, reset)
-        check_grid_points(self.grid_, MIN_ELASTIC_POINTS,
-                          "elastic alignment (a 3-point slope estimate)")
-        return X
+        store_init_params(self, locals())
 
     def fit(self, X, y=None):
         """Estimate the template (Karcher mean unless given).
@@ -182,34 +170,6 @@ class ElasticAligner(AlignerBase):
         return (compose(self.grid_, X, phi) if curves else None,
                 invert_warps(self.grid_, phi) if warps else None)
 
-    def transform(self, X):
-        """Align curves to the fitted template.
-
-        Parameters
-        ----------
-        X : array-like of shape (n_samples, n_features)
-            Curves on the fitted grid.
-
-        Returns
-        -------
-        X_out : ndarray of shape (n_samples, n_features)
-            Aligned curves, warps or warp coordinates (see ``output``).
-        """
-        return self._transform(X)
-
-    def transform_warps(self, X):
-        """Each curve's warp ``gamma_i`` (its clock) on the fitted grid.
-
-        Parameters
-        ----------
-        X : array-like of shape (n_samples, n_features)
-
-        Returns
-        -------
-        warps : ndarray of shape (n_samples, n_features)
-        """
-        return self._warps(X)
-
     def distances(self, X):
         """Amplitude and phase distances of curves to the template.
 
@@ -248,7 +208,6 @@ def _paired_curves(X, Y, grid):
         raise ValueError("X and Y must contain only finite values; got NaN or inf.")
     t = np.linspace(0.0, 1.0, X.shape[1]) if grid is None else grid
     t = check_grid(t, X.shape[1])
-    check_grid_points(t, MIN_ELASTIC_POINTS, "the Fisher-Rao distance (a 3-point slope estimate)")
     return X, Y, t
 
 

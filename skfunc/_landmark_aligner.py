@@ -3,7 +3,9 @@
 import numpy as np
 from sklearn.utils._param_validation import StrOptions
 
-from ._aligner_base import AlignerBase, check_grid_points
+from ._aligner_base import AlignerBase
+from ._docstrings import fill_doc
+from ._estimator import store_init_params
 from ._warping import compose, pchip_rows
 
 FINDERS = ("peak", "trough")
@@ -27,6 +29,7 @@ def find_extremum(grid, X, sign=1.0):
     return np.clip(vertex, 0.5 * (t0 + t1), 0.5 * (t1 + t2))[:, None]
 
 
+@fill_doc
 class LandmarkAligner(AlignerBase):
     """Align curves by smooth monotone warps through landmark times.
 
@@ -49,13 +52,8 @@ class LandmarkAligner(AlignerBase):
     target_landmarks : array-like of shape (k,), default=None
         Where the landmarks go, strictly increasing and strictly inside the
         domain. None means the mean landmark times of the training curves.
-    output : {"curves", "warps", "warp_coordinates"}, default="curves"
-        What :meth:`transform` returns: the aligned curves, each curve's warp
-        on the grid, or the warps' L2-orthonormal coordinates
-        ``sqrt(w_j) (gamma(t_j) - t_j)`` (phase as features).
-    grid : array-like of shape (n_features,), default=None
-        Sampling points of the columns of ``X``. None means the numeric column
-        labels of a DataFrame, else evenly spaced points on [0, 1].
+    %(aligner_output)s
+    %(grid)s
 
     Attributes
     ----------
@@ -65,8 +63,7 @@ class LandmarkAligner(AlignerBase):
         Landmark times of the training curves.
     template_ : ndarray of shape (n_features,)
         Mean of the aligned training curves.
-    n_features_in_ : int
-    feature_names_in_ : ndarray of shape (n_features_in_,)
+    %(curve_input_attributes)s
 
     See Also
     --------
@@ -82,6 +79,15 @@ class LandmarkAligner(AlignerBase):
     interpolant through (landmarks -> targets): also exact at the landmarks,
     and equal to ``phi_i^{-1}`` up to the interpolation error (both are
     monotone cubic interpolants of the same points).
+
+    Curves on two grid points have no point strictly inside the domain,
+    where landmarks must lie, and the only warp that keeps the ends fixed
+    is the identity. There ``"peak"`` and ``"trough"`` find no landmark
+    (``landmarks_`` has 0 columns) and the curves are returned unchanged
+    with identity warps; landmark times given to :meth:`fit` or
+    :meth:`transform`, returned by a landmarks function, or given as
+    ``target_landmarks`` are a ValueError, since no grid point could carry
+    them.
 
     References
     ----------
@@ -111,10 +117,7 @@ class LandmarkAligner(AlignerBase):
 
     def __init__(self, landmarks="peak", *, target_landmarks=None, output="curves",
                  grid=None):
-        self.landmarks = landmarks
-        self.target_landmarks = target_landmarks
-        self.output = output
-        self.grid = grid
+        store_init_params(self, locals())
 
     # -- landmarks ------------------------------------------------------------
 
@@ -123,8 +126,10 @@ class LandmarkAligner(AlignerBase):
             if callable(self.landmarks):
                 landmarks = self.landmarks(X, self.grid_.copy())
                 source = "the landmarks function"
+            elif self.grid_.size < 3:
+                # no interior grid point: no landmark, identity warps
+                return np.empty((X.shape[0], 0))
             else:
-                check_grid_points(self.grid_, 3, f"landmarks={self.landmarks!r}")
                 sign = 1.0 if self.landmarks == "peak" else -1.0
                 return find_extremum(self.grid_, X, sign)
         else:
@@ -141,6 +146,14 @@ class LandmarkAligner(AlignerBase):
 
     def _check_times(self, values, name):
         a, b = self.grid_[0], self.grid_[-1]
+        if self.grid_.size < 3:
+            raise ValueError(
+                f"{name} gives landmark times, but X has only {self.grid_.size} "
+                f"grid points (columns): no grid point lies strictly inside the "
+                f"domain ({a}, {b}), where landmarks must go. Give curves on at "
+                "least 3 grid points, or use landmarks='peak' or 'trough', which "
+                "find no landmark on two points and leave the curves unchanged."
+            )
         if values.size == 0 or not np.all(np.isfinite(values)):
             raise ValueError(f"{name} must be finite landmark times; got NaN, inf or none.")
         outside = (values <= a) | (values >= b)
@@ -192,8 +205,7 @@ class LandmarkAligner(AlignerBase):
                 f"target_landmarks has {self.target_landmarks_.size} times but the "
                 f"curves have {self.landmarks_.shape[1]} landmarks each."
             )
-        aligned, _ = self._align(X, warps=False, landmarks=self.landmarks_)
-        self.template_ = aligned.mean(axis=0)
+        self.template_ = compose(self.grid_, X, self._warp(self.landmarks_, True)).mean(axis=0)
         return self
 
     def _warp(self, times, inverse):

@@ -6,6 +6,8 @@ import numpy as np
 from sklearn.utils._param_validation import Interval, StrOptions
 
 from ._aligner_base import AlignerBase
+from ._docstrings import fill_doc
+from ._estimator import store_init_params
 from ._grid import quadrature_weights
 from ._warping import interp_rows, partial_weights
 
@@ -67,6 +69,7 @@ def best_shifts(grid, X, template, shifts, ends):
     return np.where(inner, best + np.clip(move, -step, step), best)
 
 
+@fill_doc
 class ShiftAligner(AlignerBase):
     """Align curves by shifting each one in time towards a template.
 
@@ -95,13 +98,9 @@ class ShiftAligner(AlignerBase):
     tol : float, default=1e-4
         Stop when the template changes by less than ``tol`` times its L2
         norm.
-    output : {"curves", "warps", "warp_coordinates"}, default="curves"
-        What :meth:`transform` returns: the aligned curves, each curve's warp
-        ``t - d_i`` on the grid, or the warps' L2-orthonormal coordinates
-        ``sqrt(w_j) (gamma(t_j) - t_j)`` (phase as features).
-    grid : array-like of shape (n_features,), default=None
-        Sampling points of the columns of ``X``. None means the numeric column
-        labels of a DataFrame, else evenly spaced points on [0, 1].
+    %(aligner_output)s
+        The warp of a shift is ``gamma_i(t) = t - d_i``.
+    %(grid)s
 
     Attributes
     ----------
@@ -115,8 +114,7 @@ class ShiftAligner(AlignerBase):
         before parabolic refinement.
     n_iter_ : int
         Number of Procrustes iterations run.
-    n_features_in_ : int
-    feature_names_in_ : ndarray of shape (n_features_in_,)
+    %(curve_input_attributes)s
 
     See Also
     --------
@@ -160,13 +158,7 @@ class ShiftAligner(AlignerBase):
 
     def __init__(self, max_shift=None, *, ends="constant", template=None,
                  max_iter=10, tol=1e-4, output="curves", grid=None):
-        self.max_shift = max_shift
-        self.ends = ends
-        self.template = template
-        self.max_iter = max_iter
-        self.tol = tol
-        self.output = output
-        self.grid = grid
+        store_init_params(self, locals())
 
     def fit(self, X, y=None):
         """Estimate the template (unless given) and the training shifts.
@@ -213,14 +205,14 @@ class ShiftAligner(AlignerBase):
 
     def _shifts(self, X, template):
         out = np.empty(X.shape[0])
-        for rows in self._row_chunks(X.shape[0]):
+        for rows in self._row_blocks(X.shape[0]):
             out[rows] = best_shifts(self.grid_, X[rows], template,
                                     self.candidate_shifts_, self.ends)
         return out
 
     def _shifted(self, X, shifts):
         out = np.empty_like(X)
-        for rows in self._row_chunks(X.shape[0]):
+        for rows in self._row_blocks(X.shape[0]):
             out[rows] = interp_rows(self.grid_[None, :] + shifts[rows, None],
                                     self.grid_, X[rows])
         return out
@@ -229,31 +221,3 @@ class ShiftAligner(AlignerBase):
         shifts = self._shifts(X, self.template_)
         return (self._shifted(X, shifts) if curves else None,
                 self.grid_[None, :] - shifts[:, None] if warps else None)
-
-    def transform(self, X):
-        """Shift curves towards the fitted template.
-
-        Parameters
-        ----------
-        X : array-like of shape (n_samples, n_features)
-            Curves on the fitted grid.
-
-        Returns
-        -------
-        X_out : ndarray of shape (n_samples, n_features)
-            Aligned curves, warps or warp coordinates (see ``output``).
-        """
-        return self._transform(X)
-
-    def transform_warps(self, X):
-        """Each curve's warp ``t - d_i`` on the fitted grid.
-
-        Parameters
-        ----------
-        X : array-like of shape (n_samples, n_features)
-
-        Returns
-        -------
-        warps : ndarray of shape (n_samples, n_features)
-        """
-        return self._warps(X)

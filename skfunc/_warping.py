@@ -18,9 +18,6 @@ from ._grid import quadrature_weights
 DP_STEPS = tuple(
     (di, dj) for di in range(1, 5) for dj in range(1, 5) if gcd(di, dj) == 1
 )
-#: the slope of a curve is estimated with a 3-point stencil (second-order
-#: differences), so the elastic methods need at least 3 grid points
-MIN_ELASTIC_POINTS = 3
 
 
 def interp_rows(x_new, grid, Y):

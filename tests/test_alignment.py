@@ -376,14 +376,81 @@ def test_nan_is_refused(cls):
         cls().fit(X)
 
 
-def test_curves_shorter_than_the_dynamic_program_needs():
-    with pytest.raises(ValueError, match="needs at least 3"):
-        ElasticAligner().fit(np.array([[0.0, 1.0], [0.0, 2.0]]))
-    with pytest.raises(ValueError, match="needs at least 3"):
-        amplitude_distance([[0.0, 1.0]], [[0.0, 2.0]])
-    # two grid points leave no interior point for a peak
-    with pytest.raises(ValueError, match="landmarks='peak' needs at least 3"):
-        LandmarkAligner().fit(np.array([[0.0, 1.0], [0.0, 2.0]]))
+# -- curves too short to warp ----------------------------------------------------
+
+
+def test_elastic_on_two_points_is_the_identity_with_secant_slopes():
+    # Derivation: a warp fixes both ends, so on a grid of two points its
+    # values there are the ends themselves: the identity. The slope of the
+    # linear interpolant is the secant s = (x1 - x0) / (t1 - t0), so q is the
+    # constant sign(s) sqrt(|s|) (Srivastava et al. 2011, eq. (1)) and the L2
+    # norm of a constant c on [t0, t1] is |c| sqrt(t1 - t0).
+    t = np.array([2.0, 6.0])
+    X = np.array([[0.0, 1.0], [0.0, 8.0], [3.0, -1.0]])
+    aligner = ElasticAligner(grid=t).fit(X)
+    np.testing.assert_array_equal(aligner.transform(X), X)
+    np.testing.assert_array_equal(aligner.transform_warps(X), np.tile(t, (3, 1)))
+    slope = (X[:, 1] - X[:, 0]) / (t[1] - t[0])
+    q = np.sign(slope) * np.sqrt(np.abs(slope))
+    # the Karcher mean with identity warps is the plain mean of the q's
+    np.testing.assert_allclose(aligner.template_srsf_, [q.mean(), q.mean()])
+    amplitude, phase = aligner.distances(X)
+    np.testing.assert_allclose(amplitude, np.abs(q - q.mean()) * np.sqrt(4.0))
+    np.testing.assert_array_equal(phase, 0.0)
+    # with no warp to choose, the elastic distance is the Fisher-Rao one
+    np.testing.assert_allclose(amplitude_distance(X, X[::-1], grid=t),
+                               np.abs(q - q[::-1]) * 2.0)
+    np.testing.assert_allclose(fisher_rao_distance(X, X[::-1], grid=t),
+                               np.abs(q - q[::-1]) * 2.0)
+
+
+def test_elastic_on_three_points_is_the_identity():
+    # Derivation: from (0, 0) to (2, 2) with steps (di, dj) in {1..4}^2, the
+    # only path is two (1, 1) steps ((1, 2) or (2, 1) leave a step with a zero
+    # component), so even curves that a warp would align stay as they are.
+    t = np.linspace(0, 1, 3)
+    X = np.array([[0.0, 0.9, 1.0], [0.0, 0.1, 1.0]])
+    aligner = ElasticAligner().fit(X)
+    np.testing.assert_array_equal(aligner.transform(X), X)
+    np.testing.assert_array_equal(aligner.transform_warps(X), np.tile(t, (2, 1)))
+    # on 4 points the program can move: a step (1, 2) then (2, 1) bends the
+    # warp (check that the identity above is the grid's doing, not a no-op)
+    t4 = np.linspace(0, 1, 4)
+    X4 = np.array([[0.0, 0.8, 0.9, 1.0], [0.0, 0.1, 0.2, 1.0]])
+    warps4 = ElasticAligner().fit(X4).transform_warps(X4)
+    assert np.abs(warps4 - t4).max() > 0.1
+
+
+def test_landmark_finders_on_two_points_give_identity_warps():
+    # Derivation: no grid point lies inside the domain, so a peak or trough
+    # finder finds no landmark, and the only warp fixing the ends is the
+    # identity on the two grid points.
+    X = np.array([[0.0, 1.0], [0.0, 2.0], [5.0, 3.0]])
+    for finder in ("peak", "trough"):
+        aligner = LandmarkAligner(finder).fit(X)
+        assert aligner.landmarks_.shape == (3, 0)
+        assert aligner.target_landmarks_.shape == (0,)
+        np.testing.assert_array_equal(aligner.transform(X), X)
+        np.testing.assert_array_equal(aligner.transform_warps(X), [[0.0, 1.0]] * 3)
+        np.testing.assert_array_equal(aligner.template_, X.mean(axis=0))
+        coords = aligner.set_params(output="warp_coordinates").transform(X)
+        np.testing.assert_array_equal(coords, 0.0)
+
+
+def test_explicit_landmarks_on_two_points_are_an_error():
+    # landmark times must lie strictly inside the domain, where a grid of two
+    # points has no point to carry them
+    X = np.array([[0.0, 1.0], [0.0, 2.0]])
+    match = "only 2 grid points"
+    with pytest.raises(ValueError, match=match):
+        LandmarkAligner().fit(X, landmarks=[[0.5], [0.4]])
+    with pytest.raises(ValueError, match=match):
+        LandmarkAligner(target_landmarks=[0.5]).fit(X)
+    with pytest.raises(ValueError, match=match):
+        LandmarkAligner(lambda X, grid: np.full((len(X), 1), 0.5)).fit(X)
+    fitted = LandmarkAligner().fit(X)
+    with pytest.raises(ValueError, match=match):
+        fitted.transform(X, landmarks=[[0.5], [0.4]])
 
 
 @pytest.mark.parametrize("cls", [ShiftAligner, ElasticAligner])

@@ -18,25 +18,17 @@ repository root.
 
 import argparse
 import sys
-import time
 from pathlib import Path
 
 import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
 
+from _timing import best_time  # noqa: E402
+
 from skfunc._warping import DP_STEPS, dynamic_program_warps, srsf  # noqa: E402
 from skfunc.alignment import ElasticAligner, ShiftAligner  # noqa: E402
 from skfunc.preprocessing import CurveSmoother  # noqa: E402
-
-
-def best_time(func, repeat):
-    best = np.inf
-    for _ in range(repeat):
-        start = time.perf_counter()
-        func()
-        best = min(best, time.perf_counter() - start)
-    return best
 
 
 def warped_bumps(n, m, rng):

@@ -23,7 +23,6 @@ import argparse
 import json
 import subprocess
 import sys
-import time
 from functools import partial
 from pathlib import Path
 
@@ -31,7 +30,9 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
 
-import skfunc  # noqa: E402
+from _timing import best_time  # noqa: E402
+
+from skfunc.utils import all_estimators  # noqa: E402
 
 M = 200  # grid points
 
@@ -53,7 +54,7 @@ CASES = {
     "BasisFeatures": (lambda cls, t: cls(n_basis=20, grid=t),
                       lambda est, X, s, S: est.fit(X)),
     "CurveSmoother": (lambda cls, t: cls(grid=t), lambda est, X, s, S: est.fit(X)),
-    "FunctionalPCA": (lambda cls, t: cls(n_components=5, n_basis=20, grid=t),
+    "FunctionalPCA": (lambda cls, t: cls(n_components=5, basis="bspline", n_basis=20, grid=t),
                       lambda est, X, s, S: est.fit(X)),
     "FunctionalRidge": (lambda cls, t: cls(grid=t),
                         lambda est, X, s, S: est.fit(X, s)),
@@ -66,7 +67,7 @@ TRANSFORMERS = ("BasisFeatures", "CurveSmoother", "FunctionalPCA")
 
 
 def available(names):
-    present = {cls.__name__: cls for cls in skfunc.ESTIMATORS}
+    present = dict(all_estimators())
     return [(name, present[name]) for name in names if name in present]
 
 
@@ -74,15 +75,6 @@ def fit_case(name, cls, t, X, s=None, S=None):
     """A fresh estimator of a case, fitted."""
     make, call = CASES[name]
     return call(make(cls, t), X, s, S)
-
-
-def best_time(func, repeat):
-    best = np.inf
-    for _ in range(repeat):
-        start = time.perf_counter()
-        func()
-        best = min(best, time.perf_counter() - start)
-    return best
 
 
 # ---------------------------------------------------------------------------
