@@ -7,6 +7,7 @@ from sklearn.utils._param_validation import StrOptions
 from sklearn.utils.validation import _check_feature_names_in, check_array, check_is_fitted
 
 from ._blocks import row_blocks
+from ._docstrings import fill_doc
 from ._estimator import ShortReprMixin
 from ._validation import validate_curves
 from ._warping import compose, warp_coordinates
@@ -18,7 +19,8 @@ OUTPUTS = ("curves", "warps", "warp_coordinates")
 class AlignerBase(ShortReprMixin, TransformerMixin, BaseEstimator):
     """Base of the aligners.
 
-    Subclasses implement ``fit`` (setting ``template_``) and
+    Subclasses implement ``_fit(X)`` for validated curves (setting
+    ``template_``), or ``fit`` itself when it takes more arguments, and
     ``_align(X, curves=True, warps=True, **kwargs)`` returning ``(aligned,
     warps)`` for validated curves, each None when not asked for:
     ``warps[i]`` is curve i's clock, ``X[i] ~ template o warps[i]``, and
@@ -32,6 +34,9 @@ class AlignerBase(ShortReprMixin, TransformerMixin, BaseEstimator):
     # -- validation -----------------------------------------------------------
 
     def _validate(self, X, reset):
+        """Curves as float64; on ``reset`` (fit) the parameters too."""
+        if reset:
+            self._validate_params()
         X = validate_curves(self, X, reset=reset)
         return np.asarray(X, dtype=np.float64)
 
@@ -51,35 +56,35 @@ class AlignerBase(ShortReprMixin, TransformerMixin, BaseEstimator):
 
     # -- public methods -------------------------------------------------------
 
+    @fill_doc
+    def fit(self, X, y=None):
+        """Estimate the template (unless one is given) from the curves.
+
+        %(curves_fit)s
+        """
+        self._fit(self._validate(X, reset=True))
+        return self
+
     def _row_blocks(self, n):
         return row_blocks(n, self.grid_.size)
 
+    @fill_doc
     def transform(self, X):
         """Align curves to the fitted template.
 
-        Parameters
-        ----------
-        X : array-like of shape (n_samples, n_features)
-            Curves on the fitted grid.
+        %(fitted_curves)s
 
-        Returns
-        -------
-        X_out : ndarray of shape (n_samples, n_features)
-            Aligned curves, warps or warp coordinates (see ``output``).
+        %(aligned_returns)s
         """
         return self._transform(X)
 
+    @fill_doc
     def transform_warps(self, X):
         """Each curve's warp ``gamma_i`` (its clock) on the fitted grid.
 
-        Parameters
-        ----------
-        X : array-like of shape (n_samples, n_features)
-            Curves on the fitted grid.
+        %(fitted_curves)s
 
-        Returns
-        -------
-        warps : ndarray of shape (n_samples, n_features)
+        %(warps_returns)s
         """
         return self._warps(X)
 
@@ -137,6 +142,7 @@ class AlignerBase(ShortReprMixin, TransformerMixin, BaseEstimator):
             raise ValueError("warps must contain only finite values; got NaN or inf.")
         return compose(self.grid_, X, warps)
 
+    @fill_doc
     def get_feature_names_out(self, input_features=None):
         """Names of the output columns.
 
@@ -146,8 +152,7 @@ class AlignerBase(ShortReprMixin, TransformerMixin, BaseEstimator):
 
         Parameters
         ----------
-        input_features : array-like of str or None, default=None
-            Input feature names, validated against ``feature_names_in_``.
+        %(feature_names_in)s
 
         Returns
         -------

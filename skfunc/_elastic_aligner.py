@@ -52,7 +52,6 @@ class ElasticAligner(AlignerBase):
         Stop when the template's square-root slope function changes by less
         than ``tol`` times its L2 norm.
     %(aligner_output)s
-    %(grid)s
 
     Attributes
     ----------
@@ -119,28 +118,13 @@ class ElasticAligner(AlignerBase):
                  output="curves", grid=None):
         store_init_params(self, locals())
 
-    def fit(self, X, y=None):
-        """Estimate the template (Karcher mean unless given).
-
-        Parameters
-        ----------
-        X : array-like of shape (n_samples, n_features)
-            Curves, one per row, on the grid.
-        y : None
-            Ignored.
-
-        Returns
-        -------
-        self : ElasticAligner
-        """
-        self._validate_params()
-        X = self._validate(X, reset=True)
+    def _fit(self, X):
         t = self.grid_
         if self.template is not None:
             self.template_ = self._check_template(self.template)
             self.template_srsf_ = srsf(t, self.template_[None, :])[0]
             self.n_iter_ = 0
-            return self
+            return
         Q = srsf(t, X)
         w = quadrature_weights(t)
         mu = Q.mean(axis=0)
@@ -159,7 +143,6 @@ class ElasticAligner(AlignerBase):
         self.template_srsf_ = mu
         self.template_ = compose(t, X, phi).mean(axis=0)
         self.n_iter_ = it
-        return self
 
     def _phi(self, X):
         return dynamic_program_warps(self.grid_, self.template_srsf_,
@@ -170,12 +153,11 @@ class ElasticAligner(AlignerBase):
         return (compose(self.grid_, X, phi) if curves else None,
                 invert_warps(self.grid_, phi) if warps else None)
 
+    @fill_doc
     def distances(self, X):
         """Amplitude and phase distances of curves to the template.
 
-        Parameters
-        ----------
-        X : array-like of shape (n_samples, n_features)
+        %(fitted_curves)s
 
         Returns
         -------
@@ -211,6 +193,7 @@ def _paired_curves(X, Y, grid):
     return X, Y, t
 
 
+@fill_doc
 def fisher_rao_distance(X, Y, *, grid=None):
     """Fisher-Rao distance between paired curves: ``||q_X - q_Y||_L2``.
 
@@ -222,8 +205,7 @@ def fisher_rao_distance(X, Y, *, grid=None):
     ----------
     X, Y : array-like of shape (n_samples, n_features)
         Curves, paired by row, on the same grid.
-    grid : array-like of shape (n_features,), default=None
-        Sampling points; None means evenly spaced on [0, 1].
+    %(paired_grid)s
 
     Returns
     -------
@@ -247,6 +229,7 @@ def fisher_rao_distance(X, Y, *, grid=None):
     return l2_norms(t, srsf(t, X) - srsf(t, Y))
 
 
+@fill_doc
 def amplitude_distance(X, Y, *, penalty=0.0, grid=None):
     """Elastic (amplitude) distance between paired curves:
     ``min_gamma ||q_X - (q_Y o gamma) sqrt(gamma')||_L2``.
@@ -260,8 +243,7 @@ def amplitude_distance(X, Y, *, penalty=0.0, grid=None):
         Curves, paired by row, on the same grid.
     penalty : float, default=0.0
         Roughness penalty on the warp (see :class:`ElasticAligner`).
-    grid : array-like of shape (n_features,), default=None
-        Sampling points; None means evenly spaced on [0, 1].
+    %(paired_grid)s
 
     Returns
     -------

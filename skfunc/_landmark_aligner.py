@@ -53,7 +53,6 @@ class LandmarkAligner(AlignerBase):
         Where the landmarks go, strictly increasing and strictly inside the
         domain. None means the mean landmark times of the training curves.
     %(aligner_output)s
-    %(grid)s
 
     Attributes
     ----------
@@ -175,24 +174,18 @@ class LandmarkAligner(AlignerBase):
 
     # -- fit / transform ------------------------------------------------------
 
+    @fill_doc
     def fit(self, X, y=None, landmarks=None):
         """Find the training landmarks, the targets and the template.
 
-        Parameters
-        ----------
-        X : array-like of shape (n_samples, n_features)
-            Curves, one per row, on the grid.
-        y : None
-            Ignored.
-        landmarks : array-like of shape (n_samples, k), default=None
-            Landmark times of each curve; None means find them with the
-            ``landmarks`` parameter.
+        %(fit_curves)s
+        %(landmark_times)s
 
         Returns
         -------
-        self : LandmarkAligner
+        self : object
+            Fitted aligner.
         """
-        self._validate_params()
         X = self._validate(X, reset=True)
         self.landmarks_ = self._landmarks(X, landmarks)
         if self.target_landmarks is None:
@@ -230,49 +223,36 @@ class LandmarkAligner(AlignerBase):
         return (compose(self.grid_, X, self._warp(times, True)) if curves else None,
                 self._warp(times, False) if warps else None)
 
+    @fill_doc
     def transform(self, X, landmarks=None):
         """Warp curves so their landmarks fall on the fitted targets.
 
-        Parameters
-        ----------
-        X : array-like of shape (n_samples, n_features)
-            Curves on the fitted grid.
-        landmarks : array-like of shape (n_samples, k), default=None
-            Landmark times of each curve; None means find them.
+        %(fitted_curves)s
+        %(landmark_times)s
 
-        Returns
-        -------
-        X_out : ndarray of shape (n_samples, n_features)
-            Aligned curves, warps or warp coordinates (see ``output``).
+        %(aligned_returns)s
         """
         return self._transform(X, landmarks=landmarks)
 
+    @fill_doc
     def fit_transform(self, X, y=None, landmarks=None):
         """Fit, then transform the same curves with the same landmarks.
 
-        Parameters
-        ----------
-        X : array-like of shape (n_samples, n_features)
-        y : None
-            Ignored.
-        landmarks : array-like of shape (n_samples, k), default=None
+        %(fit_curves)s
+        %(landmark_times)s
 
-        Returns
-        -------
-        X_out : ndarray of shape (n_samples, n_features)
+        %(aligned_returns)s
         """
         return self.fit(X, landmarks=landmarks).transform(X, landmarks=landmarks)
 
+    @fill_doc
     def transform_warps(self, X, landmarks=None):
-        """Each curve's warp ``gamma_i`` (its clock) on the fitted grid.
+        """Each curve's warp ``gamma_i`` (its clock) on the fitted grid: the
+        PCHIP interpolant through (landmarks -> targets) and the ends.
 
-        Parameters
-        ----------
-        X : array-like of shape (n_samples, n_features)
-        landmarks : array-like of shape (n_samples, k), default=None
+        %(fitted_curves)s
+        %(landmark_times)s
 
-        Returns
-        -------
-        warps : ndarray of shape (n_samples, n_features)
+        %(warps_returns)s
         """
         return self._warps(X, landmarks=landmarks)

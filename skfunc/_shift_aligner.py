@@ -99,8 +99,6 @@ class ShiftAligner(AlignerBase):
         Stop when the template changes by less than ``tol`` times its L2
         norm.
     %(aligner_output)s
-        The warp of a shift is ``gamma_i(t) = t - d_i``.
-    %(grid)s
 
     Attributes
     ----------
@@ -160,22 +158,7 @@ class ShiftAligner(AlignerBase):
                  max_iter=10, tol=1e-4, output="curves", grid=None):
         store_init_params(self, locals())
 
-    def fit(self, X, y=None):
-        """Estimate the template (unless given) and the training shifts.
-
-        Parameters
-        ----------
-        X : array-like of shape (n_samples, n_features)
-            Curves, one per row, on the grid.
-        y : None
-            Ignored.
-
-        Returns
-        -------
-        self : ShiftAligner
-        """
-        self._validate_params()
-        X = self._validate(X, reset=True)
+    def _fit(self, X):
         t = self.grid_
         length = t[-1] - t[0]
         max_shift = 0.25 * length if self.max_shift is None else float(self.max_shift)
@@ -201,7 +184,6 @@ class ShiftAligner(AlignerBase):
             self.template_ = template
             self.n_iter_ = it
         self.shifts_ = self._shifts(X, self.template_)
-        return self
 
     def _shifts(self, X, template):
         out = np.empty(X.shape[0])
