@@ -5,7 +5,7 @@ Each curve ``x`` (a row of ``X``) is replaced by the function
 
     sum_j w_j (x_j - f(t_j))^2 + alpha int (D^q f)^2,
 
-with trapezoid (spacing) weights ``w``, so ``alpha`` means the same thing
+with quadrature weights ``w`` (trapezoid by default), so ``alpha`` means the same thing
 whatever the number or spacing of the grid points. One simultaneous
 diagonalisation of the problem (:class:`~skfunc._penalized.PenalizedPath`)
 serves every candidate alpha and every curve, so generalised cross-validation
@@ -268,7 +268,7 @@ class CurveSmoother(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
 
     ``sum_j w_j (x_j - f(t_j))^2 + alpha * int (D^q f)^2``,
 
-    with spacing (trapezoid) weights ``w_j`` and ``q = penalty_order``, and
+    with quadrature weights ``w_j`` (``quadrature``) and ``q = penalty_order``, and
     ``f`` (or its derivative of order ``derivative``) is returned on
     ``eval_points``. The data term approximates ``int (x - f)^2``, so
     ``alpha`` means the same thing whatever the number or spacing of the
@@ -281,21 +281,6 @@ class CurveSmoother(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
 
     Parameters
     ----------
-    basis : {"bspline", "fourier", "legendre"}, default="bspline"
-        Basis system for the smoothed curves. Fourier is periodic on the
-        grid's domain; Legendre polynomials are shifted to it.
-    n_basis : int, default=None
-        Number of basis functions. None means the basis' default (20
-        B-splines, 21 Fourier functions, 12 Legendre polynomials) capped by
-        the number of grid points. With a penalty it may exceed the number of
-        grid points; with ``alpha=0`` it may not.
-    degree : int, default=3
-        Degree of the B-splines (3: cubic). Ignored by the other bases.
-    interior_knots : array-like of shape (n_knots,), default=None
-        Interior knots of the B-splines, strictly inside the domain; None
-        means evenly spaced. When given, ``n_basis`` follows from it. Knots
-        at every interior grid point with ``degree=3`` and
-        ``penalty_order=2`` give the cubic smoothing spline.
     alpha : float >= 0 or "gcv", default="gcv"
         Weight of the roughness penalty, or ``"gcv"`` to choose it from
         ``alphas`` by generalized cross-validation. 0 means least squares
@@ -308,8 +293,7 @@ class CurveSmoother(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
     per_curve : bool, default=False
         With ``alpha="gcv"``, choose alpha for each curve separately at
         transform time instead of once at fit.
-    penalty_order : int, default=2
-        Derivative order ``q`` of the roughness penalty ``int (D^q f)^2``.
+    %(basis)s
     derivative : int, default=0
         Order of the derivative of the smoothed curve that :meth:`transform`
         returns (1 for rates, such as a cooling rate in degrees per unit of
@@ -318,9 +302,8 @@ class CurveSmoother(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
         Points at which :meth:`transform` evaluates the smoothed curves
         (resampling); strictly increasing and inside the fitted grid's
         domain. None means the fitted grid.
-    grid : array-like of shape (n_features,), default=None
-        Sampling points of the columns of ``X``. None means the numeric
-        column labels of a DataFrame, else evenly spaced points on [0, 1].
+    %(grid)s
+    %(quadrature)s
 
     Attributes
     ----------
@@ -362,6 +345,9 @@ class CurveSmoother(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
 
     Notes
     -----
+    Interior knots at every interior grid point with ``degree=3`` and
+    ``penalty_order=2`` give the cubic smoothing spline.
+
     All candidate alphas and all curves share one simultaneous
     diagonalisation of the penalized problem (Demmler and Reinsch, 1975) per
     pattern of missing values, so GCV for ``n`` curves of ``m`` points with
