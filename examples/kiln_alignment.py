@@ -1,4 +1,6 @@
-"""Aligning late starts (and the other phases of a firing) before FPCA.
+"""
+Aligning late starts (and the other phases of a firing) before FPCA
+===================================================================
 
 Invented kiln data: some firing runs start 20-60 minutes late, and runs also
 differ in ramp rate, soak length and cooling, so the phases of a firing fall
@@ -16,12 +18,7 @@ landmarks separate the phases.
 
 The data are invented for illustration; validate any such analysis on your
 own process data before it drives a quality decision.
-
-Run ``python examples/kiln_alignment.py --output alignment.png`` to save the
-figure.
 """
-
-import argparse
 
 import matplotlib.pyplot as plt
 import numpy as np
@@ -30,10 +27,6 @@ from skfunc.alignment import LandmarkAligner, ShiftAligner
 from skfunc.datasets import make_kiln_firing
 from skfunc.decomposition import FunctionalPCA
 from skfunc.preprocessing import CurveSmoother
-
-parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-parser.add_argument("--output", help="save the figure to this file (e.g. a .png)")
-args = parser.parse_args()
 
 
 def crossing(X, grid, level, after=None):
@@ -107,8 +100,3 @@ for fpca, style, name in ((raw_fpca, "--", "raw"), (aligned_fpca, "-", "aligned"
 axes[1, 1].set(title="first functional principal component", xlabel="minute",
                ylabel="1 / sqrt(minute)")
 axes[1, 1].legend()
-if args.output:
-    fig.savefig(args.output, dpi=80)
-    print(f"saved {args.output}")
-if plt.get_backend().lower() != "agg":
-    plt.show()
