@@ -6,7 +6,8 @@ Hilbert space of functions, evaluated on the curves' grid.
 
 __version__ = "0.1.0"
 
-from . import hilbert, metrics, utils
+from . import alignment, hilbert, metrics, utils
+from .alignment import ElasticAligner, LandmarkAligner, ShiftAligner
 from .decomposition import FunctionalPCA
 from .linear_model import (
     ConcurrentFunctionRidge,
@@ -22,12 +23,16 @@ __all__ = [
     "BasisFeatures",
     "ConcurrentFunctionRidge",
     "CurveSmoother",
+    "ElasticAligner",
     "FunctionalLogisticRegression",
     "FunctionalPCA",
     "FunctionalRidge",
     "FunctionalRidgeCV",
     "FunctionOnFunctionRidge",
     "FunctionOnScalarRidge",
+    "LandmarkAligner",
+    "ShiftAligner",
+    "alignment",
     "hilbert",
     "metrics",
     "utils",

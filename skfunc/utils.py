@@ -3,7 +3,7 @@
 __all__ = ["all_estimators"]
 
 #: the public modules that export estimators
-_ESTIMATOR_MODULES = ("preprocessing", "decomposition", "linear_model")
+_ESTIMATOR_MODULES = ("preprocessing", "decomposition", "linear_model", "alignment")
 
 
 def all_estimators():
@@ -14,8 +14,8 @@ def all_estimators():
     -------
     estimators : list of (str, type) tuples
         ``(name, class)`` of each estimator class exported by
-        :mod:`skfunc.preprocessing`, :mod:`skfunc.decomposition` and
-        :mod:`skfunc.linear_model`, sorted by name.
+        :mod:`skfunc.preprocessing`, :mod:`skfunc.decomposition`,
+        :mod:`skfunc.linear_model` and :mod:`skfunc.alignment`, sorted by name.
 
     Examples
     --------
