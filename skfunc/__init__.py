@@ -6,7 +6,7 @@ Hilbert space of functions, evaluated on the curves' grid.
 
 __version__ = "0.1.0"
 
-from . import hilbert, metrics
+from . import hilbert, metrics, outliers
 from .decomposition import FunctionalPCA
 from .linear_model import (
     FunctionalLogisticRegression,
@@ -15,6 +15,7 @@ from .linear_model import (
     FunctionOnFunctionRidge,
     FunctionOnScalarRidge,
 )
+from .outliers import CurveOutlierDetector
 from .preprocessing import BasisFeatures, CurveSmoother
 
 #: every public estimator class; the estimator-check test runs over this list
@@ -27,10 +28,12 @@ ESTIMATORS = [
     FunctionalRidge,
     FunctionalRidgeCV,
     FunctionalLogisticRegression,
+    CurveOutlierDetector,
 ]
 
 __all__ = [
     "BasisFeatures",
+    "CurveOutlierDetector",
     "CurveSmoother",
     "ESTIMATORS",
     "FunctionalLogisticRegression",
@@ -41,5 +44,6 @@ __all__ = [
     "FunctionOnScalarRidge",
     "hilbert",
     "metrics",
+    "outliers",
     "__version__",
 ]

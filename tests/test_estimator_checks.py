@@ -66,8 +66,20 @@ _PICKLE_NAN = (
     "a second-derivative penalty leaves free, and the issue asks for a clear "
     "error naming such a row. Pickling (with NaN) is tested in test_smoother.py."
 )
+_NO_FENCE_CROSSED = (
+    "the check fits 300 two-point 'curves' from 3 Gaussian blobs and needs the "
+    "default contamination='auto' to flag some; none leaves the functional "
+    "boxplot's fences (1.5 x the central region's width), which is the rule's "
+    "published behaviour. tests/test_outliers.py re-runs every check with "
+    "contamination=0.1 for each method (test_sklearn_checks_every_method)"
+)
 #: {estimator class name: {check name: why it is expected to fail}}
 EXPECTED_FAILURES = {
+    "CurveOutlierDetector": {
+        "check_outliers_fit_predict": _NO_FENCE_CROSSED,
+        "check_outliers_train": _NO_FENCE_CROSSED,
+        "check_outliers_train(readonly_memmap=True)": _NO_FENCE_CROSSED,
+    },
     "CurveSmoother": {
         "check_estimators_pickle": _PICKLE_NAN,
         "check_estimators_pickle(readonly_memmap=True)": _PICKLE_NAN,
