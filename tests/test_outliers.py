@@ -130,7 +130,7 @@ def test_boxplot_rule_matches_its_definition():
     np.testing.assert_allclose(detector.central_lower_, lower)
     np.testing.assert_allclose(detector.central_upper_, upper)
     np.testing.assert_array_equal(detector.predict(X) == -1, outside)
-    assert outside.sum() >= 5
+    assert 3 <= outside.sum() < 50  # both outcomes are exercised
     assert set(detector.outlier_kind(X)[outside]) == {"magnitude"}
 
 
