@@ -40,6 +40,9 @@ MS_QUANTILE = 0.993
 BOOTSTRAP_REPLICATES = 50
 BOOTSTRAP_SMOOTHING = 0.05
 BOOTSTRAP_QUANTILE = 0.01
+#: at most this many rounds of trimming (each removes the curves below the
+#: cutoff and recomputes it from the rest)
+TRIMMING_ROUNDS = 10
 
 
 class CurveOutlierDetector(OutlierMixin, BaseEstimator):
@@ -238,7 +241,10 @@ class CurveOutlierDetector(OutlierMixin, BaseEstimator):
             )
         weights = time_weights(self.grid_, X.shape[1])
         self.median_, self.scale_ = robust_location_scale(X)
-        self.reference_ = X if self.method == "depth" else None
+        self.reference_, cutoff = None, None
+        if self.method == "depth":
+            self.reference_, cutoff = (self._trimmed(X, weights)
+                                       if self.contamination == "auto" else (X, None))
         self.central_lower_ = self.central_upper_ = None
         self.location_ = self.covariance_ = None
         if self.method == "boxplot":
@@ -249,7 +255,7 @@ class CurveOutlierDetector(OutlierMixin, BaseEstimator):
                 magnitude_shape_values(X, self.median_, self.scale_, weights)))
         scores = self._scores(X, weights)
         if self.contamination == "auto":
-            self.offset_ = self._auto_offset(X, weights)
+            self.offset_ = self._auto_offset(cutoff)
         else:
             self.offset_ = float(np.percentile(scores, 100.0 * self.contamination))
         self.outlier_kind_ = self._kinds(X, scores - self.offset_ < 0, weights)
@@ -269,20 +275,34 @@ class CurveOutlierDetector(OutlierMixin, BaseEstimator):
                 "'depth'."
             )
 
-    def _auto_offset(self, X, weights):
+    def _auto_offset(self, depth_cutoff):
         if self.method == "boxplot":
             return -float(self.factor)
         if self.method == "magnitude_shape":
             return -float(chi2.ppf(MS_QUANTILE, df=2))
-        return self._bootstrap_cutoff(X, weights)
+        return depth_cutoff
 
-    def _bootstrap_cutoff(self, X, weights):
+    def _trimmed(self, X, weights):
+        """Febrero et al. (2008): find the bootstrap cutoff, drop the curves
+        whose depth among the remaining ones is below it, and repeat until
+        none is dropped. Returns the remaining curves and sets the cutoff."""
+        rng = check_random_state(self.random_state)
+        depth_of = DEPTHS[self.depth]
+        keep = X
+        for _ in range(TRIMMING_ROUNDS):
+            depth = depth_of(keep, keep, weights)
+            cutoff = self._bootstrap_cutoff(keep, depth, weights, rng)
+            low = depth < cutoff
+            if not np.any(low) or keep.shape[0] - low.sum() < 2:
+                break
+            keep = keep[~low]
+        return keep, cutoff
+
+    def _bootstrap_cutoff(self, X, depth, weights, rng):
         """Median over bootstrap replicates of the 1% depth quantile of a
         smoothed bootstrap sample drawn with probabilities proportional to
         depth (Febrero et al., 2008)."""
-        rng = check_random_state(self.random_state)
         depth_of = DEPTHS[self.depth]
-        depth = depth_of(X, X, weights)
         n = X.shape[0]
         centred = X - X.mean(axis=0)
         # Gaussian noise with covariance smoothing * sample covariance

@@ -16,18 +16,25 @@ missing matplotlib is an ImportError that says how to install it.
   pointwise confidence band.
 * :class:`AlphaCriterionDisplay` -- the selection criterion (GCV,
   leave-one-out, ...) over the candidate penalties, with the chosen one.
+* :class:`FunctionalBoxplotDisplay` -- median curve, central region, range
+  and flagged curves.
+* :class:`OutlyingnessDisplay` -- magnitude against shape outlyingness.
 """
 
 import numpy as np
 from sklearn.utils.validation import check_array
 
 from ._grid import resolve_grid
+from ._plot_boxplot import FunctionalBoxplotDisplay
+from ._plot_outlyingness import OutlyingnessDisplay
 
 __all__ = [
     "CurveBandDisplay",
     "ComponentPerturbationDisplay",
     "CoefficientFunctionDisplay",
     "AlphaCriterionDisplay",
+    "FunctionalBoxplotDisplay",
+    "OutlyingnessDisplay",
 ]
 
 
