@@ -9,9 +9,10 @@ The gaps are filled with CurveSmoother, then CurveOutlierDetector scores
 every run. The runs' soak lengths vary widely, so their shape outlyingness
 has a long tail and the automatic magnitude-shape cutoff (which expects an
 elliptical cloud of typical runs) would flag about a third of them; here we
-ask for the 10% most outlying runs instead (contamination=0.1). Magnitude-shape outlyingness says how a flagged run differs: its
-level (magnitude: it runs hotter or colder than the others) or its course
-(shape: it heats, soaks or cools at unusual times). The functional boxplot
+ask for the 10% most outlying runs instead (contamination=0.1).
+Magnitude-shape outlyingness says how a flagged run differs: its level
+(magnitude: it runs hotter or colder than the others) or its course (shape:
+it heats, soaks or cools at unusual times). The functional boxplot
 rule flags only runs that leave the fences (1.5 times the width of the
 central region beyond it). Because the data are invented, the truth is
 known and printed beside each flag.

@@ -265,6 +265,68 @@ def test_fpca_scores_match_sklearn_pca_in_l2_coordinates():
         np.sqrt(np.sum(scores**2 / pca.explained_variance_, axis=1)), rtol=1e-8)
 
 
+# ------------------------------------------------------------- displays
+def test_boxplot_display_draws_the_detector_region_and_flags():
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    from skfunc.plotting import FunctionalBoxplotDisplay
+
+    rng = np.random.default_rng(9)
+    t, X, planted = sun_genton_sample("magnitude", 1, rng)
+    X = X[0]
+    detector = CurveOutlierDetector("boxplot", grid=t).fit(X)
+    labels = [f"c{i}" for i in range(len(X))]
+    display = FunctionalBoxplotDisplay.from_estimator(detector, X, labels=labels,
+                                                      ylabel="y")
+    flagged = detector.predict(X) == -1
+    # the drawn region is the envelope of the 50 deepest curves (numpy sort of
+    # the depths; Sun & Genton, 2011)
+    deepest = X[np.argsort(modified_band_depth(X, grid=t))[::-1][:50]]
+    region = np.vstack([p.vertices for p in display.region_.get_paths()])
+    for edge in (deepest.min(axis=0), deepest.max(axis=0)):
+        assert all(np.any(np.all(np.isclose(region, p), axis=1))
+                   for p in np.column_stack([t, edge]))
+    assert len(display.outlier_lines_) == flagged.sum() == planted[0].sum()
+    assert {text.get_text() for text in display.outlier_texts_} <= {
+        labels[i] for i in np.flatnonzero(flagged)}
+    np.testing.assert_allclose(display.median_line_.get_ydata(),
+                               X[np.argmax(modified_band_depth(X, grid=t))])
+    assert display.ax_.get_ylabel() == "y" and display.ax_.get_xlabel() == "t"
+    assert f"{flagged.sum()} of 100" in display.ax_.get_title()
+    assert display.figure_.get_layout_engine() is not None  # constrained
+    with pytest.raises(ValueError, match="one entry per curve"):
+        FunctionalBoxplotDisplay.from_curves(X, labels=["a"])
+    plt.close("all")
+
+
+def test_outlyingness_display_points_and_kinds():
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    from skfunc.plotting import OutlyingnessDisplay
+
+    rng = np.random.default_rng(10)
+    t, X, _ = sun_genton_sample("shape", 1, rng)
+    X = X[0]
+    display = OutlyingnessDisplay.from_curves(X, grid=t, random_state=0)
+    mo, vo = magnitude_shape_outlyingness(X, grid=t)
+    drawn = np.vstack([display.inliers_.get_offsets()]
+                      + [p.get_offsets() for p in display.outlier_points_.values()])
+    np.testing.assert_allclose(np.sort(drawn[:, 0]), np.sort(mo))
+    np.testing.assert_allclose(np.sort(drawn[:, 1]), np.sort(vo))
+    assert "shape" in display.outlier_points_
+    assert "magnitude" in display.ax_.get_xlabel()
+    assert "shape" in display.ax_.get_ylabel()
+    with pytest.raises(ValueError, match="outlyingness method"):
+        OutlyingnessDisplay.from_estimator(FunctionalPCA(2).fit(X), X)
+    plt.close("all")
+
+
 if __name__ == "__main__":
     import sys
 

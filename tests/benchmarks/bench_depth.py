@@ -86,7 +86,7 @@ def main():
         for n in sizes:
             t, X = curves(n, m, seed=2)
             detector = CurveOutlierDetector(method, random_state=0, grid=t)
-            seconds, _ = timed(lambda: detector.fit(X).score_samples(X))
+            seconds, _ = timed(lambda d=detector, X=X: d.fit(X).score_samples(X))
             print(f"{method:<16} {n:>7} {seconds:>9.3f} "
                   f"{1e6 * seconds / (n * np.log2(n)):>22.3f}")
 
