@@ -76,8 +76,10 @@ class CurveOutlierDetector(OutlierMixin, BaseEstimator):
         * "depth": depth trimming. The score is the curve's depth with
           respect to the training curves; "auto" flags depths below a cutoff
           from a smoothed bootstrap of the training curves (Febrero et al.,
-          2008): the median over 50 replicates of the 1% quantile of depth.
-          Depth alone does not say how a curve is unusual.
+          2008): the median over 50 replicates of the 1% quantile of depth,
+          recomputed after dropping the curves below it until none is
+          dropped (the depth then refers to the curves kept). Depth alone
+          does not say how a curve is unusual.
     depth : {"modified_band", "band", "integrated"}, default="modified_band"
         Depth used by "depth" (the score) and "boxplot" (to find the
         central region). Modified band depth and integrated depth cost
@@ -107,8 +109,11 @@ class CurveOutlierDetector(OutlierMixin, BaseEstimator):
     scale_ : ndarray of shape (n_features,)
         Pointwise robust scale (MAD scaled to a normal SD) of the training
         curves, the unit of the directional outlyingness.
-    reference_ : ndarray of shape (n_samples, n_features) or None
-        The training curves ("depth" only: new curves are ranked among them).
+    reference_ : ndarray of shape (n_reference, n_features) or None
+        "depth" only: the curves new curves are ranked among. The training
+        curves, or with contamination="auto" those left after the iterated
+        trimming (Febrero et al., 2008), so the flagged curves do not mask
+        each other.
     central_lower_, central_upper_ : ndarray of shape (n_features,) or None
         The central region of the training curves ("boxplot" only).
     location_ : ndarray of shape (2,) or None
@@ -140,6 +145,15 @@ class CurveOutlierDetector(OutlierMixin, BaseEstimator):
     for example with :class:`skfunc.preprocessing.CurveSmoother` in a
     pipeline.
 
+    The automatic rules differ in how often they flag typical curves. In
+    the simulation models of Sun & Genton (2011) (see the user guide page
+    "Unusual curves") the boxplot rule flagged about 0.1% of clean curves,
+    magnitude-shape outlyingness 12-14% (its chi-square cutoff, used here in
+    place of the published F approximation of Hardin & Rocke (2005), assumes
+    an elliptical cloud of (magnitude, shape), which rough or heterogeneous
+    curves do not give) and depth trimming a few percent. With many flags,
+    set ``contamination`` and read :meth:`outlier_kind`.
+
     A flag is a statistical statement about a curve relative to the others,
     not a diagnosis: confirm it with process knowledge, and follow the
     applicable standards and qualified practice before acting on it.
@@ -160,6 +174,10 @@ class CurveOutlierDetector(OutlierMixin, BaseEstimator):
     Lopez-Pintado, S. and Romo, J. (2009). On the concept of depth for
     functional data. *Journal of the American Statistical Association*
     104(486), 718-734.
+
+    Hardin, J. and Rocke, D. M. (2005). The distribution of robust
+    distances. *Journal of Computational and Graphical Statistics* 14(4),
+    928-946.
 
     Examples
     --------

@@ -107,7 +107,7 @@ def test_shape_outliers_need_magnitude_shape():
     # Dai & Genton (2018), section 4: shape outliers stay inside the
     # functional boxplot's fences but show in the variation of
     # outlyingness. Bounds: MS finds at least 90 %, the boxplot at most 25 %
-    # (measured about 7 %; see docs/outliers.rst)
+    # (measured 3.4 % over 100 replicates; see docs/outliers.rst)
     ms, _ = rates("shape", "magnitude_shape", n_replicates=5)
     box, _ = rates("shape", "boxplot", n_replicates=5)
     assert ms >= 0.9
