@@ -37,7 +37,7 @@ from skfunc.plotting import FunctionalBoxplotDisplay, OutlyingnessDisplay
 from skfunc.preprocessing import CurveSmoother
 
 kiln = make_kiln_firing(150, faulty_fraction=0.05, random_state=3)
-minutes = kiln.minutes
+minutes = kiln.grid
 # fill the thermocouple dropouts (the detectors need complete curves)
 curves = CurveSmoother(grid=minutes, n_basis=60).fit_transform(kiln.data)
 

@@ -109,9 +109,9 @@ class FunctionalBoxplotDisplay:
     >>> from skfunc.plotting import FunctionalBoxplotDisplay
     >>> kiln = make_kiln_firing(60, dropout_fraction=0, random_state=0)
     >>> display = FunctionalBoxplotDisplay.from_curves(kiln.data,
-    ...                                                grid=kiln.minutes)
+    ...                                                grid=kiln.grid)
     >>> display.ax_.get_title()
-    'Functional boxplot: 2 of 60 curves flagged'
+    'Functional boxplot: 5 of 60 curves flagged'
     """
 
     def __init__(self, *, grid, curves, median, central_lower, central_upper,

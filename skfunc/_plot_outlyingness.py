@@ -56,7 +56,7 @@ class OutlyingnessDisplay:
     >>> from skfunc.datasets import make_kiln_firing
     >>> from skfunc.plotting import OutlyingnessDisplay
     >>> kiln = make_kiln_firing(60, dropout_fraction=0, random_state=0)
-    >>> display = OutlyingnessDisplay.from_curves(kiln.data, grid=kiln.minutes,
+    >>> display = OutlyingnessDisplay.from_curves(kiln.data, grid=kiln.grid,
     ...                                           random_state=0)
     >>> display.ax_.get_xlabel()
     'magnitude: mean directional outlyingness'
