@@ -392,6 +392,7 @@ class CurveOutlierDetector(ShortReprMixin, OutlierMixin, BaseEstimator):
             kinds[flagged & shape & magnitude] = "magnitude and shape"
         return kinds
 
+    @fill_doc
     def score_samples(self, X):
         """Typicality of each curve relative to the training curves.
 
@@ -401,8 +402,7 @@ class CurveOutlierDetector(ShortReprMixin, OutlierMixin, BaseEstimator):
 
         Parameters
         ----------
-        X : array-like of shape (n_samples, n_features)
-            Curves on the fitted grid.
+        %(fitted_grid_X)s
 
         Returns
         -------
@@ -412,13 +412,13 @@ class CurveOutlierDetector(ShortReprMixin, OutlierMixin, BaseEstimator):
         X = self._validate(X, reset=False)
         return self._scores(X, time_weights(self.grid_, X.shape[1]))
 
+    @fill_doc
     def decision_function(self, X):
         """``score_samples(X) - offset_``: negative for outliers.
 
         Parameters
         ----------
-        X : array-like of shape (n_samples, n_features)
-            Curves on the fitted grid.
+        %(fitted_grid_X)s
 
         Returns
         -------
@@ -426,13 +426,13 @@ class CurveOutlierDetector(ShortReprMixin, OutlierMixin, BaseEstimator):
         """
         return self.score_samples(X) - self.offset_
 
+    @fill_doc
     def predict(self, X):
         """1 for typical curves, -1 for outliers.
 
         Parameters
         ----------
-        X : array-like of shape (n_samples, n_features)
-            Curves on the fitted grid.
+        %(fitted_grid_X)s
 
         Returns
         -------
@@ -441,13 +441,13 @@ class CurveOutlierDetector(ShortReprMixin, OutlierMixin, BaseEstimator):
         decision = self.decision_function(X)
         return np.where(decision < 0, -1, 1)
 
+    @fill_doc
     def outlier_kind(self, X):
         """How each curve is unusual.
 
         Parameters
         ----------
-        X : array-like of shape (n_samples, n_features)
-            Curves on the fitted grid.
+        %(fitted_grid_X)s
 
         Returns
         -------
@@ -466,13 +466,13 @@ class CurveOutlierDetector(ShortReprMixin, OutlierMixin, BaseEstimator):
         weights = time_weights(self.grid_, X.shape[1])
         return self._kinds(X, self._scores(X, weights) - self.offset_ < 0, weights)
 
+    @fill_doc
     def outlyingness(self, X):
         """Magnitude and shape outlyingness relative to the training curves.
 
         Parameters
         ----------
-        X : array-like of shape (n_samples, n_features)
-            Curves on the fitted grid.
+        %(fitted_grid_X)s
 
         Returns
         -------

@@ -33,6 +33,10 @@ grid : array-like of shape (n_features,), default=None
     Sampling points of the columns of ``X``. None means the numeric column
     labels of a DataFrame, else evenly spaced points on [0, 1].
 """,
+    "fitted_grid_X": """
+X : array-like of shape (n_samples, n_features)
+    Curves on the fitted grid.
+""",
     "quadrature": """
 quadrature : {"trapezoid", "simpson"}, default="trapezoid"
     Quadrature rule of the integrals over the grid (see

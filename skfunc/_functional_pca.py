@@ -520,13 +520,13 @@ class FunctionalPCA(AdditiveTransformerMixin, ClassNamePrefixFeaturesOutMixin,
         return self.n_components_
 
     # ---------------------------------------------------------- transforms
+    @fill_doc
     def transform(self, X):
         """Principal component scores ``<x - mean_, phi_k>`` of each curve.
 
         Parameters
         ----------
-        X : array-like of shape (n_samples, n_features)
-            Curves on the fitted grid.
+        %(fitted_grid_X)s
 
         Returns
         -------
@@ -536,6 +536,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ClassNamePrefixFeaturesOutMixin,
         X = self._validate(X, reset=False)
         return chunked_matmul(X, self.projection_.T) - self.mean_ @ self.projection_.T
 
+    @fill_doc
     def score_samples(self, X):
         """Minus the L2 norm of each curve's reconstruction error.
 
@@ -549,8 +550,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ClassNamePrefixFeaturesOutMixin,
 
         Parameters
         ----------
-        X : array-like of shape (n_samples, n_features)
-            Curves on the fitted grid.
+        %(fitted_grid_X)s
 
         Returns
         -------
@@ -568,6 +568,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ClassNamePrefixFeaturesOutMixin,
         )
         return -np.sqrt(np.maximum(residual**2 @ self.quadrature_weights_, 0.0))
 
+    @fill_doc
     def mahalanobis(self, X):
         """Mahalanobis distance of each curve's component scores.
 
@@ -577,8 +578,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ClassNamePrefixFeaturesOutMixin,
 
         Parameters
         ----------
-        X : array-like of shape (n_samples, n_features)
-            Curves on the fitted grid.
+        %(fitted_grid_X)s
 
         Returns
         -------
