@@ -6,7 +6,7 @@ Hilbert space of functions, evaluated on the curves' grid.
 
 __version__ = "0.1.0"
 
-from . import alignment, hilbert, metrics, utils
+from . import alignment, hilbert, metrics, outliers, utils
 from .alignment import ElasticAligner, LandmarkAligner, ShiftAligner
 from .decomposition import FunctionalPCA
 from .linear_model import (
@@ -17,11 +17,13 @@ from .linear_model import (
     FunctionOnFunctionRidge,
     FunctionOnScalarRidge,
 )
+from .outliers import CurveOutlierDetector
 from .preprocessing import BasisFeatures, CurveSmoother
 
 __all__ = [
     "BasisFeatures",
     "ConcurrentFunctionRidge",
+    "CurveOutlierDetector",
     "CurveSmoother",
     "ElasticAligner",
     "FunctionalLogisticRegression",
@@ -35,6 +37,7 @@ __all__ = [
     "alignment",
     "hilbert",
     "metrics",
+    "outliers",
     "utils",
     "__version__",
 ]

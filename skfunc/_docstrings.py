@@ -89,6 +89,10 @@ grid : array-like of shape (n_features,), default=None
 input_features : array-like of str or None, default=None
     Input feature names, validated against ``feature_names_in_``.
 """,
+    "fitted_grid_X": """
+X : array-like of shape (n_samples, n_features)
+    Curves on the fitted grid.
+""",
     "quadrature": """
 quadrature : {"trapezoid", "simpson"}, default="trapezoid"
     Quadrature rule of the integrals over the grid (see
