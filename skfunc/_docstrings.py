@@ -281,6 +281,14 @@ grid : int or array-like of shape (n_points,), default=None
 random_state : int, RandomState instance or None, default=None
     Seed.
 """,
+    "display_labels_ax": """
+labels : list of str, default=None
+    One label per curve; None means the row numbers.
+ax : matplotlib Axes, default=None
+    Axes to draw on; None makes a new figure.
+**plot_kwargs
+    Passed to :meth:`plot`.
+""",
 }
 
 

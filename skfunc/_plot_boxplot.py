@@ -4,6 +4,8 @@ import numpy as np
 
 from ._curve_outliers import CurveOutlierDetector
 from ._depth import central_region, check_curves, mbd_values, time_weights
+from ._docstrings import fill_doc
+from ._estimator import store_init_params
 from ._grid import resolve_grid
 
 #: the package's colours for flagged curves by kind (matplotlib's cycle)
@@ -51,6 +53,7 @@ def flags_and_kinds(estimator, X):
     return flagged, kinds
 
 
+@fill_doc
 class FunctionalBoxplotDisplay:
     """Functional boxplot: median curve, central 50% region, range, outliers.
 
@@ -101,10 +104,7 @@ class FunctionalBoxplotDisplay:
     Sun, Y. and Genton, M. G. (2011). Functional boxplots. *Journal of
     Computational and Graphical Statistics* 20(2), 316-334.
 
-    Examples
-    --------
-    >>> import matplotlib
-    >>> matplotlib.use("Agg")
+    %(plot_examples)s
     >>> from skfunc.datasets import make_kiln_firing
     >>> from skfunc.plotting import FunctionalBoxplotDisplay
     >>> kiln = make_kiln_firing(60, dropout_fraction=0, random_state=0)
@@ -116,14 +116,7 @@ class FunctionalBoxplotDisplay:
 
     def __init__(self, *, grid, curves, median, central_lower, central_upper,
                  outliers, labels=None, kinds=None):
-        self.grid = grid
-        self.curves = curves
-        self.median = median
-        self.central_lower = central_lower
-        self.central_upper = central_upper
-        self.outliers = outliers
-        self.labels = labels
-        self.kinds = kinds
+        store_init_params(self, locals())
 
     @classmethod
     def _build(cls, values, grid, flagged, kinds, labels, ax, plot_kwargs):
@@ -135,6 +128,7 @@ class FunctionalBoxplotDisplay:
         return display.plot(ax=ax, **plot_kwargs)
 
     @classmethod
+    @fill_doc
     def from_curves(cls, X, *, grid=None, factor=1.5, labels=None, ax=None,
                     **plot_kwargs):
         """Draw the functional boxplot of X, flagging by the boxplot rule.
@@ -148,12 +142,7 @@ class FunctionalBoxplotDisplay:
             DataFrame, else evenly spaced on [0, 1].
         factor : float, default=1.5
             Fences at ``factor`` times the central region's width beyond it.
-        labels : list of str, default=None
-            One label per curve; None means the row numbers.
-        ax : matplotlib Axes, default=None
-            Axes to draw on; None makes a new figure.
-        **plot_kwargs
-            Passed to :meth:`plot` (``xlabel``, ``ylabel``, ``title``).
+        %(display_labels_ax)s
 
         Returns
         -------
@@ -163,6 +152,7 @@ class FunctionalBoxplotDisplay:
         return cls.from_estimator(detector, X, labels=labels, ax=ax, **plot_kwargs)
 
     @classmethod
+    @fill_doc
     def from_estimator(cls, estimator, X, *, labels=None, ax=None, **plot_kwargs):
         """Draw the functional boxplot of X with a fitted detector's flags.
 
@@ -175,12 +165,7 @@ class FunctionalBoxplotDisplay:
         X : array-like of shape (n_curves, n_points)
             Curves on the estimator's grid; the median and central region
             are those of X.
-        labels : list of str, default=None
-            One label per curve; None means the row numbers.
-        ax : matplotlib Axes, default=None
-            Axes to draw on; None makes a new figure.
-        **plot_kwargs
-            Passed to :meth:`plot` (``xlabel``, ``ylabel``, ``title``).
+        %(display_labels_ax)s
 
         Returns
         -------

@@ -3,9 +3,12 @@
 import numpy as np
 
 from ._curve_outliers import CurveOutlierDetector
+from ._docstrings import fill_doc
+from ._estimator import store_init_params
 from ._plot_boxplot import KIND_STYLE, curve_labels, display_axes, flags_and_kinds
 
 
+@fill_doc
 class OutlyingnessDisplay:
     """Magnitude against shape outlyingness, one point per curve.
 
@@ -49,10 +52,7 @@ class OutlyingnessDisplay:
     visualization and outlier detection. *Journal of Computational and
     Graphical Statistics* 27(4), 923-934.
 
-    Examples
-    --------
-    >>> import matplotlib
-    >>> matplotlib.use("Agg")
+    %(plot_examples)s
     >>> from skfunc.datasets import make_kiln_firing
     >>> from skfunc.plotting import OutlyingnessDisplay
     >>> kiln = make_kiln_firing(60, dropout_fraction=0, random_state=0)
@@ -63,13 +63,10 @@ class OutlyingnessDisplay:
     """
 
     def __init__(self, *, magnitude, shape, outliers, labels=None, kinds=None):
-        self.magnitude = magnitude
-        self.shape = shape
-        self.outliers = outliers
-        self.labels = labels
-        self.kinds = kinds
+        store_init_params(self, locals())
 
     @classmethod
+    @fill_doc
     def from_curves(cls, X, *, grid=None, labels=None, random_state=None,
                     ax=None, **plot_kwargs):
         """Outlyingness of X relative to X, flagged by the magnitude-shape rule.
@@ -99,6 +96,7 @@ class OutlyingnessDisplay:
         return cls.from_estimator(detector, X, labels=labels, ax=ax, **plot_kwargs)
 
     @classmethod
+    @fill_doc
     def from_estimator(cls, estimator, X, *, labels=None, ax=None, **plot_kwargs):
         """Outlyingness of X relative to a fitted detector's training curves.
 
@@ -109,12 +107,7 @@ class OutlyingnessDisplay:
             :meth:`predict`, kinds its :meth:`outlier_kind`.
         X : array-like of shape (n_curves, n_points)
             Curves on the estimator's grid.
-        labels : list of str, default=None
-            One label per curve; None means the row numbers.
-        ax : matplotlib Axes, default=None
-            Axes to draw on; None makes a new figure.
-        **plot_kwargs
-            Passed to :meth:`plot` (``title``).
+        %(display_labels_ax)s
 
         Returns
         -------

@@ -25,7 +25,7 @@ import argparse
 import warnings
 
 import numpy as np
-from _common import best_times  # first: puts the repository on sys.path
+from _timing import best_times  # first: puts the repository on sys.path
 from scipy.linalg import cho_factor, cho_solve
 
 from skfunc._alpha import choose_alpha  # noqa: E402

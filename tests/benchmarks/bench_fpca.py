@@ -20,7 +20,7 @@ import sys
 import tracemalloc
 
 import numpy as np
-from _common import best_times  # first: puts the repository on sys.path
+from _timing import best_times  # first: puts the repository on sys.path
 from sklearn.decomposition import PCA
 
 from skfunc.decomposition import FunctionalPCA  # noqa: E402

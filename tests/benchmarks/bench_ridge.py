@@ -14,7 +14,7 @@ Run from the repository root::
 import argparse
 
 import numpy as np
-from _common import best_times  # first: puts the repository on sys.path
+from _timing import best_times  # first: puts the repository on sys.path
 from sklearn.linear_model import RidgeCV  # noqa: E402
 from sklearn.model_selection import GridSearchCV  # noqa: E402
 

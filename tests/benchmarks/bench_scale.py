@@ -26,8 +26,6 @@ import sys
 from functools import partial
 
 import numpy as np
-from _common import best_time  # first: puts the repository on sys.path
-
 from _timing import best_time  # noqa: E402
 
 from skfunc.utils import all_estimators  # noqa: E402

@@ -16,7 +16,7 @@ import argparse
 import tracemalloc
 
 import numpy as np
-from _common import best_time, best_times  # first: puts the repository on sys.path
+from _timing import best_time, best_times  # first: puts the repository on sys.path
 from scipy.interpolate import make_smoothing_spline
 from threadpoolctl import threadpool_limits
 

@@ -22,7 +22,7 @@ import time
 import warnings
 
 import numpy as np
-from _common import best_time  # first: puts the repository on sys.path
+from _timing import best_time  # first: puts the repository on sys.path
 
 from skfunc.decomposition import FunctionalPCA, SparseFunctionalPCA  # noqa: E402
 from skfunc.irregular import curves_from_arrays  # noqa: E402
