@@ -42,6 +42,13 @@ def curve_labels(labels, n):
     return labels
 
 
+def from_fitted_detector(display_cls, X, labels, ax, plot_kwargs, **params):
+    """``display_cls.from_estimator`` of a CurveOutlierDetector(**params)
+    fitted on the curves X (what each display's ``from_curves`` does)."""
+    detector = CurveOutlierDetector(**params).fit(X)
+    return display_cls.from_estimator(detector, X, labels=labels, ax=ax, **plot_kwargs)
+
+
 def flags_and_kinds(estimator, X):
     """The estimator's outlier flags and kinds for X (kinds "unspecified"
     when the estimator cannot tell)."""
@@ -148,8 +155,8 @@ class FunctionalBoxplotDisplay:
         -------
         display : FunctionalBoxplotDisplay
         """
-        detector = CurveOutlierDetector("boxplot", factor=factor, grid=grid).fit(X)
-        return cls.from_estimator(detector, X, labels=labels, ax=ax, **plot_kwargs)
+        return from_fitted_detector(cls, X, labels, ax, plot_kwargs, method="boxplot",
+                                    factor=factor, grid=grid)
 
     @classmethod
     @fill_doc

@@ -2,10 +2,15 @@
 
 import numpy as np
 
-from ._curve_outliers import CurveOutlierDetector
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
-from ._plot_boxplot import KIND_STYLE, curve_labels, display_axes, flags_and_kinds
+from ._plot_boxplot import (
+    KIND_STYLE,
+    curve_labels,
+    display_axes,
+    flags_and_kinds,
+    from_fitted_detector,
+)
 
 
 @fill_doc
@@ -91,9 +96,9 @@ class OutlyingnessDisplay:
         -------
         display : OutlyingnessDisplay
         """
-        detector = CurveOutlierDetector("magnitude_shape", random_state=random_state,
-                                        grid=grid).fit(X)
-        return cls.from_estimator(detector, X, labels=labels, ax=ax, **plot_kwargs)
+        return from_fitted_detector(cls, X, labels, ax, plot_kwargs,
+                                    method="magnitude_shape",
+                                    random_state=random_state, grid=grid)
 
     @classmethod
     @fill_doc
