@@ -23,13 +23,18 @@ missing matplotlib is an ImportError that says how to install it.
 * :class:`AlphaCriterionDisplay` -- the selection criterion (GCV,
   leave-one-out, ...) over the candidate penalties, with the chosen one, or
   the distribution of alphas chosen curve by curve.
+* :class:`FunctionalBoxplotDisplay` -- median curve, central region, range
+  and flagged curves.
+* :class:`OutlyingnessDisplay` -- magnitude against shape outlyingness.
 """
 
 from ._plot_alpha import AlphaCriterionDisplay
 from ._plot_base import _Display, _fitted_attributes, _pyplot  # noqa: F401
+from ._plot_boxplot import FunctionalBoxplotDisplay
 from ._plot_coefficient import CoefficientFunctionDisplay
 from ._plot_components import ComponentPerturbationDisplay
 from ._plot_curve_band import CurveBandDisplay
+from ._plot_outlyingness import OutlyingnessDisplay
 from ._plot_scores import ComponentScoreDisplay
 
 __all__ = [
@@ -38,4 +43,6 @@ __all__ = [
     "ComponentScoreDisplay",
     "CoefficientFunctionDisplay",
     "AlphaCriterionDisplay",
+    "FunctionalBoxplotDisplay",
+    "OutlyingnessDisplay",
 ]
