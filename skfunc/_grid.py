@@ -113,12 +113,37 @@ def resolve_grid(grid, X, n_points):
     return np.linspace(0.0, 1.0, n_points)
 
 
+def _is_complex(values):
+    try:
+        return np.iscomplexobj(values)
+    except (TypeError, ValueError):  # ragged or odd input: check_grid explains it
+        return False
+
+
 def grid_weights(grid, n_points, quadrature="trapezoid", data_name="X"):
     """Quadrature weights for data with ``n_points`` columns on ``grid``
-    (None: evenly spaced on [0, 1])."""
+    (None: evenly spaced on [0, 1]), for integrals of arbitrary curves.
+
+    The weights are never negative: a composite Simpson rule on a very uneven
+    grid can give negative weights (then the "squared norm" of a curve can be
+    negative), and such a grid is refused with a ``ValueError`` that advises
+    the trapezoid rule, rather than silently changing the rule. A complex
+    grid is a ``TypeError`` (its imaginary part would otherwise be dropped).
+    """
     if grid is None:
         grid = np.linspace(0.0, 1.0, n_points)
-    return quadrature_weights(check_grid(grid, n_points, data_name=data_name), quadrature)
+    elif _is_complex(grid):
+        raise TypeError("grid must hold real numbers; got complex values.")
+    w = quadrature_weights(check_grid(grid, n_points, data_name=data_name), quadrature)
+    if np.any(w < 0):
+        j = int(np.argmin(w))
+        raise ValueError(
+            f"quadrature={quadrature!r} gives a negative weight ({w[j]:.3g} at grid "
+            f"point {j}) on this uneven grid, so integrals of squares could come out "
+            "negative. Use quadrature='trapezoid' (weights always positive) or a "
+            "more even grid."
+        )
+    return w
 
 
 def check_quadrature(quadrature):

@@ -23,13 +23,11 @@ ed., sec. 13.2 (pointwise and integrated R^2). Springer.
 """
 
 import numpy as np
-from sklearn.utils.validation import (
-    _check_sample_weight,
-    check_array,
-    check_consistent_length,
-)
+from sklearn.utils.validation import check_consistent_length
 
 from ._grid import check_grid, grid_from_labels, grid_weights
+from ._weights import check_sample_weight
+from .hilbert import _curves, _unit
 
 __all__ = [
     "integrated_squared_error",
@@ -41,26 +39,45 @@ __all__ = [
 ]
 
 
-def _check_curves(y_true, y_pred, grid, quadrature, sample_weight):
-    y_true = check_array(y_true, dtype=np.float64, input_name="y_true")
-    y_pred = check_array(y_pred, dtype=np.float64, input_name="y_pred")
+def _check_curves(y_true, y_pred, sample_weight):
+    """Validated ``(y_true, y_pred, sample_weight)``, both curves divided by
+    one common scale ``s`` (the largest absolute value of either), which is
+    returned too: squares of scaled values neither overflow nor underflow."""
+    y_true, y_pred = _curves(y_true, "y_true"), _curves(y_pred, "y_pred")
+    for name, arr in (("y_true", y_true), ("y_pred", y_pred)):
+        if arr.ndim != 2:
+            raise ValueError(
+                f"Expected 2D array for {name} (curves as rows, grid points as "
+                f"columns); got a 1-D array of shape {arr.shape}. Reshape one curve "
+                "with y.reshape(1, -1)."
+            )
     check_consistent_length(y_true, y_pred)
     if y_true.shape != y_pred.shape:
         raise ValueError(
             f"y_true and y_pred must have the same shape (curves as rows, grid "
             f"points as columns); got {y_true.shape} and {y_pred.shape}."
         )
-    weights = grid_weights(grid, y_true.shape[1], quadrature, data_name="y_true")
-    sw = _check_sample_weight(sample_weight, y_true)
-    return y_true, y_pred, weights, sw
+    sw = check_sample_weight(sample_weight, y_true, data_name="y_true")
+    s = max(np.max(np.abs(y_true)), np.max(np.abs(y_pred)))
+    s = s if s > 0 else 1.0
+    return y_true / s, y_pred / s, sw, s
 
 
 def _sums(y_true, y_pred, sw):
-    """Weighted sums over curves of squared errors and squared deviations."""
+    """Weighted sums over curves of squared errors and squared deviations,
+    with SST set to 0 where the true values do not vary beyond rounding."""
     mean = sw @ y_true / sw.sum()
+    deviations = y_true - mean
     sse = sw @ (y_true - y_pred) ** 2
-    sst = sw @ (y_true - mean) ** 2
-    return sse, sst
+    sst = sw @ deviations**2
+    # the weighted mean of n values has a forward rounding error of at most
+    # (n + 1) eps/2 max|y| (Higham 2002, sec. 3.1; positive weights); a column
+    # whose deviations stay within (n + 2) eps max|y| is constant
+    scale = np.max(np.abs(y_true), axis=0)
+    flat = np.max(np.abs(deviations), axis=0) <= (
+        (y_true.shape[0] + 2) * np.finfo(np.float64).eps * scale
+    )
+    return sse, np.where(flat, 0.0, sst)
 
 
 def integrated_squared_error(y_true, y_pred, *, grid=None, quadrature="trapezoid",
@@ -76,7 +93,8 @@ def integrated_squared_error(y_true, y_pred, *, grid=None, quadrature="trapezoid
     quadrature : {"trapezoid", "simpson"}, default="trapezoid"
         Quadrature rule.
     sample_weight : array-like of shape (n_samples,), default=None
-        Weights of the curves in the mean.
+        Frequency weights of the curves (a weight of 2 counts a curve twice):
+        finite, non-negative, not all zero.
 
     Returns
     -------
@@ -91,10 +109,9 @@ def integrated_squared_error(y_true, y_pred, *, grid=None, quadrature="trapezoid
     >>> round(integrated_squared_error(y, y + 0.5, grid=t), 6)  # int 0.25 dt
     0.25
     """
-    y_true, y_pred, weights, sw = _check_curves(
-        y_true, y_pred, grid, quadrature, sample_weight
-    )
-    return float(sw @ ((y_true - y_pred) ** 2 @ weights) / sw.sum())
+    y_true, y_pred, sw, s = _check_curves(y_true, y_pred, sample_weight)
+    weights = grid_weights(grid, y_true.shape[1], quadrature, data_name="y_true")
+    return float(s * (s * (sw @ ((y_true - y_pred) ** 2 @ weights) / sw.sum())))
 
 
 def integrated_r2_score(y_true, y_pred, *, grid=None, quadrature="trapezoid",
@@ -117,7 +134,8 @@ def integrated_r2_score(y_true, y_pred, *, grid=None, quadrature="trapezoid",
     quadrature : {"trapezoid", "simpson"}, default="trapezoid"
         Quadrature rule.
     sample_weight : array-like of shape (n_samples,), default=None
-        Weights of the curves.
+        Frequency weights of the curves (a weight of 2 counts a curve twice):
+        finite, non-negative, not all zero.
 
     Returns
     -------
@@ -133,9 +151,8 @@ def integrated_r2_score(y_true, y_pred, *, grid=None, quadrature="trapezoid",
     >>> integrated_r2_score(y, np.tile(y.mean(axis=0), (2, 1)))  # the mean curve
     0.0
     """
-    y_true, y_pred, weights, sw = _check_curves(
-        y_true, y_pred, grid, quadrature, sample_weight
-    )
+    y_true, y_pred, sw, _ = _check_curves(y_true, y_pred, sample_weight)
+    weights = grid_weights(grid, y_true.shape[1], quadrature, data_name="y_true")
     sse, sst = _sums(y_true, y_pred, sw)
     sse, sst = sse @ weights, sst @ weights
     if sst == 0:
@@ -148,14 +165,19 @@ def pointwise_r2_score(y_true, y_pred, *, sample_weight=None):
 
     The same as :func:`sklearn.metrics.r2_score` with
     ``multioutput="raw_values"``; points where the true curves do not vary
-    get 1 for a perfect prediction there and 0 otherwise.
+    get 1 for a perfect prediction there and 0 otherwise. Unlike
+    scikit-learn, "do not vary" means "not beyond rounding of their own
+    values", so a constant column such as 0.1 (whose computed mean is off by
+    one rounding step) scores 0, not -5e31, for an imperfect prediction.
+    One column (a one-point "curve") is accepted: no grid is needed.
 
     Parameters
     ----------
     y_true, y_pred : array-like of shape (n_samples, n_points)
         True and predicted curves.
     sample_weight : array-like of shape (n_samples,), default=None
-        Weights of the curves.
+        Frequency weights of the curves (a weight of 2 counts a curve twice):
+        finite, non-negative, not all zero.
 
     Returns
     -------
@@ -169,8 +191,7 @@ def pointwise_r2_score(y_true, y_pred, *, sample_weight=None):
     >>> pointwise_r2_score(y, [[0.0, 2.0], [2.0, 2.0]])
     array([1., 0.])
     """
-    y_true, y_pred, _, sw = _check_curves(y_true, y_pred, None, "trapezoid",
-                                          sample_weight)
+    y_true, y_pred, sw, _ = _check_curves(y_true, y_pred, sample_weight)
     sse, sst = _sums(y_true, y_pred, sw)
     flat = sst == 0
     with np.errstate(divide="ignore", invalid="ignore"):
