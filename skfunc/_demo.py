@@ -23,7 +23,7 @@ from sklearn.preprocessing import FunctionTransformer
 from threadpoolctl import threadpool_limits
 
 from .datasets import make_kiln_firing
-from .persistence import save_model
+from .persistence import _check_target, save_model
 
 #: candidate penalties of the raw-grid baseline: wide enough for values in °C
 BASELINE_ALPHAS = np.logspace(-3, 8, 45)
@@ -105,6 +105,13 @@ def _int_in(low, high):
     return parse
 
 
+def _file_path(text):
+    path = Path(text)
+    if not text.strip() or not path.name:
+        raise argparse.ArgumentTypeError(f"expected a file name; got {text!r}")
+    return path
+
+
 def build_parser():
     parser = argparse.ArgumentParser(
         prog="python -m skfunc",
@@ -125,7 +132,7 @@ def build_parser():
         ),
     )
     demo.add_argument(
-        "--output", "-o", type=Path, default=Path(DEFAULT_OUTPUT), metavar="PATH",
+        "--output", "-o", type=_file_path, default=Path(DEFAULT_OUTPUT), metavar="PATH",
         help="where to save the fitted model; '.skops' saves with skops.io, "
              f"anything else with joblib (default: {DEFAULT_OUTPUT})",
     )
@@ -134,7 +141,7 @@ def build_parser():
         help="replace the model file and the figure if they exist",
     )
     demo.add_argument(
-        "--figure", type=Path, default=None, metavar="PATH",
+        "--figure", type=_file_path, default=None, metavar="PATH",
         help="where to save the figure (default: the model path with '.png')",
     )
     demo.add_argument("--no-figure", action="store_true", help="draw no figure")
@@ -166,16 +173,16 @@ def _check_paths(parser, args):
         elif args.figure.suffix.lower() not in (".png", ".pdf", ".svg"):
             parser.error(f"--figure must end in .png, .pdf or .svg; got {args.figure}")
         targets.append(("--figure", args.figure))
+    if not args.no_figure and args.figure.resolve() == args.output.resolve():
+        parser.error(
+            f"the figure would overwrite the model: --output and the figure are both "
+            f"{args.output}; choose another --figure or --output"
+        )
     for option, path in targets:
-        if path.is_dir():
-            parser.error(f"{option} {path} is a folder; give a file name")
-        if not path.parent.exists():
-            parser.error(f"{option}: the folder {path.parent} does not exist")
-        if path.exists() and not args.force:
-            parser.error(
-                f"{option} {path} already exists; pass --force to replace it or "
-                f"choose another path with {option}"
-            )
+        try:  # existing files, missing or unwritable folders, named as given
+            _check_target(path, force=args.force)
+        except OSError as exc:
+            parser.error(f"{option}: {exc}")
     if args.output.suffix.lower() == ".skops":
         try:
             import skops.io  # noqa: F401
