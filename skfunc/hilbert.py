@@ -61,7 +61,7 @@ def _curves(X, name="X"):
             f"{name} must hold real curve values; got complex numbers (skfunc "
             "does not drop imaginary parts)."
         )
-    X = check_array(X, ensure_2d=False, dtype=np.float64, input_name=name)
+    X = check_array(X, ensure_2d=False, allow_nd=True, dtype=np.float64, input_name=name)
     if X.ndim not in (1, 2):
         raise ValueError(
             f"{name} must be one curve (1-D) or curves as rows (2-D); got {X.ndim}-D."
