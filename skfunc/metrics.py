@@ -27,7 +27,7 @@ from sklearn.utils.validation import check_consistent_length
 
 from ._grid import check_grid, grid_from_labels, grid_weights
 from ._weights import check_sample_weight
-from .hilbert import _curves, _unit
+from .hilbert import _curves
 
 __all__ = [
     "integrated_squared_error",

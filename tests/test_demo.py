@@ -29,6 +29,8 @@ def test_demo_runs_saves_and_draws(tmp_path, capsys):
     # an invented but honest check: predictions track the true strength
     assert np.corrcoef(pred, kiln.strength)[0, 1] > 0.8
     figure = tmp_path / "model.png"
+    # a blank 13 x 7.5 inch canvas at 90 dpi is 4.7 kB as PNG (measured with
+    # matplotlib 3.x): this only rules out an empty file or a blank figure
     assert figure.stat().st_size > 10_000
     assert figure.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"  # PNG signature
 
@@ -39,7 +41,8 @@ def test_demo_refuses_to_overwrite_without_force(tmp_path, capsys):
     with pytest.raises(SystemExit) as info:
         main(["demo", "--output", str(output), *FAST])
     assert info.value.code == 2
-    assert "already exists; pass --force" in capsys.readouterr().err
+    err = capsys.readouterr().err
+    assert f"--output: {output} already exists" in err and "--force" in err
     assert output.read_bytes() == b"keep me"
     main(["demo", "--output", str(output), "--force", "--no-figure", *FAST])
     assert output.read_bytes() != b"keep me"
@@ -59,6 +62,8 @@ def test_demo_refuses_to_overwrite_without_force(tmp_path, capsys):
         (["demo", "--figure", "out.txt"], "must end in .png, .pdf or .svg"),
         (["demo", "--output", "no/such/folder/m.joblib"], "does not exist"),
         (["demo", "--colour"], "unrecognized arguments: --colour"),
+        (["demo", "--output", ""], "--output/-o: expected a file name; got ''"),
+        (["demo", "--figure", ""], "--figure: expected a file name; got ''"),
     ],
 )
 def test_bad_options_get_clear_messages(argv, message, capsys):
@@ -66,6 +71,51 @@ def test_bad_options_get_clear_messages(argv, message, capsys):
         main(argv)
     assert info.value.code == 2
     assert message in capsys.readouterr().err
+
+
+@pytest.fixture
+def no_work(monkeypatch):
+    """Make any run of the demo's stages fail the test: refusals must come
+    before any work."""
+    import skfunc._demo as demo
+
+    def fail(*args, **kwargs):
+        raise AssertionError("the demo started working before refusing")
+
+    monkeypatch.setattr(demo, "run_demo", fail)
+
+
+@pytest.mark.parametrize("extra", [[], ["--figure", "{out}"], ["--figure", "./{out}"]])
+def test_figure_path_equal_to_model_path_is_refused(tmp_path, capsys, no_work,
+                                                    monkeypatch, extra):
+    # --output model.png would be overwritten by the default figure model.png
+    monkeypatch.chdir(tmp_path)
+    out = "model.png"
+    argv = ["demo", "--output", out, "--force", *[a.format(out=out) for a in extra]]
+    with pytest.raises(SystemExit) as info:
+        main(argv)
+    assert info.value.code == 2
+    assert "the figure would overwrite the model" in capsys.readouterr().err
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_unwritable_folder_is_refused_first_naming_the_target(tmp_path, capsys,
+                                                             no_work, monkeypatch):
+    # a folder that refuses new files (simulated: tests may run as root) is found
+    # before the demo runs, and the message names the model file
+    import skfunc.persistence as persistence
+
+    def refuse(*args, **kwargs):
+        raise PermissionError(13, "Permission denied", str(tmp_path / ".x.probe"))
+
+    monkeypatch.setattr(persistence.tempfile, "mkstemp", refuse)
+    output = tmp_path / "model.joblib"
+    with pytest.raises(SystemExit) as info:
+        main(["demo", "--output", str(output), *FAST])
+    assert info.value.code == 2
+    err = capsys.readouterr().err
+    assert f"--output: Cannot write {output}" in err and "Permission denied" in err
+    assert ".part" not in err and ".probe" not in err
 
 
 def test_help_through_python_dash_m():
