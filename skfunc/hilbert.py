@@ -61,7 +61,16 @@ def _curves(X, name="X"):
             f"{name} must hold real curve values; got complex numbers (skfunc "
             "does not drop imaginary parts)."
         )
-    X = check_array(X, ensure_2d=False, allow_nd=True, dtype=np.float64, input_name=name)
+    try:
+        X = check_array(X, ensure_2d=False, allow_nd=True, dtype=np.float64,
+                        input_name=name)
+    except (TypeError, ValueError) as exc:
+        if name in str(exc):  # scikit-learn's message names the argument
+            raise
+        raise TypeError(
+            f"{name} must be an array of real numbers (one curve per row); got "
+            f"values that cannot be read as numbers ({type(exc).__name__})."
+        ) from exc
     if X.ndim not in (1, 2):
         raise ValueError(
             f"{name} must be one curve (1-D) or curves as rows (2-D); got {X.ndim}-D."
