@@ -214,22 +214,25 @@ def test_simpson_refused_where_its_weights_are_negative():
     assert integrated_squared_error(y, 0 * y, grid=g) > 0
 
 
-@pytest.mark.parametrize("scale", [1e150, 1e-200])
+@pytest.mark.parametrize("scale", [1e160, 1e-200])
 def test_scores_at_extreme_scales(curves, scale):
-    # R^2 is scale-free and the squared error scales with s^2 (definitions); at
-    # 1e150 the squared values overflow to inf, at 1e-200 they underflow to 0
-    # unless the values are scaled first. rtol: a few rounding steps.
+    # R^2 is scale-free (definition); at 1e160 the squared values overflow to inf,
+    # at 1e-200 they underflow to 0, unless the values are scaled first.
+    # rtol: a few rounding steps.
     t, y_true, y_pred = curves
     assert_allclose(integrated_r2_score(scale * y_true, scale * y_pred, grid=t),
                     integrated_r2_score(y_true, y_pred, grid=t), rtol=1e-12)
     assert_allclose(pointwise_r2_score(scale * y_true, scale * y_pred),
                     r2_score(y_true, y_pred, multioutput="raw_values"), rtol=1e-12)
-    # the squared error itself is representable at 1e150 (about 1e300), not at
-    # 1e-200 (1e-400 underflows whatever the method)
-    if scale > 1:
-        assert_allclose(
-            integrated_squared_error(scale * y_true, scale * y_pred, grid=t) / scale**2,
-            trapezoid((y_true - y_pred) ** 2, x=t, axis=1).mean(), rtol=1e-12)
+
+
+def test_squared_error_at_large_scale(curves):
+    # the squared error scales with s^2 (definition) and is representable at
+    # s = 1e150 (about 1e300); reference scipy.integrate.trapezoid at scale 1
+    t, y_true, y_pred = curves
+    assert_allclose(
+        integrated_squared_error(1e150 * y_true, 1e150 * y_pred, grid=t) / 1e300,
+        trapezoid((y_true - y_pred) ** 2, x=t, axis=1).mean(), rtol=1e-12)
 
 
 def test_pointwise_r2_of_one_column(rng):

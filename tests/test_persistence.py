@@ -9,6 +9,7 @@ import threading
 
 import numpy as np
 import pytest
+import skops.io as sio
 from _estimator_data import curves, fit_data
 from sklearn.base import clone
 from sklearn.linear_model import Ridge
@@ -22,8 +23,6 @@ from skfunc.persistence import (
     save_model,
     skfunc_types,
 )
-
-sio = pytest.importorskip("skops.io")
 
 METHODS = ("predict", "predict_proba", "decision_function", "transform",
            "score_samples")
