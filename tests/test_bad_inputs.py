@@ -320,7 +320,7 @@ def _with_inf(X):
     return X
 
 
-ESTIMATOR_CASES = {
+BAD_ESTIMATOR_INPUTS = {
     "X-complex": _x_case(lambda X: X + 1j),
     "X-inf": _x_case(_with_inf),
     "X-1d": _x_case(lambda X: X[0]),
@@ -391,7 +391,7 @@ def _applies(estimator, case):
 def _estimator_params():
     params = []
     for cls in skfunc.ESTIMATORS:
-        for case in ESTIMATOR_CASES:
+        for case in BAD_ESTIMATOR_INPUTS:
             if not _applies(cls(), case):
                 continue
             reason = KNOWN_ESTIMATOR_FAILURES.get((cls.__name__, case))
@@ -405,7 +405,7 @@ def _estimator_params():
 def test_estimator_bad_inputs(cls, case):
     estimator = cls()
     X, y = fit_data(estimator)
-    call, names = ESTIMATOR_CASES[case](clone(estimator), X, y)
+    call, names = BAD_ESTIMATOR_INPUTS[case](clone(estimator), X, y)
     _check(call, names or [], expected=ACCEPTED if names is None else CLEAR)
 
 

@@ -11,33 +11,35 @@ import subprocess
 import sys
 import warnings
 
-import dask
-import dask.array as da
 import numpy as np
 import pytest
 from scipy import integrate
-from sklearn.linear_model import Ridge
-from sklearn.model_selection import GridSearchCV
-from sklearn.pipeline import Pipeline
 
-from skfunc import BasisFeatures
-from skfunc._dask import (
+da = pytest.importorskip("dask.array")
+dask = pytest.importorskip("dask")
+
+from sklearn.linear_model import Ridge  # noqa: E402
+from sklearn.model_selection import GridSearchCV  # noqa: E402
+from sklearn.pipeline import Pipeline  # noqa: E402
+
+from skfunc import BasisFeatures  # noqa: E402
+from skfunc._dask import (  # noqa: E402
     compute_statistics,
     is_dask_array,
     validate_dask,
 )
-from skfunc._penalized import (
+from skfunc._penalized import (  # noqa: E402
     centered,
     centered_cross_products,
     cross_products,
 )
-from skfunc.decomposition import FunctionalPCA
-from skfunc.linear_model import (
+from skfunc.decomposition import FunctionalPCA  # noqa: E402
+from skfunc.linear_model import (  # noqa: E402
     FunctionalRidge,
     FunctionalRidgeCV,
     FunctionOnScalarRidge,
 )
-from skfunc.preprocessing import CurveSmoother
+from skfunc.preprocessing import CurveSmoother  # noqa: E402
 
 RTOL = 1e-10
 

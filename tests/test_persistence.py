@@ -9,13 +9,12 @@ import threading
 
 import numpy as np
 import pytest
-import skops.io as sio
-from _estimator_data import curves, fit_data
-from sklearn.base import clone
+from sklearn.base import clone, is_classifier, is_regressor
 from sklearn.linear_model import Ridge
 from sklearn.pipeline import make_pipeline
 
 import skfunc
+from skfunc.datasets import make_smooth_regression
 from skfunc.persistence import (
     ModelFileError,
     _is_skfunc_estimator,
@@ -24,8 +23,31 @@ from skfunc.persistence import (
     skfunc_types,
 )
 
+sio = pytest.importorskip("skops.io")
+
 METHODS = ("predict", "predict_proba", "decision_function", "transform",
            "score_samples")
+
+
+def _curves():
+    X, y, _ = make_smooth_regression(60, grid=41, noise=0.1, random_state=0)
+    return X, y
+
+
+def _fit_data(estimator):
+    """(X, y) suited to the estimator, read from its parameters: a
+    ``response_grid`` means curves out, no ``grid`` means scalars in."""
+    X, y = _curves()
+    params = estimator.get_params()
+    if "response_grid" in params:
+        if "grid" not in params:
+            return np.random.default_rng(0).normal(size=(X.shape[0], 3)), X
+        return X, np.cumsum(X, axis=1)[:, ::2]
+    if is_classifier(estimator):
+        return X, (y > np.median(y)).astype(int)
+    if is_regressor(estimator):
+        return X, y
+    return X, None
 
 
 def _outputs(estimator, X):
@@ -43,7 +65,7 @@ def _fitted_state(estimator):
 @pytest.fixture(params=skfunc.ESTIMATORS, ids=lambda cls: cls.__name__)
 def fitted(request):
     estimator = request.param()
-    X, y = fit_data(estimator)
+    X, y = _fit_data(estimator)
     return estimator.fit(X, y), X
 
 
@@ -70,7 +92,7 @@ def test_round_trip_gives_identical_outputs(fitted, suffix, tmp_path):
 
 
 def test_pipeline_with_skfunc_step_loads_trusting_only_skfunc(tmp_path):
-    X, y = curves()
+    X, y = _curves()
     pipe = make_pipeline(clone(skfunc.ESTIMATORS[0]()), Ridge()).fit(X, y)
     path = save_model(pipe, tmp_path / "pipe.skops")
     loaded = load_model(path)
@@ -91,7 +113,7 @@ class NotTrusted(Ridge):
 
 
 def test_skops_refuses_untrusted_types(tmp_path):
-    X, y = curves()
+    X, y = _curves()
     path = save_model(NotTrusted().fit(X, y), tmp_path / "other.skops")
     with pytest.raises(ModelFileError, match="NotTrusted.*trusted=") as info:
         load_model(path)
@@ -102,7 +124,7 @@ def test_skops_refuses_untrusted_types(tmp_path):
 
 @pytest.mark.parametrize("suffix", [".joblib", ".skops"])
 def test_existing_file_is_not_overwritten_without_force(tmp_path, suffix):
-    X, y = curves()
+    X, y = _curves()
     path = tmp_path / f"model{suffix}"
     path.write_bytes(b"precious")
     with pytest.raises(FileExistsError, match="force"):
@@ -116,7 +138,7 @@ def test_existing_file_is_not_overwritten_without_force(tmp_path, suffix):
 @pytest.mark.parametrize("suffix", [".joblib", ".skops"])
 @pytest.mark.parametrize("damage", ["truncate", "flip", "empty", "text"])
 def test_damaged_file_fails_with_clear_error(tmp_path, suffix, damage):
-    X, y = curves()
+    X, y = _curves()
     path = save_model(make_pipeline(clone(skfunc.ESTIMATORS[0]()), Ridge()).fit(X, y),
                       tmp_path / f"model{suffix}")
     data = bytearray(path.read_bytes())
@@ -161,7 +183,7 @@ def test_two_concurrent_saves_without_force_one_fails(tmp_path, monkeypatch):
         return real_dump(*args, **kwargs)
 
     monkeypatch.setattr(persistence.joblib, "dump", dump_after_both_checked)
-    X, y = curves()
+    X, y = _curves()
     path = tmp_path / "model.joblib"
     outcomes = {}
 
@@ -220,7 +242,7 @@ def test_file_without_a_model_is_a_model_file_error(tmp_path, suffix, content):
 
 
 def test_trusted_must_be_a_list_of_names(tmp_path):
-    X, y = curves()
+    X, y = _curves()
     path = save_model(NotTrusted().fit(X, y), tmp_path / "other.skops")
     name = sio.get_untrusted_types(file=path)[0]
     with pytest.raises(TypeError, match=r"trusted must be a list of type names, such as \["):
