@@ -187,6 +187,8 @@ def test_constant_curves_are_refused_whatever_their_level(value):
         hilbert.simple_regression(c, t)
     # a constant response is fine: intercept = the value, slope 0
     b0, b1 = hilbert.simple_regression(t, c)
+    # 1e-13: the centred constant is rounding noise of about 30 eps relative to
+    # |value| (the bound behind the constant-curve rule), so is the slope
     assert np.isclose(b0, value, rtol=1e-13) and abs(b1) <= 1e-13 * abs(value)
 
 
