@@ -105,13 +105,6 @@ def _int_in(low, high):
     return parse
 
 
-def _file_path(text):
-    path = Path(text)
-    if not text.strip() or not path.name:
-        raise argparse.ArgumentTypeError(f"expected a file name; got {text!r}")
-    return path
-
-
 def build_parser():
     parser = argparse.ArgumentParser(
         prog="python -m skfunc",
@@ -132,7 +125,7 @@ def build_parser():
         ),
     )
     demo.add_argument(
-        "--output", "-o", type=_file_path, default=Path(DEFAULT_OUTPUT), metavar="PATH",
+        "--output", "-o", type=Path, default=Path(DEFAULT_OUTPUT), metavar="PATH",
         help="where to save the fitted model; '.skops' saves with skops.io, "
              f"anything else with joblib (default: {DEFAULT_OUTPUT})",
     )
@@ -141,7 +134,7 @@ def build_parser():
         help="replace the model file and the figure if they exist",
     )
     demo.add_argument(
-        "--figure", type=_file_path, default=None, metavar="PATH",
+        "--figure", type=Path, default=None, metavar="PATH",
         help="where to save the figure (default: the model path with '.png')",
     )
     demo.add_argument("--no-figure", action="store_true", help="draw no figure")
@@ -166,6 +159,9 @@ def build_parser():
 
 def _check_paths(parser, args):
     """Refuse before any work: existing files without --force, bad folders."""
+    for option, path in (("--output", args.output), ("--figure", args.figure)):
+        if path is not None and not path.name:  # '' arrives as Path('.')
+            parser.error(f"{option} needs a file name; got {str(path)!r}")
     targets = [("--output", args.output)]
     if not args.no_figure:
         if args.figure is None:

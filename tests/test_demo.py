@@ -62,8 +62,9 @@ def test_demo_refuses_to_overwrite_without_force(tmp_path, capsys):
         (["demo", "--figure", "out.txt"], "must end in .png, .pdf or .svg"),
         (["demo", "--output", "no/such/folder/m.joblib"], "does not exist"),
         (["demo", "--colour"], "unrecognized arguments: --colour"),
-        (["demo", "--output", ""], "--output/-o: expected a file name; got ''"),
-        (["demo", "--figure", ""], "--figure: expected a file name; got ''"),
+        (["demo", "--output", ""], "--output needs a file name"),
+        (["demo", "--output", "/"], "--output needs a file name"),
+        (["demo", "--figure", ""], "--figure needs a file name"),
     ],
 )
 def test_bad_options_get_clear_messages(argv, message, capsys):
