@@ -53,6 +53,7 @@ FOREIGN_MESSAGES = (
     "object of type",
     "has no attribute",
     "index out of bounds",
+    "not supported between instances",
 )
 CLEAR_TYPES = (ValueError, TypeError, OSError)
 FOREIGN_TYPES = (np.linalg.LinAlgError, MemoryError, FloatingPointError,
@@ -300,6 +301,29 @@ def _y_case(transform):
     return case
 
 
+def _sparse_y(est, X, y):
+    from scipy import sparse
+
+    y2 = np.asarray(y, dtype=float).reshape(len(y), -1)
+    return lambda: _fit(est, X, sparse.csr_matrix(y2)), ["y", "sparse"]
+
+
+def _duplicated_labels(est, X, y):
+    import pandas as pd
+
+    labels = np.linspace(0, 1, X.shape[1])
+    labels[1] = labels[0]
+    return lambda: _fit(est, pd.DataFrame(X, columns=labels), y), [
+        "column", "label", "grid"]
+
+
+def _band_level_string(est, X, y):
+    def call():
+        _fit(est, X, y)
+        return est.confidence_band(level="95%")
+    return call, ["level"]
+
+
 def _n_basis_huge(est, X, y):
     est.set_params(n_basis=10**6)
     return lambda: _fit(est, X, y), ["n_basis"]
@@ -339,6 +363,9 @@ BAD_ESTIMATOR_INPUTS = {
         (-1,) + (1,) * (np.ndim(y) - 1)) == 0, np.nan, y)),
     "y-length": _y_case(lambda y: y[1:]),
     "y-complex": _y_case(lambda y: y + 1j),
+    "y-sparse": _sparse_y,
+    "X-duplicated-labels": _duplicated_labels,
+    "confidence_band-level-string": _band_level_string,
     "n_basis-huge": _n_basis_huge,
     "scaled-1e150": _scaled(1e150),
     "scaled-1e-170": _scaled(1e-170),
@@ -371,6 +398,11 @@ KNOWN_ESTIMATOR_FAILURES = {
     "variance underflows",
     ("FunctionalRidge", "scaled-1e150"): "NaN predictions without an error for curves "
     "and responses near 1e150",
+    **{(name, "confidence_band-level-string"): "level='95%' compared with numbers: "
+       "Python's TypeError '<' not supported between 'int' and 'str'"
+       for name in ["FunctionOnScalarRidge", "FunctionOnFunctionRidge"]},
+    **{(name, "y-sparse"): "a sparse y gives numpy's 'setting an array element with "
+       "a sequence'" for name in ["FunctionalRidge", "FunctionalRidgeCV"]},
     ("FunctionOnScalarRidge", "grid-nan"): "the message says 'grid', the parameter is "
     "response_grid",
     ("FunctionOnScalarRidge", "grid-decreasing"): "the message says 'grid', the "
@@ -385,6 +417,8 @@ def _applies(estimator, case):
         return _accepts_sample_weight(estimator)
     if case.startswith("y-"):
         return fit_data(estimator)[1] is not None
+    if case.startswith("confidence_band"):
+        return hasattr(estimator, "confidence_band")
     return True
 
 
