@@ -259,6 +259,12 @@ def correlation(x, y, *, grid=None, quadrature="trapezoid"):
     -------
     float or ndarray of shape (n_curves,)
 
+    Raises
+    ------
+    ValueError
+        When x or y is constant (does not vary beyond rounding of its own
+        values): the correlation is undefined.
+
     Examples
     --------
     >>> import numpy as np
@@ -291,6 +297,12 @@ def simple_regression(x, y, *, grid=None, quadrature="trapezoid"):
     Returns
     -------
     b0, b1 : float or ndarray of shape (n_curves,)
+
+    Raises
+    ------
+    ValueError
+        When x is constant (does not vary beyond rounding of its own values):
+        the slope is undefined. A constant y is fine (slope 0).
 
     Examples
     --------
