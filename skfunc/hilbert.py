@@ -113,10 +113,12 @@ def _centred(x, w, name, what):
     mean = (xs @ w)[..., None] / w.sum()
     u, c = _unit(xs - mean)
     # max |xs| = 1, so the bound (m + 2) eps max |x| reads (m + 2) eps here
-    if np.any(c <= (x.shape[-1] + 2) * np.finfo(np.float64).eps):
+    flat = c[..., 0] <= (x.shape[-1] + 2) * np.finfo(np.float64).eps
+    if np.any(flat):
+        where = f" (row {int(np.flatnonzero(flat)[0])})" if x.ndim == 2 else ""
         raise ValueError(
-            f"{what} is undefined for a constant {name} curve: it does not vary "
-            "beyond rounding of its own values."
+            f"{what} is undefined for a constant {name} curve{where}: it does not "
+            "vary beyond rounding of its own values."
         )
     return u, c, mean, s
 
