@@ -30,7 +30,7 @@ from skfunc.linear_model import FunctionalLogisticRegression
 from skfunc.plotting import CoefficientFunctionDisplay, ComponentPerturbationDisplay
 from skfunc.preprocessing import CurveSmoother
 
-kiln = make_kiln_firing(240, minutes=np.arange(0, 600, 3), random_state=2)
+kiln = make_kiln_firing(240, grid=np.arange(0, 600, 3), random_state=2)
 print(f"{kiln.cracked.mean():.0%} of the invented runs cracked")
 X_train, X_test, y_train, y_test = train_test_split(
     kiln.data, kiln.cracked, test_size=0.25, stratify=kiln.cracked, random_state=0
@@ -39,8 +39,8 @@ X_train, X_test, y_train, y_test = train_test_split(
 # the smoothing step is cached: candidates that share it do not refit it
 cache = tempfile.mkdtemp(prefix="skfunc-example-")
 pipe = Pipeline([
-    ("smooth", CurveSmoother(grid=kiln.minutes, n_basis=40)),
-    ("fpca", FunctionalPCA(grid=kiln.minutes, n_basis=25)),
+    ("smooth", CurveSmoother(grid=kiln.grid, n_basis=40)),
+    ("fpca", FunctionalPCA(grid=kiln.grid, basis="bspline", n_basis=25)),
     ("scale", StandardScaler()),
     ("classify", LogisticRegression()),
 ], memory=joblib.Memory(cache, verbose=0))
@@ -63,9 +63,9 @@ print(f"ROC AUC on held-out runs: {search.score(X_test, y_test):.3f}")
 # cracks get decided?
 logistic = GridSearchCV(
     Pipeline([
-        ("smooth", CurveSmoother(grid=kiln.minutes, n_basis=40,
+        ("smooth", CurveSmoother(grid=kiln.grid, n_basis=40,
                                  alpha=search.best_params_["smooth__alpha"])),
-        ("classify", FunctionalLogisticRegression(grid=kiln.minutes, n_basis=20)),
+        ("classify", FunctionalLogisticRegression(grid=kiln.grid, n_basis=20)),
     ], memory=joblib.Memory(cache, verbose=0)),
     {"classify__alpha": np.logspace(9, 15, 4)},
     cv=StratifiedKFold(4, shuffle=True, random_state=0),

@@ -20,26 +20,26 @@ from skfunc.metrics import integrated_r2_score
 from skfunc.plotting import CoefficientFunctionDisplay
 from skfunc.preprocessing import CurveSmoother
 
-kiln = make_kiln_firing(200, minutes=np.arange(0, 600, 2), random_state=1)
+kiln = make_kiln_firing(200, grid=np.arange(0, 600, 2), random_state=1)
 # fill the thermocouple gaps first: the response curves must be complete
-curves = CurveSmoother(grid=kiln.minutes, n_basis=40).fit_transform(kiln.data)
+curves = CurveSmoother(grid=kiln.grid, n_basis=40).fit_transform(kiln.data)
 S_train, S_test, Y_train, Y_test = train_test_split(
     kiln.settings, curves, test_size=0.25, random_state=0
 )
-model = FunctionOnScalarRidge(response_grid=kiln.minutes, n_basis=40)
+model = FunctionOnScalarRidge(response_grid=kiln.grid, n_basis=40)
 model.fit(S_train, Y_train)
 predicted = model.predict(S_test)
 print(f"GCV-chosen penalty: {model.alpha_:.3g}")
 print(f"integrated R^2 on held-out runs: "
-      f"{integrated_r2_score(Y_test, predicted, grid=kiln.minutes):.3f}")
+      f"{integrated_r2_score(Y_test, predicted, grid=kiln.grid):.3f}")
 error = np.sqrt(np.mean((Y_test - predicted) ** 2, axis=0))
 print(f"RMS error over held-out runs: median {np.median(error):.0f} °C, "
       f"worst minute {error.max():.0f} °C")
 
 fig, axes = plt.subplots(1, 3, figsize=(14, 4), layout="constrained")
 for i, colour in zip(range(3), ("C0", "C1", "C2"), strict=True):
-    axes[0].plot(kiln.minutes, Y_test[i], color=colour, linewidth=1)
-    axes[0].plot(kiln.minutes, predicted[i], color=colour, linestyle="--")
+    axes[0].plot(kiln.grid, Y_test[i], color=colour, linewidth=1)
+    axes[0].plot(kiln.grid, predicted[i], color=colour, linestyle="--")
 axes[0].set(title="Held-out runs (solid) and predictions (dashed)",
             xlabel="minute", ylabel="temperature (°C)")
 for ax, j in zip(axes[1:], (0, 3), strict=True):

@@ -33,7 +33,7 @@ samplings = {
 fig, axes = plt.subplots(1, 2, figsize=(12, 4), layout="constrained")
 print(f"{'sampling':30s} {'FunctionalPCA eigenvalue 1':>27s} {'PCA eigenvalue 1':>17s}")
 for (name, minutes), style in zip(samplings.items(), ("-", "--", ":"), strict=True):
-    kiln = make_kiln_firing(80, minutes=minutes, dropout_fraction=0.0,
+    kiln = make_kiln_firing(80, grid=minutes, dropout_fraction=0.0,
                             random_state=0)
     X = kiln.true_curves + np.random.default_rng(1).normal(0, 1.5, kiln.true_curves.shape)
     fpca = FunctionalPCA(n_components=2, grid=minutes).fit(X)

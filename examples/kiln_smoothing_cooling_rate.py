@@ -20,7 +20,7 @@ from skfunc.plotting import AlphaCriterionDisplay
 from skfunc.preprocessing import CurveSmoother
 
 kiln = make_kiln_firing(120, dropout_fraction=0.3, random_state=0)
-minutes = kiln.minutes
+minutes = kiln.grid
 
 # smooth once (GCV picks the penalty) ...
 smoother = CurveSmoother(grid=minutes, n_basis=40).fit(kiln.data)

@@ -24,8 +24,8 @@ from skfunc.preprocessing import CurveSmoother
 
 kiln = make_kiln_firing(300, random_state=3)
 model = make_pipeline(
-    CurveSmoother(grid=kiln.minutes, n_basis=40),  # fills thermocouple gaps
-    FunctionalRidgeCV(grid=kiln.minutes, n_basis=30),
+    CurveSmoother(grid=kiln.grid, n_basis=40),  # fills thermocouple gaps
+    FunctionalRidgeCV(grid=kiln.grid, n_basis=30),
 )
 scores = cross_val_score(model, kiln.data, kiln.strength,
                          cv=KFold(5, shuffle=True, random_state=0))

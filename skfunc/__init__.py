@@ -6,9 +6,10 @@ Hilbert space of functions, evaluated on the curves' grid.
 
 __version__ = "0.1.0"
 
-from . import hilbert, metrics
+from . import hilbert, metrics, utils
 from .decomposition import FunctionalPCA
 from .linear_model import (
+    ConcurrentFunctionRidge,
     FunctionalLogisticRegression,
     FunctionalRidge,
     FunctionalRidgeCV,
@@ -17,22 +18,10 @@ from .linear_model import (
 )
 from .preprocessing import BasisFeatures, CurveSmoother
 
-#: every public estimator class; the estimator-check test runs over this list
-ESTIMATORS = [
-    BasisFeatures,
-    CurveSmoother,
-    FunctionalPCA,
-    FunctionOnScalarRidge,
-    FunctionOnFunctionRidge,
-    FunctionalRidge,
-    FunctionalRidgeCV,
-    FunctionalLogisticRegression,
-]
-
 __all__ = [
     "BasisFeatures",
+    "ConcurrentFunctionRidge",
     "CurveSmoother",
-    "ESTIMATORS",
     "FunctionalLogisticRegression",
     "FunctionalPCA",
     "FunctionalRidge",
@@ -41,5 +30,6 @@ __all__ = [
     "FunctionOnScalarRidge",
     "hilbert",
     "metrics",
+    "utils",
     "__version__",
 ]

@@ -1,23 +1,44 @@
 """BasisFeatures: curves to L2-orthonormal basis coordinates."""
 
-from numbers import Integral, Real
+from numbers import Real
 
 import numpy as np
 from sklearn.base import BaseEstimator, TransformerMixin
-from sklearn.utils._param_validation import Interval, StrOptions
+from sklearn.utils._param_validation import Interval
 from sklearn.utils.validation import (
     _check_feature_names_in,
     check_is_fitted,
 )
 
-from ._base import basis_for, chunked_matmul, validate_curves, validate_partial
-from ._bases import BASES, gram_sqrt
-from ._dask import check_rows, compute_statistics, count_rows
-from ._grid import QUADRATURES, quadrature_weights
+from ._bases import gram_sqrt
+from ._blocks import chunked_matmul
+from ._dask import check_rows
+from ._docstrings import fill_doc
+from ._estimator import store_init_params
+from ._fit import AdditiveTransformerMixin
+from ._grid import quadrature_weights
 from ._penalized import PenalizedPath
+from ._validation import BASIS_CONSTRAINTS, basis_for, validate_curves
 
 
-class BasisFeatures(TransformerMixin, BaseEstimator):
+def orthonormal_operators(basis, grid, weights, alpha=0.0, penalty_order=2):
+    """Operators between curves on ``grid`` and L2-orthonormal coordinates.
+
+    Returns ``(projection, reconstruction)``: ``projection`` (K, m) maps a
+    curve's values to the coordinates ``G^{1/2} c`` of its penalized
+    weighted least-squares fit, ``reconstruction`` (m, K) maps coordinates
+    back to values on the grid.
+    """
+    phi = basis.evaluate(grid)
+    phi_w = phi * weights[:, None]
+    penalty = basis.penalty(penalty_order) if alpha > 0 else None
+    path = PenalizedPath(phi_w.T @ phi, penalty)
+    root, inv_root = gram_sqrt(basis.gram())
+    return root @ path.operator(alpha) @ phi_w.T, phi @ inv_root
+
+
+@fill_doc
+class BasisFeatures(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
     """Project sampled curves onto a basis, in L2-orthonormal coordinates.
 
     Each row of ``X`` is a curve sampled on a grid. It is fitted by
@@ -43,7 +64,7 @@ class BasisFeatures(TransformerMixin, BaseEstimator):
         number of grid points.
     degree : int, default=3
         Degree of the B-splines (3: cubic). Ignored by the other bases.
-    knots : array-like of shape (n_knots,), default=None
+    interior_knots : array-like of shape (n_knots,), default=None
         Interior knots of the B-splines, strictly inside the domain; None
         means evenly spaced. When given, ``n_basis`` follows from it.
     alpha : float, default=0.0
@@ -72,13 +93,8 @@ class BasisFeatures(TransformerMixin, BaseEstimator):
     reconstruction_ : ndarray of shape (n_features, n_basis_)
         Values on ``grid_`` of the orthonormalised basis functions, used by
         :meth:`inverse_transform`.
-    n_samples_seen_ : int
-        Number of curves validated by :meth:`fit`, or by all calls of
-        :meth:`partial_fit` since the first.
-    n_features_in_ : int
-        Number of grid points seen during fit.
-    feature_names_in_ : ndarray of shape (n_features_in_,)
-        Column names of ``X`` when they are all strings.
+    %(n_samples_seen)s
+    %(curve_input_attributes)s
 
     See Also
     --------
@@ -122,91 +138,31 @@ class BasisFeatures(TransformerMixin, BaseEstimator):
     _accepts_dask = True
 
     _parameter_constraints = {
-        "basis": [StrOptions(set(BASES))],
-        "n_basis": [Interval(Integral, 1, None, closed="left"), None],
-        "degree": [Interval(Integral, 0, None, closed="left")],
-        "knots": ["array-like", None],
+        **BASIS_CONSTRAINTS,
         "alpha": [Interval(Real, 0, None, closed="left")],
-        "penalty_order": [Interval(Integral, 0, None, closed="left")],
-        "grid": ["array-like", None],
-        "quadrature": [StrOptions(set(QUADRATURES))],
     }
 
-    def __init__(
-        self,
-        basis="bspline",
-        n_basis=None,
-        degree=3,
-        knots=None,
-        alpha=0.0,
-        penalty_order=2,
-        grid=None,
-        quadrature="trapezoid",
-    ):
-        self.basis = basis
-        self.n_basis = n_basis
-        self.degree = degree
-        self.knots = knots
-        self.alpha = alpha
-        self.penalty_order = penalty_order
-        self.grid = grid
-        self.quadrature = quadrature
+    def __init__(self, basis="bspline", n_basis=None, *, degree=3, interior_knots=None,
+                 alpha=0.0, penalty_order=2, grid=None, quadrature="trapezoid"):
+        store_init_params(self, locals())
 
-    def fit(self, X, y=None):
-        """Compute the projection operator for curves on X's grid.
+    def _validate_batch(self, X, y, sample_weight, first):
+        return (validate_curves(self, X, reset=first),)
 
-        Parameters
-        ----------
-        X : array-like of shape (n_samples, n_features)
-            Curves, one per row, sampled on the grid.
-        y : None
-            Ignored.
+    def _statistics(self, X):
+        """The row count: the operator depends on the grid only."""
+        return {"n_samples": X.shape[0]}
 
-        Returns
-        -------
-        self : object
-            Fitted transformer.
-        """
-        vars(self).pop("n_samples_seen_", None)  # start afresh: fit is a first batch
-        return self.partial_fit(X)
-
-    def partial_fit(self, X, y=None):
-        """Validate a batch of curves; the first batch fixes the grid.
-
-        Parameters
-        ----------
-        X : array-like or dask array of shape (n_samples, n_features)
-            A batch of curves, one per row, on the grid of the first batch.
-        y : None
-            Ignored; accepted for pipeline compatibility.
-
-        Returns
-        -------
-        self : BasisFeatures
-            The transformer, fitted on all batches so far.
-        """
-        first, X = validate_partial(self, X)
-        if first:
-            self._fit_operator()
-            self.n_samples_seen_ = 0
-        self.n_samples_seen_ += compute_statistics(count_rows, X)["n_samples"]
-        return self
-
-    def _fit_operator(self):
+    def _solve(self, stats):
         """The projection and reconstruction operators on ``grid_``."""
         basis = basis_for(self, self.grid_, cap=self.alpha == 0)
         w = quadrature_weights(self.grid_, self.quadrature)
-        phi = basis.evaluate(self.grid_)
-        phi_w = phi * w[:, None]
-        penalty = basis.penalty(self.penalty_order) if self.alpha > 0 else None
-        path = PenalizedPath(phi_w.T @ phi, penalty)
-        gram = basis.gram()
-        root, inv_root = gram_sqrt(gram)
         self.quadrature_weights_ = w
         self.n_basis_ = basis.n_basis
-        self.gram_ = gram
-        self.projection_ = root @ path.operator(self.alpha) @ phi_w.T
-        self.reconstruction_ = phi @ inv_root
+        self.gram_ = basis.gram()
+        self.projection_, self.reconstruction_ = orthonormal_operators(
+            basis, self.grid_, w, self.alpha, self.penalty_order
+        )
 
     def transform(self, X):
         """Coordinates of each curve's fitted function in the orthonormal basis.

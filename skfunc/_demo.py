@@ -67,7 +67,7 @@ def functional_search(minutes, cv, memory=None, n_jobs=None):
     pipe = Pipeline(
         [
             ("smooth", skfunc.CurveSmoother(grid=minutes, n_basis=40)),
-            ("fpca", skfunc.FunctionalPCA(grid=minutes, n_basis=25)),
+            ("fpca", skfunc.FunctionalPCA(grid=minutes, basis="bspline", n_basis=25)),
             ("regression", Ridge()),
         ],
         memory=memory,
@@ -229,7 +229,7 @@ def run_demo(args, stream=None):
 
     with tempfile.TemporaryDirectory(prefix="skfunc-demo-") as cache:
         memory = joblib.Memory(cache, verbose=0)
-        search = functional_search(kiln.minutes, cv, memory, n_jobs=args.n_jobs)
+        search = functional_search(kiln.grid, cv, memory, n_jobs=args.n_jobs)
         search.fit(X_train, y_train)
         best = search.best_estimator_
     n_candidates = len(search.cv_results_["params"])
@@ -306,10 +306,10 @@ def _draw_figure(kiln, final, path, force):
     fig = plt.figure(figsize=(13, 7.5), layout="constrained")
     top, bottom = fig.subfigures(2, 1)
     ax_curves, ax_coef = top.subplots(1, 2)
-    plotting.CurveBandDisplay.from_data(kiln.data, grid=kiln.minutes, ax=ax_curves)
+    plotting.CurveBandDisplay.from_data(kiln.data, grid=kiln.grid, ax=ax_curves)
     ax_curves.set(title="Invented firing curves", xlabel="minute",
                   ylabel="temperature (°C)")
-    coef_estimator = _coefficient_model(final, kiln.minutes, curves, kiln.strength)
+    coef_estimator = _coefficient_model(final, kiln.grid, curves, kiln.strength)
     plotting.CoefficientFunctionDisplay.from_estimator(
         coef_estimator, reference=kiln.coef_function, ax=ax_coef
     )
@@ -319,7 +319,7 @@ def _draw_figure(kiln, final, path, force):
     if not hasattr(fpca, "components_") or len(fpca.components_) < 3:
         from .decomposition import FunctionalPCA
 
-        fpca = FunctionalPCA(n_components=3, n_basis=25, grid=kiln.minutes)
+        fpca = FunctionalPCA(n_components=3, basis="bspline", n_basis=25, grid=kiln.grid)
         fpca.fit(curves)
     axes = bottom.subplots(1, 3, sharey=True)
     plotting.ComponentPerturbationDisplay.from_estimator(fpca, ax=axes)

@@ -6,7 +6,8 @@ inner product is the L2 inner product of the curves:
 * without a basis, ``z = sqrt(w) * x`` for quadrature weights ``w`` on the
   grid (K = number of grid points): ``z'z' = sum_j w_j x_j x'_j``;
 * with a basis, ``z = G^{1/2} c`` for the least-squares coefficients ``c``
-  and the exact Gram matrix ``G`` (the output of ``BasisFeatures``).
+  and the exact Gram matrix ``G`` (the output of ``BasisFeatures``, from
+  :func:`skfunc._basis_features.orthonormal_operators`).
 
 Principal components are then ordinary principal directions ``y`` of the
 coordinates, mapped back to functions: on the grid ``y / sqrt(w)``, or
@@ -29,8 +30,9 @@ import scipy.linalg
 from sklearn.utils.extmath import randomized_svd
 from threadpoolctl import threadpool_limits
 
-from ._base import chunked_matmul
 from ._bases import gram_sqrt
+from ._basis_features import orthonormal_operators
+from ._blocks import chunked_matmul
 from ._moments import moments, scale_moments
 
 
@@ -41,64 +43,74 @@ class CurveCoordinates:
     ----------
     weights : ndarray of shape (m,)
         Positive quadrature weights on the grid.
-    features : fitted BasisFeatures or None
-        The basis expansion; None for coordinates ``sqrt(w) * x``.
-    penalty : ndarray of shape (K, K) or None
-        Roughness matrix of the basis (needs ``features``).
+    basis : Basis or None
+        The basis expansion on the grid's domain; None for coordinates
+        ``sqrt(w) * x``.
+    grid : ndarray of shape (m,) or None
+        The grid (needs ``basis``).
+    penalty_order : int or None
+        Derivative order of the roughness penalty of smoothed components;
+        None for none (needs ``basis``).
     """
 
-    def __init__(self, weights, features=None, penalty=None):
+    def __init__(self, weights, basis=None, grid=None, penalty_order=None):
         self.weights = weights
         self.root_w = np.sqrt(weights)
-        self.features = features
+        self.features = basis is not None
         self.penalty = None
-        if features is not None:
-            self.inv_root = gram_sqrt(features.gram_)[1]
-            if penalty is not None:
+        if self.features:
+            self.projection_, self.reconstruction_ = orthonormal_operators(
+                basis, grid, weights
+            )
+            self.inv_root = gram_sqrt(basis.gram())[1]
+            if penalty_order is not None:
+                penalty = basis.penalty(penalty_order)
                 self.penalty = self.inv_root @ penalty @ self.inv_root
 
     @property
     def n_coordinates(self):
-        if self.features is None:
+        if not self.features:
             return self.root_w.size
-        return self.features.n_basis_
+        return self.projection_.shape[0]
 
     def statistics(self, X):
-        """Count, mean and centred scatter of the coordinates of X's rows."""
-        if self.features is None:
+        """Count, mean and centered scatter of the coordinates of X's rows
+        (keys ``n``, ``mean``, ``scatter``; merged by
+        :func:`skfunc._moments.merge_moments`)."""
+        if not self.features:
             # scale the K x K result rather than copying the data
             return scale_moments(moments(X), self.root_w)
-        return moments(X, self.features.projection_.T)
+        return moments(X, self.projection_.T)
 
-    def centred(self, X):
+    def centered(self, X):
         """Coordinates of X's rows about their mean (a new float64 array),
         and that mean."""
-        if self.features is None:
+        if not self.features:
             Z = np.asarray(X, dtype=np.float64) * self.root_w
         else:
-            Z = chunked_matmul(X, self.features.projection_.T)
+            Z = chunked_matmul(X, self.projection_.T)
         mean = Z.mean(axis=0)
         Z -= mean
         return Z, mean
 
     def values(self, Y):
         """Grid values (k, m) of the functions with coordinates ``Y`` (K, k)."""
-        if self.features is None:
+        if not self.features:
             return Y.T / self.root_w
-        return Y.T @ self.features.reconstruction_.T
+        return Y.T @ self.reconstruction_.T
 
     def coefficients(self, Y):
         """Basis coefficients (k, K) of the functions with coordinates ``Y``;
         without a basis, their grid values."""
-        if self.features is None:
+        if not self.features:
             return self.values(Y)
         return (self.inv_root @ Y).T
 
     def projection(self, Y):
         """Operator (k, m) giving the coordinates ``Y' z`` of curves on the grid."""
-        if self.features is None:
+        if not self.features:
             return Y.T * self.root_w
-        return Y.T @ self.features.projection_
+        return Y.T @ self.projection_
 
 
 def covariance_directions(covariance, n_wanted=None, penalty=None, alpha=0.0):
@@ -155,7 +167,7 @@ def _single_thread(K):
 
 def svd_directions(Z, n_wanted, solver, random_state=None, n_oversamples=10,
                    iterated_power="auto"):
-    """Principal directions from the SVD of centred coordinates ``Z`` (n, K).
+    """Principal directions from the SVD of centered coordinates ``Z`` (n, K).
 
     Returns ``(squared singular values, directions (K, k))``: ``n_wanted``
     of them for the randomized solver, all ``min(n, K)`` for the exact one.

@@ -1,34 +1,21 @@
 """FunctionOnScalarRidge: curve-valued responses from scalar covariates."""
 
 import numpy as np
-from sklearn.base import BaseEstimator
-from sklearn.utils.validation import (
-    _check_sample_weight,
-    check_is_fitted,
-    validate_data,
-)
+from sklearn.utils.validation import check_is_fitted, validate_data
 
-from ._dask import (
-    affine_block,
-    apply_rows,
-    compute_statistics,
-    is_dask_array,
-    running_statistics,
-    start_partial_fit,
-    validate_dask,
-)
+from ._blocks import affine_block, apply_rows, is_dask_array
+from ._dask import validate_dask
+from ._docstrings import fill_doc
+from ._estimator import store_init_params
+from ._fit import AdditiveRegressorMixin
 from ._function_response import (
     RESPONSE_PARAMETER_CONSTRAINTS,
-    CurveResponseMixin,
-    check_alphas,
-    response_statistics,
-    solve_response,
-    store_solution,
-    validate_response,
+    CurveResponseRegressor,
 )
 
 
-class FunctionOnScalarRidge(CurveResponseMixin, BaseEstimator):
+@fill_doc
+class FunctionOnScalarRidge(AdditiveRegressorMixin, CurveResponseRegressor):
     """Function-on-scalar regression with roughness-penalized coefficient functions.
 
     Each row of ``y`` is a response curve sampled on a response grid, each row
@@ -44,29 +31,10 @@ class FunctionOnScalarRidge(CurveResponseMixin, BaseEstimator):
 
     Parameters
     ----------
-    basis : {"bspline", "fourier", "legendre"}, default="bspline"
-        Basis of the coefficient functions on the response domain.
-    n_basis : int, default=None
-        Number of basis functions; None means the basis' default capped by
-        the number of response grid points. With ``alpha=0`` it may not
-        exceed the number of response grid points.
-    degree : int, default=3
-        B-spline degree (ignored by the other bases).
-    knots : array-like of shape (n_knots,), default=None
-        Interior B-spline knots inside the response domain; None means evenly
-        spaced.
-    alpha : float, default=None
-        Roughness penalty. None chooses it by GCV from ``alphas``.
-    alphas : array-like of shape (n_alphas,), default=None
-        Candidates for GCV when ``alpha=None``; None means 25 log-spaced
-        values scaled to the problem.
-    penalty_order : int, default=2
-        Derivative order ``q`` of the roughness penalty.
-    response_grid : array-like of shape (n_response_points,), default=None
-        Sampling points of the columns of ``y``. None means the numeric
-        column labels of a DataFrame ``y``, else evenly spaced on [0, 1].
-    quadrature : {"trapezoid", "simpson"}, default="trapezoid"
-        Quadrature rule on the response grid.
+    %(curve_response_alpha)s
+    %(basis)s
+    %(response_grid)s
+    %(quadrature)s
 
     Attributes
     ----------
@@ -82,19 +50,8 @@ class FunctionOnScalarRidge(CurveResponseMixin, BaseEstimator):
     coef_covariance_ : ndarray of shape ((n_features_in_ + 1) * n_basis_,) * 2
         Estimated covariance of ``basis_coef_`` flattened row-major, used by
         :meth:`confidence_band`.
-    n_basis_ : int
-        Number of basis functions.
-    alpha_ : float
-        The penalty used.
-    alphas_ : ndarray of shape (n_alphas,)
-        Candidates (only ``alpha`` when it was given).
-    criterion_ : ndarray of shape (n_alphas,)
-        GCV score per candidate (lower is better).
-    edf_ : ndarray of shape (n_alphas,)
-        Effective degrees of freedom per candidate.
-    n_samples_seen_ : int
-        Number of observations fitted (by :meth:`fit`, or by all calls of
-        :meth:`partial_fit` since the first).
+    %(curve_response_attributes)s
+    %(n_samples_seen)s
     n_features_in_ : int
         Number of covariates.
     feature_names_in_ : ndarray of shape (n_features_in_,)
@@ -110,7 +67,7 @@ class FunctionOnScalarRidge(CurveResponseMixin, BaseEstimator):
     -----
     The fit minimises ``sum_i w_i int (Y_i - fit_i)^2 dt + alpha sum_j int
     (D^q beta_j)^2`` (sample weights ``w_i``, integrals by quadrature on the
-    response grid) with centred covariates, so the result does not change
+    response grid) with centered covariates, so the result does not change
     when a covariate is shifted. Rank-deficient designs get the
     minimum-norm solution, as :func:`numpy.linalg.lstsq`. GCV treats the
     ``n_samples * n_response_points`` residuals as independent; with strongly
@@ -124,17 +81,12 @@ class FunctionOnScalarRidge(CurveResponseMixin, BaseEstimator):
 
     Confidence bands are pointwise normal-theory bands assuming independent
     curves with a common residual covariance; they ignore the smoothing bias
-    and are not simultaneous. Predictions are statistical estimates: validate
-    them on your own process data before they drive a quality or safety
-    decision, and follow the applicable standards and qualified practice.
+    and are not simultaneous.
+    %(cautions)s
 
     References
     ----------
-    Ramsay, J. O. and Silverman, B. W. (2005). *Functional Data Analysis*,
-    2nd ed., ch. 13. Springer.
-
-    Craven, P. and Wahba, G. (1979). Smoothing noisy data with spline
-    functions. *Numerische Mathematik* 31, 377-403.
+    %(curve_response_references)s
 
     Examples
     --------
@@ -161,119 +113,35 @@ class FunctionOnScalarRidge(CurveResponseMixin, BaseEstimator):
     0.97
     """
 
-    #: fit runs on skfunc._dask.compute_statistics, so dask arrays are accepted
-    _accepts_dask = True
-
     _parameter_constraints = RESPONSE_PARAMETER_CONSTRAINTS
 
-    def __init__(
-        self,
-        basis="bspline",
-        n_basis=None,
-        degree=3,
-        knots=None,
-        alpha=None,
-        alphas=None,
-        penalty_order=2,
-        response_grid=None,
-        quadrature="trapezoid",
-    ):
-        self.basis = basis
-        self.n_basis = n_basis
-        self.degree = degree
-        self.knots = knots
-        self.alpha = alpha
-        self.alphas = alphas
-        self.penalty_order = penalty_order
-        self.response_grid = response_grid
-        self.quadrature = quadrature
+    def __init__(self, alpha=None, *, alphas=None, basis="bspline", n_basis=None,
+                 degree=3, interior_knots=None, penalty_order=2, response_grid=None,
+                 quadrature="trapezoid"):
+        store_init_params(self, locals())
 
-    def fit(self, X, y, sample_weight=None):
-        """Fit the coefficient functions.
-
-        Parameters
-        ----------
-        X : array-like of shape (n_samples, n_features)
-            Scalar covariates.
-        y : array-like of shape (n_samples, n_response_points)
-            Response curves on the response grid (no NaN).
-        sample_weight : array-like of shape (n_samples,), default=None
-            Weights of the observations (frequency weights in the bands).
-
-        Returns
-        -------
-        self : object
-            Fitted estimator.
-        """
-        vars(self).pop("n_samples_seen_", None)  # start afresh: fit is a first batch
-        return self.partial_fit(X, y, sample_weight)
-
-    def partial_fit(self, X, y, sample_weight=None):
-        """Add a batch of observations and refit from all batches so far.
-
-        The fit depends on the data only through additive statistics, so
-        fitting batch by batch gives the fit on all of them (GCV included).
-
-        Parameters
-        ----------
-        X : array-like or dask array of shape (n_samples, n_features)
-            Scalar covariates of the batch.
-        y : array-like or dask array of shape (n_samples, n_response_points)
-            Response curves of the batch, on the response grid of the first.
-        sample_weight : array-like of shape (n_samples,), default=None
-            Weights of the batch's observations.
-
-        Returns
-        -------
-        self : FunctionOnScalarRidge
-            The estimator, fitted on all batches so far.
-        """
-        first = start_partial_fit(self, "response_grid", "response_grid_")
-        check_alphas(self.alphas)
+    def _validate_inputs(self, X, y, reset):
         if is_dask_array(X) or is_dask_array(y):
-            X, y = validate_dask(self, X, y, reset=first, multi_output=True,
+            return validate_dask(self, X, y, reset=reset, multi_output=True,
                                  curves=False)
-        else:
-            X = validate_data(self, X, reset=first, dtype=np.float64)
-        y = validate_response(self, y, X.shape[0], reset=first)
-        w = _check_sample_weight(sample_weight, X)
-        stats = compute_statistics(self._statistics, X, y, w)
-        return self._solve(running_statistics(self, stats, first, X.shape[0]))
+        return validate_data(self, X, reset=reset, dtype=np.float64), y
 
-    def _statistics(self, X, y, sample_weight=None):
-        """Additive statistics of one chunk of (X, y); merge with ``merge``."""
-        basis, weights = self._response_basis()
-        phi_w = basis.evaluate(self.response_grid_) * weights[:, None]
-        return response_statistics(X, y, phi_w, sample_weight)
-
-    def _solve(self, stats):
-        """Fit from (merged) statistics and store the fitted attributes."""
-        basis, weights = self._response_basis()
-        p = stats["zz"].shape[0]
-        store_solution(self, basis, solve_response(
-            stats,
-            basis.evaluate(self.response_grid_),
-            weights,
-            self._penalty(basis),
-            np.eye(p),
-            np.zeros((p, p)),
-            self.alpha,
-            check_alphas(self.alphas),
-        ))
-        return self
+    def _design_geometry(self):
+        p = self.n_features_in_
+        return np.eye(p), np.zeros((p, p))
 
     def _coef_rows(self):
         p1 = self.basis_coef_.shape[0]
         return np.eye(p1)[1:]
 
-    def predict(self, X, response_points=None):
+    def predict(self, X, eval_points=None):
         """Predicted response curves.
 
         Parameters
         ----------
         X : array-like of shape (n_samples, n_features)
             Scalar covariates.
-        response_points : array-like of shape (n_points,), default=None
+        eval_points : array-like of shape (n_points,), default=None
             Where to evaluate the curves, inside the response domain; None
             means ``response_grid_``.
 
@@ -287,9 +155,9 @@ class FunctionOnScalarRidge(CurveResponseMixin, BaseEstimator):
             X = validate_dask(self, X, reset=False, curves=False)
         else:
             X = validate_data(self, X, reset=False, dtype=np.float64)
-        if response_points is None:
+        if eval_points is None:
             intercept, coef = self.intercept_function_, self.coef_function_
         else:
-            intercept, coef = self.coef_functions_at(response_points)
+            intercept, coef = self.coef_functions_at(eval_points)
         return apply_rows(affine_block, X, intercept.size, coef=coef,
                           intercept=intercept)

@@ -16,7 +16,7 @@ with the response basis ``phi`` on the response grid, ``Gq = Phi' W Phi``
 and the geometry ``(Gs, Ps)`` of the covariate index: ``(I, 0)`` for scalar
 covariates, the exact Gram and roughness matrices of the input basis for
 curves. The intercept row has ``Gs = 1, Ps = 0``: ``alpha int (D^q b_0)^2``.
-Centring the design decouples the intercept and keeps the fit invariant to
+Centering the design decouples the intercept and keeps the fit invariant to
 shifts of the covariates.
 
 Normal equations: ``S B Gq + alpha (Ps B Gq + Gs B Pt) = R`` with
@@ -26,8 +26,8 @@ Demmler-Reinsch rotation ``U`` of the pair ``(Gq, Pt)``
 directions k: ``A_k c_k = r_k`` with
 ``A_k = mu_k (S + alpha Ps) + alpha (1 - mu_k) / scale Gs``, a small
 (p+1)-square system per direction and alpha. So GCV over every candidate alpha
-costs almost nothing once the additive statistics (:func:`response_statistics`)
-are known; the data are read once.
+costs almost nothing once the additive statistics
+(:meth:`CurveResponseRegressor._statistics`) are known; the data are read once.
 
 Pointwise standard errors assume independent observations whose residual
 curves share one covariance (estimated in the basis from the same
@@ -42,29 +42,25 @@ Craven, P. and Wahba, G. (1979). Smoothing noisy data with spline functions.
 *Numerische Mathematik* 31, 377-403.
 """
 
-from numbers import Integral, Real
+from numbers import Real
 
 import numpy as np
 from scipy.stats import norm as _normal
-from sklearn.base import RegressorMixin
-from sklearn.utils._param_validation import Interval, StrOptions
+from sklearn.base import BaseEstimator, RegressorMixin
+from sklearn.utils._param_validation import Interval
 from sklearn.utils.validation import (
+    _check_sample_weight,
     check_array,
     check_consistent_length,
     check_is_fitted,
 )
 
-from ._base import basis_for
-from ._bases import BASES
-from ._dask import check_accepts_dask, is_dask_array
-from ._grid import (
-    QUADRATURES,
-    check_grid,
-    grid_from_labels,
-    quadrature_weights,
-    resolve_grid,
-)
+from ._blocks import chunked_matmul, is_dask_array, row_blocks
+from ._dask import check_accepts_dask
+from ._fit import AdditiveFitMixin
+from ._grid import check_grid, grid_from_labels, quadrature_weights, resolve_grid
 from ._penalized import PenalizedPath, centered, cross_products, gcv_score
+from ._validation import BASIS_CONSTRAINTS, basis_for, check_labels, check_level
 
 #: eigenvalues below this fraction of the largest make a direction undetermined
 #: (minimum-norm solution, as numpy.linalg.lstsq)
@@ -76,28 +72,11 @@ DEFAULT_ALPHA_RANGE = (1e-8, 1e4, 25)
 
 #: parameters shared by the curve-response regressors
 RESPONSE_PARAMETER_CONSTRAINTS = {
-    "basis": [StrOptions(set(BASES))],
-    "n_basis": [Interval(Integral, 1, None, closed="left"), None],
-    "degree": [Interval(Integral, 0, None, closed="left")],
-    "knots": ["array-like", None],
+    **{key: value for key, value in BASIS_CONSTRAINTS.items() if key != "grid"},
     "alpha": [Interval(Real, 0, None, closed="left"), None],
     "alphas": ["array-like", None],
-    "penalty_order": [Interval(Integral, 0, None, closed="left")],
     "response_grid": ["array-like", None],
-    "quadrature": [StrOptions(set(QUADRATURES))],
 }
-
-
-def store_solution(estimator, basis, fitted):
-    """Store the output of ``solve_response`` (or alike) as fitted attributes."""
-    estimator.n_basis_ = basis.n_basis
-    estimator.basis_coef_ = fitted["basis_coef"]
-    estimator.coef_covariance_ = fitted["coef_covariance"]
-    estimator.alpha_ = fitted["alpha"]
-    estimator.alphas_ = fitted["alphas"]
-    estimator.criterion_ = fitted["criterion"]
-    estimator.edf_ = fitted["edf"]
-    estimator._store_functions()
 
 
 def check_alphas(alphas):
@@ -114,13 +93,59 @@ def check_alphas(alphas):
     return arr
 
 
+class _PointBasis:
+    """The basis of functions on a one-point response grid: one constant.
+
+    A response "curve" of one grid point is a scalar; its only function is
+    a constant, with no roughness, so the regression is least squares (with
+    the input-side penalty of a function-on-function model).
+    """
+
+    name = "constant"
+    n_basis = 1
+
+    def __init__(self, point):
+        self.domain = (float(point), float(point))
+
+    def evaluate(self, t, derivative=0):
+        t = np.asarray(t, dtype=np.float64).ravel()
+        return np.full((t.size, 1), 1.0 if derivative == 0 else 0.0)
+
+    def gram(self):
+        return np.ones((1, 1))
+
+    def penalty(self, order):
+        return np.full((1, 1), 1.0 if order == 0 else 0.0)
+
+
+def _one_point_grid(grid, y_in):
+    """The response grid of a one-column y: the given point, its numeric
+    label, or 0."""
+    if grid is None:
+        labels = list(getattr(y_in, "columns", []))
+        try:
+            grid = [float(labels[0])] if labels else None
+        except (TypeError, ValueError):
+            grid = None  # a word labels the column: no grid in it
+    if grid is None:
+        return np.zeros(1)
+    grid = np.asarray(grid, dtype=np.float64).ravel()
+    if grid.size != 1 or not np.isfinite(grid[0]):
+        raise ValueError(
+            f"response_grid has {grid.size} point(s) but y has 1 column; the "
+            "response grid needs one finite point per column of y."
+        )
+    return grid
+
+
 def validate_response(estimator, y, n_samples, *, reset):
-    """Validate curve-valued targets: 2-D, finite, at least 2 grid points.
+    """Validate curve-valued targets: 2-D and finite.
 
     On ``reset`` the response grid is resolved from ``estimator.response_grid``,
     numeric DataFrame column labels of ``y``, or evenly spaced points on [0, 1],
     and stored as ``estimator.response_grid_``; otherwise the number of columns
-    (and numeric labels) must match it.
+    (and numeric labels) must match it. A one-column y is a response of one
+    grid point (a scalar outcome).
     """
     if y is None:
         raise ValueError(
@@ -139,20 +164,20 @@ def validate_response(estimator, y, n_samples, *, reset):
         raise ValueError(
             f"y must be 2-D: one response curve per row, its values on the response "
             f"grid as columns; got an array of shape {y.shape}. For a scalar "
-            "response use a scalar-outcome regressor; for a single curve pass "
-            "y.reshape(1, -1)."
+            "response pass y.reshape(-1, 1) or use a scalar-outcome regressor; "
+            "for a single curve pass y.reshape(1, -1)."
         )
     check_consistent_length(np.empty((n_samples, 0)), y)
     m = y.shape[1]
-    if m < 2:
-        raise ValueError(
-            f"y has {m} column(s) (response grid points); a response curve needs at "
-            "least 2 grid points to be represented."
-        )
     labels = getattr(y_in, "columns", None)
-    inferred = grid_from_labels(list(labels)) if labels is not None else None
+    inferred = None
+    if labels is not None and m > 1:
+        inferred = grid_from_labels(list(labels))
     if reset:
         grid = getattr(estimator, "response_grid", None)
+        if m == 1:
+            estimator.response_grid_ = _one_point_grid(grid, y_in)
+            return y
         if grid is not None and np.ndim(grid) == 1 and len(grid) != m:
             raise ValueError(
                 f"response_grid has {len(grid)} points but y has {m} columns; the "
@@ -165,21 +190,22 @@ def validate_response(estimator, y, n_samples, *, reset):
             f"y has {m} columns but {type(estimator).__name__} was fitted on a "
             f"response grid of {estimator.response_grid_.size} points."
         )
-    if inferred is not None and not np.allclose(
-        inferred, estimator.response_grid_, rtol=1e-9, atol=0
-    ):
-        raise ValueError(
-            "The column labels of y give a response grid that differs from the one "
-            f"{type(estimator).__name__} was fitted on; resample the response "
-            "curves to the fitted grid."
-        )
+    check_labels(estimator, inferred, estimator.response_grid_, "y", "response grid")
     return y
 
 
-def check_points(points, domain, name="response_points"):
+def check_eval_points(points, domain, name="eval_points"):
     """Evaluation points inside the fitted domain."""
-    points = check_grid(points, name=name)
     a, b = domain
+    if a == b:  # a one-point response grid
+        points = np.asarray(points, dtype=np.float64).ravel()
+        if points.size == 0 or not np.allclose(points, a, rtol=0, atol=0):
+            raise ValueError(
+                f"{name} must be the one point {a} of the fitted response grid; "
+                f"got {points!r}."
+            )
+        return points
+    points = check_grid(points, name=name)
     tol = 1e-12 * max(1.0, abs(a), abs(b))
     if points[0] < a - tol or points[-1] > b + tol:
         raise ValueError(
@@ -187,22 +213,6 @@ def check_points(points, domain, name="response_points"):
             f"[{points[0]}, {points[-1]}]. Extrapolation is not supported."
         )
     return points
-
-
-def response_statistics(Z, Y, phi_w, sample_weight=None):
-    """Additive statistics of a curve-response fit.
-
-    The keys of :func:`skfunc._penalized.cross_products` (``n, sw, z_sum,
-    y_sum, zz, zy, yy``) plus ``yproj``, the weighted cross products of the
-    projections ``Y_i' W Phi`` (K x K). Chunks combine with
-    :func:`skfunc._penalized.merge`.
-    """
-    Y = np.asarray(Y, dtype=np.float64)
-    stats = cross_products(Z, Y, sample_weight)
-    w = np.ones(Y.shape[0]) if sample_weight is None else np.asarray(sample_weight, float)
-    proj = Y @ phi_w
-    stats["yproj"] = (proj * w[:, None]).T @ proj
-    return stats
 
 
 def _block(corner, matrix):
@@ -222,79 +232,6 @@ def _pinvh(A):
     return (vec * inv[..., None, :]) @ np.swapaxes(vec, -1, -2)
 
 
-def solve_response(stats, phi, weights, penalty_t, gram_s, penalty_s, alpha, alphas):
-    """Fit the coefficient functions from statistics; GCV over ``alphas``.
-
-    Parameters
-    ----------
-    stats : dict
-        From :func:`response_statistics` (merged over chunks).
-    phi : ndarray of shape (m, K)
-        Response basis on the response grid.
-    weights : ndarray of shape (m,)
-        Quadrature weights of the response grid.
-    penalty_t : ndarray of shape (K, K)
-        Roughness matrix of the response basis.
-    gram_s, penalty_s : ndarray of shape (p, p)
-        Geometry of the design index (identity and zeros for scalars).
-    alpha : float or None
-        Fixed penalty; None chooses one from ``alphas`` by GCV.
-    alphas : array-like or None
-        Candidates; None means a log-spaced range scaled to the problem.
-
-    Returns
-    -------
-    dict with ``basis_coef`` (p + 1, K) (row 0 the intercept, on the original
-    covariates), ``coef_covariance`` ((p + 1) K, (p + 1) K), ``alpha``,
-    ``alphas``, ``criterion`` and ``edf``.
-    """
-    sw = stats["sw"]
-    zz, zy, _, z_mean, y_mean = centered(stats)
-    phi_w = phi * weights[:, None]
-    path = PenalizedPath(phi_w.T @ phi, None if alpha == 0 else penalty_t)
-    mu, U = path.mu, path.eigvecs
-    S = _block(sw, zz)
-    Gs, Ps = _block(1.0, gram_s), _block(0.0, penalty_s)
-    rot = (np.vstack([sw * y_mean, zy]) @ phi_w) @ U  # r_k as columns, (p+1, K)
-    if alpha is not None:
-        candidates = np.array([float(alpha)])
-    elif alphas is None:
-        low, high, count = DEFAULT_ALPHA_RANGE
-        base = path.scale * np.trace(S) / np.trace(Gs)
-        candidates = base * np.logspace(np.log10(low), np.log10(high), count)
-    else:
-        candidates = np.asarray(alphas, dtype=np.float64).ravel()
-    a = candidates[:, None, None, None]
-    rough = ((1 - mu) / path.scale)[:, None, None]
-    A = mu[:, None, None] * (S + a * Ps) + a * rough * Gs
-    A_inv = _pinvh(A)  # (n_alphas, K, p+1, p+1)
-    C = np.einsum("akij,jk->aik", A_inv, rot)  # (n_alphas, p+1, K)
-    fit_sq = np.einsum("aik,ij,ajk,k->a", C, S, C, mu)
-    rss = stats["yy"] @ weights - 2 * np.einsum("aik,ik->a", C, rot) + fit_sq
-    sample_edf = mu * np.einsum("akij,ji->ak", A_inv, S)  # per direction
-    edf = sample_edf.sum(axis=1)
-    m = weights.size
-    criterion = gcv_score(np.maximum(rss, 0), edf, sw * m, sw * weights.sum())
-    best = int(np.argmin(criterion))
-    transform = np.eye(S.shape[0])
-    transform[0, 1:] = -z_mean  # back to the original (uncentred) covariates
-    coef_c = C[best]
-    cov = _coef_covariance(
-        stats, U, mu, S, rot, coef_c, A_inv[best], sw - sample_edf[best].max()
-    )
-    cov = np.einsum("ai,bk,kilm,cm,dl->abcd", transform, U, cov, transform, U,
-                    optimize=True)
-    p1, K = coef_c.shape
-    return {
-        "basis_coef": transform @ coef_c @ U.T,
-        "coef_covariance": cov.reshape(p1 * K, p1 * K),
-        "alpha": float(candidates[best]),
-        "alphas": candidates,
-        "criterion": criterion,
-        "edf": edf,
-    }
-
-
 def _coef_covariance(stats, U, mu, S, rot, C, A_inv, dof):
     """Covariance of the rotated coefficients, indexed [k, i, l, j].
 
@@ -310,39 +247,27 @@ def _coef_covariance(stats, U, mu, S, rot, C, A_inv, dof):
     return np.einsum("kij,lmj->kilm", AS, A_inv) * omega[:, None, :, None]
 
 
-def pointwise_band(coef_covariance, n_functions, left, right, estimate, level):
-    """Pointwise normal-theory band of ``left @ B @ right'`` for basis coefs B.
+class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
+    """What the curve-response regressors share: the fit from additive
+    statistics, coefficient functions, bands and the integrated R^2 score.
 
-    ``coef_covariance`` is the covariance of the (n_functions, K) coefficient
-    matrix B flattened row-major; ``left`` (L, n_functions) combines its rows,
-    ``right`` (m, K) evaluates the basis. Returns (lower, upper) of shape
-    (L, m) around ``estimate``.
+    The fitted coefficient functions are ``basis_coef_`` (rows: intercept,
+    then the design's coefficient functions, in the response basis) with
+    covariance ``coef_covariance_``. A subclass defines
+
+    * ``_validate_inputs(X, y, reset)``: validated X (and y aligned to it);
+    * ``_statistics_function()`` (optional): ``_statistics`` with a linear
+      ``design`` operator when the design is not X itself;
+    * ``_design_geometry()``: ``(Gs, Ps)``, the Gram and roughness matrices
+      of the design index (identity and zeros for scalar covariates);
+    * ``_coef_rows()``: the combination of ``basis_coef_``'s rows giving
+      ``coef_function_``.
     """
-    if not 0 < level < 1:
-        raise ValueError(f"level must be in (0, 1), e.g. 0.95; got {level!r}.")
-    K = right.shape[1]
-    cov = coef_covariance.reshape(n_functions, K, n_functions, K)
-    inner = np.einsum("la,abcd,lc->lbd", left, cov, left, optimize=True)
-    var = np.empty((left.shape[0], right.shape[0]))
-    rows = max(1, (1 << 22) // max(right.size, 1))
-    for start in range(0, left.shape[0], rows):
-        block = inner[start : start + rows]
-        var[start : start + rows] = np.einsum(
-            "tb,lbd,td->lt", right, block, right, optimize=True
-        )
-    half = _normal.ppf(0.5 + level / 2) * np.sqrt(np.maximum(var, 0))
-    return estimate - half, estimate + half
 
+    #: fit runs on skfunc._blocks.compute_statistics, so dask arrays are accepted
+    _accepts_dask = True
 
-class CurveResponseMixin(RegressorMixin):
-    """What the curve-response regressors share.
-
-    ``score`` is the integrated R^2; coefficient functions, their values at
-    any points and their pointwise bands come from ``basis_coef_`` (rows:
-    intercept, then the design's coefficient functions, in the response
-    basis) and ``coef_covariance_``. Subclasses define ``_coef_rows()``, the
-    rows combination giving ``coef_function_``.
-    """
+    _batch_grids = (("response_grid", "response_grid_"),)
 
     def __sklearn_tags__(self):
         tags = super().__sklearn_tags__()
@@ -351,7 +276,110 @@ class CurveResponseMixin(RegressorMixin):
         tags.target_tags.single_output = False
         return tags
 
+    # -- the fit: validate, statistics, solve ---------------------------------
+
+    def _validate_batch(self, X, y, sample_weight, first):
+        if first:
+            check_alphas(self.alphas)
+        X, y = self._validate_inputs(X, y, reset=first)
+        y = validate_response(self, y, X.shape[0], reset=first)
+        return X, y, _check_sample_weight(sample_weight, X)
+
+    def _statistics(self, X, y, sample_weight=None, design=None):
+        """Additive statistics of one block of rows.
+
+        The design is X itself, or ``X @ design`` for an operator ``design``
+        (m, p). Keys of :func:`skfunc._penalized.cross_products` of the design and y
+        (``n, sw, z_sum, y_sum, zz, zy, yy``) plus ``yproj``, the weighted
+        cross products of the projections ``Y_i' W Phi`` (K x K): all sums,
+        merged key by key (:func:`skfunc._penalized.merge`).
+        """
+        basis, weights = self._response_basis()
+        phi_w = basis.evaluate(self.response_grid_) * weights[:, None]
+        Y = np.asarray(y, dtype=np.float64)
+        Z = X if design is None else chunked_matmul(X, design)
+        stats = cross_products(Z, Y, sample_weight)
+        w = np.ones(Y.shape[0]) if sample_weight is None else np.asarray(
+            sample_weight, dtype=np.float64)
+        proj = Y @ phi_w
+        stats["yproj"] = (proj * w[:, None]).T @ proj
+        return stats
+
+    def _solve(self, stats):
+        """Coefficient functions from merged statistics; GCV over ``alphas``.
+
+        Sets ``basis_coef_`` ((p + 1, K), row 0 the intercept, on the original
+        covariates), ``coef_covariance_``, ``alpha_``, ``alphas_``,
+        ``criterion_``, ``edf_`` and ``edf_path_``.
+        """
+        basis, weights = self._response_basis()
+        phi = basis.evaluate(self.response_grid_)
+        gram_s, penalty_s = self._design_geometry()
+        sw = stats["sw"]
+        zz, zy, _, z_mean, y_mean = centered(stats)
+        phi_w = phi * weights[:, None]
+        path = PenalizedPath(phi_w.T @ phi, None if self.alpha == 0 else
+                             self._penalty(basis))
+        mu, U = path.mu, path.eigvecs
+        S = _block(sw, zz)
+        Gs, Ps = _block(1.0, gram_s), _block(0.0, penalty_s)
+        rot = (np.vstack([sw * y_mean, zy]) @ phi_w) @ U  # r_k as columns
+        candidates = self._candidates(path.scale * np.trace(S) / np.trace(Gs))
+        a = candidates[:, None, None, None]
+        rough = ((1 - mu) / path.scale)[:, None, None]
+        A = mu[:, None, None] * (S + a * Ps) + a * rough * Gs
+        A_inv = _pinvh(A)  # (n_alphas, K, p+1, p+1)
+        C = np.einsum("akij,jk->aik", A_inv, rot)  # (n_alphas, p+1, K)
+        fit_sq = np.einsum("aik,ij,ajk,k->a", C, S, C, mu)
+        rss = stats["yy"] @ weights - 2 * np.einsum("aik,ik->a", C, rot) + fit_sq
+        sample_edf = mu * np.einsum("akij,ji->ak", A_inv, S)  # per direction
+        edf = sample_edf.sum(axis=1)
+        m = weights.size
+        criterion = gcv_score(np.maximum(rss, 0), edf, sw * m, sw * weights.sum())
+        best = int(np.argmin(criterion))
+        transform = np.eye(S.shape[0])
+        transform[0, 1:] = -z_mean  # back to the original (uncentered) covariates
+        coef_c = C[best]
+        cov = _coef_covariance(
+            stats, U, mu, S, rot, coef_c, A_inv[best], sw - sample_edf[best].max()
+        )
+        cov = np.einsum("ai,bk,kilm,cm,dl->abcd", transform, U, cov, transform, U,
+                        optimize=True)
+        p1, K = coef_c.shape
+        self._store(basis, transform @ coef_c @ U.T, cov.reshape(p1 * K, p1 * K),
+                    candidates, criterion, edf, best)
+
+    def _candidates(self, base):
+        """Candidate alphas: ``alpha``, ``alphas``, or a range around ``base``."""
+        if self.alpha is not None:
+            return np.array([float(self.alpha)])
+        alphas = check_alphas(self.alphas)
+        if alphas is not None:
+            return alphas
+        low, high, count = DEFAULT_ALPHA_RANGE
+        return base * np.logspace(np.log10(low), np.log10(high), count)
+
+    def _store(self, basis, basis_coef, coef_covariance, alphas, criterion, edf, best):
+        """Set the fitted attributes of the solution at candidate ``best``."""
+        self.n_basis_ = basis.n_basis
+        self.basis_coef_ = basis_coef
+        self.coef_covariance_ = coef_covariance
+        self.alpha_ = float(alphas[best])
+        self.alphas_ = alphas
+        self.criterion_ = criterion
+        self.edf_ = float(edf[best])
+        self.edf_path_ = edf
+        p1 = self.basis_coef_.shape[0]
+        self.intercept_function_ = self._evaluate(np.eye(p1)[:1])[0][0]
+        values = self._evaluate(self._coef_rows())[0]
+        self.coef_function_ = values.reshape(self._coef_shape(values.shape[1]))
+
+    # -- the response basis ----------------------------------------------------
+
     def _response_basis(self):
+        """The response basis and the quadrature weights of the response grid."""
+        if self.response_grid_.size == 1:
+            return _PointBasis(self.response_grid_[0]), np.ones(1)
         basis = basis_for(self, self.response_grid_, cap=self.alpha == 0)
         return basis, quadrature_weights(self.response_grid_, self.quadrature)
 
@@ -369,35 +397,27 @@ class CurveResponseMixin(RegressorMixin):
             return np.zeros((basis.n_basis, basis.n_basis))
         return basis.penalty(self.penalty_order)
 
-    def _evaluate(self, left, points=None):
-        """``left @ basis_coef_`` as functions at ``points`` (rows), and Phi."""
-        basis = basis_for(self, self.response_grid_, cap=False)
-        if points is None:
-            points = self.response_grid_
+    def _evaluate(self, left, eval_points=None):
+        """``left @ basis_coef_`` as functions at ``eval_points`` (rows), and Phi."""
+        basis = self._response_basis()[0]
+        if eval_points is None:
+            eval_points = self.response_grid_
         else:
-            points = check_points(points, basis.domain)
-        phi = basis.evaluate(points)
+            eval_points = check_eval_points(eval_points, basis.domain)
+        phi = basis.evaluate(eval_points)
         return left @ self.basis_coef_ @ phi.T, phi
 
     def _coef_shape(self, n_points):
-        rows = self._coef_rows().shape[0]
-        return (n_points,) if self._concurrent_like() else (rows, n_points)
+        return (self._coef_rows().shape[0], n_points)
 
-    def _concurrent_like(self):
-        return False
+    # -- public helpers --------------------------------------------------------
 
-    def _store_functions(self):
-        p1 = self.basis_coef_.shape[0]
-        self.intercept_function_ = self._evaluate(np.eye(p1)[:1])[0][0]
-        values = self._evaluate(self._coef_rows())[0]
-        self.coef_function_ = values.reshape(self._coef_shape(values.shape[1]))
-
-    def coef_functions_at(self, points):
+    def coef_functions_at(self, eval_points):
         """Intercept and coefficient functions evaluated at any points.
 
         Parameters
         ----------
-        points : array-like of shape (n_points,)
+        eval_points : array-like of shape (n_points,)
             Increasing points inside the response domain.
 
         Returns
@@ -408,8 +428,8 @@ class CurveResponseMixin(RegressorMixin):
         """
         check_is_fitted(self)
         p1 = self.basis_coef_.shape[0]
-        intercept = self._evaluate(np.eye(p1)[:1], points)[0][0]
-        values = self._evaluate(self._coef_rows(), points)[0]
+        intercept = self._evaluate(np.eye(p1)[:1], eval_points)[0][0]
+        values = self._evaluate(self._coef_rows(), eval_points)[0]
         return intercept, values.reshape(self._coef_shape(values.shape[1]))
 
     def confidence_band(self, level=0.95, intercept=False):
@@ -433,14 +453,24 @@ class CurveResponseMixin(RegressorMixin):
             when the residual degrees of freedom are exhausted.
         """
         check_is_fitted(self)
+        level = check_level(level)
         p1 = self.basis_coef_.shape[0]
         left = np.eye(p1)[:1] if intercept else self._coef_rows()
         estimate, phi = self._evaluate(left)
-        lower, upper = pointwise_band(
-            self.coef_covariance_, p1, left, phi, estimate, level
-        )
+        half = _normal.ppf(0.5 + level / 2) * np.sqrt(self._band_variance(left, phi))
         shape = (self.intercept_function_ if intercept else self.coef_function_).shape
-        return lower.reshape(shape), upper.reshape(shape)
+        return (estimate - half).reshape(shape), (estimate + half).reshape(shape)
+
+    def _band_variance(self, left, phi):
+        """Pointwise variance (L, m) of ``left @ basis_coef_ @ phi'``."""
+        p1, K = self.basis_coef_.shape
+        cov = self.coef_covariance_.reshape(p1, K, p1, K)
+        inner = np.einsum("la,abcd,lc->lbd", left, cov, left, optimize=True)
+        var = np.empty((left.shape[0], phi.shape[0]))
+        for rows in row_blocks(left.shape[0], phi.size):
+            var[rows] = np.einsum("tb,lbd,td->lt", phi, inner[rows], phi,
+                                  optimize=True)
+        return np.maximum(var, 0)
 
     def score(self, X, y, sample_weight=None):
         """Integrated R^2 of the predicted curves, ``1 - int SSE / int SST``.
@@ -457,12 +487,17 @@ class CurveResponseMixin(RegressorMixin):
         Returns
         -------
         score : float
-            Quadrature-weighted R^2 (see :func:`skfunc.metrics.integrated_r2_score`).
+            Quadrature-weighted R^2 (see :func:`skfunc.metrics.integrated_r2_score`);
+            for a one-point response grid, the ordinary R^2.
         """
+        from sklearn.metrics import r2_score
+
         from .metrics import integrated_r2_score
 
         y_pred = self.predict(X)
         y = validate_response(self, y, y_pred.shape[0], reset=False)
+        if self.response_grid_.size == 1:
+            return float(r2_score(y, y_pred, sample_weight=sample_weight))
         return integrated_r2_score(
             y, y_pred, grid=self.response_grid_, quadrature=self.quadrature,
             sample_weight=sample_weight,

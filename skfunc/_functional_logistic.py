@@ -20,6 +20,8 @@ from sklearn.utils.class_weight import compute_sample_weight
 from sklearn.utils.multiclass import check_classification_targets
 from sklearn.utils.validation import _check_sample_weight
 
+from ._docstrings import fill_doc
+from ._estimator import store_init_params
 from ._integrated_design import (
     ALPHA_CONSTRAINT,
     DESIGN_CONSTRAINTS,
@@ -76,6 +78,7 @@ def newton_statistics(D, Y, sample_weight, theta, derivatives=True):
     return float(loss), grad.ravel(), hess.reshape(n_out * p, n_out * p)
 
 
+@fill_doc
 class FunctionalLogisticRegression(
     IntegratedDesignMixin, ClassifierMixin, BaseEstimator
 ):
@@ -92,22 +95,7 @@ class FunctionalLogisticRegression(
         Roughness penalty weight; 0 for unpenalized maximum likelihood.
         With ``penalty_order=0`` in an orthonormal basis, ``alpha`` equals
         ``1 / C`` of :class:`sklearn.linear_model.LogisticRegression`.
-    basis : {"bspline", "fourier", "legendre"}, default="bspline"
-        Basis for the coefficient functions.
-    n_basis : int, default=None
-        Number of basis functions. None means the basis' default capped by
-        the number of grid points.
-    degree : int, default=3
-        Degree of the B-splines. Ignored by the other bases.
-    knots : array-like of shape (n_knots,), default=None
-        Interior B-spline knots; None means evenly spaced.
-    penalty_order : int, default=2
-        Derivative order ``q`` of the roughness penalty.
-    n_covariates : int, default=0
-        Number of trailing columns of X that are scalar covariates
-        (unpenalized); the grid covers the columns before them.
-    fit_intercept : bool, default=True
-        Whether to fit an unpenalized intercept.
+    %(scalar_outcome)s
     class_weight : dict, "balanced" or None, default=None
         Weights of the classes, multiplied into ``sample_weight``, as in
         scikit-learn's classifiers.
@@ -117,11 +105,6 @@ class FunctionalLogisticRegression(
         Stop after a Newton step whose half squared Newton decrement (the
         predicted decrease of the objective) is below
         ``tol * (1 + |objective|)``.
-    grid : array-like of shape (n_features - n_covariates,), default=None
-        Sampling points of the curve columns. None means their numeric
-        DataFrame column labels, else evenly spaced points on [0, 1].
-    quadrature : {"trapezoid", "simpson"}, default="trapezoid"
-        Quadrature rule for the integrals.
 
     Attributes
     ----------
@@ -176,9 +159,7 @@ class FunctionalLogisticRegression(
     the grid. For the multinomial model it refers to the centered
     coefficients.
 
-    Predicted probabilities are statistical estimates: validate them on your
-    own process data before they drive a quality or safety decision, and
-    follow the applicable standards and qualified practice.
+    %(cautions)s
 
     References
     ----------
@@ -193,13 +174,10 @@ class FunctionalLogisticRegression(
 
     Examples
     --------
-    >>> import numpy as np
+    >>> from skfunc.datasets import make_smooth_regression
     >>> from skfunc.linear_model import FunctionalLogisticRegression
-    >>> rng = np.random.default_rng(0)
-    >>> t = np.linspace(0, 1, 101)
-    >>> X = rng.normal(size=(200, 5)) @ np.sin(np.outer(np.arange(1, 6), np.pi * t))
-    >>> logit = X @ (np.gradient(t) * 4 * np.sin(np.pi * t))
-    >>> y = (rng.uniform(size=200) < 1 / (1 + np.exp(-logit))).astype(int)
+    >>> X, outcome, _ = make_smooth_regression(200, grid=101, noise=0.5, random_state=0)
+    >>> y = (outcome > 0).astype(int)
     >>> clf = FunctionalLogisticRegression(alpha=1e-4, n_basis=8).fit(X, y)
     >>> clf.predict_proba(X[:2]).shape
     (2, 2)
@@ -213,54 +191,22 @@ class FunctionalLogisticRegression(
         "tol": [Interval(Real, 0, None, closed="left")],
     }
 
-    def __init__(
-        self,
-        alpha=1.0,
-        *,
-        basis="bspline",
-        n_basis=None,
-        degree=3,
-        knots=None,
-        penalty_order=2,
-        n_covariates=0,
-        fit_intercept=True,
-        class_weight=None,
-        max_iter=100,
-        tol=1e-10,
-        grid=None,
-        quadrature="trapezoid",
-    ):
-        self.alpha = alpha
-        self.basis = basis
-        self.n_basis = n_basis
-        self.degree = degree
-        self.knots = knots
-        self.penalty_order = penalty_order
-        self.n_covariates = n_covariates
-        self.fit_intercept = fit_intercept
-        self.class_weight = class_weight
-        self.max_iter = max_iter
-        self.tol = tol
-        self.grid = grid
-        self.quadrature = quadrature
+    def __init__(self, alpha=1.0, *, basis="bspline", n_basis=None, degree=3,
+                 interior_knots=None, penalty_order=2, n_covariates=0,
+                 fit_intercept=True, class_weight=None, max_iter=100, tol=1e-10,
+                 grid=None, quadrature="trapezoid"):
+        store_init_params(self, locals())
 
+    @fill_doc
     def fit(self, X, y, sample_weight=None):
         """Fit the coefficient functions by penalized maximum likelihood.
 
         Parameters
         ----------
-        X : array-like of shape (n_samples, n_features)
-            Curves, one per row, sampled on the grid; then ``n_covariates``
-            scalar columns.
+        %(scalar_outcome_X)s
         y : array-like of shape (n_samples,)
             Class labels.
-        sample_weight : array-like of shape (n_samples,), default=None
-            Non-negative weights of the curves.
-
-        Returns
-        -------
-        self : object
-            Fitted estimator.
+        %(fit_weights_returns)s
         """
         self._validate_params()
         X, y = self._validate_curves(X, y, reset=True, ensure_min_samples=2)
@@ -375,16 +321,7 @@ class FunctionalLogisticRegression(
         return scores[:, 0] if scores.shape[1] == 1 else scores
 
     def predict_proba(self, X):
-        """Class probabilities.
-
-        Parameters
-        ----------
-        X : array-like of shape (n_samples, n_features)
-
-        Returns
-        -------
-        proba : ndarray of shape (n_samples, n_classes)
-        """
+        """Class probabilities of the curves in X, shape (n_samples, n_classes)."""
         scores = self.decision_function(X)
         if scores.ndim == 1:
             p = expit(scores)
@@ -392,16 +329,7 @@ class FunctionalLogisticRegression(
         return np.exp(scores - logsumexp(scores, axis=1, keepdims=True))
 
     def predict_log_proba(self, X):
-        """Logarithms of the class probabilities.
-
-        Parameters
-        ----------
-        X : array-like of shape (n_samples, n_features)
-
-        Returns
-        -------
-        log_proba : ndarray of shape (n_samples, n_classes)
-        """
+        """Logarithms of :meth:`predict_proba`, shape (n_samples, n_classes)."""
         scores = self.decision_function(X)
         if scores.ndim == 1:
             return -np.logaddexp(0.0, np.column_stack([scores, -scores]))

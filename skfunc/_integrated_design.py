@@ -30,34 +30,29 @@ from numbers import Integral, Real
 import numpy as np
 from scipy.linalg import block_diag
 from scipy.stats import norm
-from sklearn.utils._param_validation import Interval, StrOptions
+from sklearn.utils._param_validation import Interval
 from sklearn.utils.validation import check_is_fitted
 
-from ._base import basis_for, chunked_matmul, validate_curves
-from ._bases import BASES
-from ._grid import QUADRATURES, quadrature_weights
+from ._blocks import chunked_matmul
+from ._estimator import ShortReprMixin
+from ._grid import quadrature_weights
 from ._penalized import _RCOND, NotIdentifiableError, PenalizedPath
+from ._validation import BASIS_CONSTRAINTS, basis_for, check_level, validate_curves
 
 #: parameter constraints common to every model on the integrated design
 DESIGN_CONSTRAINTS = {
-    "basis": [StrOptions(set(BASES))],
-    "n_basis": [Interval(Integral, 1, None, closed="left"), None],
-    "degree": [Interval(Integral, 0, None, closed="left")],
-    "knots": ["array-like", None],
-    "penalty_order": [Interval(Integral, 0, None, closed="left")],
+    **BASIS_CONSTRAINTS,
     "n_covariates": [Interval(Integral, 0, None, closed="left")],
     "fit_intercept": ["boolean"],
-    "grid": ["array-like", None],
-    "quadrature": [StrOptions(set(QUADRATURES))],
 }
 
 ALPHA_CONSTRAINT = [Interval(Real, 0, None, closed="left")]
 
 
-class IntegratedDesignMixin:
+class IntegratedDesignMixin(ShortReprMixin):
     """Curves (and trailing covariates) to the integrated design, and back.
 
-    Subclasses set ``basis``, ``n_basis``, ``degree``, ``knots``,
+    Subclasses set ``basis``, ``n_basis``, ``degree``, ``interior_knots``,
     ``penalty_order``, ``n_covariates``, ``grid`` and ``quadrature``.
     """
 
@@ -171,10 +166,7 @@ class IntegratedDesignMixin:
         lower, upper : ndarray, shaped like ``coef_function_``
         """
         check_is_fitted(self)
-        if not isinstance(level, Real) or not 0 < level < 1:
-            raise ValueError(
-                f"level must be a number strictly between 0 and 1; got {level!r}."
-            )
+        level = check_level(level)
         phi = self._basis().evaluate(self.grid_)
         var = np.einsum("jk,...kl,jl->...j", phi, self.coef_covariance_, phi)
         half = norm.ppf(0.5 + level / 2) * np.sqrt(np.maximum(var, 0.0))

@@ -1,13 +1,13 @@
-"""Streaming first and second moments of rows: count, mean, centred scatter.
+"""Streaming first and second moments of rows: count, mean, centered scatter.
 
 What a principal-component fit needs from the data is the count ``n``, the
-mean ``m`` and the centred scatter ``S = sum_i (z_i - m)(z_i - m)'`` of the
+mean ``m`` and the centered scatter ``S = sum_i (z_i - m)(z_i - m)'`` of the
 rows ``z_i`` (K values each). They are computed per chunk and merged exactly,
 so an in-memory fit, ``partial_fit`` over chunks and a fit over the blocks
 of a distributed array give the same result, in memory bounded by one chunk
 plus K x K.
 
-Each chunk is centred at its own mean before its scatter is formed, and
+Each chunk is centered at its own mean before its scatter is formed, and
 chunks are merged with the pairwise update of Chan, Golub and LeVeque, which
 avoids the cancellation of ``sum z z' - n m m'`` when the mean is large
 compared with the spread (curves of a kiln temperature near 1200 °C varying
@@ -22,11 +22,11 @@ STAN-CS-79-773, Stanford University.
 
 import numpy as np
 
-from ._base import CHUNK_VALUES
+from ._blocks import row_blocks
 
 
 def moments(X, operator_T=None, chunk_size=None):
-    """Count, mean and centred scatter of the rows of ``X`` (or ``X @ operator_T``).
+    """Count, mean and centered scatter of the rows of ``X`` (or ``X @ operator_T``).
 
     Parameters
     ----------
@@ -35,7 +35,7 @@ def moments(X, operator_T=None, chunk_size=None):
     operator_T : ndarray of shape (m, K), default=None
         Linear map applied to each row first; None for the rows themselves.
     chunk_size : int, default=None
-        Rows per chunk; None for about 4 million values per chunk.
+        Rows per chunk; None for :data:`skfunc._blocks.CHUNK_VALUES` values.
 
     Returns
     -------
@@ -43,16 +43,14 @@ def moments(X, operator_T=None, chunk_size=None):
         ``{"n": int, "mean": (K,), "scatter": (K, K)}``; combine the
         statistics of disjoint rows with :func:`merge_moments`.
     """
-    n, m = X.shape
-    rows = chunk_size or max(1, CHUNK_VALUES // max(m, 1))
     parts = []
-    for start in range(0, n, rows):
-        chunk = np.asarray(X[start:start + rows], dtype=np.float64)
+    for rows in row_blocks(*X.shape, chunk_size):
+        chunk = np.asarray(X[rows], dtype=np.float64)
         if operator_T is not None:
             chunk = chunk @ operator_T
         mean = chunk.mean(axis=0)
-        centred = chunk - mean
-        scatter = centred.T @ centred
+        centered = chunk - mean
+        scatter = centered.T @ centered
         parts.append({"n": chunk.shape[0], "mean": mean, "scatter": scatter})
         if len(parts) == 2:
             parts = [merge_moments(*parts)]

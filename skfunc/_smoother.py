@@ -5,7 +5,7 @@ Each curve ``x`` (a row of ``X``) is replaced by the function
 
     sum_j w_j (x_j - f(t_j))^2 + alpha int (D^q f)^2,
 
-with trapezoid (spacing) weights ``w``, so ``alpha`` means the same thing
+with quadrature weights ``w`` (trapezoid by default), so ``alpha`` means the same thing
 whatever the number or spacing of the grid points. One simultaneous
 diagonalisation of the problem (:class:`~skfunc._penalized.PenalizedPath`)
 serves every candidate alpha and every curve, so generalised cross-validation
@@ -16,6 +16,7 @@ missing points, with one diagonalisation per distinct pattern. Complete rows
 take the single fast path.
 """
 
+import warnings
 from numbers import Integral, Real
 
 import numpy as np
@@ -25,17 +26,13 @@ from sklearn.base import BaseEstimator, TransformerMixin
 from sklearn.utils._param_validation import Interval, StrOptions
 from sklearn.utils.validation import _check_feature_names_in, check_is_fitted
 
-from ._base import (
-    CHUNK_VALUES,
-    basis_for,
-    chunked_matmul,
-    validate_curves,
-    validate_partial,
-)
-from ._bases import BASES
-from ._dask import apply_rows, compute_statistics, running_statistics
+from ._blocks import apply_rows, chunked_matmul, row_blocks
+from ._docstrings import fill_doc
+from ._estimator import store_init_params
+from ._fit import AdditiveTransformerMixin
 from ._grid import check_grid, quadrature_weights
 from ._penalized import NotIdentifiableError, PenalizedPath, gcv_score, merge
+from ._validation import BASIS_CONSTRAINTS, basis_for, validate_curves
 
 #: default number of candidate alphas for GCV
 N_ALPHAS = 25
@@ -84,14 +81,14 @@ def default_alphas(basis, order, n_alphas=N_ALPHAS):
     return np.logspace(np.log10(low), np.log10(high), n_alphas)
 
 
-def _check_output_grid(points):
+def _check_eval_points(points):
     """Output points: finite and strictly increasing; one point is allowed."""
     out = np.array(points, dtype=np.float64, ndmin=1)
     if out.ndim == 1 and out.size == 1 and np.isfinite(out[0]):
         return out
     if out.size == 0:
-        raise ValueError("output_grid must hold at least one point; got none.")
-    return check_grid(out, name="output_grid")
+        raise ValueError("eval_points must hold at least one point; got none.")
+    return check_grid(out, name="eval_points")
 
 
 def _products(X, first_T, second_T=None):
@@ -110,9 +107,7 @@ def _products(X, first_T, second_T=None):
     width = first_T.shape[1] if second_T is None else second_T.shape[1]
     out = np.empty((n, width))
     missing = np.empty(n, dtype=bool)
-    rows = max(1, CHUNK_VALUES // m)
-    for start in range(0, n, rows):
-        part = slice(start, min(start + rows, n))
+    for part in row_blocks(n, m):
         with np.errstate(invalid="ignore", over="ignore"):  # inf is flagged
             coef = np.asarray(X[part], dtype=np.float64) @ extended
         missing[part] = ~np.isfinite(coef[:, -1])
@@ -136,16 +131,61 @@ def _gcv_choice(scores, alphas):
     return np.where(undefined, int(np.argmax(alphas)), best)
 
 
+class _LowOrderFit:
+    """Stands in for a :class:`PenalizedPath` for rows whose observed values
+    are too few to fix the functions the penalty leaves free.
+
+    ``k`` observed values determine a polynomial of degree ``k - 1`` (a
+    constant for the periodic Fourier basis, whose free functions are the
+    constants); every alpha gives that fit, which interpolates the values
+    (residual 0, ``k`` degrees of freedom). The "rotated" rows it takes are
+    the curve values themselves (zero where missing).
+    """
+
+    def __init__(self, problem, pattern):
+        k = int(pattern.sum())
+        self.degree = 0 if problem.basis.name == "fourier" else k - 1
+        a, b = problem.basis.domain
+        u = 2 * (problem.grid - a) / (b - a) - 1
+        powers = u[:, None] ** np.arange(self.degree + 1)  # (m, d + 1)
+        # basis coefficients of each power (exact: the basis holds them)
+        coef = np.linalg.lstsq(problem.phi, powers, rcond=None)[0]  # (K, d + 1)
+        # least-squares polynomial through the observed values
+        fit = np.linalg.pinv(powers[pattern] * np.sqrt(problem.weights[pattern, None]))
+        self.operator = np.zeros((pattern.size, problem.phi.shape[1]))
+        self.operator[pattern] = (coef @ fit * np.sqrt(problem.weights[pattern])).T
+        self.weights = problem.weights * pattern
+        self.n_obs = k
+
+    def coef(self, rotated, alpha):
+        return rotated @ self.operator
+
+    def rss_reduction(self, rotated, alphas):
+        """The whole weighted sum of squares: the fit leaves no residual."""
+        squares = (np.asarray(rotated) ** 2) @ self.weights
+        return np.repeat(squares[:, None], np.size(alphas), axis=1)
+
+    def edf(self, alphas):
+        return np.full(np.shape(alphas), float(self.degree + 1))
+
+
 class _Problem:
     """The smoothing problem on the fitted grid: basis values, weights,
     penalty and their diagonalisations. Rebuilt on demand, never stored."""
 
     def __init__(self, estimator, grid, penalized):
+        self.grid = grid
         self.basis = basis_for(estimator, grid, cap=not penalized)
-        self.weights = quadrature_weights(grid, "trapezoid")
+        self.weights = quadrature_weights(grid, estimator.quadrature)
         self.phi = self.basis.evaluate(grid)
         self.penalty = (
             _roughness(self.basis, estimator.penalty_order) if penalized else None
+        )
+        # functions the penalty leaves free (0 without a penalty: then every
+        # coefficient needs the data, and too few values are an error)
+        self.null_dimension = (
+            _unpenalized_dimension(self.basis, estimator.penalty_order)
+            if penalized else 0
         )
 
     def path(self, weights):
@@ -187,9 +227,23 @@ class _Problem:
             )
         observed = ~np.isnan(flagged)
         patterns, inverse = np.unique(observed, axis=0, return_inverse=True)
+        null = self.null_dimension
         for p, pattern in enumerate(patterns):
             group = rows[inverse.ravel() == p]
             w_p = w * pattern
+            X_p = np.where(pattern, flagged[inverse.ravel() == p], 0.0)
+            if pattern.sum() < null:
+                low = _LowOrderFit(self, pattern)
+                warnings.warn(
+                    f"Row(s) {group.tolist()} of X have {int(pattern.sum())} "
+                    f"observed value(s), too few to fix the {null} functions the "
+                    f"roughness penalty leaves free; they get the polynomial of "
+                    f"degree {low.degree} those values determine.",
+                    UserWarning, stacklevel=4,
+                )
+                yield (group, X_p, _weighted_squares(X_p, w_p), low,
+                       int(pattern.sum()), float(w_p.sum()))
+                continue
             try:
                 path = self.path(w_p)
             except NotIdentifiableError as exc:
@@ -199,13 +253,13 @@ class _Problem:
                     f"this basis with this penalty. Remove the row, fill in "
                     f"values, or use a smaller n_basis or a positive alpha."
                 ) from exc
-            X_p = np.where(pattern, flagged[inverse.ravel() == p], 0.0)
             yield (group, X_p @ self.rotation(path, w_p),
                    _weighted_squares(X_p, w_p), path, int(pattern.sum()),
                    float(w_p.sum()))
 
 
-class CurveSmoother(TransformerMixin, BaseEstimator):
+@fill_doc
+class CurveSmoother(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
     """Smooth sampled curves with a roughness penalty chosen by GCV or given.
 
     Each row of ``X`` is a curve sampled on a grid, possibly with missing
@@ -214,9 +268,9 @@ class CurveSmoother(TransformerMixin, BaseEstimator):
 
     ``sum_j w_j (x_j - f(t_j))^2 + alpha * int (D^q f)^2``,
 
-    with spacing (trapezoid) weights ``w_j`` and ``q = penalty_order``, and
+    with quadrature weights ``w_j`` (``quadrature``) and ``q = penalty_order``, and
     ``f`` (or its derivative of order ``derivative``) is returned on
-    ``output_grid``. The data term approximates ``int (x - f)^2``, so
+    ``eval_points``. The data term approximates ``int (x - f)^2``, so
     ``alpha`` means the same thing whatever the number or spacing of the
     grid points, and results agree across samplings of the same curves.
 
@@ -227,21 +281,6 @@ class CurveSmoother(TransformerMixin, BaseEstimator):
 
     Parameters
     ----------
-    basis : {"bspline", "fourier", "legendre"}, default="bspline"
-        Basis system for the smoothed curves. Fourier is periodic on the
-        grid's domain; Legendre polynomials are shifted to it.
-    n_basis : int, default=None
-        Number of basis functions. None means the basis' default (20
-        B-splines, 21 Fourier functions, 12 Legendre polynomials) capped by
-        the number of grid points. With a penalty it may exceed the number of
-        grid points; with ``alpha=0`` it may not.
-    degree : int, default=3
-        Degree of the B-splines (3: cubic). Ignored by the other bases.
-    knots : array-like of shape (n_knots,), default=None
-        Interior knots of the B-splines, strictly inside the domain; None
-        means evenly spaced. When given, ``n_basis`` follows from it. Knots
-        at every interior grid point with ``degree=3`` and
-        ``penalty_order=2`` give the cubic smoothing spline.
     alpha : float >= 0 or "gcv", default="gcv"
         Weight of the roughness penalty, or ``"gcv"`` to choose it from
         ``alphas`` by generalized cross-validation. 0 means least squares
@@ -254,25 +293,23 @@ class CurveSmoother(TransformerMixin, BaseEstimator):
     per_curve : bool, default=False
         With ``alpha="gcv"``, choose alpha for each curve separately at
         transform time instead of once at fit.
-    penalty_order : int, default=2
-        Derivative order ``q`` of the roughness penalty ``int (D^q f)^2``.
+    %(basis)s
     derivative : int, default=0
         Order of the derivative of the smoothed curve that :meth:`transform`
         returns (1 for rates, such as a cooling rate in degrees per unit of
         the grid). At most the basis' smoothness (the degree for B-splines).
-    output_grid : array-like of shape (n_outputs,), default=None
+    eval_points : array-like of shape (n_outputs,), default=None
         Points at which :meth:`transform` evaluates the smoothed curves
         (resampling); strictly increasing and inside the fitted grid's
         domain. None means the fitted grid.
-    grid : array-like of shape (n_features,), default=None
-        Sampling points of the columns of ``X``. None means the numeric
-        column labels of a DataFrame, else evenly spaced points on [0, 1].
+    %(grid)s
+    %(quadrature)s
 
     Attributes
     ----------
     grid_ : ndarray of shape (n_features,)
         The grid used at fit.
-    output_grid_ : ndarray of shape (n_outputs,)
+    eval_points_ : ndarray of shape (n_outputs,)
         Points at which :meth:`transform` evaluates the curves.
     n_basis_ : int
         Number of basis functions.
@@ -295,14 +332,9 @@ class CurveSmoother(TransformerMixin, BaseEstimator):
         coefficients of its smooth at ``alpha_``.
     evaluation_ : ndarray of shape (n_outputs, n_basis_)
         Values (or derivatives of order ``derivative``) of the basis
-        functions at ``output_grid_``.
-    n_samples_seen_ : int
-        Number of curves fitted (by :meth:`fit`, or by all calls of
-        :meth:`partial_fit` since the first).
-    n_features_in_ : int
-        Number of grid points seen during fit.
-    feature_names_in_ : ndarray of shape (n_features_in_,)
-        Column names of ``X`` when they are all strings.
+        functions at ``eval_points_``.
+    %(n_samples_seen)s
+    %(curve_input_attributes)s
 
     See Also
     --------
@@ -313,6 +345,9 @@ class CurveSmoother(TransformerMixin, BaseEstimator):
 
     Notes
     -----
+    Interior knots at every interior grid point with ``degree=3`` and
+    ``penalty_order=2`` give the cubic smoothing spline.
+
     All candidate alphas and all curves share one simultaneous
     diagonalisation of the penalized problem (Demmler and Reinsch, 1975) per
     pattern of missing values, so GCV for ``n`` curves of ``m`` points with
@@ -368,7 +403,7 @@ class CurveSmoother(TransformerMixin, BaseEstimator):
 
     The cooling rate at 7.5 h (degrees C per hour) against the true one:
 
-    >>> rates = CurveSmoother(grid=t, derivative=1, output_grid=[7.5]).fit(X)
+    >>> rates = CurveSmoother(grid=t, derivative=1, eval_points=[7.5]).fit(X)
     >>> np.round(rates.transform(X) / (-118 * np.pi), 1)
     array([[1.],
            [1.],
@@ -382,44 +417,18 @@ class CurveSmoother(TransformerMixin, BaseEstimator):
     _accepts_dask = True
 
     _parameter_constraints = {
-        "basis": [StrOptions(set(BASES))],
-        "n_basis": [Interval(Integral, 1, None, closed="left"), None],
-        "degree": [Interval(Integral, 0, None, closed="left")],
-        "knots": ["array-like", None],
+        **BASIS_CONSTRAINTS,
         "alpha": [Interval(Real, 0, None, closed="left"), StrOptions({"gcv"})],
         "alphas": ["array-like", Interval(Integral, 1, None, closed="left"), None],
         "per_curve": ["boolean"],
-        "penalty_order": [Interval(Integral, 0, None, closed="left")],
         "derivative": [Interval(Integral, 0, None, closed="left")],
-        "output_grid": ["array-like", None],
-        "grid": ["array-like", None],
+        "eval_points": ["array-like", None],
     }
 
-    def __init__(
-        self,
-        basis="bspline",
-        n_basis=None,
-        degree=3,
-        knots=None,
-        alpha="gcv",
-        alphas=None,
-        per_curve=False,
-        penalty_order=2,
-        derivative=0,
-        output_grid=None,
-        grid=None,
-    ):
-        self.basis = basis
-        self.n_basis = n_basis
-        self.degree = degree
-        self.knots = knots
-        self.alpha = alpha
-        self.alphas = alphas
-        self.per_curve = per_curve
-        self.penalty_order = penalty_order
-        self.derivative = derivative
-        self.output_grid = output_grid
-        self.grid = grid
+    def __init__(self, alpha="gcv", *, alphas=None, per_curve=False, basis="bspline",
+                 n_basis=None, degree=3, interior_knots=None, penalty_order=2,
+                 derivative=0, eval_points=None, grid=None, quadrature="trapezoid"):
+        store_init_params(self, locals())
 
     def __sklearn_tags__(self):
         tags = super().__sklearn_tags__()
@@ -428,50 +437,11 @@ class CurveSmoother(TransformerMixin, BaseEstimator):
 
     # -- fitting: grid-only setup, additive statistics, solve ----------------
 
-    def fit(self, X, y=None):
-        """Choose alpha (if ``alpha="gcv"``) and build the smoothing operator.
-
-        Parameters
-        ----------
-        X : array-like of shape (n_samples, n_features)
-            Curves, one per row, sampled on the grid; NaN marks a missing
-            value.
-        y : None
-            Ignored.
-
-        Returns
-        -------
-        self : object
-            Fitted smoother.
-        """
-        vars(self).pop("n_samples_seen_", None)  # start afresh: fit is a first batch
-        return self.partial_fit(X)
-
-    def partial_fit(self, X, y=None):
-        """Add a batch of curves to the pooled GCV statistics and refit.
-
-        The shared alpha is chosen from statistics summed over all batches
-        so far, so the fit equals :meth:`fit` on all of them. The first batch
-        fixes the grid and the candidate alphas.
-
-        Parameters
-        ----------
-        X : array-like or dask array of shape (n_samples, n_features)
-            A batch of curves on the grid of the first; NaN marks a missing
-            value.
-        y : None
-            Ignored; accepted for pipeline compatibility.
-
-        Returns
-        -------
-        self : CurveSmoother
-            The smoother, fitted on all batches so far.
-        """
-        first, X = validate_partial(self, X, allow_nan=True)
+    def _validate_batch(self, X, y, sample_weight, first):
+        X = validate_curves(self, X, reset=first, allow_nan=True)
         if first:
             self._setup()
-        stats = compute_statistics(self._statistics, X)
-        return self._solve(running_statistics(self, stats, first, X.shape[0]))
+        return (X,)
 
     def _setup(self):
         """Everything that depends on the parameters and grid only."""
@@ -483,20 +453,20 @@ class CurveSmoother(TransformerMixin, BaseEstimator):
             )
         problem = self._problem()
         basis = problem.basis
-        if self.output_grid is None:
-            self.output_grid_ = self.grid_.copy()
+        if self.eval_points is None:
+            self.eval_points_ = self.grid_.copy()
         else:
-            out = _check_output_grid(self.output_grid)
+            out = _check_eval_points(self.eval_points)
             a, b = basis.domain
             tol = 1e-12 * max(1.0, abs(a), abs(b))
             if out[0] < a - tol or out[-1] > b + tol:
                 raise ValueError(
-                    f"output_grid must lie inside the fitted grid's domain "
+                    f"eval_points must lie inside the fitted grid's domain "
                     f"[{a}, {b}]; got points in [{out[0]}, {out[-1]}]. "
                     "Extrapolation is not supported."
                 )
-            self.output_grid_ = out
-        self.evaluation_ = basis.evaluate(self.output_grid_, self.derivative)
+            self.eval_points_ = out
+        self.evaluation_ = basis.evaluate(self.eval_points_, self.derivative)
         self.n_basis_ = basis.n_basis
         self.alphas_ = self._candidates(basis)
 
@@ -525,10 +495,10 @@ class CurveSmoother(TransformerMixin, BaseEstimator):
     def _statistics(self, X):
         """Additive GCV statistics of the curves in X, for every candidate.
 
-        Sums over curves (so chunks of rows combine with
-        :func:`skfunc._penalized.merge`): weighted residual sums of squares
-        ``rss`` and effective degrees of freedom ``edf`` per candidate, the
-        number of observed points ``n_obs`` and their total weight.
+        Keys ``rss``, ``edf`` (weighted residual sums of squares and effective
+        degrees of freedom per candidate, summed over curves), ``n_obs`` and
+        ``weight`` (observed points and their total weight): sums over
+        curves, merged key by key (:func:`skfunc._penalized.merge`).
         """
         zeros = np.zeros(self.alphas_.size)
         stats = [{"rss": zeros, "edf": zeros, "n_obs": 0, "weight": 0.0}]
@@ -565,7 +535,7 @@ class CurveSmoother(TransformerMixin, BaseEstimator):
     # -- transforming --------------------------------------------------------
 
     def transform(self, X):
-        """Smoothed curves (or their derivatives) on ``output_grid_``.
+        """Smoothed curves (or their derivatives) on ``eval_points_``.
 
         Parameters
         ----------
@@ -600,7 +570,7 @@ class CurveSmoother(TransformerMixin, BaseEstimator):
         Parameters
         ----------
         X : array-like of shape (n_samples, n_features)
-            Curves on the fitted grid; NaN marks a missing value.
+            Curves, as for :meth:`transform`.
 
         Returns
         -------
@@ -640,7 +610,7 @@ class CurveSmoother(TransformerMixin, BaseEstimator):
         """Names of the output columns: the output grid points.
 
         The input feature names when the output grid is the fitted grid and
-        X had string column names; otherwise each point of ``output_grid_``
+        X had string column names; otherwise each point of ``eval_points_``
         written as a number, so that a DataFrame output carries its grid in
         its column labels.
 
@@ -655,6 +625,6 @@ class CurveSmoother(TransformerMixin, BaseEstimator):
         """
         check_is_fitted(self)
         names = _check_feature_names_in(self, input_features, generate_names=False)
-        if self.output_grid is None and names is not None:
+        if self.eval_points is None and names is not None:
             return np.asarray(names, dtype=object)
-        return np.asarray([repr(float(t)) for t in self.output_grid_], dtype=object)
+        return np.asarray([repr(float(t)) for t in self.eval_points_], dtype=object)

@@ -114,7 +114,7 @@ class CurveBandDisplay(_Display):
     >>> from skfunc.datasets import make_kiln_firing
     >>> from skfunc.plotting import CurveBandDisplay
     >>> kiln = make_kiln_firing(30, random_state=0)
-    >>> display = CurveBandDisplay.from_data(kiln.data, grid=kiln.minutes)
+    >>> display = CurveBandDisplay.from_data(kiln.data, grid=kiln.grid)
     >>> len(display.curve_lines_)
     30
     """

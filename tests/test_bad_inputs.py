@@ -15,7 +15,8 @@ without an error never pass.
 
 The functions' table covers :mod:`skfunc.hilbert`, :mod:`skfunc.metrics` and
 :mod:`skfunc.persistence`; the estimators' table runs over
-``skfunc.ESTIMATORS``, so a new estimator is covered when it is exported.
+``skfunc.utils.all_estimators()`` with each estimator's data factory from
+``tests/conftest.py``, so a new estimator is covered when it is exported.
 Known failures are listed in ``KNOWN_ESTIMATOR_FAILURES`` with the reason;
 they are strict expected failures, so a fix makes them fail until removed.
 """
@@ -26,13 +27,13 @@ import warnings
 import joblib
 import numpy as np
 import pytest
-from _estimator_data import fit_data
+from conftest import make_case
 from sklearn.base import clone
 from sklearn.linear_model import Ridge
 
-import skfunc
 from skfunc import hilbert, metrics
 from skfunc.persistence import load_model, save_model
+from skfunc.utils import all_estimators
 
 CLEAR = "clear error naming the argument"
 UNNAMED = "error of the right type whose message does not name the argument"
@@ -329,9 +330,14 @@ def _n_basis_huge(est, X, y):
     return lambda: _fit(est, X, y), ["n_basis"]
 
 
-def _scaled(factor):
-    """Valid data scaled by ``factor``: expected to fit with finite results."""
+def _scaled(factor, defaults=False):
+    """Valid data scaled by ``factor``: expected to fit with finite results
+    (with the estimator's default hyperparameters, grids aside, if
+    ``defaults``)."""
     def case(est, X, y):
+        if defaults:
+            est = type(est)(**{k: v for k, v in est.get_params().items()
+                               if k in ("grid", "response_grid")})
         if y is not None and np.issubdtype(np.asarray(y).dtype, np.floating):
             y = y * factor
         return lambda: _fit_and_use(est, X * factor, y), None
@@ -368,15 +374,18 @@ BAD_ESTIMATOR_INPUTS = {
     "confidence_band-level-string": _band_level_string,
     "n_basis-huge": _n_basis_huge,
     "scaled-1e150": _scaled(1e150),
+    "scaled-1e150-defaults": _scaled(1e150, defaults=True),
     "scaled-1e-170": _scaled(1e-170),
 }
 
 #: (estimator, case) -> why it fails today. Strict expected failures: remove an
 #: entry when the estimator is fixed.
-_ALL = [cls.__name__ for cls in skfunc.ESTIMATORS]
+_ALL = [name for name, _ in all_estimators()]
 _SOLVERS = ["CurveSmoother", "FunctionOnScalarRidge", "FunctionOnFunctionRidge",
-            "FunctionalRidge", "FunctionalRidgeCV", "FunctionalLogisticRegression"]
-_WEIGHTED = ["FunctionOnScalarRidge", "FunctionOnFunctionRidge", "FunctionalRidge",
+            "ConcurrentFunctionRidge", "FunctionalRidge", "FunctionalRidgeCV",
+            "FunctionalLogisticRegression"]
+_WEIGHTED = ["FunctionOnScalarRidge", "FunctionOnFunctionRidge",
+             "ConcurrentFunctionRidge", "FunctionalRidge",
              "FunctionalRidgeCV", "FunctionalLogisticRegression"]
 _SCALAR_OUT = ["FunctionalRidge", "FunctionalRidgeCV", "FunctionalLogisticRegression"]
 KNOWN_ESTIMATOR_FAILURES = {
@@ -396,11 +405,13 @@ KNOWN_ESTIMATOR_FAILURES = {
        "NotIdentifiableError for valid curves near 1e-170" for name in _SCALAR_OUT},
     ("FunctionalPCA", "scaled-1e-170"): "'all curves are identical' for curves whose "
     "variance underflows",
-    ("FunctionalRidge", "scaled-1e150"): "NaN predictions without an error for curves "
-    "and responses near 1e150",
-    **{(name, "confidence_band-level-string"): "level='95%' compared with numbers: "
-       "Python's TypeError '<' not supported between 'int' and 'str'"
-       for name in ["FunctionOnScalarRidge", "FunctionOnFunctionRidge"]},
+    ("FunctionalRidge", "scaled-1e150-defaults"): "NaN predictions without an "
+    "error for curves and responses near 1e150",
+    **{("ConcurrentFunctionRidge", case): "NotIdentifiableError for valid curves "
+       "scaled by 1e150 or 1e-170" for case in ["scaled-1e150", "scaled-1e-170",
+                                                 "scaled-1e150-defaults"]},
+    ("ConcurrentFunctionRidge", "sample_weight-negative"): "negative weights reach the "
+    "solver: NotIdentifiableError instead of the shared sample_weight rule",
     **{(name, "y-sparse"): "a sparse y gives numpy's 'setting an array element with "
        "a sequence'" for name in ["FunctionalRidge", "FunctionalRidgeCV"]},
     ("FunctionOnScalarRidge", "grid-nan"): "the message says 'grid', the parameter is "
@@ -410,13 +421,18 @@ KNOWN_ESTIMATOR_FAILURES = {
 }
 
 
-def _applies(estimator, case):
+#: the grid of the battery's curves
+GRID = np.linspace(0, 1, 41)
+
+
+def _applies(name, case):
     """False for cases about inputs the estimator does not take (weights for
     a transformer, a y for an unsupervised one)."""
+    estimator, _, y, _ = make_case(name, GRID)
     if case.startswith("sample_weight"):
         return _accepts_sample_weight(estimator)
     if case.startswith("y-"):
-        return fit_data(estimator)[1] is not None
+        return y is not None
     if case.startswith("confidence_band"):
         return hasattr(estimator, "confidence_band")
     return True
@@ -424,21 +440,19 @@ def _applies(estimator, case):
 
 def _estimator_params():
     params = []
-    for cls in skfunc.ESTIMATORS:
+    for name in _ALL:
         for case in BAD_ESTIMATOR_INPUTS:
-            if not _applies(cls(), case):
+            if not _applies(name, case):
                 continue
-            reason = KNOWN_ESTIMATOR_FAILURES.get((cls.__name__, case))
+            reason = KNOWN_ESTIMATOR_FAILURES.get((name, case))
             marks = [pytest.mark.xfail(strict=True, reason=reason)] if reason else []
-            params.append(pytest.param(cls, case, marks=marks,
-                                       id=f"{cls.__name__}-{case}"))
+            params.append(pytest.param(name, case, marks=marks, id=f"{name}-{case}"))
     return params
 
 
-@pytest.mark.parametrize("cls, case", _estimator_params())
-def test_estimator_bad_inputs(cls, case):
-    estimator = cls()
-    X, y = fit_data(estimator)
+@pytest.mark.parametrize("name, case", _estimator_params())
+def test_estimator_bad_inputs(name, case):
+    estimator, X, y, _ = make_case(name, GRID)
     call, names = BAD_ESTIMATOR_INPUTS[case](clone(estimator), X, y)
     _check(call, names or [], expected=ACCEPTED if names is None else CLEAR)
 

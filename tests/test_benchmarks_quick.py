@@ -1,6 +1,6 @@
 """Smoke run of every benchmark script in quick mode, through the runner.
 
-The figures themselves are recorded in docs/performance.md from full runs;
+The figures themselves are recorded in docs/performance.rst from full runs;
 this test only checks that each script runs to its table.
 """
 

@@ -18,7 +18,7 @@ FINE_MINUTES = np.linspace(0, 599, 2 * 599 * 2 + 1)  # quarter minutes
 def test_kiln_shapes_and_fields():
     kiln = make_kiln_firing(40, random_state=0)
     assert kiln.data.shape == (40, 600)
-    np.testing.assert_array_equal(kiln.minutes, np.arange(600))
+    np.testing.assert_array_equal(kiln.grid, np.arange(600))
     assert kiln.settings.shape == (40, 4)
     assert kiln.settings_names == [
         "peak_setpoint_c", "ramp_rate_c_per_min", "soak_min", "load_mass_kg"
@@ -64,7 +64,7 @@ def test_kiln_late_starts_faults_and_dropouts():
 def test_kiln_strength_follows_the_stated_functional_model():
     # The docstring's model, integrated with scipy's Simpson rule on a finer
     # grid than the generator's: strength = intercept + int beta T dt + noise.
-    kiln = make_kiln_firing(30, minutes=FINE_MINUTES, strength_noise=0.0,
+    kiln = make_kiln_firing(30, grid=FINE_MINUTES, strength_noise=0.0,
                             random_state=3)
     integral = simpson(kiln.true_curves * kiln.coef_function, x=FINE_MINUTES)
     np.testing.assert_allclose(kiln.strength, kiln.intercept + integral, atol=1e-3)
@@ -73,7 +73,7 @@ def test_kiln_strength_follows_the_stated_functional_model():
 
 def test_kiln_noise_and_crack_models_with_statsmodels():
     minutes = np.linspace(0, 599, 300)
-    kiln = make_kiln_firing(3000, minutes=minutes, random_state=4)
+    kiln = make_kiln_firing(3000, grid=minutes, random_state=4)
     # OLS of strength on the true integral (statsmodels): slope 1, noise SD 1
     z = simpson(kiln.true_curves * kiln.coef_function, x=minutes)
     ols = sm.OLS(kiln.strength, sm.add_constant(z)).fit()
@@ -89,7 +89,7 @@ def test_kiln_noise_and_crack_models_with_statsmodels():
 
 def test_kiln_same_runs_at_any_resolution():
     every_minute = make_kiln_firing(20, random_state=5)
-    every_5 = make_kiln_firing(20, minutes=np.arange(0, 600, 5), random_state=5)
+    every_5 = make_kiln_firing(20, grid=np.arange(0, 600, 5), random_state=5)
     np.testing.assert_allclose(every_5.true_curves, every_minute.true_curves[:, ::5])
     np.testing.assert_allclose(every_5.strength, every_minute.strength)
     np.testing.assert_array_equal(every_5.cracked, every_minute.cracked)
@@ -103,16 +103,16 @@ def test_kiln_as_frame():
     assert list(kiln.data.columns[:3]) == [0, 1, 2]
     assert isinstance(kiln.target, pd.Series) and kiln.target.name == "strength"
     assert list(kiln.settings.columns) == kiln.settings_names
-    half = make_kiln_firing(3, minutes=[0, 0.5, 599], as_frame=True, random_state=0)
+    half = make_kiln_firing(3, grid=[0, 0.5, 599], as_frame=True, random_state=0)
     assert list(half.data.columns) == [0, 0.5, 599]
 
 
 @pytest.mark.parametrize(
     "kwargs, match",
     [
-        ({"minutes": [0, 300, 700]}, "minutes must lie within"),
-        ({"minutes": [0, 5, 5]}, "strictly increasing"),
-        ({"n_runs": 0}, "n_runs"),
+        ({"grid": [0, 300, 700]}, "grid must lie within"),
+        ({"grid": [0, 5, 5]}, "strictly increasing"),
+        ({"n_samples": 0}, "n_samples"),
         ({"dropout_fraction": 1.5}, "dropout_fraction"),
         ({"strength_noise": -1}, "strength_noise"),
     ],

@@ -1,76 +1,55 @@
 """scikit-learn's estimator checks over every public estimator.
 
-The list comes from ``skfunc.ESTIMATORS``, so an estimator is covered by
-being exported. Expected failures are listed per estimator with the reason.
+The list comes from ``skfunc.utils.all_estimators()``, so an estimator is
+covered by being exported. Expected failures are listed per estimator with
+the reason.
 """
 
 from sklearn.utils.estimator_checks import parametrize_with_checks
 
-import skfunc
+from skfunc.utils import all_estimators
 
-#: Curve-response regressors (multi-output only) get from sklearn's checks a
-#: target reshaped to ONE column (``_enforce_estimator_tags_y`` in
-#: sklearn/utils/estimator_checks.py), i.e. a response "curve" of one grid
-#: point, which they reject by design. tests/test_function_response.py re-runs
-#: every check listed here with a 3-column target (``test_sklearn_checks_with_
-#: curve_targets``), so they are still exercised.
-CURVE_TARGET_CHECKS = [
-    "check_all_zero_sample_weights_error",
-    "check_dict_unchanged",
-    "check_dont_overwrite_parameters",
-    "check_dtype_object",
-    "check_estimators_dtypes",
-    "check_estimators_fit_returns_self",
-    "check_estimators_nan_inf",
-    "check_estimators_overwrite_params",
-    "check_estimators_pickle",
-    "check_f_contiguous_array_estimator",
-    "check_fit2d_1sample",
-    "check_fit2d_predict1d",
-    "check_fit_check_is_fitted",
-    "check_fit_idempotent",
-    "check_fit_score_takes_y",
-    "check_methods_sample_order_invariance",
-    "check_methods_subset_invariance",
-    "check_n_features_in",
-    "check_n_features_in_after_fitting",
-    "check_pipeline_consistency",
-    "check_positive_only_tag_during_fit",
-    "check_readonly_memmap_input",
-    "check_regressors_int",
-    "check_regressors_no_decision_function",
-    "check_regressors_train",
-    "check_sample_weight_equivalence_on_dense_data",
-    "check_sample_weights_list",
-    "check_sample_weights_not_overwritten",
-    "check_sample_weights_shape",
-]
-_ONE_POINT_Y = (
-    "sklearn reshapes y to one column: a response curve needs >= 2 grid points; "
-    "re-run with 3-column y in tests/test_function_response.py"
-)
-_CURVE_RESPONSE_FAILURES = {
-    **{check: _ONE_POINT_Y for check in CURVE_TARGET_CHECKS},
-    "check_sample_weights_pandas_series": (
-        "builds a one-column DataFrame y itself: a response curve needs >= 2 "
-        "grid points (pandas weights are tested in test_function_response.py)"
-    ),
-    "check_sample_weights_not_an_array": (
-        "builds a one-column y itself: a response curve needs >= 2 grid points"
-    ),
-}
+#: checks that build a one-column y themselves (scikit-learn,
+#: utils/estimator_checks.py); ConcurrentFunctionRidge pairs y(t) with X(t),
+#: so y needs one column per column of X
+_ONE_COLUMN_Y = (
+    "check_all_zero_sample_weights_error check_dict_unchanged "
+    "check_dont_overwrite_parameters check_dtype_object check_estimators_dtypes "
+    "check_estimators_fit_returns_self check_estimators_nan_inf "
+    "check_estimators_overwrite_params check_estimators_pickle "
+    "check_estimators_pickle(readonly_memmap=True) check_f_contiguous_array_estimator "
+    "check_fit2d_1sample check_fit2d_predict1d check_fit_check_is_fitted "
+    "check_fit_idempotent check_fit_score_takes_y "
+    "check_methods_sample_order_invariance check_methods_subset_invariance "
+    "check_n_features_in check_n_features_in_after_fitting "
+    "check_pipeline_consistency check_positive_only_tag_during_fit "
+    "check_readonly_memmap_input check_regressor_data_not_an_array "
+    "check_regressor_multioutput check_regressors_int "
+    "check_regressors_no_decision_function check_regressors_train "
+    "check_regressors_train(readonly_memmap=True) "
+    "check_regressors_train(readonly_memmap=True,X_dtype=float32) "
+    "check_sample_weight_equivalence_on_dense_data check_sample_weights_list "
+    "check_sample_weights_not_an_array check_sample_weights_not_overwritten "
+    "check_sample_weights_pandas_series check_sample_weights_shape"
+).split()
 
-_PICKLE_NAN = (
-    "the check fits 2-point curves with NaN put in at random, leaving rows with "
-    "a single observed value; one value cannot determine the straight line that "
-    "a second-derivative penalty leaves free, and the issue asks for a clear "
-    "error naming such a row. Pickling (with NaN) is tested in test_smoother.py."
-)
 #: {estimator class name: {check name: why it is expected to fail}}
 EXPECTED_FAILURES = {
-    "CurveSmoother": {
-        "check_estimators_pickle": _PICKLE_NAN,
-        "check_estimators_pickle(readonly_memmap=True)": _PICKLE_NAN,
+    "ConcurrentFunctionRidge": {
+        check: (
+            "the concurrent model pairs y(t) with X(t) on one grid, so y needs "
+            "as many columns as X; the check builds a one-column y. The same "
+            "behaviours run in tests/test_common.py with y on X's grid."
+        )
+        for check in _ONE_COLUMN_Y
+    },
+    "FunctionOnFunctionRidge": {
+        "check_regressor_data_not_an_array": (
+            "The check's DataFrame has integer column labels 0..9, which define "
+            "the input grid 0..9 instead of [0, 1]; one alpha weighs the "
+            "roughness in s against the roughness in t, so a longer s domain is "
+            "a different balance and GCV picks a different fit."
+        ),
     },
     "FunctionalRidge": {
         "check_regressor_data_not_an_array": (
@@ -89,26 +68,11 @@ EXPECTED_FAILURES = {
             "zero-weight rows depend on where the iterations stop."
         ),
     },
-    "FunctionOnScalarRidge": {
-        **_CURVE_RESPONSE_FAILURES,
-        "check_regressor_data_not_an_array": _ONE_POINT_Y,
-        "check_fit2d_1feature": _ONE_POINT_Y,
-        "check_estimators_partial_fit_n_features": _ONE_POINT_Y,
-    },
-    "FunctionOnFunctionRidge": {
-        **_CURVE_RESPONSE_FAILURES,
-        "check_regressor_data_not_an_array": (
-            "a DataFrame's integer column labels are the sampling points by "
-            "design (DESIGN.md), so the DataFrame fit uses grids 0..m-1 instead "
-            "of [0, 1] and a different s/t penalty balance; equal when the grids "
-            "are passed (test_dataframe_labels_are_grids)"
-        ),
-    },
 }
 
 
 def _instances():
-    return [cls() for cls in skfunc.ESTIMATORS]
+    return [cls() for _, cls in all_estimators()]
 
 
 @parametrize_with_checks(

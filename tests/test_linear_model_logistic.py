@@ -169,23 +169,3 @@ def test_scalar_covariates_equal_sklearn(rng):
     np.testing.assert_allclose(
         ours.predict_proba(np.hstack([X, S])), ref.predict_proba(Z), atol=1e-9
     )
-
-
-def test_resolution_invariance(rng):
-    # Same curves on 201, 1001 and uneven 201-point grids: coefficient
-    # functions and probabilities agree with the 1001-point fit within 1e-3.
-    scores = curve_scores(300, rng)
-    y = (rng.uniform(size=300) < expit(2 * integral_with_beta(scores))).astype(int)
-    even = np.linspace(0, 1, 201)
-    uneven = even + np.r_[0, rng.uniform(-0.4, 0.4, size=199), 0] * even[1]
-
-    def fit(t):
-        X = curves_on(scores, t)
-        est = FunctionalLogisticRegression(alpha=1e-4, grid=t).fit(X, y)
-        return est.basis_coef_, est.predict_proba(X)
-
-    coef_ref, proba_ref = fit(np.linspace(0, 1, 1001))
-    for t in (even, uneven):
-        coef, proba = fit(t)
-        assert np.linalg.norm(coef - coef_ref) <= 1e-3 * np.linalg.norm(coef_ref)
-        assert np.abs(proba - proba_ref).max() <= 1e-3

@@ -1,99 +1,32 @@
-"""Every exported estimator round-trips through joblib and skops.io with
-identical outputs; damaged files and overwrites fail clearly.
-
-The estimator list is ``skfunc.ESTIMATORS``, so an estimator is covered as
-soon as it is exported.
+"""Saving and loading: pipelines with skfunc steps load trusting only skfunc;
+damaged files and overwrites fail clearly. (The round trip of every exported
+estimator is in tests/test_common.py.)
 """
 
 import threading
 
 import numpy as np
 import pytest
-from sklearn.base import clone, is_classifier, is_regressor
+from conftest import smooth_curves
+from sklearn.base import clone
 from sklearn.linear_model import Ridge
 from sklearn.pipeline import make_pipeline
 
-import skfunc
-from skfunc.datasets import make_smooth_regression
+from skfunc import BasisFeatures
 from skfunc.persistence import (
     ModelFileError,
     _is_skfunc_estimator,
     load_model,
     save_model,
-    skfunc_types,
 )
 
 sio = pytest.importorskip("skops.io")
 
-METHODS = ("predict", "predict_proba", "decision_function", "transform",
-           "score_samples")
-
-
-def _curves():
-    X, y, _ = make_smooth_regression(60, grid=41, noise=0.1, random_state=0)
-    return X, y
-
-
-def _fit_data(estimator):
-    """(X, y) suited to the estimator, read from its parameters: a
-    ``response_grid`` means curves out, no ``grid`` means scalars in."""
-    X, y = _curves()
-    params = estimator.get_params()
-    if "response_grid" in params:
-        if "grid" not in params:
-            return np.random.default_rng(0).normal(size=(X.shape[0], 3)), X
-        return X, np.cumsum(X, axis=1)[:, ::2]
-    if is_classifier(estimator):
-        return X, (y > np.median(y)).astype(int)
-    if is_regressor(estimator):
-        return X, y
-    return X, None
-
-
-def _outputs(estimator, X):
-    out = {}
-    for name in METHODS:
-        if hasattr(estimator, name):
-            out[name] = getattr(estimator, name)(X)
-    return out
-
-
-def _fitted_state(estimator):
-    return {k: v for k, v in vars(estimator).items() if k.endswith("_")}
-
-
-@pytest.fixture(params=skfunc.ESTIMATORS, ids=lambda cls: cls.__name__)
-def fitted(request):
-    estimator = request.param()
-    X, y = _fit_data(estimator)
-    return estimator.fit(X, y), X
-
-
-@pytest.mark.parametrize("suffix", [".joblib", ".skops"])
-def test_round_trip_gives_identical_outputs(fitted, suffix, tmp_path):
-    estimator, X = fitted
-    path = save_model(estimator, tmp_path / f"model{suffix}")
-    if suffix == ".skops":
-        # the fitted state holds only arrays and plain values: the one type
-        # skops does not trust by default is the estimator class itself
-        cls = type(estimator)
-        expected = [f"{cls.__module__}.{cls.__name__}"]
-        assert sio.get_untrusted_types(file=path) == expected
-        loaded = sio.load(path, trusted=skfunc_types(path))
-    else:
-        loaded = load_model(path)
-    assert type(loaded) is type(estimator)
-    assert repr(loaded) == repr(estimator)  # same hyperparameters
-    np.testing.assert_equal(_fitted_state(loaded), _fitted_state(estimator))
-    before, after = _outputs(estimator, X), _outputs(loaded, X)
-    assert before.keys() == after.keys() and before
-    for name in before:
-        np.testing.assert_array_equal(after[name], before[name], err_msg=name)
 
 
 def test_pipeline_with_skfunc_step_loads_trusting_only_skfunc(tmp_path):
-    X, y = _curves()
-    pipe = make_pipeline(clone(skfunc.ESTIMATORS[0]()), Ridge()).fit(X, y)
+    X, y = smooth_curves(np.linspace(0, 1, 41))
+    pipe = make_pipeline(clone(BasisFeatures()), Ridge()).fit(X, y)
     path = save_model(pipe, tmp_path / "pipe.skops")
     loaded = load_model(path)
     np.testing.assert_array_equal(loaded.predict(X), pipe.predict(X))
@@ -113,7 +46,7 @@ class NotTrusted(Ridge):
 
 
 def test_skops_refuses_untrusted_types(tmp_path):
-    X, y = _curves()
+    X, y = smooth_curves(np.linspace(0, 1, 41))
     path = save_model(NotTrusted().fit(X, y), tmp_path / "other.skops")
     with pytest.raises(ModelFileError, match="NotTrusted.*trusted=") as info:
         load_model(path)
@@ -124,7 +57,7 @@ def test_skops_refuses_untrusted_types(tmp_path):
 
 @pytest.mark.parametrize("suffix", [".joblib", ".skops"])
 def test_existing_file_is_not_overwritten_without_force(tmp_path, suffix):
-    X, y = _curves()
+    X, y = smooth_curves(np.linspace(0, 1, 41))
     path = tmp_path / f"model{suffix}"
     path.write_bytes(b"precious")
     with pytest.raises(FileExistsError, match="force"):
@@ -138,8 +71,8 @@ def test_existing_file_is_not_overwritten_without_force(tmp_path, suffix):
 @pytest.mark.parametrize("suffix", [".joblib", ".skops"])
 @pytest.mark.parametrize("damage", ["truncate", "flip", "empty", "text"])
 def test_damaged_file_fails_with_clear_error(tmp_path, suffix, damage):
-    X, y = _curves()
-    path = save_model(make_pipeline(clone(skfunc.ESTIMATORS[0]()), Ridge()).fit(X, y),
+    X, y = smooth_curves(np.linspace(0, 1, 41))
+    path = save_model(make_pipeline(clone(BasisFeatures()), Ridge()).fit(X, y),
                       tmp_path / f"model{suffix}")
     data = bytearray(path.read_bytes())
     if damage == "truncate":
@@ -183,7 +116,7 @@ def test_two_concurrent_saves_without_force_one_fails(tmp_path, monkeypatch):
         return real_dump(*args, **kwargs)
 
     monkeypatch.setattr(persistence.joblib, "dump", dump_after_both_checked)
-    X, y = _curves()
+    X, y = smooth_curves(np.linspace(0, 1, 41))
     path = tmp_path / "model.joblib"
     outcomes = {}
 
@@ -242,7 +175,7 @@ def test_file_without_a_model_is_a_model_file_error(tmp_path, suffix, content):
 
 
 def test_trusted_must_be_a_list_of_names(tmp_path):
-    X, y = _curves()
+    X, y = smooth_curves(np.linspace(0, 1, 41))
     path = save_model(NotTrusted().fit(X, y), tmp_path / "other.skops")
     name = sio.get_untrusted_types(file=path)[0]
     with pytest.raises(TypeError, match=r"trusted must be a list of type names, such as \["):

@@ -48,7 +48,7 @@ def _contains_points(vertices, x, y):
 def test_curve_band_draws_numpy_mean_and_two_sd():
     kiln = make_kiln_firing(40, dropout_fraction=0.5, random_state=0)
     X = kiln.data[:, ::10]
-    grid = kiln.minutes[::10]
+    grid = kiln.grid[::10]
     display = CurveBandDisplay.from_data(X, grid=grid, max_curves=5)
     mean, sd = np.nanmean(X, axis=0), np.nanstd(X, axis=0, ddof=1)  # numpy
     assert len(display.curve_lines_) == 5
@@ -63,7 +63,7 @@ def test_curve_band_draws_numpy_mean_and_two_sd():
 
 def test_curve_band_reads_the_grid_from_dataframe_labels():
     pytest.importorskip("pandas")
-    kiln = make_kiln_firing(10, minutes=np.arange(0, 600, 30), as_frame=True,
+    kiln = make_kiln_firing(10, grid=np.arange(0, 600, 30), as_frame=True,
                             random_state=1)
     _, ax = plt.subplots()
     display = CurveBandDisplay.from_data(kiln.data, ax=ax, n_sd=1)
@@ -230,15 +230,15 @@ def test_real_functional_pca_if_available():
 def test_function_on_scalar_coefficients_on_the_response_grid():
     from skfunc.linear_model import FunctionOnScalarRidge
 
-    kiln = make_kiln_firing(60, minutes=np.arange(0, 600, 10), random_state=0)
-    est = FunctionOnScalarRidge(response_grid=kiln.minutes).fit(
+    kiln = make_kiln_firing(60, grid=np.arange(0, 600, 10), random_state=0)
+    est = FunctionOnScalarRidge(response_grid=kiln.grid).fit(
         kiln.settings, kiln.true_curves
     )
     display = CoefficientFunctionDisplay.from_estimator(est, target=3, level=0.9)
-    np.testing.assert_allclose(display.line_.get_xdata(), kiln.minutes)
+    np.testing.assert_allclose(display.line_.get_xdata(), kiln.grid)
     np.testing.assert_allclose(display.line_.get_ydata(), est.coef_function_[3])
     lower, upper = est.confidence_band(0.9)
-    assert _contains_points(_vertices(display.band_), kiln.minutes, upper[3])
+    assert _contains_points(_vertices(display.band_), kiln.grid, upper[3])
     with pytest.raises(ValueError, match="grid_ or response_grid_"):
         CoefficientFunctionDisplay.from_estimator(
             Fitted(coef_function_=np.ones(3), confidence_band=lambda level: (0, 0))

@@ -20,7 +20,7 @@ from sklearn.pipeline import Pipeline
 from threadpoolctl import threadpool_info, threadpool_limits
 
 from skfunc import BasisFeatures
-from skfunc._dask import compute_statistics
+from skfunc._blocks import compute_statistics
 
 
 def blas_threads():

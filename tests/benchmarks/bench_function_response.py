@@ -24,6 +24,7 @@ sys.path.insert(0, os.path.join(os.path.dirname(__file__), "..", ".."))
 from sklearn.linear_model import Ridge  # noqa: E402
 
 from skfunc.linear_model import (  # noqa: E402
+    ConcurrentFunctionRidge,
     FunctionOnFunctionRidge,
     FunctionOnScalarRidge,
 )
@@ -50,13 +51,13 @@ def scalar_case(n, p, m, repeat, rng):
     return base, ours
 
 
-def function_case(n, m, kind, repeat, rng):
+def function_case(n, m, cls, repeat, rng):
     s = np.linspace(0, 1, m)
     k = np.arange(1, 21)
     X = (rng.normal(size=(n, 20)) / k) @ np.sin(np.pi * np.outer(k, s))
     Y = X @ np.exp(-((s[:, None] - s) ** 2) / 0.05) / m + rng.normal(0, 0.1, (n, m))
     base = best_time(lambda: Ridge(alpha=1.0).fit(X, Y), repeat)
-    model = FunctionOnFunctionRidge(kind=kind)
+    model = cls()
     ours = best_time(lambda: model.fit(X, Y), repeat)
     return base, ours
 
@@ -75,9 +76,9 @@ def main(argv=None):
     base, ours = scalar_case(n, 5, m, args.repeat, rng)
     rows.append((f"FunctionOnScalarRidge {n}x5 -> {m} pts", "numpy.linalg.lstsq",
                  base, ours, 3.0))
-    for kind in ("integral", "concurrent"):
-        base, ours = function_case(n_f, m_f, kind, args.repeat, rng)
-        rows.append((f"FunctionOnFunctionRidge({kind}) {n_f}x{m_f} -> {m_f}",
+    for cls in (FunctionOnFunctionRidge, ConcurrentFunctionRidge):
+        base, ours = function_case(n_f, m_f, cls, args.repeat, rng)
+        rows.append((f"{cls.__name__} {n_f}x{m_f} -> {m_f}",
                      "sklearn Ridge (raw values)", base, ours, None))
     print(f"{'case':<48} {'baseline':<27} {'base s':>8} {'ours s':>8} "
           f"{'ratio':>6} {'target':>7}")

@@ -31,7 +31,7 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
 
-import skfunc  # noqa: E402
+from skfunc.utils import all_estimators  # noqa: E402
 
 M = 200  # grid points
 
@@ -53,7 +53,7 @@ CASES = {
     "BasisFeatures": (lambda cls, t: cls(n_basis=20, grid=t),
                       lambda est, X, s, S: est.fit(X)),
     "CurveSmoother": (lambda cls, t: cls(grid=t), lambda est, X, s, S: est.fit(X)),
-    "FunctionalPCA": (lambda cls, t: cls(n_components=5, n_basis=20, grid=t),
+    "FunctionalPCA": (lambda cls, t: cls(n_components=5, basis="bspline", n_basis=20, grid=t),
                       lambda est, X, s, S: est.fit(X)),
     "FunctionalRidge": (lambda cls, t: cls(grid=t),
                         lambda est, X, s, S: est.fit(X, s)),
@@ -66,7 +66,7 @@ TRANSFORMERS = ("BasisFeatures", "CurveSmoother", "FunctionalPCA")
 
 
 def available(names):
-    present = {cls.__name__: cls for cls in skfunc.ESTIMATORS}
+    present = dict(all_estimators())
     return [(name, present[name]) for name in names if name in present]
 
 

@@ -26,7 +26,7 @@ ROOT = HERE.parents[1]
 
 
 def machine():
-    """One line describing the machine, for the record in docs/performance.md."""
+    """One line describing the machine, for the record in docs/performance.rst."""
     import numpy as np
     from threadpoolctl import threadpool_info
 

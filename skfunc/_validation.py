@@ -1,24 +1,41 @@
-"""Machinery shared by the estimators: reading curves, building bases,
-chunked products.
+"""Validation shared by the estimators: curves and their grid, partial_fit
+batches, confidence levels and the basis parameters.
 
-Estimator classes stay thin: they validate with :func:`validate_curves`, build
-their basis with :func:`basis_for`, and apply fitted linear operators with
-:func:`chunked_matmul`.
+Estimator classes stay thin: they validate with :func:`validate_curves`, take
+their basis parameters' constraints from :data:`BASIS_CONSTRAINTS` and build
+their basis with :func:`basis_for`.
 """
 
+from numbers import Integral, Real
+
 import numpy as np
+from sklearn.utils._param_validation import Interval, StrOptions
 from sklearn.utils.validation import validate_data
 
 from ._bases import BASES, make_basis
-from ._dask import (  # noqa: F401  (CHUNK_VALUES is re-exported)
-    CHUNK_VALUES,
-    is_dask_array,
-    map_row_blocks,
-    matmul_block,
-    start_partial_fit,
-    validate_dask,
-)
-from ._grid import check_grid, grid_from_labels, resolve_grid
+from ._blocks import is_dask_array
+from ._dask import validate_dask
+from ._grid import QUADRATURES, check_grid, grid_from_labels, resolve_grid
+
+#: the parameters naming a basis and its roughness penalty, as scikit-learn
+#: parameter constraints; every estimator taking ``basis=`` uses these
+BASIS_CONSTRAINTS = {
+    "basis": [StrOptions(set(BASES))],
+    "n_basis": [Interval(Integral, 1, None, closed="left"), None],
+    "degree": [Interval(Integral, 0, None, closed="left")],
+    "interior_knots": ["array-like", None],
+    "penalty_order": [Interval(Integral, 0, None, closed="left")],
+    "grid": ["array-like", None],
+    "quadrature": [StrOptions(set(QUADRATURES))],
+}
+
+
+def check_level(level, name="level"):
+    """A confidence level in (0, 1) (e.g. 0.95), as a float."""
+    if (not isinstance(level, Real) or isinstance(level, bool)
+            or not 0 < level < 1):
+        raise ValueError(f"{name} must be in (0, 1), e.g. 0.95; got {level!r}.")
+    return float(level)
 
 
 def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
@@ -88,27 +105,33 @@ def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
         grid = getattr(estimator, "grid", None)
         estimator.grid_ = resolve_grid(grid if grid is not None else inferred, X, n_points)
     else:
-        if inferred is not None and not np.allclose(
-            inferred, estimator.grid_, rtol=1e-9, atol=0
-        ):
-            raise ValueError(
-                "The column labels of X give a grid that differs from the grid "
-                f"{type(estimator).__name__} was fitted on; resample the curves to "
-                "the fitted grid (for example with CurveSmoother(output_grid=...))."
-            )
+        check_labels(estimator, inferred, estimator.grid_, "X", "grid")
     return out
 
 
-def validate_partial(estimator, X, y="no_validation", **check_params):
-    """Validate a ``partial_fit`` batch; return ``(first, validated)``.
+def check_labels(estimator, inferred, fitted, data_name, grid_name):
+    """ValueError if numeric column labels give a grid other than the fitted one."""
+    if inferred is not None and not np.allclose(inferred, fitted, rtol=1e-9, atol=0):
+        raise ValueError(
+            f"The column labels of {data_name} give a {grid_name} that differs from "
+            f"the one {type(estimator).__name__} was fitted on; resample the curves "
+            "to the fitted grid (for example with CurveSmoother(eval_points=...))."
+        )
 
-    The first call (no ``n_samples_seen_`` yet) validates the parameters and
-    resolves the grid like ``fit``; later calls require the same number of
-    grid points, the same grid parameter and, for DataFrames, the same
-    numeric column labels as the first.
-    """
-    first = start_partial_fit(estimator)
-    return first, validate_curves(estimator, X, y, reset=first, **check_params)
+
+def check_batch_grid(estimator, grid_param="grid", grid_attr="grid_"):
+    """A later ``partial_fit`` batch: the grid parameter must still give the
+    fitted grid."""
+    grid = getattr(estimator, grid_param, None)
+    if grid is not None:
+        fitted = getattr(estimator, grid_attr)
+        grid = np.asarray(grid, dtype=np.float64)
+        if grid.shape != fitted.shape or not np.allclose(grid, fitted, rtol=1e-9, atol=0):
+            raise ValueError(
+                f"partial_fit of {type(estimator).__name__} got a {grid_param} that "
+                f"differs from the one of its earlier calls ({grid_attr}); all "
+                "batches must be sampled on one grid (call fit to start afresh)."
+            )
 
 
 def resolve_n_basis(basis, n_basis, n_points, degree=3, knots=None, cap=True):
@@ -139,7 +162,7 @@ def resolve_n_basis(basis, n_basis, n_points, degree=3, knots=None, cap=True):
 def basis_for(estimator, grid, cap=True):
     """Build the basis named by ``estimator``'s parameters on the grid's domain.
 
-    Reads ``basis``, ``n_basis``, ``degree`` and ``knots`` from the estimator.
+    Reads ``basis``, ``n_basis``, ``degree`` and ``interior_knots`` from the estimator.
     With ``n_basis=None`` on a grid of fewer than ``degree + 1`` points, the
     B-spline degree is lowered to ``n_points - 1`` (the polynomial through the
     points): the adaptive default serves tiny grids, while an explicit
@@ -148,28 +171,8 @@ def basis_for(estimator, grid, cap=True):
     grid = check_grid(grid)
     name = estimator.basis
     degree = getattr(estimator, "degree", 3)
-    knots = getattr(estimator, "knots", None)
+    knots = getattr(estimator, "interior_knots", None)
     n_basis = resolve_n_basis(name, estimator.n_basis, grid.size, degree, knots, cap)
     if name == "bspline" and estimator.n_basis is None and knots is None:
         degree = min(degree, n_basis - 1)
     return make_basis(name, (grid[0], grid[-1]), n_basis, degree=degree, knots=knots)
-
-
-def chunked_matmul(X, operator_T, chunk_size=None):
-    """``X @ operator_T`` in row chunks, converting each chunk to float64.
-
-    Peak memory stays near input + output whatever X's dtype or layout. For a
-    dask array X the product runs block by block and a lazy dask array is
-    returned.
-    """
-    if is_dask_array(X):
-        return map_row_blocks(matmul_block, X, operator_T.shape[1],
-                              operator_T=operator_T)
-    n, m = X.shape
-    out = np.empty((n, operator_T.shape[1]), dtype=np.float64)
-    rows = chunk_size or max(1, CHUNK_VALUES // max(m, 1))
-    for start in range(0, n, rows):
-        stop = min(start + rows, n)
-        chunk = np.asarray(X[start:stop], dtype=np.float64)
-        np.matmul(chunk, operator_T, out=out[start:stop])
-    return out

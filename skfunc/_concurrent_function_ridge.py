@@ -1,0 +1,256 @@
+"""ConcurrentFunctionRidge: a response curve from an input curve at the same
+points, ``Y_i(t) = beta_0(t) + beta_1(t) X_i(t)``."""
+
+import numpy as np
+from scipy.linalg import block_diag
+from sklearn.utils.validation import _check_sample_weight, check_is_fitted
+
+from ._blocks import compute_statistics, is_dask_array
+from ._docstrings import fill_doc
+from ._estimator import store_init_params
+from ._function_response import (
+    RESPONSE_PARAMETER_CONSTRAINTS,
+    CurveResponseRegressor,
+    check_alphas,
+    validate_response,
+)
+from ._grid import grid_from_labels
+from ._penalized import PenalizedPath, gcv_score
+from ._validation import validate_curves
+
+
+@fill_doc
+class ConcurrentFunctionRidge(CurveResponseRegressor):
+    """Concurrent functional regression: a response curve from an input curve
+    at the same points.
+
+    Each row of ``X`` is an input curve and each row of ``y`` a response
+    curve, both on one shared grid. The model is
+
+        Y_i(t) = beta_0(t) + beta_1(t) X_i(t) + eps_i(t),
+
+    with both coefficient functions in a basis, fitted by
+    quadrature-weighted least squares with the roughness penalty ``alpha
+    int [(D^q beta_0)^2 + (D^q beta_1)^2] dt``, ``alpha`` fixed or chosen by
+    generalised cross-validation among ``alphas``. For ``Y_i(t)`` from the
+    whole input curve, see :class:`FunctionOnFunctionRidge`.
+
+    Parameters
+    ----------
+    %(curve_response_alpha)s
+    %(basis)s
+    grid : array-like of shape (n_features,), default=None
+        Sampling points of the columns of ``X`` and ``y``. None means the
+        numeric column labels of a DataFrame, else evenly spaced points on
+        [0, 1].
+    %(quadrature)s
+
+    Attributes
+    ----------
+    coef_function_ : ndarray of shape (n_features,)
+        ``beta_1(t)`` on ``grid_``.
+    grid_ : ndarray of shape (n_features,)
+        The grid used at fit.
+    response_grid_ : ndarray of shape (n_features,)
+        The same grid (the response is on the input's grid).
+    intercept_function_ : ndarray of shape (n_features,)
+        ``beta_0(t)`` on ``grid_``.
+    basis_coef_ : ndarray of shape (2, n_basis_)
+        Basis coefficients of ``beta_0`` (row 0) and ``beta_1``.
+    coef_covariance_ : ndarray of shape (2 * n_basis_, 2 * n_basis_)
+        Sandwich (heteroscedasticity-robust) covariance of ``basis_coef_``
+        flattened row-major, from a second pass over the data.
+    %(curve_response_attributes)s
+    n_samples_seen_ : int
+        Number of curves fitted.
+    %(curve_input_attributes)s
+
+    See Also
+    --------
+    FunctionOnFunctionRidge : ``Y(t)`` from the whole input curve.
+
+    Notes
+    -----
+    The fit reads the data through additive sums at every grid point, then
+    once more for the sandwich covariance of the bands; both passes run per
+    row block (on the workers for dask arrays). The bands need the fitted
+    coefficients, so there is no ``partial_fit``.
+    %(cautions)s
+
+    References
+    ----------
+    Ramsay, J. O. and Silverman, B. W. (2005). *Functional Data Analysis*,
+    2nd ed., ch. 14. Springer.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from skfunc.linear_model import ConcurrentFunctionRidge
+    >>> rng = np.random.default_rng(0)
+    >>> t = np.linspace(0, 1, 41)
+    >>> heating = np.outer(rng.uniform(1150, 1250, 60), np.sin(np.pi * t / 2))
+    >>> cooling = 0.5 * heating * t + rng.normal(0, 1, (60, 41))
+    >>> model = ConcurrentFunctionRidge().fit(heating, cooling)
+    >>> model.coef_function_.shape
+    (41,)
+    >>> model.predict(heating[:3]).shape
+    (3, 41)
+    """
+
+    _parameter_constraints = {
+        **RESPONSE_PARAMETER_CONSTRAINTS,
+        "grid": ["array-like", None],
+    }
+    del _parameter_constraints["response_grid"]
+
+    def __init__(self, alpha=None, *, alphas=None, basis="bspline", n_basis=None,
+                 degree=3, interior_knots=None, penalty_order=2, grid=None,
+                 quadrature="trapezoid"):
+        store_init_params(self, locals())
+
+    def fit(self, X, y, sample_weight=None):
+        """Fit the coefficient functions and their band covariance.
+
+        Parameters
+        ----------
+        X : array-like or dask array of shape (n_samples, n_features)
+            Input curves on the grid (no NaN).
+        y : array-like or dask array of shape (n_samples, n_features)
+            Response curves on the same grid (no NaN).
+        sample_weight : array-like of shape (n_samples,), default=None
+            Weights of the observations.
+
+        Returns
+        -------
+        self : object
+            Fitted estimator.
+        """
+        self._forget()
+        self._validate_params()
+        X, y, w = self._validate_batch(X, y, sample_weight, first=True)
+        stats = compute_statistics(self._statistics, X, y, w)
+        self.n_samples_seen_ = int(X.shape[0])
+        self._solve(stats)
+        meat = compute_statistics(self._score_products, X, y, w)["meat"]
+        self.coef_covariance_ = self._sandwich(stats, meat)
+        return self
+
+    def _validate_batch(self, X, y, sample_weight, first):
+        check_alphas(self.alphas)
+        if is_dask_array(X) or is_dask_array(y):
+            X, y_valid = validate_curves(self, X, y, reset=first, multi_output=True)
+        else:
+            X, y_valid = validate_curves(self, X, reset=first), y
+        labels = getattr(y, "columns", None)
+        labelled = labels is not None and grid_from_labels(list(labels)) is not None
+        y_valid = validate_response(self, y_valid if not labelled else y,
+                                    X.shape[0], reset=first)
+        if not labelled and y_valid.shape[1] == self.grid_.size:
+            self.response_grid_ = self.grid_.copy()
+        if self.response_grid_.shape != self.grid_.shape or not np.allclose(
+            self.response_grid_, self.grid_, rtol=1e-9, atol=0
+        ):
+            raise ValueError(
+                "ConcurrentFunctionRidge needs X and y sampled on one shared grid; "
+                f"got {self.grid_.size} input points and a response grid of "
+                f"{self.response_grid_.size} points that differs. Resample one of "
+                "them, or use FunctionOnFunctionRidge."
+            )
+        return X, y_valid, _check_sample_weight(sample_weight, X)
+
+    def _statistics(self, X, y, sample_weight=None):
+        """Weighted sums over curves at every grid point.
+
+        Keys ``n``, ``sw`` (count and weight total), ``x``, ``xx``, ``y``,
+        ``xy``, ``yy`` (weighted sums of X, X^2, y, X y, y^2 per point): all
+        sums, merged key by key (:func:`skfunc._penalized.merge`).
+        """
+        X = np.asarray(X, dtype=np.float64)
+        y = np.asarray(y, dtype=np.float64)
+        w = np.ones(X.shape[0]) if sample_weight is None else np.asarray(sample_weight)
+        return {
+            "n": X.shape[0],
+            "sw": float(w.sum()),
+            "x": w @ X,
+            "xx": w @ (X * X),
+            "y": w @ y,
+            "xy": w @ (X * y),
+            "yy": w @ (y * y),
+        }
+
+    def _normal_matrix(self, stats, phi_w, phi):
+        """Normal matrix of the (beta_0, beta_1) coefficients, (2K, 2K)."""
+        def block(values):
+            return (phi_w * values[:, None]).T @ phi
+
+        off = block(stats["x"])
+        return np.block([[block(np.full(phi.shape[0], stats["sw"])), off],
+                         [off.T, block(stats["xx"])]])
+
+    def _solve(self, stats):
+        """Penalized least squares for (beta_0, beta_1); GCV over ``alphas``."""
+        basis, weights = self._response_basis()
+        phi = basis.evaluate(self.response_grid_)
+        phi_w = phi * weights[:, None]
+        penalty = self._penalty(basis)
+        path = PenalizedPath(self._normal_matrix(stats, phi_w, phi),
+                             None if self.alpha == 0 else block_diag(penalty, penalty))
+        rot = path.rotate(np.concatenate([stats["y"] @ phi_w, stats["xy"] @ phi_w])[None])
+        candidates = self._candidates(path.scale)
+        rss = stats["yy"] @ weights - path.rss_reduction(rot, candidates)[0]
+        edf = path.edf(candidates)
+        sw = stats["sw"]
+        criterion = gcv_score(
+            np.maximum(rss, 0), edf, sw * weights.size, sw * weights.sum()
+        )
+        best = int(np.argmin(criterion))
+        K = phi.shape[1]
+        self._store(basis, path.coef(rot, candidates[best])[0].reshape(2, K),
+                    np.full((2 * K, 2 * K), np.nan), candidates, criterion, edf, best)
+
+    def _score_products(self, X, y, sample_weight):
+        """``sum w g g'`` of the curves' score contributions at the fit,
+        ``g_i = (Phi' W e_i, Phi' W (X_i e_i))`` (key ``meat``; a sum)."""
+        X = np.asarray(X, dtype=np.float64)
+        basis, weights = self._response_basis()
+        phi_w = basis.evaluate(self.response_grid_) * weights[:, None]
+        resid = np.asarray(y, dtype=np.float64) - self.intercept_function_
+        resid -= X * self.coef_function_
+        scores = np.hstack([resid @ phi_w, (resid * X) @ phi_w])
+        return {"meat": (scores * sample_weight[:, None]).T @ scores}
+
+    def _sandwich(self, stats, meat):
+        """Sandwich covariance ``H^-1 (sum w g g') H^-1`` of the basis coefs,
+        ``H`` the penalized normal matrix; the factor ``sw / (sw - 2)``
+        corrects for the two fitted functions."""
+        basis, weights = self._response_basis()
+        phi = basis.evaluate(self.response_grid_)
+        normal = self._normal_matrix(stats, phi * weights[:, None], phi)
+        penalty = block_diag(*[self._penalty(basis)] * 2)
+        bread = np.linalg.pinv(normal + self.alpha_ * penalty, hermitian=True)
+        sw = stats["sw"]
+        factor = sw / (sw - 2) if sw > 2 else np.nan
+        return factor * bread @ meat @ bread
+
+    def _coef_rows(self):
+        return np.array([[0.0, 1.0]])
+
+    def _coef_shape(self, n_points):
+        return (n_points,)
+
+    def predict(self, X):
+        """Predicted response curves ``beta_0 + beta_1 X`` on ``grid_``.
+
+        Parameters
+        ----------
+        X : array-like or dask array of shape (n_samples, n_features)
+            Input curves on ``grid_``.
+
+        Returns
+        -------
+        y_pred : ndarray of shape (n_samples, n_features)
+            A lazy dask array when X is one.
+        """
+        check_is_fitted(self)
+        X = validate_curves(self, X, reset=False)
+        return self.intercept_function_ + X * self.coef_function_

@@ -1,0 +1,218 @@
+"""Docstring fragments shared by the estimators, written once.
+
+A class docstring holds a placeholder line ``    %(name)s`` (indented like a
+parameter entry) and the class is decorated with :func:`fill_doc`, which puts
+the fragment ``name`` in its place. Keep each fragment true for every
+estimator that uses it; a fragment that needs an exception for one estimator
+is two fragments.
+"""
+
+import textwrap
+
+_FRAGMENTS = {
+    "basis": """
+basis : {"bspline", "fourier", "legendre"}, default="bspline"
+    Basis system of the fitted functions. Fourier is periodic on the
+    grid's domain; Legendre polynomials are shifted to it.
+n_basis : int, default=None
+    Number of basis functions. None means the basis' default (20 B-splines,
+    21 Fourier functions, 12 Legendre polynomials) capped by the number of
+    grid points. Without a penalty (``alpha=0``) it may not exceed the
+    number of grid points.
+degree : int, default=3
+    Degree of the B-splines (3: cubic). Ignored by the other bases.
+interior_knots : array-like of shape (n_knots,), default=None
+    Interior knots of the B-splines, strictly inside the domain (the
+    boundary knots are the domain's ends); None means evenly spaced. When
+    given, ``n_basis`` follows from it: ``n_knots + degree + 1``.
+penalty_order : int, default=2
+    Derivative order ``q`` of the roughness penalty ``int (D^q f)^2``.
+""",
+    "grid": """
+grid : array-like of shape (n_features,), default=None
+    Sampling points of the columns of ``X``. None means the numeric column
+    labels of a DataFrame, else evenly spaced points on [0, 1].
+""",
+    "quadrature": """
+quadrature : {"trapezoid", "simpson"}, default="trapezoid"
+    Quadrature rule of the integrals over the grid (see
+    :doc:`/resolution_invariance`).
+""",
+    "response_grid": """
+response_grid : array-like of shape (n_response_points,), default=None
+    Sampling points of the columns of ``y``. None means the numeric column
+    labels of a DataFrame ``y``, else evenly spaced points on [0, 1]. A
+    one-column ``y`` is a response of one point: a scalar outcome, fitted
+    by least squares.
+""",
+    "curve_response_alpha": """
+alpha : float, default=None
+    Roughness penalty. None chooses it by GCV from ``alphas``.
+alphas : array-like of shape (n_alphas,), default=None
+    Candidates for GCV when ``alpha=None``; None means 25 log-spaced values
+    scaled to the problem.
+""",
+    "curve_response_attributes": """
+alpha_ : float
+    The penalty used.
+alphas_ : ndarray of shape (n_alphas,)
+    Candidates (only ``alpha`` when it was given).
+criterion_ : ndarray of shape (n_alphas,)
+    GCV score per candidate (lower is better).
+edf_ : float
+    Effective degrees of freedom at ``alpha_``.
+edf_path_ : ndarray of shape (n_alphas,)
+    Effective degrees of freedom per candidate.
+n_basis_ : int
+    Number of response basis functions.
+""",
+    "n_samples_seen": """
+n_samples_seen_ : int
+    Number of rows fitted (by :meth:`fit`, or by all calls of
+    :meth:`partial_fit` since the first).
+""",
+    "curve_input_attributes": """
+n_features_in_ : int
+    Number of grid points (columns of ``X``) seen during fit.
+feature_names_in_ : ndarray of shape (n_features_in_,)
+    Column names of ``X`` when they are all strings.
+""",
+    "curve_response_references": """
+Ramsay, J. O. and Silverman, B. W. (2005). *Functional Data Analysis*,
+2nd ed., ch. 13-16. Springer.
+
+Craven, P. and Wahba, G. (1979). Smoothing noisy data with spline
+functions. *Numerische Mathematik* 31, 377-403.
+""",
+    "scalar_outcome_X": """
+X : array-like of shape (n_samples, n_features)
+    Curves, one per row, sampled on the grid; then ``n_covariates`` scalar
+    columns.
+""",
+    "fit_weights_returns": """
+sample_weight : array-like of shape (n_samples,), default=None
+    Non-negative weights of the observations.
+
+Returns
+-------
+self : object
+    Fitted estimator.
+""",
+    "transformer_fit": """
+Parameters
+----------
+X : array-like or dask array of shape (n_samples, n_features)
+    Curves, one per row, sampled on the grid.
+y : None
+    Ignored.
+
+Returns
+-------
+self : object
+    Fitted transformer.
+""",
+    "cautions": """
+Results are statistical estimates: read :doc:`/cautions` before they drive
+a quality or safety decision.
+""",
+    "scalar_outcome": """
+%(basis)s
+n_covariates : int, default=0
+    Number of trailing columns of X that are scalar covariates rather
+    than curve values (partial functional linear model). They enter
+    linearly and unpenalized; the grid covers the columns before them.
+    Put curve columns first (e.g. a ColumnTransformer with the curve
+    columns first and the scalar columns last).
+fit_intercept : bool, default=True
+    Whether to fit an unpenalized intercept.
+grid : array-like of shape (n_features - n_covariates,), default=None
+    Sampling points of the curve columns. None means their numeric
+    DataFrame column labels, else evenly spaced points on [0, 1].
+%(quadrature)s
+""",
+    "scalar_outcome_attributes": """
+coef_function_ : ndarray of shape (n_grid,) or (n_targets, n_grid)
+    The estimated beta(t) on ``grid_``.
+basis_coef_ : ndarray of shape (n_basis_,) or (n_targets, n_basis_)
+    Coefficients of beta in the basis.
+covariate_coef_ : ndarray of shape (n_covariates,) or (n_targets, n_covariates)
+    Coefficients of the scalar covariates.
+coef_ : ndarray of shape (n_features_in_,) or (n_targets, n_features_in_)
+    Weights the prediction applies to the columns of X: quadrature weight
+    times beta on the curve columns, then ``covariate_coef_``, so that
+    ``predict(X) = X @ coef_.T + intercept_``.
+intercept_ : float or ndarray of shape (n_targets,)
+    The intercept b0 (0.0 when ``fit_intercept=False``).
+edf_ : float or ndarray of shape (n_targets,)
+    Effective degrees of freedom, the trace of the hat matrix (including
+    the intercept and the covariates); one per target when alpha is.
+noise_variance_ : float or ndarray of shape (n_targets,)
+    ``sum w_i r_i^2 / (n_samples - edf_)``; NaN when ``edf_ >= n_samples``.
+coef_covariance_ : ndarray of shape (n_basis_, n_basis_) or (n_targets, ...)
+    Bayesian posterior covariance of ``basis_coef_`` (see Notes), used by
+    :meth:`confidence_band`.
+grid_ : ndarray of shape (n_grid,)
+    The grid of the curve columns.
+quadrature_weights_ : ndarray of shape (n_grid,)
+    Quadrature weights on ``grid_``.
+n_basis_ : int
+    Number of basis functions for beta.
+%(n_samples_seen)s
+n_features_in_ : int
+    Number of columns of X (grid points plus covariates).
+feature_names_in_ : ndarray of shape (n_features_in_,)
+    Column names of X when they are all strings.
+""",
+    "scalar_outcome_notes": """
+The fit minimises ``sum_i w_i (y_i - b0 - int x_i beta - gamma' s_i)^2 +
+alpha int (D^q beta)^2``; with the identity penalty (``penalty_order=0``)
+in an orthonormal basis this is :class:`sklearn.linear_model.Ridge` on
+the basis coordinates of the curves, and alpha has the same scale.
+
+The confidence band uses the Bayesian posterior covariance
+``sigma^2 (G + alpha P)^{-1}`` of the basis coefficients (Wahba, 1983;
+Nychka, 1988), with ``G`` the centered cross products of the integrated
+design and ``sigma^2 = noise_variance_``. Unlike the frequentist
+(sandwich) covariance ``sigma^2 A G A``, it accounts on average for the
+smoothing bias, so its coverage holds on average over the grid rather
+than at every point. Bands are conditional on alpha.
+
+The data enter through additive statistics (centered cross products of
+the integrated design, merged exactly), so ``partial_fit`` over batches
+equals ``fit`` on all of them, and a dask array ``X`` is fitted on the
+workers block by block and predicted lazily (alpha by GCV only).
+
+%(cautions)s
+""",
+    "scalar_outcome_references": """
+Ramsay, J. O. and Silverman, B. W. (2005). *Functional Data Analysis*,
+2nd ed., ch. 15. Springer.
+
+Wahba, G. (1983). Bayesian "confidence intervals" for the cross-validated
+smoothing spline. *J. R. Statist. Soc. B* 45, 133-150.
+
+Nychka, D. (1988). Bayesian confidence intervals for smoothing splines.
+*J. Amer. Statist. Assoc.* 83, 1134-1143.
+""",
+}
+
+
+def _fill(text):
+    lines = []
+    for line in text.split("\n"):
+        stripped = line.strip()
+        if stripped.startswith("%(") and stripped.endswith(")s"):
+            indent = line[: len(line) - len(line.lstrip())]
+            fragment = _fill(_FRAGMENTS[stripped[2:-2]].strip("\n"))
+            lines.append(textwrap.indent(fragment, indent))
+        else:
+            lines.append(line)
+    return "\n".join(lines)
+
+
+def fill_doc(obj):
+    """Replace each placeholder line ``<indent>%(name)s`` of ``obj.__doc__``
+    by the fragment ``name`` (whose own placeholders are filled too),
+    indented alike."""
+    obj.__doc__ = _fill(obj.__doc__)
+    return obj

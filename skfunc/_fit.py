@@ -1,0 +1,154 @@
+"""The fit skeleton of every estimator whose fit is additive statistics.
+
+What such a fit needs from the data (counts, sums, cross products, moments)
+is additive over rows, so one path serves an in-memory ``fit``,
+``partial_fit`` over batches and a fit over a Dask array:
+
+    fit          = forget the running statistics, then partial_fit
+    partial_fit  = validate the parameters (first batch only)
+                   -> validate the batch            (_validate_batch)
+                   -> statistics of each row block  (_statistics, on the
+                      workers for Dask input)
+                   -> merge with the blocks and the earlier batches
+                      (_merge_statistics)
+                   -> solve from the merged statistics (_solve)
+
+with ``n_samples_seen_`` and the running statistics kept here only. An
+estimator using it defines:
+
+* ``_validate_batch(X, y, sample_weight, first)`` returning the row-aligned
+  arrays its statistics read, X first (None entries pass through);
+* ``_statistics(X_block, *other_blocks)``: a dict of sums over those rows
+  (its key set written next to the merge that combines it); override
+  ``_statistics_function()`` to return a picklable callable instead when the
+  statistics need something computed once per batch;
+* ``_merge_statistics``: the merge of its statistics (default
+  :func:`skfunc._penalized.merge`, sums key by key);
+* ``_solve(stats)``: set the fitted attributes from merged statistics.
+
+Set ``_accepts_dask = True`` once all of that runs on
+:func:`skfunc._blocks.compute_statistics`.
+"""
+
+from ._blocks import compute_statistics
+from ._docstrings import fill_doc
+from ._estimator import ShortReprMixin
+from ._penalized import merge as merge_sums
+from ._validation import check_batch_grid
+
+
+class AdditiveFitMixin(ShortReprMixin):
+    """``fit`` and ``partial_fit`` from additive statistics (see module doc)."""
+
+    #: combines the statistics of disjoint sets of rows
+    _merge_statistics = staticmethod(merge_sums)
+
+    #: (parameter, fitted attribute) of each grid that later batches share
+    _batch_grids = (("grid", "grid_"),)
+
+    def _forget(self):
+        """Drop the running statistics: the next batch starts afresh."""
+        vars(self).pop("n_samples_seen_", None)
+        vars(self).pop("_partial_statistics", None)
+
+    def _statistics_function(self):
+        return self._statistics
+
+    def _fit_statistics(self, X, y=None, sample_weight=None):
+        self._forget()
+        return self._partial_fit_statistics(X, y, sample_weight)
+
+    def _partial_fit_statistics(self, X, y=None, sample_weight=None):
+        first = not hasattr(self, "n_samples_seen_")
+        if first:
+            self._validate_params()
+        else:
+            for grid_param, grid_attr in self._batch_grids:
+                check_batch_grid(self, grid_param, grid_attr)
+        arrays = self._validate_batch(X, y, sample_weight, first=first)
+        stats = compute_statistics(
+            self._statistics_function(), *arrays, merge=self._merge_statistics
+        )
+        n_rows = arrays[0].shape[0]
+        if not first:
+            stats = self._merge_statistics(self._partial_statistics, stats)
+            n_rows += self.n_samples_seen_
+        self._partial_statistics = stats
+        self.n_samples_seen_ = int(n_rows)
+        self._solve(stats)
+        return self
+
+
+class AdditiveTransformerMixin(AdditiveFitMixin):
+    """The skeleton for transformers: ``fit(X, y=None)``, ``partial_fit(X, y=None)``."""
+
+    @fill_doc
+    def fit(self, X, y=None):
+        """Fit on the curves in X (forgetting earlier batches).
+
+        %(transformer_fit)s
+        """
+        return self._fit_statistics(X)
+
+    def partial_fit(self, X, y=None):
+        """Add a batch of curves and refit from the statistics of all batches.
+
+        The fit depends on the curves only through additive statistics, so
+        after the last batch it equals :meth:`fit` on all batches stacked (up
+        to rounding). The first batch fixes the grid.
+
+        Parameters
+        ----------
+        X : array-like or dask array of shape (n_samples, n_features)
+            A batch of curves on the grid of the first batch.
+        y : None
+            Ignored; accepted for pipeline compatibility.
+
+        Returns
+        -------
+        self : object
+            The transformer, fitted on all batches so far.
+        """
+        return self._partial_fit_statistics(X)
+
+
+class AdditiveRegressorMixin(AdditiveFitMixin):
+    """The skeleton for supervised estimators: ``fit(X, y, sample_weight=None)``."""
+
+    @fill_doc
+    def fit(self, X, y, sample_weight=None):
+        """Fit on (X, y) (forgetting earlier batches).
+
+        Parameters
+        ----------
+        X : array-like or dask array of shape (n_samples, n_features)
+            Inputs, one observation per row.
+        y : array-like or dask array of shape (n_samples,) or (n_samples, n_targets)
+            Targets (outcomes, or response curves on the response grid).
+        %(fit_weights_returns)s
+        """
+        return self._fit_statistics(X, y, sample_weight)
+
+    def partial_fit(self, X, y, sample_weight=None):
+        """Add a batch of observations and refit from the statistics of all
+        batches.
+
+        The fit depends on the data only through additive statistics, so
+        after the last batch it equals :meth:`fit` on all batches stacked
+        (up to rounding), a penalty chosen by GCV included.
+
+        Parameters
+        ----------
+        X : array-like or dask array of shape (n_samples, n_features)
+            Inputs of the batch, shaped like the first batch's.
+        y : array-like or dask array of shape (n_samples,) or (n_samples, n_targets)
+            Targets of the batch, with the targets of the first.
+        sample_weight : array-like of shape (n_samples,), default=None
+            Non-negative weights of the batch's observations.
+
+        Returns
+        -------
+        self : object
+            The estimator, fitted on all batches so far.
+        """
+        return self._partial_fit_statistics(X, y, sample_weight)

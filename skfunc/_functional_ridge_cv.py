@@ -1,0 +1,240 @@
+"""FunctionalRidgeCV: scalar-on-function ridge with the penalty chosen by GCV,
+exact leave-one-out or K-fold cross-validation, all alphas from one
+decomposition."""
+
+import numpy as np
+from sklearn.model_selection import check_cv
+from sklearn.utils._param_validation import StrOptions
+
+from ._blocks import is_dask_array
+from ._docstrings import fill_doc
+from ._estimator import store_init_params
+from ._functional_ridge import FunctionalRidgeBase
+from ._integrated_design import DESIGN_CONSTRAINTS
+from ._penalized import centered_cross_products, cross_products, gcv_score
+
+
+@fill_doc
+class FunctionalRidgeCV(FunctionalRidgeBase):
+    """Scalar-on-function regression with the roughness penalty chosen by
+    GCV, exact leave-one-out or K-fold cross-validation.
+
+    Every candidate alpha is scored from one decomposition of the penalized
+    problem, as :class:`sklearn.linear_model.RidgeCV` does for plain ridge:
+    GCV costs O(K) per alpha, exact leave-one-out O(n K) per alpha (through
+    the leverages), and with ``cv=`` one decomposition per fold serves every
+    alpha. The model is then refitted on all data at the chosen alpha.
+
+    Parameters
+    ----------
+    alphas : array-like of shape (n_alphas,), default=None
+        Positive candidate penalties. None means 25 log-spaced values
+        spanning ``1e-8 .. 1e4`` times the ratio of the traces of the data's
+        cross products and the roughness matrix.
+    criterion : {"gcv", "loo"}, default="gcv"
+        Generalised cross-validation (Craven and Wahba, 1979) or exact
+        leave-one-out mean squared error. Used when ``cv=None``.
+    cv : int, cross-validation generator or iterable, default=None
+        None uses ``criterion``; otherwise a scikit-learn splitter (an int
+        means ``KFold(cv)``), and the criterion is the mean over folds of the
+        weighted held-out mean squared error.
+    alpha_per_target : bool, default=False
+        With several targets, choose one alpha per target (as
+        :class:`sklearn.linear_model.RidgeCV` does) instead of one alpha
+        minimising the criterion averaged over targets.
+    %(scalar_outcome)s
+
+    Attributes
+    ----------
+    alphas_ : ndarray of shape (n_alphas,)
+        The candidate alphas.
+    criterion_ : ndarray of shape (n_alphas,) or (n_targets, n_alphas)
+        GCV score, leave-one-out or K-fold mean squared error for each
+        candidate (lower is better), averaged over targets; one row per
+        target with ``alpha_per_target=True``.
+    alpha_ : float or ndarray of shape (n_targets,)
+        The chosen alpha (the first minimiser of ``criterion_``); one per
+        target with ``alpha_per_target=True`` and several targets.
+    best_score_ : float or ndarray of shape (n_targets,)
+        ``-criterion_`` at ``alpha_`` (higher is better, as in RidgeCV).
+    %(scalar_outcome_attributes)s
+
+    See Also
+    --------
+    FunctionalRidge : The model at a fixed alpha.
+    sklearn.linear_model.RidgeCV : The same all-alpha path for plain ridge.
+
+    Notes
+    -----
+    %(scalar_outcome_notes)s
+
+    GCV is ``(RSS / sum w) / (1 - edf / n)^2`` with the intercept counted in
+    ``edf``. Leave-one-out uses the exact identity ``y_i - yhat_{-i} =
+    (y_i - yhat_i) / (1 - h_ii)`` with leverages ``h_ii(alpha) = w_i / sum w
+    + w_i sum_k (z_i u_k)^2 / d_k(alpha)`` in the engine's diagonalising
+    basis; it is the weighted mean of the squared leave-one-out residuals.
+
+    References
+    ----------
+    %(scalar_outcome_references)s
+
+    Craven, P. and Wahba, G. (1979). Smoothing noisy data with spline
+    functions. *Numerische Mathematik* 31, 377-403.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from skfunc.datasets import make_smooth_regression
+    >>> from skfunc.linear_model import FunctionalRidgeCV
+    >>> X, y, _ = make_smooth_regression(60, grid=101, random_state=0)
+    >>> model = FunctionalRidgeCV(alphas=np.logspace(-8, 0, 9), n_basis=8).fit(X, y)
+    >>> model.criterion_.shape
+    (9,)
+    >>> bool(model.alpha_ in model.alphas_)
+    True
+    """
+
+    _parameter_constraints = {
+        **DESIGN_CONSTRAINTS,
+        "alphas": ["array-like", None],
+        "criterion": [StrOptions({"gcv", "loo"})],
+        "cv": ["cv_object"],
+        "alpha_per_target": ["boolean"],
+    }
+
+    def __init__(self, alphas=None, *, criterion="gcv", cv=None,
+                 alpha_per_target=False, basis="bspline", n_basis=None, degree=3,
+                 interior_knots=None, penalty_order=2, n_covariates=0,
+                 fit_intercept=True, grid=None, quadrature="trapezoid"):
+        store_init_params(self, locals())
+
+    def _check_alphas(self):
+        alphas = np.asarray(self.alphas, dtype=np.float64)
+        if alphas.ndim != 1 or alphas.size == 0:
+            raise ValueError(
+                f"alphas must be a non-empty 1-D array of positive numbers; got "
+                f"an array of shape {alphas.shape}."
+            )
+        if not np.all(np.isfinite(alphas)) or np.any(alphas <= 0):
+            raise ValueError(
+                "alphas must be finite and strictly positive (use FunctionalRidge "
+                f"with alpha=0 for unpenalized least squares); got {alphas.tolist()}."
+            )
+        return alphas
+
+    @fill_doc
+    def fit(self, X, y, sample_weight=None):
+        """Score every alpha, choose one, and fit at it.
+
+        Parameters
+        ----------
+        %(scalar_outcome_X)s
+        y : array-like of shape (n_samples,) or (n_samples, n_targets)
+            Outcomes.
+        %(fit_weights_returns)s
+        """
+        if self.criterion == "gcv" and self.cv is None:  # GCV: statistics suffice
+            return self._fit_statistics(X, y, sample_weight)
+        self._forget()
+        self._validate_params()
+        alphas = None if self.alphas is None else self._check_alphas()
+        X, y, sample_weight = self._validate_fit_input(X, y, sample_weight)
+        if is_dask_array(X):
+            raise ValueError(self._needs_memory("a dask array X"))
+        basis = self._basis()
+        penalty = self._penalty(basis)
+        Z = self._design(X, self._integration_operator(basis))
+        y2 = y.reshape(y.shape[0], -1)
+        stats = centered_cross_products(Z, y2, sample_weight)
+        if alphas is None:
+            path, _ = self._path(stats, penalty, 1.0)
+            alphas = path.default_alphas(25)
+        if self.cv is not None:
+            criterion = self._kfold_criterion(Z, y2, sample_weight, penalty, alphas)
+        else:
+            criterion = self._path_criterion(
+                stats, penalty, alphas, Z, y2, sample_weight
+            )
+        self.n_samples_seen_ = int(X.shape[0])
+        self._partial_statistics = stats
+        self._target_ndim = y.ndim
+        return self._select(stats, criterion, alphas, basis, y.ndim)
+
+    def _check_pooled(self):
+        if self.criterion != "gcv" or self.cv is not None:
+            raise ValueError(self._needs_memory("partial_fit"))
+
+    def _fit_pooled(self, stats, basis, y_ndim):
+        """Alpha by GCV from pooled statistics, then the fit at it."""
+        alphas = None if self.alphas is None else self._check_alphas()
+        penalty = self._penalty(basis)
+        if alphas is None:
+            path, _ = self._path(stats, penalty, 1.0)
+            alphas = path.default_alphas(25)
+        criterion = self._path_criterion(stats, penalty, alphas, None, None, None)
+        return self._select(stats, criterion, alphas, basis, y_ndim)
+
+    def _needs_memory(self, what):
+        return (
+            f"{what} supports criterion='gcv' with cv=None only (alpha chosen by "
+            f"GCV from pooled statistics); criterion={self.criterion!r}, "
+            f"cv={self.cv!r} need all curves in one process at once."
+        )
+
+    def _select(self, stats, criterion, alphas, basis, y_ndim):
+        """Choose alpha from the criterion per candidate and fit at it."""
+        if not (self.alpha_per_target and y_ndim == 2):
+            criterion = criterion.mean(axis=0)  # one alpha for all targets
+        best = np.argmin(criterion, axis=-1)
+        self.alphas_ = alphas
+        self.criterion_ = criterion
+        if criterion.ndim == 1:
+            self.alpha_, self.best_score_ = float(alphas[best]), -float(criterion[best])
+        else:
+            self.alpha_ = alphas[best]
+            self.best_score_ = -criterion[np.arange(best.size), best]
+        return self._solve_at(stats, self.alpha_, basis, squeeze=y_ndim == 1)
+
+    def _path_criterion(self, stats, penalty, alphas, Z, y2, sample_weight):
+        """GCV or exact leave-one-out for every target and alpha, from one
+        decomposition: shape (n_targets, n_alphas)."""
+        path, part = self._path(stats, penalty, alphas)
+        if self.criterion == "gcv":
+            rss = part["yy"][:, None] - path.rss_reduction(part["rotated"], alphas)
+            edf = path.edf(alphas) + self.fit_intercept
+            return gcv_score(rss, edf, stats["n"], stats["sw"])
+        return self._held_out_error(path, part, Z, y2, sample_weight, alphas, True)
+
+    def _held_out_error(self, path, part, Z, y2, sample_weight, alphas, leverage):
+        """Weighted mean of squared (leave-one-out) residuals on rows of Z, for
+        every target and alpha; ``leverage`` adds the leave-one-out factor."""
+        inv_d = 1.0 / path.denominators(alphas)  # (L, K)
+        zu = (Z - part["z_mean"]) @ path.eigvecs
+        divisor = 1.0
+        if leverage:
+            h = sample_weight[:, None] * (zu**2 @ inv_d.T)
+            if self.fit_intercept:
+                h += (sample_weight / sample_weight.sum())[:, None]
+            divisor = 1.0 - h
+        errors = np.zeros((y2.shape[1], len(alphas)))
+        for j, rotated in enumerate(part["rotated"]):
+            fitted = (zu * rotated) @ inv_d.T
+            residual = (y2[:, j] - part["y_mean"][j])[:, None] - fitted
+            with np.errstate(divide="ignore", invalid="ignore"):
+                errors[j] = sample_weight @ (residual / divisor) ** 2
+        with np.errstate(divide="ignore", invalid="ignore"):
+            out = errors / sample_weight.sum()
+        return np.where(np.isfinite(out), out, np.inf)
+
+    def _kfold_criterion(self, Z, y2, sample_weight, penalty, alphas):
+        cv = check_cv(self.cv)
+        scores = []
+        for train, test in cv.split(Z, y2):
+            stats = cross_products(Z[train], y2[train], sample_weight[train])
+            path, part = self._path(stats, penalty, alphas)
+            scores.append(
+                self._held_out_error(
+                    path, part, Z[test], y2[test], sample_weight[test], alphas, False
+                )
+            )
+        return np.mean(scores, axis=0)

@@ -1,0 +1,179 @@
+"""Behaviour every public estimator shares, run over
+:func:`skfunc.utils.all_estimators` with the data factories of
+``tests/conftest.py`` (``ESTIMATOR_CASES``).
+
+* resolution invariance: the same functions sampled on 201 even, 201 uneven
+  and 1001 points give the same results (up to the quadrature's error);
+* ``partial_fit`` over batches equals ``fit`` on all rows;
+* a fit on Dask arrays equals the in-memory fit (estimators with
+  ``_accepts_dask``);
+* grids and DataFrame labels that disagree with the fitted grid, and bad
+  grid parameters, are clear errors;
+* the fitted model round-trips through joblib and skops with identical
+  outputs.
+"""
+
+import numpy as np
+import pandas as pd
+import pytest
+from conftest import ESTIMATOR_CASES, make_case
+
+from skfunc.persistence import load_model, save_model, skfunc_types
+from skfunc.utils import all_estimators
+
+NAMES = [name for name, _ in all_estimators()]
+
+#: the reference sampling and two coarser ones of [0, 1]
+FINE = np.linspace(0, 1, 1001)
+EVEN = np.linspace(0, 1, 201)
+UNEVEN = (1 - np.cos(np.pi * EVEN)) / 2  # dense at the ends
+
+
+def _relative(a, b):
+    return np.linalg.norm(np.asarray(a) - np.asarray(b)) / np.linalg.norm(b)
+
+
+def test_every_estimator_has_a_case():
+    assert sorted(ESTIMATOR_CASES) == sorted(NAMES)
+
+
+def _fit(name, grid, **extra):
+    estimator, X, y, output = make_case(name, grid)
+    estimator.set_params(**extra)
+    return estimator.fit(X, y), X, y, output
+
+
+@pytest.mark.parametrize("name", NAMES)
+def test_resolution_invariance(name):
+    # Integrals replace sums, so results on 201 points (even or uneven)
+    # agree with those on 1001 points within the composite trapezoid rule's
+    # error, O(h^2) (common practice): with h = 1/200 and the data's smooth
+    # Fourier curves (11 terms, derivatives up to about (10 pi)^2 ~ 1e3 times
+    # the values, damped by their 1/(1+k) scores), h^2/12 times that is about
+    # 2e-4; 1e-3 leaves room. A sum over grid points instead of an integral
+    # changes by the ratio of the point counts (5x) and fails.
+    ref_est, X_ref, _, output = _fit(name, FINE)
+    reference = output(ref_est, X_ref)
+    for grid in (EVEN, UNEVEN):
+        est, X, _, _ = _fit(name, grid)
+        assert _relative(output(est, X), reference) < 1e-3, grid.size
+
+
+@pytest.mark.parametrize("name", [n for n in NAMES if hasattr(dict(all_estimators())[n],
+                                                             "partial_fit")])
+def test_partial_fit_equals_fit(name):
+    # The fit reads additive statistics only, so three batches give the fit
+    # on all rows up to rounding (1e-8 relative: sums in another order).
+    whole, X, y, output = _fit(name, EVEN)
+    streamed = make_case(name, EVEN)[0]
+    for rows in np.array_split(np.arange(X.shape[0]), 3):
+        streamed.partial_fit(X[rows], None if y is None else y[rows])
+    assert streamed.n_samples_seen_ == whole.n_samples_seen_ == X.shape[0]
+    assert _relative(output(streamed, X), output(whole, X)) < 1e-8
+
+
+@pytest.mark.parametrize("name", [n for n in NAMES
+                                  if getattr(dict(all_estimators())[n],
+                                             "_accepts_dask", False)])
+def test_dask_fit_equals_in_memory_fit(name):
+    da = pytest.importorskip("dask.array")
+    import dask
+
+    in_memory, X, y, output = _fit(name, EVEN)
+    estimator = make_case(name, EVEN)[0]
+    Xd = da.from_array(X, chunks=(17, -1))
+    yd = None if y is None else da.from_array(y, chunks=(17,) + y.shape[1:])
+    with dask.config.set(scheduler="sync"):
+        estimator.fit(Xd, yd)
+    # statistics of blocks merged in a tree: the in-memory sums in another
+    # order (1e-8 relative)
+    assert _relative(output(estimator, X), output(in_memory, X)) < 1e-8
+
+
+def _frame(values, labels):
+    return pd.DataFrame(values, columns=[float(v) for v in labels])
+
+
+@pytest.mark.parametrize("name", NAMES)
+def test_grid_and_label_mismatches_are_errors(name):
+    case = ESTIMATOR_CASES[name]
+    grid = np.linspace(0, 1, 41)
+    estimator, X, y, _ = make_case(name, grid)
+    estimator.set_params(**{"grid" if case["curve_input"] else "response_grid": None})
+    shifted = grid + 0.5
+    if case["curve_input"]:
+        estimator.fit(_frame(X, grid), y)
+        np.testing.assert_array_equal(estimator.grid_, grid)  # read from labels
+        apply = getattr(estimator, "transform", None) or estimator.predict
+        with pytest.raises(ValueError, match="differs"):
+            apply(_frame(X, shifted))
+        with pytest.raises(ValueError, match="features"):
+            apply(X[:, :-1])
+    else:
+        estimator.fit(X, _frame(y, grid))
+        np.testing.assert_array_equal(estimator.response_grid_, grid)
+        with pytest.raises(ValueError, match="differs"):
+            estimator.score(X, _frame(y, shifted))
+        with pytest.raises(ValueError, match="columns"):
+            estimator.score(X, y[:, :-1])
+
+
+@pytest.mark.parametrize("name", NAMES)
+def test_bad_grids_are_errors(name):
+    case = ESTIMATOR_CASES[name]
+    key = "grid" if case["curve_input"] else "response_grid"
+    grid = np.linspace(0, 1, 41)
+    estimator, X, y, _ = make_case(name, grid)
+    for bad, match in [(grid[::-1], "increasing"), (grid[:-3], "points"),
+                       (np.where(grid == grid[5], np.nan, grid), "finite")]:
+        with pytest.raises(ValueError, match=match):
+            estimator.set_params(**{key: bad}).fit(X, y)
+
+
+@pytest.mark.parametrize("name", NAMES)
+@pytest.mark.parametrize("suffix", [".joblib", ".skops"])
+def test_persistence_round_trip(name, suffix, tmp_path):
+    sio = pytest.importorskip("skops.io")
+    estimator, X, _, output = _fit(name, np.linspace(0, 1, 41))
+    path = save_model(estimator, tmp_path / f"model{suffix}")
+    if suffix == ".skops":
+        # the fitted state holds only arrays and plain values: the one type
+        # skops does not trust by default is the estimator class itself
+        cls = type(estimator)
+        assert sio.get_untrusted_types(file=path) == [f"{cls.__module__}.{cls.__name__}"]
+        loaded = sio.load(path, trusted=skfunc_types(path))
+    else:
+        loaded = load_model(path)
+    assert type(loaded) is type(estimator)
+    fitted = {k: v for k, v in vars(estimator).items() if k.endswith("_")}
+    np.testing.assert_equal({k: getattr(loaded, k) for k in fitted}, fitted)
+    np.testing.assert_array_equal(output(loaded, X), output(estimator, X))
+
+
+@pytest.mark.parametrize("name", NAMES)
+def test_docstring_documents_every_parameter(name):
+    # numpydoc convention (common practice): the Parameters section lists the
+    # constructor's parameters, no more and no fewer
+    import re
+
+    cls = dict(all_estimators())[name]
+    doc = cls.__doc__
+    section = doc[doc.index("Parameters\n"):doc.index("Attributes\n")]
+    documented = re.findall(r"^    (\w+) : ", section, re.MULTILINE)
+    assert sorted(documented) == sorted(cls().get_params()), name
+
+
+@pytest.mark.parametrize("name", NAMES)
+def test_repr_of_a_pipeline_shows_every_step(name):
+    # scikit-learn cuts a repr of more than 700 non-blank characters
+    # (BaseEstimator.__repr__, N_CHAR_MAX) in the middle; a 600-point grid
+    # printed in full (about 7000 characters) would hide the other steps.
+    from sklearn.linear_model import Ridge
+    from sklearn.pipeline import make_pipeline
+
+    key = "grid" if ESTIMATOR_CASES[name]["curve_input"] else "response_grid"
+    estimator = dict(all_estimators())[name](**{key: np.linspace(0, 1, 600)})
+    text = repr(make_pipeline(estimator, Ridge()))
+    assert len("".join(text.split())) < 700
+    assert "shape=(600,)" in text and "('ridge', Ridge())" in text
+    assert np.get_printoptions()["threshold"] == 1000  # numpy's default kept
