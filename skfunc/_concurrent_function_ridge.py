@@ -3,7 +3,7 @@ points, ``Y_i(t) = beta_0(t) + beta_1(t) X_i(t)``."""
 
 import numpy as np
 from scipy.linalg import block_diag
-from sklearn.utils.validation import _check_sample_weight, check_is_fitted
+from sklearn.utils.validation import check_is_fitted
 
 from ._blocks import compute_statistics, is_dask_array
 from ._docstrings import fill_doc
@@ -17,6 +17,7 @@ from ._function_response import (
 from ._grid import grid_from_labels
 from ._penalized import PenalizedPath, gcv_score
 from ._validation import validate_curves
+from ._weights import check_sample_weight
 
 
 @fill_doc
@@ -156,7 +157,7 @@ class ConcurrentFunctionRidge(CurveResponseRegressor):
                 f"{self.response_grid_.size} points that differs. Resample one of "
                 "them, or use FunctionOnFunctionRidge."
             )
-        return X, y_valid, _check_sample_weight(sample_weight, X)
+        return X, y_valid, check_sample_weight(sample_weight, X)
 
     def _statistics(self, X, y, sample_weight=None):
         """Weighted sums over curves at every grid point.

@@ -18,7 +18,6 @@ from sklearn.exceptions import ConvergenceWarning
 from sklearn.utils._param_validation import Interval, StrOptions
 from sklearn.utils.class_weight import compute_sample_weight
 from sklearn.utils.multiclass import check_classification_targets
-from sklearn.utils.validation import _check_sample_weight
 
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
@@ -28,6 +27,7 @@ from ._integrated_design import (
     IntegratedDesignMixin,
 )
 from ._penalized import centered, cross_products
+from ._weights import check_sample_weight
 
 
 def newton_statistics(D, Y, sample_weight, theta, derivatives=True):
@@ -217,9 +217,7 @@ class FunctionalLogisticRegression(
                 "FunctionalLogisticRegression needs samples of at least 2 classes "
                 f"in y; got only one class: {self.classes_[0]!r}."
             )
-        sample_weight = _check_sample_weight(
-            sample_weight, X, dtype=np.float64, ensure_non_negative=True
-        )
+        sample_weight = check_sample_weight(sample_weight, X)
         if self.class_weight is not None:
             sample_weight = sample_weight * compute_sample_weight(self.class_weight, y)
         basis = self._basis()

@@ -202,7 +202,7 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
         if self.criterion == "gcv":
             rss = part["yy"][:, None] - path.rss_reduction(part["rotated"], alphas)
             edf = path.edf(alphas) + self.fit_intercept
-            return gcv_score(rss, edf, stats["n"], stats["sw"])
+            return gcv_score(rss, edf, stats["sw"])  # frequency weights
         return self._held_out_error(path, part, Z, y2, sample_weight, alphas, True)
 
     def _held_out_error(self, path, part, Z, y2, sample_weight, alphas, leverage):

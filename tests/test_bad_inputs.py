@@ -384,9 +384,6 @@ _ALL = [name for name, _ in all_estimators()]
 _SOLVERS = ["CurveSmoother", "FunctionOnScalarRidge", "FunctionOnFunctionRidge",
             "ConcurrentFunctionRidge", "FunctionalRidge", "FunctionalRidgeCV",
             "FunctionalLogisticRegression"]
-_WEIGHTED = ["FunctionOnScalarRidge", "FunctionOnFunctionRidge",
-             "ConcurrentFunctionRidge", "FunctionalRidge",
-             "FunctionalRidgeCV", "FunctionalLogisticRegression"]
 _SCALAR_OUT = ["FunctionalRidge", "FunctionalRidgeCV", "FunctionalLogisticRegression"]
 KNOWN_ESTIMATOR_FAILURES = {
     **{(name, "X-strings"): "numpy's 'could not convert string to float' passes "
@@ -395,12 +392,6 @@ KNOWN_ESTIMATOR_FAILURES = {
        "dropped (only a ComplexWarning from check_grid)" for name in _ALL},
     **{(name, "n_basis-huge"): "n_basis=10**6 is not checked against sizes up front: "
        "MemoryError allocating 7.28 TiB" for name in _SOLVERS},
-    **{(name, "sample_weight-zeros"): "scikit-learn's 'Sample weights must contain at "
-       "least one non-zero number' instead of the shared sample_weight rule"
-       for name in _WEIGHTED},
-    **{(name, "sample_weight-negative"): "negative weights accepted: alpha_ near 0 "
-       "and non-finite fitted values" for name in ["FunctionOnScalarRidge",
-                                                   "FunctionOnFunctionRidge"]},
     **{(name, "scaled-1e-170"): "the design statistics underflow: "
        "NotIdentifiableError for valid curves near 1e-170" for name in _SCALAR_OUT},
     ("FunctionalPCA", "scaled-1e-170"): "'all curves are identical' for curves whose "
@@ -410,8 +401,6 @@ KNOWN_ESTIMATOR_FAILURES = {
     **{("ConcurrentFunctionRidge", case): "NotIdentifiableError for valid curves "
        "scaled by 1e150 or 1e-170" for case in ["scaled-1e150", "scaled-1e-170",
                                                  "scaled-1e150-defaults"]},
-    ("ConcurrentFunctionRidge", "sample_weight-negative"): "negative weights reach the "
-    "solver: NotIdentifiableError instead of the shared sample_weight rule",
     **{(name, "y-sparse"): "a sparse y gives numpy's 'setting an array element with "
        "a sequence'" for name in ["FunctionalRidge", "FunctionalRidgeCV"]},
     ("FunctionOnScalarRidge", "grid-nan"): "the message says 'grid', the parameter is "
