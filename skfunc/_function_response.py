@@ -183,7 +183,8 @@ def validate_response(estimator, y, n_samples, *, reset):
                 f"response_grid has {len(grid)} points but y has {m} columns; the "
                 "response grid needs one point per column of y."
             )
-        estimator.response_grid_ = resolve_grid(grid, y_in, m)
+        estimator.response_grid_ = resolve_grid(grid, y_in, m, name="response_grid",
+                                                data_name="y")
         return y
     if m != estimator.response_grid_.size:
         raise ValueError(

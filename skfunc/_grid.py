@@ -30,6 +30,8 @@ def check_grid(grid, n_points=None, *, name="grid", data_name="X"):
     -------
     grid : ndarray of shape (m,)
     """
+    if _is_complex(grid):  # np.array(..., float64) would drop the imaginary part
+        raise TypeError(f"{name} must hold real numbers; got complex values.")
     try:
         arr = np.array(grid, dtype=np.float64)
     except (TypeError, ValueError) as exc:
@@ -98,11 +100,12 @@ def grid_from_labels(labels):
     )
 
 
-def resolve_grid(grid, X, n_points):
+def resolve_grid(grid, X, n_points, *, name="grid", data_name="X"):
     """The grid for ``X``: ``grid`` if given, else numeric DataFrame column
-    labels, else evenly spaced points on [0, 1]."""
+    labels, else evenly spaced points on [0, 1]. ``name`` and ``data_name``
+    are the parameter and the data named in error messages."""
     if grid is not None:
-        return check_grid(grid, n_points)
+        return check_grid(grid, n_points, name=name, data_name=data_name)
     columns = getattr(X, "columns", None)
     if columns is not None:
         inferred = grid_from_labels(list(columns))
@@ -128,12 +131,10 @@ def grid_weights(grid, n_points, quadrature="trapezoid", data_name="X"):
     grid can give negative weights (then the "squared norm" of a curve can be
     negative), and such a grid is refused with a ``ValueError`` that advises
     the trapezoid rule, rather than silently changing the rule. A complex
-    grid is a ``TypeError`` (its imaginary part would otherwise be dropped).
+    grid is a ``TypeError`` (from :func:`check_grid`).
     """
     if grid is None:
         grid = np.linspace(0.0, 1.0, n_points)
-    elif _is_complex(grid):
-        raise TypeError("grid must hold real numbers; got complex values.")
     w = quadrature_weights(check_grid(grid, n_points, data_name=data_name), quadrature)
     if np.any(w < 0):
         j = int(np.argmin(w))

@@ -388,8 +388,6 @@ _SCALAR_OUT = ["FunctionalRidge", "FunctionalRidgeCV", "FunctionalLogisticRegres
 KNOWN_ESTIMATOR_FAILURES = {
     **{(name, "X-strings"): "numpy's 'could not convert string to float' passes "
        "through validate_data unexplained" for name in _ALL},
-    **{(name, "grid-complex"): "a complex grid is accepted with its imaginary part "
-       "dropped (only a ComplexWarning from check_grid)" for name in _ALL},
     **{(name, "n_basis-huge"): "n_basis=10**6 is not checked against sizes up front: "
        "MemoryError allocating 7.28 TiB" for name in _SOLVERS},
     **{(name, "scaled-1e-170"): "the design statistics underflow: "
@@ -403,10 +401,6 @@ KNOWN_ESTIMATOR_FAILURES = {
                                                  "scaled-1e150-defaults"]},
     **{(name, "y-sparse"): "a sparse y gives numpy's 'setting an array element with "
        "a sequence'" for name in ["FunctionalRidge", "FunctionalRidgeCV"]},
-    ("FunctionOnScalarRidge", "grid-nan"): "the message says 'grid', the parameter is "
-    "response_grid",
-    ("FunctionOnScalarRidge", "grid-decreasing"): "the message says 'grid', the "
-    "parameter is response_grid",
 }
 
 
