@@ -69,15 +69,19 @@ def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
         labels = list(labels)[:n_curve] if n_curve >= 2 else None
     # read the labels first: a mix of numbers and words gets our message
     inferred = grid_from_labels(list(labels)) if labels is not None else None
-    out = validate_data(
-        estimator,
-        X,
-        y,
-        reset=reset,
-        dtype=[np.float64, np.float32],
-        ensure_all_finite="allow-nan" if allow_nan else True,
-        **check_params,
-    )
+    try:
+        out = validate_data(
+            estimator,
+            X,
+            y,
+            reset=reset,
+            dtype=[np.float64, np.float32],
+            ensure_all_finite="allow-nan" if allow_nan else True,
+            **check_params,
+        )
+    except ValueError as exc:
+        explain_not_numbers(exc, X, y)
+        raise
     X = out[0] if isinstance(out, tuple) else out
     n_points = X.shape[1] - n_covariates
     if n_covariates and n_points < 2:
@@ -107,6 +111,23 @@ def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
     else:
         check_labels(estimator, inferred, estimator.grid_, "X", "grid")
     return out
+
+
+def explain_not_numbers(exc, X, y):
+    """Raise a ValueError naming X or y if ``exc`` is numpy's failure to read
+    text as numbers; return otherwise."""
+    if "could not convert" not in str(exc):
+        return
+    try:
+        np.asarray(X, dtype=np.float64)
+        name = "y"
+    except (TypeError, ValueError):
+        name = "X"
+    value = str(exc).rpartition(": ")[2]
+    raise ValueError(
+        f"{name} must hold numbers; got a value that is not a number ({value}). "
+        "Convert text columns to numbers first."
+    ) from None
 
 
 def check_labels(estimator, inferred, fitted, data_name, grid_name):

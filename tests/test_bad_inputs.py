@@ -386,8 +386,6 @@ _SOLVERS = ["CurveSmoother", "FunctionOnScalarRidge", "FunctionOnFunctionRidge",
             "FunctionalLogisticRegression"]
 _SCALAR_OUT = ["FunctionalRidge", "FunctionalRidgeCV", "FunctionalLogisticRegression"]
 KNOWN_ESTIMATOR_FAILURES = {
-    **{(name, "X-strings"): "numpy's 'could not convert string to float' passes "
-       "through validate_data unexplained" for name in _ALL},
     **{(name, "n_basis-huge"): "n_basis=10**6 is not checked against sizes up front: "
        "MemoryError allocating 7.28 TiB" for name in _SOLVERS},
     **{(name, "scaled-1e-170"): "the design statistics underflow: "
