@@ -381,13 +381,8 @@ BAD_ESTIMATOR_INPUTS = {
 #: (estimator, case) -> why it fails today. Strict expected failures: remove an
 #: entry when the estimator is fixed.
 _ALL = [name for name, _ in all_estimators()]
-_SOLVERS = ["CurveSmoother", "FunctionOnScalarRidge", "FunctionOnFunctionRidge",
-            "ConcurrentFunctionRidge", "FunctionalRidge", "FunctionalRidgeCV",
-            "FunctionalLogisticRegression"]
 _SCALAR_OUT = ["FunctionalRidge", "FunctionalRidgeCV", "FunctionalLogisticRegression"]
 KNOWN_ESTIMATOR_FAILURES = {
-    **{(name, "n_basis-huge"): "n_basis=10**6 is not checked against sizes up front: "
-       "MemoryError allocating 7.28 TiB" for name in _SOLVERS},
     **{(name, "scaled-1e-170"): "the design statistics underflow: "
        "NotIdentifiableError for valid curves near 1e-170" for name in _SCALAR_OUT},
     ("FunctionalPCA", "scaled-1e-170"): "'all curves are identical' for curves whose "
@@ -397,8 +392,6 @@ KNOWN_ESTIMATOR_FAILURES = {
     **{("ConcurrentFunctionRidge", case): "NotIdentifiableError for valid curves "
        "scaled by 1e150 or 1e-170" for case in ["scaled-1e150", "scaled-1e-170",
                                                  "scaled-1e150-defaults"]},
-    **{(name, "y-sparse"): "a sparse y gives numpy's 'setting an array element with "
-       "a sequence'" for name in ["FunctionalRidge", "FunctionalRidgeCV"]},
 }
 
 
