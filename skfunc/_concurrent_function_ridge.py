@@ -8,6 +8,7 @@ from sklearn.utils.validation import check_is_fitted
 from ._blocks import compute_statistics, is_dask_array
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
+from ._fit import check_finite_fit
 from ._function_response import (
     RESPONSE_PARAMETER_CONSTRAINTS,
     CurveResponseRegressor,
@@ -134,7 +135,7 @@ class ConcurrentFunctionRidge(CurveResponseRegressor):
         self._solve(stats)
         meat = compute_statistics(self._score_products, X, y, w)["meat"]
         self.coef_covariance_ = self._sandwich(stats, meat)
-        return self
+        return check_finite_fit(self)
 
     def _validate_batch(self, X, y, sample_weight, first):
         check_alphas(self.alphas)

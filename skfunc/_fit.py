@@ -30,11 +30,60 @@ Set ``_accepts_dask = True`` once all of that runs on
 :func:`skfunc._blocks.compute_statistics`.
 """
 
+import warnings
+
+import numpy as np
+
 from ._blocks import compute_statistics
 from ._docstrings import fill_doc
 from ._estimator import ShortReprMixin
 from ._penalized import merge as merge_sums
 from ._validation import check_batch_grid
+
+#: fitted attributes that describe uncertainty: non-finite values there (no
+#: residual degrees of freedom left) are a warning, not an error
+_UNCERTAINTY = ("noise_variance_", "coef_covariance_")
+
+
+def check_finite_fit(estimator):
+    """Never hand back NaN or inf silently: after a fit, non-finite values in
+    a fitted attribute are a ``ValueError`` (the fit failed, usually because
+    sums of squares overflowed or underflowed), or a ``RuntimeWarning`` where
+    only the uncertainty is undefined. A selection criterion may be inf for
+    some candidates (GCV where a fit interpolates), not for all of them.
+    Returns the estimator.
+    """
+    name = type(estimator).__name__
+    for key, value in vars(estimator).items():
+        if not key.endswith("_") or key.startswith("_"):
+            continue
+        arr = np.asarray(value) if isinstance(value, (float, np.ndarray)) else None
+        if arr is None or arr.dtype.kind != "f" or np.isfinite(arr).all():
+            continue
+        if key == "criterion_":
+            if np.isfinite(arr).any(axis=-1).all():
+                continue
+            raise ValueError(
+                f"{name}: the criterion is not finite for any candidate alpha "
+                "(every candidate interpolates the data, or the sums of squares "
+                "overflowed); use larger alphas or fewer basis functions, or "
+                "rescale X and y."
+            )
+        if key in _UNCERTAINTY:
+            warnings.warn(
+                f"{name}.{key} is not finite: the fit leaves no residual degrees "
+                "of freedom (too few observations, or weights summing to less than "
+                "the effective number of parameters), so confidence bands are "
+                "undefined.", RuntimeWarning, stacklevel=3,
+            )
+            continue
+        raise ValueError(
+            f"{name}: the fitted {key} is not finite. This usually means the values "
+            "of X or y are too large or too small for their sums of squares in "
+            "float64 (beyond about 1e150 or below 1e-150); rescale X and y, for "
+            "example to units near 1."
+        )
+    return estimator
 
 
 class AdditiveFitMixin(ShortReprMixin):
@@ -76,6 +125,7 @@ class AdditiveFitMixin(ShortReprMixin):
         self._partial_statistics = stats
         self.n_samples_seen_ = int(n_rows)
         self._solve(stats)
+        check_finite_fit(self)
         return self
 
 

@@ -21,6 +21,7 @@ from sklearn.utils.multiclass import check_classification_targets
 
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
+from ._fit import check_finite_fit
 from ._integrated_design import (
     ALPHA_CONSTRAINT,
     DESIGN_CONSTRAINTS,
@@ -226,7 +227,7 @@ class FunctionalLogisticRegression(
             Y = (y_index == 1).astype(np.float64)[:, None]
         else:
             Y = np.eye(self.classes_.size)[y_index]
-        return self._solve(Z, Y, sample_weight, basis)
+        return check_finite_fit(self._solve(Z, Y, sample_weight, basis))
 
     def _solve(self, Z, Y, sample_weight, basis):
         penalty = self._penalty(basis)

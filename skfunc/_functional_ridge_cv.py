@@ -9,6 +9,7 @@ from sklearn.utils._param_validation import StrOptions
 from ._blocks import is_dask_array
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
+from ._fit import check_finite_fit
 from ._functional_ridge import FunctionalRidgeBase
 from ._integrated_design import DESIGN_CONSTRAINTS
 from ._penalized import centered_cross_products, cross_products, gcv_score
@@ -158,7 +159,7 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
         self.n_samples_seen_ = int(X.shape[0])
         self._partial_statistics = stats
         self._target_ndim = y.ndim
-        return self._select(stats, criterion, alphas, basis, y.ndim)
+        return check_finite_fit(self._select(stats, criterion, alphas, basis, y.ndim))
 
     def _check_pooled(self):
         if self.criterion != "gcv" or self.cv is not None:

@@ -387,8 +387,9 @@ KNOWN_ESTIMATOR_FAILURES = {
        "NotIdentifiableError for valid curves near 1e-170" for name in _SCALAR_OUT},
     ("FunctionalPCA", "scaled-1e-170"): "'all curves are identical' for curves whose "
     "variance underflows",
-    ("FunctionalRidge", "scaled-1e150-defaults"): "NaN predictions without an "
-    "error for curves and responses near 1e150",
+    ("FunctionalRidge", "scaled-1e150-defaults"): "the sums of squares overflow "
+    "for curves and responses near 1e150: a clear error asking to rescale (no longer "
+    "NaN predictions), but no fit",
     **{("ConcurrentFunctionRidge", case): "NotIdentifiableError for valid curves "
        "scaled by 1e150 or 1e-170" for case in ["scaled-1e150", "scaled-1e-170",
                                                  "scaled-1e150-defaults"]},
@@ -452,3 +453,38 @@ def test_classify_sorts_outcomes():
     assert classify(lambda: np.array([1.0, np.nan]), [])[0] == NONFINITE
     assert classify(lambda: {"a": (1.0, np.inf)}, [])[0] == NONFINITE
     assert classify(lambda: np.ones(2), [])[0] == ACCEPTED
+
+
+# ----------------------------------------- non-finite results at fit time
+@pytest.mark.parametrize("name", ["FunctionOnScalarRidge", "FunctionOnFunctionRidge",
+                                  "ConcurrentFunctionRidge"])
+def test_one_training_curve_warns_that_bands_are_undefined(name):
+    # one curve leaves no residual degrees of freedom: the noise variance
+    # (and so the band) is undefined, which must be said at fit rather than
+    # handed back as an all-NaN band
+    estimator, X, y, _ = make_case(name, GRID)
+    with pytest.warns(RuntimeWarning, match="coef_covariance_ is not finite"):
+        estimator.fit(X[:1], y[:1])
+
+
+@pytest.mark.filterwarnings("ignore:overflow:RuntimeWarning",
+                            "ignore:invalid value:RuntimeWarning")  # numpy's, on the way
+def test_overflowing_sums_of_squares_are_an_error_not_nan():
+    # curves and outcomes near 1e150: their squares (1e300) times a few dozen
+    # rows and grid weights overflow float64's 1.8e308 (numpy's finfo), which
+    # used to give NaN predictions without an error
+    estimator, X, y, _ = make_case("FunctionalRidge", GRID)
+    estimator = type(estimator)(grid=GRID)
+    with pytest.raises(ValueError, match="basis_coef_ is not finite.*rescale"):
+        estimator.fit(X * 1e150, y * 1e150)
+
+
+def test_criterion_infinite_for_every_alpha_is_an_error():
+    # 8 curves, 30 basis functions and alpha=1e-16: the fit interpolates
+    # (effective degrees of freedom = 8 = n, to rounding), so GCV (Craven and
+    # Wahba 1979) is undefined at the only candidate; picking it anyway used
+    # to hand back an inf criterion and a NaN noise variance
+    estimator, X, y, _ = make_case("FunctionalRidgeCV", GRID)
+    estimator.set_params(alphas=[1e-16], n_basis=30)
+    with pytest.raises(ValueError, match="criterion is not finite for any candidate"):
+        estimator.fit(X[:8], y[:8])
