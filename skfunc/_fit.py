@@ -49,39 +49,35 @@ def check_finite_fit(estimator):
     """Never hand back NaN or inf silently: after a fit, non-finite values in
     a fitted attribute are a ``ValueError`` (the fit failed, usually because
     sums of squares overflowed or underflowed), or a ``RuntimeWarning`` where
-    only the uncertainty is undefined. A selection criterion may be inf for
-    some candidates (GCV where a fit interpolates), not for all of them.
-    Returns the estimator.
+    only the uncertainty is undefined. A selection criterion may be inf (GCV
+    where a fit interpolates); what to choose then is the alpha choice's
+    policy, not checked here. Returns the estimator.
     """
     name = type(estimator).__name__
+    uncertain = []
     for key, value in vars(estimator).items():
         if not key.endswith("_") or key.startswith("_"):
             continue
         arr = np.asarray(value) if isinstance(value, (float, np.ndarray)) else None
         if arr is None or arr.dtype.kind != "f" or np.isfinite(arr).all():
             continue
-        if key == "criterion_":
-            if np.isfinite(arr).any(axis=-1).all():
-                continue
-            raise ValueError(
-                f"{name}: the criterion is not finite for any candidate alpha "
-                "(every candidate interpolates the data, or the sums of squares "
-                "overflowed); use larger alphas or fewer basis functions, or "
-                "rescale X and y."
-            )
+        if key in ("criterion_", "best_score_"):  # inf where a candidate
+            continue  # interpolates: the alpha choice has its own policy for that
         if key in _UNCERTAINTY:
-            warnings.warn(
-                f"{name}.{key} is not finite: the fit leaves no residual degrees "
-                "of freedom (too few observations, or weights summing to less than "
-                "the effective number of parameters), so confidence bands are "
-                "undefined.", RuntimeWarning, stacklevel=3,
-            )
+            uncertain.append(key)
             continue
         raise ValueError(
             f"{name}: the fitted {key} is not finite. This usually means the values "
             "of X or y are too large or too small for their sums of squares in "
             "float64 (beyond about 1e150 or below 1e-150); rescale X and y, for "
             "example to units near 1."
+        )
+    if uncertain:
+        warnings.warn(
+            f"{name}: {' and '.join(uncertain)} not finite: the fit leaves no "
+            "residual degrees of freedom (too few observations, or weights summing "
+            "to less than the effective number of parameters), so confidence bands "
+            "are undefined.", RuntimeWarning, stacklevel=3,
         )
     return estimator
 
