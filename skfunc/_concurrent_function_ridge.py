@@ -120,7 +120,7 @@ class ConcurrentFunctionRidge(CurveResponseRegressor):
         y : array-like or dask array of shape (n_samples, n_features)
             Response curves on the same grid (no NaN).
         sample_weight : array-like of shape (n_samples,), default=None
-            Weights of the observations.
+            Frequency weights of the observations (weight 2 = the row twice).
 
         Returns
         -------

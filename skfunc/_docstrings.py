@@ -91,7 +91,10 @@ X : array-like of shape (n_samples, n_features)
 """,
     "fit_weights_returns": """
 sample_weight : array-like of shape (n_samples,), default=None
-    Non-negative weights of the observations.
+    Frequency weights of the observations, as in scikit-learn: a weight of
+    2 counts the row twice (in the coefficients, the chosen alpha, the noise
+    variance and the bands alike), 0 leaves it out. Finite, non-negative,
+    not all zero.
 
 Returns
 -------

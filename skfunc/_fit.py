@@ -190,7 +190,8 @@ class AdditiveRegressorMixin(AdditiveFitMixin):
         y : array-like or dask array of shape (n_samples,) or (n_samples, n_targets)
             Targets of the batch, with the targets of the first.
         sample_weight : array-like of shape (n_samples,), default=None
-            Non-negative weights of the batch's observations.
+            Frequency weights of the batch's observations (weight 2 = the
+            row twice).
 
         Returns
         -------
