@@ -123,3 +123,36 @@ def test_band_equals_the_closed_form_posterior(estimator):
     scale = np.max(np.abs(ref_upper))
     np.testing.assert_allclose(lower, ref_lower, rtol=0, atol=1e-8 * scale)
     np.testing.assert_allclose(upper, ref_upper, rtol=0, atol=1e-8 * scale)
+
+
+def test_simultaneous_band_covers_the_whole_curve():
+    # Simultaneous bands from posterior draws (Ruppert, Wand and Carroll
+    # 2003): over the 200 replications the whole smooth beta lies inside in
+    # at least 92% of them -- 95% less two binomial standard errors
+    # (sqrt(0.95 * 0.05 / 200) = 0.015). The pointwise band, used as if it
+    # were simultaneous, must fall short of that (it misses somewhere on most
+    # curves), and the critical value lies between the pointwise normal
+    # quantile z_0.975 and the Bonferroni bound z_{1 - 0.025/101} over the
+    # 101 grid points (common practice: union bound).
+    from scipy.stats import norm
+
+    rng = np.random.default_rng(12345)
+    scores = curve_scores(200, rng)
+    X = curves_on(scores, T)
+    Y = integral_with_beta(scores)[:, None] + 0.2 * rng.normal(size=(200, N_REPLICATIONS))
+    beta = true_beta(T)
+    est = FunctionalRidgeCV(alphas=np.logspace(-9, 0, 28), alpha_per_target=True)
+    est.fit(X, Y)
+    lower, upper = est.confidence_band(0.95, simultaneous=True, random_state=0)
+    whole = np.mean(np.all((lower <= beta) & (beta <= upper), axis=1))
+    assert whole >= 0.92, whole
+    p_lower, p_upper = est.confidence_band(0.95)
+    assert np.mean(np.all((p_lower <= beta) & (beta <= p_upper), axis=1)) < 0.92
+    ratio = (upper - lower) / (p_upper - p_lower)
+    crit = ratio * norm.ppf(0.975)
+    assert np.all(crit > norm.ppf(0.975)) and np.all(crit < norm.ppf(1 - 0.025 / T.size))
+    # seeded: the same draws give the same band
+    again = est.confidence_band(0.95, simultaneous=True, random_state=0)
+    np.testing.assert_array_equal(again[0], lower)
+    with pytest.raises(ValueError, match="n_draws"):
+        est.confidence_band(0.95, simultaneous=True, n_draws=10)
