@@ -198,7 +198,7 @@ Nychka, D. (1988). Bayesian confidence intervals for smoothing splines.
 *J. Amer. Statist. Assoc.* 83, 1134-1143.
 
 Ruppert, D., Wand, M. P. and Carroll, R. J. (2003). *Semiparametric
-Regression*, section 6.5. Cambridge University Press.
+Regression*. Cambridge University Press.
 """,
 }
 

@@ -160,9 +160,9 @@ class IntegratedDesignMixin(ShortReprMixin):
         average over the grid the band covers beta with probability
         ``level``. Simultaneous, ``c`` is the ``level`` quantile of
         ``max_t |beta~(t) - beta_hat(t)| / sd(t)`` over ``n_draws`` draws
-        ``beta~`` from the posterior (Ruppert, Wand and Carroll, 2003,
-        section 6.5), so the whole curve lies inside with probability
-        ``level`` under the posterior.
+        ``beta~`` from the posterior (Ruppert, Wand and Carroll, 2003), so
+        the whole curve lies inside with probability ``level`` under the
+        posterior.
 
         Both are conditional on alpha and inherit the penalty's bias: where
         beta is rough (a narrow peak or trough), they are too narrow there.
