@@ -305,7 +305,10 @@ def ucr(name):
                 "is nearly flat over alpha 1e-20 to 1e-12 and its minimum scores "
                 "0.964; 1.000 needs a 100x larger null-space ridge, which loses "
                 "two BasicMotions channels (0.650 against 0.750 and 0.800), or "
-                "25 candidates, which pick another point of the flat criterion",
+                "25 candidates, which pick another point of the flat criterion; "
+                "the one-standard-error rule on UBRE also scores 0.964, and "
+                "cross-validated rules that score 1.000 lose on GunPoint or CBF "
+                "(tests/benchmarks/bench_logistic_rules.py)",
             ),
         ),
     ],
