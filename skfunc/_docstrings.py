@@ -33,6 +33,66 @@ grid : array-like of shape (n_features,), default=None
     Sampling points of the columns of ``X``. None means the numeric column
     labels of a DataFrame, else evenly spaced points on [0, 1].
 """,
+    "aligner_output": """
+output : {"curves", "warps", "warp_coordinates"}, default="curves"
+    What :meth:`transform` returns: the aligned curves, each curve's warp
+    ``gamma_i`` on the grid, or the warps' L2-orthonormal coordinates
+    ``sqrt(w_j) (gamma_i(t_j) - t_j)`` (phase as features).
+%(grid)s
+""",
+    "aligned_returns": """
+Returns
+-------
+X_out : ndarray of shape (n_samples, n_features)
+    Aligned curves, warps or warp coordinates (see ``output``).
+""",
+    "warps_returns": """
+Returns
+-------
+warps : ndarray of shape (n_samples, n_features)
+    Each curve's warp ``gamma_i`` on the fitted grid: ``X[i]`` is about
+    the template read on the clock ``gamma_i``.
+""",
+    "curves_fit": """
+%(fit_curves)s
+
+Returns
+-------
+self : object
+    Fitted aligner.
+""",
+    "fit_curves": """
+Parameters
+----------
+X : array-like of shape (n_samples, n_features)
+    Curves, one per row, on the grid.
+y : None
+    Ignored.
+""",
+    "fitted_curves": """
+Parameters
+----------
+X : array-like of shape (n_samples, n_features)
+    Curves on the fitted grid.
+""",
+    "landmark_times": """
+landmarks : array-like of shape (n_samples, k), default=None
+    Landmark times of each curve (strictly inside the domain, increasing
+    along each row); None means find them with the ``landmarks`` parameter.
+""",
+    "paired_grid": """
+grid : array-like of shape (n_features,), default=None
+    Sampling points of the columns of ``X`` and ``Y``; None means evenly
+    spaced on [0, 1].
+""",
+    "feature_names_in": """
+input_features : array-like of str or None, default=None
+    Input feature names, validated against ``feature_names_in_``.
+""",
+    "fitted_grid_X": """
+X : array-like of shape (n_samples, n_features)
+    Curves on the fitted grid.
+""",
     "quadrature": """
 quadrature : {"trapezoid", "simpson"}, default="trapezoid"
     Quadrature rule of the integrals over the grid (see

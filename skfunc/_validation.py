@@ -31,6 +31,16 @@ BASIS_CONSTRAINTS = {
 }
 
 
+#: what to do about missing values, for estimators that need complete curves
+NAN_ADVICE = (
+    "{} needs complete curves (no NaN). Fill the gaps of densely observed "
+    "curves first with skfunc.preprocessing.CurveSmoother in a pipeline; for "
+    "curves observed at only a few times each, use "
+    "skfunc.decomposition.SparseFunctionalPCA (see the user guide's page on "
+    "irregular data for which estimators accept missing values)."
+)
+
+
 def check_level(level, name="level"):
     """A confidence level in (0, 1) (e.g. 0.95), as a float."""
     if (not isinstance(level, Real) or isinstance(level, bool)
@@ -87,7 +97,10 @@ def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
         )
     except ValueError as exc:
         explain_not_numbers(exc, X, y)
-        raise
+        if "contains NaN" not in str(exc):
+            raise
+        first = str(exc).split("\n")[0].split(".")[0]  # "Input X contains NaN"
+        raise ValueError(f"{first}. {NAN_ADVICE.format(type(estimator).__name__)}") from exc
     X = out[0] if isinstance(out, tuple) else out
     n_points = X.shape[1] - n_covariates
     if n_covariates and n_points < 2:
