@@ -328,11 +328,6 @@ def _check_paths(parser, args):
         elif args.figure.suffix.lower() not in (".png", ".pdf", ".svg"):
             parser.error(f"--figure must end in .png, .pdf or .svg; got {args.figure}")
         targets.append(("--figure", args.figure))
-    if not args.no_figure and args.figure.resolve() == args.output.resolve():
-        parser.error(
-            f"the figure would overwrite the model: --output and the figure are both "
-            f"{args.output}; choose another --figure or --output"
-        )
     for option, path in targets:
         try:  # existing files, missing or unwritable folders, named as given
             _check_target(path, force=args.force)

@@ -105,8 +105,8 @@ def test_demo_refuses_to_overwrite_without_force(tmp_path, capsys):
         (["demo", "--n-jobs", "0"], "expected -1 (all cores) or a whole number from 1"),
         (["demo", "--n-jobs", "-2"], "got -2"),
         (["demo", "--colour"], "unrecognized arguments: --colour"),
-        (["demo", "--output", ""], "--output needs a file name"),
-        (["demo", "--output", "/"], "--output needs a file name"),
+        (["demo", "--output", ""], "expected a file name ending in"),
+        (["demo", "--output", "/"], "expected a file name ending in"),
         (["demo", "--figure", ""], "--figure needs a file name"),
     ],
 )
@@ -134,17 +134,20 @@ def no_work(monkeypatch):
     monkeypatch.setattr(demo, "run_demo", fail)
 
 
-@pytest.mark.parametrize("extra", [[], ["--figure", "{out}"], ["--figure", "./{out}"]])
-def test_figure_path_equal_to_model_path_is_refused(tmp_path, capsys, no_work,
-                                                    monkeypatch, extra):
-    # --output model.png would be overwritten by the default figure model.png
+@pytest.mark.parametrize("argv, message", [
+    (["--output", "model.png"], "expected a file name ending in .joblib or .skops"),
+    (["--output", "model.joblib", "--figure", "model.joblib"],
+     "--figure must end in .png, .pdf or .svg"),
+])
+def test_figure_cannot_overwrite_the_model(tmp_path, capsys, no_work, monkeypatch,
+                                           argv, message):
+    # --output model.png used to be overwritten by the default figure model.png;
+    # model and figure suffixes are now disjoint, refused before any work
     monkeypatch.chdir(tmp_path)
-    out = "model.png"
-    argv = ["demo", "--output", out, "--force", *[a.format(out=out) for a in extra]]
     with pytest.raises(SystemExit) as info:
-        main(argv)
+        main(["demo", *argv, "--force"])
     assert info.value.code == 2
-    assert "the figure would overwrite the model" in capsys.readouterr().err
+    assert message in capsys.readouterr().err
     assert list(tmp_path.iterdir()) == []
 
 
