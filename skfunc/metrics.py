@@ -7,6 +7,10 @@ curves were sampled beyond the quadrature's own error.
 * :func:`integrated_squared_error`: mean over curves of ``int (y - y_hat)^2``.
 * :func:`integrated_r2_score`: ``1 - sum_i int (y_i - y_hat_i)^2 /
   sum_i int (y_i - y_bar)^2``.
+
+Both take ``multioutput="raw_values"`` for one value per curve (per row of
+``y_true``), named after scikit-learn's option; scikit-learn's
+``raw_values`` are per column, which here is :func:`pointwise_r2_score`.
 * :func:`pointwise_r2_score`: ``R^2(t)`` at every grid point.
 
 The scorers :data:`integrated_r2_scorer` and
@@ -63,26 +67,53 @@ def _check_curves(y_true, y_pred, sample_weight):
     return y_true / s, y_pred / s, sw, s
 
 
+def _deviations(y_true, sw):
+    """Deviations from the weighted mean curve, and a mask of the entries
+    that are zero within rounding."""
+    mean = sw @ y_true / sw.sum()
+    deviations = y_true - mean
+    # the weighted mean of n values has a forward rounding error of at most
+    # (n + 1) eps/2 max|y| (Higham 2002, sec. 3.1; positive weights); a
+    # deviation within (n + 2) eps max|y| of its column is zero
+    scale = np.max(np.abs(y_true), axis=0)
+    small = np.abs(deviations) <= (y_true.shape[0] + 2) * np.finfo(np.float64).eps * scale
+    return deviations, small
+
+
 def _sums(y_true, y_pred, sw):
     """Weighted sums over curves of squared errors and squared deviations,
     with SST set to 0 where the true values do not vary beyond rounding."""
-    mean = sw @ y_true / sw.sum()
-    deviations = y_true - mean
+    deviations, small = _deviations(y_true, sw)
     sse = sw @ (y_true - y_pred) ** 2
     sst = sw @ deviations**2
-    # the weighted mean of n values has a forward rounding error of at most
-    # (n + 1) eps/2 max|y| (Higham 2002, sec. 3.1; positive weights); a column
-    # whose deviations stay within (n + 2) eps max|y| is constant
-    scale = np.max(np.abs(y_true), axis=0)
-    flat = np.max(np.abs(deviations), axis=0) <= (
-        (y_true.shape[0] + 2) * np.finfo(np.float64).eps * scale
-    )
-    return sse, np.where(flat, 0.0, sst)
+    return sse, np.where(small.all(axis=0), 0.0, sst)
+
+
+MULTIOUTPUT = ("raw_values", "uniform_average", "variance_weighted")
+
+
+def _check_multioutput(multioutput, accepted):
+    if not (isinstance(multioutput, str) and multioutput in accepted):
+        raise ValueError(
+            f"multioutput must be one of {accepted}; got {multioutput!r}."
+        )
+
+
+def _ratio_score(sse, sst):
+    """``1 - sse / sst``, with scikit-learn's convention where ``sst`` is 0:
+    1 for a perfect prediction, else 0."""
+    flat = sst == 0
+    with np.errstate(divide="ignore", invalid="ignore"):
+        r2 = 1.0 - sse / np.where(flat, 1.0, sst)
+    return np.where(flat, np.where(sse == 0, 1.0, 0.0), r2)
 
 
 def integrated_squared_error(y_true, y_pred, *, grid=None, quadrature="trapezoid",
-                             sample_weight=None):
+                             sample_weight=None, multioutput="uniform_average"):
     """Mean integrated squared error ``mean_i int (y_i(t) - y_hat_i(t))^2 dt``.
+
+    With ``multioutput="raw_values"``, the integrated squared error of each
+    curve, ``ISE_i = int (y_i(t) - y_hat_i(t))^2 dt``, not averaged.
 
     Parameters
     ----------
@@ -94,11 +125,16 @@ def integrated_squared_error(y_true, y_pred, *, grid=None, quadrature="trapezoid
         Quadrature rule.
     sample_weight : array-like of shape (n_samples,), default=None
         Frequency weights of the curves (a weight of 2 counts a curve twice):
-        finite, non-negative, not all zero.
+        finite, non-negative, not all zero. They weight the average; raw
+        values are not multiplied by them.
+    multioutput : {"uniform_average", "raw_values"}, default="uniform_average"
+        "uniform_average": the (sample-weighted) mean of ``ISE_i`` over
+        curves. "raw_values": one ``ISE_i`` per curve (per row, not per grid
+        point as in :func:`sklearn.metrics.mean_squared_error`).
 
     Returns
     -------
-    float
+    float or ndarray of shape (n_samples,)
 
     Examples
     --------
@@ -108,14 +144,21 @@ def integrated_squared_error(y_true, y_pred, *, grid=None, quadrature="trapezoid
     >>> y = np.vstack([t, t])
     >>> round(integrated_squared_error(y, y + 0.5, grid=t), 6)  # int 0.25 dt
     0.25
+    >>> integrated_squared_error(y, y + [[0.5], [1.0]], grid=t,
+    ...                          multioutput="raw_values").round(6)
+    array([0.25, 1.  ])
     """
+    _check_multioutput(multioutput, MULTIOUTPUT[:2])
     y_true, y_pred, sw, s = _check_curves(y_true, y_pred, sample_weight)
     weights = grid_weights(grid, y_true.shape[1], quadrature, data_name="y_true")
-    return float(s * (s * (sw @ ((y_true - y_pred) ** 2 @ weights) / sw.sum())))
+    ise = (y_true - y_pred) ** 2 @ weights
+    if multioutput == "raw_values":
+        return s * (s * ise)
+    return float(s * (s * (sw @ ise / sw.sum())))
 
 
 def integrated_r2_score(y_true, y_pred, *, grid=None, quadrature="trapezoid",
-                        sample_weight=None):
+                        sample_weight=None, multioutput="variance_weighted"):
     """Integrated coefficient of determination ``1 - int SSE(t) / int SST(t)``.
 
     ``SSE(t) = sum_i w_i (y_i(t) - y_hat_i(t))^2`` and
@@ -124,6 +167,17 @@ def integrated_r2_score(y_true, y_pred, *, grid=None, quadrature="trapezoid",
     perfect prediction and the mean curve scores 0. When the true curves do
     not vary (SST = 0) the score is 1 for a perfect prediction and 0
     otherwise, as scikit-learn's convention.
+
+    Per curve (``multioutput="raw_values"``), the score of curve ``i`` is
+    ``R^2_i = 1 - ISE_i / V_i`` with ``ISE_i = int (y_i(t) - y_hat_i(t))^2 dt``
+    and ``V_i = int (y_i(t) - y_bar(t))^2 dt``, where ``y_bar`` is the
+    (sample-weighted) mean of all true curves: the share of curve ``i``'s
+    departure from the mean curve that the prediction explains. Predicting
+    the mean curve gives 0 for every curve. A curve equal to the mean curve
+    (``V_i = 0`` within rounding) gets 1 if predicted exactly, else 0. A
+    curve close to the mean curve has a small ``V_i``, so its ``R^2_i`` can
+    be very negative for a small error; the default average weights each
+    curve by ``V_i`` for that reason.
 
     Parameters
     ----------
@@ -135,11 +189,21 @@ def integrated_r2_score(y_true, y_pred, *, grid=None, quadrature="trapezoid",
         Quadrature rule.
     sample_weight : array-like of shape (n_samples,), default=None
         Frequency weights of the curves (a weight of 2 counts a curve twice):
-        finite, non-negative, not all zero.
+        finite, non-negative, not all zero. They give the mean curve
+        ``y_bar`` and weight the averages; raw values are not multiplied by
+        them.
+    multioutput : {"variance_weighted", "uniform_average", "raw_values"}, \
+            default="variance_weighted"
+        "variance_weighted": the mean of ``R^2_i`` weighted by
+        ``w_i V_i``, which equals ``1 - int SSE(t) / int SST(t)``.
+        "uniform_average": the (sample-weighted) mean of ``R^2_i``.
+        "raw_values": one ``R^2_i`` per curve (per row, not per grid point
+        as in :func:`sklearn.metrics.r2_score`; see
+        :func:`pointwise_r2_score` for that).
 
     Returns
     -------
-    float
+    float or ndarray of shape (n_samples,)
 
     Examples
     --------
@@ -150,14 +214,22 @@ def integrated_r2_score(y_true, y_pred, *, grid=None, quadrature="trapezoid",
     1.0
     >>> integrated_r2_score(y, np.tile(y.mean(axis=0), (2, 1)))  # the mean curve
     0.0
+    >>> integrated_r2_score(y, [[0.0, 1.0, 2.0], [2.0, 3.0, 3.0]],
+    ...                     multioutput="raw_values")
+    array([1.  , 0.75])
     """
+    _check_multioutput(multioutput, MULTIOUTPUT)
     y_true, y_pred, sw, _ = _check_curves(y_true, y_pred, sample_weight)
     weights = grid_weights(grid, y_true.shape[1], quadrature, data_name="y_true")
-    sse, sst = _sums(y_true, y_pred, sw)
-    sse, sst = sse @ weights, sst @ weights
-    if sst == 0:
-        return 1.0 if sse == 0 else 0.0
-    return float(1.0 - sse / sst)
+    deviations, small = _deviations(y_true, sw)
+    ise = (y_true - y_pred) ** 2 @ weights
+    variance = np.where(small, 0.0, deviations**2) @ weights
+    if multioutput == "variance_weighted":
+        return float(_ratio_score(sw @ ise, sw @ variance))
+    r2 = _ratio_score(ise, variance)
+    if multioutput == "raw_values":
+        return r2
+    return float(sw @ r2 / sw.sum())
 
 
 def pointwise_r2_score(y_true, y_pred, *, sample_weight=None):
@@ -192,11 +264,7 @@ def pointwise_r2_score(y_true, y_pred, *, sample_weight=None):
     array([1., 0.])
     """
     y_true, y_pred, sw, _ = _check_curves(y_true, y_pred, sample_weight)
-    sse, sst = _sums(y_true, y_pred, sw)
-    flat = sst == 0
-    with np.errstate(divide="ignore", invalid="ignore"):
-        r2 = 1.0 - sse / np.where(flat, 1.0, sst)
-    return np.where(flat, np.where(sse == 0, 1.0, 0.0), r2)
+    return _ratio_score(*_sums(y_true, y_pred, sw))
 
 
 def _final_step(estimator):

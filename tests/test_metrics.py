@@ -88,6 +88,103 @@ def test_integrated_scores_match_scipy_quadrature(curves, rng, rule, integrate):
     )
 
 
+@pytest.mark.parametrize(
+    "rule, integrate", [("trapezoid", trapezoid), ("simpson", simpson)]
+)
+def test_per_curve_values_match_scipy_quadrature(curves, rng, rule, integrate):
+    # Per curve i: ISE_i = int (y_i - y_hat_i)^2 dt and
+    # R^2_i = 1 - ISE_i / int (y_i - y_bar)^2 dt, y_bar the weighted mean curve,
+    # integrated with scipy.integrate.trapezoid / simpson on the uneven grid.
+    t, y_true, y_pred = curves
+    w = rng.uniform(0.5, 2, y_true.shape[0])
+    ise = integrate((y_true - y_pred) ** 2, x=t, axis=1)
+    variance = integrate((y_true - np.average(y_true, axis=0, weights=w)) ** 2, x=t,
+                         axis=1)
+    kw = dict(grid=t, quadrature=rule, multioutput="raw_values")
+    # rtol: the same rule in a different summation order (rounding only)
+    raw_ise = integrated_squared_error(y_true, y_pred, sample_weight=w, **kw)
+    assert raw_ise.shape == (y_true.shape[0],)
+    assert_allclose(raw_ise, ise, rtol=1e-10)
+    raw_r2 = integrated_r2_score(y_true, y_pred, sample_weight=w, **kw)
+    assert_allclose(raw_r2, 1 - ise / variance, rtol=1e-10)
+    # without weights the mean curve is the plain mean; this fails if the
+    # weights were ignored in y_bar above (weights from 0.5 to 2 move it)
+    variance = integrate((y_true - y_true.mean(axis=0)) ** 2, x=t, axis=1)
+    assert_allclose(integrated_r2_score(y_true, y_pred, **kw), 1 - ise / variance,
+                    rtol=1e-10)
+    assert not np.allclose(raw_r2, 1 - ise / variance, rtol=1e-6)
+
+
+def test_averages_of_per_curve_values_are_the_aggregates(curves, rng):
+    # Definitions: the ISE aggregate is the (weighted) mean of the ISE_i; the
+    # default R^2 is 1 - sum_i w_i ISE_i / sum_i w_i V_i, the mean of R^2_i
+    # weighted by w_i V_i (as scikit-learn's "variance_weighted"), with V_i
+    # computed here by scipy.integrate.trapezoid; "uniform_average" is the
+    # (weighted) mean of R^2_i. rtol: rounding of sums of 12 x 31 terms.
+    t, y_true, y_pred = curves
+    w = rng.uniform(0.5, 2, y_true.shape[0])
+    for sw in (None, w):
+        weights = np.ones(len(y_true)) if sw is None else sw
+        raw = integrated_squared_error(y_true, y_pred, grid=t, sample_weight=sw,
+                                       multioutput="raw_values")
+        assert_allclose(np.average(raw, weights=weights),
+                        integrated_squared_error(y_true, y_pred, grid=t,
+                                                 sample_weight=sw), rtol=1e-12)
+        assert_allclose(
+            integrated_squared_error(y_true, y_pred, grid=t, sample_weight=sw,
+                                     multioutput="uniform_average"),
+            integrated_squared_error(y_true, y_pred, grid=t, sample_weight=sw))
+        r2 = integrated_r2_score(y_true, y_pred, grid=t, sample_weight=sw,
+                                 multioutput="raw_values")
+        variance = trapezoid(
+            (y_true - np.average(y_true, axis=0, weights=weights)) ** 2, x=t, axis=1)
+        default = integrated_r2_score(y_true, y_pred, grid=t, sample_weight=sw)
+        assert_allclose(np.average(r2, weights=weights * variance), default,
+                        rtol=1e-12)
+        assert default == integrated_r2_score(y_true, y_pred, grid=t, sample_weight=sw,
+                                              multioutput="variance_weighted")
+        uniform = integrated_r2_score(y_true, y_pred, grid=t, sample_weight=sw,
+                                      multioutput="uniform_average")
+        assert_allclose(uniform, np.average(r2, weights=weights), rtol=1e-12)
+        # the two averages differ here (curves of unequal variance), so
+        # swapping them fails
+        assert abs(uniform - default) > 1e-3
+
+
+def test_per_curve_r2_conventions(rng):
+    # Definition of R^2_i: the mean curve scores 0 for every curve, a perfect
+    # prediction 1; a curve equal to the mean curve (V_i = 0) follows
+    # scikit-learn's constant-target convention: 1 if exact, else 0.
+    t = np.linspace(0, 1, 21)
+    a = np.sin(2 * np.pi * t) + rng.normal(size=t.size)
+    y_true = np.vstack([a, np.zeros_like(t), -a])  # mean curve 0, exactly
+    raw = dict(grid=t, multioutput="raw_values")
+    assert_allclose(integrated_r2_score(y_true, np.zeros_like(y_true), **raw),
+                    [0.0, 1.0, 0.0])
+    assert_allclose(integrated_r2_score(y_true, y_true, **raw), [1.0, 1.0, 1.0])
+    assert_allclose(integrated_r2_score(y_true, y_true + 0.1, **raw)[1], 0.0)
+    flat = np.full((3, 4), 0.1)  # a constant within rounding of its mean
+    assert_allclose(integrated_r2_score(flat, flat + 0.1, multioutput="raw_values"),
+                    [0.0, 0.0, 0.0])
+
+
+@pytest.mark.parametrize("score", [integrated_r2_score, integrated_squared_error])
+@pytest.mark.parametrize("bad", ["raw", "Raw_values", None, ["raw_values"],
+                                 np.array(["raw_values"]), 1])
+def test_bad_multioutput(curves, score, bad):
+    t, y_true, y_pred = curves
+    with pytest.raises(ValueError, match="multioutput must be one of .*'raw_values'"):
+        score(y_true, y_pred, multioutput=bad)
+
+
+def test_squared_error_has_no_variance_weighted_average(curves):
+    # a variance-weighted mean of squared errors is not a defined average
+    t, y_true, y_pred = curves
+    with pytest.raises(ValueError, match=r"multioutput must be one of \('raw_values', "
+                       r"'uniform_average'\); got 'variance_weighted'"):
+        integrated_squared_error(y_true, y_pred, multioutput="variance_weighted")
+
+
 def test_integrated_r2_of_mean_curve_and_perfect_prediction(curves):
     # Definition of R^2 (as sklearn.metrics.r2_score): 1 for a perfect
     # prediction, 0 for the mean curve.
@@ -224,6 +321,11 @@ def test_scores_at_extreme_scales(curves, scale):
                     integrated_r2_score(y_true, y_pred, grid=t), rtol=1e-12)
     assert_allclose(pointwise_r2_score(scale * y_true, scale * y_pred),
                     r2_score(y_true, y_pred, multioutput="raw_values"), rtol=1e-12)
+    assert_allclose(
+        integrated_r2_score(scale * y_true, scale * y_pred, grid=t,
+                            multioutput="raw_values"),
+        integrated_r2_score(y_true, y_pred, grid=t, multioutput="raw_values"),
+        rtol=1e-12)
 
 
 def test_squared_error_at_large_scale(curves):
@@ -273,12 +375,25 @@ def test_weight_two_equals_a_duplicated_row(seed, counts):
     y_true = rng.normal(size=(len(counts), t.size))
     y_pred = y_true + rng.normal(size=y_true.shape)
     rows = np.repeat(np.arange(len(counts)), counts)
+    first = np.unique(rows, return_index=True)[1]  # a copy of each kept row
+    kept = np.asarray(counts) > 0
     for score in (integrated_r2_score, integrated_squared_error):
         for rule in ("trapezoid", "simpson"):
             # rtol: sums of at most 18 rows in a different order
             assert_allclose(
                 score(y_true, y_pred, grid=t, quadrature=rule, sample_weight=counts),
                 score(y_true[rows], y_pred[rows], grid=t, quadrature=rule), rtol=1e-10)
+            assert_allclose(
+                score(y_true, y_pred, grid=t, quadrature=rule, sample_weight=counts,
+                      multioutput="uniform_average"),
+                score(y_true[rows], y_pred[rows], grid=t, quadrature=rule,
+                      multioutput="uniform_average"), rtol=1e-10)
+            # raw values: one per row, the repeated rows' values unchanged
+            assert_allclose(
+                score(y_true, y_pred, grid=t, quadrature=rule, sample_weight=counts,
+                      multioutput="raw_values")[kept],
+                score(y_true[rows], y_pred[rows], grid=t, quadrature=rule,
+                      multioutput="raw_values")[first], rtol=1e-10)
     assert_allclose(pointwise_r2_score(y_true, y_pred, sample_weight=counts),
                     pointwise_r2_score(y_true[rows], y_pred[rows]), rtol=1e-10,
                     atol=1e-12)
