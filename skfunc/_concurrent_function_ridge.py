@@ -3,11 +3,12 @@ points, ``Y_i(t) = beta_0(t) + beta_1(t) X_i(t)``."""
 
 import numpy as np
 from scipy.linalg import block_diag
-from sklearn.utils.validation import _check_sample_weight, check_is_fitted
+from sklearn.utils.validation import check_is_fitted
 
 from ._blocks import compute_statistics, is_dask_array
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
+from ._fit import check_finite_fit
 from ._function_response import (
     RESPONSE_PARAMETER_CONSTRAINTS,
     CurveResponseRegressor,
@@ -17,6 +18,7 @@ from ._function_response import (
 )
 from ._penalized import PenalizedPath, gcv_score
 from ._validation import validate_curves
+from ._weights import check_sample_weight
 
 
 @fill_doc
@@ -143,7 +145,7 @@ class ConcurrentFunctionRidge(CurveResponseRegressor):
         y : array-like or dask array of shape (n_samples, n_response_points)
             Response curves on the response grid (no NaN).
         sample_weight : array-like of shape (n_samples,), default=None
-            Weights of the observations.
+            Frequency weights of the observations (weight 2 = the row twice).
 
         Returns
         -------
@@ -158,7 +160,7 @@ class ConcurrentFunctionRidge(CurveResponseRegressor):
         self._solve(stats)
         meat = compute_statistics(self._score_products, X, y, w)["meat"]
         self.coef_covariance_ = self._sandwich(stats, meat)
-        return self
+        return check_finite_fit(self)
 
     def _validate_batch(self, X, y, sample_weight, first):
         check_alphas(self.alphas)
@@ -176,7 +178,7 @@ class ConcurrentFunctionRidge(CurveResponseRegressor):
         if first:
             check_in_domain(self.response_grid_, self.grid_[[0, -1]], "response_grid",
                             "the input grid's domain")
-        return X, y_valid, _check_sample_weight(sample_weight, X)
+        return X, y_valid, check_sample_weight(sample_weight, X)
 
     def _default_response_grid(self, n_points):
         """The input grid for as many points, else evenly spaced on its domain."""

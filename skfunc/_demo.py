@@ -25,7 +25,7 @@ from sklearn.preprocessing import FunctionTransformer
 from threadpoolctl import threadpool_limits
 
 from ._datasets import KILN_MINUTES, make_kiln_firing
-from .persistence import save_model
+from .persistence import _check_target, save_model
 
 #: candidate penalties of the raw-grid baseline: wide enough for values in °C
 BASELINE_ALPHAS = np.logspace(-3, 8, 45)
@@ -318,6 +318,9 @@ def build_parser():
 
 def _check_paths(parser, args):
     """Refuse before any work: existing files without --force, bad folders."""
+    for option, path in (("--output", args.output), ("--figure", args.figure)):
+        if path is not None and not path.name:  # '' arrives as Path('.')
+            parser.error(f"{option} needs a file name; got {str(path)!r}")
     targets = [("--output", args.output)]
     if not args.no_figure:
         if args.figure is None:
@@ -326,15 +329,10 @@ def _check_paths(parser, args):
             parser.error(f"--figure must end in .png, .pdf or .svg; got {args.figure}")
         targets.append(("--figure", args.figure))
     for option, path in targets:
-        if path.is_dir():
-            parser.error(f"{option} {path} is a folder; give a file name")
-        if not path.parent.exists():
-            parser.error(f"{option}: the folder {path.parent} does not exist")
-        if path.exists() and not args.force:
-            parser.error(
-                f"{option} {path} already exists; pass --force to replace it or "
-                f"choose another path with {option}"
-            )
+        try:  # existing files, missing or unwritable folders, named as given
+            _check_target(path, force=args.force)
+        except OSError as exc:
+            parser.error(f"{option}: {exc}")
     if args.output.suffix.lower() == ".skops":
         try:
             import skops.io  # noqa: F401

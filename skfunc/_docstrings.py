@@ -151,7 +151,10 @@ X : array-like of shape (n_samples, n_features)
 """,
     "fit_weights_returns": """
 sample_weight : array-like of shape (n_samples,), default=None
-    Non-negative weights of the observations.
+    Frequency weights of the observations, as in scikit-learn: a weight of
+    2 counts the row twice (in the coefficients, the chosen alpha, the noise
+    variance and the bands alike), 0 leaves it out. Finite, non-negative,
+    not all zero.
 
 Returns
 -------
@@ -256,6 +259,9 @@ smoothing spline. *J. R. Statist. Soc. B* 45, 133-150.
 
 Nychka, D. (1988). Bayesian confidence intervals for smoothing splines.
 *J. Amer. Statist. Assoc.* 83, 1134-1143.
+
+Ruppert, D., Wand, M. P. and Carroll, R. J. (2003). *Semiparametric
+Regression*. Cambridge University Press.
 """,
     "plot_examples": """
 Examples

@@ -49,7 +49,6 @@ from scipy.stats import norm as _normal
 from sklearn.base import BaseEstimator, RegressorMixin
 from sklearn.utils._param_validation import Interval
 from sklearn.utils.validation import (
-    _check_sample_weight,
     check_array,
     check_consistent_length,
     check_is_fitted,
@@ -61,6 +60,7 @@ from ._fit import AdditiveFitMixin
 from ._grid import check_grid, grid_from_labels, quadrature_weights, resolve_grid
 from ._penalized import PenalizedPath, centered, cross_products, gcv_score
 from ._validation import BASIS_CONSTRAINTS, basis_for, check_labels, check_level
+from ._weights import check_sample_weight
 
 #: eigenvalues below this fraction of the largest make a direction undetermined
 #: (minimum-norm solution, as numpy.linalg.lstsq)
@@ -194,7 +194,8 @@ def validate_response(estimator, y, n_samples, *, reset,
         if grid is None and inferred is None:
             estimator.response_grid_ = check_grid(default(m), m, name="response_grid")
         else:
-            estimator.response_grid_ = resolve_grid(grid, y_in, m)
+            estimator.response_grid_ = resolve_grid(grid, y_in, m, name="response_grid",
+                                                    data_name="y")
         return y
     if m != estimator.response_grid_.size:
         raise ValueError(
@@ -300,7 +301,7 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
             check_alphas(self.alphas)
         X, y = self._validate_inputs(X, y, reset=first)
         y = validate_response(self, y, X.shape[0], reset=first)
-        return X, y, _check_sample_weight(sample_weight, X)
+        return X, y, check_sample_weight(sample_weight, X)
 
     def _statistics(self, X, y, sample_weight=None, design=None):
         """Additive statistics of one block of rows.

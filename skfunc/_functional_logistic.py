@@ -18,11 +18,11 @@ from sklearn.exceptions import ConvergenceWarning
 from sklearn.utils._param_validation import Interval, StrOptions
 from sklearn.utils.class_weight import compute_sample_weight
 from sklearn.utils.multiclass import check_classification_targets
-from sklearn.utils.validation import _check_sample_weight
 
 from ._alpha import ALPHA_CONSTRAINT, check_alpha
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
+from ._fit import check_finite_fit
 from ._integrated_design import (
     DESIGN_CONSTRAINTS,
     IntegratedDesignMixin,
@@ -34,6 +34,7 @@ from ._logistic_path import (
     split_coordinates,
 )
 from ._penalized import centered, cross_products, penalty_for, penalty_scale
+from ._weights import check_sample_weight
 
 
 @fill_doc
@@ -240,9 +241,7 @@ class FunctionalLogisticRegression(
                 "FunctionalLogisticRegression needs samples of at least 2 classes "
                 f"in y; got only one class: {self.classes_[0]!r}."
             )
-        sample_weight = _check_sample_weight(
-            sample_weight, X, dtype=np.float64, ensure_non_negative=True
-        )
+        sample_weight = check_sample_weight(sample_weight, X)
         if self.class_weight is not None:
             sample_weight = sample_weight * compute_sample_weight(self.class_weight, y)
         basis = self._basis()
@@ -251,7 +250,7 @@ class FunctionalLogisticRegression(
             Y = (y_index == 1).astype(np.float64)[:, None]
         else:
             Y = np.eye(self.classes_.size)[y_index]
-        return self._solve(Z, Y, sample_weight, basis)
+        return check_finite_fit(self._solve(Z, Y, sample_weight, basis))
 
     def _solve(self, Z, Y, sample_weight, basis):
         k = basis.n_basis

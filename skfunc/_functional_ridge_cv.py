@@ -9,6 +9,7 @@ from sklearn.utils._param_validation import StrOptions
 from ._blocks import is_dask_array
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
+from ._fit import check_finite_fit
 from ._functional_ridge import FunctionalRidgeBase
 from ._integrated_design import DESIGN_CONSTRAINTS
 from ._penalized import centered_cross_products, cross_products, gcv_score
@@ -158,7 +159,7 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
         self.n_samples_seen_ = int(X.shape[0])
         self._partial_statistics = stats
         self._target_ndim = y.ndim
-        return self._select(stats, criterion, alphas, basis, y.ndim)
+        return check_finite_fit(self._select(stats, criterion, alphas, basis, y.ndim))
 
     def _check_pooled(self):
         if self.criterion != "gcv" or self.cv is not None:
@@ -202,7 +203,7 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
         if self.criterion == "gcv":
             rss = part["yy"][:, None] - path.rss_reduction(part["rotated"], alphas)
             edf = path.edf(alphas) + self.fit_intercept
-            return gcv_score(rss, edf, stats["n"], stats["sw"])
+            return gcv_score(rss, edf, stats["sw"])  # frequency weights
         return self._held_out_error(path, part, Z, y2, sample_weight, alphas, True)
 
     def _held_out_error(self, path, part, Z, y2, sample_weight, alphas, leverage):

@@ -56,6 +56,7 @@ from ._blocks import row_blocks
 from ._dask import check_rows
 from ._docstrings import fill_doc
 from ._estimator import ShortReprMixin, store_init_params
+from ._fit import check_finite_fit
 from ._fpca import _single_thread, sign_convention
 from ._penalized import (
     NotIdentifiableError,
@@ -64,7 +65,7 @@ from ._penalized import (
     penalty_for,
     power_of_two_scale,
 )
-from ._validation import check_level, validate_curves
+from ._validation import check_level, resolve_n_basis, validate_curves
 
 #: cap on the number of B-splines per direction of the covariance surface:
 #: the tensor product has this number squared coefficients (225), which a
@@ -109,6 +110,8 @@ def _bspline(domain, n_basis, n_points, degree):
     ``n_points`` distinct times; the degree lowered on tiny grids."""
     if n_basis is None:
         n_basis = default_n_basis("bspline", n_points, degree)
+    else:  # the one size limit, checked before any K x K matrix exists
+        n_basis = resolve_n_basis("bspline", n_basis, n_points, degree, cap=False)
     degree = min(degree, n_basis - 1)
     return BSplineBasis(domain, n_basis, degree=degree)
 
@@ -589,7 +592,7 @@ class SparseFunctionalPCA(ShortReprMixin, ClassNamePrefixFeaturesOutMixin, Trans
         self.noise_variance_ = noise
         self.n_components_ = int(n_keep)
         self.n_observations_ = int(values.size)
-        return self
+        return check_finite_fit(self)
 
     def _covariance_n_basis(self, n_points):
         if self.covariance_n_basis is not None:

@@ -50,6 +50,8 @@ def test_demo_runs_saves_and_draws(demo_run):
     # an invented but honest check: predictions track the true strength
     assert np.corrcoef(pred, kiln.strength)[0, 1] > 0.8
     figure = folder / "model.png"
+    # a blank 13 x 7.5 inch canvas at 90 dpi is 4.7 kB as PNG (measured with
+    # matplotlib 3.x): this only rules out an empty file or a blank figure
     assert figure.stat().st_size > 10_000
     assert figure.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"  # PNG signature
 
@@ -79,7 +81,8 @@ def test_demo_refuses_to_overwrite_without_force(tmp_path, capsys):
     with pytest.raises(SystemExit) as info:
         main(["demo", "--output", str(output), *FAST])
     assert info.value.code == 2
-    assert "already exists; pass --force" in capsys.readouterr().err
+    err = capsys.readouterr().err
+    assert f"--output: {output} already exists" in err and "--force" in err
     assert output.read_bytes() == b"keep me"
     main(["demo", "--output", str(output), "--force", "--no-figure", *FAST])
     assert output.read_bytes() != b"keep me"
@@ -102,6 +105,9 @@ def test_demo_refuses_to_overwrite_without_force(tmp_path, capsys):
         (["demo", "--n-jobs", "0"], "expected -1 (all cores) or a whole number from 1"),
         (["demo", "--n-jobs", "-2"], "got -2"),
         (["demo", "--colour"], "unrecognized arguments: --colour"),
+        (["demo", "--output", ""], "expected a file name ending in"),
+        (["demo", "--output", "/"], "expected a file name ending in"),
+        (["demo", "--figure", ""], "--figure needs a file name"),
     ],
 )
 def test_bad_options_get_clear_messages(argv, message, capsys):
@@ -114,6 +120,54 @@ def test_bad_options_get_clear_messages(argv, message, capsys):
     # folders), all print the demo's usage line
     if argv[:1] == ["demo"]:
         assert err.startswith("usage: python -m skfunc demo")
+
+
+@pytest.fixture
+def no_work(monkeypatch):
+    """Make any run of the demo's stages fail the test: refusals must come
+    before any work."""
+    import skfunc._demo as demo
+
+    def fail(*args, **kwargs):
+        raise AssertionError("the demo started working before refusing")
+
+    monkeypatch.setattr(demo, "run_demo", fail)
+
+
+@pytest.mark.parametrize("argv, message", [
+    (["--output", "model.png"], "expected a file name ending in .joblib or .skops"),
+    (["--output", "model.joblib", "--figure", "model.joblib"],
+     "--figure must end in .png, .pdf or .svg"),
+])
+def test_figure_cannot_overwrite_the_model(tmp_path, capsys, no_work, monkeypatch,
+                                           argv, message):
+    # --output model.png used to be overwritten by the default figure model.png;
+    # model and figure suffixes are now disjoint, refused before any work
+    monkeypatch.chdir(tmp_path)
+    with pytest.raises(SystemExit) as info:
+        main(["demo", *argv, "--force"])
+    assert info.value.code == 2
+    assert message in capsys.readouterr().err
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_unwritable_folder_is_refused_first_naming_the_target(tmp_path, capsys,
+                                                             no_work, monkeypatch):
+    # a folder that refuses new files (simulated: tests may run as root) is found
+    # before the demo runs, and the message names the model file
+    import skfunc.persistence as persistence
+
+    def refuse(*args, **kwargs):
+        raise PermissionError(13, "Permission denied", str(tmp_path / ".x.probe"))
+
+    monkeypatch.setattr(persistence.tempfile, "mkstemp", refuse)
+    output = tmp_path / "model.joblib"
+    with pytest.raises(SystemExit) as info:
+        main(["demo", "--output", str(output), *FAST])
+    assert info.value.code == 2
+    err = capsys.readouterr().err
+    assert f"--output: Cannot write {output}" in err and "Permission denied" in err
+    assert ".part" not in err and ".probe" not in err
 
 
 def test_n_jobs_accepts_all_cores():

@@ -7,7 +7,9 @@ errors, and the published GCV criterion.
 
 
 import numpy as np
+import pandas as pd
 import pytest
+import statsmodels.api as sm
 from numpy.testing import assert_allclose
 from sklearn.linear_model import LinearRegression, RidgeCV
 from sklearn.model_selection import GridSearchCV, KFold, cross_val_score
@@ -21,9 +23,6 @@ from skfunc.linear_model import (
     FunctionOnFunctionRidge,
     FunctionOnScalarRidge,
 )
-
-pd = pytest.importorskip("pandas")
-sm = pytest.importorskip("statsmodels.api")
 
 
 def _scalar_data(rng, n=60, p=3, m=41, noise=0.3, grid=None):

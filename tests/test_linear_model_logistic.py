@@ -259,7 +259,7 @@ def test_bad_input(rng):
         FunctionalLogisticRegression().fit(X, np.linspace(0, 1, 40))
     with pytest.raises(ValueError, match="inconsistent numbers of samples"):
         FunctionalLogisticRegression().fit(X, y[:-1])
-    with pytest.raises(ValueError, match="Negative values"):
+    with pytest.raises(ValueError, match="sample_weight must be non-negative"):
         FunctionalLogisticRegression().fit(X, y, sample_weight=-np.ones(40))
     with pytest.raises(ValueError, match="class_weight"):
         FunctionalLogisticRegression(class_weight="equal").fit(X, y)
