@@ -295,6 +295,23 @@ ax : matplotlib Axes, default=None
 **plot_kwargs
     Passed to :meth:`plot`.
 """,
+    "points_grid": """
+grid : array-like of shape (n_points,), default=None
+    Sampling points; None means evenly spaced on [0, 1].
+quadrature : {"trapezoid", "simpson"}, default="trapezoid"
+    Quadrature rule.
+""",
+    "paired_curves": """
+x, y : array-like of shape (n_points,) or (n_curves, n_points)
+    Curves sampled on ``grid``; 2-D inputs pair row i with row i, and a
+    single curve broadcasts against many.
+%(points_grid)s
+""",
+    "true_pred_curves": """
+y_true, y_pred : array-like of shape (n_samples, n_points)
+    True and predicted curves on ``grid``.
+%(points_grid)s
+""",
 }
 
 

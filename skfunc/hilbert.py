@@ -36,6 +36,7 @@ import numpy as np
 from scipy.spatial.distance import cdist
 from sklearn.utils.validation import check_array
 
+from ._docstrings import fill_doc
 from ._grid import grid_weights
 
 __all__ = [
@@ -96,6 +97,13 @@ def _pair(x, y, names=("x", "y")):
         )
 
 
+def _paired_curves(x, y, grid, quadrature):
+    """Validate two paired curve arrays and their quadrature weights."""
+    x, y = _curves(x, "x"), _curves(y, "y")
+    _pair(x, y)
+    return x, y, grid_weights(grid, x.shape[-1], quadrature)
+
+
 def _unit(x):
     """``(u, s)`` with ``x = s * u``, ``s = max |x|`` along the last axis
     (kept as an axis of length 1) and ``max |u| = 1`` (u = 0 where s = 0)."""
@@ -123,18 +131,13 @@ def _centred(x, w, name, what):
     return u, c, mean, s
 
 
+@fill_doc
 def inner_product(x, y, *, grid=None, quadrature="trapezoid"):
     """L2 inner products ``<x_i, y_i>`` of corresponding curves.
 
     Parameters
     ----------
-    x, y : array-like of shape (n_points,) or (n_curves, n_points)
-        Curves sampled on ``grid``; 2-D inputs pair row i with row i, and a
-        single curve broadcasts against many.
-    grid : array-like of shape (n_points,), default=None
-        Sampling points; None means evenly spaced on [0, 1].
-    quadrature : {"trapezoid", "simpson"}, default="trapezoid"
-        Quadrature rule.
+    %(paired_curves)s
 
     Returns
     -------
@@ -148,9 +151,7 @@ def inner_product(x, y, *, grid=None, quadrature="trapezoid"):
     >>> round(float(inner_product(t, t, grid=t)), 4)  # int_0^1 t^2 dt = 1/3
     0.3333
     """
-    x, y = _curves(x, "x"), _curves(y, "y")
-    _pair(x, y)
-    w = grid_weights(grid, x.shape[-1], quadrature)
+    x, y, w = _paired_curves(x, y, grid, quadrature)
     (u, sx), (v, sy) = _unit(x), _unit(y)
     return sx[..., 0] * (((u * v) @ w) * sy[..., 0])
 
@@ -167,6 +168,7 @@ def norm(x, *, grid=None, quadrature="trapezoid"):
     return s[..., 0] * np.sqrt((u * u) @ w)
 
 
+@fill_doc
 def l2_distance(X, Y=None, *, grid=None, quadrature="trapezoid"):
     """Pairwise L2 distances ``||X_i - Y_j||`` between curves.
 
@@ -177,7 +179,7 @@ def l2_distance(X, Y=None, *, grid=None, quadrature="trapezoid"):
     X : array-like of shape (n_X, n_points)
     Y : array-like of shape (n_Y, n_points), default=None
         None means ``Y = X``.
-    grid, quadrature : see :func:`inner_product`.
+    %(points_grid)s
 
     Returns
     -------
@@ -245,6 +247,7 @@ def covariance_function(X, *, ddof=1):
     return s[:, None] * ((u @ u.T / dof) * s[None, :])
 
 
+@fill_doc
 def correlation(x, y, *, grid=None, quadrature="trapezoid"):
     """Hilbert-space correlation of two curves.
 
@@ -254,8 +257,7 @@ def correlation(x, y, *, grid=None, quadrature="trapezoid"):
 
     Parameters
     ----------
-    x, y : array-like of shape (n_points,) or (n_curves, n_points)
-    grid, quadrature : see :func:`inner_product`.
+    %(paired_curves)s
 
     Returns
     -------
@@ -275,9 +277,7 @@ def correlation(x, y, *, grid=None, quadrature="trapezoid"):
     >>> round(float(correlation(t, 3 * t + 1, grid=t)), 6)
     1.0
     """
-    x, y = _curves(x, "x"), _curves(y, "y")
-    _pair(x, y)
-    w = grid_weights(grid, x.shape[-1], quadrature)
+    x, y, w = _paired_curves(x, y, grid, quadrature)
     u = _centred(x, w, "x", "correlation")[0]
     v = _centred(y, w, "y", "correlation")[0]
     r = ((u * v) @ w) / np.sqrt(((u * u) @ w) * ((v * v) @ w))
@@ -285,6 +285,7 @@ def correlation(x, y, *, grid=None, quadrature="trapezoid"):
     return np.clip(r, -1.0, 1.0)
 
 
+@fill_doc
 def simple_regression(x, y, *, grid=None, quadrature="trapezoid"):
     """Least-squares fit ``y(t) ~ b0 + b1 x(t)`` in L2, with scalar b0, b1.
 
@@ -293,8 +294,7 @@ def simple_regression(x, y, *, grid=None, quadrature="trapezoid"):
 
     Parameters
     ----------
-    x, y : array-like of shape (n_points,) or (n_curves, n_points)
-    grid, quadrature : see :func:`inner_product`.
+    %(paired_curves)s
 
     Returns
     -------
@@ -315,9 +315,7 @@ def simple_regression(x, y, *, grid=None, quadrature="trapezoid"):
     >>> round(float(b0), 6), round(float(b1), 6)
     (2.0, 3.0)
     """
-    x, y = _curves(x, "x"), _curves(y, "y")
-    _pair(x, y)
-    w = grid_weights(grid, x.shape[-1], quadrature)
+    x, y, w = _paired_curves(x, y, grid, quadrature)
     # x = sx (mx + cx u) with max|u| = 1, and likewise for y (constant y allowed)
     u, cx, mx, sx = _centred(x, w, "x", "the slope of simple_regression")
     ys, sy = _unit(y)

@@ -29,6 +29,7 @@ ed., sec. 13.2 (pointwise and integrated R^2). Springer.
 import numpy as np
 from sklearn.utils.validation import check_consistent_length
 
+from ._docstrings import fill_doc
 from ._grid import check_grid, grid_from_labels, grid_weights
 from ._weights import check_sample_weight
 from .hilbert import _curves
@@ -108,6 +109,7 @@ def _ratio_score(sse, sst):
     return np.where(flat, np.where(sse == 0, 1.0, 0.0), r2)
 
 
+@fill_doc
 def integrated_squared_error(y_true, y_pred, *, grid=None, quadrature="trapezoid",
                              sample_weight=None, multioutput="uniform_average"):
     """Mean integrated squared error ``mean_i int (y_i(t) - y_hat_i(t))^2 dt``.
@@ -117,12 +119,7 @@ def integrated_squared_error(y_true, y_pred, *, grid=None, quadrature="trapezoid
 
     Parameters
     ----------
-    y_true, y_pred : array-like of shape (n_samples, n_points)
-        True and predicted curves on ``grid``.
-    grid : array-like of shape (n_points,), default=None
-        Sampling points; None means evenly spaced on [0, 1].
-    quadrature : {"trapezoid", "simpson"}, default="trapezoid"
-        Quadrature rule.
+    %(true_pred_curves)s
     sample_weight : array-like of shape (n_samples,), default=None
         Frequency weights of the curves (a weight of 2 counts a curve twice):
         finite, non-negative, not all zero. They weight the average; raw
@@ -157,6 +154,7 @@ def integrated_squared_error(y_true, y_pred, *, grid=None, quadrature="trapezoid
     return float(s * (s * (sw @ ise / sw.sum())))
 
 
+@fill_doc
 def integrated_r2_score(y_true, y_pred, *, grid=None, quadrature="trapezoid",
                         sample_weight=None, multioutput="variance_weighted"):
     """Integrated coefficient of determination ``1 - int SSE(t) / int SST(t)``.
@@ -181,12 +179,7 @@ def integrated_r2_score(y_true, y_pred, *, grid=None, quadrature="trapezoid",
 
     Parameters
     ----------
-    y_true, y_pred : array-like of shape (n_samples, n_points)
-        True and predicted curves on ``grid``.
-    grid : array-like of shape (n_points,), default=None
-        Sampling points; None means evenly spaced on [0, 1].
-    quadrature : {"trapezoid", "simpson"}, default="trapezoid"
-        Quadrature rule.
+    %(true_pred_curves)s
     sample_weight : array-like of shape (n_samples,), default=None
         Frequency weights of the curves (a weight of 2 counts a curve twice):
         finite, non-negative, not all zero. They give the mean curve
