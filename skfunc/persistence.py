@@ -94,12 +94,7 @@ def save_model(model, path, *, force=False, compress=3):
     ):
         raise ValueError(f"compress must be an integer from 1 to 9; got {compress!r}.")
     _check_target(path, force=force, probe=False)
-    try:
-        fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part",
-                                   dir=path.parent)
-    except OSError as exc:
-        raise _unwritable(path, exc) from exc
-    os.close(fd)
+    tmp = _empty_file_beside(path, ".part")
     try:
         try:
             if _is_skops(path):
@@ -134,14 +129,20 @@ def _check_target(path, *, force=False, probe=True):
     if not path.parent.exists():
         raise FileNotFoundError(f"The folder {path.parent} does not exist.")
     if probe:
-        try:
-            fd, name = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".probe",
-                                        dir=path.parent)
-        except OSError as exc:
-            raise _unwritable(path, exc) from exc
-        os.close(fd)
-        os.remove(name)
+        os.remove(_empty_file_beside(path, ".probe"))
     return path
+
+
+def _empty_file_beside(path, suffix):
+    """Create an empty hidden file in ``path``'s folder and return its name;
+    a folder that refuses it raises the error of :func:`_unwritable`."""
+    try:
+        fd, name = tempfile.mkstemp(prefix=f".{path.name}.", suffix=suffix,
+                                    dir=path.parent)
+    except OSError as exc:
+        raise _unwritable(path, exc) from exc
+    os.close(fd)
+    return name
 
 
 def _unwritable(path, exc):
