@@ -21,6 +21,7 @@ curves are sampled (up to the quadrature's error).
 import numpy as np
 from sklearn.utils.validation import check_array
 
+from ._docstrings import fill_doc
 from ._grid import grid_weights, resolve_grid
 
 #: 1 / Phi^{-1}(3/4): makes the MAD a consistent scale for normal data
@@ -187,6 +188,7 @@ def magnitude_shape_values(X, median, scale, weights):
     return mean, variation
 
 
+@fill_doc
 def band_depth(X, reference=None, *, grid=None):
     """Band depth of curves, with bands formed by two reference curves.
 
@@ -198,19 +200,12 @@ def band_depth(X, reference=None, *, grid=None):
 
     Parameters
     ----------
-    X : array-like of shape (n_curves, n_points)
-        Curves (rows), complete.
-    reference : array-like of shape (n_reference, n_points), default=None
-        The sample the depth refers to, on the same grid; None means ``X``.
-        At least 2 curves.
+    %(band_depth_X)s
     grid : array-like of shape (n_points,), default=None
         Sampling points. Band depth does not depend on them; accepted for a
         uniform signature (and validated).
 
-    Returns
-    -------
-    depth : ndarray of shape (n_curves,)
-        Values in [0, 1]; larger is more central.
+    %(band_depth_returns)s
 
     See Also
     --------
@@ -246,6 +241,7 @@ def band_depth(X, reference=None, *, grid=None):
     return band_values(values, ref)
 
 
+@fill_doc
 def modified_band_depth(X, reference=None, *, grid=None):
     """Modified band depth of curves with respect to a reference sample.
 
@@ -256,19 +252,10 @@ def modified_band_depth(X, reference=None, *, grid=None):
 
     Parameters
     ----------
-    X : array-like of shape (n_curves, n_points)
-        Curves (rows), complete.
-    reference : array-like of shape (n_reference, n_points), default=None
-        The sample the depth refers to, on the same grid; None means ``X``.
-        At least 2 curves.
-    grid : array-like of shape (n_points,), default=None
-        Sampling points; None means the numeric column labels of a
-        DataFrame, else evenly spaced on [0, 1].
+    %(band_depth_X)s
+    %(depth_grid)s
 
-    Returns
-    -------
-    depth : ndarray of shape (n_curves,)
-        Values in [0, 1]; larger is more central.
+    %(band_depth_returns)s
 
     See Also
     --------
@@ -310,6 +297,7 @@ def modified_band_depth(X, reference=None, *, grid=None):
     return mbd_values(values, ref, weights)
 
 
+@fill_doc
 def integrated_depth(X, reference=None, *, grid=None):
     """Integrated depth of curves (Fraiman & Muniz, 2001).
 
@@ -319,13 +307,10 @@ def integrated_depth(X, reference=None, *, grid=None):
 
     Parameters
     ----------
-    X : array-like of shape (n_curves, n_points)
-        Curves (rows), complete.
+    %(depth_X)s
     reference : array-like of shape (n_reference, n_points), default=None
         The sample the depth refers to, on the same grid; None means ``X``.
-    grid : array-like of shape (n_points,), default=None
-        Sampling points; None means the numeric column labels of a
-        DataFrame, else evenly spaced on [0, 1].
+    %(depth_grid)s
 
     Returns
     -------
@@ -349,6 +334,7 @@ def integrated_depth(X, reference=None, *, grid=None):
     return integrated_values(values, ref, weights)
 
 
+@fill_doc
 def magnitude_shape_outlyingness(X, reference=None, *, grid=None):
     """Magnitude and shape parts of the directional outlyingness of curves.
 
@@ -363,13 +349,10 @@ def magnitude_shape_outlyingness(X, reference=None, *, grid=None):
 
     Parameters
     ----------
-    X : array-like of shape (n_curves, n_points)
-        Curves (rows), complete.
+    %(depth_X)s
     reference : array-like of shape (n_reference, n_points), default=None
         The sample the outlyingness refers to; None means ``X``.
-    grid : array-like of shape (n_points,), default=None
-        Sampling points; None means the numeric column labels of a
-        DataFrame, else evenly spaced on [0, 1].
+    %(depth_grid)s
 
     Returns
     -------

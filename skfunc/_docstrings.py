@@ -312,6 +312,27 @@ y_true, y_pred : array-like of shape (n_samples, n_points)
     True and predicted curves on ``grid``.
 %(points_grid)s
 """,
+    "depth_X": """
+X : array-like of shape (n_curves, n_points)
+    Curves (rows), complete.
+""",
+    "band_depth_X": """
+%(depth_X)s
+reference : array-like of shape (n_reference, n_points), default=None
+    The sample the depth refers to, on the same grid; None means ``X``.
+    At least 2 curves.
+""",
+    "depth_grid": """
+grid : array-like of shape (n_points,), default=None
+    Sampling points; None means the numeric column labels of a
+    DataFrame, else evenly spaced on [0, 1].
+""",
+    "band_depth_returns": """
+Returns
+-------
+depth : ndarray of shape (n_curves,)
+    Values in [0, 1]; larger is more central.
+""",
 }
 
 
