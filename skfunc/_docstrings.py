@@ -333,6 +333,11 @@ Returns
 depth : ndarray of shape (n_curves,)
     Values in [0, 1]; larger is more central.
 """,
+    "display_curves_grid": """
+X : array-like of shape (n_curves, n_points)
+    Curves (rows), complete; at least 2.
+%(depth_grid)s
+""",
 }
 
 

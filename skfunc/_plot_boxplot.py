@@ -142,11 +142,7 @@ class FunctionalBoxplotDisplay:
 
         Parameters
         ----------
-        X : array-like of shape (n_curves, n_points)
-            Curves (rows), complete; at least 2.
-        grid : array-like of shape (n_points,), default=None
-            Sampling points; None means the numeric column labels of a
-            DataFrame, else evenly spaced on [0, 1].
+        %(display_curves_grid)s
         factor : float, default=1.5
             Fences at ``factor`` times the central region's width beyond it.
         %(display_labels_ax)s

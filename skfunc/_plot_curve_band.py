@@ -54,6 +54,7 @@ class CurveBandDisplay(_Display):
         store_init_params(self, locals())
 
     @classmethod
+    @fill_doc
     def from_data(cls, X, *, grid=None, n_sd=2.0, max_curves=50, ax=None):
         """Compute the mean and SD of the curves ``X`` and plot them.
 
@@ -62,9 +63,7 @@ class CurveBandDisplay(_Display):
         X : array-like of shape (n_curves, n_points)
             Curves as rows; NaN marks missing values, ignored in the mean
             and SD. A DataFrame with numeric column labels gives the grid.
-        grid : array-like of shape (n_points,), default=None
-            Sampling points; None means the numeric column labels of a
-            DataFrame, else evenly spaced on [0, 1].
+        %(depth_grid)s
         n_sd : float, default=2.0
             Half-width of the band in standard deviations.
         max_curves : int, default=50

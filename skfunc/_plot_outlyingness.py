@@ -78,11 +78,7 @@ class OutlyingnessDisplay:
 
         Parameters
         ----------
-        X : array-like of shape (n_curves, n_points)
-            Curves (rows), complete; at least 2.
-        grid : array-like of shape (n_points,), default=None
-            Sampling points; None means the numeric column labels of a
-            DataFrame, else evenly spaced on [0, 1].
+        %(display_curves_grid)s
         labels : list of str, default=None
             One label per curve; None means the row numbers.
         random_state : int, RandomState instance or None, default=None
