@@ -400,13 +400,12 @@ class CurveOutlierDetector(ShortReprMixin, OutlierMixin, BaseEstimator):
         from the central region in widths ("boxplot"), or minus the squared
         robust distance of (magnitude, shape) ("magnitude_shape").
 
-        Parameters
-        ----------
-        %(fitted_grid_X)s
+        %(fitted_curves)s
 
         Returns
         -------
         scores : ndarray of shape (n_samples,)
+            Larger is more typical of the training curves.
         """
         check_is_fitted(self)
         X = self._validate(X, reset=False)
@@ -416,13 +415,12 @@ class CurveOutlierDetector(ShortReprMixin, OutlierMixin, BaseEstimator):
     def decision_function(self, X):
         """``score_samples(X) - offset_``: negative for outliers.
 
-        Parameters
-        ----------
-        %(fitted_grid_X)s
+        %(fitted_curves)s
 
         Returns
         -------
         decision : ndarray of shape (n_samples,)
+            Negative for outliers, 0 on the threshold ``offset_``.
         """
         return self.score_samples(X) - self.offset_
 
@@ -430,13 +428,13 @@ class CurveOutlierDetector(ShortReprMixin, OutlierMixin, BaseEstimator):
     def predict(self, X):
         """1 for typical curves, -1 for outliers.
 
-        Parameters
-        ----------
-        %(fitted_grid_X)s
+        %(fitted_curves)s
 
         Returns
         -------
         labels : ndarray of shape (n_samples,)
+            1 (typical) or -1 (outlier), the sign of :meth:`decision_function`
+            (0 counts as typical).
         """
         decision = self.decision_function(X)
         return np.where(decision < 0, -1, 1)
@@ -445,9 +443,7 @@ class CurveOutlierDetector(ShortReprMixin, OutlierMixin, BaseEstimator):
     def outlier_kind(self, X):
         """How each curve is unusual.
 
-        Parameters
-        ----------
-        %(fitted_grid_X)s
+        %(fitted_curves)s
 
         Returns
         -------
@@ -470,9 +466,7 @@ class CurveOutlierDetector(ShortReprMixin, OutlierMixin, BaseEstimator):
     def outlyingness(self, X):
         """Magnitude and shape outlyingness relative to the training curves.
 
-        Parameters
-        ----------
-        %(fitted_grid_X)s
+        %(fitted_curves)s
 
         Returns
         -------

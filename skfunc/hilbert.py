@@ -141,7 +141,8 @@ def inner_product(x, y, *, grid=None, quadrature="trapezoid"):
 
     Returns
     -------
-    float or ndarray of shape (n_curves,)
+    products : float or ndarray of shape (n_curves,)
+        One per pair of curves; a float when both are single curves.
 
     Examples
     --------
@@ -261,7 +262,8 @@ def correlation(x, y, *, grid=None, quadrature="trapezoid"):
 
     Returns
     -------
-    float or ndarray of shape (n_curves,)
+    r : float or ndarray of shape (n_curves,)
+        In [-1, 1]; a float when both are single curves.
 
     Raises
     ------

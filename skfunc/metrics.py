@@ -131,7 +131,8 @@ def integrated_squared_error(y_true, y_pred, *, grid=None, quadrature="trapezoid
 
     Returns
     -------
-    float or ndarray of shape (n_samples,)
+    ise : float or ndarray of shape (n_samples,)
+        A float, or one value per curve with ``multioutput="raw_values"``.
 
     Examples
     --------
@@ -196,7 +197,8 @@ def integrated_r2_score(y_true, y_pred, *, grid=None, quadrature="trapezoid",
 
     Returns
     -------
-    float or ndarray of shape (n_samples,)
+    score : float or ndarray of shape (n_samples,)
+        A float, or one ``R^2_i`` per curve with ``multioutput="raw_values"``.
 
     Examples
     --------
