@@ -338,6 +338,11 @@ X : array-like of shape (n_curves, n_points)
     Curves (rows), complete; at least 2.
 %(depth_grid)s
 """,
+    "scalar_outcome_predict_X": """
+Parameters
+----------
+%(scalar_outcome_X)s
+""",
 }
 
 

@@ -335,16 +335,17 @@ class FunctionalLogisticRegression(
                 stacklevel=4,
             )
 
+    @fill_doc
     def decision_function(self, X):
         """Log-odds of ``classes_[1]`` (binary) or class scores (multinomial).
 
-        Parameters
-        ----------
-        X : array-like of shape (n_samples, n_features)
+        %(scalar_outcome_predict_X)s
 
         Returns
         -------
         scores : ndarray of shape (n_samples,) or (n_samples, n_classes)
+            Positive log-odds favour ``classes_[1]``; with more than two
+            classes, the largest score is the most probable class.
         """
         scores = self._linear_predictor(X)
         return scores[:, 0] if scores.shape[1] == 1 else scores
@@ -364,16 +365,16 @@ class FunctionalLogisticRegression(
             return -np.logaddexp(0.0, np.column_stack([scores, -scores]))
         return scores - logsumexp(scores, axis=1, keepdims=True)
 
+    @fill_doc
     def predict(self, X):
         """Most probable class.
 
-        Parameters
-        ----------
-        X : array-like of shape (n_samples, n_features)
+        %(scalar_outcome_predict_X)s
 
         Returns
         -------
         labels : ndarray of shape (n_samples,)
+            Entries of ``classes_``.
         """
         scores = self.decision_function(X)
         index = (scores > 0).astype(int) if scores.ndim == 1 else scores.argmax(axis=1)
