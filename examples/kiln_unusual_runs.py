@@ -1,4 +1,6 @@
-"""Which firing runs are unusual, and how?
+"""
+Which firing runs are unusual, and how?
+=======================================
 
 Invented kiln data: each run logs the kiln temperature once a minute over a
 10-hour cycle. A few runs are faulty (a heating element fails and the kiln
@@ -23,10 +25,6 @@ and follow the applicable standards and qualified practice before acting on
 it. Figures are saved to the directory given as the first argument (by
 default a new temporary directory).
 """
-
-import sys
-import tempfile
-from pathlib import Path
 
 import matplotlib.pyplot as plt
 import numpy as np
@@ -84,8 +82,3 @@ FunctionalBoxplotDisplay.from_estimator(
     ylabel="temperature (°C)",
     title="Firing runs: median, central half and flagged runs")
 OutlyingnessDisplay.from_estimator(detector, curves, labels=labels, ax=axes[1])
-
-out = Path(sys.argv[1]) if len(sys.argv) > 1 else Path(tempfile.mkdtemp())
-out.mkdir(parents=True, exist_ok=True)
-fig.savefig(out / "kiln_unusual_runs.png", dpi=100)
-print(f"figure saved to {out / 'kiln_unusual_runs.png'}")
