@@ -1,7 +1,7 @@
 """Benchmark of the user's first hour: ``python -m skfunc demo`` and the
 examples, against their time budgets.
 
-Targets (issue 7): the demo finishes in under 60 s on two cores; every
+Targets: the demo finishes in under 60 s on two cores; every
 script in ``examples/`` in under 30 s. Each command runs in a fresh Python
 process (as a user would run it, imports included), with the Agg backend.
 The table gives the wall time and its ratio to the budget (< 1 meets it).

@@ -1,7 +1,7 @@
 """Benchmark of FunctionalPCA: speed against scikit-learn's PCA, and memory
 of partial_fit.
 
-Targets (issue 4): ``fit`` on 50,000 curves x 500 points with 10 components
+Targets: ``fit`` on 50,000 curves x 500 points with 10 components
 within 1.5x the time of ``PCA(svd_solver="randomized")`` on the same matrix;
 ``partial_fit`` over 10 chunks within 2x of ``fit``; peak memory of
 ``partial_fit`` about one chunk plus K x K.

@@ -1,6 +1,6 @@
 """Benchmark: FunctionOnScalarRidge against one least-squares solve.
 
-The issue's target: a function-on-scalar fit of 100,000 runs x 5 covariates x
+The target: a function-on-scalar fit of 100,000 runs x 5 covariates x
 500-point response curves (GCV over 25 alphas, coefficient functions and
 their covariance included) within 3x the time of one
 ``numpy.linalg.lstsq(Z, Y)`` of the same shapes (Z with a constant column).

@@ -1,6 +1,6 @@
 """Benchmark: the all-alpha path of FunctionalRidgeCV against refitting.
 
-Targets (issue 5): FunctionalRidgeCV over 50 alphas on 50,000 curves x 500
+Targets: FunctionalRidgeCV over 50 alphas on 50,000 curves x 500
 points costs at most 3x one FunctionalRidge fit at a fixed alpha, and is at
 least 20x faster than GridSearchCV(FunctionalRidge(), 50 alphas, cv=5), in
 the same run. sklearn's RidgeCV on the raw grid values is shown for scale.
