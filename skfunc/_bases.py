@@ -7,6 +7,14 @@ basis offers
 * ``evaluate(t, derivative=0)``: the matrix ``Phi[j, k] = D^d phi_k(t_j)``;
 * ``gram()``: the exact matrix ``int phi_i phi_j``;
 * ``penalty(order)``: the exact roughness matrix ``int D^q phi_i D^q phi_j``;
+* ``roughness(order)``: the same, with the single-piece rule (a polynomial
+  of degree below ``order`` has zero roughness);
+* ``null_space(order)``: exact coefficients of the functions the roughness
+  penalty leaves free (polynomials of degree below ``order``, or constants
+  for the periodic Fourier basis);
+* ``unit_roughness(order)`` and ``unit_gram()``: roughness and Gram matrices
+  of the same functions on the domain mapped to [0, 1] (what makes a
+  penalty weight independent of the unit and origin of the grid);
 * ``feature_names()``: one readable name per basis function.
 
 Nothing here is computed from the data's grid: Gram and penalty matrices are
@@ -14,11 +22,13 @@ exact (Gauss-Legendre per knot span for splines, closed forms otherwise). To
 add a basis, subclass :class:`Basis` and register it in :data:`BASES`.
 """
 
+import warnings
 from abc import ABC, abstractmethod
 
 import numpy as np
 from numpy.polynomial import legendre as npleg
 from scipy.interpolate import BSpline
+from scipy.linalg import solve
 
 
 class Basis(ABC):
@@ -82,6 +92,62 @@ class Basis(ABC):
     def feature_names(self):
         return [f"{self.name}{k}" for k in range(self.n_basis)]
 
+    # -- the roughness penalty split into its null space and complement -----
+
+    def null_dimension(self, order):
+        """Dimension of the functions of the basis that ``D^order`` annihilates."""
+        if order == 0:
+            return 0
+        return min(order, self.n_basis)
+
+    def roughness(self, order):
+        """Exact roughness matrix ``int D^q phi_i D^q phi_j``, shape (K, K).
+
+        Unlike :meth:`penalty`, an order above the basis' smoothness is
+        accepted when every function of the basis is a polynomial of degree
+        below ``order`` (a single B-spline piece): its roughness is zero.
+        """
+        if self.null_dimension(order) == self.n_basis:
+            return np.zeros((self.n_basis, self.n_basis))
+        return self.penalty(order)
+
+    def null_space(self, order):
+        """Exact basis coefficients of the penalty's null space, shape (K, r).
+
+        Column ``i`` holds the coefficients of the shifted Legendre
+        polynomial ``P_i(2 (t - a) / L - 1)`` for ``i < r = null_dimension``
+        (the constant alone for the periodic Fourier basis), so that
+        ``roughness(order) @ null_space(order)`` is zero up to rounding in
+        the roughness matrix only: the null space itself is not found from
+        small eigenvalues.
+        """
+        order = int(order)
+        r = self.null_dimension(order)
+        if r == self.n_basis:
+            return np.eye(self.n_basis)
+        if r == 0:
+            return np.zeros((self.n_basis, 0))
+        self.check_derivative(order, name="penalty_order")
+        return self._null_space(r)
+
+    def _null_space(self, r):
+        # polynomials are in the span: interpolate them at r + (K - r) points
+        # where the basis is unisolvent (subclasses give exact closed forms)
+        raise NotImplementedError  # pragma: no cover
+
+    def unit_roughness(self, order):
+        """Roughness of the same functions on the domain mapped to [0, 1].
+
+        With ``u = (t - a) / L``, ``int_a^b (D_t^q f)^2 dt = L^(1 - 2q)
+        int_0^1 (D_u^q f)^2 du``, so this is ``L^(2q - 1) roughness(order)``:
+        unchanged when the grid changes unit or origin.
+        """
+        return self.roughness(order) * self.length ** (2 * int(order) - 1)
+
+    def unit_gram(self):
+        """Gram matrix of the same functions on the domain mapped to [0, 1]."""
+        return self.gram() / self.length
+
 
 class BSplineBasis(Basis):
     """B-splines of a given degree with clamped boundary knots.
@@ -144,6 +210,30 @@ class BSplineBasis(Basis):
     def _spline(self):
         return BSpline(self.knots, np.eye(self.n_basis), self.degree, extrapolate=True)
 
+    def null_dimension(self, order):
+        if order == 0:
+            return 0
+        if order > self.degree and self.n_basis == self.degree + 1:
+            return self.n_basis  # a single polynomial piece of degree < order
+        return min(order, self.n_basis)
+
+    def greville(self):
+        """Greville abscissae: knot averages ``(t_{k+1} + ... + t_{k+p}) / p``."""
+        p = self.degree
+        if p == 0:
+            return (self.knots[:-1] + self.knots[1:]) / 2
+        windows = np.lib.stride_tricks.sliding_window_view(self.knots[1:-1], p)
+        return windows.mean(axis=1)
+
+    def _null_space(self, r):
+        # Polynomials of degree < r <= degree lie in the spline space, and
+        # interpolation at the Greville abscissae is unisolvent (Schoenberg-
+        # Whitney), so the solve reproduces them exactly up to rounding
+        # (de Boor 2001, ch. IX, Marsden's identity).
+        xi = self.greville()
+        u = 2 * (xi - self.domain[0]) / self.length - 1
+        return solve(self.evaluate(xi), npleg.legvander(u, r - 1))
+
     def penalty(self, order):
         order = self.check_derivative(order, name="penalty_order")
         breaks = np.unique(self.knots)
@@ -157,18 +247,48 @@ class BSplineBasis(Basis):
 
 
 class FourierBasis(Basis):
-    """Fourier basis, periodic on the domain and orthonormal in L2.
+    """Fourier basis with a given period.
 
-    The constant ``1/sqrt(L)`` first, then pairs
-    ``sqrt(2/L) sin(2 pi k (t - a) / L)``, ``sqrt(2/L) cos(2 pi k (t - a) / L)``.
+    The constant ``1/sqrt(T)`` first, then pairs
+    ``sqrt(2/T) sin(2 pi k (t - a) / T)``, ``sqrt(2/T) cos(2 pi k (t - a) / T)``
+    with ``T = period``. ``period=None`` means the domain length: then the
+    functions are orthonormal in L2 of the domain and its two ends are
+    forced equal. A longer period (see :func:`default_period`) leaves a gap
+    between the last and the first point of a cycle, as for twelve monthly
+    values (December is not January); Gram and roughness matrices are then
+    computed by Gauss-Legendre quadrature, exact to rounding for these
+    band-limited functions.
     """
 
     name = "fourier"
     default_n_basis = 21
 
+    def __init__(self, domain, n_basis, period=None):
+        super().__init__(domain, n_basis)
+        if period is None:
+            period = self.length
+        period = float(period)
+        if not (np.isfinite(period) and period >= self.length * (1 - 1e-12)):
+            raise ValueError(
+                f"period must be a finite number at least the domain length "
+                f"{self.length}; got {period!r}."
+            )
+        self.period = max(period, self.length)
+
+    def null_dimension(self, order):
+        return 0 if order == 0 else 1
+
+    def _null_space(self, r):
+        out = np.zeros((self.n_basis, 1))
+        out[0, 0] = np.sqrt(self.period)  # 1 = sqrt(T) * (1 / sqrt(T))
+        return out
+
     def _frequencies(self):
         k = (np.arange(self.n_basis) + 1) // 2  # 0, 1, 1, 2, 2, ...
-        return 2 * np.pi * k / self.length
+        return 2 * np.pi * k / self.period
+
+    def _full_period(self):
+        return np.isclose(self.period, self.length, rtol=1e-12, atol=0)
 
     def evaluate(self, t, derivative=0):
         t = self.check_points(t) - self.domain[0]
@@ -178,14 +298,27 @@ class FourierBasis(Basis):
         # D^d sin(wt) = w^d sin(wt + d pi/2); the same shift for cos.
         phase = omega * t[:, None] + derivative * np.pi / 2
         values = np.where(is_sin, np.sin(phase), np.cos(phase)) * omega**derivative
-        scale = np.full(self.n_basis, np.sqrt(2 / self.length))
-        scale[0] = np.sqrt(1 / self.length)
+        scale = np.full(self.n_basis, np.sqrt(2 / self.period))
+        scale[0] = np.sqrt(1 / self.period)
         if derivative > 0:
             values[:, 0] = 0.0
         return values * scale
 
     def penalty(self, order):
         order = self.check_derivative(order, name="penalty_order")
+        if not self._full_period():
+            # Gauss-Legendre with 40 nodes per panel and a panel per half
+            # cycle of the highest frequency integrates these entire
+            # functions to rounding.
+            cycles = self.length / self.period * (self.n_basis // 2 + 1)
+            panels = int(np.ceil(2 * cycles)) + 1
+            nodes, weights = np.polynomial.legendre.leggauss(40)
+            edges = np.linspace(*self.domain, panels + 1)
+            half = np.diff(edges)[:, None] / 2
+            points = ((edges[:-1, None] + edges[1:, None]) / 2 + half * nodes).ravel()
+            w = (half * weights).ravel()
+            values = self.evaluate(np.clip(points, *self.domain), order)
+            return (values * w[:, None]).T @ values
         omega = self._frequencies()
         diag = omega ** (2 * order) if order else np.ones(self.n_basis)
         return np.diag(diag)
@@ -228,6 +361,9 @@ class LegendreBasis(Basis):
         coef = self._derivative_coefficients(derivative)
         return npleg.legval(s, coef).T * (2 / self.length) ** derivative
 
+    def _null_space(self, r):
+        return np.eye(self.n_basis)[:, :r]  # D^q P_k = 0 exactly for k < q
+
     def penalty(self, order):
         # int_{-1}^{1} P_i P_j ds = 2 / (2 i + 1) delta_ij (A&S 22.2.10); the
         # derivative series keeps that orthogonality, and dt = L/2 ds.
@@ -241,7 +377,7 @@ class LegendreBasis(Basis):
 BASES = {cls.name: cls for cls in (BSplineBasis, FourierBasis, LegendreBasis)}
 
 
-def make_basis(name, domain, n_basis, degree=3, knots=None):
+def make_basis(name, domain, n_basis, degree=3, knots=None, period=None):
     """Build a registered basis by name."""
     if name not in BASES:
         raise ValueError(f"basis must be one of {tuple(BASES)}; got {name!r}.")
@@ -249,7 +385,114 @@ def make_basis(name, domain, n_basis, degree=3, knots=None):
         return BSplineBasis(domain, n_basis, degree=degree, knots=knots)
     if knots is not None:
         raise ValueError(f"knots apply to the B-spline basis only, not to {name!r}.")
+    if name == "fourier":
+        return FourierBasis(domain, n_basis, period=period)
     return BASES[name](domain, n_basis)
+
+
+def default_period(grid):
+    """Default period of a Fourier basis on ``grid``: its range plus one mean step.
+
+    Grid points are read as samples of one cycle whose last point is one
+    step before the next cycle's first: twelve monthly values at 1, ..., 12
+    get period 12, so January and December are neighbours but not the same
+    point. For a grid that closes the cycle (the last point repeats the
+    first, such as angles 0 to 2 pi inclusive) pass the period explicitly.
+    The mean step keeps the rule defined on uneven grids; note that
+    resampling the same cycle with another number of points changes this
+    default slightly (``L m / (m - 1)``), so pass ``period`` where exact
+    resolution invariance matters.
+    """
+    grid = np.asarray(grid, dtype=np.float64)
+    length = grid[-1] - grid[0]
+    return float(length * grid.size / (grid.size - 1))
+
+
+#: cap on the number of interior knots of the default B-spline basis
+#: (Ruppert 2002, from memory: min(n_unique / 4, 35) knots)
+MAX_DEFAULT_KNOTS = 35
+
+
+def default_n_basis(name, n_points, degree=3):
+    """Number of basis functions when ``n_basis=None``: generous, never interpolating.
+
+    P-spline practice (Eilers and Marx 1996): many basis functions, with the
+    roughness penalty controlling smoothness, so the result hardly depends
+    on the number. The rule of Ruppert (2002), about four observations per
+    knot and at most 35 interior knots, gives enough functions for curves
+    sampled on hundreds of points while keeping an unpenalized fit on a short
+    grid well away from interpolation:
+
+    * B-splines: ``degree + 1 + min(n_points // 4, 35)``;
+    * Fourier: the same count made odd (a constant and sine/cosine pairs);
+    * Legendre: ``min(12, max(1, n_points // 4))`` polynomials (high-order
+      polynomials are badly conditioned, so a smaller cap).
+
+    Capped by ``n_points``; on grids of at most ``degree + 1`` points
+    B-splines become the single polynomial through the points (the caller
+    lowers the degree to ``n_points - 1``).
+
+    References
+    ----------
+    Eilers, P. H. C. and Marx, B. D. (1996). Flexible smoothing with
+    B-splines and penalties. *Statistical Science* 11(2), 89-121.
+
+    Ruppert, D. (2002). Selecting the number of knots for penalized splines.
+    *Journal of Computational and Graphical Statistics* 11(4), 735-757.
+    """
+    if name not in BASES:
+        raise ValueError(f"basis must be one of {tuple(BASES)}; got {name!r}.")
+    n_points = int(n_points)
+    knots = min(n_points // 4, MAX_DEFAULT_KNOTS)
+    if name == "legendre":
+        return min(12, max(1, n_points // 4), n_points)
+    count = degree + 1 + knots
+    if name == "fourier":
+        count = 2 * (count // 2) + 1
+        return min(count, n_points - (1 - n_points % 2))
+    return min(count, n_points)
+
+
+#: condition number of the data's Gram matrix relative to the basis Gram
+#: above which an unpenalized fit is called ill-conditioned: 1e8 loses half
+#: of float64's 16 digits (common practice for a warning threshold)
+CONDITION_WARNING = 1e8
+
+
+class IllConditionedFitWarning(UserWarning):
+    """An unpenalized basis fit is close to interpolation and unstable."""
+
+
+def check_unpenalized_fit(data_gram, basis_gram, name="n_basis"):
+    """Warn when an unpenalized fit with cross products ``data_gram`` is unstable.
+
+    The ratio of the largest to the smallest generalized eigenvalue of the
+    data's cross products (``Phi' W Phi``) and the basis Gram matrix is the
+    factor by which the fit amplifies noise in the worst direction relative
+    to the best; above :data:`CONDITION_WARNING` the coefficients are
+    dominated by rounding and noise (near interpolation on a short uneven
+    grid). Returns the condition number.
+    """
+    lam = np.linalg.eigvalsh(_whitened(data_gram, basis_gram))
+    top = max(lam[-1], np.finfo(float).tiny)
+    cond = np.inf if lam[0] <= top * 1e-300 else top / lam[0]
+    if cond > CONDITION_WARNING:
+        warnings.warn(
+            f"The unpenalized basis fit is ill-conditioned (condition number "
+            f"{cond:.2g}): with this {name} the basis nearly interpolates the "
+            f"grid points and amplifies noise. Use fewer basis functions "
+            f"({name}) or a roughness penalty (alpha > 0 or alpha='auto').",
+            IllConditionedFitWarning,
+            stacklevel=3,
+        )
+    return float(cond)
+
+
+def _whitened(matrix, metric):
+    """``L^{-1} matrix L^{-T}`` with ``metric = L L'`` (Cholesky)."""
+    lower = np.linalg.cholesky(metric)
+    half = np.linalg.solve(lower, matrix)
+    return np.linalg.solve(lower, half.T).T
 
 
 def gram_sqrt(gram):

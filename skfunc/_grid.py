@@ -5,9 +5,13 @@ Integrals over the domain are weighted sums ``sum_j w_j f(t_j)`` with the
 quadrature weights computed here, correct on uneven grids.
 """
 
+import datetime
 import numbers
 
 import numpy as np
+
+#: unit of grids inferred from date/time column labels: days (86400 s)
+SECONDS_PER_DAY = 86400.0
 
 QUADRATURES = ("trapezoid", "simpson")
 
@@ -77,13 +81,72 @@ def _as_number(label):
     return None
 
 
+def _time_kind(label):
+    """"datetime", "timedelta" or None for one column label."""
+    if isinstance(label, (datetime.datetime, datetime.date, np.datetime64)):
+        return "datetime"
+    if isinstance(label, (datetime.timedelta, np.timedelta64)):
+        return "timedelta"
+    return None
+
+
+def _days(label, origin):
+    """``label - origin`` in days, for datetimes, dates, timedeltas and numpy's."""
+    if isinstance(label, (np.datetime64, np.timedelta64)):
+        unit = np.timedelta64(1, "ns")
+        if origin is not None:
+            label = np.datetime64(label, "ns") - np.datetime64(origin, "ns")
+        return float(np.timedelta64(label, "ns") / unit) / (SECONDS_PER_DAY * 1e9)
+    delta = label if origin is None else label - origin
+    if isinstance(delta, datetime.timedelta):
+        return delta.total_seconds() / SECONDS_PER_DAY
+    raise TypeError
+
+
+def time_grid(labels):
+    """Numeric grid, in days, from date/time column labels.
+
+    Datetime labels (``datetime.date``/``datetime``, pandas ``Timestamp``,
+    ``numpy.datetime64``) become days since the first label; Timedelta labels
+    (``datetime.timedelta``, pandas ``Timedelta``, ``numpy.timedelta64``)
+    become their length in days. Days keep calendar data readable (a month
+    is about 30.4) and, since alpha is unit-free, the choice of unit changes
+    no fit, only the unit of derivatives and coefficient functions.
+    Returns None when the labels are not all of one time kind.
+    """
+    kinds = {_time_kind(label) for label in labels}
+    if len(kinds) != 1 or None in kinds:
+        return None
+    origin = labels[0] if kinds == {"datetime"} else None
+    try:
+        values = [_days(label, origin) for label in labels]
+    except (TypeError, ValueError) as exc:
+        raise ValueError(
+            "The column labels of X are dates or times that cannot be compared "
+            "(for example dates mixed with timezone-aware datetimes); use labels "
+            "of one kind, or pass grid=."
+        ) from exc
+    return check_grid(values, name="grid inferred from the date/time column labels")
+
+
 def grid_from_labels(labels):
     """Infer a grid from column labels.
 
     Returns the labels as floats when all of them are numbers (or strings
-    that parse as numbers) and None when none of them is; a mixture is an
-    error.
+    that parse as numbers), days from date/time labels (:func:`time_grid`),
+    and None when none of them is a number; a mixture is an error. Other
+    labels (words such as month names) give None: the caller then uses
+    evenly spaced points.
     """
+    labels = list(labels)
+    timed = time_grid(labels)
+    if timed is not None:
+        return timed
+    if any(_time_kind(label) for label in labels):
+        raise ValueError(
+            "The column labels of X mix dates or times with other labels, so no "
+            "grid can be inferred from them. Use labels of one kind, or pass grid=."
+        )
     values = [_as_number(label) for label in labels]
     numeric = [v is not None for v in values]
     if all(numeric):
@@ -100,7 +163,8 @@ def grid_from_labels(labels):
 
 def resolve_grid(grid, X, n_points):
     """The grid for ``X``: ``grid`` if given, else numeric DataFrame column
-    labels, else evenly spaced points on [0, 1]."""
+    labels, else days from date/time labels (:func:`time_grid`), else evenly
+    spaced points on [0, 1] (words such as month names carry no spacing)."""
     if grid is not None:
         return check_grid(grid, n_points)
     columns = getattr(X, "columns", None)
@@ -172,3 +236,29 @@ def quadrature_weights(grid, quadrature="trapezoid"):
         w[-2] += (h1**2 + 3 * h0 * h1) / (6 * h0)
         w[-3] -= h1**3 / (6 * h0 * (h0 + h1))
     return w
+
+
+#: data terms of a smoother: mean squared error over the observed points
+#: (measurement noise, the default) or the quadrature-weighted L2 distance
+DATA_TERMS = ("mean", "integral")
+
+
+def data_weights(grid, data_term="mean", observed=None):
+    """Weights of a smoother's data term ``sum_j w_j (x_j - f(t_j))^2``.
+
+    ``"mean"``: ``w_j = 1 / n_obs`` on the observed points, the mean squared
+    error -- noise of the same variance at every observation, the usual
+    measurement model, and what generalized cross-validation assumes
+    (Craven and Wahba 1979). ``"integral"``: trapezoid weights, so the data
+    term approximates ``int (x - f)^2`` for curves known as functions (noise
+    variance then effectively grows where points are dense). ``observed`` is
+    a boolean mask of the observed points (None: all).
+    """
+    if data_term not in DATA_TERMS:
+        raise ValueError(f"data_term must be one of {DATA_TERMS}; got {data_term!r}.")
+    grid = check_grid(grid)
+    mask = np.ones(grid.size, bool) if observed is None else np.asarray(observed, bool)
+    if data_term == "integral":
+        return quadrature_weights(grid) * mask
+    count = mask.sum()
+    return mask / count if count else mask.astype(np.float64)

@@ -14,6 +14,14 @@ roughness matrix ``P``. One simultaneous diagonalisation of ``G`` and ``P``
 so coefficients, effective degrees of freedom ``sum mu / d`` and residual sums
 of squares for a whole grid of alphas cost O(K) per right-hand side and alpha.
 
+:class:`SplitPath` is the same path in the basis split into the penalty's
+null space and its complement (:class:`Penalty`, from the basis' exact null
+space), so the null space is exactly unpenalized at any alpha, and with the
+user's alpha made unit-free by :func:`engine_alpha` (the penalty on the
+domain mapped to [0, 1], weighed by the largest eigenvalue of the data's
+cross products against the unit-domain Gram matrix). :class:`PenalizedPath`
+remains for the estimators not yet moved to it.
+
 What a fit needs from the data is additive over rows (:func:`cross_products`,
 :func:`merge`), so in-memory fits, ``partial_fit`` and distributed fits share
 one path: statistics per chunk, merge, solve.
@@ -268,3 +276,289 @@ def centered(stats):
     zy = stats["zy"] - sw * np.outer(z_mean, y_mean)
     yy = stats["yy"] - sw * y_mean**2
     return zz, zy, yy, z_mean, y_mean
+
+
+# ---------------------------------------------------------------------------
+# The split engine: the penalty's null space exactly unpenalized, and a
+# penalty weight that means the same on every grid and data scale.
+# ---------------------------------------------------------------------------
+
+
+class Penalty:
+    """A roughness penalty split into its null space and its complement.
+
+    Built once from the basis (:func:`penalty_for`); holds only data-free
+    matrices. Coordinates ``c = T [a; v]`` separate the null space (``a``,
+    exactly unpenalized) from the complement (``v``, penalized as
+    ``||v||^2``): ``T = [Q_N, Q_C R^{-1/2}]`` with ``[Q_N, Q_C]`` the complete
+    QR factor of the exact null-space coefficients and ``R = Q_C' P Q_C``.
+    The cross terms ``Q_N' P`` are zero in exact arithmetic and are dropped,
+    so no rounding in ``P`` ever penalizes the null space.
+
+    Parameters
+    ----------
+    matrix : ndarray of shape (K, K)
+        Roughness matrix on the domain mapped to [0, 1].
+    null_space : ndarray of shape (K, r)
+        Exact coefficients spanning the functions the penalty leaves free.
+    metric : ndarray of shape (K, K) or None
+        Gram matrix of the penalized functions on [0, 1], against which the
+        data's cross products are measured (:func:`penalty_scale`); None when
+        the coordinates are already orthonormal.
+
+    Attributes
+    ----------
+    n_null : int
+        ``r``, the dimension of the unpenalized part.
+    transform : ndarray of shape (K, K)
+        ``T``: null-space columns first, then the whitened complement.
+    """
+
+    def __init__(self, matrix, null_space, metric=None):
+        matrix = _symmetric(np.asarray(matrix, dtype=np.float64))
+        null_space = np.asarray(null_space, dtype=np.float64).reshape(matrix.shape[0], -1)
+        k, r = null_space.shape
+        self.matrix, self.metric, self.n_null = matrix, metric, r
+        q, _ = np.linalg.qr(null_space, mode="complete") if r else (np.eye(k), None)
+        q_c = q[:, r:]
+        lam, vec = np.linalg.eigh(_symmetric(q_c.T @ matrix @ q_c))
+        if lam.size and lam[0] <= 0:
+            raise ValueError(
+                "The roughness matrix is singular beyond its declared null space "
+                f"(smallest eigenvalue on the complement {lam[0]:.3g}, largest "
+                f"{lam[-1]:.3g}); the basis cannot carry this penalty order."
+            )
+        self.transform = np.column_stack([q[:, :r], (q_c @ vec) / np.sqrt(lam)])
+
+    def extend(self, n_free):
+        """The penalty with ``n_free`` unpenalized coordinates appended
+        (covariates next to a coefficient function)."""
+        if not n_free:
+            return self
+        k = self.matrix.shape[0]
+        out = Penalty.__new__(Penalty)
+        out.matrix = np.zeros((k + n_free,) * 2)
+        out.matrix[:k, :k] = self.matrix
+        out.metric = self.metric  # measured on the function block only
+        out.n_null = self.n_null + n_free
+        r = self.n_null
+        t = np.zeros((k + n_free,) * 2)
+        t[:k, :r] = self.transform[:, :r]
+        t[k:, r : r + n_free] = np.eye(n_free)
+        t[:k, r + n_free :] = self.transform[:, r:]
+        out.transform = t
+        return out
+
+
+def penalty_for(basis, order):
+    """The :class:`Penalty` of ``basis`` for ``int (D^order f)^2``, on [0, 1]."""
+    order = int(order)
+    return Penalty(basis.unit_roughness(order), basis.null_space(order), basis.unit_gram())
+
+
+def penalty_scale(gram, penalty):
+    """Engine weight of ``alpha = 1``: the largest eigenvalue of the data's
+    cross products relative to the metric of the penalized functions.
+
+    ``gram`` holds the data term's cross products normalised by the total
+    sample weight (``Z' W Z / sum w``, centred when an intercept is fitted),
+    so that the objective
+
+        (1 / sum w) ||y - Z c||_W^2 + alpha * scale * c' P01 c
+
+    with ``P01`` the roughness on the domain mapped to [0, 1] and
+    ``scale = lambda_max(G, M01)`` (the largest generalized eigenvalue of
+    ``G`` and the unit-domain Gram matrix ``M01``, computed on the function
+    block) is unchanged when the grid changes unit or origin (``G``,
+    ``M01``-relative, and ``P01`` are invariant, or scale together) and when
+    ``Z`` is multiplied by a constant (``scale`` follows ``G``). The largest
+    eigenvalue, rather than a trace, keeps the meaning of alpha stable as
+    the number of basis functions grows: it converges to the operator norm
+    of the design (about 1 for a smoother, the leading eigenvalue of the
+    curves' covariance for a functional regression), while traces grow
+    with the basis.
+    """
+    gram = np.asarray(gram, dtype=np.float64)
+    k = penalty.metric.shape[0] if penalty.metric is not None else gram.shape[0]
+    block = _symmetric(gram[:k, :k])
+    if not np.all(np.isfinite(block)):
+        raise ValueError(
+            "The data's cross products are not finite (overflow); rescale the "
+            "data (power_of_two_scale) before forming them."
+        )
+    if penalty.metric is None:
+        top = np.linalg.eigvalsh(block)[-1]
+    else:
+        from ._bases import _whitened
+
+        top = np.linalg.eigvalsh(_whitened(block, penalty.metric))[-1]
+    return float(top) if top > 0 else 1.0
+
+
+def engine_alpha(alpha, gram, penalty):
+    """The weight of ``P01`` in the sum-of-squares objective for a user alpha.
+
+    For the unnormalised objective ``||y - Z c||_W^2 + lam c' P01 c``:
+    ``lam = alpha * sum(w) * penalty_scale(G)``, with ``G = Z' W Z / sum w``.
+    Here ``gram`` is ``Z' W Z`` itself (not normalised) and the result is
+    ``alpha * penalty_scale(gram, penalty)`` -- the normalisation cancels.
+    """
+    return np.asarray(alpha, dtype=np.float64) * penalty_scale(gram, penalty)
+
+
+def power_of_two_scale(*arrays):
+    """A power of two ``s`` with ``max |x / s|`` in [0.5, 1), ignoring NaN.
+
+    Dividing data by ``s`` before squaring keeps cross products finite for
+    values near 1e300 and normal for values near 1e-300; a power of two
+    changes no digit, so fits on ``x / s`` times ``s`` equal fits on ``x``.
+    """
+    top = 0.0
+    for a in arrays:
+        a = np.asarray(a, dtype=np.float64)
+        if a.size:
+            with np.errstate(invalid="ignore"):
+                m = np.nanmax(np.abs(a)) if np.isnan(a).any() else np.max(np.abs(a))
+            if np.isfinite(m):
+                top = max(top, float(m))
+    if top == 0.0:
+        return 1.0
+    return float(np.ldexp(1.0, np.frexp(top)[1]))
+
+
+class SplitPath:
+    """Penalized least squares for every alpha, null space exactly unpenalized.
+
+    Solves ``(G + lam P) c = b`` with ``lam = alpha * scale`` for any number
+    of right-hand sides and alphas. In the penalty's split coordinates
+    (:class:`Penalty`) the null-space block ``F`` of ``G`` is factored
+    (``F = L L'``) and profiled out; the Schur complement ``S`` of the
+    penalized block is diagonalised (``S = V diag(s) V'``). With
+    ``U = [A_N, E]`` (``A_N = T_N L^{-T}``, ``E = (T_C - A_N L^{-1} F_NC) V``),
+
+        U' G U = diag(1, ..., 1, s),   U' P U = diag(0, ..., 0, 1, ..., 1),
+
+    so ``(G + lam P)^{-1} = U diag(1 / d) U'`` with ``d = g + lam p``: the
+    null-space entries of ``d`` are exactly 1 for every alpha. As alpha
+    grows the coefficients tend to the least-squares fit on the null space
+    with no loss of accuracy (this is the mixed-model form: fixed effects
+    on the null space, random effects on the whitened complement).
+
+    Parameters
+    ----------
+    gram : ndarray of shape (K, K)
+        Cross products ``Z' W Z`` (centred when an intercept is fitted).
+    penalty : Penalty
+        The split penalty (:func:`penalty_for`, :meth:`Penalty.extend`).
+    scale : float, default=None
+        Engine weight of ``alpha = 1``; None means
+        ``penalty_scale(gram, penalty)`` (:func:`engine_alpha`), the
+        definition of alpha. Give it to share one meaning of alpha between
+        several problems (a smoother's missing-value patterns).
+
+    Attributes
+    ----------
+    eigvecs : ndarray of shape (K, K)
+        ``U``.
+    g, p : ndarray of shape (K,)
+        Diagonals of ``U' G U`` and ``U' P U``.
+    n_null : int
+        Dimension of the null space (first ``n_null`` columns of ``U``).
+    scale : float
+        Engine weight of ``alpha = 1``.
+    """
+
+    def __init__(self, gram, penalty, scale=None):
+        gram = _symmetric(np.asarray(gram, dtype=np.float64))
+        if not np.all(np.isfinite(gram)):
+            raise ValueError(
+                "The data's cross products are not finite (overflow or NaN); "
+                "rescale the data (power_of_two_scale) before forming them."
+            )
+        if scale is None:
+            scale = penalty_scale(gram, penalty)
+        self.scale = float(scale)
+        r = self.n_null = penalty.n_null
+        T = penalty.transform
+        Gt = _symmetric(T.T @ gram @ T)
+        F, C, R = Gt[:r, :r], Gt[:r, r:], Gt[r:, r:]
+        top = max(np.abs(np.diag(Gt)).max(initial=0.0), np.finfo(float).tiny)
+        if r:
+            eig_f = np.linalg.eigvalsh(F)
+            if eig_f[0] <= _RCOND * r * max(eig_f[-1], top * 1e-3):
+                raise NotIdentifiableError(
+                    "The data do not determine the functions the roughness "
+                    "penalty leaves free (for example a straight line needs "
+                    "two distinct observed points): no alpha can fix that. "
+                    "Use a lower penalty_order, more observations, or remove "
+                    "rows with too few observed values."
+                )
+            lower = np.linalg.cholesky(F)
+            W = np.linalg.solve(lower, C)  # L^{-1} F_NC
+            S = _symmetric(R - W.T @ W)
+            A_n = np.linalg.solve(lower, T[:, :r].T).T  # T_N L^{-T}
+        else:
+            W = np.zeros((0, R.shape[0]))
+            S, A_n = R, np.zeros((T.shape[0], 0))
+        s, V = np.linalg.eigh(S)
+        s = np.clip(s, 0.0, None)
+        s[s <= 1e-13 * max(s.max(initial=0.0), top) * max(s.size, 1)] = 0.0
+        E = (T[:, r:] - A_n @ W) @ V
+        self.eigvecs = np.column_stack([A_n, E])
+        self.g = np.concatenate([np.ones(r), s])
+        self.p = np.concatenate([np.zeros(r), np.ones(s.size)])
+
+    @property
+    def s(self):
+        """Data eigenvalues of the penalized directions (engine units)."""
+        return self.g[self.n_null :]
+
+    def denominators(self, alpha):
+        """``d = g + alpha * scale * p``: shape alpha.shape + (K,)."""
+        lam = np.asarray(alpha, dtype=np.float64)[..., None] * self.scale
+        d = self.g + lam * self.p
+        if np.any(d <= 0):
+            raise NotIdentifiableError(
+                "alpha = 0 leaves coefficients undetermined that only the "
+                "roughness penalty can fix; use alpha > 0 (or alpha='auto') or "
+                "fewer basis functions."
+            )
+        return d
+
+    def rotate(self, rhs):
+        """Rotated right-hand sides ``b U``, one row per right-hand side."""
+        return np.asarray(rhs) @ self.eigvecs
+
+    def coef(self, rotated, alpha):
+        """Coefficients ``(G + lam P)^{-1} b`` as rows; alpha scalar or per row."""
+        return (rotated / self.denominators(alpha)) @ self.eigvecs.T
+
+    def null_coef(self, rotated):
+        """The alpha -> inf limit: least squares on the null space."""
+        r = self.n_null
+        return rotated[..., :r] @ self.eigvecs[:, :r].T
+
+    def operator(self, alpha):
+        """The matrix ``(G + lam P)^{-1}`` for a scalar alpha."""
+        return (self.eigvecs / self.denominators(alpha)) @ self.eigvecs.T
+
+    def edf(self, alphas):
+        """Effective degrees of freedom ``tr (G + lam P)^{-1} G`` per alpha."""
+        return (self.g / self.denominators(alphas)).sum(axis=-1)
+
+    def rss_reduction(self, rotated, alphas):
+        """``y'Wy - RSS(alpha)``: shape (rows, len(alphas))."""
+        d = self.denominators(np.atleast_1d(alphas))
+        factor = 2.0 / d - self.g / d**2
+        return (np.asarray(rotated) ** 2) @ factor.T
+
+    def penalized_rss_reduction(self, rotated, alphas):
+        """``y'Wy - (RSS + lam c'Pc)(alpha)`` = ``b'(G + lam P)^{-1} b``."""
+        d = self.denominators(np.atleast_1d(alphas))
+        return (np.asarray(rotated) ** 2) @ (1.0 / d).T
+
+    def log_det_ratio(self, alphas):
+        """``log det(G + lam P)|_C - log det(lam P)|_C = sum log(1 + s / lam)``
+        over the penalized directions (the REML determinant term)."""
+        lam = np.atleast_1d(np.asarray(alphas, dtype=np.float64))[:, None] * self.scale
+        return np.log1p(self.s / lam).sum(axis=1)

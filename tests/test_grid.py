@@ -91,3 +91,64 @@ def test_resolve_grid_sources():
     np.testing.assert_array_equal(resolve_grid(None, np.zeros((2, 3)), 3), [0, 0.5, 1])
     with pytest.raises(ValueError, match="at least 2"):
         resolve_grid(None, np.zeros((2, 1)), 1)
+
+
+def test_datetime_labels_become_days_since_the_first():
+    # Reference: pandas' own day arithmetic ((Timestamp - Timestamp).days) and
+    # the calendar (January has 31 days, 2024 is a leap year: February 29).
+    import datetime
+
+    columns = pd.date_range("2024-01-01", periods=12, freq="MS")
+    X = pd.DataFrame(np.zeros((2, 12)), columns=columns)
+    expected = [(c - columns[0]).days for c in columns]
+    np.testing.assert_array_equal(resolve_grid(None, X, 12), expected)
+    assert resolve_grid(None, X, 12)[2] == 31 + 29
+    # minutes as timestamps: fractions of a day
+    stamps = pd.date_range("2024-05-01 08:00", periods=3, freq="30min")
+    np.testing.assert_allclose(grid_from_labels(stamps), [0, 1 / 48, 2 / 48], rtol=1e-15)
+    # numpy datetime64 and datetime.date
+    np.testing.assert_array_equal(
+        grid_from_labels(np.array(["2024-01-01", "2024-01-03"], dtype="datetime64[D]")), [0, 2]
+    )
+    np.testing.assert_array_equal(
+        grid_from_labels([datetime.date(2024, 1, 1), datetime.date(2024, 3, 1)]), [0, 60]
+    )
+
+
+def test_timedelta_labels_become_days():
+    # Reference: 30 minutes is 1/48 day, 36 hours is 1.5 days (arithmetic).
+    import datetime
+
+    X = pd.DataFrame(np.zeros((2, 3)), columns=pd.to_timedelta([0, 30, 2160], unit="min"))
+    np.testing.assert_allclose(resolve_grid(None, X, 3), [0, 1 / 48, 1.5], rtol=1e-15)
+    np.testing.assert_allclose(
+        grid_from_labels([datetime.timedelta(hours=12), np.timedelta64(1, "D")]), [0.5, 1.0]
+    )
+
+
+def test_other_labels_keep_the_even_default_and_mixtures_fail():
+    months = ["Jan", "Feb", "Mar", "Apr"]
+    X = pd.DataFrame(np.zeros((2, 4)), columns=months)
+    np.testing.assert_allclose(resolve_grid(None, X, 4), np.linspace(0, 1, 4))
+    with pytest.raises(ValueError, match="mix dates or times with other labels"):
+        grid_from_labels([pd.Timestamp("2024-01-01"), 3.0])
+    with pytest.raises(ValueError, match="strictly increasing"):
+        grid_from_labels(pd.to_datetime(["2024-02-01", "2024-01-01"]))
+    tz = [pd.Timestamp("2024-01-01", tz="UTC"), pd.Timestamp("2024-01-02")]
+    with pytest.raises(ValueError, match="cannot be compared"):
+        grid_from_labels(tz)
+
+
+def test_data_weights():
+    # The mean data term weighs every observed point alike (1 / n_obs); the
+    # integral data term is the trapezoid rule (scipy.integrate.trapezoid).
+    from skfunc._grid import data_weights
+
+    t = np.array([0.0, 0.1, 0.5, 1.0])
+    np.testing.assert_allclose(data_weights(t), 0.25)
+    mask = np.array([True, False, True, True])
+    np.testing.assert_allclose(data_weights(t, observed=mask), mask / 3)
+    y = np.array([1.0, 2.0, 0.5, 3.0])
+    assert np.isclose(data_weights(t, "integral") @ y, trapezoid(y, x=t))
+    with pytest.raises(ValueError, match="data_term must be one of"):
+        data_weights(t, "sum")

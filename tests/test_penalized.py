@@ -1,14 +1,19 @@
 import numpy as np
 import pytest
 
-from skfunc._bases import BSplineBasis
+from skfunc._bases import BSplineBasis, FourierBasis, make_basis
 from skfunc._penalized import (
     NotIdentifiableError,
     PenalizedPath,
+    SplitPath,
     centered,
     cross_products,
+    engine_alpha,
     gcv_score,
     merge,
+    penalty_for,
+    penalty_scale,
+    power_of_two_scale,
 )
 
 
@@ -93,3 +98,175 @@ def test_huge_alpha_limit_is_least_squares_on_the_penalty_null_space(problem):
     c = path.coef(path.rotate((Z.T @ y).T), 1e9 * path.scale)
     ref = N @ np.linalg.lstsq(Z @ N, y, rcond=None)[0]
     np.testing.assert_allclose(Z @ c.T, Z @ ref, rtol=1e-5, atol=1e-7)
+
+
+# -- the split engine -------------------------------------------------------
+
+
+
+def _ridge_problem(rng, grid, basis, n=80, scale_x=1.0):
+    """Scalar-on-function design Z = X W Phi (trapezoid weights), centred,
+    with a straight-line coefficient function plus noise."""
+    t01 = (grid - grid[0]) / (grid[-1] - grid[0])
+    X = scale_x * rng.normal(size=(n, 6)) @ np.sin(np.outer(np.arange(1, 7), np.pi * t01))
+    w = np.gradient(grid)
+    Z = (X * w) @ basis.evaluate(grid)
+    Z = Z - Z.mean(axis=0)
+    # y = int x beta + noise with beta(t) = 1 + 2 u on the unit domain, the
+    # same numbers whatever the grid's unit and the data's scale
+    y = (X / scale_x * w / (grid[-1] - grid[0])) @ (1 + 2 * t01) + 0.05 * rng.normal(size=n)
+    return Z, y - y.mean()
+
+
+def test_split_path_matches_direct_solves(rng):
+    # Reference: numpy.linalg.solve of (G + lam P01) c = b with lam from
+    # engine_alpha, the explicit hat matrix (Craven & Wahba 1979: edf = trace),
+    # and RSS and penalized RSS computed from the residuals.
+    basis = BSplineBasis((0.0, 1.0), 12)
+    Z, y = _ridge_problem(rng, np.linspace(0, 1, 101), basis)
+    y = np.column_stack([y, rng.normal(size=y.size)])
+    pen = penalty_for(basis, 2)
+    G, b = Z.T @ Z, (Z.T @ y).T
+    path = SplitPath(G, pen)
+    r = path.rotate(b)
+    alphas = np.array([1e-8, 1e-5, 1e-2, 1.0])
+    for j, alpha in enumerate(alphas):
+        lam = engine_alpha(alpha, G, pen)
+        A = G + lam * pen.matrix
+        c = np.linalg.solve(A, b.T).T
+        np.testing.assert_allclose(path.coef(r, alpha), c, rtol=1e-7, atol=1e-9 * np.abs(c).max())
+        H = Z @ np.linalg.solve(A, Z.T)
+        assert np.isclose(path.edf(alphas)[j], np.trace(H), rtol=1e-8)
+        res = y - Z @ c.T
+        rss = (res**2).sum(axis=0)
+        np.testing.assert_allclose((y**2).sum(axis=0) - path.rss_reduction(r, alphas)[:, j], rss,
+                                   rtol=1e-7)
+        pen_rss = rss + lam * np.einsum("ik,kl,il->i", c, pen.matrix, c)
+        np.testing.assert_allclose(
+            (y**2).sum(axis=0) - path.penalized_rss_reduction(r, alphas)[:, j], pen_rss, rtol=1e-7)
+        np.testing.assert_allclose(path.operator(alpha), np.linalg.inv(A), rtol=1e-6,
+                                   atol=1e-8 * np.abs(np.linalg.inv(A)).max())
+
+
+@pytest.mark.parametrize("domain", [(0.0, 1.0), (0.0, 600.0), (-1e-3, 2e-3)])
+@pytest.mark.parametrize("alpha", [1e12, 1e20])
+def test_huge_alpha_is_exactly_the_null_space_fit(rng, domain, alpha):
+    # Common practice: as alpha -> inf penalized least squares tends to least
+    # squares on the penalty's null space (straight lines for q = 2). Reference:
+    # numpy.linalg.lstsq on the null-space design Z N, with N the straight
+    # lines' B-spline coefficients computed independently here from Marsden's
+    # identity (t = sum_k greville_k B_k, 1 = sum_k B_k; de Boor 2001).
+    grid = np.linspace(*domain, 101)
+    basis = BSplineBasis(domain, 15)
+    Z, y = _ridge_problem(rng, grid, basis)
+    N = np.column_stack([np.ones(basis.n_basis), basis.greville()])
+    ref = N @ np.linalg.lstsq(Z @ N, y, rcond=None)[0]
+    path = SplitPath(Z.T @ Z, penalty_for(basis, 2))
+    c = path.coef(path.rotate(Z.T @ y), alpha)
+    # the coefficient function itself, not only the fit, at 1e-8 relative
+    np.testing.assert_allclose(c, ref, rtol=1e-8, atol=1e-8 * np.abs(ref).max())
+    assert np.isclose(path.edf(alpha), 2.0, rtol=1e-9)
+
+
+@pytest.mark.parametrize("name", ["legendre", "fourier"])
+def test_huge_alpha_other_bases(rng, name):
+    # Same reference: lstsq on the null space (first two Legendre polynomials:
+    # coefficient unit vectors; Fourier: the constant, first coefficient).
+    grid = np.linspace(0.0, 1.0, 101)
+    basis = make_basis(name, (0.0, 1.0), 9)
+    Z, y = _ridge_problem(rng, grid, basis) if name == "legendre" else (None, None)
+    if name == "fourier":
+        Z = rng.normal(size=(50, 9))
+        y = Z[:, 0] * 3 + 0.1 * rng.normal(size=50)
+    N = np.eye(9)[:, : (2 if name == "legendre" else 1)]
+    ref = N @ np.linalg.lstsq(Z @ N, y, rcond=None)[0]
+    path = SplitPath(Z.T @ Z, penalty_for(basis, 2))
+    np.testing.assert_allclose(path.coef(path.rotate(Z.T @ y), 1e20), ref, rtol=1e-9,
+                               atol=1e-9 * np.abs(ref).max())
+
+
+def test_covariates_are_never_penalized(rng):
+    # Reference: numpy.linalg.lstsq on [null-space design, covariates].
+    basis = BSplineBasis((0.0, 1.0), 10)
+    Z, y = _ridge_problem(rng, np.linspace(0, 1, 51), basis)
+    s = rng.normal(size=(Z.shape[0], 2))
+    s -= s.mean(axis=0)
+    y = y + s @ np.array([5.0, -1.0])
+    pen = penalty_for(basis, 2).extend(2)
+    D = np.column_stack([Z, s])
+    path = SplitPath(D.T @ D, pen)
+    N = np.zeros((12, 4))
+    N[:10, :2] = basis.null_space(2)
+    N[10:, 2:] = np.eye(2)
+    ref = N @ np.linalg.lstsq(D @ N, y, rcond=None)[0]
+    np.testing.assert_allclose(path.coef(path.rotate(D.T @ y), 1e15), ref, rtol=1e-9,
+                               atol=1e-9 * np.abs(ref).max())
+    # the scale reads the function block only: covariates in other units change nothing
+    D2 = np.column_stack([Z, 1e6 * s])
+    assert np.isclose(penalty_scale(D2.T @ D2, pen), penalty_scale(D.T @ D, pen), rtol=1e-12)
+
+
+def test_fit_is_unchanged_by_grid_unit_origin_and_data_scale(rng):
+    # Change of variables t -> a + c t and X -> s X (calculus): at a fixed alpha
+    # the predictions Z c are identical when alpha is unit-free. Reference: the
+    # same fit on [0, 1] with unscaled data.
+    preds = []
+    for a, c, s in [(0.0, 1.0, 1.0), (300.0, 600.0, 1.0), (-5.0, 1e-3, 1.0), (0.0, 60.0, 1e-4)]:
+        grid = a + c * np.linspace(0, 1, 81)
+        basis = BSplineBasis((grid[0], grid[-1]), 14)
+        Z, y = _ridge_problem(np.random.default_rng(7), grid, basis, scale_x=s)
+        path = SplitPath(Z.T @ Z, penalty_for(basis, 2))
+        preds.append(Z @ path.coef(path.rotate(Z.T @ y), 1e-4))
+    for p in preds[1:]:
+        np.testing.assert_allclose(p, preds[0], rtol=1e-8, atol=1e-10 * np.abs(preds[0]).max())
+
+
+def test_fourier_unit_invariance(rng):
+    # As above, for the orthonormal Fourier basis (coefficients scale with sqrt(L)).
+    preds = []
+    for c in (1.0, 365.0):
+        grid = c * np.linspace(0, 1, 64)
+        basis = FourierBasis((0.0, c), 9, period=c * 64 / 63)
+        phi = basis.evaluate(grid)
+        X = np.sin(2 * np.pi * grid / c) + 0.3 * np.random.default_rng(1).normal(size=(5, 64))
+        G = phi.T @ phi / 64
+        path = SplitPath(G, penalty_for(basis, 2))
+        preds.append(path.coef(path.rotate(X @ phi / 64), 1e-5) @ phi.T)
+    np.testing.assert_allclose(preds[1], preds[0], rtol=1e-8, atol=1e-12)
+
+
+def test_scale_safe_statistics(rng):
+    # Values near 1e300 overflow when squared, near 1e-300 underflow: dividing
+    # by a power of two first (exact in binary floating point, IEEE 754) gives
+    # the very same fit; unscaled cross products that overflow are a clear
+    # ValueError, not numpy's LinAlgError.
+    basis = BSplineBasis((0.0, 1.0), 10)
+    phi = basis.evaluate(np.linspace(0, 1, 40))
+    x = np.sin(np.linspace(0, 3, 40)) + 0.1 * rng.normal(size=40)
+    pen = penalty_for(basis, 2)
+    fits = []
+    for s in (1.0, 1e300, 1e-300):
+        k = power_of_two_scale(x * s)
+        xs = x * s / k
+        path = SplitPath(phi.T @ phi, pen)
+        fits.append(k * (path.coef(path.rotate(phi.T @ xs), 1e-4) @ phi.T) / s)
+    for f in fits[1:]:
+        np.testing.assert_allclose(f, fits[0], rtol=1e-12)
+    with pytest.raises(ValueError, match="not finite"), np.errstate(over="ignore"):
+        Z = 1e300 * phi
+        SplitPath(Z.T @ Z, pen)
+    assert power_of_two_scale(np.array([np.nan, 3.0])) == 4.0
+    assert power_of_two_scale(np.zeros(3)) == 1.0
+
+
+def test_null_space_not_identified(rng):
+    # One observed point cannot fix a straight line (two unknowns): a clear error.
+    basis = BSplineBasis((0.0, 1.0), 8)
+    phi = basis.evaluate([0.3])
+    with pytest.raises(NotIdentifiableError, match="penalty leaves free"):
+        SplitPath(phi.T @ phi, penalty_for(basis, 2))
+    # Two points do, with more basis functions than points (the penalty fixes the rest)
+    phi = basis.evaluate([0.3, 0.8])
+    path = SplitPath(phi.T @ phi, penalty_for(basis, 2))
+    with pytest.raises(NotIdentifiableError, match="alpha > 0"):
+        path.coef(path.rotate(np.ones((1, 8))), 0.0)

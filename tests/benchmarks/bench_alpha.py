@@ -1,0 +1,171 @@
+"""Benchmark the automatic choice of alpha against one fixed-alpha solve.
+
+For least squares the automatic choice (``alpha="auto"``: candidates over the
+range of effective degrees of freedom, GCV or REML over all of them from one
+decomposition, the best-index policy, the coefficients at the choice) is
+compared with what a fixed-alpha fit needs:
+
+* ``fixed, dense``: form the cross products and one dense solve of
+  ``(G + lam P) c = b`` (Cholesky) -- the cheapest fixed-alpha fit;
+* ``fixed, engine``: the same through the split engine at one alpha.
+
+Two problem shapes, each with K basis functions:
+
+1. a smoother pooled over n curves x m points (data pass ``X @ Phi``);
+2. a scalar-outcome ridge on n curves x m points (data pass ``X @ W Phi``).
+
+Ratios are printed with and without the data pass (``engine only``).
+Target: automatic choice at most 1.5x a fixed-alpha fit (with the data pass).
+
+Run ``python tests/benchmarks/bench_alpha.py`` (full sizes) or with
+``--quick`` (small sizes, a few seconds) from the repository root.
+"""
+
+import argparse
+import sys
+import time
+import warnings
+from pathlib import Path
+
+import numpy as np
+from scipy.linalg import cho_factor, cho_solve
+
+sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
+
+from skfunc._alpha import choose_alpha  # noqa: E402
+from skfunc._bases import BSplineBasis  # noqa: E402
+from skfunc._penalized import SplitPath, engine_alpha, penalty_for  # noqa: E402
+
+
+def best_times(funcs, repeat):
+    """Best wall time of each function, repeats interleaved."""
+    best = [np.inf] * len(funcs)
+    for _ in range(repeat):
+        for i, func in enumerate(funcs):
+            start = time.perf_counter()
+            func()
+            best[i] = min(best[i], time.perf_counter() - start)
+    return best
+
+
+def smoother_problem(n, m, K, rng):
+    t = np.linspace(0, 1, m)
+    X = np.sin(2 * np.pi * t + rng.uniform(0, 6, (n, 1))) + 0.3 * rng.normal(size=(n, m))
+    basis = BSplineBasis((0.0, 1.0), K)
+    phi_w = basis.evaluate(t) / m
+    return X, phi_w, basis.evaluate(t), penalty_for(basis, 2)
+
+
+def ridge_problem(n, m, K, rng):
+    t = np.linspace(0, 1, m)
+    X = rng.normal(size=(n, 8)) @ np.sin(np.outer(np.arange(1, 9), np.pi * t))
+    y = X @ (np.gradient(t) * np.sin(np.pi * t)) + 0.1 * rng.normal(size=n)
+    basis = BSplineBasis((0.0, 1.0), K)
+    return X, y, basis.evaluate(t) * np.gradient(t)[:, None], penalty_for(basis, 2)
+
+
+def bench_smoother(n, m, K, rng, repeat):
+    X, phi_w, phi, pen = smoother_problem(n, m, K, rng)
+    G = phi_w.T @ phi
+
+    def data():
+        B = X @ phi_w  # the data pass: one product over X
+        return B, np.einsum("ij,ij->", X, X) / m
+
+    B, yy_total = data()
+    norms = np.linalg.norm(B, axis=0)  # pooled: rss reductions need column norms
+
+    def fixed_dense(B):
+        lam = engine_alpha(1e-4, G, pen)
+        return cho_solve(cho_factor(G + lam * pen.matrix), B.T)
+
+    def fixed_engine(B):
+        path = SplitPath(G, pen)
+        return path.coef(path.rotate(B), 1e-4)
+
+    def auto(B, criterion):
+        path = SplitPath(G, pen)
+        r = path.rotate(norms[None])
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            chosen = choose_alpha(path, r, yy_total, n * m, criterion=criterion,
+                                  total_weight=n, pooled=True)
+        return path.coef(path.rotate(B), chosen["alpha"])
+
+    funcs = {
+        "data pass": lambda: data(),
+        "fixed, dense": lambda: fixed_dense(B),
+        "fixed, engine": lambda: fixed_engine(B),
+        "auto GCV": lambda: auto(B, "gcv"),
+        "auto REML": lambda: auto(B, "reml"),
+    }
+    return dict(zip(funcs, best_times(list(funcs.values()), repeat)))
+
+
+def bench_ridge(n, m, K, rng, repeat):
+    X, y, phi_w, pen = ridge_problem(n, m, K, rng)
+
+    def data():
+        Z = X @ phi_w
+        Zc, yc = Z - Z.mean(axis=0), y - y.mean()
+        return Zc.T @ Zc, Zc.T @ yc, yc @ yc
+
+    G, b, yy = data()
+
+    def fixed_dense():
+        lam = engine_alpha(1e-4, G, pen)
+        return cho_solve(cho_factor(G + lam * pen.matrix), b)
+
+    def fixed_engine():
+        path = SplitPath(G, pen)
+        return path.coef(path.rotate(b), 1e-4)
+
+    def auto(criterion):
+        path = SplitPath(G, pen)
+        r = path.rotate(b)
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            chosen = choose_alpha(path, r, yy, n, criterion=criterion, extra_edf=1)
+        return path.coef(r, chosen["alpha"])
+
+    funcs = {
+        "data pass": data,
+        "fixed, dense": fixed_dense,
+        "fixed, engine": fixed_engine,
+        "auto GCV": lambda: auto("gcv"),
+        "auto REML": lambda: auto("reml"),
+    }
+    return dict(zip(funcs, best_times(list(funcs.values()), repeat)))
+
+
+def report(name, times):
+    data = times["data pass"]
+    base = times["fixed, dense"]
+    print(f"\n{name}")
+    print(f"  {'step':<15}{'time (ms)':>12}{'vs fixed+data':>16}{'engine only':>14}")
+    for key, value in times.items():
+        if key == "data pass":
+            print(f"  {key:<15}{1e3 * value:>12.3f}")
+            continue
+        with_data = (value + data) / (base + data)
+        print(f"  {key:<15}{1e3 * value:>12.3f}{with_data:>15.2f}x{value / base:>13.2f}x")
+
+
+def main():
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--quick", action="store_true", help="small sizes, few repeats")
+    args = parser.parse_args()
+    rng = np.random.default_rng(0)
+    repeat = 3 if args.quick else 7
+    sizes = [(200, 100, 20)] if args.quick else [(2000, 500, 20), (2000, 500, 40)]
+    print("Automatic alpha vs one fixed-alpha solve (best of "
+          f"{repeat}; target auto <= 1.5x fixed with the data pass)")
+    for n, m, K in sizes:
+        report(f"smoother, pooled: {n} curves x {m} points, K={K}",
+               bench_smoother(n, m, K, rng, repeat))
+        report(f"scalar-outcome ridge: {n} curves x {m} points, K={K}",
+               bench_ridge(n, m, K, rng, repeat))
+
+
+if __name__ == "__main__":
+    main()
