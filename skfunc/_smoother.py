@@ -256,8 +256,114 @@ class _Problem:
                    float(w_p.sum()))
 
 
+class PenalizedFitMixin:
+    """Alpha for a basis fit of curves from additive criterion statistics:
+    what :class:`CurveSmoother` and
+    :class:`~skfunc.preprocessing.BasisFeatures` share.
+
+    The estimator has the basis parameters, ``alpha``, ``criterion``,
+    ``data_term``, ``quadrature`` and ``grid_``.
+    """
+
+    def _alpha(self):
+        return check_alpha(self.alpha)
+
+    def _setup_alphas(self, X, problem):
+        """Candidates (``alphas_path_``) and the power-of-two scale of X."""
+        alpha = self._alpha()
+        if alpha is AUTO:
+            self.alphas_path_ = candidate_alphas(problem.full)
+        else:
+            self.alphas_path_ = np.atleast_1d(alpha)
+        if isinstance(alpha, float) and alpha == 0:
+            phi_w = problem.phi * problem.weights()[:, None]
+            check_unpenalized_fit(phi_w.T @ problem.phi, problem.basis.gram())
+        # a power of two fixed by the first batch: squares stay finite
+        self._x_scale = 1.0 if is_dask_array(X) else power_of_two_scale(X)
+
+    def _problem(self):
+        alpha = self._alpha()
+        penalized = not isinstance(alpha, float) or alpha > 0
+        return _Problem(self, self.grid_, penalized)
+
+    def _statistics(self, X):
+        """Additive criterion statistics of the curves in X, per candidate.
+
+        Keys ``rss`` and ``pen_rss`` (weighted residual and penalized
+        residual sums of squares per candidate), ``edf`` and ``logdet``
+        (effective degrees of freedom and REML determinant terms per
+        candidate), ``n_obs``, ``dof`` (observed points less unpenalized
+        functions) and ``weight`` (total data weight): sums over curves,
+        merged key by key (:func:`skfunc._penalized.merge`), in the units of
+        X divided by the first batch's power-of-two scale.
+        """
+        alphas = self.alphas_path_
+        zeros = np.zeros(alphas.size)
+        stats = [{"rss": zeros, "pen_rss": zeros, "edf": zeros, "logdet": zeros,
+                  "n_obs": 0, "dof": 0, "weight": 0.0}]
+        for rows, rotated, yy, path, n_obs, weight in self._problem().blocks(
+                X, scale=self._x_scale):
+            # the reductions are quadratic in each rotated column, so their
+            # sums over rows are the reductions of the column norms
+            norms = np.linalg.norm(rotated, axis=0)[None]
+            penalized = alphas > 0
+            pen_rss = np.zeros(alphas.size)
+            logdet = np.zeros(alphas.size)
+            if penalized.all():
+                pen_rss = yy.sum() - path.penalized_rss_reduction(norms, alphas)[0]
+                logdet = rows.size * path.log_det_ratio(alphas)
+            stats.append({
+                "rss": np.maximum(yy.sum() - path.rss_reduction(norms, alphas)[0], 0.0),
+                "pen_rss": np.maximum(pen_rss, 0.0),
+                "edf": rows.size * path.edf(alphas),
+                "logdet": logdet,
+                "n_obs": rows.size * n_obs,
+                "dof": rows.size * (n_obs - path.n_null),
+                "weight": rows.size * weight,
+            })
+        return merge(*stats)
+
+    def _scores(self, stats, k2=1.0):
+        """The pooled criterion per candidate; ``k2=_x_scale**2`` gives it in
+        the units of X (the statistics are of X divided by ``_x_scale``)."""
+        if self.criterion == "reml":
+            return reml_score(stats["pen_rss"] * k2, stats["dof"], stats["logdet"])
+        if not stats["n_obs"]:
+            return np.full(self.alphas_path_.size, np.inf)
+        return gcv_score(stats["rss"] * k2, stats["edf"], stats["n_obs"], stats["weight"])
+
+    def _choose(self, stats):
+        """Set ``alpha_``, ``criterion_path_``, ``edf_path_`` and ``edf_``
+        from pooled statistics; return the problem and the operator
+        ``(G + lam P)^{-1}`` at ``alpha_`` for complete curves."""
+        alphas = self.alphas_path_
+        if isinstance(self._alpha(), float):
+            self.criterion_path_ = None
+            self.alpha_ = float(alphas[0])
+        else:
+            best = _choose_rows(self._scores(stats), alphas, self.criterion.upper())
+            self.alpha_ = float(alphas[best[0]])
+            with np.errstate(over="ignore"):
+                self.criterion_path_ = self._scores(stats, self._x_scale**2)
+        problem = self._problem()
+        path = problem.full
+        self.edf_path_ = path.edf(alphas)
+        self.edf_ = float(path.edf(self.alpha_))
+        try:
+            operator = path.operator(self.alpha_)
+        except NotIdentifiableError as exc:
+            raise ValueError(
+                f"alpha=0 (no penalty) leaves coefficients undetermined on this "
+                f"grid: {problem.basis.n_basis} basis functions for "
+                f"{self.grid_.size} points. Use a smaller n_basis or alpha > 0 "
+                "(or 'auto')."
+            ) from exc
+        return problem, operator
+
+
 @fill_doc
-class CurveSmoother(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
+class CurveSmoother(PenalizedFitMixin, AdditiveTransformerMixin, TransformerMixin,
+                    BaseEstimator):
     """Smooth sampled curves with a roughness penalty chosen from the data.
 
     Each row of ``X`` is a curve sampled on a grid, possibly with missing
@@ -432,15 +538,10 @@ class CurveSmoother(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
     def _validate_batch(self, X, y, sample_weight, first):
         X = validate_curves(self, X, reset=first, allow_nan=True)
         if first:
-            self._setup()
-            # a power of two fixed by the first batch: squares stay finite
-            self._x_scale = 1.0 if is_dask_array(X) else power_of_two_scale(X)
+            self._setup(X)
         return (X,)
 
-    def _alpha(self):
-        return check_alpha(self.alpha)
-
-    def _setup(self):
+    def _setup(self, X):
         """Everything that depends on the parameters and grid only."""
         alpha = self._alpha()
         if self.per_curve and isinstance(alpha, float):
@@ -466,89 +567,12 @@ class CurveSmoother(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
             self.eval_points_ = out
         self.evaluation_ = basis.evaluate(self.eval_points_, self.derivative)
         self.n_basis_ = basis.n_basis
-        if alpha is AUTO:
-            self.alphas_path_ = candidate_alphas(problem.full)
-        else:
-            self.alphas_path_ = np.atleast_1d(alpha)
-        if isinstance(alpha, float) and alpha == 0:
-            phi_w = problem.phi * problem.weights()[:, None]
-            check_unpenalized_fit(phi_w.T @ problem.phi, basis.gram())
-
-    def _problem(self):
-        alpha = self._alpha()
-        penalized = not isinstance(alpha, float) or alpha > 0
-        return _Problem(self, self.grid_, penalized)
-
-    def _statistics(self, X):
-        """Additive criterion statistics of the curves in X, per candidate.
-
-        Keys ``rss`` and ``pen_rss`` (weighted residual and penalized
-        residual sums of squares per candidate), ``edf`` and ``logdet``
-        (effective degrees of freedom and REML determinant terms per
-        candidate), ``n_obs``, ``dof`` (observed points less unpenalized
-        functions) and ``weight`` (total data weight): sums over curves,
-        merged key by key (:func:`skfunc._penalized.merge`), in the units of
-        X divided by the first batch's power-of-two scale.
-        """
-        alphas = self.alphas_path_
-        zeros = np.zeros(alphas.size)
-        stats = [{"rss": zeros, "pen_rss": zeros, "edf": zeros, "logdet": zeros,
-                  "n_obs": 0, "dof": 0, "weight": 0.0}]
-        for rows, rotated, yy, path, n_obs, weight in self._problem().blocks(
-                X, scale=self._x_scale):
-            # the reductions are quadratic in each rotated column, so their
-            # sums over rows are the reductions of the column norms
-            norms = np.linalg.norm(rotated, axis=0)[None]
-            penalized = alphas > 0
-            pen_rss = np.zeros(alphas.size)
-            logdet = np.zeros(alphas.size)
-            if penalized.all():
-                pen_rss = yy.sum() - path.penalized_rss_reduction(norms, alphas)[0]
-                logdet = rows.size * path.log_det_ratio(alphas)
-            stats.append({
-                "rss": np.maximum(yy.sum() - path.rss_reduction(norms, alphas)[0], 0.0),
-                "pen_rss": np.maximum(pen_rss, 0.0),
-                "edf": rows.size * path.edf(alphas),
-                "logdet": logdet,
-                "n_obs": rows.size * n_obs,
-                "dof": rows.size * (n_obs - path.n_null),
-                "weight": rows.size * weight,
-            })
-        return merge(*stats)
-
-    def _scores(self, stats, k2=1.0):
-        """The pooled criterion per candidate; ``k2=_x_scale**2`` gives it in
-        the units of X (the statistics are of X divided by ``_x_scale``)."""
-        if self.criterion == "reml":
-            return reml_score(stats["pen_rss"] * k2, stats["dof"], stats["logdet"])
-        if not stats["n_obs"]:
-            return np.full(self.alphas_path_.size, np.inf)
-        return gcv_score(stats["rss"] * k2, stats["edf"], stats["n_obs"], stats["weight"])
+        self._setup_alphas(X, problem)
 
     def _solve(self, stats):
-        """Choose alpha from pooled statistics and build the operators."""
-        alphas = self.alphas_path_
-        if isinstance(self._alpha(), float):
-            self.criterion_path_ = None
-            self.alpha_ = float(alphas[0])
-        else:
-            best = _choose_rows(self._scores(stats), alphas, self.criterion.upper())
-            with np.errstate(over="ignore"):
-                self.criterion_path_ = self._scores(stats, self._x_scale**2)
-            self.alpha_ = float(alphas[best[0]])
-        problem = self._problem()
-        path, w = problem.full, problem.weights()
-        self.edf_path_ = path.edf(alphas)
-        self.edf_ = float(path.edf(self.alpha_))
-        try:
-            operator = path.operator(self.alpha_)
-        except NotIdentifiableError as exc:
-            raise ValueError(
-                f"alpha=0 (no penalty) leaves coefficients undetermined on this "
-                f"grid: {self.n_basis_} basis functions for {self.grid_.size} "
-                "points. Use a smaller n_basis or alpha > 0 (or 'auto')."
-            ) from exc
-        self.projection_ = operator @ (problem.phi * w[:, None]).T
+        """Choose alpha from pooled statistics and build the operator."""
+        problem, operator = self._choose(stats)
+        self.projection_ = operator @ (problem.phi * problem.weights()[:, None]).T
         return self
 
     # -- transforming --------------------------------------------------------
