@@ -47,12 +47,12 @@ class ConcurrentFunctionRidge(CurveResponseRegressor):
 
     Attributes
     ----------
+    coef_function_ : ndarray of shape (n_features,)
+        ``beta_1(t)`` on ``grid_``.
     grid_ : ndarray of shape (n_features,)
         The grid used at fit.
     response_grid_ : ndarray of shape (n_features,)
         The same grid (the response is on the input's grid).
-    coef_function_ : ndarray of shape (n_features,)
-        ``beta_1(t)`` on ``grid_``.
     intercept_function_ : ndarray of shape (n_features,)
         ``beta_0(t)`` on ``grid_``.
     basis_coef_ : ndarray of shape (2, n_basis_)

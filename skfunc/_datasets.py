@@ -101,18 +101,10 @@ def _dropout_mask(minutes, n_runs, dropout_fraction, rng):
     },
     prefer_skip_nested_validation=True,
 )
-def make_kiln_firing(
-    n_samples=200,
-    *,
-    grid=None,
-    late_start_fraction=0.1,
-    dropout_fraction=0.1,
-    faulty_fraction=0.03,
-    thermocouple_noise=1.5,
-    strength_noise=1.0,
-    as_frame=False,
-    random_state=None,
-):
+def make_kiln_firing(n_samples=200, *, grid=None, late_start_fraction=0.1,
+                     dropout_fraction=0.1, faulty_fraction=0.03,
+                     thermocouple_noise=1.5, strength_noise=1.0, as_frame=False,
+                     random_state=None):
     """Invented kiln-firing runs: temperature curves, tile strength and cracks.
 
     A made-up ceramics plant fires stoneware tiles. Each run logs the kiln

@@ -23,12 +23,46 @@ ARRAY_THRESHOLD = 8
 ARRAY_EDGE_ITEMS = 3
 
 
+def _short_arrays():
+    return np.printoptions(threshold=ARRAY_THRESHOLD, edgeitems=ARRAY_EDGE_ITEMS)
+
+
 class ShortReprMixin:
     """``repr`` with long array parameters summarised."""
 
     def __repr__(self, N_CHAR_MAX=700):
-        with np.printoptions(threshold=ARRAY_THRESHOLD, edgeitems=ARRAY_EDGE_ITEMS):
+        with _short_arrays():
             return super().__repr__(N_CHAR_MAX=N_CHAR_MAX)
+
+
+def _register_with_sklearn_printer():
+    """Summarise arrays also where scikit-learn prints a skfunc estimator
+    inside another one (a Pipeline step, a GridSearchCV estimator).
+
+    scikit-learn's pretty printer chooses how to print an object by its
+    ``__repr__`` (``_EstimatorPrettyPrinter._dispatch``, as :mod:`pprint`
+    does); the entry for :meth:`ShortReprMixin.__repr__` is scikit-learn's
+    own estimator printer run with arrays summarised. Nothing changes for
+    other estimators; with a scikit-learn that lacks the table, nested skfunc
+    estimators print as before.
+    """
+    try:
+        from sklearn.base import BaseEstimator
+        from sklearn.utils._pprint import _EstimatorPrettyPrinter
+
+        table = _EstimatorPrettyPrinter._dispatch
+        print_estimator = table[BaseEstimator.__repr__]
+    except (ImportError, AttributeError, KeyError):  # pragma: no cover
+        return
+
+    def print_short(printer, obj, stream, indent, allowance, context, level):
+        with _short_arrays():
+            print_estimator(printer, obj, stream, indent, allowance, context, level)
+
+    table[ShortReprMixin.__repr__] = print_short
+
+
+_register_with_sklearn_printer()
 
 
 def store_init_params(estimator, arguments):

@@ -7,19 +7,13 @@ from sklearn.linear_model import Ridge
 from sklearn.model_selection import GridSearchCV
 from sklearn.pipeline import make_pipeline
 
+from skfunc.datasets import make_smooth_regression
 from skfunc.preprocessing import BasisFeatures
 
 
 def smooth_curves(t, n=6, seed=0):
-    """Smooth random curves evaluated at t (a fixed family, any sampling)."""
-    rng = np.random.default_rng(seed)
-    a = rng.normal(size=(n, 4))
-    return (
-        a[:, [0]] * np.sin(2 * np.pi * t)
-        + a[:, [1]] * np.cos(3 * t)
-        + a[:, [2]] * np.exp(-((t - 0.4) ** 2) / 0.05)
-        + a[:, [3]] * t**2
-    )
+    """Smooth random curves at t, the same functions at any sampling of t's domain."""
+    return make_smooth_regression(n, grid=t, random_state=seed)[0]
 
 
 def test_euclidean_distance_equals_exact_l2_distance_legendre(rng):

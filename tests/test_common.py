@@ -148,3 +148,32 @@ def test_persistence_round_trip(name, suffix, tmp_path):
     fitted = {k: v for k, v in vars(estimator).items() if k.endswith("_")}
     np.testing.assert_equal({k: getattr(loaded, k) for k in fitted}, fitted)
     np.testing.assert_array_equal(output(loaded, X), output(estimator, X))
+
+
+@pytest.mark.parametrize("name", NAMES)
+def test_docstring_documents_every_parameter(name):
+    # numpydoc convention (common practice): the Parameters section lists the
+    # constructor's parameters, no more and no fewer
+    import re
+
+    cls = dict(all_estimators())[name]
+    doc = cls.__doc__
+    section = doc[doc.index("Parameters\n"):doc.index("Attributes\n")]
+    documented = re.findall(r"^    (\w+) : ", section, re.MULTILINE)
+    assert sorted(documented) == sorted(cls().get_params()), name
+
+
+@pytest.mark.parametrize("name", NAMES)
+def test_repr_of_a_pipeline_shows_every_step(name):
+    # scikit-learn cuts a repr of more than 700 non-blank characters
+    # (BaseEstimator.__repr__, N_CHAR_MAX) in the middle; a 600-point grid
+    # printed in full (about 7000 characters) would hide the other steps.
+    from sklearn.linear_model import Ridge
+    from sklearn.pipeline import make_pipeline
+
+    key = "grid" if ESTIMATOR_CASES[name]["curve_input"] else "response_grid"
+    estimator = dict(all_estimators())[name](**{key: np.linspace(0, 1, 600)})
+    text = repr(make_pipeline(estimator, Ridge()))
+    assert len("".join(text.split())) < 700
+    assert "shape=(600,)" in text and "('ridge', Ridge())" in text
+    assert np.get_printoptions()["threshold"] == 1000  # numpy's default kept

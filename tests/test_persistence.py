@@ -5,12 +5,12 @@ estimator is in tests/test_common.py.)
 
 import numpy as np
 import pytest
+from conftest import smooth_curves
 from sklearn.base import clone
 from sklearn.linear_model import Ridge
 from sklearn.pipeline import make_pipeline
 
 from skfunc import BasisFeatures
-from skfunc.datasets import make_smooth_regression
 from skfunc.persistence import (
     ModelFileError,
     _is_skfunc_estimator,
@@ -22,13 +22,8 @@ sio = pytest.importorskip("skops.io")
 
 
 
-def _curves():
-    X, y, _ = make_smooth_regression(60, grid=41, noise=0.1, random_state=0)
-    return X, y
-
-
 def test_pipeline_with_skfunc_step_loads_trusting_only_skfunc(tmp_path):
-    X, y = _curves()
+    X, y = smooth_curves(np.linspace(0, 1, 41))
     pipe = make_pipeline(clone(BasisFeatures()), Ridge()).fit(X, y)
     path = save_model(pipe, tmp_path / "pipe.skops")
     loaded = load_model(path)
@@ -49,7 +44,7 @@ class NotTrusted(Ridge):
 
 
 def test_skops_refuses_untrusted_types(tmp_path):
-    X, y = _curves()
+    X, y = smooth_curves(np.linspace(0, 1, 41))
     path = save_model(NotTrusted().fit(X, y), tmp_path / "other.skops")
     with pytest.raises(ModelFileError, match="NotTrusted.*trusted=") as info:
         load_model(path)
@@ -60,7 +55,7 @@ def test_skops_refuses_untrusted_types(tmp_path):
 
 @pytest.mark.parametrize("suffix", [".joblib", ".skops"])
 def test_existing_file_is_not_overwritten_without_force(tmp_path, suffix):
-    X, y = _curves()
+    X, y = smooth_curves(np.linspace(0, 1, 41))
     path = tmp_path / f"model{suffix}"
     path.write_bytes(b"precious")
     with pytest.raises(FileExistsError, match="force"):
@@ -74,7 +69,7 @@ def test_existing_file_is_not_overwritten_without_force(tmp_path, suffix):
 @pytest.mark.parametrize("suffix", [".joblib", ".skops"])
 @pytest.mark.parametrize("damage", ["truncate", "flip", "empty", "text"])
 def test_damaged_file_fails_with_clear_error(tmp_path, suffix, damage):
-    X, y = _curves()
+    X, y = smooth_curves(np.linspace(0, 1, 41))
     path = save_model(make_pipeline(clone(BasisFeatures()), Ridge()).fit(X, y),
                       tmp_path / f"model{suffix}")
     data = bytearray(path.read_bytes())
