@@ -121,15 +121,7 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
         path, part = self._path(stats, basis)
         rotated = part["rotated"]
         per_target = np.broadcast_to(alpha, rotated.shape[:1])
-        try:
-            theta = path.coef(rotated, per_target)
-        except NotIdentifiableError as exc:
-            raise NotIdentifiableError(
-                f"{type(self).__name__} cannot determine its coefficients with "
-                f"alpha=0 from {stats['n']} curves: {exc} Use alpha > 0 or "
-                "'auto' (the usual choice), fewer basis functions (n_basis) or "
-                "more curves."
-            ) from exc
+        theta = path.coef(rotated, per_target)
         intercept = part["y_mean"] - theta @ part["z_mean"]
         reduction = np.empty(len(rotated))
         for value in np.unique(per_target):
@@ -153,6 +145,16 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
         choice per target unless ``pooled``); set the path attributes and
         fit at the choice."""
         path, part = self._path(stats, basis)
+        if np.ndim(alpha) == 0 and alpha == 0 and np.any(path.s <= 0):
+            k = basis.n_basis
+            raise NotIdentifiableError(
+                f"{type(self).__name__} cannot determine {k + self.n_covariates} "
+                f"coefficients ({k} basis functions for beta and "
+                f"{self.n_covariates} covariate(s)) from {stats['n']} curves "
+                "without a penalty (alpha=0). Use a roughness penalty alpha > 0 "
+                "or 'auto' (the usual choice), fewer basis functions (n_basis) "
+                "or more curves."
+            )
         chosen = choose_alpha(
             path, part["rotated"], part["yy"], stats["n"], alpha, criterion=criterion,
             total_weight=stats["sw"], extra_edf=int(self.fit_intercept), pooled=pooled,

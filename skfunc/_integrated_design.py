@@ -106,8 +106,10 @@ class IntegratedDesignMixin(ShortReprMixin):
             raise NotIdentifiableError(
                 f"{type(self).__name__} cannot determine {n_coef} coefficients "
                 f"({n_coef - self.n_covariates} basis functions for beta and "
-                f"{self.n_covariates} covariate(s)) from {n_samples} curves: "
-                f"{exc}"
+                f"{self.n_covariates} covariate(s)) from {n_samples} curves: the "
+                "penalty leaves functions with D^penalty_order = 0 (and the "
+                "covariates) unpenalized, so the data must determine those: use "
+                "more curves, a lower penalty_order or fewer covariates."
             ) from exc
 
     def _checked_path(self, zz, penalty, alphas, n_samples):
