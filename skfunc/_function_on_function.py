@@ -15,6 +15,7 @@ from ._function_response import (
     CurveResponseRegressor,
 )
 from ._grid import quadrature_weights
+from ._penalized import penalty_for
 from ._validation import basis_for, validate_curves
 
 
@@ -117,8 +118,8 @@ class FunctionOnFunctionRidge(AdditiveRegressorMixin, CurveResponseRegressor):
 
     _batch_grids = (("grid", "grid_"), ("response_grid", "response_grid_"))
 
-    def __init__(self, alpha=None, *, alphas=None, basis="bspline", n_basis=None,
-                 degree=3, interior_knots=None, penalty_order=2, grid=None,
+    def __init__(self, alpha="auto", *, criterion="gcv", basis="bspline", n_basis=None,
+                 degree=3, interior_knots=None, penalty_order=2, period=None, grid=None,
                  response_grid=None, quadrature="trapezoid"):
         store_init_params(self, locals())
 
@@ -128,7 +129,7 @@ class FunctionOnFunctionRidge(AdditiveRegressorMixin, CurveResponseRegressor):
         return validate_curves(self, X, reset=reset), y
 
     def _input_basis(self):
-        return basis_for(self, self.grid_, cap=self.alpha == 0)
+        return basis_for(self, self.grid_, cap=self._unpenalized())
 
     def _statistics_function(self):
         """Statistics of the design ``int X_i psi_a`` (the input curves' basis
@@ -138,8 +139,9 @@ class FunctionOnFunctionRidge(AdditiveRegressorMixin, CurveResponseRegressor):
         return partial(self._statistics, design=psi * weights[:, None])
 
     def _design_geometry(self):
+        """Input basis: its Gram matrix and split penalty on [0, 1]."""
         psi = self._input_basis()
-        return psi.gram(), self._penalty(psi)
+        return psi.unit_gram(), penalty_for(psi, self.penalty_order)
 
     def _coef_rows(self):
         psi = basis_for(self, self.grid_, cap=False).evaluate(self.grid_)
