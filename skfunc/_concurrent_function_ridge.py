@@ -12,6 +12,7 @@ from ._function_response import (
     RESPONSE_PARAMETER_CONSTRAINTS,
     CurveResponseRegressor,
     choose_from_scores,
+    free_penalty,
     resolve_candidates,
     validate_response,
 )
@@ -196,7 +197,9 @@ class ConcurrentFunctionRidge(CurveResponseRegressor):
         basis, weights = self._response_basis()
         phi = basis.evaluate(self.response_grid_)
         phi_w = phi * weights[:, None]
-        penalty = penalty_for(basis, self.penalty_order).extend(basis.n_basis)
+        slope = (free_penalty(basis.n_basis) if self._unpenalized()
+                 else penalty_for(basis, self.penalty_order))
+        penalty = slope.extend(basis.n_basis)
         try:
             path = SplitPath(self._normal_matrix(stats, phi_w, phi), penalty)
         except NotIdentifiableError as exc:

@@ -141,6 +141,8 @@ class FunctionOnFunctionRidge(AdditiveRegressorMixin, CurveResponseRegressor):
     def _design_geometry(self):
         """Input basis: its Gram matrix and split penalty on [0, 1]."""
         psi = self._input_basis()
+        if self._unpenalized():
+            return psi.unit_gram(), None
         return psi.unit_gram(), penalty_for(psi, self.penalty_order)
 
     def _coef_rows(self):

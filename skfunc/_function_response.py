@@ -116,15 +116,23 @@ def resolve_candidates(alpha, s, scale):
     return np.atleast_1d(value)
 
 
-def response_split(basis, gram, penalty_order):
+def free_penalty(n):
+    """A "penalty" leaving all ``n`` coordinates free (alpha fixed at 0: the
+    basis' smoothness need not carry any roughness)."""
+    return Penalty(np.zeros((n, n)), np.eye(n))
+
+
+def response_split(basis, gram, penalty_order, penalized=True):
     """``(U, g, p, s_t)`` of the response side: ``U' G U = diag(g)``,
     ``U' P01 U = diag(p)`` with ``p = 0`` exactly on the penalty's null
     space, and ``s_t`` the engine weight of the response penalty
     (:func:`skfunc._penalized.penalty_scale`). A one-point grid has one
-    unpenalized direction."""
+    unpenalized direction; so has every direction without a penalty."""
     if isinstance(basis, _PointBasis):
         return np.eye(1), np.ones(1), np.zeros(1), 1.0
-    path = SplitPath(gram, penalty_for(basis, penalty_order))
+    penalty = (penalty_for(basis, penalty_order) if penalized
+               else free_penalty(basis.n_basis))
+    path = SplitPath(gram, penalty)
     return path.eigvecs, path.g, path.p, path.scale
 
 
@@ -361,8 +369,9 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         sw = stats["sw"]
         zz, zy, _, z_mean, y_mean = centered(stats)
         p = zz.shape[0]
-        U, g, p_t, s_t = response_split(basis, phi_w.T @ phi, self.penalty_order)
-        design_pen = pen_s if pen_s is not None else Penalty(np.zeros((p, p)), np.eye(p))
+        U, g, p_t, s_t = response_split(basis, phi_w.T @ phi, self.penalty_order,
+                                        not self._unpenalized())
+        design_pen = pen_s if pen_s is not None else free_penalty(p)
         scale = penalty_scale(zz, design_pen) * s_t
         S = np.zeros((p + 1, p + 1))
         S[:p, :p], S[p, p] = zz, sw
@@ -427,7 +436,7 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         p = gram_s.shape[0]
         if p_k == 0:  # the response penalty's null space: only Ps acts
             if pen_s is None:
-                pen = Penalty(np.zeros((p, p)), np.eye(p))
+                pen = free_penalty(p)
             else:
                 pen = Penalty(pen_s.matrix / s_t, pen_s.transform[:, :pen_s.n_null])
         elif g_k <= 0:
