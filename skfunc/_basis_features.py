@@ -54,6 +54,7 @@ class BasisFeatures(PenalizedFitMixin, AdditiveTransformerMixin, TransformerMixi
     Parameters
     ----------
     %(basis)s
+    %(period)s
     %(alpha)s
     data_term : {"mean", "integral"}, default="mean"
         Data term of the fit: the mean squared error over the grid points,

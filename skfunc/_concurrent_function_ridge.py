@@ -39,8 +39,9 @@ class ConcurrentFunctionRidge(CurveResponseRegressor):
 
     Parameters
     ----------
-    %(curve_response_alpha)s
+    %(alpha)s
     %(basis)s
+    %(period)s
     grid : array-like of shape (n_features,), default=None
         Sampling points of the columns of ``X`` and ``y``. None means the
         numeric column labels of a DataFrame, else evenly spaced points on

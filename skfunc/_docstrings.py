@@ -29,12 +29,6 @@ interior_knots : array-like of shape (n_knots,), default=None
     given, ``n_basis`` follows from it: ``n_knots + degree + 1``.
 penalty_order : int, default=2
     Derivative order ``q`` of the roughness penalty ``int (D^q f)^2``.
-period : float, default=None
-    Period of the Fourier basis (ignored by the other bases). None means
-    the grid's range plus one mean grid step, ``(t_{m-1} - t_0) m / (m -
-    1)``: the grid is one cycle whose last point comes one step before the
-    next cycle's first. Pass it when the grid closes the cycle, or when
-    exact resolution invariance matters.
 """,
     "alpha": """
 alpha : "auto", float or array-like, default="auto"
@@ -60,6 +54,14 @@ criterion_path_ : ndarray of shape (n_alphas,) or None
 edf_path_ : ndarray of shape (n_alphas,)
     Effective degrees of freedom of each candidate.
 """,
+    "period": """
+period : float, default=None
+    Period of the Fourier basis (ignored by the other bases). None means
+    the grid's range plus one mean grid step, ``(t_{m-1} - t_0) m / (m -
+    1)``: the grid is one cycle whose last point comes one step before the
+    next cycle's first. Pass it when the grid closes the cycle, or when
+    exact resolution invariance matters.
+""",
     "grid": """
 grid : array-like of shape (n_features,), default=None
     Sampling points of the columns of ``X``. None means the numeric column
@@ -77,24 +79,10 @@ response_grid : array-like of shape (n_response_points,), default=None
     one-column ``y`` is a response of one point: a scalar outcome, fitted
     by least squares.
 """,
-    "curve_response_alpha": """
-alpha : float, default=None
-    Roughness penalty. None chooses it by GCV from ``alphas``.
-alphas : array-like of shape (n_alphas,), default=None
-    Candidates for GCV when ``alpha=None``; None means 25 log-spaced values
-    scaled to the problem.
-""",
     "curve_response_attributes": """
-alpha_ : float
-    The penalty used.
-alphas_ : ndarray of shape (n_alphas,)
-    Candidates (only ``alpha`` when it was given).
-criterion_ : ndarray of shape (n_alphas,)
-    GCV score per candidate (lower is better).
+%(alpha_attributes)s
 edf_ : float
     Effective degrees of freedom at ``alpha_``.
-edf_path_ : ndarray of shape (n_alphas,)
-    Effective degrees of freedom per candidate.
 n_basis_ : int
     Number of response basis functions.
 """,

@@ -37,8 +37,9 @@ class FunctionOnFunctionRidge(AdditiveRegressorMixin, CurveResponseRegressor):
 
     Parameters
     ----------
-    %(curve_response_alpha)s
+    %(alpha)s
     %(basis)s
+    %(period)s
     %(grid)s
     %(response_grid)s
     %(quadrature)s

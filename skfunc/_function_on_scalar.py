@@ -31,8 +31,9 @@ class FunctionOnScalarRidge(AdditiveRegressorMixin, CurveResponseRegressor):
 
     Parameters
     ----------
-    %(curve_response_alpha)s
+    %(alpha)s
     %(basis)s
+    %(period)s
     %(response_grid)s
     %(quadrature)s
 

@@ -122,17 +122,20 @@ def free_penalty(n):
     return Penalty(np.zeros((n, n)), np.eye(n))
 
 
-def response_split(basis, gram, penalty_order, penalized=True):
+def response_split(basis, gram, penalty_order, penalized=True, total_weight=None):
     """``(U, g, p, s_t)`` of the response side: ``U' G U = diag(g)``,
     ``U' P01 U = diag(p)`` with ``p = 0`` exactly on the penalty's null
     space, and ``s_t`` the engine weight of the response penalty
-    (:func:`skfunc._penalized.penalty_scale`). A one-point grid has one
-    unpenalized direction; so has every direction without a penalty."""
+    (``total_weight``, the sum of the quadrature weights: the response Gram
+    matrix tends to that times the Gram matrix on [0, 1], as for a
+    smoother; its largest eigenvalue would add the quadrature error of the
+    most oscillatory basis function). A one-point grid has one unpenalized
+    direction; so has every direction without a penalty."""
     if isinstance(basis, _PointBasis):
         return np.eye(1), np.ones(1), np.zeros(1), 1.0
     penalty = (penalty_for(basis, penalty_order) if penalized
                else free_penalty(basis.n_basis))
-    path = SplitPath(gram, penalty)
+    path = SplitPath(gram, penalty, scale=total_weight)
     return path.eigvecs, path.g, path.p, path.scale
 
 
@@ -370,7 +373,7 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         zz, zy, _, z_mean, y_mean = centered(stats)
         p = zz.shape[0]
         U, g, p_t, s_t = response_split(basis, phi_w.T @ phi, self.penalty_order,
-                                        not self._unpenalized())
+                                        not self._unpenalized(), float(weights.sum()))
         design_pen = pen_s if pen_s is not None else free_penalty(p)
         scale = penalty_scale(zz, design_pen) * s_t
         S = np.zeros((p + 1, p + 1))

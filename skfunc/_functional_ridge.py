@@ -199,8 +199,8 @@ class FunctionalRidge(FunctionalRidgeBase):
     Parameters
     ----------
     %(alpha)s
-        With several targets, one alpha is chosen per target.
     %(scalar_outcome)s
+    %(period)s
 
     Attributes
     ----------

@@ -51,6 +51,7 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
         :class:`sklearn.linear_model.RidgeCV` does) instead of one alpha
         minimising the criterion averaged over targets.
     %(scalar_outcome)s
+    %(period)s
 
     Attributes
     ----------

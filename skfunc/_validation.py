@@ -179,9 +179,10 @@ def basis_for(estimator, grid, cap=True):
     if name == "bspline" and estimator.n_basis is None and knots is None:
         degree = min(degree, n_basis - 1)
     period = getattr(estimator, "period", None)
-    if name == "fourier" and period is None:
-        period = default_period(grid)
-    elif name != "fourier":
+    if name != "fourier":
         period = None
+    elif period is None and hasattr(estimator, "period"):
+        period = default_period(grid)
+    # an estimator without a period parameter keeps the domain's length
     return make_basis(name, (grid[0], grid[-1]), n_basis, degree=degree, knots=knots,
                       period=period)

@@ -86,7 +86,8 @@ def test_identity_penalty_equals_sklearn_l2(rng, n_classes):
     ours = FunctionalLogisticRegression(
         alpha=alpha, basis="fourier", n_basis=7, penalty_order=0
     ).fit(X, y)
-    Z = BasisFeatures(basis="fourier", n_basis=7).fit_transform(X)
+    Z = BasisFeatures(basis="fourier", n_basis=7, alpha=0, period=1.0,
+                      data_term="integral").fit_transform(X)
     ref = LogisticRegression(C=1 / alpha, solver="newton-cg", tol=1e-12).fit(Z, y)
     np.testing.assert_allclose(ours.basis_coef_, ref.coef_, rtol=1e-5, atol=1e-7)
     np.testing.assert_allclose(ours.predict_proba(X), ref.predict_proba(Z), atol=1e-7)

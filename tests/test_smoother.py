@@ -14,9 +14,8 @@ from numpy.testing import assert_allclose
 from scipy.interpolate import make_smoothing_spline
 
 from skfunc._alpha import AlphaAtEdgeWarning
-from skfunc._bases import make_basis
 from skfunc._grid import quadrature_weights
-from skfunc._penalized import engine_alpha, merge, penalty_for
+from skfunc._penalized import merge
 from skfunc.preprocessing import CurveSmoother
 
 
@@ -42,18 +41,14 @@ def _spline_smoother(t, alpha, **kw):
                          grid=t, **kw)
 
 
-def _alpha_for(t, lam, observed=None):
+def _alpha_for(t, lam):
     """The unit-free alpha equal to scipy's ``lam`` for the trapezoid data
-    weights, by the definition of alpha (docs/bases_and_penalties.rst): the
-    objective ``||x - f||_W^2 + alpha * s * int_0^1 f''(u)^2 du`` with ``s``
-    the largest eigenvalue of ``Phi' W Phi`` against the unit-domain Gram
-    matrix, and ``int_0^1 f''(u)^2 du = L^3 int f''(t)^2 dt`` (change of
-    variables), so ``lam = alpha * s * L^3``."""
-    basis = make_basis("bspline", (t[0], t[-1]), None, degree=3, knots=t[1:-1])
-    w = quadrature_weights(t)
-    phi = basis.evaluate(t)
-    s = engine_alpha(1.0, (phi * w[:, None]).T @ phi, penalty_for(basis, 2))
-    return np.asarray(lam) / (s * (t[-1] - t[0]) ** 3)
+    weights, by the smoother's definition of alpha: the objective
+    ``(1 / sum w) ||x - f||_W^2 + alpha int_0^1 f''(u)^2 du`` with
+    ``int_0^1 f''(u)^2 du = L^3 int f''(t)^2 dt`` (change of variables), so
+    ``lam = alpha * sum(w) * L^3``."""
+    length = t[-1] - t[0]
+    return np.asarray(lam) / (quadrature_weights(t).sum() * length**3)
 
 
 # -- external checks -----------------------------------------------------------
