@@ -124,6 +124,14 @@ class FunctionOnFunctionRidge(AdditiveRegressorMixin, CurveResponseRegressor):
                  response_grid=None, quadrature="trapezoid"):
         store_init_params(self, locals())
 
+    def __sklearn_tags__(self):
+        tags = super().__sklearn_tags__()
+        # scikit-learn's score check regresses on one informative column of
+        # ten (a spike in s), which the default input basis (six B-splines on
+        # ten points) cannot isolate.
+        tags.regressor_tags.poor_score = True
+        return tags
+
     def _validate_inputs(self, X, y, reset):
         if is_dask_array(X) or is_dask_array(y):
             return validate_curves(self, X, y, reset=reset, multi_output=True)

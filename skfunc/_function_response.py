@@ -379,6 +379,11 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         S = np.zeros((p + 1, p + 1))
         S[:p, :p], S[p, p] = zz, sw
         rot = (np.vstack([zy, sw * y_mean]) @ phi_w) @ U  # r_k as columns
+        if stats["n"] < 2:
+            raise ValueError(
+                f"{type(self).__name__} was given 1 sample; the coefficient "
+                "functions need n_samples >= 2 (the intercept and one slope)."
+            )
         paths = [self._direction_path(S, g[k], p_t[k], gram_s, pen_s, s_t, scale)
                  for k in range(g.size)]
         live = [k for k, path in enumerate(paths) if path is not None]

@@ -7,6 +7,7 @@ from sklearn.model_selection import check_cv
 from sklearn.utils._param_validation import StrOptions
 
 from ._alpha import (
+    ALPHA_CONSTRAINT,
     AUTO,
     CRITERIA,
     best_index,
@@ -34,10 +35,11 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
 
     Parameters
     ----------
-    alpha : "auto" or array-like of shape (n_alphas,), default="auto"
+    alpha : "auto", float or array-like of shape (n_alphas,), default="auto"
         Candidate penalties (unit-free, as for :class:`FunctionalRidge`):
         ``"auto"`` means 25 log-spaced values spanning every effective
-        degrees of freedom from nearly unpenalized to the null space.
+        degrees of freedom from nearly unpenalized to the null space; a
+        number is the only candidate (its criterion is still computed).
     criterion : {"gcv", "reml", "loo"}, default="gcv"
         Generalised cross-validation (Craven and Wahba, 1979), REML (Wood,
         2011) or exact leave-one-out mean squared error. Used when
@@ -109,7 +111,7 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
     _parameter_constraints = {
         **DESIGN_CONSTRAINTS,
         **PERIOD_CONSTRAINT,
-        "alpha": [StrOptions({AUTO}), "array-like"],
+        "alpha": ALPHA_CONSTRAINT,
         "criterion": [StrOptions({*CRITERIA, "loo"})],
         "cv": ["cv_object"],
         "alpha_per_target": ["boolean"],
@@ -122,18 +124,12 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
         store_init_params(self, locals())
 
     def _check_alphas(self):
-        """None for "auto", else the candidates (a fixed number is not a
-        choice: use FunctionalRidge)."""
+        """None for "auto", else the candidates (a number is the one
+        candidate: its criterion is computed, nothing is chosen)."""
         alphas = check_alpha(self.alpha)
         if alphas is AUTO:
             return None
-        if isinstance(alphas, float):
-            raise ValueError(
-                f"alpha of FunctionalRidgeCV must be 'auto' or an array of "
-                f"candidates > 0; got {self.alpha!r}. For a fixed alpha use "
-                "FunctionalRidge."
-            )
-        return alphas
+        return np.atleast_1d(alphas)
 
     @fill_doc
     def fit(self, X, y, sample_weight=None):

@@ -382,9 +382,9 @@ class CurveSmoother(PenalizedFitMixin, AdditiveTransformerMixin, TransformerMixi
 
     with data weights ``w_j`` (``data_term``), ``q = penalty_order`` and the
     penalty on the domain mapped to [0, 1] (``u = (t - t_0) / L``), and
-    ``f`` (or its derivative of order ``derivative``) is returned on ``eval_points``. The same alpha gives the same smooth
-    whatever the grid's unit or origin, the data's scale or the number of
-    grid points.
+    ``f`` (or its derivative of order ``derivative``) is returned on
+    ``eval_points``. The same alpha gives the same smooth whatever the
+    grid's unit or origin, the data's scale or the number of grid points.
 
     By default alpha is chosen from the training curves (``alpha="auto"``)
     by generalized cross-validation or REML, pooled over the curves at fit,

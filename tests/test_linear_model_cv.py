@@ -140,7 +140,7 @@ def test_default_alphas(data):
 
 
 @pytest.mark.parametrize(
-    "alphas", [[1.0, 0.0], [-1.0, 1.0], [np.nan], [], [[1.0, 2.0]], 1.0]
+    "alphas", [[1.0, 0.0], [-1.0, 1.0], [np.nan], [], [[1.0, 2.0]], -1.0]
 )
 def test_bad_alphas(data, alphas):
     X, y = data
