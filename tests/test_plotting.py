@@ -183,7 +183,7 @@ def test_alpha_criterion_matches_sklearn_ridgecv_choice():
     alphas = np.logspace(-4, 2, 13)
     ridge = RidgeCV(alphas=alphas, store_cv_results=True).fit(X, y)
     loo = ridge.cv_results_.mean(axis=0)
-    est = Fitted(alphas_=alphas, criterion_=loo, alpha_=ridge.alpha_,
+    est = Fitted(alphas_path_=alphas, criterion_path_=loo, alpha_=ridge.alpha_,
                  criterion="loo")
     display = AlphaCriterionDisplay.from_estimator(est)
     line = display.lines_[0]
@@ -198,13 +198,13 @@ def test_alpha_criterion_matches_sklearn_ridgecv_choice():
 def test_alpha_criterion_per_curve_rows():
     alphas = np.logspace(-3, 3, 7)
     criterion = (np.log10(alphas)[None, :] - np.arange(4)[:, None] + 1) ** 2
-    est = Fitted(alphas_=alphas, criterion_=criterion, alpha_=alphas[[2, 3, 4, 5]])
+    est = Fitted(alphas_path_=alphas, criterion_path_=criterion, alpha_=alphas[[2, 3, 4, 5]])
     display = AlphaCriterionDisplay.from_estimator(est, max_lines=3,
                                                    criterion_name="GCV")
     assert len(display.lines_) == 3
     np.testing.assert_allclose([c.get_xdata()[0] for c in display.chosen_lines_],
                                alphas[[2, 3, 4]])
-    bad = Fitted(alphas_=alphas, criterion_=criterion[:, :3], alpha_=1.0)
+    bad = Fitted(alphas_path_=alphas, criterion_path_=criterion[:, :3], alpha_=1.0)
     with pytest.raises(ValueError, match="one value per alpha"):
         AlphaCriterionDisplay.from_estimator(bad)
 
@@ -255,5 +255,5 @@ def test_real_coefficient_estimators_if_available():
         est = cls().fit(X, y)
         display = CoefficientFunctionDisplay.from_estimator(est, reference=beta)
         np.testing.assert_allclose(display.line_.get_ydata(), est.coef_function_)
-        if hasattr(est, "criterion_"):
+        if getattr(est, "criterion_path_", None) is not None:
             AlphaCriterionDisplay.from_estimator(est)
