@@ -17,11 +17,26 @@ author = "skfunc developers"
 copyright = "skfunc developers"
 release = version = __version__
 
-extensions = ["sphinx.ext.autodoc", "sphinx.ext.mathjax", "numpydoc"]
+extensions = [
+    "sphinx.ext.autodoc", "sphinx.ext.mathjax", "numpydoc", "sphinx_gallery.gen_gallery",
+]
 numpydoc_show_class_members = False
 numpydoc_class_members_toctree = False
 autodoc_default_options = {"members": False}
 exclude_patterns = ["_build"]
+
+# The gallery: every script in examples/ runs during the build and its
+# printed output and figures go on its page (docs/auto_examples is generated).
+sphinx_gallery_conf = {
+    "examples_dirs": "../examples",
+    "gallery_dirs": "auto_examples",
+    "filename_pattern": r"\.py$",  # run every example, not only plot_*.py
+    "within_subsection_order": "FileNameSortKey",
+    "download_all_examples": False,
+    "write_computation_times": False,
+    "remove_config_comments": True,
+    "abort_on_example_error": True,
+}
 templates_path = []
 html_theme = "alabaster"
 html_static_path = ["_static"]

@@ -1,4 +1,6 @@
-"""Predicting the whole temperature profile from the programmed settings.
+"""
+Predicting the whole temperature profile from the programmed settings
+=====================================================================
 
 Invented kiln data. Before a run starts, only its programmed settings are
 known: peak set-point, ramp rate, soak length and load mass.
@@ -46,4 +48,3 @@ for ax, j in zip(axes[1:], (0, 3), strict=True):
     CoefficientFunctionDisplay.from_estimator(model, target=j, ax=ax)
     ax.set(title=f"Effect of {kiln.settings_names[j]}", xlabel="minute",
            ylabel="°C per unit of the setting")
-plt.show()

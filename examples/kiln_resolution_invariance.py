@@ -1,5 +1,6 @@
-"""The same firing runs logged at three rates: plain PCA changes, functional
-PCA does not.
+"""
+The same firing runs logged at three rates: PCA changes, FunctionalPCA does not
+===============================================================================
 
 Invented kiln data. The same 80 runs are logged every minute, every 5
 minutes, and on an uneven schedule (dense during the ramp, sparse later).
@@ -20,7 +21,8 @@ from sklearn.decomposition import PCA
 from skfunc.datasets import make_kiln_firing
 from skfunc.decomposition import FunctionalPCA
 
-parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+parser = argparse.ArgumentParser(
+    description="The same runs at three logging rates: PCA against FunctionalPCA.")
 parser.add_argument("--output", help="save the figure to this file")
 args = parser.parse_args()
 
@@ -52,4 +54,3 @@ for ax in axes:
 if args.output:
     fig.savefig(args.output, dpi=80)
     print(f"saved {args.output}")
-plt.show()

@@ -1,4 +1,6 @@
-"""Smoothing firing curves with dropouts, and their cooling rates.
+"""
+Smoothing firing curves with dropouts, and their cooling rates
+==============================================================
 
 Invented kiln data: each run logs the kiln temperature once a minute, and
 some thermocouples drop out for a few minutes (NaN). CurveSmoother fits every
@@ -40,18 +42,22 @@ print(f"crack rate, slowest half of runs {kiln.cracked[fastest > np.median(faste
       f" vs fastest half {kiln.cracked[fastest <= np.median(fastest)].mean():.2f}")
 
 run = int(np.flatnonzero(kiln.has_dropout)[0])
+gap = minutes[np.isnan(kiln.data[run])]
+zoom = (minutes >= gap[0] - 30) & (minutes <= gap[0] + 30)
 raw_rate = np.gradient(kiln.data[run], minutes)
-fig, axes = plt.subplots(1, 3, figsize=(14, 4), layout="constrained")
-axes[0].plot(minutes, kiln.data[run], ".", markersize=2, color="0.5", label="logged")
-axes[0].plot(minutes, smooth[run], color="C0", label="smoothed (gaps filled)")
-axes[0].set(title=f"Run {run}: logged and smoothed", xlabel="minute",
+fig, axes = plt.subplots(1, 3, figsize=(15, 4), layout="constrained")
+axes[0].plot(minutes[zoom], kiln.data[run, zoom], "o", markersize=3, color="0.4",
+             label="logged (gap = dropout)")
+axes[0].plot(minutes[zoom], smooth[run, zoom], color="C0", label="smoothed, gap filled")
+axes[0].set(title=f"Run {run} around its first dropout", xlabel="minute",
             ylabel="temperature (°C)")
-axes[0].legend()
+axes[0].legend(loc="upper center", bbox_to_anchor=(0.5, -0.18), fontsize="small",
+               ncols=2, frameon=False)
 axes[1].plot(minutes, raw_rate, color="0.7", linewidth=0.7, label="raw differences")
 axes[1].plot(minutes, rate[run], color="C3", label="derivative of the smooth")
-axes[1].set(title="Heating / cooling rate", xlabel="minute", ylabel="°C per minute",
-            ylim=(-15, 12))
-axes[1].legend()
-AlphaCriterionDisplay.from_estimator(smoother, ax=axes[2], criterion_name="GCV")
+axes[1].set(title=f"Run {run}: heating / cooling rate", xlabel="minute",
+            ylabel="°C per minute", ylim=(-15, 12))
+axes[1].legend(loc="upper center", bbox_to_anchor=(0.5, -0.18), fontsize="small",
+               ncols=2, frameon=False)
+AlphaCriterionDisplay.from_estimator(smoother, ax=axes[2])
 axes[2].set_title("Choice of the smoothing penalty")
-plt.show()

@@ -1,4 +1,6 @@
-"""Which part of the firing decides tile strength? FunctionalRidgeCV.
+"""
+Which part of the firing decides tile strength? FunctionalRidgeCV
+=================================================================
 
 Invented kiln data: tile flexural strength (MPa) depends on the whole
 temperature curve through a coefficient function beta(t): strength rises
@@ -45,4 +47,3 @@ axes[0].set(title="Strength coefficient function", xlabel="minute",
             ylabel="MPa per °C·min")
 AlphaCriterionDisplay.from_estimator(ridge, ax=axes[1])
 axes[1].set_title("GCV over the penalty")
-plt.show()

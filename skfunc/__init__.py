@@ -6,7 +6,8 @@ Hilbert space of functions, evaluated on the curves' grid.
 
 __version__ = "0.1.0"
 
-from . import hilbert, metrics, utils
+from . import alignment, hilbert, metrics, outliers, utils
+from .alignment import ElasticAligner, LandmarkAligner, ShiftAligner
 from .decomposition import FunctionalPCA
 from .linear_model import (
     ConcurrentFunctionRidge,
@@ -16,20 +17,27 @@ from .linear_model import (
     FunctionOnFunctionRidge,
     FunctionOnScalarRidge,
 )
+from .outliers import CurveOutlierDetector
 from .preprocessing import BasisFeatures, CurveSmoother
 
 __all__ = [
     "BasisFeatures",
     "ConcurrentFunctionRidge",
+    "CurveOutlierDetector",
     "CurveSmoother",
+    "ElasticAligner",
     "FunctionalLogisticRegression",
     "FunctionalPCA",
     "FunctionalRidge",
     "FunctionalRidgeCV",
     "FunctionOnFunctionRidge",
     "FunctionOnScalarRidge",
+    "LandmarkAligner",
+    "ShiftAligner",
+    "alignment",
     "hilbert",
     "metrics",
+    "outliers",
     "utils",
     "__version__",
 ]

@@ -67,6 +67,66 @@ grid : array-like of shape (n_features,), default=None
     Sampling points of the columns of ``X``. None means the numeric column
     labels of a DataFrame, else evenly spaced points on [0, 1].
 """,
+    "aligner_output": """
+output : {"curves", "warps", "warp_coordinates"}, default="curves"
+    What :meth:`transform` returns: the aligned curves, each curve's warp
+    ``gamma_i`` on the grid, or the warps' L2-orthonormal coordinates
+    ``sqrt(w_j) (gamma_i(t_j) - t_j)`` (phase as features).
+%(grid)s
+""",
+    "aligned_returns": """
+Returns
+-------
+X_out : ndarray of shape (n_samples, n_features)
+    Aligned curves, warps or warp coordinates (see ``output``).
+""",
+    "warps_returns": """
+Returns
+-------
+warps : ndarray of shape (n_samples, n_features)
+    Each curve's warp ``gamma_i`` on the fitted grid: ``X[i]`` is about
+    the template read on the clock ``gamma_i``.
+""",
+    "curves_fit": """
+%(fit_curves)s
+
+Returns
+-------
+self : object
+    Fitted aligner.
+""",
+    "fit_curves": """
+Parameters
+----------
+X : array-like of shape (n_samples, n_features)
+    Curves, one per row, on the grid.
+y : None
+    Ignored.
+""",
+    "fitted_curves": """
+Parameters
+----------
+X : array-like of shape (n_samples, n_features)
+    Curves on the fitted grid.
+""",
+    "landmark_times": """
+landmarks : array-like of shape (n_samples, k), default=None
+    Landmark times of each curve (strictly inside the domain, increasing
+    along each row); None means find them with the ``landmarks`` parameter.
+""",
+    "paired_grid": """
+grid : array-like of shape (n_features,), default=None
+    Sampling points of the columns of ``X`` and ``Y``; None means evenly
+    spaced on [0, 1].
+""",
+    "feature_names_in": """
+input_features : array-like of str or None, default=None
+    Input feature names, validated against ``feature_names_in_``.
+""",
+    "fitted_grid_X": """
+X : array-like of shape (n_samples, n_features)
+    Curves on the fitted grid.
+""",
     "quadrature": """
 quadrature : {"trapezoid", "simpson"}, default="trapezoid"
     Quadrature rule of the integrals over the grid (see
@@ -111,7 +171,10 @@ X : array-like of shape (n_samples, n_features)
 """,
     "fit_weights_returns": """
 sample_weight : array-like of shape (n_samples,), default=None
-    Non-negative weights of the observations.
+    Frequency weights of the observations, as in scikit-learn: a weight of
+    2 counts the row twice (in the coefficients, the chosen alpha, the noise
+    variance and the bands alike), 0 leaves it out. Finite, non-negative,
+    not all zero.
 
 Returns
 -------
@@ -123,6 +186,9 @@ Parameters
 ----------
 X : array-like or dask array of shape (n_samples, n_features)
     Curves, one per row, sampled on the grid.
+%(y_ignored_returns_transformer)s
+""",
+    "y_ignored_returns_transformer": """
 y : None
     Ignored.
 
@@ -213,6 +279,41 @@ smoothing spline. *J. R. Statist. Soc. B* 45, 133-150.
 
 Nychka, D. (1988). Bayesian confidence intervals for smoothing splines.
 *J. Amer. Statist. Assoc.* 83, 1134-1143.
+
+Ruppert, D., Wand, M. P. and Carroll, R. J. (2003). *Semiparametric
+Regression*. Cambridge University Press.
+""",
+    "plot_examples": """
+Examples
+--------
+>>> import matplotlib
+>>> matplotlib.use("Agg")
+""",
+    "kiln_fpca_example": """
+%(plot_examples)s
+>>> from skfunc.datasets import make_kiln_firing
+>>> from skfunc.decomposition import FunctionalPCA
+>>> kiln = make_kiln_firing(60, dropout_fraction=0, random_state=0)
+>>> fpca = FunctionalPCA(n_components=3, grid=kiln.grid).fit(kiln.data)
+""",
+    "dataset_samples_grid": """
+n_samples : int, default=100
+    Number of curves.
+grid : int or array-like of shape (n_points,), default=None
+    Sampling points (strictly increasing), or a number of evenly spaced
+    points on [0, 1]. None means 101 points on [0, 1].
+""",
+    "dataset_random_state": """
+random_state : int, RandomState instance or None, default=None
+    Seed.
+""",
+    "display_labels_ax": """
+labels : list of str, default=None
+    One label per curve; None means the row numbers.
+ax : matplotlib Axes, default=None
+    Axes to draw on; None makes a new figure.
+**plot_kwargs
+    Passed to :meth:`plot`.
 """,
 }
 

@@ -30,11 +30,56 @@ Set ``_accepts_dask = True`` once all of that runs on
 :func:`skfunc._blocks.compute_statistics`.
 """
 
+import warnings
+
+import numpy as np
+
 from ._blocks import compute_statistics
 from ._docstrings import fill_doc
 from ._estimator import ShortReprMixin
 from ._penalized import merge as merge_sums
 from ._validation import check_batch_grid
+
+#: fitted attributes that describe uncertainty: non-finite values there (no
+#: residual degrees of freedom left) are a warning, not an error
+_UNCERTAINTY = ("noise_variance_", "coef_covariance_")
+
+
+def check_finite_fit(estimator):
+    """Never hand back NaN or inf silently: after a fit, non-finite values in
+    a fitted attribute are a ``ValueError`` (the fit failed, usually because
+    sums of squares overflowed or underflowed), or a ``RuntimeWarning`` where
+    only the uncertainty is undefined. A selection criterion may be inf (GCV
+    where a fit interpolates); what to choose then is the alpha choice's
+    policy, not checked here. Returns the estimator.
+    """
+    name = type(estimator).__name__
+    uncertain = []
+    for key, value in vars(estimator).items():
+        if not key.endswith("_") or key.startswith("_"):
+            continue
+        arr = np.asarray(value) if isinstance(value, (float, np.ndarray)) else None
+        if arr is None or arr.dtype.kind != "f" or np.isfinite(arr).all():
+            continue
+        if key in ("criterion_path_", "best_score_"):  # inf where a candidate
+            continue  # interpolates: the alpha choice has its own policy for that
+        if key in _UNCERTAINTY:
+            uncertain.append(key)
+            continue
+        raise ValueError(
+            f"{name}: the fitted {key} is not finite. This usually means the values "
+            "of X or y are too large or too small for their sums of squares in "
+            "float64 (beyond about 1e150 or below 1e-150); rescale X and y, for "
+            "example to units near 1."
+        )
+    if uncertain:
+        warnings.warn(
+            f"{name}: {' and '.join(uncertain)} not finite: the fit leaves no "
+            "residual degrees of freedom (too few observations, or weights summing "
+            "to less than the effective number of parameters), so confidence bands "
+            "are undefined.", RuntimeWarning, stacklevel=3,
+        )
+    return estimator
 
 
 class AdditiveFitMixin(ShortReprMixin):
@@ -76,6 +121,7 @@ class AdditiveFitMixin(ShortReprMixin):
         self._partial_statistics = stats
         self.n_samples_seen_ = int(n_rows)
         self._solve(stats)
+        check_finite_fit(self)
         return self
 
 
@@ -144,7 +190,8 @@ class AdditiveRegressorMixin(AdditiveFitMixin):
         y : array-like or dask array of shape (n_samples,) or (n_samples, n_targets)
             Targets of the batch, with the targets of the first.
         sample_weight : array-like of shape (n_samples,), default=None
-            Non-negative weights of the batch's observations.
+            Frequency weights of the batch's observations (weight 2 = the
+            row twice).
 
         Returns
         -------

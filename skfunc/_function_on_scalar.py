@@ -12,6 +12,7 @@ from ._function_response import (
     RESPONSE_PARAMETER_CONSTRAINTS,
     CurveResponseRegressor,
 )
+from ._validation import explain_not_numbers
 
 
 @fill_doc
@@ -125,7 +126,11 @@ class FunctionOnScalarRidge(AdditiveRegressorMixin, CurveResponseRegressor):
         if is_dask_array(X) or is_dask_array(y):
             return validate_dask(self, X, y, reset=reset, multi_output=True,
                                  curves=False)
-        return validate_data(self, X, reset=reset, dtype=np.float64), y
+        try:
+            return validate_data(self, X, reset=reset, dtype=np.float64), y
+        except ValueError as exc:
+            explain_not_numbers(exc, X, None)
+            raise
 
     def _design_geometry(self):
         """Scalar covariates: identity Gram, no penalty of their own."""

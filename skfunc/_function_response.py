@@ -47,7 +47,6 @@ from scipy.stats import norm as _normal
 from sklearn.base import BaseEstimator, RegressorMixin
 from sklearn.utils._param_validation import StrOptions
 from sklearn.utils.validation import (
-    _check_sample_weight,
     check_array,
     check_consistent_length,
     check_is_fitted,
@@ -77,6 +76,7 @@ from ._penalized import (
     penalty_scale,
 )
 from ._validation import BASIS_CONSTRAINTS, basis_for, check_labels, check_level
+from ._weights import check_sample_weight
 
 #: eigenvalues below this fraction of the largest make a direction undetermined
 #: (minimum-norm solution, as numpy.linalg.lstsq)
@@ -163,10 +163,26 @@ class _PointBasis:
     def penalty(self, order):
         return np.full((1, 1), 1.0 if order == 0 else 0.0)
 
+    def unit_roughness(self, order):
+        return self.penalty(order)
 
-def _one_point_grid(grid, y_in):
+    def unit_gram(self):
+        return self.gram()
+
+    def null_space(self, order):
+        """The constant is free of any derivative penalty (order >= 1)."""
+        return np.ones((1, 1)) if order >= 1 else np.zeros((1, 0))
+
+
+def _default_response_grid(n_points):
+    """Evenly spaced points on [0, 1]; one point is the start, 0, as
+    ``np.linspace`` gives."""
+    return np.linspace(0.0, 1.0, n_points)
+
+
+def _one_point_grid(grid, y_in, default):
     """The response grid of a one-column y: the given point, its numeric
-    label, or 0."""
+    label, or ``default(1)``."""
     if grid is None:
         labels = list(getattr(y_in, "columns", []))
         try:
@@ -174,7 +190,7 @@ def _one_point_grid(grid, y_in):
         except (TypeError, ValueError):
             grid = None  # a word labels the column: no grid in it
     if grid is None:
-        return np.zeros(1)
+        return default(1)
     grid = np.asarray(grid, dtype=np.float64).ravel()
     if grid.size != 1 or not np.isfinite(grid[0]):
         raise ValueError(
@@ -184,14 +200,16 @@ def _one_point_grid(grid, y_in):
     return grid
 
 
-def validate_response(estimator, y, n_samples, *, reset):
+def validate_response(estimator, y, n_samples, *, reset,
+                      default=_default_response_grid):
     """Validate curve-valued targets: 2-D and finite.
 
     On ``reset`` the response grid is resolved from ``estimator.response_grid``,
-    numeric DataFrame column labels of ``y``, or evenly spaced points on [0, 1],
-    and stored as ``estimator.response_grid_``; otherwise the number of columns
-    (and numeric labels) must match it. A one-column y is a response of one
-    grid point (a scalar outcome).
+    numeric DataFrame column labels of ``y``, or ``default(n_columns)``
+    (evenly spaced points on [0, 1]), and stored as
+    ``estimator.response_grid_``; otherwise the number of columns (and numeric
+    labels) must match it. A one-column y is a response of one grid point (a
+    scalar outcome).
     """
     if y is None:
         raise ValueError(
@@ -222,14 +240,18 @@ def validate_response(estimator, y, n_samples, *, reset):
     if reset:
         grid = getattr(estimator, "response_grid", None)
         if m == 1:
-            estimator.response_grid_ = _one_point_grid(grid, y_in)
+            estimator.response_grid_ = _one_point_grid(grid, y_in, default)
             return y
         if grid is not None and np.ndim(grid) == 1 and len(grid) != m:
             raise ValueError(
                 f"response_grid has {len(grid)} points but y has {m} columns; the "
                 "response grid needs one point per column of y."
             )
-        estimator.response_grid_ = resolve_grid(grid, y_in, m)
+        if grid is None and inferred is None:
+            estimator.response_grid_ = check_grid(default(m), m, name="response_grid")
+        else:
+            estimator.response_grid_ = resolve_grid(grid, y_in, m, name="response_grid",
+                                                    data_name="y")
         return y
     if m != estimator.response_grid_.size:
         raise ValueError(
@@ -251,11 +273,17 @@ def check_eval_points(points, domain, name="eval_points"):
                 f"got {points!r}."
             )
         return points
-    points = check_grid(points, name=name)
+    return check_in_domain(check_grid(points, name=name), domain, name)
+
+
+def check_in_domain(points, domain, name, what="the fitted response domain"):
+    """Increasing ``points`` inside ``domain`` (up to rounding), else a
+    ValueError naming ``name``: nothing is extrapolated."""
+    a, b = domain
     tol = 1e-12 * max(1.0, abs(a), abs(b))
     if points[0] < a - tol or points[-1] > b + tol:
         raise ValueError(
-            f"{name} must lie in the fitted response domain [{a}, {b}]; got "
+            f"{name} must lie in {what} [{a}, {b}]; got "
             f"[{points[0]}, {points[-1]}]. Extrapolation is not supported."
         )
     return points
@@ -329,7 +357,7 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
             check_alpha(self.alpha)
         X, y = self._validate_inputs(X, y, reset=first)
         y = validate_response(self, y, X.shape[0], reset=first)
-        return X, y, _check_sample_weight(sample_weight, X)
+        return X, y, check_sample_weight(sample_weight, X)
 
     def _statistics(self, X, y, sample_weight=None, design=None):
         """Additive statistics of one block of rows.

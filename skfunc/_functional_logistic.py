@@ -18,64 +18,23 @@ from sklearn.exceptions import ConvergenceWarning
 from sklearn.utils._param_validation import Interval, StrOptions
 from sklearn.utils.class_weight import compute_sample_weight
 from sklearn.utils.multiclass import check_classification_targets
-from sklearn.utils.validation import _check_sample_weight
 
+from ._alpha import ALPHA_CONSTRAINT, check_alpha
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
+from ._fit import check_finite_fit
 from ._integrated_design import (
-    ALPHA_CONSTRAINT,
     DESIGN_CONSTRAINTS,
     IntegratedDesignMixin,
 )
-from ._penalized import centered, cross_products
-
-
-def newton_statistics(D, Y, sample_weight, theta, derivatives=True):
-    """Negative log-likelihood, gradient and Hessian summed over rows.
-
-    Parameters
-    ----------
-    D : ndarray of shape (n, p)
-        Design rows (first column: ones for the intercept).
-    Y : ndarray of shape (n, T)
-        0/1 labels: one column for the binary (logistic) model, one column
-        per class for the multinomial model.
-    sample_weight : ndarray of shape (n,)
-    theta : ndarray of shape (T, p)
-    derivatives : bool, default=True
-        False to compute the loss only.
-
-    Returns
-    -------
-    loss : float
-    grad : ndarray of shape (T * p,)
-        Only when ``derivatives``.
-    hess : ndarray of shape (T * p, T * p)
-        Only when ``derivatives``.
-    """
-    eta = D @ theta.T
-    n_out, p = theta.shape
-    if n_out == 1:
-        prob = expit(eta)
-        loss = sample_weight @ (np.logaddexp(0.0, eta[:, 0]) - Y[:, 0] * eta[:, 0])
-        curvature = (prob * (1 - prob))[:, :, None]  # (n, 1, 1)
-    else:
-        log_norm = logsumexp(eta, axis=1)
-        prob = np.exp(eta - log_norm[:, None])
-        loss = sample_weight @ (log_norm - np.sum(Y * eta, axis=1))
-        curvature = (
-            np.eye(n_out) * prob[:, :, None] - prob[:, :, None] * prob[:, None, :]
-        )
-    if not derivatives:
-        return float(loss)
-    grad = ((prob - Y) * sample_weight[:, None]).T @ D
-    hess = np.zeros((n_out, p, n_out, p))
-    for a in range(n_out):
-        for b in range(a, n_out):
-            block = (D * (sample_weight * curvature[:, a, b])[:, None]).T @ D
-            hess[a, :, b, :] = block
-            hess[b, :, a, :] = block.T
-    return float(loss), grad.ravel(), hess.reshape(n_out * p, n_out * p)
+from ._logistic_path import (
+    NULL_SPACE_RIDGE,
+    LogisticProblem,
+    coef_covariance,
+    split_coordinates,
+)
+from ._penalized import centered, cross_products, penalty_for, penalty_scale
+from ._weights import check_sample_weight
 
 
 @fill_doc
@@ -91,16 +50,24 @@ class FunctionalLogisticRegression(
 
     Parameters
     ----------
-    alpha : float, default=1.0
-        Roughness penalty weight; 0 for unpenalized maximum likelihood.
-        With ``penalty_order=0`` in an orthonormal basis, ``alpha`` equals
-        ``1 / C`` of :class:`sklearn.linear_model.LogisticRegression`.
+    alpha : "auto", float or array-like of shape (n_alphas,), default="auto"
+        Weight of the roughness penalty. ``"auto"`` chooses it from the
+        training data: the fit is computed along candidate alphas spanning
+        the effective degrees of freedom, from nearly the null-space fit (a
+        straight line for ``penalty_order=2``) to nearly the whole basis, and
+        the one with the smallest unbiased risk estimate (UBRE) is kept; see
+        Notes. A number fixes it; 0 means unpenalized maximum likelihood.
+        An array of positive numbers is the candidates to choose from.
+        The penalty is measured on the domain mapped to [0, 1] and against
+        the spread of the data (Notes), so a value means the same smoothing
+        whatever the grid's unit or origin and the scale of X.
     %(scalar_outcome)s
     class_weight : dict, "balanced" or None, default=None
         Weights of the classes, multiplied into ``sample_weight``, as in
         scikit-learn's classifiers.
     max_iter : int, default=100
-        Maximum number of Newton iterations.
+        Maximum number of Newton iterations per fit (per candidate alpha
+        with ``alpha="auto"``).
     tol : float, default=1e-10
         Stop after a Newton step whose half squared Newton decrement (the
         predicted decrease of the objective) is below
@@ -110,6 +77,16 @@ class FunctionalLogisticRegression(
     ----------
     classes_ : ndarray of shape (n_classes,)
         Class labels.
+    alpha_ : float
+        The roughness penalty used: the chosen one with ``alpha="auto"``,
+        else ``alpha``.
+    alphas_path_ : ndarray of shape (n_alphas,)
+        Candidate alphas, ascending (just ``alpha`` when it is a number).
+    criterion_path_ : ndarray of shape (n_alphas,)
+        UBRE of the fit at each candidate alpha (smaller is better).
+    edf_path_ : ndarray of shape (n_alphas,)
+        Effective degrees of freedom of the fit at each candidate alpha,
+        intercept(s) included.
     coef_function_ : ndarray of shape (1, n_grid) or (n_classes, n_grid)
         beta(t) on ``grid_``: one row for two classes (log-odds of
         ``classes_[1]``), else one per class (centered over classes).
@@ -126,7 +103,7 @@ class FunctionalLogisticRegression(
         Approximate posterior covariance of ``basis_coef_``: the inverse
         penalized Hessian at the optimum (see Notes).
     n_iter_ : int
-        Number of Newton iterations run.
+        Number of Newton iterations run, over all candidate alphas.
     grid_ : ndarray of shape (n_grid,)
         The grid of the curve columns.
     quadrature_weights_ : ndarray of shape (n_grid,)
@@ -146,12 +123,44 @@ class FunctionalLogisticRegression(
 
     Notes
     -----
-    The objective is ``sum_i w_i l_i + alpha/2 sum_c c_c' P c_c`` (``l_i`` the
-    negative log-likelihood of curve ``i``); it is minimised by Newton's
-    method, which is penalized iteratively reweighted least squares. The
-    multinomial model uses one coefficient set per class and the centered
-    solution (sum over classes zero), as the softmax leaves a common shift
-    undetermined.
+    The objective is ``sum_i w_i l_i + (alpha s / 2) int_0^1 (D^q beta)^2``
+    (``l_i`` the negative log-likelihood of curve ``i``, beta mapped to the
+    unit domain) with ``s`` the largest eigenvalue of ``G``, the centred,
+    sample-weighted cross products of the integrated design, relative to
+    the Gram matrix of the basis on [0, 1]: the definition of alpha shared
+    by every skfunc estimator (see :doc:`/bases_and_penalties`), the
+    Gaussian case of which is the mean squared error plus ``alpha s`` times
+    the roughness. ``s`` and the data term scale alike when the grid changes
+    unit or X changes scale, so fits at a fixed alpha do not change, and
+    ``s`` hardly moves with ``n_basis``. It is minimised by Newton's method
+    (penalized iteratively reweighted least squares) in coordinates where
+    the penalty is exactly diagonal (Demmler and Reinsch, 1975): the
+    intercept and the penalty's null space (functions with ``D^q beta = 0``)
+    are never shrunk by alpha, so a large alpha gives the null-space fit.
+
+    Separable classes have no finite maximum likelihood. For ``alpha > 0``
+    (and ``"auto"``) the null space, and each scalar covariate, carries a
+    small ridge ``NULL_SPACE_RIDGE = 1e-4`` times the design's own variance
+    there (the sum of squares of the centred null-space coordinates,
+    orthonormal in L2 of [0, 1], per dimension), much as the ``C`` of
+    :class:`sklearn.linear_model.LogisticRegression` penalizes every
+    coefficient; the coefficients are then always finite. ``alpha=0`` keeps
+    plain maximum likelihood and warns when it diverges.
+
+    ``alpha="auto"`` fits the candidates from the largest alpha down, each
+    fit starting from the previous one, and keeps the alpha minimising the
+    unbiased risk estimate ``UBRE = deviance / n - 1 + 2 edf / n`` with
+    ``edf = trace((H + S)^-1 H)`` (``H`` the likelihood's Hessian, ``S`` the
+    penalty's; ``n`` the weight total): Craven and Wahba's criterion for a
+    known dispersion, 1 for class labels, applied to penalized likelihood as
+    in O'Sullivan, Yandell and Raynor (1986), Gu (1992) and Wood (2008). The
+    candidates and the choice follow the rules of every skfunc estimator:
+    ties go to the larger alpha, and an ``AlphaAtEdgeWarning`` names the end
+    of the candidates when the choice is there.
+
+    The multinomial model uses one coefficient set per class and the
+    centered solution (sum over classes zero), as the softmax leaves a
+    common shift undetermined.
 
     The confidence band uses the inverse penalized Hessian at the optimum,
     the large-sample Bayesian posterior covariance (Wahba, 1983, for the
@@ -172,15 +181,30 @@ class FunctionalLogisticRegression(
     Wahba, G. (1983). Bayesian "confidence intervals" for the cross-validated
     smoothing spline. *J. R. Statist. Soc. B* 45, 133-150.
 
+    O'Sullivan, F., Yandell, B. S. and Raynor, W. J. (1986). Automatic
+    smoothing of regression functions in generalized linear models. *J.
+    Amer. Statist. Assoc.* 81, 96-103.
+
+    Gu, C. (1992). Cross-validating non-Gaussian data. *J. Comput. Graph.
+    Statist.* 1, 169-179.
+
+    Wood, S. N. (2008). Fast stable direct fitting and smoothness selection
+    for generalized additive models. *J. R. Statist. Soc. B* 70, 495-518.
+
+    Demmler, A. and Reinsch, C. (1975). Oscillation matrices with spline
+    smoothing. *Numerische Mathematik* 24, 375-382.
+
     Examples
     --------
     >>> from skfunc.datasets import make_smooth_regression
     >>> from skfunc.linear_model import FunctionalLogisticRegression
     >>> X, outcome, _ = make_smooth_regression(200, grid=101, noise=0.5, random_state=0)
     >>> y = (outcome > 0).astype(int)
-    >>> clf = FunctionalLogisticRegression(alpha=1e-4, n_basis=8).fit(X, y)
+    >>> clf = FunctionalLogisticRegression().fit(X, y)
     >>> clf.predict_proba(X[:2]).shape
     (2, 2)
+    >>> bool(clf.alphas_path_[0] <= clf.alpha_ <= clf.alphas_path_[-1])
+    True
     """
 
     _parameter_constraints = {
@@ -191,7 +215,7 @@ class FunctionalLogisticRegression(
         "tol": [Interval(Real, 0, None, closed="left")],
     }
 
-    def __init__(self, alpha=1.0, *, basis="bspline", n_basis=None, degree=3,
+    def __init__(self, alpha="auto", *, basis="bspline", n_basis=None, degree=3,
                  interior_knots=None, penalty_order=2, n_covariates=0,
                  fit_intercept=True, class_weight=None, max_iter=100, tol=1e-10,
                  grid=None, quadrature="trapezoid"):
@@ -217,9 +241,7 @@ class FunctionalLogisticRegression(
                 "FunctionalLogisticRegression needs samples of at least 2 classes "
                 f"in y; got only one class: {self.classes_[0]!r}."
             )
-        sample_weight = _check_sample_weight(
-            sample_weight, X, dtype=np.float64, ensure_non_negative=True
-        )
+        sample_weight = check_sample_weight(sample_weight, X)
         if self.class_weight is not None:
             sample_weight = sample_weight * compute_sample_weight(self.class_weight, y)
         basis = self._basis()
@@ -228,83 +250,90 @@ class FunctionalLogisticRegression(
             Y = (y_index == 1).astype(np.float64)[:, None]
         else:
             Y = np.eye(self.classes_.size)[y_index]
-        return self._solve(Z, Y, sample_weight, basis)
+        return check_finite_fit(self._solve(Z, Y, sample_weight, basis))
 
     def _solve(self, Z, Y, sample_weight, basis):
-        penalty = self._penalty(basis)
-        stats = cross_products(Z, Y, sample_weight)
-        zz = centered(stats)[0] if self.fit_intercept else stats["zz"]
-        self._checked_path(zz, penalty, self.alpha, stats["n"])
-        # design of the centered curves, led by a column for the intercept
-        z_mean = stats["z_sum"] / stats["sw"] if self.fit_intercept else 0.0
-        lead = int(self.fit_intercept)
-        D = np.hstack([np.ones((Z.shape[0], lead)), Z - z_mean])
-        n_out, p = Y.shape[1], D.shape[1]
-        roughness = np.kron(
-            np.eye(n_out), self.alpha * np.pad(penalty, ((lead, 0),) * 2)
-        )
-        # The softmax is unchanged by a common shift of all classes'
-        # coefficients; a penalty on their sum over classes selects the
-        # centered solution without moving the optimum (whose sum is zero)
-        # and makes the Hessian invertible.
-        scale = np.diag(np.maximum(sample_weight @ D**2, 1.0)) / n_out
-        shift = np.kron(np.ones((n_out, n_out)), scale) if n_out > 1 else 0.0
-        quadratic = roughness + shift
-
-        def objective(theta, derivatives=True):
-            """Penalized loss (, gradient, Hessian of the likelihood part)."""
-            flat = theta.ravel()
-            value = flat @ quadratic @ flat / 2
-            if not derivatives:
-                return value + newton_statistics(D, Y, sample_weight, theta, False)
-            loss, grad, hess = newton_statistics(D, Y, sample_weight, theta)
-            return value + loss, grad + quadratic @ flat, hess
-
-        theta = np.zeros((n_out, p))
-        value, grad, hess = objective(theta)
-        converged = False
-        for n_iter in range(1, self.max_iter + 1):
-            self.n_iter_ = n_iter
-            step = _newton_step(hess + quadratic, grad)
-            decrement = grad @ step
-            size = 1.0
-            while True:
-                trial = theta - size * step.reshape(n_out, p)
-                trial_value = objective(trial, derivatives=False)
-                if trial_value <= value - 1e-4 * size * decrement or size < 1e-10:
-                    break
-                size /= 2
-            theta = trial
-            value, grad, hess = objective(theta)
-            if decrement / 2 <= self.tol * (1.0 + abs(value)):
-                converged = True  # after a last step: Newton converges fast
-                break
-        if not converged:
-            warnings.warn(
-                f"FunctionalLogisticRegression did not converge in max_iter="
-                f"{self.max_iter} Newton iterations (the classes may be "
-                "separable by the curves); increase alpha or max_iter.",
-                ConvergenceWarning,
-                stacklevel=3,
-            )
-        elif _saturated(D @ theta.T, sample_weight):
-            warnings.warn(
-                "FunctionalLogisticRegression did not converge to a finite "
-                "maximum: fitted probabilities numerically 0 or 1 occurred, so "
-                "the classes are probably separable by the unpenalized part of "
-                "the model and the coefficients diverge; increase alpha.",
-                ConvergenceWarning,
-                stacklevel=3,
-            )
         k = basis.n_basis
-        covariance = np.linalg.pinv(hess + roughness).reshape(n_out, p, n_out, p)
-        blocks = np.stack(
-            [covariance[c, lead : lead + k, c, lead : lead + k] for c in range(n_out)]
+        alpha = check_alpha(self.alpha)
+        stats = cross_products(Z, Y, sample_weight)
+        if isinstance(alpha, float) and alpha == 0:
+            gram = centered(stats)[0] if self.fit_intercept else stats["zz"]
+            self._checked_path(gram, self._penalty(basis), 0.0, stats["n"])
+        penalty = penalty_for(basis, self.penalty_order)
+        transform, n_null = split_coordinates(basis, penalty), penalty.n_null
+        lead = int(self.fit_intercept)
+        z_mean = stats["z_sum"] / stats["sw"] if lead else np.zeros(Z.shape[1])
+        Zc = Z - z_mean
+        D = np.hstack([np.ones((len(Z), lead)), Zc[:, :k] @ transform, Zc[:, k:]])
+        # the one definition of alpha (skfunc._penalized.penalty_scale): the
+        # roughness on [0, 1] weighed by the largest eigenvalue of the centred
+        # data Gram matrix relative to the unit-domain Gram matrix
+        weighted = Zc[:, :k] * sample_weight[:, None]
+        scale = penalty_scale(weighted.T @ Zc[:, :k], penalty)
+        size = sample_weight @ D**2
+        ridge = np.zeros(D.shape[1])
+        null = slice(lead, lead + n_null)
+        if n_null:
+            ridge[null] = size[null].sum() / n_null
+        ridge[lead + k :] = size[lead + k :]
+        ridge = NULL_SPACE_RIDGE * np.where(ridge > 0, ridge, 1.0)
+        ridge[lead + n_null : lead + k] = 0.0
+        ridge[:lead] = 0.0
+        problem = LogisticProblem(
+            D, Y, sample_weight, (lead, n_null, k - n_null, Z.shape[1] - k),
+            scale, ridge,
         )
-        coef = theta[:, lead:]
+        if isinstance(alpha, str):
+            alphas = problem.candidate_alphas()
+        else:
+            alphas = np.atleast_1d(alpha)
+        fit = problem.path(alphas, self.tol, self.max_iter)
+        j, theta, hess, converged = fit["best"], fit["theta"], fit["hess"], fit["converged"]
+        self.alpha_ = float(alphas[j])
+        self.alphas_path_ = alphas
+        self.criterion_path_ = fit["criterion"]
+        self.edf_path_ = fit["edf"]
+        self.n_iter_ = fit["n_iter"]
+        self._warn_convergence(converged, D @ theta.T, sample_weight)
+        n_out = theta.shape[0]
+        covariance = coef_covariance(problem, theta, hess, self.alpha_)
+        blocks = np.stack(
+            [
+                transform @ covariance[c, lead : lead + k, c, lead : lead + k]
+                @ transform.T
+                for c in range(n_out)
+            ]
+        )
+        coef = np.hstack([theta[:, lead : lead + k] @ transform.T, theta[:, lead + k :]])
         intercept = theta[:, 0] - coef @ z_mean if lead else np.zeros(n_out)
         self._set_coefficients(basis, coef, intercept, blocks, squeeze=False)
         return self
+
+    def _warn_convergence(self, converged, eta, sample_weight):
+        if not converged:
+            advice = (
+                " alpha=0 has no finite optimum when the classes are separable by "
+                "the curves: use alpha='auto' or alpha > 0."
+                if self.alpha_ == 0
+                else ""
+            )
+            warnings.warn(
+                f"FunctionalLogisticRegression did not converge in max_iter="
+                f"{self.max_iter} Newton iterations at alpha={self.alpha_:.3g}; "
+                f"increase max_iter.{advice}",
+                ConvergenceWarning,
+                stacklevel=4,
+            )
+        elif self.alpha_ == 0 and _saturated(eta, sample_weight):
+            warnings.warn(
+                "FunctionalLogisticRegression did not converge to a finite "
+                "maximum: fitted probabilities numerically 0 or 1 occurred, so "
+                "the classes are probably separable by the curves and the "
+                "unpenalized (alpha=0) coefficients diverge; use alpha='auto' or "
+                "alpha > 0, which keep them finite.",
+                ConvergenceWarning,
+                stacklevel=4,
+            )
 
     def decision_function(self, X):
         """Log-odds of ``classes_[1]`` (binary) or class scores (multinomial).
@@ -359,10 +388,3 @@ def _saturated(eta, sample_weight, eps=1e-12):
     log_prob = eta - logsumexp(eta, axis=1, keepdims=True)
     rows = sample_weight > 0
     return bool(np.any(log_prob[rows] < np.log(eps)))
-
-
-def _newton_step(hess, grad):
-    try:
-        return np.linalg.solve(hess, grad)
-    except np.linalg.LinAlgError:
-        return np.linalg.lstsq(hess, grad, rcond=None)[0]

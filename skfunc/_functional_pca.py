@@ -520,13 +520,13 @@ class FunctionalPCA(AdditiveTransformerMixin, ClassNamePrefixFeaturesOutMixin,
         return self.n_components_
 
     # ---------------------------------------------------------- transforms
+    @fill_doc
     def transform(self, X):
         """Principal component scores ``<x - mean_, phi_k>`` of each curve.
 
         Parameters
         ----------
-        X : array-like of shape (n_samples, n_features)
-            Curves on the fitted grid.
+        %(fitted_grid_X)s
 
         Returns
         -------
@@ -535,6 +535,57 @@ class FunctionalPCA(AdditiveTransformerMixin, ClassNamePrefixFeaturesOutMixin,
         check_is_fitted(self)
         X = self._validate(X, reset=False)
         return chunked_matmul(X, self.projection_.T) - self.mean_ @ self.projection_.T
+
+    @fill_doc
+    def score_samples(self, X):
+        """Minus the L2 norm of each curve's reconstruction error.
+
+        ``-||x - x_hat||`` with ``x_hat = inverse_transform(transform(x))``,
+        integrated with ``quadrature_weights_``: higher is more typical, as
+        in scikit-learn's ``score_samples`` convention, so curves the
+        components do not describe well score lowest. (Unlike
+        :meth:`sklearn.decomposition.PCA.score_samples`, this is not a
+        log-likelihood: curves have no finite-dimensional density.) With a
+        basis, the error includes what the basis cannot represent.
+
+        Parameters
+        ----------
+        %(fitted_grid_X)s
+
+        Returns
+        -------
+        scores : ndarray of shape (n_samples,)
+
+        See Also
+        --------
+        mahalanobis : Distance within the component space.
+        skfunc.outliers.CurveOutlierDetector : Depth and outlyingness rules.
+        """
+        check_is_fitted(self)
+        X = self._validate(X, reset=False)
+        residual = np.asarray(X, dtype=np.float64) - self.inverse_transform(
+            self.transform(X)
+        )
+        return -np.sqrt(np.maximum(residual**2 @ self.quadrature_weights_, 0.0))
+
+    @fill_doc
+    def mahalanobis(self, X):
+        """Mahalanobis distance of each curve's component scores.
+
+        ``sqrt(sum_k score_k^2 / explained_variance_k)``: how unusual a curve
+        is within the space the components span (its reconstruction error,
+        :meth:`score_samples`, measures the rest).
+
+        Parameters
+        ----------
+        %(fitted_grid_X)s
+
+        Returns
+        -------
+        distance : ndarray of shape (n_samples,)
+        """
+        scores = self.transform(X)
+        return np.sqrt(np.sum(scores**2 / self.explained_variance_, axis=1))
 
     def inverse_transform(self, X):
         """Curves on ``grid_`` with the given scores: ``mean_ + X @ components_``.

@@ -14,7 +14,6 @@ from functools import partial
 import numpy as np
 from sklearn.base import BaseEstimator, RegressorMixin
 from sklearn.utils._param_validation import StrOptions
-from sklearn.utils.validation import _check_sample_weight
 
 from ._alpha import ALPHA_CONSTRAINT, AUTO, CRITERIA, check_alpha, choose_alpha
 from ._docstrings import fill_doc
@@ -30,6 +29,7 @@ from ._penalized import (
     centered,
     centered_cross_products,
 )
+from ._weights import check_sample_weight
 
 
 class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, RegressorMixin,
@@ -53,10 +53,7 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
             X, y, reset=reset, y_numeric=True, multi_output=True,
             ensure_min_samples=2 if reset else 1,
         )
-        sample_weight = _check_sample_weight(
-            sample_weight, X, dtype=np.float64, ensure_non_negative=True
-        )
-        return X, y, sample_weight
+        return X, y, check_sample_weight(sample_weight, X)
 
     def _validate_batch(self, X, y, sample_weight, first):
         if first:
@@ -133,7 +130,7 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
             reduction[rows] = path.rss_reduction(rotated[rows], [value])[:, 0]
         rss = np.maximum(part["yy"] - reduction, 0.0)
         edf = path.edf(per_target) + self.fit_intercept
-        dof = stats["n"] - edf
+        dof = stats["sw"] - edf  # frequency weights: sw counts the rows
         sigma2 = np.where(dof > 0, rss / np.where(dof > 0, dof, 1.0), np.nan)
         k = basis.n_basis
         u = path.eigvecs[:k]
@@ -160,7 +157,8 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
                 "or more curves."
             )
         chosen = choose_alpha(
-            path, part["rotated"], part["yy"], stats["n"], alpha, criterion=criterion,
+            # frequency weights: the weight total counts the rows (GCV's n, REML's n)
+            path, part["rotated"], part["yy"], stats["sw"], alpha, criterion=criterion,
             total_weight=stats["sw"], extra_edf=int(self.fit_intercept), pooled=pooled,
         )
         self._store_path(path, chosen)

@@ -17,6 +17,7 @@ from ._alpha import (
 from ._blocks import is_dask_array
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
+from ._fit import check_finite_fit
 from ._functional_ridge import FunctionalRidgeBase
 from ._integrated_design import DESIGN_CONSTRAINTS, PERIOD_CONSTRAINT
 from ._penalized import centered_cross_products, cross_products
@@ -165,7 +166,7 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
         self.n_samples_seen_ = int(X.shape[0])
         self._partial_statistics = stats
         self._target_ndim = y.ndim
-        return self._select(stats, criterion, alphas, basis, y.ndim)
+        return check_finite_fit(self._select(stats, criterion, alphas, basis, y.ndim))
 
     def _check_pooled(self):
         self._check_alphas()

@@ -34,6 +34,8 @@ def check_grid(grid, n_points=None, *, name="grid", data_name="X"):
     -------
     grid : ndarray of shape (m,)
     """
+    if _is_complex(grid):  # np.array(..., float64) would drop the imaginary part
+        raise TypeError(f"{name} must hold real numbers; got complex values.")
     try:
         arr = np.array(grid, dtype=np.float64)
     except (TypeError, ValueError) as exc:
@@ -161,12 +163,14 @@ def grid_from_labels(labels):
     )
 
 
-def resolve_grid(grid, X, n_points):
+def resolve_grid(grid, X, n_points, *, name="grid", data_name="X"):
     """The grid for ``X``: ``grid`` if given, else numeric DataFrame column
     labels, else days from date/time labels (:func:`time_grid`), else evenly
-    spaced points on [0, 1] (words such as month names carry no spacing)."""
+    spaced points on [0, 1] (words such as month names carry no spacing).
+    ``name`` and ``data_name`` are the parameter and the data named in error
+    messages."""
     if grid is not None:
-        return check_grid(grid, n_points)
+        return check_grid(grid, n_points, name=name, data_name=data_name)
     columns = getattr(X, "columns", None)
     if columns is not None:
         inferred = grid_from_labels(list(columns))
@@ -177,12 +181,35 @@ def resolve_grid(grid, X, n_points):
     return np.linspace(0.0, 1.0, n_points)
 
 
+def _is_complex(values):
+    try:
+        return np.iscomplexobj(values)
+    except (TypeError, ValueError):  # ragged or odd input: check_grid explains it
+        return False
+
+
 def grid_weights(grid, n_points, quadrature="trapezoid", data_name="X"):
     """Quadrature weights for data with ``n_points`` columns on ``grid``
-    (None: evenly spaced on [0, 1])."""
+    (None: evenly spaced on [0, 1]), for integrals of arbitrary curves.
+
+    The weights are never negative: a composite Simpson rule on a very uneven
+    grid can give negative weights (then the "squared norm" of a curve can be
+    negative), and such a grid is refused with a ``ValueError`` that advises
+    the trapezoid rule, rather than silently changing the rule. A complex
+    grid is a ``TypeError`` (from :func:`check_grid`).
+    """
     if grid is None:
         grid = np.linspace(0.0, 1.0, n_points)
-    return quadrature_weights(check_grid(grid, n_points, data_name=data_name), quadrature)
+    w = quadrature_weights(check_grid(grid, n_points, data_name=data_name), quadrature)
+    if np.any(w < 0):
+        j = int(np.argmin(w))
+        raise ValueError(
+            f"quadrature={quadrature!r} gives a negative weight ({w[j]:.3g} at grid "
+            f"point {j}) on this uneven grid, so integrals of squares could come out "
+            "negative. Use quadrature='trapezoid' (weights always positive) or a "
+            "more even grid."
+        )
+    return w
 
 
 def check_quadrature(quadrature):

@@ -30,6 +30,7 @@ from numbers import Integral, Real
 import numpy as np
 from scipy.linalg import block_diag
 from scipy.stats import norm
+from sklearn.utils import check_random_state
 from sklearn.utils._param_validation import Interval
 from sklearn.utils.validation import check_is_fitted
 
@@ -171,17 +172,34 @@ class IntegratedDesignMixin(ShortReprMixin):
         eta = chunked_matmul(X, coef.T) + self.intercept_
         return eta[:, 0] if np.ndim(self.coef_) == 1 else eta
 
-    def confidence_band(self, level=0.95):
-        """Pointwise confidence band for the coefficient function beta(t).
+    def confidence_band(self, level=0.95, *, simultaneous=False, n_draws=4000,
+                        random_state=None):
+        """Confidence band for the coefficient function beta(t).
 
-        ``beta_hat(t) +/- z_{(1 + level)/2} sd(t)``, with ``sd(t)^2 =
-        phi(t)' coef_covariance_ phi(t)`` on ``grid_`` (see the class Notes
-        for which covariance is used).
+        ``beta_hat(t) +/- c sd(t)``, with ``sd(t)^2 = phi(t)' coef_covariance_
+        phi(t)`` on ``grid_`` (see the class Notes for which covariance is
+        used). Pointwise, ``c = z_{(1 + level)/2}``, the normal quantile: on
+        average over the grid the band covers beta with probability
+        ``level``. Simultaneous, ``c`` is the ``level`` quantile of
+        ``max_t |beta~(t) - beta_hat(t)| / sd(t)`` over ``n_draws`` draws
+        ``beta~`` from the posterior (Ruppert, Wand and Carroll, 2003), so
+        the whole curve lies inside with probability ``level`` under the
+        posterior.
+
+        Both are conditional on alpha and inherit the penalty's bias: where
+        beta is rough (a narrow peak or trough), they are too narrow there.
 
         Parameters
         ----------
         level : float, default=0.95
-            Pointwise coverage level, strictly between 0 and 1.
+            Coverage level, strictly between 0 and 1.
+        simultaneous : bool, default=False
+            Whether the level holds for the whole curve at once (wider)
+            rather than at each point.
+        n_draws : int, default=4000
+            Posterior draws for the simultaneous critical value.
+        random_state : int, RandomState instance or None, default=None
+            Seeds the posterior draws (simultaneous bands only).
 
         Returns
         -------
@@ -191,5 +209,34 @@ class IntegratedDesignMixin(ShortReprMixin):
         level = check_level(level)
         phi = self._basis().evaluate(self.grid_)
         var = np.einsum("jk,...kl,jl->...j", phi, self.coef_covariance_, phi)
-        half = norm.ppf(0.5 + level / 2) * np.sqrt(np.maximum(var, 0.0))
+        sd = np.sqrt(np.maximum(var, 0.0))
+        if simultaneous:
+            if isinstance(n_draws, bool) or not isinstance(n_draws, Integral) \
+                    or n_draws < 100:
+                raise ValueError(
+                    f"n_draws must be an integer >= 100; got {n_draws!r}."
+                )
+            crit = _simultaneous_critical_value(
+                phi, self.coef_covariance_, sd, level, n_draws,
+                check_random_state(random_state))
+        else:
+            crit = norm.ppf(0.5 + level / 2)
+        half = crit * sd
         return self.coef_function_ - half, self.coef_function_ + half
+
+
+def _simultaneous_critical_value(phi, covariance, sd, level, n_draws, rng):
+    """The ``level`` quantile of ``max_t |phi(t)' e| / sd(t)`` for ``e`` drawn
+    from N(0, covariance), per target (Ruppert, Wand and Carroll, 2003)."""
+    covs = covariance.reshape((-1,) + covariance.shape[-2:])
+    sds = sd.reshape(len(covs), -1)
+    crit = np.empty(len(covs))
+    for i, (cov, s) in enumerate(zip(covs, sds)):
+        eigval, eigvec = np.linalg.eigh(cov)
+        root = eigvec * np.sqrt(np.maximum(eigval, 0.0))  # root @ root.T = cov
+        draws = rng.standard_normal((n_draws, root.shape[1])) @ root.T @ phi.T
+        inside = s > 0
+        worst = np.max(np.abs(draws[:, inside]) / s[inside], axis=1)
+        crit[i] = np.quantile(worst, level)
+    return crit.reshape(covariance.shape[:-2] + (1,)) if covariance.ndim == 3 \
+        else float(crit[0])

@@ -9,6 +9,7 @@ their basis with :func:`basis_for`.
 from numbers import Integral, Real
 
 import numpy as np
+from scipy.sparse import issparse
 from sklearn.utils._param_validation import Interval, StrOptions
 from sklearn.utils.validation import validate_data
 
@@ -29,6 +30,16 @@ BASIS_CONSTRAINTS = {
     "grid": ["array-like", None],
     "quadrature": [StrOptions(set(QUADRATURES))],
 }
+
+
+#: what to do about missing values, for estimators that need complete curves
+NAN_ADVICE = (
+    "{} needs complete curves (no NaN). Fill the gaps of densely observed "
+    "curves first with skfunc.preprocessing.CurveSmoother in a pipeline; for "
+    "curves observed at only a few times each, use "
+    "skfunc.decomposition.SparseFunctionalPCA (see the user guide's page on "
+    "irregular data for which estimators accept missing values)."
+)
 
 
 def check_level(level, name="level"):
@@ -70,15 +81,27 @@ def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
         labels = list(labels)[:n_curve] if n_curve >= 2 else None
     # read the labels first: a mix of numbers and words gets our message
     inferred = grid_from_labels(list(labels)) if labels is not None else None
-    out = validate_data(
-        estimator,
-        X,
-        y,
-        reset=reset,
-        dtype=[np.float64, np.float32],
-        ensure_all_finite="allow-nan" if allow_nan else True,
-        **check_params,
-    )
+    if issparse(y):  # scikit-learn accepts a sparse multi-output y; the fits do not
+        raise ValueError(
+            f"y is a sparse matrix; {type(estimator).__name__} needs dense targets "
+            "(convert with y.toarray())."
+        )
+    try:
+        out = validate_data(
+            estimator,
+            X,
+            y,
+            reset=reset,
+            dtype=[np.float64, np.float32],
+            ensure_all_finite="allow-nan" if allow_nan else True,
+            **check_params,
+        )
+    except ValueError as exc:
+        explain_not_numbers(exc, X, y)
+        if "contains NaN" not in str(exc):
+            raise
+        first = str(exc).split("\n")[0].split(".")[0]  # "Input X contains NaN"
+        raise ValueError(f"{first}. {NAN_ADVICE.format(type(estimator).__name__)}") from exc
     X = out[0] if isinstance(out, tuple) else out
     n_points = X.shape[1] - n_covariates
     if n_covariates and n_points < 2:
@@ -110,6 +133,23 @@ def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
     return out
 
 
+def explain_not_numbers(exc, X, y):
+    """Raise a ValueError naming X or y if ``exc`` is numpy's failure to read
+    text as numbers; return otherwise."""
+    if "could not convert" not in str(exc):
+        return
+    try:
+        np.asarray(X, dtype=np.float64)
+        name = "y"
+    except (TypeError, ValueError):
+        name = "X"
+    value = str(exc).rpartition(": ")[2]
+    raise ValueError(
+        f"{name} must hold numbers; got a value that is not a number ({value}). "
+        "Convert text columns to numbers first."
+    ) from None
+
+
 def check_labels(estimator, inferred, fitted, data_name, grid_name):
     """ValueError if numeric column labels give a grid other than the fitted one."""
     if inferred is not None and not np.allclose(inferred, fitted, rtol=1e-9, atol=0):
@@ -135,6 +175,12 @@ def check_batch_grid(estimator, grid_param="grid", grid_attr="grid_"):
             )
 
 
+#: the largest number of basis functions: every fit forms K x K Gram and
+#: penalty matrices (8 K^2 bytes each) and decomposes them in O(K^3), so K is
+#: capped where one such matrix reaches 1 GiB (sqrt(2^30 / 8) = 11585)
+MAX_N_BASIS = 11585
+
+
 def resolve_n_basis(basis, n_basis, n_points, degree=3, knots=None, cap=True):
     """The number of basis functions to use.
 
@@ -151,6 +197,13 @@ def resolve_n_basis(basis, n_basis, n_points, degree=3, knots=None, cap=True):
         resolved = default_n_basis(basis, n_points, degree)
     else:
         resolved = n_basis
+    if resolved > MAX_N_BASIS:
+        raise ValueError(
+            f"n_basis={resolved} is too large: the fit forms {resolved} x {resolved} "
+            f"matrices ({8 * resolved**2 / 2**30:.3g} GiB each) and decomposes them. "
+            f"Use n_basis <= {MAX_N_BASIS}; with a roughness penalty a few dozen "
+            "functions usually suffice."
+        )
     if cap and resolved > n_points:
         raise ValueError(
             f"n_basis={resolved} exceeds the {n_points} grid points of X: a "

@@ -3,7 +3,8 @@
 __all__ = ["all_estimators"]
 
 #: the public modules that export estimators
-_ESTIMATOR_MODULES = ("preprocessing", "decomposition", "linear_model")
+_ESTIMATOR_MODULES = ("preprocessing", "decomposition", "linear_model", "alignment",
+                      "outliers")
 
 
 def all_estimators():
@@ -14,8 +15,9 @@ def all_estimators():
     -------
     estimators : list of (str, type) tuples
         ``(name, class)`` of each estimator class exported by
-        :mod:`skfunc.preprocessing`, :mod:`skfunc.decomposition` and
-        :mod:`skfunc.linear_model`, sorted by name.
+        :mod:`skfunc.preprocessing`, :mod:`skfunc.decomposition`,
+        :mod:`skfunc.linear_model`, :mod:`skfunc.alignment` and :mod:`skfunc.outliers`,
+        sorted by name.
 
     Examples
     --------

@@ -11,7 +11,11 @@
   that does not depend on the grid (evaluated at :data:`COMMON_POINTS` where
   the output is a curve);
 * ``curve_input``: whether the rows of X are curves (else y is), so grid and
-  label checks know where the grid lives.
+  label checks know where the grid lives;
+* ``resolution_rtol`` and ``even_grids_only`` (optional): a wider tolerance
+  of the resolution-invariance test (default 1e-3, derived there), or even
+  grids only, when the estimator's own discretisation differs from the
+  quadrature's; the reason stands beside the case.
 
 Adding an estimator means adding its case here; the common tests pick it up
 through :func:`skfunc.utils.all_estimators`.
@@ -20,6 +24,7 @@ through :func:`skfunc.utils.all_estimators`.
 import matplotlib
 import numpy as np
 import pytest
+from scipy.interpolate import CubicSpline
 
 from skfunc.datasets import make_smooth_regression
 
@@ -61,6 +66,18 @@ def _pca_output(est, X):
     return np.concatenate([est.explained_variance_, np.abs(est.transform(X)).ravel()])
 
 
+def _sparse_pca_output(est, X):
+    # eigenvalues and the component functions at common points; the scores
+    # are conditional expectations that weigh every observation alike (sums
+    # over points, not integrals), so on curves outside the components' span
+    # they change with the number of points by O(1/m), as they should
+    from skfunc._bases import BSplineBasis
+
+    basis = BSplineBasis((0.0, 1.0), est.covariance_n_basis_, degree=est.covariance_degree_)
+    components = est.components_basis_coef_ @ basis.evaluate(COMMON_POINTS).T
+    return np.concatenate([est.explained_variance_, np.abs(components).ravel()])
+
+
 def _curve_prediction(est, X):
     return est.predict(X, eval_points=COMMON_POINTS)
 
@@ -70,8 +87,45 @@ def _concurrent_output(est, X):
     return np.concatenate([intercept, coef])
 
 
+def _on_common_points(grid, Y):
+    """Rows of ``Y`` (values on ``grid``) at :data:`COMMON_POINTS`, by scipy's
+    cubic spline (its O(h^4) error keeps the comparison on the estimator)."""
+    return CubicSpline(grid, np.atleast_2d(Y), axis=1)(COMMON_POINTS).ravel()
+
+
+def _template_and_warps(est, X):
+    g = est.grid_
+    return np.concatenate([_on_common_points(g, est.template_),
+                           _on_common_points(g, est.transform_warps(X))])
+
+
+def _warps(est, X):
+    return _on_common_points(est.grid_, est.transform_warps(X))
+
+
+#: warps t + a (t - t0)(t1 - t) / (t1 - t0) of the elastic aligner's data
+#: (strictly increasing for |a| < 1, ends fixed)
+WARP_SIZES = np.linspace(-0.5, 0.5, 6)
+
+
+def _warped_copies(grid):
+    """Copies ``f o gamma_k`` of one smooth curve ``f``: ``f`` sampled at the
+    warped grid points, so the same functions on any grid."""
+    grid = np.asarray(grid, dtype=np.float64)
+    t0, t1 = grid[0], grid[-1]
+    bend = (grid - t0) * (t1 - grid) / (t1 - t0)
+    X = np.array([smooth_curves(grid + a * bend, n=1)[0][0] for a in WARP_SIZES])
+    return X, None
+
+
 def _curves_only(grid):
     return smooth_curves(grid)[0], None
+
+
+def _smoother_curves_only(grid):
+    # 5 Fourier terms: a covariance surface that 15 x 15 B-splines represent
+    # (11 terms put variation at scales the smoothed surface leaves to noise)
+    return make_smooth_regression(N_CURVES, grid=grid, n_terms=5, random_state=0)[0], None
 
 
 def _curves_and_outcome(grid):
@@ -132,9 +186,51 @@ ESTIMATOR_CASES = {
                              "response_grid": grid},
         data=_curves_and_curves, output=_curve_prediction, curve_input=True,
     ),
+    "SparseFunctionalPCA": dict(
+        # fixed alphas: the automatic choice may step to a neighbouring
+        # candidate between samplings, which is not what these tests check
+        params=lambda grid: {"n_components": 3, "alpha": 1e-6, "covariance_alpha": 1e-6,
+                             "max_covariance_points": 201, "grid": grid},
+        data=_smoother_curves_only, output=_sparse_pca_output, curve_input=True,
+        # observations are pooled with equal weights (Yao, Mueller and Wang
+        # 2005), not quadrature weights: a grid dense at the ends weighs the
+        # ends more (a different, equally consistent estimate), and on even
+        # grids the end points weigh a full step instead of half of one, an
+        # O(h) = 1/200 relative difference; 2e-2 leaves room (a sum in place
+        # of an integral would change eigenvalues 5x)
+        even_grids_only=True, resolution_rtol=2e-2,
+    ),
     "ConcurrentFunctionRidge": dict(
         params=lambda grid: {"alpha": 1e-6, "n_basis": 12, "grid": grid},
         data=_curves_and_curves, output=_concurrent_output, curve_input=True,
+    ),
+    "ShiftAligner": dict(
+        params=lambda grid: {"grid": grid},
+        data=_curves_only, output=_template_and_warps, curve_input=True,
+    ),
+    "LandmarkAligner": dict(
+        params=lambda grid: {"grid": grid},
+        data=_curves_only, output=_template_and_warps, curve_input=True,
+    ),
+    # warped copies of the given template, so the warps are determined; the
+    # dynamic program's warps pass through grid points, so across samplings
+    # they differ by up to the coarser grid's largest spacing: pi / 400
+    # ~ 7.9e-3 on the uneven grid, 1.4e-2 of the identity warp's L2 norm
+    # (1 / sqrt(3)) (derivation)
+    "ElasticAligner": dict(
+        params=lambda grid: {"template": smooth_curves(grid, n=1)[0][0], "grid": grid},
+        data=_warped_copies, output=_warps, curve_input=True, resolution_rtol=1.4e-2,
+    ),
+    "CurveOutlierDetector": dict(
+        params=lambda grid: {"random_state": 0, "grid": grid},
+        data=_curves_only,
+        output=lambda est, X: est.score_samples(X), curve_input=True,
+        # the pointwise median and MAD switch curves where curves cross, so
+        # the outlyingness integrands have kinks; measured against 4001
+        # points the scores' relative error falls as h^2 (6.8e-3, 2.3e-3,
+        # 4.6e-4, 7.5e-5 on 101, 201, 401, 1001 points), with a larger
+        # constant than smooth integrands: 5e-3 at 201 points
+        resolution_rtol=5e-3,
     ),
 }
 

@@ -8,6 +8,10 @@ import subprocess
 import sys
 from pathlib import Path
 
+import pytest
+
+pytestmark = pytest.mark.slow  # about 30 s; CI runs it (-m "slow or not slow")
+
 BENCHMARKS = Path(__file__).resolve().parent / "benchmarks"
 
 

@@ -107,6 +107,7 @@ def client():
         cluster.close()
 
 
+@pytest.mark.slow  # starts a local cluster and integrates with scipy's quad
 def test_basis_features_on_cluster_equals_in_memory_and_quad(client):
     t = np.linspace(0, 1, 65)
     rng = np.random.default_rng(1)
@@ -500,6 +501,7 @@ def test_functional_ridge_partial_fit_and_memory_only_criteria(sync):
             FunctionalRidgeCV(**kwargs).fit(da.from_array(X, chunks=100), strength)
 
 
+@pytest.mark.slow  # a fresh Python process
 def test_dask_is_not_imported_for_numpy_input():
     code = (
         "import sys, numpy as np; from skfunc import BasisFeatures;"

@@ -3,6 +3,7 @@ statsmodels fits, the covariance and eigenvalues of Brownian motion)."""
 
 import numpy as np
 import pytest
+import statsmodels.api as sm
 from scipy.integrate import simpson
 
 from skfunc.datasets import (
@@ -71,7 +72,6 @@ def test_kiln_strength_follows_the_stated_functional_model():
 
 
 def test_kiln_noise_and_crack_models_with_statsmodels():
-    sm = pytest.importorskip("statsmodels.api")
     minutes = np.linspace(0, 599, 300)
     kiln = make_kiln_firing(3000, grid=minutes, random_state=4)
     # OLS of strength on the true integral (statsmodels): slope 1, noise SD 1

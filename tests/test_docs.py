@@ -1,5 +1,8 @@
-"""The documentation builds with Sphinx and numpydoc, warnings as errors."""
+"""The documentation builds with Sphinx, numpydoc and sphinx-gallery,
+warnings as errors, and every code snippet in it runs as a doctest."""
 
+import doctest
+import re
 import subprocess
 import sys
 from pathlib import Path
@@ -8,15 +11,31 @@ import pytest
 
 ROOT = Path(__file__).resolve().parents[1]
 
-pytest.importorskip("sphinx")
-pytest.importorskip("numpydoc")
+PAGES = sorted((ROOT / "docs").glob("*.rst"))
 
 
+@pytest.mark.slow
 def test_docs_build_without_warnings(tmp_path):
+    pytest.importorskip("sphinx")
+    pytest.importorskip("numpydoc")
+    pytest.importorskip("sphinx_gallery")
+    # build from a copy, so that the gallery's generated pages (written next
+    # to the sources) are fresh and the working tree is left alone
+    import os
+    import shutil
+
+    source = tmp_path / "src"
+    ignore = shutil.ignore_patterns("_build", "auto_examples", "sg_execution_times.rst")
+    shutil.copytree(ROOT / "docs", source / "docs", ignore=ignore)
+    shutil.copytree(ROOT / "examples", source / "examples")
+    env = dict(os.environ, MPLBACKEND="Agg", OPENBLAS_NUM_THREADS="1")
+    env["PYTHONPATH"] = os.pathsep.join(
+        p for p in (str(ROOT), env.get("PYTHONPATH")) if p
+    )
     result = subprocess.run(
         [sys.executable, "-m", "sphinx", "-W", "--keep-going", "-q", "-E",
-         "-b", "html", str(ROOT / "docs"), str(tmp_path / "html")],
-        capture_output=True, text=True, timeout=600,
+         "-b", "html", str(source / "docs"), str(tmp_path / "html")],
+        capture_output=True, text=True, timeout=900, env=env,
     )
     assert result.returncode == 0, result.stderr[-5000:]
     pages = {p.name for p in (tmp_path / "html").glob("*.html")}
@@ -25,6 +44,16 @@ def test_docs_build_without_warnings(tmp_path):
         assert page in pages
     api = (tmp_path / "html" / "api.html").read_text(encoding="utf-8")
     assert "CurveBandDisplay" in api and "make_kiln_firing" in api
+    # the gallery: one page per example, with the figures the scripts drew
+    gallery = tmp_path / "html" / "auto_examples"
+    examples = sorted(p.stem for p in (ROOT / "examples").glob("*.py"))
+    assert sorted(p.stem for p in gallery.glob("*.html") if p.stem != "index") \
+        == examples
+    figures = list((tmp_path / "html" / "_images").glob("sphx_glr_kiln_*_001.png"))
+    drawn = [name for name in examples if name.startswith("kiln_")]
+    assert len(figures) == len(drawn), sorted(p.name for p in figures)
+    page = (gallery / "kiln_strength_coefficient.html").read_text(encoding="utf-8")
+    assert "sphx_glr_kiln_strength_coefficient_001.png" in page
 
 
 def test_every_page_is_reachable_and_cautions_are_there():
@@ -36,3 +65,27 @@ def test_every_page_is_reachable_and_cautions_are_there():
     assert "validate" in cautions.lower() and "standards" in cautions
     saving = (docs / "saving_models.rst").read_text(encoding="utf-8")
     assert "runs code" in saving and "skops" in saving
+
+
+@pytest.mark.parametrize("page", [p for p in PAGES if ">>> " in p.read_text(
+    encoding="utf-8")], ids=lambda p: p.name)
+def test_snippets_run_as_doctests(page, tmp_path, monkeypatch):
+    monkeypatch.chdir(tmp_path)  # snippets that save files write them here
+    result = doctest.testfile(
+        str(page), module_relative=False, encoding="utf-8", verbose=False,
+        optionflags=doctest.ELLIPSIS | doctest.NORMALIZE_WHITESPACE,
+    )
+    assert result.attempted > 0
+    assert result.failed == 0, f"{result.failed} snippet line(s) of {page.name} failed"
+
+
+def test_python_snippets_are_doctests():
+    # a literal block (after "::") holding Python would escape the doctest
+    # run above; shell commands go in ".. code-block:: bash"
+    literal = re.compile(r"::\n\n((?:[ ]{4}.*\n|\n)+)")
+    for page in PAGES:
+        text = page.read_text(encoding="utf-8")
+        for block in literal.findall(text):
+            code = block.strip()
+            looks_like_python = re.search(r"^\s*(import|from) |\w+ = \w", code, re.M)
+            assert not looks_like_python, f"{page.name}: Python outside a doctest:\n{code}"

@@ -7,7 +7,9 @@ errors, and the published GCV criterion.
 
 
 import numpy as np
+import pandas as pd
 import pytest
+import statsmodels.api as sm
 from numpy.testing import assert_allclose
 from sklearn.linear_model import LinearRegression, RidgeCV
 from sklearn.model_selection import GridSearchCV, KFold, cross_val_score
@@ -21,9 +23,6 @@ from skfunc.linear_model import (
     FunctionOnFunctionRidge,
     FunctionOnScalarRidge,
 )
-
-pd = pytest.importorskip("pandas")
-sm = pytest.importorskip("statsmodels.api")
 
 
 def _scalar_data(rng, n=60, p=3, m=41, noise=0.3, grid=None):
@@ -254,6 +253,111 @@ def test_concurrent_bands_equal_pointwise_hc1_standard_errors(rng):
     assert_allclose((upper0 - lower0) / (2 * z), bse[:, 0], rtol=1e-8)
 
 
+def test_concurrent_one_response_point_is_simple_regression(rng):
+    # A response of one point t0 is the regression of y on X(t0): the fit,
+    # predictions and R^2 equal sklearn.linear_model.LinearRegression on that
+    # column, the band statsmodels' HC1 standard error
+    # (OLS(...).fit(cov_type="HC1").bse), whatever alpha (nothing to smooth).
+    n, m = 50, 13
+    t = np.linspace(0.5, 2, m)
+    X = rng.normal(size=(n, m))
+    y = 1 + 3 * X[:, :1] + rng.normal(size=(n, 1)) * (1 + np.abs(X[:, :1]))
+    z = 1.959963984540054  # 97.5% normal quantile (from memory)
+    for alpha in ("auto", 0.0, 10.0):
+        model = ConcurrentFunctionRidge(alpha, grid=t).fit(X, y)
+        assert_allclose(model.response_grid_, [0.5])  # default: the domain's start
+        ols = LinearRegression().fit(X[:, :1], y)
+        assert_allclose(model.coef_function_, ols.coef_[0], rtol=1e-10)
+        assert_allclose(model.intercept_function_, ols.intercept_, rtol=1e-10)
+        assert_allclose(model.predict(X), ols.predict(X[:, :1]), rtol=1e-10)
+        assert_allclose(model.score(X, y), ols.score(X[:, :1], y), rtol=1e-10)
+        lower, upper = model.confidence_band(0.95)
+        bse = sm.OLS(y[:, 0], sm.add_constant(X[:, 0])).fit(cov_type="HC1").bse
+        assert_allclose((upper - lower) / (2 * z), bse[1], rtol=1e-8)
+    # a point between grid nodes (t[3] = 0.875, t[4] = 1.0): X read by linear
+    # interpolation (numpy.interp), the point given or read from the label
+    x0 = np.array([np.interp(0.9, t, row) for row in X])
+    y0 = 2 - x0 + rng.normal(size=n)
+    ols = LinearRegression().fit(x0[:, None], y0)
+    for model in (ConcurrentFunctionRidge(grid=t, response_grid=[0.9]).fit(X, y0[:, None]),
+                  ConcurrentFunctionRidge(grid=t).fit(X, pd.DataFrame({0.9: y0}))):
+        assert_allclose(model.response_grid_, [0.9])
+        assert_allclose(model.coef_function_, ols.coef_, rtol=1e-10)
+        assert_allclose(model.predict(X)[:, 0], ols.predict(x0[:, None]), rtol=1e-10)
+
+
+def test_concurrent_response_off_the_input_grid_is_pointwise_least_squares(rng):
+    # Response points off the input grid, an interpolating basis on them and
+    # alpha = 0: simple least squares at each response point s_j on
+    # [1, X(s_j)], X(s_j) by linear interpolation (numpy.interp,
+    # numpy.linalg.lstsq).
+    n, m = 40, 21
+    t = np.linspace(0, 1, m)
+    s = np.sort(np.concatenate([[0.01, 0.99], rng.uniform(0, 1, 7)]))
+    X = rng.normal(size=(n, m))
+    Xs = np.array([np.interp(s, t, row) for row in X])
+    Y = np.sin(3 * s) + Xs * np.cos(2 * s) + rng.normal(size=(n, s.size))
+    model = ConcurrentFunctionRidge(alpha=0, interior_knots=s[1:-1], degree=1,
+                                    response_grid=s).fit(X, Y)
+    expected = np.array([
+        np.linalg.lstsq(np.column_stack([np.ones(n), Xs[:, j]]), Y[:, j], rcond=None)[0]
+        for j in range(s.size)
+    ])
+    assert_allclose(model.intercept_function_, expected[:, 0], atol=1e-9)
+    assert_allclose(model.coef_function_, expected[:, 1], atol=1e-9)
+    assert_allclose(model.predict(X), expected[:, 0] + Xs * expected[:, 1], atol=1e-9)
+    # default response grid of 9 columns: evenly spaced on X's domain [0, 1]
+    default = ConcurrentFunctionRidge(alpha=1e-3).fit(X, Y)
+    assert_allclose(default.response_grid_, np.linspace(0, 1, 9))
+
+
+def test_concurrent_dask_fit_with_interpolated_input(rng):
+    # Dask fits read the same block statistics (two passes): equal to the
+    # in-memory fit up to summation order (1e-10), also when X is read
+    # between its grid points.
+    da = pytest.importorskip("dask.array")
+    import dask
+
+    t = np.linspace(0, 1, 31)
+    X = _curves(t, rng.normal(size=(60, 3)))
+    Y = 1 + 2 * X[:, 3::3] + rng.normal(size=(60, 10))
+    params = dict(alpha=1e-4, n_basis=6, response_grid=t[3::3] - 0.01)
+    memory = ConcurrentFunctionRidge(**params).fit(X, Y)
+    with dask.config.set(scheduler="sync"):
+        lazy = ConcurrentFunctionRidge(**params).fit(
+            da.from_array(X, chunks=(17, -1)), da.from_array(Y, chunks=(17, -1)))
+        pred = lazy.predict(da.from_array(X, chunks=(17, -1))).compute()
+    assert_allclose(lazy.basis_coef_, memory.basis_coef_, rtol=1e-10)
+    assert_allclose(lazy.coef_covariance_, memory.coef_covariance_, rtol=1e-10)
+    assert_allclose(pred, memory.predict(X), rtol=1e-10)
+
+
+def test_concurrent_interpolated_input_is_resolution_invariant(rng):
+    # X read at fixed response points by linear interpolation: the error is
+    # at most h^2 / 8 max|x''| (common practice); x'' <= (2 pi)^2 |score|
+    # here, so on 201 even points (h = 1/200) about 1.2e-4 per unit of the
+    # standard normal scores, 5e-4 with room; reading the nearest grid
+    # point instead differs by 2.5e-3 and fails. The uneven grid's widest
+    # gap (0.028) bounds nothing useful; 1e-3 is the common resolution
+    # tolerance (measured 1.3e-4; the nearest point gives 4.4e-3).
+    scores = rng.normal(size=(60, 3))
+    s = np.sort(rng.uniform(0.05, 0.95, 41))
+    Y = np.sin(3 * s) + _curves(s, scores) * np.cos(2 * s) + 0.1 * rng.normal(
+        size=(60, s.size))
+    points = np.linspace(s[0], s[-1], 57)
+
+    def fit(grid):
+        model = ConcurrentFunctionRidge(alpha=1e-6, n_basis=12, grid=grid,
+                                        response_grid=s).fit(_curves(grid, scores), Y)
+        return np.concatenate(model.coef_functions_at(points))
+
+    grids = _grids()
+    reference = fit(grids["1001"])
+    for name, tol in (("201", 5e-4), ("uneven201", 1e-3)):
+        error = np.abs(fit(grids[name]) - reference).max() / np.abs(reference).max()
+        assert error < tol, name
+
+
 def _bump_simulation(rng, n=500, m=101, noise=0.1):
     s = t = np.linspace(0, 1, m)
     k = np.arange(1, 31)
@@ -434,8 +538,11 @@ def test_bad_input_messages(rng):
     with pytest.raises(ValueError, match="n_basis=60 exceeds"):
         FunctionOnScalarRidge(alpha=0, n_basis=60).fit(X, Y)
     Xf = rng.normal(size=(20, 11))
-    with pytest.raises(ValueError, match="one shared grid"):
-        ConcurrentFunctionRidge().fit(Xf, rng.normal(size=(20, 9)))
+    with pytest.raises(ValueError, match="response_grid must lie in the input grid's"):
+        ConcurrentFunctionRidge(response_grid=np.linspace(0.5, 1.5, 9)).fit(
+            Xf, rng.normal(size=(20, 9)))
+    with pytest.raises(ValueError, match="response_grid has 2 point"):
+        ConcurrentFunctionRidge(response_grid=[0.1, 0.2]).fit(Xf, Xf[:, :1])
     fof = FunctionOnFunctionRidge(n_basis=5).fit(Xf, Xf)
     with pytest.raises(ValueError, match="X has 10 features"):
         fof.predict(Xf[:, 1:])

@@ -215,9 +215,9 @@ def test_bad_input(rng):
         FunctionalRidge().fit(X, np.where(np.arange(30) == 3, np.nan, y))
     with pytest.raises(ValueError, match="inconsistent numbers of samples"):
         FunctionalRidge().fit(X, y[:-1])
-    with pytest.raises(ValueError, match="Negative values in data passed to"):
+    with pytest.raises(ValueError, match="sample_weight must be non-negative"):
         FunctionalRidge().fit(X, y, sample_weight=np.r_[-1.0, np.ones(29)])
-    with pytest.raises(ValueError, match="sample_weight.shape"):
+    with pytest.raises(ValueError, match="sample_weight has 29 values but X has 30 rows"):
         FunctionalRidge().fit(X, y, sample_weight=np.ones(29))
     with pytest.raises(ValueError, match="alpha"):
         FunctionalRidge(alpha=-1.0).fit(X, y)

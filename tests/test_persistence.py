@@ -3,6 +3,8 @@ damaged files and overwrites fail clearly. (The round trip of every exported
 estimator is in tests/test_common.py.)
 """
 
+import threading
+
 import numpy as np
 import pytest
 from conftest import smooth_curves
@@ -96,3 +98,88 @@ def test_bad_arguments(tmp_path):
         save_model(Ridge(), tmp_path)
     with pytest.raises(ValueError, match="compress must be an integer from 1 to 9"):
         save_model(Ridge(), tmp_path / "m.joblib", compress=0)
+
+
+def test_two_concurrent_saves_without_force_one_fails(tmp_path, monkeypatch):
+    # Both saves pass the early "exists?" check before either file is in place
+    # (the barrier inside the writer makes sure of it); the exclusive move into
+    # place must then let exactly one succeed and keep its model whole.
+    import joblib
+
+    import skfunc.persistence as persistence
+
+    barrier = threading.Barrier(2, timeout=30)
+    real_dump = joblib.dump
+
+    def dump_after_both_checked(*args, **kwargs):
+        barrier.wait()
+        return real_dump(*args, **kwargs)
+
+    monkeypatch.setattr(persistence.joblib, "dump", dump_after_both_checked)
+    X, y = smooth_curves(np.linspace(0, 1, 41))
+    path = tmp_path / "model.joblib"
+    outcomes = {}
+
+    def save(alpha):
+        try:
+            save_model(Ridge(alpha=alpha).fit(X, y), path)
+            outcomes[alpha] = "saved"
+        except FileExistsError as exc:
+            outcomes[alpha] = exc
+
+    threads = [threading.Thread(target=save, args=(a,)) for a in (1.0, 2.0)]
+    for thread in threads:
+        thread.start()
+    for thread in threads:
+        thread.join(60)
+    saved = [a for a, outcome in outcomes.items() if outcome == "saved"]
+    failed = [o for o in outcomes.values() if isinstance(o, FileExistsError)]
+    assert len(saved) == 1 and len(failed) == 1, outcomes
+    assert "already exists" in str(failed[0]) and str(path) in str(failed[0])
+    assert load_model(path).alpha == saved[0]
+    assert sorted(p.name for p in tmp_path.iterdir()) == [path.name]  # no temp left
+
+
+def test_unwritable_folder_is_named_by_the_target(tmp_path, monkeypatch):
+    # A folder that refuses new files (simulated: the tests may run as root, who
+    # may write anywhere) is reported naming the model file, not a temporary one.
+    import skfunc.persistence as persistence
+
+    def refuse(*args, **kwargs):
+        raise PermissionError(13, "Permission denied", str(tmp_path / ".m.part"))
+
+    monkeypatch.setattr(persistence.tempfile, "mkstemp", refuse)
+    path = tmp_path / "model.joblib"
+    with pytest.raises(PermissionError) as info:
+        save_model(Ridge(), path)
+    message = str(info.value)
+    assert f"Cannot write {path}" in message and "Permission denied" in message
+    assert ".part" not in message
+    assert not path.exists()
+
+
+@pytest.mark.parametrize("suffix", [".joblib", ".skops"])
+@pytest.mark.parametrize("content", [{"coef": np.ones(3)}, np.ones(3), [1, 2]],
+                         ids=["dict", "array", "list"])
+def test_file_without_a_model_is_a_model_file_error(tmp_path, suffix, content):
+    # the documented promise: a file that holds no model raises ModelFileError
+    path = tmp_path / f"data{suffix}"
+    if suffix == ".skops":
+        sio.dump(content, path)
+    else:
+        import joblib
+
+        joblib.dump(content, path)
+    with pytest.raises(ModelFileError, match=f"holds a {type(content).__name__}, not a model"):
+        load_model(path)
+
+
+def test_trusted_must_be_a_list_of_names(tmp_path):
+    X, y = smooth_curves(np.linspace(0, 1, 41))
+    path = save_model(NotTrusted().fit(X, y), tmp_path / "other.skops")
+    name = sio.get_untrusted_types(file=path)[0]
+    with pytest.raises(TypeError, match=r"trusted must be a list of type names, such as \["):
+        load_model(path, trusted=name)
+    with pytest.raises(TypeError, match="as strings; got 3"):
+        load_model(path, trusted=[3])
+    assert isinstance(load_model(path, trusted=(name,)), NotTrusted)

@@ -1,6 +1,7 @@
 """Display objects draw what they claim (Agg backend; the drawn data are
 compared with numpy, scipy and scikit-learn computations)."""
 
+import inspect
 import sys
 
 import matplotlib
@@ -16,6 +17,7 @@ from skfunc.plotting import (
     AlphaCriterionDisplay,
     CoefficientFunctionDisplay,
     ComponentPerturbationDisplay,
+    ComponentScoreDisplay,
     CurveBandDisplay,
 )
 
@@ -118,7 +120,7 @@ def test_component_perturbations_on_given_axes_and_errors():
     fpca = _pca_like_fpca()
     _, axes = plt.subplots(2, 1)
     display = ComponentPerturbationDisplay.from_estimator(
-        fpca, n_components=2, factor=1.0, ax=axes
+        fpca, n_components=2, n_sd=1.0, ax=axes
     )
     assert list(display.axes_) == list(axes)
     shift = np.sqrt(fpca.explained_variance_[1]) * fpca.components_[1]
@@ -127,8 +129,8 @@ def test_component_perturbations_on_given_axes_and_errors():
         ComponentPerturbationDisplay.from_estimator(fpca, n_components=3, ax=axes)
     with pytest.raises(ValueError, match="n_components must be an int from 1 to 4"):
         ComponentPerturbationDisplay.from_estimator(fpca, n_components=5)
-    with pytest.raises(ValueError, match="factor"):
-        ComponentPerturbationDisplay.from_estimator(fpca, factor=0)
+    with pytest.raises(ValueError, match="n_sd"):
+        ComponentPerturbationDisplay.from_estimator(fpca, n_sd=0)
     with pytest.raises(ValueError, match="components_"):
         ComponentPerturbationDisplay.from_estimator(Fitted(grid_=[0, 1]))
 
@@ -192,16 +194,19 @@ def test_alpha_criterion_matches_sklearn_ridgecv_choice():
     chosen = display.chosen_lines_[0].get_xdata()[0]
     assert chosen == ridge.alpha_ == alphas[np.argmin(line.get_ydata())]
     assert display.ax_.get_xscale() == "log"
-    assert display.ax_.get_ylabel() == "LOO (lower is better)"
+    assert display.ax_.get_ylabel() == "leave-one-out error (lower is better)"
+    assert display.ax_.get_title() == "leave-one-out over the candidate penalties"
 
 
-def test_alpha_criterion_per_curve_rows():
+def test_alpha_criterion_per_target_rows():
     alphas = np.logspace(-3, 3, 7)
     criterion = (np.log10(alphas)[None, :] - np.arange(4)[:, None] + 1) ** 2
     est = Fitted(alphas_path_=alphas, criterion_path_=criterion, alpha_=alphas[[2, 3, 4, 5]])
     display = AlphaCriterionDisplay.from_estimator(est, max_lines=3,
                                                    criterion_name="GCV")
     assert len(display.lines_) == 3
+    assert [line.get_label() for line in display.lines_] == [
+        "target 0", "target 1", "target 2"]
     np.testing.assert_allclose([c.get_xdata()[0] for c in display.chosen_lines_],
                                alphas[[2, 3, 4]])
     bad = Fitted(alphas_path_=alphas, criterion_path_=criterion[:, :3], alpha_=1.0)
@@ -257,3 +262,160 @@ def test_real_coefficient_estimators_if_available():
         np.testing.assert_allclose(display.line_.get_ydata(), est.coef_function_)
         if getattr(est, "criterion_path_", None) is not None:
             AlphaCriterionDisplay.from_estimator(est)
+
+
+def test_curve_band_says_when_max_curves_left_curves_out():
+    kiln = make_kiln_firing(61, random_state=0)
+    display = CurveBandDisplay.from_data(kiln.data, grid=kiln.grid, max_curves=50)
+    assert len(display.curve_lines_) == 50
+    labels = display.ax_.get_legend_handles_labels()[1]
+    assert "50 of 61 curves drawn" in labels
+    assert display.ax_.get_title() == "61 curves: mean \u00b1 2 SD (50 drawn)"
+    every = CurveBandDisplay.from_data(kiln.data, grid=kiln.grid, max_curves=100)
+    assert "61 curves" in every.ax_.get_legend_handles_labels()[1]
+    assert "drawn" not in every.ax_.get_title()
+
+
+def _kiln_fpca_and_curves(n_runs=25):
+    kiln = make_kiln_firing(n_runs, grid=np.arange(0, 600, 5), dropout_fraction=0.0,
+                            random_state=0)
+    fpca = skfunc.FunctionalPCA(n_components=3, grid=kiln.grid).fit(kiln.data)
+    return kiln, fpca
+
+
+def _every_display(kiln, fpca):
+    """One display of each kind, drawn on figures the displays make."""
+    ridge = skfunc.FunctionalRidgeCV(grid=kiln.grid).fit(kiln.data, kiln.strength)
+    per_curve = skfunc.CurveSmoother(grid=kiln.grid, per_curve=True).fit(kiln.data)
+    return {
+        "band": CurveBandDisplay.from_data(kiln.data, grid=kiln.grid),
+        "components": ComponentPerturbationDisplay.from_estimator(fpca),
+        "scores": ComponentScoreDisplay.from_estimator(
+            fpca, kiln.data, highlight=[0, 1], color=kiln.strength,
+            color_label="strength (MPa)"),
+        "coefficient": CoefficientFunctionDisplay.from_estimator(ridge),
+        "criterion": AlphaCriterionDisplay.from_estimator(ridge),
+        "per_curve": AlphaCriterionDisplay.from_estimator(per_curve, kiln.data[:12]),
+    }
+
+
+def test_every_display_is_labelled_unclipped_and_keeps_legends_off_the_curves(
+        tmp_path):
+    kiln, fpca = _kiln_fpca_and_curves()
+    for name, display in _every_display(kiln, fpca).items():
+        figure = display.figure_
+        # figures the displays make use constrained layout (matplotlib's engine
+        # that keeps labels, titles and outside legends inside the figure)
+        assert type(figure.get_layout_engine()).__name__ == "ConstrainedLayoutEngine"
+        path = tmp_path / f"{name}.png"
+        figure.savefig(path, dpi=40)  # the PNGs were looked at while writing this
+        assert path.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+        figure.canvas.draw()
+        renderer = figure.canvas.get_renderer()
+        page = figure.bbox
+        axes = getattr(display, "axes_", None)
+        axes = [display.ax_] if axes is None else list(axes)
+        for ax in axes:
+            assert ax.get_title() and ax.get_xlabel(), (name, ax.get_title())
+            texts = [ax.title, ax.xaxis.label, ax.yaxis.label]
+            for text in texts:
+                if text.get_text():
+                    box = text.get_window_extent(renderer)
+                    # nothing clipped: every label lies inside the saved page
+                    assert page.x0 - 1 <= box.x0 and box.x1 <= page.x1 + 1, name
+                    assert page.y0 - 1 <= box.y0 and box.y1 <= page.y1 + 1, name
+        assert axes[0].get_ylabel(), name
+        legends = [ax.get_legend() for ax in axes if ax.get_legend() is not None]
+        assert legends, name
+        for legend in legends:
+            box = legend.get_window_extent(renderer)
+            for ax in axes:
+                # the legend sits beside the plotting areas, not over them
+                assert not box.overlaps(ax.get_window_extent(renderer)), name
+            assert box.x1 <= page.x1 + 1, name
+
+
+def test_constructors_are_keyword_only_and_n_sd_is_the_one_name():
+    displays = [CurveBandDisplay, ComponentPerturbationDisplay, ComponentScoreDisplay,
+                CoefficientFunctionDisplay, AlphaCriterionDisplay]
+    for cls in displays:
+        params = list(inspect.signature(cls.__init__).parameters.values())[1:]
+        assert all(p.kind is p.KEYWORD_ONLY for p in params), cls.__name__
+    for cls in displays:
+        for method in ("__init__", "from_data", "from_estimator"):
+            if hasattr(cls, method):
+                names = inspect.signature(getattr(cls, method)).parameters
+                assert "factor" not in names, (cls.__name__, method)
+    assert "n_sd" in inspect.signature(CurveBandDisplay.from_data).parameters
+    assert "n_sd" in inspect.signature(
+        ComponentPerturbationDisplay.from_estimator).parameters
+
+
+def test_criterion_is_named_from_the_estimator():
+    kiln = make_kiln_firing(15, random_state=0)
+    smoother = skfunc.CurveSmoother(grid=kiln.grid).fit(kiln.data)
+    display = AlphaCriterionDisplay.from_estimator(smoother)
+    assert display.ax_.get_ylabel() == "GCV score (lower is better)"
+    assert "GCV" in display.lines_[0].get_label()
+    from skfunc.linear_model import FunctionOnScalarRidge
+
+    fosr = FunctionOnScalarRidge(response_grid=kiln.grid).fit(
+        kiln.settings, kiln.true_curves)
+    assert AlphaCriterionDisplay.from_estimator(fosr).criterion_name == "GCV"
+    reml = Fitted(alphas_path_=np.array([1.0, 2.0]), criterion_path_=np.array([2.0, 1.0]),
+                  alpha_=2.0, criterion="reml")
+    assert AlphaCriterionDisplay.from_estimator(reml).ax_.get_ylabel() == (
+        "REML score (lower is better)")
+    folds = skfunc.FunctionalRidgeCV(grid=kiln.grid, cv=3).fit(
+        kiln.true_curves, kiln.strength)
+    assert AlphaCriterionDisplay.from_estimator(folds).ax_.get_ylabel() == (
+        "cross-validated error (lower is better)")
+
+
+def test_per_curve_choices_are_drawn_as_their_distribution():
+    kiln = make_kiln_firing(30, random_state=0)
+    smoother = skfunc.CurveSmoother(grid=kiln.grid, per_curve=True).fit(kiln.data)
+    chosen = smoother.choose_alphas(kiln.data)
+    display = AlphaCriterionDisplay.from_estimator(smoother, kiln.data)
+    heights = np.array([bar.get_height() for bar in display.bars_])
+    # one bar per candidate; numpy counts how often each candidate was chosen
+    expected = np.array([np.sum(np.isclose(chosen, a, rtol=1e-9, atol=0))
+                         for a in smoother.alphas_path_])
+    np.testing.assert_array_equal(heights, expected)
+    assert heights.sum() == len(kiln.data)
+    assert display.lines_ == []  # no pooled curve marked as "the" choice
+    assert display.chosen_lines_[0].get_xdata()[0] == np.median(chosen)  # numpy
+    with pytest.raises(ValueError, match="pass the curves X"):
+        AlphaCriterionDisplay.from_estimator(smoother)
+
+
+def test_score_display_draws_sklearn_pca_scores_and_labels_chosen_curves():
+    fpca = _pca_like_fpca()
+    t = fpca.grid_
+    X, _, _ = make_smooth_regression(200, grid=t, random_state=0)
+    h = t[1] - t[0]
+    pca = PCA(n_components=4).fit(X)
+    # rectangle-rule functional PCA scores are sklearn's scores times sqrt(h)
+    # (common practice; see _pca_like_fpca)
+    fpca.transform = lambda Z: pca.transform(Z) * np.sqrt(h)
+    names = np.array([f"run {i}" for i in range(len(X))])
+    display = ComponentScoreDisplay.from_estimator(
+        fpca, X, components=(0, 2), labels=names, highlight=[5, 17])
+    expected = pca.transform(X)[:, [0, 2]] * np.sqrt(h)
+    np.testing.assert_allclose(display.points_.get_offsets(), expected)
+    assert [a.get_text() for a in display.annotations_] == ["run 5", "run 17"]
+    np.testing.assert_allclose([a.xy for a in display.annotations_], expected[[5, 17]])
+    ratio = 100 * fpca.explained_variance_ratio_[2]
+    assert display.ax_.get_ylabel() == f"component 3 score ({ratio:.1f}% of variance)"
+    mask = np.zeros(len(X), dtype=bool)
+    mask[[3, 4]] = True
+    by_mask = ComponentScoreDisplay.from_estimator(fpca, X, highlight=mask)
+    assert [a.get_text() for a in by_mask.annotations_] == ["3", "4"]
+    with pytest.raises(ValueError, match="two different ints from 0 to 3"):
+        ComponentScoreDisplay.from_estimator(fpca, X, components=(1, 1))
+    with pytest.raises(ValueError, match="highlight"):
+        ComponentScoreDisplay.from_estimator(fpca, X, highlight=[200])
+    with pytest.raises(ValueError, match="labels"):
+        ComponentScoreDisplay.from_estimator(fpca, X, labels=["a"])
+    with pytest.raises(ValueError, match="color"):
+        ComponentScoreDisplay.from_estimator(fpca, X, color=[1.0, 2.0])

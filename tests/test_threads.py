@@ -67,6 +67,7 @@ def test_outer_limits_are_kept():
         assert blas_threads() == 1
 
 
+@pytest.mark.slow  # a grid search in worker processes
 @needs_threads
 def test_grid_search_with_n_jobs_does_not_oversubscribe():
     rng = np.random.default_rng(0)

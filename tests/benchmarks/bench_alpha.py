@@ -22,30 +22,15 @@ Run ``python tests/benchmarks/bench_alpha.py`` (full sizes) or with
 """
 
 import argparse
-import sys
-import time
 import warnings
-from pathlib import Path
 
 import numpy as np
+from _timing import best_times  # first: puts the repository on sys.path
 from scipy.linalg import cho_factor, cho_solve
-
-sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
 
 from skfunc._alpha import choose_alpha  # noqa: E402
 from skfunc._bases import BSplineBasis  # noqa: E402
 from skfunc._penalized import SplitPath, engine_alpha, penalty_for  # noqa: E402
-
-
-def best_times(funcs, repeat):
-    """Best wall time of each function, repeats interleaved."""
-    best = [np.inf] * len(funcs)
-    for _ in range(repeat):
-        for i, func in enumerate(funcs):
-            start = time.perf_counter()
-            func()
-            best[i] = min(best[i], time.perf_counter() - start)
-    return best
 
 
 def smoother_problem(n, m, K, rng):

@@ -17,14 +17,11 @@ processes affects numerator and denominator alike.
 
 import argparse
 import sys
-import time
 import tracemalloc
-from pathlib import Path
 
 import numpy as np
+from _timing import best_times  # first: puts the repository on sys.path
 from sklearn.decomposition import PCA
-
-sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
 
 from skfunc.decomposition import FunctionalPCA  # noqa: E402
 
@@ -46,16 +43,6 @@ def partial_fit_chunks(X, t, k, n_chunks):
     for chunk in np.array_split(X, n_chunks):
         est.partial_fit(chunk)
     return est
-
-
-def best_times(jobs, repeat):
-    times = {name: np.inf for name in jobs}
-    for _ in range(repeat):
-        for name, job in jobs.items():
-            start = time.perf_counter()
-            job()
-            times[name] = min(times[name], time.perf_counter() - start)
-    return times
 
 
 def peak_memory(job):

@@ -15,12 +15,12 @@ runs, to damp noise from other processes.
 import argparse
 import os
 import sys
-import time
 
 import numpy as np
 
 sys.path.insert(0, os.path.join(os.path.dirname(__file__), "..", ".."))
 
+from _timing import best_time  # noqa: E402
 from sklearn.linear_model import Ridge  # noqa: E402
 
 from skfunc.linear_model import (  # noqa: E402
@@ -28,15 +28,6 @@ from skfunc.linear_model import (  # noqa: E402
     FunctionOnFunctionRidge,
     FunctionOnScalarRidge,
 )
-
-
-def best_time(func, repeat):
-    times = []
-    for _ in range(repeat):
-        start = time.perf_counter()
-        func()
-        times.append(time.perf_counter() - start)
-    return min(times)
 
 
 def scalar_case(n, p, m, repeat, rng):

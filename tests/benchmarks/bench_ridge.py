@@ -12,14 +12,9 @@ Run from the repository root::
 """
 
 import argparse
-import os
-import sys
-import time
 
 import numpy as np
-
-sys.path.insert(0, os.path.abspath(os.path.join(os.path.dirname(__file__), "..", "..")))
-
+from _timing import best_times  # first: puts the repository on sys.path
 from sklearn.linear_model import RidgeCV  # noqa: E402
 from sklearn.model_selection import GridSearchCV  # noqa: E402
 
@@ -36,18 +31,6 @@ def make_data(n, m, seed=0):
     beta = 2 * np.sin(2 * np.pi * t) + 1.5 * np.cos(np.pi * t)
     y = X @ (beta * np.gradient(t)) + 0.2 * rng.normal(size=n)
     return X, y
-
-
-def best_times(funcs, repeat):
-    """Best of ``repeat`` wall-clock times of each function, run in turns so
-    that all see the same load on a shared machine."""
-    times = {name: [] for name in funcs}
-    for _ in range(repeat):
-        for name, func in funcs.items():
-            start = time.perf_counter()
-            func()
-            times[name].append(time.perf_counter() - start)
-    return {name: min(values) for name, values in times.items()}
 
 
 def main():

@@ -23,13 +23,10 @@ import argparse
 import json
 import subprocess
 import sys
-import time
 from functools import partial
-from pathlib import Path
 
 import numpy as np
-
-sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
+from _timing import best_time  # noqa: E402
 
 from skfunc.utils import all_estimators  # noqa: E402
 
@@ -74,15 +71,6 @@ def fit_case(name, cls, t, X, s=None, S=None):
     """A fresh estimator of a case, fitted."""
     make, call = CASES[name]
     return call(make(cls, t), X, s, S)
-
-
-def best_time(func, repeat):
-    best = np.inf
-    for _ in range(repeat):
-        start = time.perf_counter()
-        func()
-        best = min(best, time.perf_counter() - start)
-    return best
 
 
 # ---------------------------------------------------------------------------

@@ -13,34 +13,14 @@ Run ``python tests/benchmarks/bench_smoother.py`` (full sizes) or with
 """
 
 import argparse
-import sys
-import time
 import tracemalloc
-from pathlib import Path
 
 import numpy as np
+from _timing import best_time, best_times  # first: puts the repository on sys.path
 from scipy.interpolate import make_smoothing_spline
 from threadpoolctl import threadpool_limits
 
-sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
-
 from skfunc.preprocessing import CurveSmoother  # noqa: E402
-
-
-def best_time(func, repeat):
-    return best_times([func], repeat)[0]
-
-
-def best_times(funcs, repeat):
-    """Best wall time of each function, interleaving the repeats so that a
-    busy machine slows all of them alike."""
-    best = [np.inf] * len(funcs)
-    for _ in range(repeat):
-        for i, func in enumerate(funcs):
-            start = time.perf_counter()
-            func()
-            best[i] = min(best[i], time.perf_counter() - start)
-    return best
 
 
 def noisy_curves(n, m, rng):

@@ -1,0 +1,746 @@
+"""SparseFunctionalPCA: principal components of curves seen at a few times each.
+
+The method of Yao, Mueller and Wang (2005), principal components analysis
+through conditional expectation, built on the package's penalized engine:
+
+1. **Mean.** All observed values are pooled and the mean function is a
+   penalized B-spline fit to them, on one
+   :class:`~skfunc._penalized.SplitPath` with alpha chosen among the
+   package's candidates by cross-validation over curves (:class:`_CurveFoldFit`).
+   Observations share the columns of the NaN-padded matrix, so the fit needs
+   only the count, sum and sum of squares per column (and fold of rows).
+2. **Covariance.** Raw covariances ``(y_ij - mu(t_ij)) (y_il - mu(t_il))``
+   of pairs of *different* observations of one curve (the diagonal
+   ``j = l`` carries the measurement error and is left out) are pooled in
+   cells of a grid of at most ``max_covariance_points`` squared points and
+   smoothed by a penalized tensor-product B-spline surface. Per cell the fit
+   needs the number of pairs and the sums of the products and of their
+   squares, accumulated from sparse products in time linear in the number
+   of pairs.
+3. **Components.** The eigenproblem ``int G(s, t) phi(t) dt = lambda phi(s)``
+   of the smoothed surface in L2 of the domain, solved exactly in the basis
+   (``J^{1/2} C J^{1/2}`` with ``J`` the exact Gram matrix); negative
+   eigenvalues are dropped.
+4. **Measurement error.** The variance ``sigma^2`` is the average over the
+   middle half of the domain of the smoothed pooled squared residuals
+   ``V(t)`` minus the surface's diagonal ``G(t, t)`` (Yao et al., 2005,
+   eq. 2).
+5. **Scores.** The best linear predictor (the conditional expectation for
+   Gaussian curves) of each score from the curve's own observations,
+   ``xi_i = Lambda Phi_i' (Phi_i Lambda Phi_i' + sigma^2 I)^{-1} (y_i - mu_i)``,
+   computed in the K x K form ``(sigma^2 Lambda^{-1} + Phi_i' Phi_i)^{-1}
+   Phi_i' (y_i - mu_i)`` (Woodbury), one small system per curve.
+"""
+
+import warnings
+from numbers import Integral, Real
+
+import numpy as np
+import scipy.sparse
+from scipy.stats import norm
+from sklearn.base import BaseEstimator, ClassNamePrefixFeaturesOutMixin, TransformerMixin
+from sklearn.utils import Bunch
+from sklearn.utils._param_validation import Interval, RealNotInt, StrOptions
+from sklearn.utils.validation import check_is_fitted
+
+from ._alpha import (
+    ALPHA_CONSTRAINT,
+    AUTO,
+    best_index,
+    candidate_alphas,
+    check_alpha,
+    choose_alpha,
+)
+from ._bases import BSplineBasis, default_n_basis, gram_sqrt
+from ._blocks import row_blocks
+from ._dask import check_rows
+from ._docstrings import fill_doc
+from ._estimator import ShortReprMixin, store_init_params
+from ._fit import check_finite_fit
+from ._fpca import _single_thread, sign_convention
+from ._penalized import (
+    NotIdentifiableError,
+    Penalty,
+    SplitPath,
+    penalty_for,
+    power_of_two_scale,
+)
+from ._validation import check_level, resolve_n_basis, validate_curves
+
+#: cap on the number of B-splines per direction of the covariance surface:
+#: the tensor product has this number squared coefficients (225), which a
+#: penalized fit on at most 100 x 100 cells determines easily; with the
+#: roughness penalty the exact number matters little (Eilers and Marx 1996)
+MAX_COVARIANCE_BASIS = 15
+
+#: eigenvalues below this fraction of the largest are rounding, not variance
+#: (a symmetric eigensolver's error is about 1e-16 K times the largest; 1e-10
+#: leaves a wide margin for K <= 225)
+EIGEN_RTOL = 1e-10
+
+#: floor of the measurement-error variance, relative to the average pointwise
+#: variance: sqrt(machine epsilon) keeps the K x K systems
+#: ``sigma^2 / lambda + Phi' Phi`` solvable in double precision for curves
+#: observed without error (the estimate is then near zero or negative)
+NOISE_FLOOR = np.sqrt(np.finfo(float).eps)
+
+#: Gauss-Legendre nodes for the integral defining sigma^2 over the middle half
+#: of the domain: exact for the cubic-spline integrand on up to 30 knot spans,
+#: and far below the statistical error otherwise
+_NOISE_NODES = 64
+
+#: folds of curves for choosing alpha by cross-validation (10-fold
+#: cross-validation: common practice)
+CV_FOLDS = 10
+
+#: fraction of observed cells above which the covariance sums use dense
+#: products (BLAS) instead of sparse ones; both give the same sums
+_DENSE_FRACTION = 0.1
+
+
+def _observations(X):
+    """Rows, columns and values of the observed (non-NaN) entries of X."""
+    mask = ~np.isnan(X)
+    rows, cols = np.nonzero(mask)
+    return rows, cols, X[rows, cols]
+
+
+def _bspline(domain, n_basis, n_points, degree):
+    """B-splines on ``domain``: ``n_basis`` functions, or the default rule on
+    ``n_points`` distinct times; the degree lowered on tiny grids."""
+    if n_basis is None:
+        n_basis = default_n_basis("bspline", n_points, degree)
+    else:  # the one size limit, checked before any K x K matrix exists
+        n_basis = resolve_n_basis("bspline", n_basis, n_points, degree, cap=False)
+    degree = min(degree, n_basis - 1)
+    return BSplineBasis(domain, n_basis, degree=degree)
+
+
+class _CurveFoldFit:
+    """A penalized least-squares fit from sums per fold of curves, with
+    alpha chosen by cross-validation over curves.
+
+    Observations of one curve are correlated, so criteria that treat pooled
+    observations as independent (GCV) undersmooth; leaving out whole curves
+    does not (Rice and Silverman, 1991). Rows of X are dealt to
+    :data:`CV_FOLDS` folds in turn (row ``i`` to fold ``i mod 10``); for each
+    fold the fit on the other folds, for every candidate alpha, is scored by
+    its squared error on the fold's observations, all from additive sums
+    (``grams[f]``, ``rhs[f]``, ``yy[f]``). Candidates and the choice follow
+    the package's one rule (:func:`skfunc._alpha.candidate_alphas`,
+    :func:`skfunc._alpha.best_index`), and alpha means the same in every fold
+    (the whole data's ``scale``).
+    """
+
+    def __init__(self, grams, n_obs, penalty, what, parameter):
+        self.grams, self.n_obs, self.penalty = grams, float(n_obs), penalty
+        self.total = grams.sum(axis=0)
+        try:
+            self.path = SplitPath(self.total, penalty)
+        except NotIdentifiableError as exc:
+            raise ValueError(
+                f"The observations do not determine the {what}: the B-splines "
+                f"({parameter}) and the roughness penalty leave functions that "
+                "no observation pins down. Use a lower penalty_order or observe "
+                "more distinct times."
+            ) from exc
+
+    def _fold_paths(self):
+        """The decomposition without each fold (None where that leaves the fit
+        undetermined), built once and shared by every right-hand side."""
+        if not hasattr(self, "_folds"):
+            self._folds = []
+            for gram in self.grams:
+                try:
+                    fold = SplitPath(self.total - gram, self.penalty, scale=self.path.scale)
+                except NotIdentifiableError:
+                    fold = None
+                self._folds.append(fold)
+        return self._folds
+
+    def solve(self, rhs, yy, alpha):
+        """Coefficients and the alpha used (chosen when ``alpha`` asks)."""
+        path = self.path
+        total = rhs.sum(axis=0)
+        rotated = path.rotate(total)
+        value = check_alpha(alpha)
+        if isinstance(value, float):
+            return path.coef(rotated, value), value
+        alphas = candidate_alphas(path) if value is AUTO else value
+        scores, used = np.zeros(alphas.size), 0
+        for fold, gram, b, y2 in zip(self._fold_paths(), self.grams, rhs, yy):
+            if fold is None:
+                continue  # the other folds alone cannot determine the fit
+            coefs = (fold.rotate(total - b) / fold.denominators(alphas)) @ fold.eigvecs.T
+            scores += y2 - 2 * coefs @ b + np.einsum("lk,kj,lj->l", coefs, gram, coefs)
+            used += 1
+        if used == 0:  # every fold is needed to identify the fit: GCV instead
+            choice = choose_alpha(path, rotated, float(np.sum(yy)), self.n_obs, value)
+            return path.coef(rotated, choice["alpha"]), float(choice["alpha"])
+        best = alphas[best_index(scores, alphas, criterion="cross-validation over curves")]
+        return path.coef(rotated, best), float(best)
+
+
+def _tensor_penalty(basis, order):
+    """The penalty ``int int (d_s^q G)^2 + (d_t^q G)^2`` of a tensor-product
+    surface ``G(s, t) = sum_ab C_ab psi_a(s) psi_b(t)`` (one weight for both
+    directions: the covariance is symmetric), split into its exact null
+    space (products of the one-dimensional null spaces) and complement."""
+    rough, gram = basis.unit_roughness(order), basis.unit_gram()
+    null = basis.null_space(order)
+    return Penalty(
+        np.kron(rough, gram) + np.kron(gram, rough), np.kron(null, null), np.kron(gram, gram)
+    )
+
+
+def _tensor_gram(psi, weights):
+    """``sum_JL N_JL kron(psi_J, psi_L) kron(psi_J, psi_L)'`` in (a, b) order."""
+    k = psi.shape[1]
+    pairs = (psi[:, :, None] * psi[:, None, :]).reshape(psi.shape[0], k * k)
+    out = (pairs.T @ weights @ pairs).reshape(k, k, k, k)
+    return out.transpose(0, 2, 1, 3).reshape(k * k, k * k)
+
+
+def covariance_sums(rows, bins, residuals, n_rows, n_bins):
+    """Sums over pairs of different observations of one curve, per cell.
+
+    Returns ``(N, C, Q)``, each (n_bins, n_bins): the number of ordered pairs
+    ``(j, l)``, ``j != l``, of observations of one curve falling in cells
+    ``(J, L)``, and the sums of ``r_j r_l`` and of ``r_j^2 r_l^2``. With
+    ``R[i, J]`` the sum of curve i's residuals in bin J, ``R'R`` sums all
+    ordered pairs, the same observation twice included; subtracting the
+    per-bin sums of ``r^2`` removes exactly those. Sparse products cost
+    O(sum_i n_i^2), linear in the observations for bounded ``n_i``.
+    """
+    ones = np.ones_like(residuals)
+    squares = residuals**2
+    dense = bins.size > _DENSE_FRACTION * n_rows * n_bins
+    out = []
+    for values, diagonal in ((ones, ones), (residuals, squares), (squares, squares**2)):
+        matrix = scipy.sparse.csr_matrix((values, (rows, bins)), shape=(n_rows, n_bins))
+        if dense:
+            matrix = matrix.toarray()
+            product = matrix.T @ matrix
+        else:
+            product = (matrix.T @ matrix).toarray()
+        product -= np.diag(np.bincount(bins, diagonal, minlength=n_bins))
+        out.append(product)
+    return tuple(out)
+
+
+@fill_doc
+class SparseFunctionalPCA(ShortReprMixin, ClassNamePrefixFeaturesOutMixin, TransformerMixin,
+                          BaseEstimator):
+    """Functional principal components of sparse, irregularly observed curves.
+
+    Each row of ``X`` is a curve observed at a few of the grid's points:
+    NaN marks every point where that curve was not observed (the NaN-padded
+    matrix of :func:`skfunc.irregular.curves_from_table`). Observations are
+    pooled across curves to estimate a smooth mean function and a smooth
+    covariance surface, whose eigenfunctions in L2 are the components; each
+    curve's scores are then predicted from its own few observations by
+    conditional expectation (Yao, Mueller and Wang, 2005). So curves with
+    2 to 10 readings each, at different times, give component scores that
+    any scikit-learn model can use, in a :class:`~sklearn.pipeline.Pipeline`.
+    Dense curves may be passed too: the method then agrees with
+    :class:`~skfunc.decomposition.FunctionalPCA` up to smoothing.
+
+    Parameters
+    ----------
+    n_components : int, float or None, default=None
+        Number of components to keep: an int up to the number of positive
+        eigenvalues of the smoothed covariance; a float in (0, 1] keeps the
+        fewest components whose eigenvalues add up to at least that fraction
+        of the sum of positive eigenvalues; None keeps every component with
+        a positive eigenvalue.
+    n_basis : int, default=None
+        Number of cubic B-splines of the mean function (and of the smoothed
+        pointwise variance). None means the package's default rule on the
+        number of distinct observed times (4 + min(times // 4, 35)).
+    covariance_n_basis : int, default=None
+        Number of B-splines per direction of the covariance surface. None
+        means the same rule on the covariance grid, capped at 15.
+    degree : int, default=3
+        Degree of the B-splines (lowered on grids of very few points).
+    penalty_order : int, default=2
+        Derivative order ``q`` of the roughness penalties: ``int (D^q mu)^2``
+        for the mean, ``int int (d_s^q G)^2 + (d_t^q G)^2`` for the surface.
+    alpha : "auto", float or array-like, default="auto"
+        Roughness penalty of the mean (and of the pointwise variance):
+        "auto" chooses it by 10-fold cross-validation over curves (see
+        Notes), a number
+        fixes it (unit-free: the same number smooths alike on any time
+        unit and data scale), an array gives the candidates.
+    covariance_alpha : "auto", float or array-like, default="auto"
+        Roughness penalty of the covariance surface, in the same forms,
+        chosen by the same cross-validation over curves.
+    noise_variance : "auto" or float, default="auto"
+        Variance ``sigma^2`` of the measurement error. "auto" estimates it
+        from the data (see Notes); a number >= 0 fixes it (in the units of
+        X squared).
+    max_covariance_points : int, default=100
+        Raw covariances are pooled on a grid of at most this many points per
+        direction: the curves' grid when it is no longer, else this many
+        equal-width bins of the domain, each placed at the mean time of its
+        observations. This bounds the surface fit at this number squared
+        cells whatever the number of curves or distinct times.
+    %(grid)s
+
+    Attributes
+    ----------
+    grid_ : ndarray of shape (n_features,)
+        The grid of the columns of X.
+    mean_ : ndarray of shape (n_features,)
+        The smoothed mean function on ``grid_``.
+    mean_basis_coef_ : ndarray of shape (n_basis_,)
+        Its B-spline coefficients.
+    components_ : ndarray of shape (n_components_, n_features)
+        The eigenfunctions on ``grid_``, orthonormal in L2 of the domain,
+        in decreasing order of eigenvalue; the value of largest magnitude of
+        each is positive.
+    components_basis_coef_ : ndarray of shape (n_components_, covariance_n_basis_)
+        Their B-spline coefficients.
+    covariance_basis_coef_ : ndarray of shape (covariance_n_basis_, covariance_n_basis_)
+        Coefficients ``C`` of the smoothed covariance surface
+        ``G(s, t) = psi(s)' C psi(t)``.
+    explained_variance_ : ndarray of shape (n_components_,)
+        The eigenvalues: variances of the scores ``int (x - mu) phi_k``.
+    explained_variance_ratio_ : ndarray of shape (n_components_,)
+        Eigenvalues over the sum of all positive eigenvalues.
+    noise_variance_ : float
+        The measurement-error variance used by the scores.
+    alpha_ : float
+        The mean's roughness penalty (chosen or given).
+    covariance_alpha_ : float
+        The surface's roughness penalty (chosen or given).
+    covariance_points_ : ndarray of shape (n_cells,)
+        Times of the covariance grid (per direction).
+    n_components_ : int
+        Number of components kept.
+    n_basis_ : int
+        Number of B-splines of the mean.
+    covariance_n_basis_ : int
+        Number of B-splines per direction of the surface.
+    degree_ : int
+        Degree of the mean's B-splines (``degree``, lowered on tiny grids).
+    covariance_degree_ : int
+        Degree of the surface's B-splines.
+    n_observations_ : int
+        Number of observed values (non-NaN entries) in the fit.
+    %(curve_input_attributes)s
+
+    See Also
+    --------
+    skfunc.decomposition.FunctionalPCA : Components of curves observed
+        densely on one grid (no NaN).
+    skfunc.irregular.curves_from_table : The NaN-padded matrix from a long
+        table of (sample, time, value) rows.
+    skfunc.preprocessing.CurveSmoother : Fills gaps of densely observed
+        curves, one curve at a time.
+
+    Notes
+    -----
+    The mean and the covariance are pooled over observations and pairs of
+    observations, equally weighted (Yao et al., 2005); the covariance is
+    therefore an average of products with denominator the number of pairs,
+    not ``n - 1``. The observations of one curve are correlated, so the
+    smoothing parameters are chosen by leaving out whole curves (rows are
+    dealt to 10 folds in turn, row ``i`` to fold ``i mod 10``; Rice and
+    Silverman, 1991) rather than by GCV, which treats pooled observations
+    as independent and undersmooths. Candidates span the effective degrees
+    of freedom and ties and edges follow the package's one rule; alpha is
+    unit-free.
+
+    The measurement-error variance is ``(2 / |T|) int_{T_1} (V(t) - G(t, t))
+    dt`` over the middle half ``T_1`` of the domain ``T``, with ``V`` the
+    smoothed pooled squared residuals (Yao et al., 2005, eq. 2); it is
+    floored at ``sqrt(eps)`` times the average of ``V`` so that curves
+    observed without error still give well-posed scores.
+
+    The bands of :meth:`predict_curves` are pointwise, from the conditional
+    covariance of the scores given a curve's observations (Yao et al., 2005,
+    sec. 3); they treat the mean, components and variances as known, so
+    they do not include the estimation error of the fit nor the components
+    left out. Scores are predictions, not measurements: two curves with the
+    same true scores but different observation times get different
+    predictions.
+
+    Fitting takes two passes over the observations (the covariance needs the
+    smoothed mean), so there is no ``partial_fit``; :meth:`transform` is
+    row by row.
+
+    %(cautions)s
+
+    References
+    ----------
+    Yao, F., Mueller, H.-G. and Wang, J.-L. (2005). Functional data analysis
+    for sparse longitudinal data. *Journal of the American Statistical
+    Association* 100(470), 577-590.
+
+    Rice, J. A. and Silverman, B. W. (1991). Estimating the mean and
+    covariance structure nonparametrically when the data are curves.
+    *Journal of the Royal Statistical Society, Series B* 53(1), 233-243.
+
+    Eilers, P. H. C. and Marx, B. D. (1996). Flexible smoothing with
+    B-splines and penalties. *Statistical Science* 11(2), 89-121.
+
+    Wood, S. N. (2006). Low-rank scale-invariant tensor product smooths for
+    generalized additive mixed models. *Biometrics* 62(4), 1025-1036.
+
+    Examples
+    --------
+    Invented kiln-firing runs whose temperature was read by hand at five
+    random minutes of each run (NaN elsewhere):
+
+    >>> import numpy as np
+    >>> from skfunc.datasets import make_kiln_firing
+    >>> from skfunc.decomposition import SparseFunctionalPCA
+    >>> minutes = np.arange(0, 600, 10.0)
+    >>> runs = make_kiln_firing(150, grid=minutes, dropout_fraction=0,
+    ...                         late_start_fraction=0, random_state=0)
+    >>> rng = np.random.default_rng(0)
+    >>> keep = rng.random(runs.data.shape).argsort(axis=1) < 5
+    >>> sparse = np.where(keep, runs.data, np.nan)
+    >>> fpca = SparseFunctionalPCA(n_components=2, grid=minutes).fit(sparse)
+    >>> fpca.transform(sparse).shape
+    (150, 2)
+    >>> band = fpca.predict_curves(sparse[:3], level=0.9)
+    >>> band.curves.shape, bool(np.all(band.lower <= band.upper))
+    ((3, 60), True)
+    """
+
+    _parameter_constraints = {
+        "n_components": [
+            Interval(Integral, 1, None, closed="left"),
+            Interval(RealNotInt, 0, 1, closed="right"),
+            None,
+        ],
+        "n_basis": [Interval(Integral, 1, None, closed="left"), None],
+        "covariance_n_basis": [Interval(Integral, 1, None, closed="left"), None],
+        "degree": [Interval(Integral, 0, None, closed="left")],
+        "penalty_order": [Interval(Integral, 1, None, closed="left")],
+        "alpha": ALPHA_CONSTRAINT,
+        "covariance_alpha": ALPHA_CONSTRAINT,
+        "noise_variance": [Interval(Real, 0, None, closed="left"), StrOptions({"auto"})],
+        "max_covariance_points": [Interval(Integral, 3, None, closed="left")],
+        "grid": ["array-like", None],
+    }
+
+    def __init__(
+        self,
+        n_components=None,
+        *,
+        n_basis=None,
+        covariance_n_basis=None,
+        degree=3,
+        penalty_order=2,
+        alpha="auto",
+        covariance_alpha="auto",
+        noise_variance="auto",
+        max_covariance_points=100,
+        grid=None,
+    ):
+        store_init_params(self, locals())
+
+    def __sklearn_tags__(self):
+        tags = super().__sklearn_tags__()
+        tags.input_tags.allow_nan = True
+        return tags
+
+    # ------------------------------------------------------------------ fit
+    @fill_doc
+    def fit(self, X, y=None):
+        """Estimate the mean, covariance, components and noise variance.
+
+        Parameters
+        ----------
+        X : array-like of shape (n_samples, n_features)
+            Curves, one per row, on the grid; NaN where a curve was not
+            observed. Every row needs at least one observed value.
+        %(y_ignored_returns_transformer)s
+        """
+        self._validate_params()
+        X = validate_curves(self, X, reset=True, allow_nan=True, ensure_min_samples=2)
+        grid = self.grid_
+        domain = (grid[0], grid[-1])
+        rows, cols, values = _observations(X)
+        scale = power_of_two_scale(values)
+        values = values / scale
+        m = grid.size
+        counts = np.bincount(cols, minlength=m).astype(np.float64)
+        seen = np.flatnonzero(counts)
+        if seen.size < 2:
+            raise ValueError(
+                f"X has observed values at {seen.size} distinct grid point; "
+                "SparseFunctionalPCA needs at least 2 distinct observation times "
+                "to estimate a covariance between times."
+            )
+
+        # 1. the mean: pooled observations, sums per column and fold of rows
+        folds = np.arange(X.shape[0]) % min(CV_FOLDS, X.shape[0])
+        n_folds = int(folds.max()) + 1
+        obs_fold = folds[rows]
+        per_fold = obs_fold * m + cols
+        fold_counts = np.bincount(per_fold, minlength=n_folds * m).reshape(n_folds, m)
+        basis = _bspline(domain, self.n_basis, seen.size, self.degree)
+        phi = basis.evaluate(grid)
+        grams = np.einsum("ja,fj,jb->fab", phi, fold_counts, phi)
+        mean_fit = _CurveFoldFit(
+            grams, values.size, penalty_for(basis, self.penalty_order), "mean", "n_basis"
+        )
+
+        def fold_sums(weights):
+            return np.bincount(per_fold, weights, minlength=n_folds * m).reshape(n_folds, m)
+
+        mean_coef, mean_alpha = mean_fit.solve(
+            fold_sums(values) @ phi, np.bincount(obs_fold, values**2, minlength=n_folds),
+            self.alpha,
+        )
+        mean = phi @ mean_coef
+        residuals = values - mean[cols]
+
+        # 2. the covariance: pairs of different observations, pooled per cell
+        column_bin, points = self._covariance_grid(grid, counts)
+        bins = cols if column_bin is None else column_bin[cols]
+        n_cells = np.unique(bins).size
+        if n_cells < 3:
+            # two times give one covariance between them: a constant surface
+            warnings.warn(
+                "X has observed values at only 2 distinct times (or covariance "
+                "cells), so the covariance surface is taken as constant: one "
+                "component, constant in time. Observe at least 3 distinct times "
+                "for a surface that varies.",
+                UserWarning,
+                stacklevel=2,
+            )
+            cbasis = BSplineBasis(domain, 1, degree=0)
+        else:
+            cbasis = _bspline(domain, self._covariance_n_basis(n_cells), n_cells,
+                              self.degree)
+        psi = cbasis.evaluate(points)
+        k = cbasis.n_basis
+        sums = [
+            covariance_sums(rows[obs_fold == f], bins[obs_fold == f],
+                            residuals[obs_fold == f], X.shape[0], points.size)
+            for f in range(n_folds)
+        ]
+        if sum(float(n_pairs.sum()) for n_pairs, _, _ in sums) == 0:
+            raise ValueError(
+                "No curve of X has two or more observed values: the covariance "
+                "between times is estimated from pairs of observations of the "
+                "same curve."
+            )
+        with _single_thread(k * k):
+            cov_fit = _CurveFoldFit(
+                np.array([_tensor_gram(psi, n_pairs) for n_pairs, _, _ in sums]),
+                sum(float(n_pairs.sum()) for n_pairs, _, _ in sums),
+                _tensor_penalty(cbasis, self.penalty_order), "covariance surface",
+                "covariance_n_basis",
+            )
+            cov_coef, cov_alpha = cov_fit.solve(
+                np.array([(psi.T @ cross @ psi).ravel() for _, cross, _ in sums]),
+                np.array([fourth.sum() for _, _, fourth in sums]),
+                self.covariance_alpha,
+            )
+        cov_coef = cov_coef.reshape(k, k)
+        cov_coef = (cov_coef + cov_coef.T) / 2
+
+        # 3. the eigenproblem in L2, exact in the basis
+        root, inv_root = gram_sqrt(cbasis.gram())
+        eigvals, eigvecs = np.linalg.eigh(root @ cov_coef @ root)
+        eigvals, eigvecs = eigvals[::-1], eigvecs[:, ::-1]
+        positive = eigvals > EIGEN_RTOL * max(eigvals[0], 0.0)
+        if not positive.any():
+            # nothing varies between times: keep the leading direction with
+            # a negligible variance, so that every score is predicted as ~0
+            warnings.warn(
+                "The smoothed covariance has no positive eigenvalue: the curves "
+                "show no variation between times beyond measurement error. One "
+                "component is kept with a negligible variance (scores near 0).",
+                UserWarning,
+                stacklevel=2,
+            )
+            positive[0] = True
+            eigvals = eigvals.copy()
+            eigvals[0] = NOISE_FLOOR * max(float(np.mean(residuals**2)), np.finfo(float).tiny) * (
+                domain[1] - domain[0])
+        eigvals, eigvecs = eigvals[positive], eigvecs[:, positive]
+        n_keep = self._n_keep(eigvals)
+        coef = (inv_root @ eigvecs[:, :n_keep]).T
+        components = coef @ cbasis.evaluate(grid).T
+        signs = sign_convention(components)
+
+        # 4. the measurement-error variance
+        variance_coef, _ = mean_fit.solve(
+            fold_sums(residuals**2) @ phi,
+            np.bincount(obs_fold, residuals**4, minlength=n_folds), self.alpha,
+        )
+        noise = self._noise(basis, cbasis, variance_coef, cov_coef, domain, scale)
+
+        self.n_basis_, self.degree_ = basis.n_basis, basis.degree
+        self.covariance_n_basis_, self.covariance_degree_ = k, cbasis.degree
+        self.alpha_ = mean_alpha
+        self.covariance_alpha_ = cov_alpha
+        self.mean_basis_coef_ = mean_coef * scale
+        self.mean_ = mean * scale
+        self.covariance_basis_coef_ = cov_coef * scale**2
+        self.covariance_points_ = points
+        self.components_basis_coef_ = coef * signs[:, None]
+        self.components_ = components * signs[:, None]
+        self.explained_variance_ = eigvals[:n_keep] * scale**2
+        self.explained_variance_ratio_ = eigvals[:n_keep] / eigvals.sum()
+        self.noise_variance_ = noise
+        self.n_components_ = int(n_keep)
+        self.n_observations_ = int(values.size)
+        return check_finite_fit(self)
+
+    def _covariance_n_basis(self, n_points):
+        if self.covariance_n_basis is not None:
+            return self.covariance_n_basis
+        return min(default_n_basis("bspline", n_points, self.degree), MAX_COVARIANCE_BASIS)
+
+    def _covariance_grid(self, grid, counts):
+        """Bin of each grid column and the time of each bin (see
+        ``max_covariance_points``)."""
+        if grid.size <= self.max_covariance_points:
+            return None, grid
+        edges = np.linspace(grid[0], grid[-1], self.max_covariance_points + 1)
+        column_bin = np.clip(np.searchsorted(edges, grid, side="right") - 1, 0,
+                             self.max_covariance_points - 1)
+        weight = np.bincount(column_bin, counts, minlength=edges.size - 1)
+        mean_time = np.bincount(column_bin, counts * grid, minlength=edges.size - 1)
+        centres = (edges[:-1] + edges[1:]) / 2
+        points = np.where(weight > 0, mean_time / np.where(weight > 0, weight, 1), centres)
+        return column_bin, points
+
+    def _n_keep(self, eigvals):
+        n = self.n_components
+        if n is None:
+            return eigvals.size
+        if isinstance(n, Integral):
+            if n > eigvals.size:
+                raise ValueError(
+                    f"n_components={n} exceeds the {eigvals.size} positive "
+                    "eigenvalue(s) of the smoothed covariance; use at most "
+                    f"{eigvals.size}, a fraction of variance, or None."
+                )
+            return n
+        cumulative = np.cumsum(eigvals) / eigvals.sum()
+        return int(np.searchsorted(cumulative, n - 1e-12)) + 1
+
+    def _noise(self, basis, cbasis, variance_coef, cov_coef, domain, scale):
+        if self.noise_variance != "auto":
+            return float(self.noise_variance)
+        a, b = domain
+        nodes, weights = np.polynomial.legendre.leggauss(_NOISE_NODES)
+        t = (a + b) / 2 + (b - a) / 4 * nodes  # the middle half [a + L/4, b - L/4]
+        w = weights * (b - a) / 4
+        pointwise = basis.evaluate(t) @ variance_coef
+        psi = cbasis.evaluate(t)
+        diagonal = np.einsum("ja,ab,jb->j", psi, cov_coef, psi)
+        estimate = 2 / (b - a) * w @ (pointwise - diagonal)
+        floor = NOISE_FLOOR * max(w @ pointwise / w.sum(), np.finfo(float).tiny)
+        return float(max(estimate, floor) * scale**2)
+
+    @property
+    def _n_features_out(self):
+        return self.n_components_
+
+    # ---------------------------------------------------------- transforms
+    def _conditional(self, X):
+        """Scores and their conditional covariances, row block by row block."""
+        k = self.n_components_
+        comps = self.components_
+        pairs = (comps[:, None, :] * comps[None, :, :]).reshape(k * k, -1).T
+        ratio = self.noise_variance_ / self.explained_variance_
+        scores = np.empty((X.shape[0], k))
+        covs = np.empty((X.shape[0], k, k))
+        for rows in row_blocks(*X.shape):
+            block = np.asarray(X[rows], dtype=np.float64)
+            observed = ~np.isnan(block)
+            resid = np.where(observed, block - self.mean_, 0.0)
+            system = (observed @ pairs).reshape(-1, k, k)  # Phi_i' Phi_i
+            system[:, np.arange(k), np.arange(k)] += ratio
+            inverse = np.linalg.inv(system)
+            scores[rows] = np.einsum("nab,nb->na", inverse, resid @ comps.T)
+            covs[rows] = self.noise_variance_ * inverse
+        return scores, covs
+
+    def _validate(self, X):
+        check_is_fitted(self)
+        return validate_curves(self, X, reset=False, allow_nan=True)
+
+    def transform(self, X):
+        """Scores by conditional expectation from each curve's observations.
+
+        Parameters
+        ----------
+        X : array-like of shape (n_samples, n_features)
+            Curves on the fitted grid, NaN where not observed.
+
+        Returns
+        -------
+        scores : ndarray of shape (n_samples, n_components_)
+            ``E[xi_k | observations]`` under the fitted model (the best
+            linear predictor).
+        """
+        return self._conditional(self._validate(X))[0]
+
+    def inverse_transform(self, X):
+        """Curves on ``grid_`` with the given scores: ``mean_ + X @ components_``.
+
+        Parameters
+        ----------
+        X : array-like of shape (n_samples, n_components_)
+            Scores, as returned by :meth:`transform`.
+
+        Returns
+        -------
+        curves : ndarray of shape (n_samples, n_features_in_)
+            The predicted whole curves (for bands, :meth:`predict_curves`).
+        """
+        check_is_fitted(self)
+        X = check_rows(X, self.n_components_, "scores per row (n_components_)")
+        return np.asarray(X, dtype=np.float64) @ self.components_ + self.mean_
+
+    def predict_curves(self, X, *, level=0.95, eval_points=None):
+        """Predicted whole curves with pointwise bands.
+
+        Parameters
+        ----------
+        X : array-like of shape (n_samples, n_features)
+            Curves on the fitted grid, NaN where not observed.
+        level : float, default=0.95
+            Pointwise coverage of the bands, in (0, 1).
+        eval_points : array-like of shape (n_points,), default=None
+            Times at which to predict, inside the grid's range; None means
+            ``grid_``.
+
+        Returns
+        -------
+        result : :class:`~sklearn.utils.Bunch`
+            ``eval_points``; ``curves``, ``lower``, ``upper`` of shape
+            (n_samples, n_points): ``mean + scores @ components`` and
+            ``curves -+ z sd``, with ``sd(t)^2 = phi(t)' Omega_i phi(t)`` and
+            ``Omega_i`` the conditional covariance of curve i's scores (Yao
+            et al., 2005, sec. 3; see Notes of the class).
+        """
+        level = check_level(level)
+        scores, covs = self._conditional(self._validate(X))
+        if eval_points is None:
+            points, comps, mean = self.grid_, self.components_, self.mean_
+        else:
+            points = np.asarray(eval_points, dtype=np.float64)
+            if points.ndim != 1 or not np.all(np.isfinite(points)):
+                raise ValueError("eval_points must be a 1-D array of finite times.")
+            domain = (self.grid_[0], self.grid_[-1])
+            basis = BSplineBasis(domain, self.n_basis_, degree=self.degree_)
+            cbasis = BSplineBasis(domain, self.covariance_n_basis_,
+                                  degree=self.covariance_degree_)
+            comps = self.components_basis_coef_ @ cbasis.evaluate(points).T
+            mean = basis.evaluate(points) @ self.mean_basis_coef_
+        curves = scores @ comps + mean
+        sd = np.sqrt(np.maximum(np.einsum("ap,nab,bp->np", comps, covs, comps), 0.0))
+        z = norm.ppf(0.5 + level / 2)
+        return Bunch(eval_points=points, curves=curves, lower=curves - z * sd,
+                     upper=curves + z * sd)

@@ -1,0 +1,399 @@
+"""Warping functions on a grid: interpolation, composition, inversion,
+square-root slope functions and the vectorised dynamic program.
+
+A warp ``gamma`` is a strictly increasing map of the domain ``[a, b]`` onto
+itself with ``gamma(a) = a`` and ``gamma(b) = b``, stored as its values on the
+curves' grid (one row per curve). Aligning a curve ``x`` means replacing it by
+``x o gamma``. Every routine here works on all rows at once.
+"""
+
+from math import gcd
+
+import numpy as np
+
+from ._grid import quadrature_weights
+
+#: steps (di, dj) of the dynamic program: coprime pairs with 1 <= di, dj <= 4,
+#: so warps are piecewise linear with slopes between 1/4 and 4
+DP_STEPS = tuple(
+    (di, dj) for di in range(1, 5) for dj in range(1, 5) if gcd(di, dj) == 1
+)
+
+
+def interp_rows(x_new, grid, Y):
+    """Linear interpolation of each row of ``Y`` (values on ``grid``) at
+    ``x_new``, constant beyond the ends.
+
+    ``x_new`` has shape (k,) (the same points for every row) or (n, k) (its
+    own points per row, fastest when each row is sorted). Returns an (n, k)
+    array.
+    """
+    x_new = np.asarray(x_new, dtype=np.float64)
+    if x_new.ndim == 1:
+        idx = np.clip(np.searchsorted(grid, x_new, side="right") - 1, 0, grid.size - 2)
+        left = grid[idx]
+        frac = np.clip((x_new - left) / (grid[idx + 1] - left), 0.0, 1.0)
+        return Y[:, idx] * (1.0 - frac) + Y[:, idx + 1] * frac
+    # one np.interp over the rows of a block laid end to end: each row's
+    # points are clipped to the domain (constant beyond the ends) and offset
+    # past the previous row, so np.interp's search starts next to the
+    # answer; blocks keep the offsets (and their rounding) small
+    n, m = Y.shape
+    a, b = grid[0], grid[-1]
+    out = np.empty(x_new.shape)
+    block = 4096
+    offset = (np.arange(min(n, block), dtype=np.float64) * (2.0 * (b - a)))[:, None]
+    for start in range(0, n, block):
+        rows = slice(start, min(start + block, n))
+        off = offset[: rows.stop - start]
+        query = np.clip(x_new[rows], a, b)
+        query += off
+        out[rows] = np.interp(
+            query.ravel(), (grid[None, :] + off).ravel(), Y[rows].ravel()
+        ).reshape(query.shape)
+    return out
+
+
+def interp_monotone(x_new, xp, fp):
+    """Row-wise ``np.interp(x_new[i], xp[i], fp[i])`` for non-decreasing rows
+    of ``xp``, vectorised with one ``searchsorted`` over offset rows.
+
+    ``x_new`` has shape (k,) or (n, k); ``xp`` and ``fp`` have shape (n, m).
+    Constant beyond the ends of each row.
+    """
+    xp = np.asarray(xp, dtype=np.float64)
+    fp = np.broadcast_to(np.asarray(fp, dtype=np.float64), xp.shape)
+    n, m = xp.shape
+    x_new = np.broadcast_to(np.asarray(x_new, dtype=np.float64), (n, np.shape(x_new)[-1]))
+    lo = min(xp.min(), x_new.min())
+    span = max(xp.max(), x_new.max()) - lo + 1.0
+    offset = (np.arange(n) * 2.0 * span)[:, None]
+    flat = (xp - lo + offset).ravel()
+    query = x_new - lo + offset
+    pos = np.searchsorted(flat, query.ravel(), side="right").reshape(query.shape) - 1
+    rows = np.arange(n)[:, None] * m
+    pos = np.clip(pos, rows, rows + m - 2)
+    x0, x1 = flat[pos], flat[pos + 1]
+    f_flat = fp.ravel()
+    f0, f1 = f_flat[pos], f_flat[pos + 1]
+    step = x1 - x0
+    with np.errstate(invalid="ignore", divide="ignore"):
+        frac = np.where(step > 0, (query - x0) / step, 0.0)
+    return f0 + (f1 - f0) * np.clip(frac, 0.0, 1.0)
+
+
+def compose(grid, F, warps):
+    """``F[i] o warps[i]`` on the grid, for every row."""
+    return interp_rows(warps, grid, F)
+
+
+def invert_warps(grid, warps):
+    """Inverse warps on the grid: ``gamma^{-1}(t_j)`` for every row."""
+    return interp_monotone(grid, warps, grid)
+
+
+def derivative(grid, Y):
+    """First derivative of each row by second-order finite differences
+    (first order on a 2-point grid), correct on uneven grids."""
+    return np.gradient(Y, grid, axis=1, edge_order=2 if grid.size >= 3 else 1)
+
+
+def srsf(grid, F):
+    """Square-root slope functions ``q = sign(f') sqrt(|f'|)`` of the rows.
+
+    References
+    ----------
+    Srivastava, A., Wu, W., Kurtek, S., Klassen, E. and Marron, J. S. (2011).
+    Registration of functional data using Fisher-Rao metric.
+    arXiv:1103.3817, eq. (1).
+    """
+    d = derivative(grid, F)
+    return np.sign(d) * np.sqrt(np.abs(d))
+
+
+def srsf_to_curve(grid, Q, start):
+    """Curves with square-root slope functions ``Q`` and values ``start``
+    at the left end: ``f(t) = f(a) + int_a^t q |q|`` (trapezoid rule)."""
+    speed = Q * np.abs(Q)
+    steps = 0.5 * (speed[:, 1:] + speed[:, :-1]) * np.diff(grid)
+    out = np.empty_like(Q)
+    out[:, 0] = start
+    out[:, 1:] = start[:, None] + np.cumsum(steps, axis=1)
+    return out
+
+
+def warp_srsf(grid, Q, warps):
+    """``(q o gamma) sqrt(gamma')``: the action of warps on square-root slope
+    functions, under which the L2 distance is invariant."""
+    slope = np.clip(derivative(grid, warps), 0.0, None)
+    return compose(grid, Q, warps) * np.sqrt(slope)
+
+
+def l2_norms(grid, Y):
+    """L2 norms of the rows (trapezoid rule on the grid)."""
+    w = quadrature_weights(grid)
+    return np.sqrt(np.clip((Y * Y) @ w, 0.0, None))
+
+
+def warp_coordinates(grid, warps):
+    """L2-orthonormal coordinates of the warps' departures from the identity:
+    ``sqrt(w_j) (gamma(t_j) - t_j)``, so that Euclidean distances between
+    rows equal L2 distances between warps."""
+    return (warps - grid) * np.sqrt(quadrature_weights(grid))
+
+
+def phase_distances(grid, warps):
+    """Fisher-Rao (arc-length) distance of each warp to the identity:
+    ``arccos( int sqrt(gamma') / (b - a) )``, the angle between the warp's
+    square-root slope function and the identity's on the sphere."""
+    psi = np.sqrt(np.clip(derivative(grid, warps), 0.0, None))
+    inner = psi @ quadrature_weights(grid) / (grid[-1] - grid[0])
+    return np.arccos(np.clip(inner, -1.0, 1.0))
+
+
+def partial_weights(grid, lo, hi):
+    """Weights ``W`` (k, m) with ``W[i] @ f(grid)`` the exact integral over
+    ``[lo[i], hi[i]]`` of the piecewise-linear interpolant of ``f``."""
+    return _cumulative_hat_integrals(grid, hi) - _cumulative_hat_integrals(grid, lo)
+
+
+def _cumulative_hat_integrals(grid, x):
+    """``int_a^x phi_j`` for the piecewise-linear hat functions ``phi_j`` on
+    the grid, shape (len(x), m)."""
+    x = np.clip(np.asarray(x, dtype=np.float64), grid[0], grid[-1])[:, None]
+    h = np.diff(grid)
+    h_left = np.concatenate([[0.0], h])[None, :]  # width of the hat's left half
+    h_right = np.concatenate([h, [0.0]])[None, :]
+    t = grid[None, :]
+    # left half: rises from t_{j-1} to t_j
+    u = np.clip(x - (t - h_left), 0.0, h_left)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        left = np.where(h_left > 0, u * u / (2.0 * h_left), 0.0)
+        v = np.clip(x - t, 0.0, h_right)
+        right = np.where(h_right > 0, v - v * v / (2.0 * h_right), 0.0)
+    return left + right
+
+
+def dynamic_program_warps(grid, q_template, Q, penalty=0.0):
+    """Warps aligning square-root slope functions ``Q`` to ``q_template``.
+
+    Minimises, over piecewise-linear warps ``phi`` through grid points with
+    steps ``DP_STEPS``, ``||q_template - (q o phi) sqrt(phi')||^2 + penalty *
+    ||q_template||^2 / (b - a) * int (sqrt(phi') - 1)^2``: the Fisher-Rao
+    amplitude criterion (Srivastava et al. 2011, section 3.3) plus an optional
+    roughness penalty on the warp, scaled so that ``penalty`` has no units.
+    Each segment's integral uses Simpson's rule with the curve interpolated
+    at the segment's midpoint.
+
+    The recursion runs one row of the table at a time for all curves of a
+    block and all columns at once; only the minima are kept in the forward
+    pass, and the steps are recovered along the optimal path when walking
+    back.
+
+    Parameters
+    ----------
+    grid : ndarray of shape (m,)
+    q_template : ndarray of shape (m,) or (n, m)
+        One template for all curves, or one per curve.
+    Q : ndarray of shape (n, m)
+    penalty : float
+
+    Returns
+    -------
+    phi : ndarray of shape (n, m)
+        ``phi[i]`` on the grid; ``curve_i o phi[i]`` is aligned to the
+        template.
+    """
+    n, m = Q.shape
+    q1 = np.atleast_2d(q_template)
+    out = np.empty((n, m))
+    block = max(1, DP_TABLE_VALUES // (m * m))
+    for start in range(0, n, block):
+        rows = slice(start, start + block)
+        out[rows] = _DynamicProgram(
+            grid, q1 if q1.shape[0] == 1 else q1[rows], Q[rows], penalty
+        ).warps()
+    return out
+
+
+#: values of the dynamic-programming table held at once (curves are
+#: processed in blocks of DP_TABLE_VALUES // m^2)
+DP_TABLE_VALUES = 6_000_000
+
+
+class _DynamicProgram:
+    """The table of minimal energies for a block of curves and its path."""
+
+    def __init__(self, grid, q_template, Q, penalty):
+        t = self.t = grid
+        m = t.size
+        # one template for every curve (1, m), or one per curve (n, m)
+        self.q1 = np.atleast_2d(np.asarray(q_template, dtype=np.float64))
+        self.Q = Q
+        self.steps = [(di, dj) for di, dj in DP_STEPS if di < m and dj < m]
+        self.pen = penalty * (
+            (self.q1 ** 2) @ quadrature_weights(t) / (t[-1] - t[0])
+        )[:, None]
+        # curve-side pieces per dj: 4 x the midpoint values and Simpson's
+        # rule for int q^2 over [t_l, t_{l+dj}], shape (n, m - dj)
+        self.mid4, self.sq = {}, {}
+        for dj in {dj for _, dj in self.steps}:
+            qm = interp_rows(0.5 * (t[:-dj] + t[dj:]), t, Q)
+            self.mid4[dj] = 4.0 * qm
+            self.sq[dj] = ((t[dj:] - t[:-dj]) / 6.0) * (
+                Q[:, :-dj] ** 2 + Q[:, dj:] ** 2 + 4.0 * qm * qm
+            )
+
+    def _template_side(self, i, k, rows=None):
+        """Segment [t_k, t_i] of the template: length, end and midpoint
+        values and Simpson's rule for int q1^2. Scalars i, k give (n1, 1)
+        columns; arrays i, k (S, r) of the curves ``rows`` give (S, r)."""
+        t, q1 = self.t, self.q1
+        h = t[i] - t[k]
+        if rows is None:
+            q1k, q1i = q1[:, k, None], q1[:, i, None]
+            q1m = interp_rows(np.array([0.5 * (t[i] + t[k])]), t, q1)
+        else:
+            which = rows if q1.shape[0] > 1 else np.zeros_like(rows)
+            q1k, q1i = q1[which, k], q1[which, i]
+            mid = 0.5 * (t[i] + t[k])
+            idx = np.clip(np.searchsorted(t, mid, side="right") - 1, 0, t.size - 2)
+            frac = (mid - t[idx]) / (t[idx + 1] - t[idx])
+            q1m = q1[which, idx] * (1.0 - frac) + q1[which, idx + 1] * frac
+        return h, q1k, q1i, q1m, h / 6.0 * (q1k ** 2 + q1i ** 2 + 4.0 * q1m * q1m)
+
+    def warps(self):
+        t, Q = self.t, self.Q
+        n, m = Q.shape
+        energy = np.full((m, n, m), np.inf)
+        energy[0, :, 0] = 0.0
+        cand = np.empty((n, m))
+        for i in range(1, m):
+            row = energy[i]
+            for di, dj in self.steps:
+                if di > i:
+                    continue
+                k = i - di
+                h, q1k, q1i, q1m, a1 = self._template_side(i, k)
+                r = np.sqrt((t[dj:] - t[:-dj]) / h)
+                c = cand[:, dj:]
+                np.multiply(Q[:, :-dj], q1k, out=c)
+                c += q1i * Q[:, dj:]
+                c += q1m * self.mid4[dj]
+                c *= -(h / 3.0) * r
+                c += self.sq[dj]
+                c += energy[k, :, :-dj]
+                c += a1 + self.pen * h * (r - 1.0) ** 2
+                np.minimum(row[:, dj:], c, out=row[:, dj:])
+        self.energy = energy
+        return self._backtrack()
+
+    def _backtrack(self):
+        """Walk back from (m-1, m-1), choosing at each cell the step whose
+        predecessor energy plus segment cost is smallest (all steps and all
+        curves at once)."""
+        t, Q, energy = self.t, self.Q, self.energy
+        n, m = Q.shape
+        di = np.array([s[0] for s in self.steps])[:, None]
+        dj = np.array([s[1] for s in self.steps])[:, None]
+        # midpoint values and squares per step, padded to m columns
+        mid4 = np.zeros((len(self.steps), n, m))
+        sq = np.zeros((len(self.steps), n, m))
+        for s, (_, step_j) in enumerate(self.steps):
+            mid4[s, :, : m - step_j] = self.mid4[step_j]
+            sq[s, :, : m - step_j] = self.sq[step_j]
+        phi = np.empty((n, m))
+        phi[:, -1] = t[-1]
+        i = np.full(n, m - 1)
+        j = np.full(n, m - 1)
+        rows = np.arange(n)
+        steps_idx = np.arange(len(self.steps))[:, None]
+        while True:
+            r = rows[i > 0]
+            if r.size == 0:
+                break
+            ir, jr = i[r][None, :], j[r][None, :]
+            k, ll = ir - di, jr - dj
+            ok = (k >= 0) & (ll >= 0)
+            k, ll = np.maximum(k, 0), np.maximum(ll, 0)
+            h, q1k, q1i, q1m, a1 = self._template_side(ir, k, r[None, :])
+            h = np.where(ok, h, 1.0)
+            rr = np.sqrt((t[jr] - t[ll]) / h)
+            pen = self.pen[r if self.pen.shape[0] > 1 else 0, 0]
+            cost = (
+                -(h / 3.0) * rr * (
+                    q1k * Q[r, ll] + q1i * Q[r, jr] + q1m * mid4[steps_idx, r, ll]
+                )
+                + sq[steps_idx, r, ll] + energy[k, r, ll] + a1
+                + pen * h * (rr - 1.0) ** 2
+            )
+            best = np.argmin(np.where(ok, cost, np.inf), axis=0)
+            cols = np.arange(r.size)
+            bk, bl = k[best, cols], ll[best, cols]
+            ir, jr = ir[0], jr[0]
+            slope = (t[jr] - t[bl]) / (t[ir] - t[bk])
+            for offset in range(int(di.max())):
+                col = ir - 1 - offset
+                fill = col >= bk
+                phi[r[fill], col[fill]] = t[bl[fill]] + slope[fill] * (
+                    t[col[fill]] - t[bk[fill]]
+                )
+            i[r], j[r] = bk, bl
+        return phi
+
+
+def pchip_rows(knots, values, x):
+    """Monotone piecewise-cubic (PCHIP) interpolation with its own knots per
+    row: ``knots`` and ``values`` of shape (n, k), points ``x`` of shape (p,).
+
+    The slopes at the knots are the weighted harmonic means of Fritsch and
+    Butland (zero where the data turn), with the three-point end rule, as in
+    ``scipy.interpolate.PchipInterpolator``; vectorised over rows.
+
+    References
+    ----------
+    Fritsch, F. N. and Carlson, R. E. (1980). Monotone piecewise cubic
+    interpolation. *SIAM J. Numer. Anal.* 17(2), 238-246.
+    """
+    xk = np.asarray(knots, dtype=np.float64)
+    yk = np.asarray(values, dtype=np.float64)
+    n, k = xk.shape
+    h = np.diff(xk, axis=1)
+    delta = np.diff(yk, axis=1) / h
+    d = np.zeros_like(yk)
+    if k == 2:
+        d[:] = delta
+    else:
+        w1 = 2 * h[:, 1:] + h[:, :-1]
+        w2 = h[:, 1:] + 2 * h[:, :-1]
+        same = (np.sign(delta[:, 1:]) == np.sign(delta[:, :-1])) & (delta[:, 1:] != 0) \
+            & (delta[:, :-1] != 0)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            inner = (w1 + w2) / (w1 / delta[:, :-1] + w2 / delta[:, 1:])
+        d[:, 1:-1] = np.where(same, inner, 0.0)
+        d[:, 0] = _pchip_end(h[:, 0], h[:, 1], delta[:, 0], delta[:, 1])
+        d[:, -1] = _pchip_end(h[:, -1], h[:, -2], delta[:, -1], delta[:, -2])
+    x = np.asarray(x, dtype=np.float64)
+    pos = interp_monotone(x, xk, np.arange(k, dtype=np.float64))
+    seg = np.clip(np.floor(pos).astype(int), 0, k - 2)
+    x0 = np.take_along_axis(xk, seg, axis=1)
+    hh = np.take_along_axis(h, seg, axis=1)
+    s = (x[None, :] - x0) / hh
+    y0 = np.take_along_axis(yk, seg, axis=1)
+    y1 = np.take_along_axis(yk, seg + 1, axis=1)
+    d0 = np.take_along_axis(d, seg, axis=1)
+    d1 = np.take_along_axis(d, seg + 1, axis=1)
+    # cubic Hermite basis on [0, 1]
+    h00 = (1 + 2 * s) * (1 - s) ** 2
+    h10 = s * (1 - s) ** 2
+    h01 = s * s * (3 - 2 * s)
+    h11 = s * s * (s - 1)
+    return h00 * y0 + h10 * hh * d0 + h01 * y1 + h11 * hh * d1
+
+
+def _pchip_end(h0, h1, m0, m1):
+    """One-sided three-point slope at an end, kept shape-preserving."""
+    d = ((2 * h0 + h1) * m0 - h0 * m1) / (h0 + h1)
+    d = np.where(np.sign(d) != np.sign(m0), 0.0, d)
+    return np.where((np.sign(m0) != np.sign(m1)) & (np.abs(d) > 3 * np.abs(m0)),
+                    3 * m0, d)
