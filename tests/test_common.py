@@ -195,8 +195,8 @@ _CURVE_RESPONSE = ("FunctionOnScalarRidge", "FunctionOnFunctionRidge",
 def _fitted_values(name, est, X):
     """What must not depend on units, in the data's units: smoothed curves,
     reconstructions, predictions."""
-    if name == "CurveSmoother":
-        return est.transform(X)
+    if name == "CurveSmoother" or name.endswith("Aligner"):
+        return est.transform(X)  # smoothed or aligned curves
     if hasattr(est, "inverse_transform"):
         return est.inverse_transform(est.transform(X))
     if hasattr(est, "predict_proba"):
@@ -215,6 +215,9 @@ def _unit_case(name, alpha, moved):
         if name == "CurveSmoother":
             params["eval_points"] = None
         X = X * X_SCALE
+        template = estimator.get_params().get("template")
+        if template is not None:  # a template curve is data: in X's units
+            params["template"] = np.asarray(template) * X_SCALE
         if name in _CURVE_RESPONSE:
             y = y * Y_SCALE
     elif name == "CurveSmoother":
@@ -239,7 +242,10 @@ def test_unit_invariance(name, alpha):
         pytest.xfail("FunctionalPCA has no automatic choice of alpha yet")
     base, X = _unit_case(name, alpha, moved=False)
     moved, X_moved = _unit_case(name, alpha, moved=True)
-    out_scale = X_SCALE if name in ("CurveSmoother", "BasisFeatures", "FunctionalPCA") else (
+    if name == "SparseFunctionalPCA":
+        pytest.xfail("SparseFunctionalPCA's alpha is not yet unit-free")
+    out_scale = X_SCALE if name in ("CurveSmoother", "BasisFeatures", "FunctionalPCA")  \
+        or name.endswith("Aligner") else (
         Y_SCALE if name in _CURVE_RESPONSE else 1.0)
     if getattr(base, "alpha_", None) is not None:
         np.testing.assert_allclose(moved.alpha_, base.alpha_, rtol=1e-8)
