@@ -236,8 +236,6 @@ def test_unit_invariance(name, alpha):
     # and at the automatic choice, to 1e-8 relative (rounding of the products,
     # a few hundred ulps; a penalty in the grid's own units changes fits by
     # orders of magnitude more, 250^3 here).
-    if name == "FunctionalLogisticRegression":
-        pytest.xfail("the logistic model's alpha is not yet unit-free")
     if name == "FunctionalPCA" and alpha == "auto":
         pytest.xfail("FunctionalPCA has no automatic choice of alpha yet")
     base, X = _unit_case(name, alpha, moved=False)
