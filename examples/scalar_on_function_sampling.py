@@ -54,7 +54,7 @@ def main():
     betas = {}
     for name, t in grids.items():
         X = interp1d(fine, runs, axis=1, kind="cubic")(t)
-        functional = FunctionalRidgeCV(alphas=alphas, grid=t)
+        functional = FunctionalRidgeCV(grid=t)
         raw = RidgeCV(alphas=alphas)
         r2_functional = cross_val_score(functional, X, strength, cv=5).mean()
         r2_raw = cross_val_score(raw, X, strength, cv=5).mean()

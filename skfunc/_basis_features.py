@@ -1,49 +1,48 @@
 """BasisFeatures: curves to L2-orthonormal basis coordinates."""
 
-from numbers import Real
-
 import numpy as np
 from sklearn.base import BaseEstimator, TransformerMixin
-from sklearn.utils._param_validation import Interval
+from sklearn.utils._param_validation import StrOptions
 from sklearn.utils.validation import (
     _check_feature_names_in,
     check_is_fitted,
 )
 
+from ._alpha import ALPHA_CONSTRAINT, CRITERIA
 from ._bases import gram_sqrt
 from ._blocks import chunked_matmul
 from ._dask import check_rows
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._fit import AdditiveTransformerMixin
-from ._grid import quadrature_weights
-from ._penalized import PenalizedPath
+from ._grid import DATA_TERMS
+from ._smoother import PenalizedFitMixin
 from ._validation import BASIS_CONSTRAINTS, basis_for, validate_curves
 
 
-def orthonormal_operators(basis, grid, weights, alpha=0.0, penalty_order=2):
+def orthonormal_operators(basis, grid, weights):
     """Operators between curves on ``grid`` and L2-orthonormal coordinates.
 
     Returns ``(projection, reconstruction)``: ``projection`` (K, m) maps a
-    curve's values to the coordinates ``G^{1/2} c`` of its penalized
+    curve's values to the coordinates ``G^{1/2} c`` of its (unpenalized)
     weighted least-squares fit, ``reconstruction`` (m, K) maps coordinates
     back to values on the grid.
     """
     phi = basis.evaluate(grid)
     phi_w = phi * weights[:, None]
-    penalty = basis.penalty(penalty_order) if alpha > 0 else None
-    path = PenalizedPath(phi_w.T @ phi, penalty)
     root, inv_root = gram_sqrt(basis.gram())
-    return root @ path.operator(alpha) @ phi_w.T, phi @ inv_root
+    return root @ np.linalg.solve(phi_w.T @ phi, phi_w.T), phi @ inv_root
 
 
 @fill_doc
-class BasisFeatures(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
+class BasisFeatures(PenalizedFitMixin, AdditiveTransformerMixin, TransformerMixin,
+                    BaseEstimator):
     """Project sampled curves onto a basis, in L2-orthonormal coordinates.
 
-    Each row of ``X`` is a curve sampled on a grid. It is fitted by
-    quadrature-weighted least squares in a basis (B-splines, Fourier or
-    Legendre polynomials), optionally with a roughness penalty, and the
+    Each row of ``X`` is a curve sampled on a grid. It is fitted in a basis
+    (B-splines, Fourier or Legendre polynomials) by penalized least squares,
+    exactly as :class:`CurveSmoother` fits it (same data term, same
+    unit-free alpha, chosen from the training curves by default), and the
     fitted function is returned as its coordinates in an L2-orthonormal
     version of that basis (obtained with the exact Gram matrix). Euclidean
     distances and inner products between output rows therefore equal L2
@@ -54,36 +53,23 @@ class BasisFeatures(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
 
     Parameters
     ----------
-    basis : {"bspline", "fourier", "legendre"}, default="bspline"
-        Basis system. Fourier is periodic on the grid's domain; Legendre
-        polynomials are shifted to it.
-    n_basis : int, default=None
-        Number of basis functions. None means the basis' default (20
-        B-splines, 21 Fourier functions, 12 Legendre polynomials) capped by
-        the number of grid points. With ``alpha=0`` it may not exceed the
-        number of grid points.
-    degree : int, default=3
-        Degree of the B-splines (3: cubic). Ignored by the other bases.
-    interior_knots : array-like of shape (n_knots,), default=None
-        Interior knots of the B-splines, strictly inside the domain; None
-        means evenly spaced. When given, ``n_basis`` follows from it.
-    alpha : float, default=0.0
-        Roughness penalty ``alpha * int (D^q f)^2`` added to the weighted
-        least-squares criterion; 0 for plain projection.
-    penalty_order : int, default=2
-        Derivative order ``q`` of the roughness penalty.
-    grid : array-like of shape (n_features,), default=None
-        Sampling points of the columns of ``X``. None means the numeric column
-        labels of a DataFrame, else evenly spaced points on [0, 1].
+    %(basis)s
+    %(period)s
+    %(alpha)s
+    data_term : {"mean", "integral"}, default="mean"
+        Data term of the fit: the mean squared error over the grid points,
+        or quadrature weights (``int (x - f)^2``); see :class:`CurveSmoother`.
+    %(grid)s
     quadrature : {"trapezoid", "simpson"}, default="trapezoid"
-        Quadrature rule for the weights of the least-squares fit.
+        Quadrature rule of the weights with ``data_term="integral"``.
 
     Attributes
     ----------
     grid_ : ndarray of shape (n_features,)
         The grid used at fit.
-    quadrature_weights_ : ndarray of shape (n_features,)
-        Quadrature weights on ``grid_``.
+    %(alpha_attributes)s
+    edf_ : float
+        Effective degrees of freedom of the fit at ``alpha_``.
     n_basis_ : int
         Number of basis functions (output features).
     gram_ : ndarray of shape (n_basis_, n_basis_)
@@ -105,11 +91,13 @@ class BasisFeatures(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
 
     Notes
     -----
-    The fit minimises ``sum_j w_j (x_j - f(t_j))^2 + alpha int (D^q f)^2``
-    over ``f = sum_k c_k phi_k``, with quadrature weights ``w``, and returns
-    ``G^{1/2} c`` for the exact Gram matrix ``G``. The operator depends on
-    the grid, not on the curves, so :meth:`partial_fit` only validates
-    further batches against the first one's grid.
+    The fit minimises ``(1 / sum w) sum_j w_j (x_j - f(t_j))^2 + alpha * s *
+    int_0^1 (D^q f)^2 du`` over ``f = sum_k c_k phi_k`` (see
+    :class:`CurveSmoother` and :doc:`/bases_and_penalties`) and returns
+    ``G^{1/2} c`` for the exact Gram matrix ``G``. With ``alpha="auto"`` the
+    curves enter through additive criterion statistics (pooled GCV or REML),
+    so :meth:`partial_fit` equals :meth:`fit` on all batches; the operator
+    itself depends on the grid and alpha only.
 
     Dask arrays are accepted: ``fit`` validates them block by block on the
     workers, and ``transform`` returns a lazy dask array computed block by
@@ -126,7 +114,7 @@ class BasisFeatures(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
     >>> from skfunc.preprocessing import BasisFeatures
     >>> t = np.linspace(0, 1, 101)
     >>> X = np.array([np.sin(2 * np.pi * t), np.cos(2 * np.pi * t)])
-    >>> features = BasisFeatures(basis="fourier", n_basis=3).fit(X)
+    >>> features = BasisFeatures(basis="fourier", n_basis=3, alpha=0, period=1).fit(X)
     >>> Z = features.transform(X)
     >>> Z.shape
     (2, 3)
@@ -139,30 +127,31 @@ class BasisFeatures(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
 
     _parameter_constraints = {
         **BASIS_CONSTRAINTS,
-        "alpha": [Interval(Real, 0, None, closed="left")],
+        "alpha": ALPHA_CONSTRAINT,
+        "criterion": [StrOptions(set(CRITERIA))],
+        "data_term": [StrOptions(set(DATA_TERMS))],
     }
 
     def __init__(self, basis="bspline", n_basis=None, *, degree=3, interior_knots=None,
-                 alpha=0.0, penalty_order=2, grid=None, quadrature="trapezoid"):
+                 penalty_order=2, period=None, alpha="auto", criterion="gcv",
+                 data_term="mean", grid=None, quadrature="trapezoid"):
         store_init_params(self, locals())
 
     def _validate_batch(self, X, y, sample_weight, first):
-        return (validate_curves(self, X, reset=first),)
-
-    def _statistics(self, X):
-        """The row count: the operator depends on the grid only."""
-        return {"n_samples": X.shape[0]}
+        X = validate_curves(self, X, reset=first)
+        if first:
+            self._setup_alphas(X, self._problem())
+        return (X,)
 
     def _solve(self, stats):
         """The projection and reconstruction operators on ``grid_``."""
-        basis = basis_for(self, self.grid_, cap=self.alpha == 0)
-        w = quadrature_weights(self.grid_, self.quadrature)
-        self.quadrature_weights_ = w
+        problem, operator = self._choose(stats)
+        basis = problem.basis
+        root, inv_root = gram_sqrt(basis.gram())
         self.n_basis_ = basis.n_basis
         self.gram_ = basis.gram()
-        self.projection_, self.reconstruction_ = orthonormal_operators(
-            basis, self.grid_, w, self.alpha, self.penalty_order
-        )
+        self.projection_ = root @ operator @ (problem.phi * problem.weights()[:, None]).T
+        self.reconstruction_ = problem.phi @ inv_root
 
     def transform(self, X):
         """Coordinates of each curve's fitted function in the orthonormal basis.

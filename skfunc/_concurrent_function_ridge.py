@@ -2,9 +2,9 @@
 points, ``Y_i(t) = beta_0(t) + beta_1(t) X_i(t)``."""
 
 import numpy as np
-from scipy.linalg import block_diag
 from sklearn.utils.validation import check_is_fitted
 
+from ._alpha import check_alpha, reml_score
 from ._blocks import compute_statistics, is_dask_array
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
@@ -12,11 +12,13 @@ from ._fit import check_finite_fit
 from ._function_response import (
     RESPONSE_PARAMETER_CONSTRAINTS,
     CurveResponseRegressor,
-    check_alphas,
     check_in_domain,
+    choose_from_scores,
+    free_penalty,
+    resolve_candidates,
     validate_response,
 )
-from ._penalized import PenalizedPath, gcv_score
+from ._penalized import NotIdentifiableError, SplitPath, gcv_score, penalty_for
 from ._validation import validate_curves
 from ._weights import check_sample_weight
 
@@ -36,14 +38,15 @@ class ConcurrentFunctionRidge(CurveResponseRegressor):
     the input grid (the values themselves where the points are on it), and
     both coefficient functions in a basis on the response grid, fitted by
     quadrature-weighted least squares with the roughness penalty ``alpha
-    int [(D^q beta_0)^2 + (D^q beta_1)^2] dt``, ``alpha`` fixed or chosen by
-    generalised cross-validation among ``alphas``. For ``Y_i(t)`` from the
+    int (D^q beta_1)^2 dt`` on the slope (``beta_0`` unpenalized), ``alpha``
+    fixed or chosen by GCV or REML (``criterion``). For ``Y_i(t)`` from the
     whole input curve, see :class:`FunctionOnFunctionRidge`.
 
     Parameters
     ----------
-    %(curve_response_alpha)s
+    %(alpha)s
     %(basis)s
+    %(period)s
     grid : array-like of shape (n_features,), default=None
         Sampling points of the columns of ``X``. None means the numeric
         column labels of a DataFrame, else evenly spaced points on [0, 1].
@@ -121,8 +124,8 @@ class ConcurrentFunctionRidge(CurveResponseRegressor):
         "grid": ["array-like", None],
     }
 
-    def __init__(self, alpha=None, *, alphas=None, basis="bspline", n_basis=None,
-                 degree=3, interior_knots=None, penalty_order=2, grid=None,
+    def __init__(self, alpha="auto", *, criterion="gcv", basis="bspline", n_basis=None,
+                 degree=3, interior_knots=None, penalty_order=2, period=None, grid=None,
                  response_grid=None, quadrature="trapezoid"):
         store_init_params(self, locals())
 
@@ -163,7 +166,7 @@ class ConcurrentFunctionRidge(CurveResponseRegressor):
         return check_finite_fit(self)
 
     def _validate_batch(self, X, y, sample_weight, first):
-        check_alphas(self.alphas)
+        check_alpha(self.alpha)
         if is_dask_array(X) or is_dask_array(y):
             X, y_valid = validate_curves(self, X, y, reset=first, multi_output=True)
         else:
@@ -220,34 +223,59 @@ class ConcurrentFunctionRidge(CurveResponseRegressor):
         }
 
     def _normal_matrix(self, stats, phi_w, phi):
-        """Normal matrix of the (beta_0, beta_1) coefficients, (2K, 2K)."""
+        """Normal matrix of the (beta_1, beta_0) coefficients, (2K, 2K):
+        the penalized slope first, the unpenalized intercept last."""
         def block(values):
             return (phi_w * values[:, None]).T @ phi
 
         off = block(stats["x"])
-        return np.block([[block(np.full(phi.shape[0], stats["sw"])), off],
-                         [off.T, block(stats["xx"])]])
+        return np.block([[block(stats["xx"]), off.T],
+                         [off, block(np.full(phi.shape[0], stats["sw"]))]])
 
-    def _solve(self, stats):
-        """Penalized least squares for (beta_0, beta_1); GCV over ``alphas``."""
+    def _path(self, stats):
+        """The split path of (beta_1, beta_0): beta_1's roughness penalty on
+        [0, 1] with its null space exact, beta_0 unpenalized; and the basis,
+        weights and basis values."""
         basis, weights = self._response_basis()
         phi = basis.evaluate(self.response_grid_)
         phi_w = phi * weights[:, None]
-        penalty = self._penalty(basis)
-        path = PenalizedPath(self._normal_matrix(stats, phi_w, phi),
-                             None if self.alpha == 0 else block_diag(penalty, penalty))
-        rot = path.rotate(np.concatenate([stats["y"] @ phi_w, stats["xy"] @ phi_w])[None])
-        candidates = self._candidates(path.scale)
-        rss = stats["yy"] @ weights - path.rss_reduction(rot, candidates)[0]
-        edf = path.edf(candidates)
-        sw = stats["sw"]
-        criterion = gcv_score(
-            np.maximum(rss, 0), edf, sw * weights.size, sw * weights.sum()
-        )
-        best = int(np.argmin(criterion))
-        K = phi.shape[1]
-        self._store(basis, path.coef(rot, candidates[best])[0].reshape(2, K),
-                    np.full((2 * K, 2 * K), np.nan), candidates, criterion, edf, best)
+        slope = (free_penalty(basis.n_basis) if self._unpenalized()
+                 else penalty_for(basis, self.penalty_order))
+        penalty = slope.extend(basis.n_basis)
+        try:
+            path = SplitPath(self._normal_matrix(stats, phi_w, phi), penalty)
+        except NotIdentifiableError as exc:
+            raise NotIdentifiableError(
+                f"ConcurrentFunctionRidge: {exc} The intercept function is "
+                "unpenalized: use fewer basis functions (n_basis) than grid points."
+            ) from exc
+        return path, basis, weights, phi_w
+
+    def _solve(self, stats):
+        """Penalized least squares for (beta_0, beta_1); alpha by GCV or REML."""
+        path, basis, weights, phi_w = self._path(stats)
+        rot = path.rotate(np.concatenate([stats["xy"] @ phi_w, stats["y"] @ phi_w])[None])
+        alphas = resolve_candidates(self.alpha, path.s, path.scale)
+        sw, m = stats["sw"], weights.size
+        yy_w = stats["yy"] @ weights
+
+        def scores(values, criterion):
+            if criterion == "reml":
+                return reml_score(yy_w - path.penalized_rss_reduction(rot, values)[0],
+                                  sw * m - path.n_null, path.log_det_ratio(values))
+            rss = np.maximum(yy_w - path.rss_reduction(rot, values)[0], 0.0)
+            return gcv_score(rss, path.edf(values), sw * m, sw * weights.sum())
+
+        try:
+            best, criterion = choose_from_scores(self, alphas, scores)
+            coef = path.coef(rot, alphas[best])[0]
+        except NotIdentifiableError as exc:
+            raise NotIdentifiableError(
+                f"ConcurrentFunctionRidge: {exc}"
+            ) from exc
+        K = basis.n_basis
+        self._store(basis, coef.reshape(2, K)[::-1], np.full((2 * K, 2 * K), np.nan),
+                    alphas, criterion, path.edf(alphas), best)
 
     def _score_products(self, X, y, sample_weight):
         """``sum w g g'`` of the curves' score contributions at the fit,
@@ -264,11 +292,10 @@ class ConcurrentFunctionRidge(CurveResponseRegressor):
         """Sandwich covariance ``H^-1 (sum w g g') H^-1`` of the basis coefs,
         ``H`` the penalized normal matrix; the factor ``sw / (sw - 2)``
         corrects for the two fitted functions."""
-        basis, weights = self._response_basis()
-        phi = basis.evaluate(self.response_grid_)
-        normal = self._normal_matrix(stats, phi * weights[:, None], phi)
-        penalty = block_diag(*[self._penalty(basis)] * 2)
-        bread = np.linalg.pinv(normal + self.alpha_ * penalty, hermitian=True)
+        path, basis, _, _ = self._path(stats)
+        K = basis.n_basis
+        order = np.r_[np.arange(K, 2 * K), np.arange(K)]  # to (beta_0, beta_1)
+        bread = path.operator(self.alpha_)[np.ix_(order, order)]
         sw = stats["sw"]
         factor = sw / (sw - 2) if sw > 2 else np.nan
         return factor * bread @ meat @ bread

@@ -197,7 +197,7 @@ def functional_search(minutes, cv, memory=None, n_jobs=None):
 
     pipe = Pipeline(
         [
-            ("smooth", skfunc.CurveSmoother(grid=minutes, n_basis=40, alpha="gcv")),
+            ("smooth", skfunc.CurveSmoother(grid=minutes, n_basis=40)),
             ("fpca", skfunc.FunctionalPCA(grid=minutes, basis="bspline", n_basis=25)),
             ("regression", Ridge()),
         ],

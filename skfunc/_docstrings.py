@@ -12,13 +12,15 @@ import textwrap
 _FRAGMENTS = {
     "basis": """
 basis : {"bspline", "fourier", "legendre"}, default="bspline"
-    Basis system of the fitted functions. Fourier is periodic on the
-    grid's domain; Legendre polynomials are shifted to it.
+    Basis system of the fitted functions. Fourier is periodic with
+    ``period``; Legendre polynomials are shifted to the grid's domain.
 n_basis : int, default=None
-    Number of basis functions. None means the basis' default (20 B-splines,
-    21 Fourier functions, 12 Legendre polynomials) capped by the number of
-    grid points. Without a penalty (``alpha=0``) it may not exceed the
-    number of grid points.
+    Number of basis functions. None follows P-spline practice (a generous
+    basis, the penalty controls smoothness): ``degree + 1 + min(m // 4,
+    35)`` B-splines on ``m`` grid points, the same count made odd for
+    Fourier, at most 12 Legendre polynomials, never more than ``m``.
+    Without a penalty (``alpha=0``) it may not exceed the number of grid
+    points.
 degree : int, default=3
     Degree of the B-splines (3: cubic). Ignored by the other bases.
 interior_knots : array-like of shape (n_knots,), default=None
@@ -27,6 +29,38 @@ interior_knots : array-like of shape (n_knots,), default=None
     given, ``n_basis`` follows from it: ``n_knots + degree + 1``.
 penalty_order : int, default=2
     Derivative order ``q`` of the roughness penalty ``int (D^q f)^2``.
+""",
+    "alpha": """
+alpha : "auto", float or array-like, default="auto"
+    Weight of the roughness penalty. Unit-free: the same number gives the
+    same fit whatever the grid's unit or origin and the data's scale (see
+    :doc:`/bases_and_penalties`). ``"auto"`` chooses it from the training
+    data by ``criterion`` among candidates spanning every fit from nearly
+    unpenalized to the penalty's null space; a number >= 0 fixes it (0: no
+    penalty); an array of numbers > 0 gives the candidates to choose from.
+criterion : {"gcv", "reml"}, default="gcv"
+    How alpha is chosen when it is not fixed: generalized cross-validation
+    (Craven and Wahba, 1979) or the restricted likelihood of the
+    mixed-model form (REML; Wood, 2011), which undersmooths less often.
+""",
+    "alpha_attributes": """
+alpha_ : float
+    The alpha used: the choice, or the given number.
+alphas_path_ : ndarray of shape (n_alphas,)
+    The candidates (``[alpha]`` when alpha is fixed).
+criterion_path_ : ndarray of shape (n_alphas,) or None
+    Criterion of each candidate (lower is better; inf where undefined);
+    None when alpha is fixed.
+edf_path_ : ndarray of shape (n_alphas,)
+    Effective degrees of freedom of each candidate.
+""",
+    "period": """
+period : float, default=None
+    Period of the Fourier basis (ignored by the other bases). None means
+    the grid's range plus one mean grid step, ``(t_{m-1} - t_0) m / (m -
+    1)``: the grid is one cycle whose last point comes one step before the
+    next cycle's first. Pass it when the grid closes the cycle, or when
+    exact resolution invariance matters.
 """,
     "grid": """
 grid : array-like of shape (n_features,), default=None
@@ -105,24 +139,10 @@ response_grid : array-like of shape (n_response_points,), default=None
     one-column ``y`` is a response of one point: a scalar outcome, fitted
     by least squares.
 """,
-    "curve_response_alpha": """
-alpha : float, default=None
-    Roughness penalty. None chooses it by GCV from ``alphas``.
-alphas : array-like of shape (n_alphas,), default=None
-    Candidates for GCV when ``alpha=None``; None means 25 log-spaced values
-    scaled to the problem.
-""",
     "curve_response_attributes": """
-alpha_ : float
-    The penalty used.
-alphas_ : ndarray of shape (n_alphas,)
-    Candidates (only ``alpha`` when it was given).
-criterion_ : ndarray of shape (n_alphas,)
-    GCV score per candidate (lower is better).
+%(alpha_attributes)s
 edf_ : float
     Effective degrees of freedom at ``alpha_``.
-edf_path_ : ndarray of shape (n_alphas,)
-    Effective degrees of freedom per candidate.
 n_basis_ : int
     Number of response basis functions.
 """,

@@ -61,7 +61,7 @@ def check_finite_fit(estimator):
         arr = np.asarray(value) if isinstance(value, (float, np.ndarray)) else None
         if arr is None or arr.dtype.kind != "f" or np.isfinite(arr).all():
             continue
-        if key in ("criterion_", "best_score_"):  # inf where a candidate
+        if key in ("criterion_path_", "best_score_"):  # inf where a candidate
             continue  # interpolates: the alpha choice has its own policy for that
         if key in _UNCERTAINTY:
             uncertain.append(key)

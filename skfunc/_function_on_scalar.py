@@ -32,8 +32,9 @@ class FunctionOnScalarRidge(AdditiveRegressorMixin, CurveResponseRegressor):
 
     Parameters
     ----------
-    %(curve_response_alpha)s
+    %(alpha)s
     %(basis)s
+    %(period)s
     %(response_grid)s
     %(quadrature)s
 
@@ -116,9 +117,9 @@ class FunctionOnScalarRidge(AdditiveRegressorMixin, CurveResponseRegressor):
 
     _parameter_constraints = RESPONSE_PARAMETER_CONSTRAINTS
 
-    def __init__(self, alpha=None, *, alphas=None, basis="bspline", n_basis=None,
-                 degree=3, interior_knots=None, penalty_order=2, response_grid=None,
-                 quadrature="trapezoid"):
+    def __init__(self, alpha="auto", *, criterion="gcv", basis="bspline", n_basis=None,
+                 degree=3, interior_knots=None, penalty_order=2, period=None,
+                 response_grid=None, quadrature="trapezoid"):
         store_init_params(self, locals())
 
     def _validate_inputs(self, X, y, reset):
@@ -132,8 +133,8 @@ class FunctionOnScalarRidge(AdditiveRegressorMixin, CurveResponseRegressor):
             raise
 
     def _design_geometry(self):
-        p = self.n_features_in_
-        return np.eye(p), np.zeros((p, p))
+        """Scalar covariates: identity Gram, no penalty of their own."""
+        return np.eye(self.n_features_in_), None
 
     def _coef_rows(self):
         p1 = self.basis_coef_.shape[0]

@@ -42,23 +42,39 @@ Craven, P. and Wahba, G. (1979). Smoothing noisy data with spline functions.
 *Numerische Mathematik* 31, 377-403.
 """
 
-from numbers import Real
-
 import numpy as np
 from scipy.stats import norm as _normal
 from sklearn.base import BaseEstimator, RegressorMixin
-from sklearn.utils._param_validation import Interval
+from sklearn.utils._param_validation import StrOptions
 from sklearn.utils.validation import (
     check_array,
     check_consistent_length,
     check_is_fitted,
 )
 
+from ._alpha import (
+    ALPHA_CONSTRAINT,
+    AUTO,
+    CRITERIA,
+    best_index,
+    candidates_from_eigenvalues,
+    check_alpha,
+    reml_score,
+)
 from ._blocks import chunked_matmul, is_dask_array, row_blocks
 from ._dask import check_accepts_dask
 from ._fit import AdditiveFitMixin
 from ._grid import check_grid, grid_from_labels, quadrature_weights, resolve_grid
-from ._penalized import PenalizedPath, centered, cross_products, gcv_score
+from ._penalized import (
+    NotIdentifiableError,
+    Penalty,
+    SplitPath,
+    centered,
+    cross_products,
+    gcv_score,
+    penalty_for,
+    penalty_scale,
+)
 from ._validation import BASIS_CONSTRAINTS, basis_for, check_labels, check_level
 from ._weights import check_sample_weight
 
@@ -66,31 +82,61 @@ from ._weights import check_sample_weight
 #: (minimum-norm solution, as numpy.linalg.lstsq)
 _PINV_RTOL = 1e-12
 
-#: candidate alphas (relative to the problem's scale) when alphas=None
-DEFAULT_ALPHA_RANGE = (1e-8, 1e4, 25)
-
-
 #: parameters shared by the curve-response regressors
 RESPONSE_PARAMETER_CONSTRAINTS = {
     **{key: value for key, value in BASIS_CONSTRAINTS.items() if key != "grid"},
-    "alpha": [Interval(Real, 0, None, closed="left"), None],
-    "alphas": ["array-like", None],
+    "alpha": ALPHA_CONSTRAINT,
+    "criterion": [StrOptions(set(CRITERIA))],
     "response_grid": ["array-like", None],
 }
 
 
-def check_alphas(alphas):
-    """Candidate alphas: a non-empty 1-D array of finite values >= 0."""
-    if alphas is None:
-        return None
-    arr = np.asarray(alphas, dtype=np.float64)
-    finite = arr.ndim == 1 and arr.size > 0 and np.all(np.isfinite(arr))
-    if not finite or np.any(arr < 0):
-        raise ValueError(
-            "alphas must be a non-empty 1-D array of finite penalties >= 0; got "
-            f"{alphas!r}."
-        )
-    return arr
+def choose_from_scores(estimator, alphas, score_fn):
+    """``(best index, criterion path)`` for the estimator's ``alpha`` among
+    ``alphas``: the fixed alpha (index 0, no path), or the best of
+    ``score_fn(alphas, criterion)`` (:func:`skfunc._alpha.best_index`)."""
+    if isinstance(check_alpha(estimator.alpha), float):
+        return 0, None
+    scores = score_fn(alphas, estimator.criterion)
+    return best_index(scores, alphas, criterion=estimator.criterion.upper()), scores
+
+
+def resolve_candidates(alpha, s, scale):
+    """The candidates for a user ``alpha``: ``[alpha]`` when fixed, the
+    given array, or the default spanning the effective degrees of freedom
+    of the data eigenvalues ``s`` (engine weight ``scale`` of alpha = 1)."""
+    value = check_alpha(alpha)
+    if value is AUTO:
+        # eigenvalues pooled over several decompositions: those at rounding
+        # level of the largest (the engine's rule, 1e-13 times the size) carry
+        # no data and would tie the smallest candidate to rounding noise
+        s = np.asarray(s, dtype=np.float64)
+        top = s.max(initial=0.0)
+        return candidates_from_eigenvalues(s[s > 1e-13 * top * max(s.size, 1)], scale)
+    return np.atleast_1d(value)
+
+
+def free_penalty(n):
+    """A "penalty" leaving all ``n`` coordinates free (alpha fixed at 0: the
+    basis' smoothness need not carry any roughness)."""
+    return Penalty(np.zeros((n, n)), np.eye(n))
+
+
+def response_split(basis, gram, penalty_order, penalized=True, total_weight=None):
+    """``(U, g, p, s_t)`` of the response side: ``U' G U = diag(g)``,
+    ``U' P01 U = diag(p)`` with ``p = 0`` exactly on the penalty's null
+    space, and ``s_t`` the engine weight of the response penalty
+    (``total_weight``, the sum of the quadrature weights: the response Gram
+    matrix tends to that times the Gram matrix on [0, 1], as for a
+    smoother; its largest eigenvalue would add the quadrature error of the
+    most oscillatory basis function). A one-point grid has one unpenalized
+    direction; so has every direction without a penalty."""
+    if isinstance(basis, _PointBasis):
+        return np.eye(1), np.ones(1), np.zeros(1), 1.0
+    penalty = (penalty_for(basis, penalty_order) if penalized
+               else free_penalty(basis.n_basis))
+    path = SplitPath(gram, penalty, scale=total_weight)
+    return path.eigvecs, path.g, path.p, path.scale
 
 
 class _PointBasis:
@@ -116,6 +162,16 @@ class _PointBasis:
 
     def penalty(self, order):
         return np.full((1, 1), 1.0 if order == 0 else 0.0)
+
+    def unit_roughness(self, order):
+        return self.penalty(order)
+
+    def unit_gram(self):
+        return self.gram()
+
+    def null_space(self, order):
+        """The constant is free of any derivative penalty (order >= 1)."""
+        return np.ones((1, 1)) if order >= 1 else np.zeros((1, 0))
 
 
 def _default_response_grid(n_points):
@@ -298,7 +354,7 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
 
     def _validate_batch(self, X, y, sample_weight, first):
         if first:
-            check_alphas(self.alphas)
+            check_alpha(self.alpha)
         X, y = self._validate_inputs(X, y, reset=first)
         y = validate_response(self, y, X.shape[0], reset=first)
         return X, y, check_sample_weight(sample_weight, X)
@@ -324,58 +380,107 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         return stats
 
     def _solve(self, stats):
-        """Coefficient functions from merged statistics; GCV over ``alphas``.
+        """Coefficient functions from merged statistics; alpha by GCV or REML.
 
-        Sets ``basis_coef_`` ((p + 1, K), row 0 the intercept, on the original
-        covariates), ``coef_covariance_``, ``alpha_``, ``alphas_``,
-        ``criterion_``, ``edf_`` and ``edf_path_``.
+        The response side is split once (:func:`response_split`); each
+        response direction k is then a small penalized problem in the
+        centred design and the intercept, ``(g_k S + lam Q_k) c_k = r_k``
+        with ``Q_k = g_k / s_t Ps + p_k Gs`` (design geometry on [0, 1]) and
+        the intercept unpenalized, solved for every alpha by its own
+        :class:`~skfunc._penalized.SplitPath` with ``lam = alpha * s_S *
+        s_t`` (``s_S`` the design's :func:`~skfunc._penalized.penalty_scale`).
+        Sets ``basis_coef_`` ((p + 1, K), row 0 the intercept, on the
+        original covariates), ``coef_covariance_``, ``alpha_``,
+        ``alphas_path_``, ``criterion_path_``, ``edf_`` and ``edf_path_``.
         """
         basis, weights = self._response_basis()
         phi = basis.evaluate(self.response_grid_)
-        gram_s, penalty_s = self._design_geometry()
+        phi_w = phi * weights[:, None]
+        gram_s, pen_s = self._design_geometry()
         sw = stats["sw"]
         zz, zy, _, z_mean, y_mean = centered(stats)
-        phi_w = phi * weights[:, None]
-        path = PenalizedPath(phi_w.T @ phi, None if self.alpha == 0 else
-                             self._penalty(basis))
-        mu, U = path.mu, path.eigvecs
-        S = _block(sw, zz)
-        Gs, Ps = _block(1.0, gram_s), _block(0.0, penalty_s)
-        rot = (np.vstack([sw * y_mean, zy]) @ phi_w) @ U  # r_k as columns
-        candidates = self._candidates(path.scale * np.trace(S) / np.trace(Gs))
-        a = candidates[:, None, None, None]
-        rough = ((1 - mu) / path.scale)[:, None, None]
-        A = mu[:, None, None] * (S + a * Ps) + a * rough * Gs
-        A_inv = _pinvh(A)  # (n_alphas, K, p+1, p+1)
-        C = np.einsum("akij,jk->aik", A_inv, rot)  # (n_alphas, p+1, K)
-        fit_sq = np.einsum("aik,ij,ajk,k->a", C, S, C, mu)
-        rss = stats["yy"] @ weights - 2 * np.einsum("aik,ik->a", C, rot) + fit_sq
-        sample_edf = mu * np.einsum("akij,ji->ak", A_inv, S)  # per direction
-        edf = sample_edf.sum(axis=1)
+        p = zz.shape[0]
+        U, g, p_t, s_t = response_split(basis, phi_w.T @ phi, self.penalty_order,
+                                        not self._unpenalized(), float(weights.sum()))
+        design_pen = pen_s if pen_s is not None else free_penalty(p)
+        scale = penalty_scale(zz, design_pen) * s_t
+        S = np.zeros((p + 1, p + 1))
+        S[:p, :p], S[p, p] = zz, sw
+        rot = (np.vstack([zy, sw * y_mean]) @ phi_w) @ U  # r_k as columns
+        if stats["n"] < 2:
+            raise ValueError(
+                f"{type(self).__name__} was given 1 sample; the coefficient "
+                "functions need n_samples >= 2 (the intercept and one slope)."
+            )
+        paths = [self._direction_path(S, g[k], p_t[k], gram_s, pen_s, s_t, scale)
+                 for k in range(g.size)]
+        live = [k for k, path in enumerate(paths) if path is not None]
+        rotated = {k: paths[k].rotate(rot[:, k])[None] for k in live}
+        alphas = resolve_candidates(
+            self.alpha, np.concatenate([paths[k].s for k in live]), scale)
+        yy_w = stats["yy"] @ weights
         m = weights.size
-        criterion = gcv_score(np.maximum(rss, 0), edf, sw * m, sw * weights.sum())
-        best = int(np.argmin(criterion))
-        transform = np.eye(S.shape[0])
+
+        def total(method, values):
+            return sum(getattr(paths[k], method)(rotated[k], values)[0] for k in live)
+
+        def edf(values):
+            return sum(paths[k].edf(values) for k in live)
+
+        def scores(values, criterion):
+            if criterion == "reml":
+                dof = sw * m - sum(paths[k].n_null for k in live)
+                logdet = sum(paths[k].log_det_ratio(values) for k in live)
+                return reml_score(yy_w - total("penalized_rss_reduction", values), dof,
+                                  logdet)
+            rss = np.maximum(yy_w - total("rss_reduction", values), 0.0)
+            return gcv_score(rss, edf(values), sw * m, sw * weights.sum())
+
+        try:
+            best, criterion = choose_from_scores(self, alphas, scores)
+            alpha = alphas[best]
+            C = np.zeros((p + 1, g.size))
+            A_inv = np.zeros((g.size, p + 1, p + 1))
+            sample_edf = np.zeros(g.size)
+            for k in live:
+                C[:, k] = paths[k].coef(rotated[k], alpha)[0]
+                A_inv[k] = paths[k].operator(alpha)
+                sample_edf[k] = paths[k].edf(alpha)
+        except NotIdentifiableError as exc:
+            raise NotIdentifiableError(
+                f"{type(self).__name__}: {exc} With alpha=0 use fewer basis "
+                "functions (n_basis) or more observations."
+            ) from exc
+        # back to the order (intercept, design)
+        order = np.r_[p, np.arange(p)]
+        C, S, rot = C[order], S[np.ix_(order, order)], rot[order]
+        A_inv = A_inv[:, order][:, :, order]
+        transform = np.eye(p + 1)
         transform[0, 1:] = -z_mean  # back to the original (uncentered) covariates
-        coef_c = C[best]
-        cov = _coef_covariance(
-            stats, U, mu, S, rot, coef_c, A_inv[best], sw - sample_edf[best].max()
-        )
+        cov = _coef_covariance(stats, U, g, S, rot, C, A_inv, sw - sample_edf.max())
         cov = np.einsum("ai,bk,kilm,cm,dl->abcd", transform, U, cov, transform, U,
                         optimize=True)
-        p1, K = coef_c.shape
-        self._store(basis, transform @ coef_c @ U.T, cov.reshape(p1 * K, p1 * K),
-                    candidates, criterion, edf, best)
+        p1, K = C.shape
+        self._store(basis, transform @ C @ U.T, cov.reshape(p1 * K, p1 * K),
+                    alphas, criterion, edf(alphas), best)
 
-    def _candidates(self, base):
-        """Candidate alphas: ``alpha``, ``alphas``, or a range around ``base``."""
-        if self.alpha is not None:
-            return np.array([float(self.alpha)])
-        alphas = check_alphas(self.alphas)
-        if alphas is not None:
-            return alphas
-        low, high, count = DEFAULT_ALPHA_RANGE
-        return base * np.logspace(np.log10(low), np.log10(high), count)
+    @staticmethod
+    def _direction_path(S, g_k, p_k, gram_s, pen_s, s_t, scale):
+        """The split path of response direction k (None when the data do not
+        see it): design block penalized by ``g_k / s_t Ps + p_k Gs``, the
+        intercept (last) unpenalized."""
+        p = gram_s.shape[0]
+        if p_k == 0:  # the response penalty's null space: only Ps acts
+            if pen_s is None:
+                pen = free_penalty(p)
+            else:
+                pen = Penalty(pen_s.matrix / s_t, pen_s.transform[:, :pen_s.n_null])
+        elif g_k <= 0:
+            return None
+        else:
+            matrix = gram_s if pen_s is None else gram_s + g_k / s_t * pen_s.matrix
+            pen = Penalty(matrix, np.zeros((p, 0)))
+        return SplitPath(g_k * S, pen.extend(1), scale=scale)
 
     def _store(self, basis, basis_coef, coef_covariance, alphas, criterion, edf, best):
         """Set the fitted attributes of the solution at candidate ``best``."""
@@ -383,8 +488,8 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         self.basis_coef_ = basis_coef
         self.coef_covariance_ = coef_covariance
         self.alpha_ = float(alphas[best])
-        self.alphas_ = alphas
-        self.criterion_ = criterion
+        self.alphas_path_ = alphas
+        self.criterion_path_ = criterion
         self.edf_ = float(edf[best])
         self.edf_path_ = edf
         p1 = self.basis_coef_.shape[0]
@@ -398,22 +503,13 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         """The response basis and the quadrature weights of the response grid."""
         if self.response_grid_.size == 1:
             return _PointBasis(self.response_grid_[0]), np.ones(1)
-        basis = basis_for(self, self.response_grid_, cap=self.alpha == 0)
+        basis = basis_for(self, self.response_grid_, cap=self._unpenalized())
         return basis, quadrature_weights(self.response_grid_, self.quadrature)
 
-    def _penalty(self, basis):
-        """Roughness matrix of ``basis`` (zeros when ``alpha=0``).
-
-        On tiny grids the adaptive default basis is one polynomial of degree
-        below ``penalty_order`` (no interior knots), whose roughness is 0.
-        """
-        single_polynomial = (
-            basis.name == "bspline" and basis.n_basis == basis.degree + 1
-            and self.penalty_order > basis.degree
-        )
-        if self.alpha == 0 or single_polynomial:
-            return np.zeros((basis.n_basis, basis.n_basis))
-        return basis.penalty(self.penalty_order)
+    def _unpenalized(self):
+        """Whether alpha is fixed at 0 (then n_basis is capped by the grid)."""
+        value = check_alpha(self.alpha)
+        return isinstance(value, float) and value == 0
 
     def _evaluate(self, left, eval_points=None):
         """``left @ basis_coef_`` as functions at ``eval_points`` (rows), and Phi."""

@@ -80,9 +80,9 @@ class FunctionalLogisticRegression(
     alpha_ : float
         The roughness penalty used: the chosen one with ``alpha="auto"``,
         else ``alpha``.
-    alphas_ : ndarray of shape (n_alphas,)
+    alphas_path_ : ndarray of shape (n_alphas,)
         Candidate alphas, ascending (just ``alpha`` when it is a number).
-    criterion_ : ndarray of shape (n_alphas,)
+    criterion_path_ : ndarray of shape (n_alphas,)
         UBRE of the fit at each candidate alpha (smaller is better).
     edf_path_ : ndarray of shape (n_alphas,)
         Effective degrees of freedom of the fit at each candidate alpha,
@@ -203,7 +203,7 @@ class FunctionalLogisticRegression(
     >>> clf = FunctionalLogisticRegression().fit(X, y)
     >>> clf.predict_proba(X[:2]).shape
     (2, 2)
-    >>> bool(clf.alphas_[0] <= clf.alpha_ <= clf.alphas_[-1])
+    >>> bool(clf.alphas_path_[0] <= clf.alpha_ <= clf.alphas_path_[-1])
     True
     """
 
@@ -290,8 +290,8 @@ class FunctionalLogisticRegression(
         fit = problem.path(alphas, self.tol, self.max_iter)
         j, theta, hess, converged = fit["best"], fit["theta"], fit["hess"], fit["converged"]
         self.alpha_ = float(alphas[j])
-        self.alphas_ = alphas
-        self.criterion_ = fit["criterion"]
+        self.alphas_path_ = alphas
+        self.criterion_path_ = fit["criterion"]
         self.edf_path_ = fit["edf"]
         self.n_iter_ = fit["n_iter"]
         self._warn_convergence(converged, D @ theta.T, sample_weight)

@@ -13,16 +13,19 @@ from functools import partial
 
 import numpy as np
 from sklearn.base import BaseEstimator, RegressorMixin
+from sklearn.utils._param_validation import StrOptions
 
+from ._alpha import ALPHA_CONSTRAINT, AUTO, CRITERIA, check_alpha, choose_alpha
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._fit import AdditiveRegressorMixin
 from ._integrated_design import (
-    ALPHA_CONSTRAINT,
     DESIGN_CONSTRAINTS,
+    PERIOD_CONSTRAINT,
     IntegratedDesignMixin,
 )
 from ._penalized import (
+    NotIdentifiableError,
     centered,
     centered_cross_products,
 )
@@ -39,6 +42,10 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
     def __sklearn_tags__(self):
         tags = super().__sklearn_tags__()
         tags.target_tags.multi_output = True
+        # scikit-learn's score check uses make_regression: one informative
+        # column of ten, a spike that the default basis (six B-splines on ten
+        # points, P-spline practice) and any roughness penalty smooth away.
+        tags.regressor_tags.poor_score = True
         return tags
 
     def _validate_fit_input(self, X, y, sample_weight, reset=True):
@@ -92,15 +99,15 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
                 "; every batch needs the same targets."
             )
 
-    def _path(self, stats, penalty, alphas):
-        """The engine's path for the (centered) statistics, and the centered
+    def _path(self, stats, basis):
+        """The split path for the (centered) statistics, and the centered
         means, ``y'Wy`` and rotated right-hand sides."""
         if self.fit_intercept:
             zz, zy, yy, z_mean, y_mean = centered(stats)
         else:
             zz, zy, yy = stats["zz"], stats["zy"], stats["yy"]
             z_mean, y_mean = np.zeros(zz.shape[0]), np.zeros(zy.shape[1])
-        path = self._checked_path(zz, penalty, alphas, stats["n"])
+        path = self._split_path(zz, basis, stats["n"])
         return path, {
             "z_mean": z_mean,
             "y_mean": y_mean,
@@ -112,7 +119,7 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
         """Coefficients, degrees of freedom, noise variance and posterior
         covariance at ``alpha`` (a scalar, or one per target) from merged
         statistics; sets the attributes."""
-        path, part = self._path(stats, self._penalty(basis), alpha)
+        path, part = self._path(stats, basis)
         rotated = part["rotated"]
         per_target = np.broadcast_to(alpha, rotated.shape[:1])
         theta = path.coef(rotated, per_target)
@@ -130,9 +137,41 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
         inv_d = 1.0 / path.denominators(per_target)
         covariance = np.einsum("t,kj,tj,lj->tkl", sigma2, u, inv_d, u)
         self._set_coefficients(basis, theta, intercept, covariance, squeeze)
-        self.edf_ = float(edf[0]) if np.ndim(alpha) == 0 else edf
+        self.edf_ = float(edf[0]) if squeeze or np.ndim(alpha) == 0 else edf
         self.noise_variance_ = float(sigma2[0]) if squeeze else sigma2
         return self
+
+    def _choose(self, stats, basis, y_ndim, alpha, criterion, pooled=False):
+        """Resolve ``alpha`` by ``criterion`` on the pooled statistics (one
+        choice per target unless ``pooled``); set the path attributes and
+        fit at the choice."""
+        path, part = self._path(stats, basis)
+        if np.ndim(alpha) == 0 and alpha == 0 and np.any(path.s <= 0):
+            k = basis.n_basis
+            raise NotIdentifiableError(
+                f"{type(self).__name__} cannot determine {k + self.n_covariates} "
+                f"coefficients ({k} basis functions for beta and "
+                f"{self.n_covariates} covariate(s)) from {stats['n']} curves "
+                "without a penalty (alpha=0). Use a roughness penalty alpha > 0 "
+                "or 'auto' (the usual choice), fewer basis functions (n_basis) "
+                "or more curves."
+            )
+        chosen = choose_alpha(
+            # frequency weights: the weight total counts the rows (GCV's n, REML's n)
+            path, part["rotated"], part["yy"], stats["sw"], alpha, criterion=criterion,
+            total_weight=stats["sw"], extra_edf=int(self.fit_intercept), pooled=pooled,
+        )
+        self._store_path(path, chosen)
+        return self._solve_at(stats, self.alpha_, basis, squeeze=y_ndim == 1)
+
+    def _store_path(self, path, chosen):
+        alpha = chosen["alpha"]
+        self.alpha_ = float(alpha) if np.ndim(alpha) == 0 else np.asarray(alpha)
+        if np.ndim(alpha) and np.unique(alpha).size == 1 and len(alpha) == 1:
+            self.alpha_ = float(alpha[0])
+        self.alphas_path_ = chosen["alphas"]
+        self.criterion_path_ = chosen["criterion"]
+        self.edf_path_ = path.edf(self.alphas_path_) + self.fit_intercept
 
     def predict(self, X):
         """Predicted outcomes ``b0 + int x beta + gamma' s``.
@@ -161,18 +200,21 @@ class FunctionalRidge(FunctionalRidgeBase):
 
     Parameters
     ----------
-    alpha : float, default=1.0
-        Roughness penalty weight; 0 for unpenalized least squares (which
-        needs fewer basis functions than curves).
+    %(alpha)s
     %(scalar_outcome)s
+    %(period)s
 
     Attributes
     ----------
     %(scalar_outcome_attributes)s
+    %(alpha_attributes)s
+        With several targets ``alpha_`` holds one value per target and
+        ``criterion_path_`` one row per target.
 
     See Also
     --------
-    FunctionalRidgeCV : Chooses alpha by GCV, leave-one-out or K-fold.
+    FunctionalRidgeCV : Chooses alpha by exact leave-one-out or K-fold
+        cross-validation.
     FunctionalLogisticRegression : The same model for class labels.
     sklearn.linear_model.Ridge : Ridge regression on ordinary features.
 
@@ -189,7 +231,7 @@ class FunctionalRidge(FunctionalRidgeBase):
     >>> from skfunc.datasets import make_smooth_regression
     >>> from skfunc.linear_model import FunctionalRidge
     >>> X, y, beta = make_smooth_regression(60, grid=101, noise=0.01, random_state=0)
-    >>> model = FunctionalRidge(alpha=1e-6, n_basis=8).fit(X, y)
+    >>> model = FunctionalRidge().fit(X, y)
     >>> model.coef_function_.shape
     (101,)
     >>> lower, upper = model.confidence_band(level=0.95)
@@ -197,20 +239,20 @@ class FunctionalRidge(FunctionalRidgeBase):
     True
     """
 
-    _parameter_constraints = {**DESIGN_CONSTRAINTS, "alpha": ALPHA_CONSTRAINT}
+    _parameter_constraints = {
+        **DESIGN_CONSTRAINTS,
+        **PERIOD_CONSTRAINT,
+        "alpha": ALPHA_CONSTRAINT,
+        "criterion": [StrOptions(set(CRITERIA))],
+    }
 
-    def __sklearn_tags__(self):
-        tags = super().__sklearn_tags__()
-        # scikit-learn's score check uses make_regression: columns with one
-        # informative spike, which a roughness penalty at a fixed alpha is
-        # meant to smooth away (FunctionalRidgeCV, choosing alpha, passes it).
-        tags.regressor_tags.poor_score = True
-        return tags
-
-    def __init__(self, alpha=1.0, *, basis="bspline", n_basis=None, degree=3,
-                 interior_knots=None, penalty_order=2, n_covariates=0,
-                 fit_intercept=True, grid=None, quadrature="trapezoid"):
+    def __init__(self, alpha=AUTO, *, criterion="gcv", basis="bspline", n_basis=None,
+                 degree=3, interior_knots=None, penalty_order=2, period=None,
+                 n_covariates=0, fit_intercept=True, grid=None, quadrature="trapezoid"):
         store_init_params(self, locals())
 
+    def _check_pooled(self):
+        check_alpha(self.alpha)
+
     def _fit_pooled(self, stats, basis, y_ndim):
-        return self._solve_at(stats, self.alpha, basis, squeeze=y_ndim == 1)
+        return self._choose(stats, basis, y_ndim, self.alpha, self.criterion)

@@ -6,13 +6,21 @@ import numpy as np
 from sklearn.model_selection import check_cv
 from sklearn.utils._param_validation import StrOptions
 
+from ._alpha import (
+    ALPHA_CONSTRAINT,
+    AUTO,
+    CRITERIA,
+    best_index,
+    candidate_alphas,
+    check_alpha,
+)
 from ._blocks import is_dask_array
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._fit import check_finite_fit
 from ._functional_ridge import FunctionalRidgeBase
-from ._integrated_design import DESIGN_CONSTRAINTS
-from ._penalized import centered_cross_products, cross_products, gcv_score
+from ._integrated_design import DESIGN_CONSTRAINTS, PERIOD_CONSTRAINT
+from ._penalized import centered_cross_products, cross_products
 
 
 @fill_doc
@@ -28,13 +36,15 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
 
     Parameters
     ----------
-    alphas : array-like of shape (n_alphas,), default=None
-        Positive candidate penalties. None means 25 log-spaced values
-        spanning ``1e-8 .. 1e4`` times the ratio of the traces of the data's
-        cross products and the roughness matrix.
-    criterion : {"gcv", "loo"}, default="gcv"
-        Generalised cross-validation (Craven and Wahba, 1979) or exact
-        leave-one-out mean squared error. Used when ``cv=None``.
+    alpha : "auto", float or array-like of shape (n_alphas,), default="auto"
+        Candidate penalties (unit-free, as for :class:`FunctionalRidge`):
+        ``"auto"`` means 25 log-spaced values spanning every effective
+        degrees of freedom from nearly unpenalized to the null space; a
+        number is the only candidate (its criterion is still computed).
+    criterion : {"gcv", "reml", "loo"}, default="gcv"
+        Generalised cross-validation (Craven and Wahba, 1979), REML (Wood,
+        2011) or exact leave-one-out mean squared error. Used when
+        ``cv=None``.
     cv : int, cross-validation generator or iterable, default=None
         None uses ``criterion``; otherwise a scikit-learn splitter (an int
         means ``KFold(cv)``), and the criterion is the mean over folds of the
@@ -44,20 +54,24 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
         :class:`sklearn.linear_model.RidgeCV` does) instead of one alpha
         minimising the criterion averaged over targets.
     %(scalar_outcome)s
+    %(period)s
 
     Attributes
     ----------
-    alphas_ : ndarray of shape (n_alphas,)
+    alphas_path_ : ndarray of shape (n_alphas,)
         The candidate alphas.
-    criterion_ : ndarray of shape (n_alphas,) or (n_targets, n_alphas)
-        GCV score, leave-one-out or K-fold mean squared error for each
-        candidate (lower is better), averaged over targets; one row per
+    criterion_path_ : ndarray of shape (n_alphas,) or (n_targets, n_alphas)
+        GCV or REML score, leave-one-out or K-fold mean squared error for
+        each candidate (lower is better), averaged over targets; one row per
         target with ``alpha_per_target=True``.
+    edf_path_ : ndarray of shape (n_alphas,)
+        Effective degrees of freedom of each candidate.
     alpha_ : float or ndarray of shape (n_targets,)
-        The chosen alpha (the first minimiser of ``criterion_``); one per
-        target with ``alpha_per_target=True`` and several targets.
+        The chosen alpha (the minimiser of ``criterion_path_``, ties to the
+        larger alpha); one per target with ``alpha_per_target=True`` and
+        several targets.
     best_score_ : float or ndarray of shape (n_targets,)
-        ``-criterion_`` at ``alpha_`` (higher is better, as in RidgeCV).
+        ``-criterion_path_`` at ``alpha_`` (higher is better, as in RidgeCV).
     %(scalar_outcome_attributes)s
 
     See Also
@@ -88,40 +102,35 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
     >>> from skfunc.datasets import make_smooth_regression
     >>> from skfunc.linear_model import FunctionalRidgeCV
     >>> X, y, _ = make_smooth_regression(60, grid=101, random_state=0)
-    >>> model = FunctionalRidgeCV(alphas=np.logspace(-8, 0, 9), n_basis=8).fit(X, y)
-    >>> model.criterion_.shape
-    (9,)
-    >>> bool(model.alpha_ in model.alphas_)
+    >>> model = FunctionalRidgeCV(criterion="loo").fit(X, y)
+    >>> model.criterion_path_.shape
+    (25,)
+    >>> bool(model.alpha_ in model.alphas_path_)
     True
     """
 
     _parameter_constraints = {
         **DESIGN_CONSTRAINTS,
-        "alphas": ["array-like", None],
-        "criterion": [StrOptions({"gcv", "loo"})],
+        **PERIOD_CONSTRAINT,
+        "alpha": ALPHA_CONSTRAINT,
+        "criterion": [StrOptions({*CRITERIA, "loo"})],
         "cv": ["cv_object"],
         "alpha_per_target": ["boolean"],
     }
 
-    def __init__(self, alphas=None, *, criterion="gcv", cv=None,
+    def __init__(self, alpha=AUTO, *, criterion="gcv", cv=None,
                  alpha_per_target=False, basis="bspline", n_basis=None, degree=3,
-                 interior_knots=None, penalty_order=2, n_covariates=0,
+                 interior_knots=None, penalty_order=2, period=None, n_covariates=0,
                  fit_intercept=True, grid=None, quadrature="trapezoid"):
         store_init_params(self, locals())
 
     def _check_alphas(self):
-        alphas = np.asarray(self.alphas, dtype=np.float64)
-        if alphas.ndim != 1 or alphas.size == 0:
-            raise ValueError(
-                f"alphas must be a non-empty 1-D array of positive numbers; got "
-                f"an array of shape {alphas.shape}."
-            )
-        if not np.all(np.isfinite(alphas)) or np.any(alphas <= 0):
-            raise ValueError(
-                "alphas must be finite and strictly positive (use FunctionalRidge "
-                f"with alpha=0 for unpenalized least squares); got {alphas.tolist()}."
-            )
-        return alphas
+        """None for "auto", else the candidates (a number is the one
+        candidate: its criterion is computed, nothing is chosen)."""
+        alphas = check_alpha(self.alpha)
+        if alphas is AUTO:
+            return None
+        return np.atleast_1d(alphas)
 
     @fill_doc
     def fit(self, X, y, sample_weight=None):
@@ -134,51 +143,56 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
             Outcomes.
         %(fit_weights_returns)s
         """
-        if self.criterion == "gcv" and self.cv is None:  # GCV: statistics suffice
+        if self.criterion in CRITERIA and self.cv is None:  # statistics suffice
             return self._fit_statistics(X, y, sample_weight)
         self._forget()
         self._validate_params()
-        alphas = None if self.alphas is None else self._check_alphas()
+        alphas = self._check_alphas()
         X, y, sample_weight = self._validate_fit_input(X, y, sample_weight)
         if is_dask_array(X):
             raise ValueError(self._needs_memory("a dask array X"))
         basis = self._basis()
-        penalty = self._penalty(basis)
         Z = self._design(X, self._integration_operator(basis))
         y2 = y.reshape(y.shape[0], -1)
         stats = centered_cross_products(Z, y2, sample_weight)
         if alphas is None:
-            path, _ = self._path(stats, penalty, 1.0)
-            alphas = path.default_alphas(25)
+            alphas = candidate_alphas(self._path(stats, basis)[0])
         if self.cv is not None:
-            criterion = self._kfold_criterion(Z, y2, sample_weight, penalty, alphas)
+            criterion = self._kfold_criterion(Z, y2, sample_weight, basis, alphas)
         else:
-            criterion = self._path_criterion(
-                stats, penalty, alphas, Z, y2, sample_weight
-            )
+            path, part = self._path(stats, basis)
+            criterion = self._held_out_error(path, part, Z, y2, sample_weight, alphas,
+                                             True)
         self.n_samples_seen_ = int(X.shape[0])
         self._partial_statistics = stats
         self._target_ndim = y.ndim
         return check_finite_fit(self._select(stats, criterion, alphas, basis, y.ndim))
 
     def _check_pooled(self):
-        if self.criterion != "gcv" or self.cv is not None:
+        self._check_alphas()
+        if self.criterion not in CRITERIA or self.cv is not None:
             raise ValueError(self._needs_memory("partial_fit"))
 
     def _fit_pooled(self, stats, basis, y_ndim):
-        """Alpha by GCV from pooled statistics, then the fit at it."""
-        alphas = None if self.alphas is None else self._check_alphas()
-        penalty = self._penalty(basis)
-        if alphas is None:
-            path, _ = self._path(stats, penalty, 1.0)
-            alphas = path.default_alphas(25)
-        criterion = self._path_criterion(stats, penalty, alphas, None, None, None)
-        return self._select(stats, criterion, alphas, basis, y_ndim)
+        """Alpha by GCV or REML from pooled statistics, then the fit at it."""
+        alphas = self._check_alphas()
+        pooled = not (self.alpha_per_target and y_ndim == 2)
+        out = self._choose(stats, basis, y_ndim, AUTO if alphas is None else alphas,
+                           self.criterion, pooled=pooled)
+        self.best_score_ = self._best_score(self.criterion_path_, self.alpha_)
+        return out
+
+    def _best_score(self, criterion, alpha):
+        index = np.searchsorted(self.alphas_path_, alpha)
+        if np.ndim(index) == 0:
+            return -float(criterion[..., index]) if criterion.ndim == 1 else -criterion[
+                np.arange(criterion.shape[0]), index]
+        return -criterion[np.arange(index.size), index]
 
     def _needs_memory(self, what):
         return (
-            f"{what} supports criterion='gcv' with cv=None only (alpha chosen by "
-            f"GCV from pooled statistics); criterion={self.criterion!r}, "
+            f"{what} supports criterion='gcv' or 'reml' with cv=None only (alpha "
+            f"chosen from pooled statistics); criterion={self.criterion!r}, "
             f"cv={self.cv!r} need all curves in one process at once."
         )
 
@@ -186,25 +200,17 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
         """Choose alpha from the criterion per candidate and fit at it."""
         if not (self.alpha_per_target and y_ndim == 2):
             criterion = criterion.mean(axis=0)  # one alpha for all targets
-        best = np.argmin(criterion, axis=-1)
-        self.alphas_ = alphas
-        self.criterion_ = criterion
+        name = "leave-one-out" if self.cv is None else "K-fold"
+        best = best_index(criterion, alphas, criterion=name)
+        self.alphas_path_ = alphas
+        self.criterion_path_ = criterion
+        self.edf_path_ = self._path(stats, basis)[0].edf(alphas) + self.fit_intercept
         if criterion.ndim == 1:
             self.alpha_, self.best_score_ = float(alphas[best]), -float(criterion[best])
         else:
             self.alpha_ = alphas[best]
             self.best_score_ = -criterion[np.arange(best.size), best]
         return self._solve_at(stats, self.alpha_, basis, squeeze=y_ndim == 1)
-
-    def _path_criterion(self, stats, penalty, alphas, Z, y2, sample_weight):
-        """GCV or exact leave-one-out for every target and alpha, from one
-        decomposition: shape (n_targets, n_alphas)."""
-        path, part = self._path(stats, penalty, alphas)
-        if self.criterion == "gcv":
-            rss = part["yy"][:, None] - path.rss_reduction(part["rotated"], alphas)
-            edf = path.edf(alphas) + self.fit_intercept
-            return gcv_score(rss, edf, stats["sw"])  # frequency weights
-        return self._held_out_error(path, part, Z, y2, sample_weight, alphas, True)
 
     def _held_out_error(self, path, part, Z, y2, sample_weight, alphas, leverage):
         """Weighted mean of squared (leave-one-out) residuals on rows of Z, for
@@ -227,12 +233,12 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
             out = errors / sample_weight.sum()
         return np.where(np.isfinite(out), out, np.inf)
 
-    def _kfold_criterion(self, Z, y2, sample_weight, penalty, alphas):
+    def _kfold_criterion(self, Z, y2, sample_weight, basis, alphas):
         cv = check_cv(self.cv)
         scores = []
         for train, test in cv.split(Z, y2):
             stats = cross_products(Z[train], y2[train], sample_weight[train])
-            path, part = self._path(stats, penalty, alphas)
+            path, part = self._path(stats, basis)
             scores.append(
                 self._held_out_error(
                     path, part, Z[test], y2[test], sample_weight[test], alphas, False

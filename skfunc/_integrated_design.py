@@ -37,16 +37,20 @@ from sklearn.utils.validation import check_is_fitted
 from ._blocks import chunked_matmul
 from ._estimator import ShortReprMixin
 from ._grid import quadrature_weights
-from ._penalized import _RCOND, NotIdentifiableError, PenalizedPath
+from ._penalized import _RCOND, NotIdentifiableError, PenalizedPath, SplitPath, penalty_for
 from ._validation import BASIS_CONSTRAINTS, basis_for, check_level, validate_curves
 
 #: parameter constraints common to every model on the integrated design
 DESIGN_CONSTRAINTS = {
-    **BASIS_CONSTRAINTS,
+    **{key: value for key, value in BASIS_CONSTRAINTS.items() if key != "period"},
     "n_covariates": [Interval(Integral, 0, None, closed="left")],
     "fit_intercept": ["boolean"],
 }
 
+#: ``period`` (Fourier) for the models that take it
+PERIOD_CONSTRAINT = {"period": BASIS_CONSTRAINTS["period"]}
+
+#: a fixed alpha (FunctionalLogisticRegression, until it takes "auto")
 ALPHA_CONSTRAINT = [Interval(Real, 0, None, closed="left")]
 
 
@@ -90,6 +94,24 @@ class IntegratedDesignMixin(ShortReprMixin):
         else:
             roughness = basis.penalty(self.penalty_order)
         return block_diag(roughness, np.zeros((self.n_covariates, self.n_covariates)))
+
+    def _split_path(self, zz, basis, n_samples):
+        """:class:`~skfunc._penalized.SplitPath` of the (centred) cross
+        products with beta's penalty split into its null space and the
+        covariates unpenalized; errors say what to change."""
+        penalty = penalty_for(basis, self.penalty_order).extend(self.n_covariates)
+        try:
+            return SplitPath(zz, penalty)
+        except NotIdentifiableError as exc:
+            n_coef = zz.shape[0]
+            raise NotIdentifiableError(
+                f"{type(self).__name__} cannot determine {n_coef} coefficients "
+                f"({n_coef - self.n_covariates} basis functions for beta and "
+                f"{self.n_covariates} covariate(s)) from {n_samples} curves: the "
+                "penalty leaves functions with D^penalty_order = 0 (and the "
+                "covariates) unpenalized, so the data must determine those: use "
+                "more curves, a lower penalty_order or fewer covariates."
+            ) from exc
 
     def _checked_path(self, zz, penalty, alphas, n_samples):
         """``PenalizedPath(zz, penalty)``, with errors that say what to change."""

@@ -93,12 +93,13 @@ class AlphaCriterionDisplay(_Display):
     @classmethod
     def from_estimator(cls, estimator, X=None, *, criterion_name=None, max_lines=20,
                        ax=None):
-        """Plot a fitted estimator's ``criterion_`` against ``alphas_``.
+        """Plot a fitted estimator's ``criterion_path_`` against ``alphas_path_``.
 
         Parameters
         ----------
         estimator : fitted estimator
-            With ``alphas_``, ``criterion_`` and ``alpha_``.
+            With ``alphas_path_``, ``criterion_path_`` (not None: alpha
+            chosen from candidates) and ``alpha_``.
         X : array-like of shape (n_curves, n_points), default=None
             For an estimator that chooses alpha per curve at transform time
             (``per_curve=True``): the curves whose choices to show. Required
@@ -115,13 +116,19 @@ class AlphaCriterionDisplay(_Display):
         display : AlphaCriterionDisplay
         """
         alphas, criterion, alpha = _fitted_attributes(
-            estimator, ["alphas_", "criterion_", "alpha_"], "AlphaCriterionDisplay"
+            estimator, ["alphas_path_", "criterion_path_", "alpha_"],
+            "AlphaCriterionDisplay"
         )
+        if criterion is None:
+            raise ValueError(
+                "The estimator's alpha was fixed, so there is no criterion path "
+                "to plot; fit it with alpha='auto' or candidates."
+            )
         alphas = np.asarray(alphas, dtype=float)
         criterion = np.atleast_2d(np.asarray(criterion, dtype=float))
         if alphas.ndim != 1 or criterion.shape[1] != alphas.size:
             raise ValueError(
-                f"criterion_ must have one value per alpha in alphas_ "
+                f"criterion_path_ must have one value per alpha in alphas_path_ "
                 f"({alphas.size}); got shape {criterion.shape}."
             )
         if criterion_name is None:

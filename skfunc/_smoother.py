@@ -1,84 +1,61 @@
-"""CurveSmoother: roughness-penalized smoothing of sampled curves, with GCV.
+"""CurveSmoother: roughness-penalized smoothing of sampled curves, alpha
+chosen from the data by default.
 
 Each curve ``x`` (a row of ``X``) is replaced by the function
 ``f = sum_k c_k phi_k`` minimising
 
-    sum_j w_j (x_j - f(t_j))^2 + alpha int (D^q f)^2,
+    (1 / sum w) sum_j w_j (x_j - f(t_j))^2 + alpha * int_0^1 (D^q f)^2 du,
 
-with quadrature weights ``w`` (trapezoid by default), so ``alpha`` means the same thing
-whatever the number or spacing of the grid points. One simultaneous
-diagonalisation of the problem (:class:`~skfunc._penalized.PenalizedPath`)
-serves every candidate alpha and every curve, so generalised cross-validation
-costs a few matrix products: no Python loop over curves or candidates.
+with data weights ``w`` (:func:`skfunc._grid.data_weights`: the mean over
+the observed points by default, quadrature weights with
+``data_term="integral"``), the penalty on the domain mapped to [0, 1] and
+``s = 1`` (the limit of the largest eigenvalue of the data term's Gram
+matrix against the unit-domain Gram matrix, which the regressors use).
+One :class:`~skfunc._penalized.SplitPath` serves every candidate alpha and
+every curve, so GCV or REML cost a few matrix products: no Python loop over
+curves or candidates.
 
 Missing values (NaN) get zero weight; rows are grouped by their pattern of
-missing points, with one diagonalisation per distinct pattern. Complete rows
-take the single fast path.
+missing points, with one decomposition per distinct pattern, sharing the
+complete pattern's scale so that alpha means the same in every pattern.
+Complete rows take the single fast path.
 """
 
 import warnings
-from numbers import Integral, Real
+from numbers import Integral
 
 import numpy as np
-from scipy.linalg import eigh
 from sklearn import config_context
 from sklearn.base import BaseEstimator, TransformerMixin
 from sklearn.utils._param_validation import Interval, StrOptions
 from sklearn.utils.validation import _check_feature_names_in, check_is_fitted
 
-from ._blocks import apply_rows, chunked_matmul, row_blocks
+from ._alpha import (
+    ALPHA_CONSTRAINT,
+    AUTO,
+    CRITERIA,
+    best_index,
+    candidate_alphas,
+    check_alpha,
+    gcv_criterion,
+    reml_criterion,
+    reml_score,
+)
+from ._bases import check_unpenalized_fit
+from ._blocks import apply_rows, chunked_matmul, is_dask_array, row_blocks
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._fit import AdditiveTransformerMixin
-from ._grid import check_grid, quadrature_weights
-from ._penalized import NotIdentifiableError, PenalizedPath, gcv_score, merge
+from ._grid import DATA_TERMS, check_grid, data_weights, quadrature_weights
+from ._penalized import (
+    NotIdentifiableError,
+    SplitPath,
+    gcv_score,
+    merge,
+    penalty_for,
+    power_of_two_scale,
+)
 from ._validation import BASIS_CONSTRAINTS, basis_for, validate_curves
-
-#: default number of candidate alphas for GCV
-N_ALPHAS = 25
-
-
-def _unpenalized_dimension(basis, order):
-    """Dimension of the functions in ``basis`` that ``D^order`` annihilates.
-
-    Polynomials of degree below ``order`` (B-splines, Legendre polynomials);
-    the constants for the periodic Fourier basis.
-    """
-    if order == 0:
-        return 0
-    return 1 if basis.name == "fourier" else min(order, basis.n_basis)
-
-
-def _roughness(basis, order):
-    """The exact roughness matrix of ``basis`` for derivative ``order``.
-
-    A single polynomial piece of degree below ``order`` (what the adaptive
-    ``n_basis=None`` gives on grids of fewer than ``degree + 1`` points) has
-    ``D^order f = 0``: its roughness matrix is zero.
-    """
-    single_piece = getattr(basis, "degree", None) == basis.n_basis - 1
-    if single_piece and order > basis.degree:
-        return np.zeros((basis.n_basis, basis.n_basis))
-    return basis.penalty(order)
-
-
-def default_alphas(basis, order, n_alphas=N_ALPHAS):
-    """Log-spaced candidate alphas spanning rough to smooth, from the basis alone.
-
-    With ``rho`` the eigenvalues of the exact roughness matrix relative to the
-    exact Gram matrix, the penalty halves the weight of eigenfunction ``k`` at
-    ``alpha = 1 / rho_k``. Candidates run from ``0.01 / max(rho)`` (almost no
-    smoothing) to ``100 / min(rho > 0)`` (almost only the unpenalized
-    functions, e.g. a straight line for ``order=2``). They depend on the
-    basis and domain, not on the grid, so they are resolution-invariant.
-    """
-    rho = eigh(_roughness(basis, order), basis.gram(), eigvals_only=True)
-    null = _unpenalized_dimension(basis, order)
-    if null >= rho.size or rho[-1] <= 0:
-        low, high = 1e-2, 1e2  # nothing is penalized: every alpha fits alike
-    else:
-        low, high = 1e-2 / rho[-1], 1e2 / rho[null]
-    return np.logspace(np.log10(low), np.log10(high), n_alphas)
 
 
 def _check_eval_points(points):
@@ -118,44 +95,56 @@ def _products(X, first_T, second_T=None):
     return out, missing
 
 
-def _weighted_squares(X, w):
-    """``sum_j w_j x_ij^2`` per row, without an (n, m) temporary."""
-    return np.einsum("ij,ij,j->i", X, X, w)
+def _weighted_squares(X, w, scale=1.0):
+    """``sum_j w_j (x_ij / scale)^2`` per row, in row blocks (no (n, m)
+    temporary beyond a block; dividing first keeps squares of values near
+    1e300 finite)."""
+    out = np.empty(X.shape[0])
+    for part in row_blocks(*X.shape):
+        block = np.asarray(X[part], dtype=np.float64) / scale
+        out[part] = np.einsum("ij,ij,j->i", block, block, w)
+    return out
 
 
-def _gcv_choice(scores, alphas):
-    """Index of the GCV minimum per row; the largest alpha where GCV is
-    undefined for every candidate (too few observations for any fit)."""
-    best = np.argmin(scores, axis=-1)
-    undefined = ~np.isfinite(np.min(scores, axis=-1))
-    return np.where(undefined, int(np.argmax(alphas)), best)
+def _choose_rows(scores, alphas, name):
+    """One alpha index per row (:func:`skfunc._alpha.best_index`); rows whose
+    criterion is undefined for every candidate (too few observations for any
+    fit but the interpolating one) take the largest candidate."""
+    scores = np.atleast_2d(scores)
+    defined = np.isfinite(scores).any(axis=1)
+    out = np.full(scores.shape[0], int(np.argmax(alphas)))
+    if defined.any():
+        out[defined] = best_index(scores[defined], alphas, criterion=name)
+    return out
 
 
 class _LowOrderFit:
-    """Stands in for a :class:`PenalizedPath` for rows whose observed values
-    are too few to fix the functions the penalty leaves free.
+    """Stands in for a :class:`SplitPath` for rows whose observed values are
+    too few to fix the functions the penalty leaves free.
 
     ``k`` observed values determine a polynomial of degree ``k - 1`` (a
     constant for the periodic Fourier basis, whose free functions are the
     constants); every alpha gives that fit, which interpolates the values
-    (residual 0, ``k`` degrees of freedom). The "rotated" rows it takes are
-    the curve values themselves (zero where missing).
+    (residual 0, ``k`` degrees of freedom, no restricted likelihood). The
+    "rotated" rows it takes are the curve values themselves (zero where
+    missing).
     """
 
     def __init__(self, problem, pattern):
         k = int(pattern.sum())
         self.degree = 0 if problem.basis.name == "fourier" else k - 1
+        self.n_null = self.degree + 1
         a, b = problem.basis.domain
         u = 2 * (problem.grid - a) / (b - a) - 1
         powers = u[:, None] ** np.arange(self.degree + 1)  # (m, d + 1)
         # basis coefficients of each power (exact: the basis holds them)
         coef = np.linalg.lstsq(problem.phi, powers, rcond=None)[0]  # (K, d + 1)
+        weights = problem.weights(pattern)
         # least-squares polynomial through the observed values
-        fit = np.linalg.pinv(powers[pattern] * np.sqrt(problem.weights[pattern, None]))
+        fit = np.linalg.pinv(powers[pattern] * np.sqrt(weights[pattern, None]))
         self.operator = np.zeros((pattern.size, problem.phi.shape[1]))
-        self.operator[pattern] = (coef @ fit * np.sqrt(problem.weights[pattern])).T
-        self.weights = problem.weights * pattern
-        self.n_obs = k
+        self.operator[pattern] = (coef @ fit * np.sqrt(weights[pattern])).T
+        self.weights = weights
 
     def coef(self, rotated, alpha):
         return rotated @ self.operator
@@ -165,57 +154,72 @@ class _LowOrderFit:
         squares = (np.asarray(rotated) ** 2) @ self.weights
         return np.repeat(squares[:, None], np.size(alphas), axis=1)
 
+    penalized_rss_reduction = rss_reduction
+
     def edf(self, alphas):
         return np.full(np.shape(alphas), float(self.degree + 1))
 
+    def log_det_ratio(self, alphas):
+        return np.zeros(np.size(alphas))
+
 
 class _Problem:
-    """The smoothing problem on the fitted grid: basis values, weights,
-    penalty and their diagonalisations. Rebuilt on demand, never stored."""
+    """The smoothing problem on the fitted grid: basis values, data weights,
+    the split penalty and its decompositions. Rebuilt on demand, never stored."""
 
     def __init__(self, estimator, grid, penalized):
         self.grid = grid
+        self.data_term = estimator.data_term
+        self.quadrature = estimator.quadrature
         self.basis = basis_for(estimator, grid, cap=not penalized)
-        self.weights = quadrature_weights(grid, estimator.quadrature)
         self.phi = self.basis.evaluate(grid)
-        self.penalty = (
-            _roughness(self.basis, estimator.penalty_order) if penalized else None
-        )
+        self.penalty = penalty_for(self.basis, estimator.penalty_order)
         # functions the penalty leaves free (0 without a penalty: then every
         # coefficient needs the data, and too few values are an error)
-        self.null_dimension = (
-            _unpenalized_dimension(self.basis, estimator.penalty_order)
-            if penalized else 0
-        )
+        self.null_dimension = self.penalty.n_null if penalized else 0
+        # s = 1: the data term's Gram matrix (Phi' W Phi / sum w) tends to the
+        # Gram matrix on [0, 1] as the grid fills the domain, so the engine
+        # weight of alpha = 1 is the total data weight. Its largest
+        # eigenvalue would estimate the same 1 but picks up the quadrature
+        # error of the most oscillatory basis function (1.3x on 201 points
+        # with 39 cubic B-splines, 4x on 51), which is not resolution-free.
+        w = self.weights()
+        self.full = self.path(w, scale=float(w.sum()))
 
-    def path(self, weights):
-        """Diagonalised problem with data weights ``weights`` (zero = missing)."""
+    def weights(self, observed=None):
+        """Data weights (:func:`skfunc._grid.data_weights`), zero where missing."""
+        if self.data_term == "integral":
+            w = quadrature_weights(self.grid, self.quadrature)
+            return w if observed is None else w * observed
+        return data_weights(self.grid, self.data_term, observed)
+
+    def path(self, weights, scale=None):
+        """Split path with data weights ``weights`` (zero = missing)."""
         phi_w = self.phi * weights[:, None]
-        return PenalizedPath(phi_w.T @ self.phi, self.penalty)
+        return SplitPath(phi_w.T @ self.phi, self.penalty, scale=scale)
 
     def rotation(self, path, weights):
         """Operator from curve values to rotated right-hand sides, (m, K)."""
         return (self.phi * weights[:, None]) @ path.eigvecs
 
-    def blocks(self, X, rows=None):
-        """Rows of X grouped by missing-value pattern.
+    def blocks(self, X, rows=None, scale=1.0):
+        """Rows of X (divided by ``scale``) grouped by missing-value pattern.
 
         Yields ``(rows, rotated, yWy, path, n_obs, total_weight)`` per group:
         row indices into X, rotated right-hand sides (len(rows), K), weighted
-        sums of squares, the group's :class:`PenalizedPath`, and the number
-        and total weight of observed points. ``rows=None`` means all rows,
-        and complete rows come first in one group.
+        sums of squares, the group's path, and the number and total weight
+        of observed points. ``rows=None`` means all rows, and complete rows
+        come first in one group.
         """
-        w = self.weights
         if rows is None:
-            path = self.path(w)
-            rotated, missing = _products(X, self.rotation(path, w))
+            w, path = self.weights(), self.full
+            rotated, missing = _products(X, self.rotation(path, w) / scale)
             complete = np.flatnonzero(~missing)
             if complete.size:
                 whole = complete.size == X.shape[0]
                 X_c = X if whole else X[complete]
                 yield (complete, rotated if whole else rotated[complete],
-                       _weighted_squares(X_c, w), path, w.size, float(w.sum()))
+                       _weighted_squares(X_c, w, scale), path, w.size, float(w.sum()))
             rows = np.flatnonzero(missing)
         if not rows.size:
             return
@@ -230,8 +234,8 @@ class _Problem:
         null = self.null_dimension
         for p, pattern in enumerate(patterns):
             group = rows[inverse.ravel() == p]
-            w_p = w * pattern
-            X_p = np.where(pattern, flagged[inverse.ravel() == p], 0.0)
+            w_p = self.weights(pattern)
+            X_p = np.where(pattern, flagged[inverse.ravel() == p], 0.0) / scale
             if pattern.sum() < null:
                 low = _LowOrderFit(self, pattern)
                 warnings.warn(
@@ -245,7 +249,9 @@ class _Problem:
                        int(pattern.sum()), float(w_p.sum()))
                 continue
             try:
-                path = self.path(w_p)
+                path = self.path(w_p, scale=self.full.scale)
+                if null == 0:  # unpenalized: every direction needs the data
+                    path.denominators(0.0)
             except NotIdentifiableError as exc:
                 raise ValueError(
                     f"Row {int(group[0])} of X has {int(pattern.sum())} observed "
@@ -258,52 +264,161 @@ class _Problem:
                    float(w_p.sum()))
 
 
+class PenalizedFitMixin:
+    """Alpha for a basis fit of curves from additive criterion statistics:
+    what :class:`CurveSmoother` and
+    :class:`~skfunc.preprocessing.BasisFeatures` share.
+
+    The estimator has the basis parameters, ``alpha``, ``criterion``,
+    ``data_term``, ``quadrature`` and ``grid_``.
+    """
+
+    def _alpha(self):
+        return check_alpha(self.alpha)
+
+    def _setup_alphas(self, X, problem):
+        """Candidates (``alphas_path_``) and the power-of-two scale of X."""
+        alpha = self._alpha()
+        if alpha is AUTO:
+            self.alphas_path_ = candidate_alphas(problem.full)
+        else:
+            self.alphas_path_ = np.atleast_1d(alpha)
+        if isinstance(alpha, float) and alpha == 0:
+            phi_w = problem.phi * problem.weights()[:, None]
+            check_unpenalized_fit(phi_w.T @ problem.phi, problem.basis.gram())
+        # a power of two fixed by the first batch: squares stay finite
+        self._x_scale = 1.0 if is_dask_array(X) else power_of_two_scale(X)
+
+    def _problem(self):
+        alpha = self._alpha()
+        penalized = not isinstance(alpha, float) or alpha > 0
+        return _Problem(self, self.grid_, penalized)
+
+    def _statistics(self, X):
+        """Additive criterion statistics of the curves in X, per candidate.
+
+        Keys ``rss`` and ``pen_rss`` (weighted residual and penalized
+        residual sums of squares per candidate), ``edf`` and ``logdet``
+        (effective degrees of freedom and REML determinant terms per
+        candidate), ``n_obs``, ``dof`` (observed points less unpenalized
+        functions) and ``weight`` (total data weight): sums over curves,
+        merged key by key (:func:`skfunc._penalized.merge`), in the units of
+        X divided by the first batch's power-of-two scale.
+        """
+        alphas = self.alphas_path_
+        zeros = np.zeros(alphas.size)
+        stats = [{"rss": zeros, "pen_rss": zeros, "edf": zeros, "logdet": zeros,
+                  "n_obs": 0, "dof": 0, "weight": 0.0}]
+        for rows, rotated, yy, path, n_obs, weight in self._problem().blocks(
+                X, scale=self._x_scale):
+            # the reductions are quadratic in each rotated column, so their
+            # sums over rows are the reductions of the column norms
+            norms = np.linalg.norm(rotated, axis=0)[None]
+            penalized = alphas > 0
+            pen_rss = np.zeros(alphas.size)
+            logdet = np.zeros(alphas.size)
+            if penalized.all():
+                pen_rss = yy.sum() - path.penalized_rss_reduction(norms, alphas)[0]
+                logdet = rows.size * path.log_det_ratio(alphas)
+            stats.append({
+                "rss": np.maximum(yy.sum() - path.rss_reduction(norms, alphas)[0], 0.0),
+                "pen_rss": np.maximum(pen_rss, 0.0),
+                "edf": rows.size * path.edf(alphas),
+                "logdet": logdet,
+                "n_obs": rows.size * n_obs,
+                "dof": rows.size * (n_obs - path.n_null),
+                "weight": rows.size * weight,
+            })
+        return merge(*stats)
+
+    def _scores(self, stats, k2=1.0):
+        """The pooled criterion per candidate; ``k2=_x_scale**2`` gives it in
+        the units of X (the statistics are of X divided by ``_x_scale``)."""
+        if self.criterion == "reml":
+            return reml_score(stats["pen_rss"] * k2, stats["dof"], stats["logdet"])
+        if not stats["n_obs"]:
+            return np.full(self.alphas_path_.size, np.inf)
+        return gcv_score(stats["rss"] * k2, stats["edf"], stats["n_obs"], stats["weight"])
+
+    def _choose(self, stats):
+        """Set ``alpha_``, ``criterion_path_``, ``edf_path_`` and ``edf_``
+        from pooled statistics; return the problem and the operator
+        ``(G + lam P)^{-1}`` at ``alpha_`` for complete curves."""
+        alphas = self.alphas_path_
+        if isinstance(self._alpha(), float):
+            self.criterion_path_ = None
+            self.alpha_ = float(alphas[0])
+        else:
+            best = _choose_rows(self._scores(stats), alphas, self.criterion.upper())
+            self.alpha_ = float(alphas[best[0]])
+            with np.errstate(over="ignore"):
+                self.criterion_path_ = self._scores(stats, self._x_scale**2)
+        problem = self._problem()
+        path = problem.full
+        self.edf_path_ = path.edf(alphas)
+        self.edf_ = float(path.edf(self.alpha_))
+        try:
+            operator = path.operator(self.alpha_)
+        except NotIdentifiableError as exc:
+            raise ValueError(
+                f"alpha=0 (no penalty) leaves coefficients undetermined on this "
+                f"grid: {problem.basis.n_basis} basis functions for "
+                f"{self.grid_.size} points. Use a smaller n_basis or alpha > 0 "
+                "(or 'auto')."
+            ) from exc
+        return problem, operator
+
+
 @fill_doc
-class CurveSmoother(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
-    """Smooth sampled curves with a roughness penalty chosen by GCV or given.
+class CurveSmoother(PenalizedFitMixin, AdditiveTransformerMixin, TransformerMixin,
+                    BaseEstimator):
+    """Smooth sampled curves with a roughness penalty chosen from the data.
 
     Each row of ``X`` is a curve sampled on a grid, possibly with missing
     values (NaN). It is replaced by the function ``f`` in a basis (B-splines,
     Fourier or Legendre polynomials) that minimises the penalized criterion
 
-    ``sum_j w_j (x_j - f(t_j))^2 + alpha * int (D^q f)^2``,
+    ``(1 / sum w) sum_j w_j (x_j - f(t_j))^2 + alpha * int_0^1 (D^q f)^2 du``
 
-    with quadrature weights ``w_j`` (``quadrature``) and ``q = penalty_order``, and
+    with data weights ``w_j`` (``data_term``), ``q = penalty_order`` and the
+    penalty on the domain mapped to [0, 1] (``u = (t - t_0) / L``), and
     ``f`` (or its derivative of order ``derivative``) is returned on
-    ``eval_points``. The data term approximates ``int (x - f)^2``, so
-    ``alpha`` means the same thing whatever the number or spacing of the
-    grid points, and results agree across samplings of the same curves.
+    ``eval_points``. The same alpha gives the same smooth whatever the
+    grid's unit or origin, the data's scale or the number of grid points.
 
-    ``alpha`` is either fixed (a hyperparameter to tune in, for example,
-    ``GridSearchCV``) or ``"gcv"``: chosen among ``alphas`` by generalized
-    cross-validation, once for all curves at fit (pooled over the training
-    curves) or, with ``per_curve=True``, for each curve at transform time.
+    By default alpha is chosen from the training curves (``alpha="auto"``)
+    by generalized cross-validation or REML, pooled over the curves at fit,
+    or, with ``per_curve=True``, for each curve at transform time; a number
+    fixes it (a hyperparameter to tune in, for example, ``GridSearchCV``).
 
     Parameters
     ----------
-    alpha : float >= 0 or "gcv", default="gcv"
-        Weight of the roughness penalty, or ``"gcv"`` to choose it from
-        ``alphas`` by generalized cross-validation. 0 means least squares
-        without a penalty.
-    alphas : array-like of shape (n_alphas,) or int, default=None
-        Positive candidate alphas for ``alpha="gcv"``; an int asks for that
-        many default candidates. None means 25 log-spaced candidates scaled
-        to the basis and domain (from nearly no smoothing to nearly only the
-        unpenalized functions; see Notes). Unused with a fixed alpha.
+    %(alpha)s
     per_curve : bool, default=False
-        With ``alpha="gcv"``, choose alpha for each curve separately at
-        transform time instead of once at fit.
+        When alpha is not fixed, choose it for each curve separately at
+        transform time (among ``alphas_path_``) instead of once at fit.
+    data_term : {"mean", "integral"}, default="mean"
+        ``"mean"``: the mean squared error over the observed points (noise
+        of the same variance at every observation, the usual measurement
+        model, and what GCV assumes). ``"integral"``: quadrature weights,
+        so the data term approximates ``int (x - f)^2`` (for curves known as
+        functions; noise then effectively weighs less where points are
+        dense).
     %(basis)s
+    %(period)s
     derivative : int, default=0
         Order of the derivative of the smoothed curve that :meth:`transform`
         returns (1 for rates, such as a cooling rate in degrees per unit of
         the grid). At most the basis' smoothness (the degree for B-splines).
+        Knots at every interior grid point (``interior_knots``) with
+        ``degree=3`` and ``penalty_order=2`` give the cubic smoothing spline.
     eval_points : array-like of shape (n_outputs,), default=None
         Points at which :meth:`transform` evaluates the smoothed curves
         (resampling); strictly increasing and inside the fitted grid's
         domain. None means the fitted grid.
     %(grid)s
-    %(quadrature)s
+    quadrature : {"trapezoid", "simpson"}, default="trapezoid"
+        Quadrature rule of the weights with ``data_term="integral"``.
 
     Attributes
     ----------
@@ -313,17 +428,7 @@ class CurveSmoother(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
         Points at which :meth:`transform` evaluates the curves.
     n_basis_ : int
         Number of basis functions.
-    alphas_ : ndarray of shape (n_alphas,)
-        Candidate alphas; with a fixed ``alpha``, the array ``[alpha]``.
-    criterion_ : ndarray of shape (n_alphas,)
-        GCV score of each candidate, pooled over the training curves (lower
-        is better; inf where undefined). Plot it against ``alphas_`` to see
-        the choice.
-    alpha_ : float
-        The alpha used by :meth:`transform` for every curve: the GCV choice
-        (the minimiser of ``criterion_``) or the given alpha. With
-        ``per_curve=True`` it is only the pooled choice; :meth:`transform`
-        uses :meth:`choose_alphas` instead.
+    %(alpha_attributes)s
     edf_ : float
         Effective degrees of freedom (trace of the hat matrix) of the smoother
         at ``alpha_`` for a complete curve on ``grid_``.
@@ -345,34 +450,29 @@ class CurveSmoother(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
 
     Notes
     -----
-    Interior knots at every interior grid point with ``degree=3`` and
-    ``penalty_order=2`` give the cubic smoothing spline.
+    All candidate alphas and all curves share one decomposition of the
+    penalized problem (Demmler and Reinsch, 1975) per pattern of missing
+    values, in the basis split into the penalty's null space and its
+    complement, so the null space (straight lines for ``penalty_order=2``)
+    is exactly unpenalized and criteria for ``n`` curves of ``m`` points
+    with ``K`` basis functions and ``L`` candidates cost ``O(n m K + n K L)``.
 
-    All candidate alphas and all curves share one simultaneous
-    diagonalisation of the penalized problem (Demmler and Reinsch, 1975) per
-    pattern of missing values, so GCV for ``n`` curves of ``m`` points with
-    ``K`` basis functions and ``L`` candidates costs ``O(n m K + n K L)``.
-
-    The GCV score of a candidate is
-    ``(RSS / sum w) / (1 - edf / m)^2`` with the weighted residual sum of
-    squares ``RSS`` and the trace ``edf`` of the hat matrix (Craven and
-    Wahba, 1979); pooled over curves, ``RSS``, ``edf``, ``m`` and ``sum w``
-    are sums over the curves. Where every candidate's score is undefined
-    (a curve with no more observations than unpenalized functions), the
-    largest candidate is used.
-
-    Default candidates: with ``rho`` the eigenvalues of the roughness
-    matrix relative to the Gram matrix of the basis, 25 log-spaced values
-    from ``0.01 / max(rho)`` to ``100 / min(rho > 0)``.
+    The GCV score of a candidate is ``(RSS / sum w) / (1 - edf / m)^2``
+    with the weighted residual sum of squares ``RSS`` and the trace ``edf``
+    of the hat matrix (Craven and Wahba, 1979); pooled over curves, ``RSS``,
+    ``edf``, ``m`` and ``sum w`` are sums over the curves. REML pools the
+    restricted likelihoods of the curves with one noise variance. Where a
+    curve's criterion is undefined for every candidate (no more
+    observations than unpenalized functions), the largest candidate is
+    used. A choice at an end of the candidates warns
+    (:class:`skfunc._alpha.AlphaAtEdgeWarning`).
 
     A missing value (NaN) is an unobserved point: it gets zero weight and the
     smooth there follows the neighbouring observations and the penalty
     (linearly across long gaps and beyond the last observation, for
     ``penalty_order=2``).
 
-    Smoothed values and especially derivatives are estimates; validate them
-    on your own process data before they drive a quality or safety decision,
-    and follow the applicable standards and qualified practice.
+    %(cautions)s
 
     References
     ----------
@@ -381,6 +481,10 @@ class CurveSmoother(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
 
     Demmler, A. and Reinsch, C. (1975). Oscillation matrices with spline
     smoothing. *Numerische Mathematik* 24, 375-382.
+
+    Wood, S. N. (2011). Fast stable restricted maximum likelihood and
+    marginal likelihood estimation of semiparametric generalized linear
+    models. *Journal of the Royal Statistical Society, Series B* 73(1), 3-36.
 
     Ramsay, J. O. and Silverman, B. W. (2005). *Functional Data Analysis*,
     2nd ed., ch. 5. Springer.
@@ -409,7 +513,7 @@ class CurveSmoother(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
            [1.],
            [1.],
            [1.]])
-    >>> rates.alpha_ == smoother.alpha_  # chosen by GCV on the training curves
+    >>> rates.alpha_ == smoother.alpha_  # chosen on the training curves
     True
     """
 
@@ -418,16 +522,18 @@ class CurveSmoother(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
 
     _parameter_constraints = {
         **BASIS_CONSTRAINTS,
-        "alpha": [Interval(Real, 0, None, closed="left"), StrOptions({"gcv"})],
-        "alphas": ["array-like", Interval(Integral, 1, None, closed="left"), None],
+        "alpha": ALPHA_CONSTRAINT,
+        "criterion": [StrOptions(set(CRITERIA))],
         "per_curve": ["boolean"],
+        "data_term": [StrOptions(set(DATA_TERMS))],
         "derivative": [Interval(Integral, 0, None, closed="left")],
         "eval_points": ["array-like", None],
     }
 
-    def __init__(self, alpha="gcv", *, alphas=None, per_curve=False, basis="bspline",
-                 n_basis=None, degree=3, interior_knots=None, penalty_order=2,
-                 derivative=0, eval_points=None, grid=None, quadrature="trapezoid"):
+    def __init__(self, alpha="auto", *, criterion="gcv", per_curve=False,
+                 data_term="mean", basis="bspline", n_basis=None, degree=3,
+                 interior_knots=None, penalty_order=2, period=None, derivative=0,
+                 eval_points=None, grid=None, quadrature="trapezoid"):
         store_init_params(self, locals())
 
     def __sklearn_tags__(self):
@@ -440,16 +546,17 @@ class CurveSmoother(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
     def _validate_batch(self, X, y, sample_weight, first):
         X = validate_curves(self, X, reset=first, allow_nan=True)
         if first:
-            self._setup()
+            self._setup(X)
         return (X,)
 
-    def _setup(self):
+    def _setup(self, X):
         """Everything that depends on the parameters and grid only."""
-        if self.per_curve and self.alpha != "gcv":
+        alpha = self._alpha()
+        if self.per_curve and isinstance(alpha, float):
             raise ValueError(
-                f"per_curve=True chooses alpha for each curve by GCV and needs "
-                f'alpha="gcv"; got alpha={self.alpha!r}. Use alpha="gcv" or '
-                "per_curve=False."
+                f"per_curve=True chooses alpha for each curve and needs alpha="
+                f'"auto" or candidates; got alpha={self.alpha!r}. Use alpha="auto" '
+                "or per_curve=False."
             )
         problem = self._problem()
         basis = problem.basis
@@ -468,68 +575,12 @@ class CurveSmoother(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
             self.eval_points_ = out
         self.evaluation_ = basis.evaluate(self.eval_points_, self.derivative)
         self.n_basis_ = basis.n_basis
-        self.alphas_ = self._candidates(basis)
-
-    def _candidates(self, basis):
-        if self.alpha != "gcv":
-            return np.array([float(self.alpha)])
-        if self.alphas is None or isinstance(self.alphas, Integral):
-            return default_alphas(basis, self.penalty_order, self.alphas or N_ALPHAS)
-        alphas = np.asarray(self.alphas, dtype=np.float64)
-        if alphas.ndim != 1 or alphas.size == 0 or not np.all(np.isfinite(alphas)):
-            raise ValueError(
-                "alphas must be a non-empty 1-D array of finite positive "
-                f"numbers, an int, or None; got {self.alphas!r}."
-            )
-        if np.any(alphas <= 0):
-            raise ValueError(
-                "alphas must all be positive (candidate roughness penalties); "
-                f"got {alphas[alphas <= 0].tolist()}."
-            )
-        return alphas
-
-    def _problem(self):
-        penalized = self.alpha == "gcv" or self.alpha > 0
-        return _Problem(self, self.grid_, penalized)
-
-    def _statistics(self, X):
-        """Additive GCV statistics of the curves in X, for every candidate.
-
-        Keys ``rss``, ``edf`` (weighted residual sums of squares and effective
-        degrees of freedom per candidate, summed over curves), ``n_obs`` and
-        ``weight`` (observed points and their total weight): sums over
-        curves, merged key by key (:func:`skfunc._penalized.merge`).
-        """
-        zeros = np.zeros(self.alphas_.size)
-        stats = [{"rss": zeros, "edf": zeros, "n_obs": 0, "weight": 0.0}]
-        for rows, rotated, yy, path, n_obs, weight in self._problem().blocks(X):
-            # the reduction is quadratic in each rotated column, so its sum
-            # over rows is the reduction of the column norms
-            norms = np.linalg.norm(rotated, axis=0)[None]
-            reduction = path.rss_reduction(norms, self.alphas_)[0]
-            stats.append({
-                "rss": np.maximum(yy.sum() - reduction, 0.0),
-                "edf": rows.size * path.edf(self.alphas_),
-                "n_obs": rows.size * n_obs,
-                "weight": rows.size * weight,
-            })
-        return merge(*stats)
+        self._setup_alphas(X, problem)
 
     def _solve(self, stats):
-        """Choose alpha from pooled statistics and build the operators."""
-        if stats["n_obs"]:
-            self.criterion_ = gcv_score(
-                stats["rss"], stats["edf"], stats["n_obs"], stats["weight"]
-            )
-        else:
-            self.criterion_ = np.full(self.alphas_.size, np.inf)
-        best = _gcv_choice(self.criterion_, self.alphas_)
-        self.alpha_ = float(self.alphas_[best])
-        problem = self._problem()
-        w = problem.weights
-        path = problem.path(w)
-        self.edf_ = float(path.edf(self.alpha_))
-        self.projection_ = path.operator(self.alpha_) @ (problem.phi * w[:, None]).T
+        """Choose alpha from pooled statistics and build the operator."""
+        problem, operator = self._choose(stats)
+        self.projection_ = operator @ (problem.phi * problem.weights()[:, None]).T
         return self
 
     # -- transforming --------------------------------------------------------
@@ -558,12 +609,13 @@ class CurveSmoother(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
         out, missing = _products(X, self.projection_.T, self.evaluation_.T)
         if missing.any():
             rows = np.flatnonzero(missing)
-            for group, rotated, _, path, _, _ in self._problem().blocks(X, rows):
-                out[group] = path.coef(rotated, self.alpha_) @ self.evaluation_.T
+            scale = power_of_two_scale(X[rows])
+            for group, rotated, _, path, _, _ in self._problem().blocks(X, rows, scale):
+                out[group] = (path.coef(rotated, self.alpha_) @ self.evaluation_.T) * scale
         return out
 
     def choose_alphas(self, X):
-        """The alpha GCV chooses for each curve among ``alphas_``.
+        """The alpha the criterion chooses for each curve among ``alphas_path_``.
 
         This is the choice :meth:`transform` uses with ``per_curve=True``.
 
@@ -595,15 +647,19 @@ class CurveSmoother(AdditiveTransformerMixin, TransformerMixin, BaseEstimator):
             return validate_curves(self, X, reset=False, allow_nan=True)
 
     def _per_curve(self, X):
-        """Basis coefficients (n, K) and alphas (n,) chosen by per-curve GCV."""
+        """Basis coefficients (n, K) and alphas (n,) chosen curve by curve."""
         coef = np.empty((X.shape[0], self.n_basis_))
         chosen = np.empty(X.shape[0])
-        alphas = self.alphas_
-        for rows, rotated, yy, path, n_obs, weight in self._problem().blocks(X):
-            rss = yy[:, None] - path.rss_reduction(rotated, alphas)
-            scores = gcv_score(np.maximum(rss, 0.0), path.edf(alphas), n_obs, weight)
-            chosen[rows] = alphas[_gcv_choice(scores, alphas)]
-            coef[rows] = path.coef(rotated, chosen[rows])
+        alphas = self.alphas_path_
+        scale = power_of_two_scale(X)
+        for rows, rotated, yy, path, n_obs, weight in self._problem().blocks(X, scale=scale):
+            if self.criterion == "reml":
+                scores = reml_criterion(path, rotated, yy, n_obs, alphas)
+            else:
+                scores = gcv_criterion(path, rotated, yy, n_obs, alphas,
+                                       total_weight=weight)
+            chosen[rows] = alphas[_choose_rows(scores, alphas, self.criterion.upper())]
+            coef[rows] = path.coef(rotated, chosen[rows]) * scale
         return coef, chosen
 
     def get_feature_names_out(self, input_features=None):

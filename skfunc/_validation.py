@@ -13,7 +13,7 @@ from scipy.sparse import issparse
 from sklearn.utils._param_validation import Interval, StrOptions
 from sklearn.utils.validation import validate_data
 
-from ._bases import BASES, make_basis
+from ._bases import BASES, default_n_basis, default_period, make_basis
 from ._blocks import is_dask_array
 from ._dask import validate_dask
 from ._grid import QUADRATURES, check_grid, grid_from_labels, resolve_grid
@@ -26,6 +26,7 @@ BASIS_CONSTRAINTS = {
     "degree": [Interval(Integral, 0, None, closed="left")],
     "interior_knots": ["array-like", None],
     "penalty_order": [Interval(Integral, 0, None, closed="left")],
+    "period": [Interval(Real, 0, None, closed="neither"), None],
     "grid": ["array-like", None],
     "quadrature": [StrOptions(set(QUADRATURES))],
 }
@@ -183,8 +184,8 @@ MAX_N_BASIS = 11585
 def resolve_n_basis(basis, n_basis, n_points, degree=3, knots=None, cap=True):
     """The number of basis functions to use.
 
-    ``n_basis=None`` means the basis' default, capped by the number of grid
-    points (and, for B-splines, at least ``degree + 1``). An explicit value
+    ``n_basis=None`` means :func:`skfunc._bases.default_n_basis` (P-spline
+    practice: generous, never near interpolation on short grids). An explicit value
     above ``n_points`` is an error when ``cap`` is true (an unpenalized
     least-squares fit cannot determine more functions than points).
     """
@@ -193,7 +194,7 @@ def resolve_n_basis(basis, n_basis, n_points, degree=3, knots=None, cap=True):
     if knots is not None:
         resolved = len(knots) + degree + 1
     elif n_basis is None:
-        resolved = min(BASES[basis].default_n_basis, n_points)
+        resolved = default_n_basis(basis, n_points, degree)
     else:
         resolved = n_basis
     if resolved > MAX_N_BASIS:
@@ -215,7 +216,9 @@ def resolve_n_basis(basis, n_basis, n_points, degree=3, knots=None, cap=True):
 def basis_for(estimator, grid, cap=True):
     """Build the basis named by ``estimator``'s parameters on the grid's domain.
 
-    Reads ``basis``, ``n_basis``, ``degree`` and ``interior_knots`` from the estimator.
+    Reads ``basis``, ``n_basis``, ``degree``, ``interior_knots`` and ``period``
+    (Fourier; None means :func:`skfunc._bases.default_period` of the grid)
+    from the estimator.
     With ``n_basis=None`` on a grid of fewer than ``degree + 1`` points, the
     B-spline degree is lowered to ``n_points - 1`` (the polynomial through the
     points): the adaptive default serves tiny grids, while an explicit
@@ -228,4 +231,11 @@ def basis_for(estimator, grid, cap=True):
     n_basis = resolve_n_basis(name, estimator.n_basis, grid.size, degree, knots, cap)
     if name == "bspline" and estimator.n_basis is None and knots is None:
         degree = min(degree, n_basis - 1)
-    return make_basis(name, (grid[0], grid[-1]), n_basis, degree=degree, knots=knots)
+    period = getattr(estimator, "period", None)
+    if name != "fourier":
+        period = None
+    elif period is None and hasattr(estimator, "period"):
+        period = default_period(grid)
+    # an estimator without a period parameter keeps the domain's length
+    return make_basis(name, (grid[0], grid[-1]), n_basis, degree=degree, knots=knots,
+                      period=period)

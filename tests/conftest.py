@@ -150,11 +150,13 @@ def _curves_and_curves(grid):
 
 ESTIMATOR_CASES = {
     "BasisFeatures": dict(
-        params=lambda grid: {"n_basis": 12, "grid": grid},
+        params=lambda grid: {"n_basis": 12, "alpha": 1e-6, "data_term": "integral",
+                             "grid": grid},
         data=_curves_only, output=_transform, curve_input=True,
     ),
     "CurveSmoother": dict(
-        params=lambda grid: {"alpha": 1e-5, "grid": grid, "eval_points": COMMON_POINTS},
+        params=lambda grid: {"alpha": 1e-5, "data_term": "integral", "grid": grid,
+                             "eval_points": COMMON_POINTS},
         data=_curves_only, output=_transform, curve_input=True,
     ),
     "FunctionalPCA": dict(
@@ -166,7 +168,7 @@ ESTIMATOR_CASES = {
         data=_curves_and_outcome, output=_predict, curve_input=True,
     ),
     "FunctionalRidgeCV": dict(
-        params=lambda grid: {"alphas": np.logspace(-8, -1, 8), "n_basis": 12,
+        params=lambda grid: {"alpha": np.logspace(-10, -2, 9), "n_basis": 12,
                              "grid": grid},
         data=_curves_and_outcome, output=_predict, curve_input=True,
     ),

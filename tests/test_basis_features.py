@@ -23,8 +23,11 @@ def test_euclidean_distance_equals_exact_l2_distance_legendre(rng):
     t = np.concatenate([[-1.0], np.sort(rng.uniform(-1, 3, 148)), [3.0]])
     X = smooth_curves(t, n=2)
     K = 7
-    Z = BasisFeatures(basis="legendre", n_basis=K, grid=t).fit_transform(X)
-    w = BasisFeatures(grid=t).fit(X).quadrature_weights_
+    Z = BasisFeatures(basis="legendre", n_basis=K, grid=t, alpha=0,
+                      data_term="integral").fit_transform(X)
+    from skfunc._grid import quadrature_weights
+
+    w = quadrature_weights(t)
     V = npleg.legvander(2 * (t + 1) / 4 - 1, K - 1) * np.sqrt(w)[:, None]
     c = [np.linalg.lstsq(V, x * np.sqrt(w), rcond=None)[0] for x in X]
     diff = Legendre(c[0] - c[1], domain=[-1, 3])
@@ -38,8 +41,10 @@ def test_square_wave_fourier_coefficients():
     # in the orthonormal basis sqrt(2) sin(2 pi k t) the coordinate is 4/(pi k)/sqrt(2).
     t = np.linspace(0, 1, 20001)
     x = np.sign(np.sin(2 * np.pi * t))
-    Z = BasisFeatures(basis="fourier", n_basis=11, grid=t).fit_transform(x[None, :])[0]
-    names = list(BasisFeatures(basis="fourier", n_basis=11).fit(x[None, :]).get_feature_names_out())
+    # the grid closes the cycle: period 1, unpenalized projection
+    est = BasisFeatures(basis="fourier", n_basis=11, grid=t, period=1.0, alpha=0)
+    Z = est.fit_transform(x[None, :])[0]
+    names = list(est.get_feature_names_out())
     for k in range(1, 6):
         expected = 4 / (np.pi * k) / np.sqrt(2) if k % 2 else 0.0
         assert abs(Z[names.index(f"sin{k}")] - expected) < 1e-3
@@ -49,20 +54,23 @@ def test_square_wave_fourier_coefficients():
 
 def test_penalized_projection_matches_augmented_least_squares(rng):
     # Reference: numpy.linalg.lstsq on the augmented system [sqrt(W) Phi; sqrt(alpha) R]
-    # with P = R'R, the textbook form of penalized least squares (common practice).
-    t = np.sort(rng.uniform(0, 1, 60))
-    t[0], t[-1] = 0.0, 1.0
+    # with P = R'R, the textbook form of penalized least squares (common practice),
+    # on a grid of length 2 from 3 to 5, with the unit-free alpha converted by the
+    # smoother's definition: objective (1 / sum w) ||x - f||_W^2 + alpha int_0^1
+    # (f'')^2 du, so lam = alpha * sum(w) * L^(2q - 1) = alpha * 2 * 2^3.
+    t = 3 + 2 * np.sort(rng.uniform(0, 1, 60))
+    t[0], t[-1] = 3.0, 5.0
     X = smooth_curves(t, n=3) + rng.normal(scale=0.1, size=(3, t.size))
-    alpha = 1e-4
-    est = BasisFeatures(n_basis=12, alpha=alpha, grid=t).fit(X)
+    est = BasisFeatures(n_basis=12, alpha=1e-4, grid=t, data_term="integral").fit(X)
     from skfunc._bases import BSplineBasis
     from skfunc._grid import quadrature_weights
 
-    basis = BSplineBasis((0.0, 1.0), 12)
+    basis = BSplineBasis((3.0, 5.0), 12)
     phi = basis.evaluate(t)
+    sw = np.sqrt(quadrature_weights(t))
+    alpha = 1e-4 * 2.0 * 2.0**3
     s, v = np.linalg.eigh(basis.penalty(2))
     R = (v * np.sqrt(np.clip(s, 0, None))).T
-    sw = np.sqrt(quadrature_weights(t))
     A = np.vstack([phi * sw[:, None], np.sqrt(alpha) * R])
     for x, xhat in zip(X, est.inverse_transform(est.transform(X))):
         c = np.linalg.lstsq(A, np.concatenate([x * sw, np.zeros(12)]), rcond=None)[0]
@@ -74,7 +82,7 @@ def test_interpolation_reproduces_curves(rng):
     t = np.linspace(0, 1, 8)
     X = rng.normal(size=(5, 8))
     for basis in ("bspline", "legendre"):
-        est = BasisFeatures(basis=basis, n_basis=8).fit(X)
+        est = BasisFeatures(basis=basis, n_basis=8, alpha=0).fit(X)
         np.testing.assert_allclose(est.inverse_transform(est.transform(X)), X, atol=1e-8)
     assert est.grid_.tolist() == t.tolist()
 
@@ -129,7 +137,7 @@ def test_in_pipeline_under_grid_search(rng):
         ({}, np.ones(4), "2D array"),
         ({}, np.ones((2, 2, 2)), "dim 3"),
         ({}, np.ones((3, 1)), "at least 2 grid points"),
-        ({"n_basis": 5}, np.ones((3, 4)), "n_basis=5 exceeds the 4 grid points"),
+        ({"n_basis": 5, "alpha": 0}, np.ones((3, 4)), "n_basis=5 exceeds the 4 grid points"),
         ({"n_basis": 4, "degree": 4}, np.ones((3, 10)), "n_basis >= 5"),
         ({"degree": -1}, np.ones((3, 10)), "'degree' parameter"),
         ({"alpha": -1.0}, np.ones((3, 10)), "'alpha' parameter"),
@@ -147,5 +155,6 @@ def test_transform_with_other_number_of_points():
     est = BasisFeatures().fit(np.ones((3, 10)))
     with pytest.raises(ValueError, match="X has 9 features, but BasisFeatures is expecting 10"):
         est.transform(np.ones((3, 9)))
-    with pytest.raises(ValueError, match="Expected 10 coordinates per row"):
+    # the default basis on 10 points: 4 + 10 // 4 = 6 B-splines
+    with pytest.raises(ValueError, match="Expected 6 coordinates per row"):
         est.inverse_transform(np.ones((3, 4)))

@@ -184,6 +184,73 @@ def test_repr_of_a_pipeline_shows_every_step(name):
     assert np.get_printoptions()["threshold"] == 1000  # numpy's default kept
 
 
+#: grid unit and origin (t -> A + C t), data scales of X and of curve responses
+UNIT_SHIFT, UNIT_STRETCH, X_SCALE, Y_SCALE = -3.0, 250.0, 1e3, 1e-2
+
+#: curve-valued responses are scaled with X (their predictions by Y_SCALE)
+_CURVE_RESPONSE = ("FunctionOnScalarRidge", "FunctionOnFunctionRidge",
+                   "ConcurrentFunctionRidge")
+
+
+def _fitted_values(name, est, X):
+    """What must not depend on units, in the data's units: smoothed curves,
+    reconstructions, predictions."""
+    if name == "CurveSmoother" or name.endswith("Aligner"):
+        return est.transform(X)  # smoothed or aligned curves
+    if hasattr(est, "inverse_transform"):
+        return est.inverse_transform(est.transform(X))
+    if hasattr(est, "predict_proba"):
+        return est.predict_proba(X)
+    return est.predict(X)
+
+
+def _unit_case(name, alpha, moved):
+    estimator, X, y, _ = make_case(name, EVEN)
+    params = {}
+    if moved:
+        new = UNIT_SHIFT + UNIT_STRETCH * EVEN
+        for key in ("grid", "response_grid"):
+            if key in estimator.get_params():
+                params[key] = new
+        if name == "CurveSmoother":
+            params["eval_points"] = None
+        X = X * X_SCALE
+        template = estimator.get_params().get("template")
+        if template is not None:  # a template curve is data: in X's units
+            params["template"] = np.asarray(template) * X_SCALE
+        if name in _CURVE_RESPONSE:
+            y = y * Y_SCALE
+    elif name == "CurveSmoother":
+        params["eval_points"] = None
+    if alpha is not None and "alpha" in estimator.get_params():
+        params["alpha"] = alpha
+    return estimator.set_params(**params).fit(X, y), X
+
+
+@pytest.mark.parametrize("alpha", [None, "auto"], ids=["fixed", "auto"])
+@pytest.mark.parametrize("name", NAMES)
+def test_unit_invariance(name, alpha):
+    # The unit-free alpha (docs/bases_and_penalties.rst): a grid in other
+    # units and origin (t -> -3 + 250 t), X times 1e3 and curve responses times
+    # 1e-2 give the same fit in the data's units, at the case's fixed alpha
+    # and at the automatic choice, to 1e-8 relative (rounding of the products,
+    # a few hundred ulps; a penalty in the grid's own units changes fits by
+    # orders of magnitude more, 250^3 here).
+    if name == "FunctionalPCA" and alpha == "auto":
+        pytest.xfail("FunctionalPCA has no automatic choice of alpha yet")
+    base, X = _unit_case(name, alpha, moved=False)
+    moved, X_moved = _unit_case(name, alpha, moved=True)
+    if name == "SparseFunctionalPCA":
+        pytest.xfail("SparseFunctionalPCA's alpha is not yet unit-free")
+    out_scale = X_SCALE if name in ("CurveSmoother", "BasisFeatures", "FunctionalPCA")  \
+        or name.endswith("Aligner") else (
+        Y_SCALE if name in _CURVE_RESPONSE else 1.0)
+    if getattr(base, "alpha_", None) is not None:
+        np.testing.assert_allclose(moved.alpha_, base.alpha_, rtol=1e-8)
+    assert _relative(_fitted_values(name, moved, X_moved) / out_scale,
+                     _fitted_values(name, base, X)) < 1e-8
+
+
 def _takes_sample_weight(name):
     import inspect
 

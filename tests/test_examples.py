@@ -54,7 +54,8 @@ def test_nearest_neighbour_recipe_distance_is_the_l2_distance():
     t = np.linspace(0.0, 2.0, 401)
     # random Fourier series of 11 terms on [0, 2] (make_smooth_regression)
     X, y, _ = make_smooth_regression(30, grid=t, n_terms=11, random_state=0)
-    coords = BasisFeatures(basis="fourier", n_basis=11, grid=t).fit_transform(X)
+    coords = BasisFeatures(basis="fourier", n_basis=11, alpha=0,
+                           period=2.0, grid=t).fit_transform(X)
     euclidean = np.linalg.norm(coords[:, None] - coords[None], axis=-1)
     direct = np.sqrt(simpson((X[:, None] - X[None]) ** 2, x=t, axis=-1))
     np.testing.assert_allclose(euclidean, direct, rtol=1e-6, atol=1e-9)

@@ -33,6 +33,17 @@ def _scalar_data(rng, n=60, p=3, m=41, noise=0.3, grid=None):
     return X, Y, t, beta
 
 
+def _engine_lambda(alpha, X, w):
+    """The weight of the response roughness ``int (D^2 beta)^2`` (on a grid of
+    length 1) for a unit-free alpha, by its definition
+    (docs/bases_and_penalties.rst): alpha times the largest eigenvalue of the
+    centred X'X times the response side's weight, the sum of its quadrature
+    weights (as for a smoother)."""
+    Xc = X - X.mean(axis=0)
+    design = np.linalg.eigvalsh(Xc.T @ Xc)[-1]
+    return np.asarray(alpha) * design * w.sum()
+
+
 def _trapezoid(t):
     w = np.zeros_like(t)
     w[:-1] += np.diff(t) / 2
@@ -105,22 +116,23 @@ def test_bands_equal_pointwise_ols_standard_errors(rng):
 
 
 def test_fixed_alpha_matches_dense_kronecker_solve(rng):
-    # The criterion sum_i int (Y_i - fit_i)^2 + alpha sum_j int (D^2 beta_j)^2
-    # written out as one dense least-squares system over vec(B) and solved
-    # with numpy.linalg.solve (common practice: normal equations).
+    # The criterion sum_i int (Y_i - fit_i)^2 + lam sum_{j >= 1} int (D^2 beta_j)^2
+    # (the intercept function unpenalized) written out as one dense
+    # least-squares system over vec(B) and solved with numpy.linalg.solve
+    # (common practice: normal equations).
     X, Y, t, _ = _scalar_data(rng, n=30, p=2, m=21)
-    alpha = 0.01
-    model = FunctionOnScalarRidge(alpha=alpha, n_basis=8, response_grid=t).fit(X, Y)
+    model = FunctionOnScalarRidge(alpha=0.01, n_basis=8, response_grid=t).fit(X, Y)
     from skfunc._bases import make_basis
 
     basis = make_basis("bspline", (0, 1), 8)
     phi, P = basis.evaluate(t), basis.penalty(2)
     w = _trapezoid(t)
+    alpha = _engine_lambda(0.01, X, w)
     Xc = X - X.mean(axis=0)
     Z = np.column_stack([np.ones(len(X)), Xc])
     D = np.kron(Z, phi)  # rows (i, t), columns (j, k)
     Wd = np.tile(w, len(X))
-    lhs = D.T @ (Wd[:, None] * D) + alpha * np.kron(np.eye(3), P)
+    lhs = D.T @ (Wd[:, None] * D) + alpha * np.kron(np.diag([0.0, 1, 1]), P)
     B = np.linalg.solve(lhs, D.T @ (Wd * Y.ravel())).reshape(3, 8)
     coef = B[1:] @ phi.T
     intercept = B[0] @ phi.T - X.mean(axis=0) @ coef
@@ -134,24 +146,25 @@ def test_gcv_criterion_matches_dense_hat_matrix(rng):
     # explicitly from the dense system for each candidate alpha.
     X, Y, t, _ = _scalar_data(rng, n=20, p=2, m=11)
     alphas = [1e-4, 1e-2, 1.0]
-    model = FunctionOnScalarRidge(alphas=alphas, n_basis=6, response_grid=t).fit(X, Y)
+    model = FunctionOnScalarRidge(alpha=alphas, n_basis=6, response_grid=t).fit(X, Y)
     from skfunc._bases import make_basis
 
     basis = make_basis("bspline", (0, 1), 6)
     phi, P = basis.evaluate(t), basis.penalty(2)
     w = _trapezoid(t)
+    lams = _engine_lambda(alphas, X, w)
     Z = np.column_stack([np.ones(len(X)), X - X.mean(axis=0)])
     D = np.kron(Z, phi)
     Wd = np.tile(w, len(X))
     N = Y.size
     expected = []
-    for alpha in alphas:
-        lhs = D.T @ (Wd[:, None] * D) + alpha * np.kron(np.eye(3), P)
+    for alpha in lams:
+        lhs = D.T @ (Wd[:, None] * D) + alpha * np.kron(np.diag([0.0, 1, 1]), P)
         H = D @ np.linalg.solve(lhs, D.T * Wd)
         resid = Y.ravel() - H @ Y.ravel()
         rss = resid**2 @ Wd
         expected.append((rss / (len(X) * w.sum())) / (1 - np.trace(H) / N) ** 2)
-    assert_allclose(model.criterion_, expected, rtol=1e-8)
+    assert_allclose(model.criterion_path_, expected, rtol=1e-8)
     assert model.alpha_ == alphas[int(np.argmin(expected))]
 
 
@@ -174,8 +187,8 @@ def test_gcv_recovers_smooth_coefficients(rng):
     err = ((model.coef_function_ - beta) ** 2) @ w
     err_raw = ((per_point - beta) ** 2) @ w
     assert np.all(err < err_raw)  # smoothing beats pointwise least squares
-    assert model.alphas_.size == 25 and model.criterion_.shape == (25,)
-    assert model.alphas_[0] < model.alpha_ < model.alphas_[-1]
+    assert model.alphas_path_.size == 25 and model.criterion_path_.shape == (25,)
+    assert model.alphas_path_[0] < model.alpha_ < model.alphas_path_[-1]
 
 
 def test_band_coverage_in_simulation():
@@ -250,7 +263,7 @@ def test_concurrent_one_response_point_is_simple_regression(rng):
     X = rng.normal(size=(n, m))
     y = 1 + 3 * X[:, :1] + rng.normal(size=(n, 1)) * (1 + np.abs(X[:, :1]))
     z = 1.959963984540054  # 97.5% normal quantile (from memory)
-    for alpha in (None, 0.0, 10.0):
+    for alpha in ("auto", 0.0, 10.0):
         model = ConcurrentFunctionRidge(alpha, grid=t).fit(X, y)
         assert_allclose(model.response_grid_, [0.5])  # default: the domain's start
         ols = LinearRegression().fit(X[:, :1], y)
@@ -517,8 +530,10 @@ def test_bad_input_messages(rng):
         model.predict(X, eval_points=[0.5, 1.5])
     with pytest.raises(ValueError, match="level must be in"):
         model.confidence_band(1.5)
-    with pytest.raises(ValueError, match="alphas must be"):
-        FunctionOnScalarRidge(alphas=[-1.0, 1.0]).fit(X, Y)
+    with pytest.raises(ValueError, match="candidates > 0"):
+        FunctionOnScalarRidge(alpha=[-1.0, 1.0]).fit(X, Y)
+    with pytest.raises(ValueError, match="'criterion' parameter"):
+        FunctionOnScalarRidge(criterion="loo").fit(X, Y)
     with pytest.raises(ValueError, match="alpha"):
         FunctionOnScalarRidge(alpha=-1.0).fit(X, Y)
     with pytest.raises(ValueError, match="n_basis=60 exceeds"):

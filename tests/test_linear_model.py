@@ -40,16 +40,29 @@ def legendre_design(X, t, n_basis):
     return X @ (trapezoid_weights(t)[:, None] * phi)
 
 
+def _top_eigenvalue(Z, w=None, center=True):
+    """Largest eigenvalue of the weighted centred cross products Z'WZ: the
+    scale of the unit-free alpha (docs/bases_and_penalties.rst), here with an
+    orthonormal basis on [0, 1], so sklearn's alpha = ours * this."""
+    w = np.ones(Z.shape[0]) if w is None else w
+    Zc = Z - w @ Z / w.sum() if center else Z
+    return np.linalg.eigvalsh((Zc * w[:, None]).T @ Zc)[-1]
+
+
 def test_identity_penalty_in_fourier_basis_equals_sklearn_ridge(rng):
     # Source: sklearn.linear_model.Ridge on BasisFeatures output. The Fourier
-    # basis is L2-orthonormal and the trapezoid rule integrates its products
-    # exactly on this closed even grid (common practice), so BasisFeatures'
-    # coordinates are the integrated design and penalty_order=0 gives P = I.
+    # basis of period 1 is L2-orthonormal and the trapezoid rule integrates its
+    # products exactly on this closed even grid (common practice), so
+    # BasisFeatures' coordinates are the integrated design and penalty_order=0
+    # gives P = I.
     X, y = make_data(rng, n=40)
     w = rng.uniform(0.5, 2.0, size=40)
-    Z = BasisFeatures(basis="fourier", n_basis=9).fit_transform(X)
+    Z = BasisFeatures(basis="fourier", n_basis=9, period=1.0, alpha=0,
+                      data_term="integral").fit_transform(X)
+    top = _top_eigenvalue(Z, w)
     for alpha in (1e-3, 0.1, 10.0):
-        ours = FunctionalRidge(alpha=alpha, basis="fourier", n_basis=9, penalty_order=0)
+        ours = FunctionalRidge(alpha=alpha / top, basis="fourier", n_basis=9,
+                               penalty_order=0, period=1.0)
         ours.fit(X, y, sample_weight=w)
         ref = Ridge(alpha=alpha).fit(Z, y, sample_weight=w)
         np.testing.assert_allclose(ours.basis_coef_, ref.coef_, rtol=1e-8, atol=1e-10)
@@ -61,8 +74,10 @@ def test_multiple_targets_equal_sklearn_ridge(rng):
     # Source: sklearn.linear_model.Ridge with 2-D y, same setting as above.
     X, y = make_data(rng, n=40)
     Y = np.column_stack([y, -2 * y + rng.normal(size=40)])
-    Z = BasisFeatures(basis="fourier", n_basis=7).fit_transform(X)
-    ours = FunctionalRidge(alpha=0.5, basis="fourier", n_basis=7, penalty_order=0)
+    Z = BasisFeatures(basis="fourier", n_basis=7, period=1.0, alpha=0,
+                      data_term="integral").fit_transform(X)
+    ours = FunctionalRidge(alpha=0.5 / _top_eigenvalue(Z), basis="fourier", n_basis=7,
+                           penalty_order=0, period=1.0)
     ours.fit(X, Y)
     ref = Ridge(alpha=0.5).fit(Z, Y)
     np.testing.assert_allclose(ours.basis_coef_, ref.coef_, rtol=1e-8, atol=1e-10)
@@ -138,7 +153,7 @@ def test_pipeline_and_column_transformer_with_covariates(rng):
         verbose_feature_names_out=False,
     ).set_output(transform="pandas")
     pipe = make_pipeline(
-        prep, FunctionalRidgeCV(alphas=np.logspace(-8, 0, 9), n_covariates=2)
+        prep, FunctionalRidgeCV(alpha=np.logspace(-8, 0, 9), n_covariates=2)
     )
     pipe.fit(frame, y)
     model = pipe[-1]
@@ -147,7 +162,7 @@ def test_pipeline_and_column_transformer_with_covariates(rng):
     # the same model from plain arrays
     settings = StandardScaler().fit_transform(frame[["peak_setpoint", "load_mass"]])
     direct = FunctionalRidgeCV(
-        alphas=np.logspace(-8, 0, 9), n_covariates=2, grid=np.round(T, 2)
+        alpha=np.logspace(-8, 0, 9), n_covariates=2, grid=np.round(T, 2)
     )
     direct.fit(np.hstack([X, settings]), y)
     np.testing.assert_allclose(
@@ -160,14 +175,23 @@ def test_edf_and_noise_variance_from_the_hat_matrix(rng):
     # Source: edf = trace of the hat matrix, sigma^2 = RSS / (n - edf)
     # (Hastie and Tibshirani, 1990, Generalized Additive Models, sec. 3.5;
     # common practice). The hat matrix is built here with numpy from the
-    # Legendre integrated design and the exact penalty of the basis.
+    # Legendre integrated design and the exact penalty of the basis, with the
+    # unit-free alpha converted by its definition (docs/bases_and_penalties.rst):
+    # lam = alpha * s, s the largest eigenvalue of the centred Z'Z against the
+    # Gram matrix of the shifted Legendre polynomials on [0, 1],
+    # diag(1 / (2k + 1)) (Abramowitz and Stegun 22.2.10).
+    from scipy.linalg import eigh
+
     X, y = make_data(rng, n=40)
     est = FunctionalRidge(alpha=1e-4, basis="legendre", n_basis=8).fit(X, y)
     Z = legendre_design(X, T, 8)
+    Zc = Z - Z.mean(axis=0)
+    gram01 = np.diag(1 / (2 * np.arange(8) + 1.0))
+    lam = 1e-4 * eigh(Zc.T @ Zc, gram01, eigvals_only=True)[-1]
     D = np.column_stack([np.ones(40), Z])
     P = np.zeros((9, 9))
     P[1:, 1:] = est._basis().penalty(2)
-    H = D @ np.linalg.solve(D.T @ D + 1e-4 * P, D.T)
+    H = D @ np.linalg.solve(D.T @ D + lam * P, D.T)
     rss = np.sum((y - H @ y) ** 2)
     np.testing.assert_allclose(est.edf_, np.trace(H), rtol=1e-8)
     np.testing.assert_allclose(est.noise_variance_, rss / (40 - np.trace(H)), rtol=1e-6)
@@ -218,9 +242,11 @@ def test_no_intercept_equals_sklearn_ridge(rng):
     # Source: sklearn.linear_model.Ridge(fit_intercept=False), setting as in
     # test_identity_penalty_in_fourier_basis_equals_sklearn_ridge.
     X, y = make_data(rng, n=40)
-    Z = BasisFeatures(basis="fourier", n_basis=9).fit_transform(X)
+    Z = BasisFeatures(basis="fourier", n_basis=9, period=1.0, alpha=0,
+                      data_term="integral").fit_transform(X)
     ours = FunctionalRidge(
-        alpha=0.3, basis="fourier", n_basis=9, penalty_order=0, fit_intercept=False
+        alpha=0.3 / _top_eigenvalue(Z, center=False), basis="fourier", n_basis=9,
+        penalty_order=0, period=1.0, fit_intercept=False,
     ).fit(X, y)
     ref = Ridge(alpha=0.3, fit_intercept=False).fit(Z, y)
     np.testing.assert_allclose(ours.basis_coef_, ref.coef_, rtol=1e-8, atol=1e-10)

@@ -29,15 +29,15 @@ def test_gcv_equals_brute_force(data):
     # vector (the smoother is linear in y).
     X, y = data
     n = len(y)
-    est = FunctionalRidgeCV(alphas=ALPHAS, n_basis=12).fit(X, y)
-    for alpha, score in zip(ALPHAS, est.criterion_, strict=True):
+    est = FunctionalRidgeCV(alpha=ALPHAS, n_basis=12).fit(X, y)
+    for alpha, score in zip(ALPHAS, est.criterion_path_, strict=True):
         fit = FunctionalRidge(alpha=alpha, n_basis=12)
         rss = np.sum((y - fit.fit(X, y).predict(X)) ** 2)
         hat = np.column_stack([fit.fit(X, e).predict(X) for e in np.eye(n)])
         gcv = (rss / n) / (1 - np.trace(hat) / n) ** 2
         np.testing.assert_allclose(score, gcv, rtol=1e-8)
-    assert est.alpha_ == ALPHAS[np.argmin(est.criterion_)]
-    assert est.best_score_ == -est.criterion_.min()
+    assert est.alpha_ == ALPHAS[np.argmin(est.criterion_path_)]
+    assert est.best_score_ == -est.criterion_path_.min()
 
 
 @pytest.mark.parametrize("weighted", [False, True])
@@ -47,13 +47,23 @@ def test_leave_one_out_equals_brute_force(data, rng, weighted):
     X, y = data
     n = len(y)
     w = rng.uniform(0.5, 2.0, size=n) if weighted else np.ones(n)
-    est = FunctionalRidgeCV(alphas=ALPHAS, criterion="loo", n_basis=12)
+    est = FunctionalRidgeCV(alpha=ALPHAS, criterion="loo", n_basis=12)
     est.fit(X, y, sample_weight=w)
-    for alpha, score in zip(ALPHAS[::2], est.criterion_[::2], strict=True):
+    # The leverage identity holds the penalty's weight fixed at the full
+    # data's; the unit-free alpha scales with the data's largest eigenvalue
+    # (docs/bases_and_penalties.rst), so each refit's alpha is rescaled by the
+    # ratio of the two scales to keep that weight.
+    def scale(fit):
+        return fit._path(fit._partial_statistics, fit._basis())[0].scale
+
+    full = scale(FunctionalRidge(alpha=1.0, n_basis=12).fit(X, y, sample_weight=w))
+    for alpha, score in zip(ALPHAS[::2], est.criterion_path_[::2], strict=True):
         errors = np.empty(n)
         for i in range(n):
             keep = np.arange(n) != i
             fit = FunctionalRidge(alpha=alpha, n_basis=12)
+            fit.fit(X[keep], y[keep], sample_weight=w[keep])
+            fit.set_params(alpha=alpha * full / scale(fit))
             fit.fit(X[keep], y[keep], sample_weight=w[keep])
             errors[i] = y[i] - fit.predict(X[i : i + 1])[0]
         np.testing.assert_allclose(score, w @ errors**2 / w.sum(), rtol=1e-8)
@@ -64,13 +74,20 @@ def test_leave_one_out_equals_sklearn_ridgecv(data):
     # errors (store_cv_results) on BasisFeatures output; identity penalty in
     # the orthonormal Fourier basis makes the two problems identical.
     X, y = data
-    Z = BasisFeatures(basis="fourier", n_basis=7).fit_transform(X)
+    # sklearn's alpha is the unit-free alpha times the largest eigenvalue of
+    # the centred Z'Z (the definition in docs/bases_and_penalties.rst; Fourier
+    # of period 1 is orthonormal on [0, 1]).
+    Z = BasisFeatures(basis="fourier", n_basis=7, period=1.0, alpha=0,
+                      data_term="integral").fit_transform(X)
+    Zc = Z - Z.mean(axis=0)
+    top = np.linalg.eigvalsh(Zc.T @ Zc)[-1]
     ours = FunctionalRidgeCV(
-        alphas=ALPHAS, criterion="loo", basis="fourier", n_basis=7, penalty_order=0
+        alpha=ALPHAS / top, criterion="loo", basis="fourier", n_basis=7,
+        penalty_order=0, period=1.0,
     ).fit(X, y)
     ref = RidgeCV(alphas=ALPHAS, store_cv_results=True).fit(Z, y)
-    np.testing.assert_allclose(ours.criterion_, ref.cv_results_.mean(axis=0), rtol=1e-8)
-    assert ours.alpha_ == ref.alpha_
+    np.testing.assert_allclose(ours.criterion_path_, ref.cv_results_.mean(axis=0), rtol=1e-8)
+    np.testing.assert_allclose(ours.alpha_ * top, ref.alpha_, rtol=1e-12)
 
 
 def test_kfold_equals_grid_search(data):
@@ -78,7 +95,7 @@ def test_kfold_equals_grid_search(data):
     # the same folds and the mean squared error scorer.
     X, y = data
     folds = KFold(5, shuffle=True, random_state=0)
-    ours = FunctionalRidgeCV(alphas=ALPHAS, cv=folds, n_basis=12).fit(X, y)
+    ours = FunctionalRidgeCV(alpha=ALPHAS, cv=folds, n_basis=12).fit(X, y)
     search = GridSearchCV(
         FunctionalRidge(n_basis=12),
         {"alpha": ALPHAS},
@@ -86,7 +103,7 @@ def test_kfold_equals_grid_search(data):
         scoring="neg_mean_squared_error",
     ).fit(X, y)
     np.testing.assert_allclose(
-        ours.criterion_, -search.cv_results_["mean_test_score"], rtol=1e-8
+        ours.criterion_path_, -search.cv_results_["mean_test_score"], rtol=1e-8
     )
     assert ours.alpha_ == search.best_params_["alpha"]
     np.testing.assert_allclose(
@@ -98,32 +115,37 @@ def test_multiple_targets_average_the_criterion(data):
     # The criterion for several targets is the mean of the per-target ones.
     X, y = data
     Y = np.column_stack([y, y**2])
-    both = FunctionalRidgeCV(alphas=ALPHAS, criterion="loo", n_basis=10).fit(X, Y)
+    both = FunctionalRidgeCV(alpha=ALPHAS, criterion="loo", n_basis=10).fit(X, Y)
     each = [
-        FunctionalRidgeCV(alphas=ALPHAS, criterion="loo", n_basis=10)
+        FunctionalRidgeCV(alpha=ALPHAS, criterion="loo", n_basis=10)
         .fit(X, col)
-        .criterion_
+        .criterion_path_
         for col in Y.T
     ]
-    np.testing.assert_allclose(both.criterion_, np.mean(each, axis=0), rtol=1e-10)
+    np.testing.assert_allclose(both.criterion_path_, np.mean(each, axis=0), rtol=1e-10)
     assert both.coef_function_.shape == (2, T.size)
 
 
 def test_default_alphas(data):
     X, y = data
-    est = FunctionalRidgeCV().fit(X, y)
-    assert est.alphas_.shape == (25,) and np.all(est.alphas_ > 0)
-    assert np.all(np.diff(np.log(est.alphas_)) > 0)
-    assert est.alpha_ in est.alphas_
+    est = FunctionalRidgeCV(criterion="loo").fit(X, y)
+    assert est.alphas_path_.shape == (25,) and np.all(est.alphas_path_ > 0)
+    assert np.all(np.diff(np.log(est.alphas_path_)) > 0)
+    assert est.alpha_ in est.alphas_path_
+    # from the null space (a straight line and the intercept: 3) to what the
+    # data identify (at most the basis and the intercept; these curves come
+    # from finitely many scores), within the candidates' margin of 0.05
+    assert 3 < est.edf_path_[-1] < 3.1
+    assert 10 < est.edf_path_[0] < est.n_basis_ + 1
 
 
 @pytest.mark.parametrize(
-    "alphas", [[1.0, 0.0], [-1.0, 1.0], [np.nan], [], [[1.0, 2.0]]]
+    "alphas", [[1.0, 0.0], [-1.0, 1.0], [np.nan], [], [[1.0, 2.0]], -1.0]
 )
 def test_bad_alphas(data, alphas):
     X, y = data
-    with pytest.raises(ValueError, match="alphas must be"):
-        FunctionalRidgeCV(alphas=alphas).fit(X, y)
+    with pytest.raises(ValueError, match="alpha"):
+        FunctionalRidgeCV(alpha=alphas).fit(X, y)
 
 
 def test_bad_criterion(data):
@@ -137,11 +159,11 @@ def test_alpha_per_target_equals_separate_fits(data):
     # target alone (the same convention as RidgeCV(alpha_per_target=True)).
     X, y = data
     Y = np.column_stack([y, 5 * y**2 + 1])
-    both = FunctionalRidgeCV(alphas=ALPHAS, alpha_per_target=True, n_basis=10).fit(X, Y)
+    both = FunctionalRidgeCV(alpha=ALPHAS, alpha_per_target=True, n_basis=10).fit(X, Y)
     for j, col in enumerate(Y.T):
-        one = FunctionalRidgeCV(alphas=ALPHAS, n_basis=10).fit(X, col)
+        one = FunctionalRidgeCV(alpha=ALPHAS, n_basis=10).fit(X, col)
         assert both.alpha_[j] == one.alpha_
-        np.testing.assert_allclose(both.criterion_[j], one.criterion_, rtol=1e-10)
+        np.testing.assert_allclose(both.criterion_path_[j], one.criterion_path_, rtol=1e-10)
         np.testing.assert_allclose(
             both.coef_function_[j], one.coef_function_, rtol=1e-8
         )

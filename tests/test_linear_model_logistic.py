@@ -87,7 +87,8 @@ def test_identity_penalty_equals_sklearn_l2(rng, n_classes):
     ours = FunctionalLogisticRegression(
         alpha=alpha, basis="fourier", n_basis=7, penalty_order=0
     ).fit(X, y)
-    Z = BasisFeatures(basis="fourier", n_basis=7).fit_transform(X)
+    Z = BasisFeatures(basis="fourier", n_basis=7, alpha=0, period=1.0,
+                      data_term="integral").fit_transform(X)
     Zc = Z - Z.mean(axis=0)
     C = 1 / (alpha * np.linalg.eigvalsh(Zc.T @ Zc)[-1])
     ref = LogisticRegression(C=C, solver="newton-cg", tol=1e-12).fit(Z, y)
@@ -226,7 +227,7 @@ def test_ubre_at_alpha_zero_equals_statsmodels_aic(rng):
     Z = sm.add_constant(legendre_design(X, 4))
     ref = sm.GLM((y == "sound").astype(float), Z, family=sm.families.Binomial()).fit()
     assert est.edf_path_[0] == pytest.approx(5, rel=1e-8)
-    assert est.criterion_[0] == pytest.approx(ref.aic / len(y) - 1, rel=1e-8)
+    assert est.criterion_path_[0] == pytest.approx(ref.aic / len(y) - 1, rel=1e-8)
 
 def test_auto_path_and_edge_warning(rng):
     # The candidates span the effective degrees of freedom: from nearly the
@@ -234,16 +235,16 @@ def test_auto_path_and_edge_warning(rng):
     # choice is the smallest criterion (ties to the larger alpha).
     X, y = make_data(rng, n=200)
     est = FunctionalLogisticRegression().fit(X, y)
-    assert np.all(np.diff(est.alphas_) > 0)
+    assert np.all(np.diff(est.alphas_path_) > 0)
     assert est.edf_path_[-1] < 3.2 < 6 < est.edf_path_.max()
-    best = np.flatnonzero(est.criterion_ == est.criterion_.min())[-1]
-    assert est.alpha_ == est.alphas_[best]
+    best = np.flatnonzero(est.criterion_path_ == est.criterion_path_.min())[-1]
+    assert est.alpha_ == est.alphas_path_[best]
     # labels unrelated to the curves: the best is the largest alpha (fewest
     # degrees of freedom), which is reported.
     noise = rng.integers(0, 2, size=200)
     with pytest.warns(AlphaAtEdgeWarning, match="UBRE choice is the largest"):
         est = FunctionalLogisticRegression().fit(X, noise)
-    assert est.alpha_ == est.alphas_[-1]
+    assert est.alpha_ == est.alphas_path_[-1]
 
 def test_converges_quietly(rng):
     with warnings.catch_warnings():

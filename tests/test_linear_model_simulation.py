@@ -36,7 +36,7 @@ def test_error_below_ridgecv_and_band_coverage(n, noise):
     w = trapezoid_weights(T)
     beta = true_beta(T)
 
-    est = FunctionalRidgeCV(alphas=np.logspace(-9, 0, 28), alpha_per_target=True)
+    est = FunctionalRidgeCV(alpha_per_target=True)
     est.fit(X, Y)
     ise = ((est.coef_function_ - beta) ** 2) @ w
 
@@ -66,6 +66,7 @@ def _bspline_reference(X, y, t, n_basis, alpha, sample_weight=None):
     with edf the hat matrix's trace plus one for the intercept.
     """
     from scipy.interpolate import BSpline
+    from scipy.linalg import eigh
     from scipy.stats import norm
 
     w_s = np.ones(len(y)) if sample_weight is None else sample_weight
@@ -82,11 +83,21 @@ def _bspline_reference(X, y, t, n_basis, alpha, sample_weight=None):
             for k in range(n_basis)
         ])
         penalty += (d2 * (gl_weights * (b - a) / 2)[:, None]).T @ d2
+    gram = np.zeros((n_basis, n_basis))  # int phi_a phi_b on [0, 1]
+    nodes4, gl4 = np.polynomial.legendre.leggauss(4)  # exact for degree 6
+    for a, b in zip(inner[:-1], inner[1:]):
+        s = (a + b) / 2 + (b - a) / 2 * nodes4
+        values = BSpline.design_matrix(s, knots, degree).toarray()
+        gram += (values * (gl4 * (b - a) / 2)[:, None]).T @ values
     Z = X @ (trapezoid_weights(t)[:, None] * phi)
     z_mean = w_s @ Z / w_s.sum()
     y_mean = w_s @ y / w_s.sum()
     Zc, yc = Z - z_mean, y - y_mean
-    A_inv = np.linalg.inv(Zc.T @ (w_s[:, None] * Zc) + alpha * penalty)
+    # the unit-free alpha by its definition (docs/bases_and_penalties.rst):
+    # lam = alpha * the largest eigenvalue of Zc' W Zc against the Gram matrix
+    # of the basis on [0, 1] (the domain here)
+    lam = alpha * eigh(Zc.T @ (w_s[:, None] * Zc), gram, eigvals_only=True)[-1]
+    A_inv = np.linalg.inv(Zc.T @ (w_s[:, None] * Zc) + lam * penalty)
     theta = A_inv @ Zc.T @ (w_s * yc)
     residual = yc - Zc @ theta
     edf = np.trace(Zc @ A_inv @ Zc.T * w_s[None, :]) + 1
@@ -115,7 +126,7 @@ def test_band_equals_the_closed_form_posterior(estimator):
         est = FunctionalRidge(alpha=1e-4, n_basis=12, grid=t).fit(X, y)
         alpha = 1e-4
     else:
-        est = FunctionalRidgeCV(alphas=np.logspace(-7, -1, 13), n_basis=12,
+        est = FunctionalRidgeCV(alpha=np.logspace(-7, -1, 13), n_basis=12,
                                 grid=t).fit(X, y)
         alpha = est.alpha_
     lower, upper = est.confidence_band(level=0.95)
@@ -141,7 +152,7 @@ def test_simultaneous_band_covers_the_whole_curve():
     X = curves_on(scores, T)
     Y = integral_with_beta(scores)[:, None] + 0.2 * rng.normal(size=(200, N_REPLICATIONS))
     beta = true_beta(T)
-    est = FunctionalRidgeCV(alphas=np.logspace(-9, 0, 28), alpha_per_target=True)
+    est = FunctionalRidgeCV(alpha=np.logspace(-9, 0, 28), alpha_per_target=True)
     est.fit(X, Y)
     lower, upper = est.confidence_band(0.95, simultaneous=True, random_state=0)
     whole = np.mean(np.all((lower <= beta) & (beta <= upper), axis=1))

@@ -185,7 +185,7 @@ def test_alpha_criterion_matches_sklearn_ridgecv_choice():
     alphas = np.logspace(-4, 2, 13)
     ridge = RidgeCV(alphas=alphas, store_cv_results=True).fit(X, y)
     loo = ridge.cv_results_.mean(axis=0)
-    est = Fitted(alphas_=alphas, criterion_=loo, alpha_=ridge.alpha_,
+    est = Fitted(alphas_path_=alphas, criterion_path_=loo, alpha_=ridge.alpha_,
                  criterion="loo")
     display = AlphaCriterionDisplay.from_estimator(est)
     line = display.lines_[0]
@@ -201,7 +201,7 @@ def test_alpha_criterion_matches_sklearn_ridgecv_choice():
 def test_alpha_criterion_per_target_rows():
     alphas = np.logspace(-3, 3, 7)
     criterion = (np.log10(alphas)[None, :] - np.arange(4)[:, None] + 1) ** 2
-    est = Fitted(alphas_=alphas, criterion_=criterion, alpha_=alphas[[2, 3, 4, 5]])
+    est = Fitted(alphas_path_=alphas, criterion_path_=criterion, alpha_=alphas[[2, 3, 4, 5]])
     display = AlphaCriterionDisplay.from_estimator(est, max_lines=3,
                                                    criterion_name="GCV")
     assert len(display.lines_) == 3
@@ -209,7 +209,7 @@ def test_alpha_criterion_per_target_rows():
         "target 0", "target 1", "target 2"]
     np.testing.assert_allclose([c.get_xdata()[0] for c in display.chosen_lines_],
                                alphas[[2, 3, 4]])
-    bad = Fitted(alphas_=alphas, criterion_=criterion[:, :3], alpha_=1.0)
+    bad = Fitted(alphas_path_=alphas, criterion_path_=criterion[:, :3], alpha_=1.0)
     with pytest.raises(ValueError, match="one value per alpha"):
         AlphaCriterionDisplay.from_estimator(bad)
 
@@ -260,7 +260,7 @@ def test_real_coefficient_estimators_if_available():
         est = cls().fit(X, y)
         display = CoefficientFunctionDisplay.from_estimator(est, reference=beta)
         np.testing.assert_allclose(display.line_.get_ydata(), est.coef_function_)
-        if hasattr(est, "criterion_"):
+        if getattr(est, "criterion_path_", None) is not None:
             AlphaCriterionDisplay.from_estimator(est)
 
 
@@ -362,7 +362,7 @@ def test_criterion_is_named_from_the_estimator():
     fosr = FunctionOnScalarRidge(response_grid=kiln.grid).fit(
         kiln.settings, kiln.true_curves)
     assert AlphaCriterionDisplay.from_estimator(fosr).criterion_name == "GCV"
-    reml = Fitted(alphas_=np.array([1.0, 2.0]), criterion_=np.array([2.0, 1.0]),
+    reml = Fitted(alphas_path_=np.array([1.0, 2.0]), criterion_path_=np.array([2.0, 1.0]),
                   alpha_=2.0, criterion="reml")
     assert AlphaCriterionDisplay.from_estimator(reml).ax_.get_ylabel() == (
         "REML score (lower is better)")
@@ -379,7 +379,8 @@ def test_per_curve_choices_are_drawn_as_their_distribution():
     display = AlphaCriterionDisplay.from_estimator(smoother, kiln.data)
     heights = np.array([bar.get_height() for bar in display.bars_])
     # one bar per candidate; numpy counts how often each candidate was chosen
-    expected = np.array([np.sum(np.isclose(chosen, a)) for a in smoother.alphas_])
+    expected = np.array([np.sum(np.isclose(chosen, a, rtol=1e-9, atol=0))
+                         for a in smoother.alphas_path_])
     np.testing.assert_array_equal(heights, expected)
     assert heights.sum() == len(kiln.data)
     assert display.lines_ == []  # no pooled curve marked as "the" choice

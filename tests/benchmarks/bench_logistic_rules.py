@@ -1,7 +1,7 @@
 """Benchmark: alternative rules for FunctionalLogisticRegression's automatic alpha.
 
 Test-split accuracy, on the open sets of ``bench_logistic.py``, of the fit at
-the alpha chosen by each rule over the same candidates (``alphas_`` of the
+the alpha chosen by each rule over the same candidates (``alphas_path_`` of the
 default fit):
 
 * ``ubre``: the default, the smallest UBRE (ties to the larger alpha);
@@ -92,7 +92,7 @@ def ubre_choices(X, y):
         est = FunctionalLogisticRegression().fit(X, y)
     finally:
         lp.LogisticProblem.ubre = ubre
-    alphas, crit, w = est.alphas_, est.criterion_, record["w"]
+    alphas, crit, w = est.alphas_path_, est.criterion_path_, record["w"]
     total = w.sum()
     terms = np.array([record[a][0] for a in alphas])
     alo = np.array([w @ record[a][1] / total for a in alphas])
@@ -152,13 +152,13 @@ def main():
     for name, (X_train, X_test, y_train, y_test) in sets.items():
         est, picks = ubre_choices(X_train, y_train)
         if name != "PigCVP":
-            picks.update(cv_choices(X_train, y_train, est.alphas_))
+            picks.update(cv_choices(X_train, y_train, est.alphas_path_))
         cells = []
         for rule in rules:
             if rule not in picks:
                 cells.append(f"{'-':>18s}")
                 continue
-            alpha = est.alphas_[picks[rule]]
+            alpha = est.alphas_path_[picks[rule]]
             fit = FunctionalLogisticRegression(alpha=alpha).fit(X_train, y_train)
             cells.append(f"{fit.score(X_test, y_test):9.3f} ({alpha:6.1g})")
         print(f"{name:18s}" + "".join(cells), flush=True)

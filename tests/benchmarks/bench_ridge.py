@@ -48,10 +48,10 @@ def main():
                 alpha=1e-5
             ).fit(X, y),
             "FunctionalRidgeCV, 50 alphas, gcv": lambda: FunctionalRidgeCV(
-                alphas=alphas
+                alpha=alphas
             ).fit(X, y),
             "FunctionalRidgeCV, 50 alphas, loo": lambda: FunctionalRidgeCV(
-                alphas=alphas, criterion="loo"
+                alpha=alphas, criterion="loo"
             ).fit(X, y),
         },
         repeat,
@@ -62,7 +62,7 @@ def main():
     def best_time(func, repeat):
         return best_times({"": func}, repeat)[""]
 
-    kfold = FunctionalRidgeCV(alphas=alphas, cv=5)
+    kfold = FunctionalRidgeCV(alpha=alphas, cv=5)
     rows.append(
         ("FunctionalRidgeCV, 50 alphas, cv=5", best_time(lambda: kfold.fit(X, y), 1))
     )

@@ -32,7 +32,7 @@ def noisy_curves(n, m, rng):
 
 def bench_per_curve(n, n_scipy, rng):
     t, X = noisy_curves(n, 200, rng)
-    smoother = CurveSmoother(per_curve=True, alphas=25, grid=t)
+    smoother = CurveSmoother(per_curve=True, grid=t)
     ours = best_time(lambda: smoother.fit_transform(X), 3) / n
     theirs = best_time(
         lambda: [make_smoothing_spline(t, x)(t) for x in X[:n_scipy]], 1
