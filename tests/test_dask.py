@@ -38,6 +38,9 @@ from skfunc.linear_model import (  # noqa: E402
 )
 from skfunc.preprocessing import CurveSmoother  # noqa: E402
 
+# a LocalCluster per module (about 15 s): in the full run (CI), not the fast default
+pytestmark = pytest.mark.slow
+
 RTOL = 1e-10
 
 

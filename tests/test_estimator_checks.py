@@ -5,9 +5,14 @@ covered by being exported. Expected failures are listed per estimator with
 the reason.
 """
 
+import pytest
 from sklearn.utils.estimator_checks import parametrize_with_checks
 
 from skfunc.utils import all_estimators
+
+# about 20 s of small checks: in the full run (CI, -m "slow or not slow"),
+# not in the contributors' fast default
+pytestmark = pytest.mark.slow
 
 #: {estimator class name: {check name: why it is expected to fail}}
 EXPECTED_FAILURES = {
