@@ -28,12 +28,37 @@ import contextlib
 import numpy as np
 import scipy.linalg
 from sklearn.utils.extmath import randomized_svd
+from sklearn.utils.validation import check_is_fitted
 from threadpoolctl import threadpool_limits
 
 from ._bases import gram_sqrt
 from ._basis_features import orthonormal_operators
 from ._blocks import chunked_matmul
+from ._dask import check_rows
 from ._moments import moments, scale_moments
+
+
+class ComponentCurvesMixin:
+    """``inverse_transform`` of estimators with ``mean_`` and ``components_``
+    on ``grid_`` (FunctionalPCA and SparseFunctionalPCA)."""
+
+    def inverse_transform(self, X):
+        """Curves on ``grid_`` with the given scores: ``mean_ + X @ components_``.
+
+        Parameters
+        ----------
+        X : array-like of shape (n_samples, n_components_)
+            Scores, as returned by :meth:`transform`.
+
+        Returns
+        -------
+        curves : ndarray of shape (n_samples, n_features_in_)
+        """
+        check_is_fitted(self)
+        X = check_rows(X, self.n_components_, "scores per row (n_components_)")
+        curves = chunked_matmul(X, self.components_)
+        curves += self.mean_
+        return curves
 
 
 class CurveCoordinates:

@@ -17,11 +17,11 @@ from sklearn.utils.validation import check_is_fitted
 
 from ._bases import BASES
 from ._blocks import chunked_matmul, is_dask_array
-from ._dask import check_rows
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._fit import AdditiveTransformerMixin
 from ._fpca import (
+    ComponentCurvesMixin,
     CurveCoordinates,
     covariance_directions,
     sign_convention,
@@ -35,8 +35,8 @@ SVD_SOLVERS = ("auto", "full", "covariance_eigh", "randomized")
 
 
 @fill_doc
-class FunctionalPCA(AdditiveTransformerMixin, ClassNamePrefixFeaturesOutMixin,
-                    TransformerMixin, BaseEstimator):
+class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
+                    ClassNamePrefixFeaturesOutMixin, TransformerMixin, BaseEstimator):
     """Functional principal components: the main modes of variation of curves.
 
     Each row of ``X`` is a curve sampled on a grid. The components are the
@@ -586,21 +586,3 @@ class FunctionalPCA(AdditiveTransformerMixin, ClassNamePrefixFeaturesOutMixin,
         """
         scores = self.transform(X)
         return np.sqrt(np.sum(scores**2 / self.explained_variance_, axis=1))
-
-    def inverse_transform(self, X):
-        """Curves on ``grid_`` with the given scores: ``mean_ + X @ components_``.
-
-        Parameters
-        ----------
-        X : array-like of shape (n_samples, n_components_)
-            Scores, as returned by :meth:`transform`.
-
-        Returns
-        -------
-        curves : ndarray of shape (n_samples, n_features_in_)
-        """
-        check_is_fitted(self)
-        X = check_rows(X, self.n_components_, "scores per row (n_components_)")
-        curves = chunked_matmul(X, self.components_)
-        curves += self.mean_
-        return curves

@@ -53,11 +53,10 @@ from ._alpha import (
 )
 from ._bases import BSplineBasis, default_n_basis, gram_sqrt
 from ._blocks import row_blocks
-from ._dask import check_rows
 from ._docstrings import fill_doc
 from ._estimator import ShortReprMixin, store_init_params
 from ._fit import check_finite_fit
-from ._fpca import _single_thread, sign_convention
+from ._fpca import ComponentCurvesMixin, _single_thread, sign_convention
 from ._penalized import (
     NotIdentifiableError,
     Penalty,
@@ -229,8 +228,8 @@ def covariance_sums(rows, bins, residuals, n_rows, n_bins):
 
 
 @fill_doc
-class SparseFunctionalPCA(ShortReprMixin, ClassNamePrefixFeaturesOutMixin, TransformerMixin,
-                          BaseEstimator):
+class SparseFunctionalPCA(ShortReprMixin, ComponentCurvesMixin, ClassNamePrefixFeaturesOutMixin,
+                          TransformerMixin, BaseEstimator):
     """Functional principal components of sparse, irregularly observed curves.
 
     Each row of ``X`` is a curve observed at a few of the grid's points:
@@ -685,23 +684,6 @@ class SparseFunctionalPCA(ShortReprMixin, ClassNamePrefixFeaturesOutMixin, Trans
             linear predictor).
         """
         return self._conditional(self._validate(X))[0]
-
-    def inverse_transform(self, X):
-        """Curves on ``grid_`` with the given scores: ``mean_ + X @ components_``.
-
-        Parameters
-        ----------
-        X : array-like of shape (n_samples, n_components_)
-            Scores, as returned by :meth:`transform`.
-
-        Returns
-        -------
-        curves : ndarray of shape (n_samples, n_features_in_)
-            The predicted whole curves (for bands, :meth:`predict_curves`).
-        """
-        check_is_fitted(self)
-        X = check_rows(X, self.n_components_, "scores per row (n_components_)")
-        return np.asarray(X, dtype=np.float64) @ self.components_ + self.mean_
 
     def predict_curves(self, X, *, level=0.95, eval_points=None):
         """Predicted whole curves with pointwise bands.
