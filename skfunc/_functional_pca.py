@@ -17,6 +17,7 @@ from sklearn.utils.validation import check_is_fitted
 
 from ._bases import BASES
 from ._blocks import chunked_matmul, is_dask_array
+from ._channels import CHANNEL_WEIGHTS, channel_coordinates, curve_weights
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._fit import AdditiveTransformerMixin
@@ -27,7 +28,6 @@ from ._fpca import (
     sign_convention,
     svd_directions,
 )
-from ._grid import quadrature_weights
 from ._moments import merge_moments
 from ._validation import BASIS_CONSTRAINTS, basis_for, validate_curves
 
@@ -104,6 +104,16 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
     quadrature : {"trapezoid", "simpson"}, default="trapezoid"
         Quadrature rule for integrals over the grid. Without a basis the
         weights must be positive.
+    channel_weights : {"inverse_variance", "equal"} or dict, default="inverse_variance"
+        With several channels (``grid`` a mapping ``{channel: grid}``, or
+        (channel, time) DataFrame columns; see :doc:`/channels`): the
+        weights ``v_c`` of the inner product ``sum_c v_c <f_c, g_c>`` in
+        which the multivariate components are found and orthonormal.
+        "inverse_variance": one over each channel's integrated variance
+        (Happ and Greven, 2018), so a change of units of one channel changes
+        no score; "equal": 1 for every channel (channels in one unit on a
+        shared domain, Ramsay and Silverman, 2005, sec. 8.5); a dict gives a
+        positive weight per channel name. Ignored without channels.
 
     Attributes
     ----------
@@ -149,6 +159,11 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         ``n_samples_seen_`` and ``coordinate_mean_``, the statistics
         :meth:`partial_fit` continues from. None after a randomized fit,
         which does not compute them.
+    channel_weights_ : ndarray of shape (n_channels,)
+        With channels only: the channel weights used.
+    channel_names_, channel_sizes_ : list
+        With channels only: the channels' names and numbers of grid points,
+        in column order; ``grid_`` holds their grids side by side.
     %(curve_input_attributes)s
 
     See Also
@@ -189,6 +204,10 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
 
     Silverman, B. W. (1996). Smoothed functional principal components
     analysis by choice of norm. *The Annals of Statistics* 24(1), 1-24.
+
+    Happ, C. and Greven, S. (2018). Multivariate functional principal
+    component analysis for data observed on different (dimensional) domains.
+    *Journal of the American Statistical Association* 113(522), 649-659.
 
     Halko, N., Martinsson, P.-G. and Tropp, J. A. (2011). Finding structure
     with randomness: probabilistic algorithms for constructing approximate
@@ -252,12 +271,16 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         "iterated_power": [Interval(Integral, 0, None, closed="left"),
                            StrOptions({"auto"})],
         "random_state": ["random_state"],
+        "channel_weights": [StrOptions(set(CHANNEL_WEIGHTS)), dict],
     }
+
+    #: a layout of several channels is accepted (skfunc._channels)
+    _accepts_channels = True
 
     def __init__(self, n_components=None, *, basis=None, n_basis=None, degree=3,
                  interior_knots=None, alpha=0.0, penalty_order=2, svd_solver="auto",
                  n_oversamples=10, iterated_power="auto", random_state=None, grid=None,
-                 quadrature="trapezoid"):
+                 quadrature="trapezoid", channel_weights="inverse_variance"):
         store_init_params(self, locals())
 
     # ------------------------------------------------------------------ fit
@@ -329,19 +352,29 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
                 f"covariance; got {n} sample."
             )
         covariance = scatter / (n - 1)
+        coords, d = channel_coordinates(self, coords, np.diag(covariance))
+        weighted_mean = mean if d is None else mean * d
+        if d is not None:
+            covariance = covariance * np.outer(d, d)
         total = float(np.trace(covariance))
         self._check_variance(total, mean)
         n_wanted = self._n_wanted(n, coords.n_coordinates)
         variances, directions = covariance_directions(
             covariance, n_wanted, coords.penalty, self.alpha
         )
-        self.coordinate_scatter_ = scatter
-        self._set_components(variances, directions, total, mean, n, n_wanted, coords)
+        self._set_components(variances, directions, total, weighted_mean, n,
+                             n_wanted, coords)
+        self.coordinate_scatter_, self.coordinate_mean_ = scatter, mean
 
     def _fit_svd(self, X, coords, solver):
         n, K = X.shape[0], coords.n_coordinates
         n_wanted = self._n_wanted(n, K)
         Z, mean = coords.centered(X)
+        coords, d = channel_coordinates(self, coords, np.einsum("ij,ij->j", Z, Z) / (n - 1))
+        weighted_mean = mean
+        if d is not None:
+            Z *= d
+            weighted_mean = mean * d
         total = float(np.vdot(Z, Z)) / (n - 1)
         self._check_variance(total, mean)
         squares, directions = svd_directions(
@@ -357,13 +390,15 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         # partial_fit can continue from it
         self.coordinate_scatter_ = None
         if solver == "full":
-            self.coordinate_scatter_ = (directions * squares) @ directions.T
-            self._partial_statistics = {
-                "n": n, "mean": mean, "scatter": self.coordinate_scatter_,
-            }
+            scatter = (directions * squares) @ directions.T
+            if d is not None:  # the statistics are of the unweighted coordinates
+                scatter /= np.outer(d, d)
+            self.coordinate_scatter_ = scatter
+            self._partial_statistics = {"n": n, "mean": mean, "scatter": scatter}
         self._set_components(
-            squares / (n - 1), directions, total, mean, n, n_wanted, coords
+            squares / (n - 1), directions, total, weighted_mean, n, n_wanted, coords
         )
+        self.coordinate_mean_ = mean
 
     def _set_components(self, variances, directions, total, mean, n, n_wanted, coords):
         if n_wanted is None:  # a fraction of the variance
@@ -437,7 +472,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
 
     def _coordinates(self):
         """Rebuild the coordinate maps from the parameters and ``grid_``."""
-        weights = quadrature_weights(self.grid_, self.quadrature)
+        weights = curve_weights(self)
         if not self._uses_basis():
             if np.any(weights <= 0):
                 raise ValueError(

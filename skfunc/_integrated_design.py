@@ -35,9 +35,9 @@ from sklearn.utils._param_validation import Interval
 from sklearn.utils.validation import check_is_fitted
 
 from ._blocks import chunked_matmul
+from ._channels import channel_penalty, curve_weights
 from ._estimator import ShortReprMixin
-from ._grid import quadrature_weights
-from ._penalized import _RCOND, NotIdentifiableError, PenalizedPath, SplitPath, penalty_for
+from ._penalized import _RCOND, NotIdentifiableError, PenalizedPath, SplitPath
 from ._validation import BASIS_CONSTRAINTS, basis_for, check_level, validate_curves
 
 #: parameter constraints common to every model on the integrated design
@@ -59,7 +59,14 @@ class IntegratedDesignMixin(ShortReprMixin):
 
     Subclasses set ``basis``, ``n_basis``, ``degree``, ``interior_knots``,
     ``penalty_order``, ``n_covariates``, ``grid`` and ``quadrature``.
+
+    Several channels (``grid`` a mapping, see :mod:`skfunc._channels`) give
+    one coefficient function per channel: the basis is the channels' bases
+    side by side and each channel's roughness is on its own unit-free scale.
     """
+
+    #: a layout of several channels is accepted (skfunc._channels)
+    _accepts_channels = True
 
     def _validate_curves(self, X, y="no_validation", *, reset, **check_params):
         return validate_curves(
@@ -72,7 +79,7 @@ class IntegratedDesignMixin(ShortReprMixin):
 
     def _integration_operator(self, basis):
         """``W Phi`` (m x K): curves times it give the integrated design."""
-        w = quadrature_weights(self.grid_, self.quadrature)
+        w = curve_weights(self)
         return basis.evaluate(self.grid_) * w[:, None]
 
     def _design(self, X, operator):
@@ -99,7 +106,7 @@ class IntegratedDesignMixin(ShortReprMixin):
         """:class:`~skfunc._penalized.SplitPath` of the (centred) cross
         products with beta's penalty split into its null space and the
         covariates unpenalized; errors say what to change."""
-        penalty = penalty_for(basis, self.penalty_order).extend(self.n_covariates)
+        penalty = channel_penalty(basis, self.penalty_order, zz).extend(self.n_covariates)
         try:
             return SplitPath(zz, penalty)
         except NotIdentifiableError as exc:
@@ -149,7 +156,7 @@ class IntegratedDesignMixin(ShortReprMixin):
         """Store the fitted model from design coefficients ``theta`` (T, K + p),
         ``intercept`` (T,) and the basis-coefficient covariance (T, K, K)."""
         k = basis.n_basis
-        w = quadrature_weights(self.grid_, self.quadrature)
+        w = curve_weights(self)
         beta = theta[:, :k] @ basis.evaluate(self.grid_).T
 
         def out(a):
