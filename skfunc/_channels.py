@@ -495,8 +495,9 @@ class ChannelwiseMixin:
     """Channels for transformers whose problem separates by channel.
 
     With a channel layout the fit is one clone of the estimator per channel
-    (its grid the channel's grid, its parameters otherwise the same, with
-    per-channel ``eval_points`` read from a mapping), stored in
+    (its grid the channel's grid, its parameters otherwise the same; those
+    in ``_channel_params`` may be mappings {channel: value}, a channel left
+    out taking None), stored in
     ``channel_estimators_``; outputs are the channels' outputs side by side.
     Without a layout nothing changes. Subclasses list the per-channel
     parameters given as mappings in ``_channel_params``.
@@ -519,13 +520,8 @@ class ChannelwiseMixin:
         params = {"grid": grid}
         for param in self._channel_params:
             value = getattr(self, param)
-            if is_channel_grid(value):
-                if name not in value:
-                    raise ValueError(
-                        f"{param} is a mapping of channels but lacks channel "
-                        f"{name!r}; give a value for every channel."
-                    )
-                params[param] = value[name]
+            if is_channel_grid(value):  # a channel left out gets the default
+                params[param] = value.get(name)
         return clone(self).set_params(**params)
 
     def _fit_channels(self, X, partial):
@@ -563,6 +559,8 @@ class ChannelwiseMixin:
         self.alpha_ = np.array([e.alpha_ for e in ests])
         self.edf_ = np.array([e.edf_ for e in ests])
         self.n_basis_ = int(sum(e.n_basis_ for e in ests))
+        if hasattr(ests[0], "eval_points_"):
+            self.eval_points_ = np.concatenate([e.eval_points_ for e in ests])
 
     def fit(self, X, y=None):
         if not self._uses_channels(X, True):
@@ -576,13 +574,14 @@ class ChannelwiseMixin:
             return super().partial_fit(X, y)
         return self._fit_channels(X, partial=True)
 
-    def _per_channel(self, X, method):
-        """``method`` of each channel's estimator on its columns of X,
-        side by side."""
-        check_is_fitted(self)
+    def _per_channel(self, X, method, columns=False):
+        """``method`` of each channel's estimator on its columns of X, side
+        by side (``columns``: each output is one column)."""
         X = self._validate_channels(X, reset=False)
         parts = [getattr(e, method)(X[:, block])
                  for e, block in zip(self.channel_estimators_, _blocks(self))]
+        if columns:
+            parts = [p[:, None] for p in parts]
         return _hstack(parts)
 
     def _channel_feature_names(self, input_features):
@@ -596,6 +595,15 @@ class ChannelwiseMixin:
             for feature in est.get_feature_names_out()
         ]
         return np.asarray(names, dtype=object)
+
+
+def split_columns(estimator, X, method, widths):
+    """``method`` of each channel's estimator on its ``widths`` columns of X
+    (outputs of the estimator, such as coordinates), side by side."""
+    bounds = np.cumsum([0] + list(widths))
+    parts = [getattr(e, method)(X[:, a:b]) for e, a, b in
+             zip(estimator.channel_estimators_, bounds[:-1], bounds[1:])]
+    return _hstack(parts)
 
 
 def _hstack(parts):

@@ -20,6 +20,7 @@ from sklearn.utils.class_weight import compute_sample_weight
 from sklearn.utils.multiclass import check_classification_targets
 
 from ._alpha import ALPHA_CONSTRAINT, check_alpha
+from ._channels import channel_penalty
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._fit import check_finite_fit
@@ -33,7 +34,7 @@ from ._logistic_path import (
     coef_covariance,
     split_coordinates,
 )
-from ._penalized import centered, cross_products, penalty_for, penalty_scale
+from ._penalized import centered, cross_products, penalty_scale
 from ._weights import check_sample_weight
 
 
@@ -259,17 +260,19 @@ class FunctionalLogisticRegression(
         if isinstance(alpha, float) and alpha == 0:
             gram = centered(stats)[0] if self.fit_intercept else stats["zz"]
             self._checked_path(gram, self._penalty(basis), 0.0, stats["n"])
-        penalty = penalty_for(basis, self.penalty_order)
-        transform, n_null = split_coordinates(basis, penalty), penalty.n_null
         lead = int(self.fit_intercept)
         z_mean = stats["z_sum"] / stats["sw"] if lead else np.zeros(Z.shape[1])
         Zc = Z - z_mean
+        weighted = Zc[:, :k] * sample_weight[:, None]
+        gram = weighted.T @ Zc[:, :k]
+        # (several channels: each channel's roughness on its own scale)
+        penalty = channel_penalty(basis, self.penalty_order, gram)
+        transform, n_null = split_coordinates(basis, penalty), penalty.n_null
         D = np.hstack([np.ones((len(Z), lead)), Zc[:, :k] @ transform, Zc[:, k:]])
         # the one definition of alpha (skfunc._penalized.penalty_scale): the
         # roughness on [0, 1] weighed by the largest eigenvalue of the centred
         # data Gram matrix relative to the unit-domain Gram matrix
-        weighted = Zc[:, :k] * sample_weight[:, None]
-        scale = penalty_scale(weighted.T @ Zc[:, :k], penalty)
+        scale = penalty_scale(gram, penalty)
         size = sample_weight @ D**2
         ridge = np.zeros(D.shape[1])
         null = slice(lead, lead + n_null)

@@ -59,14 +59,17 @@ def split_coordinates(basis, penalty):
 
     The engine's split (:class:`~skfunc._penalized.Penalty`: exact null
     space, whitened complement with ``T_C' P01 T_C = I``) with its null-space
-    columns made orthonormal in L2 of the unit domain, so that the
-    null-space ridge weighs every function of the null space alike.
+    columns made orthonormal in L2 of the unit domain (in the penalty's
+    metric), so that the null-space ridge weighs every function of the null
+    space alike.
     """
     transform = penalty.transform.copy()
     r = penalty.n_null
     if r:
         null = transform[:, :r]
-        lower = np.linalg.cholesky(null.T @ basis.unit_gram() @ null)
+        # the penalty's metric: the unit-domain Gram matrix (several
+        # channels: each channel's scaled by its own data scale)
+        lower = np.linalg.cholesky(null.T @ penalty.metric @ null)
         transform[:, :r] = solve_triangular(lower, null.T, lower=True).T
     return transform
 

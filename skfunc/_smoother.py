@@ -43,6 +43,7 @@ from ._alpha import (
 )
 from ._bases import check_unpenalized_fit
 from ._blocks import apply_rows, chunked_matmul, is_dask_array, row_blocks
+from ._channels import ChannelwiseMixin
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._fit import AdditiveTransformerMixin
@@ -370,8 +371,8 @@ class PenalizedFitMixin:
 
 
 @fill_doc
-class CurveSmoother(PenalizedFitMixin, AdditiveTransformerMixin, TransformerMixin,
-                    BaseEstimator):
+class CurveSmoother(ChannelwiseMixin, PenalizedFitMixin, AdditiveTransformerMixin,
+                    TransformerMixin, BaseEstimator):
     """Smooth sampled curves with a roughness penalty chosen from the data.
 
     Each row of ``X`` is a curve sampled on a grid, possibly with missing
@@ -520,6 +521,9 @@ class CurveSmoother(PenalizedFitMixin, AdditiveTransformerMixin, TransformerMixi
     #: fit runs on skfunc._dask.compute_statistics, so dask arrays are accepted
     _accepts_dask = True
 
+    #: with channels, these may be mappings {channel: value}
+    _channel_params = ("eval_points", "interior_knots")
+
     _parameter_constraints = {
         **BASIS_CONSTRAINTS,
         "alpha": ALPHA_CONSTRAINT,
@@ -599,6 +603,8 @@ class CurveSmoother(PenalizedFitMixin, AdditiveTransformerMixin, TransformerMixi
             A lazy dask array when X is one.
         """
         check_is_fitted(self)
+        if hasattr(self, "channel_estimators_"):
+            return self._per_channel(X, "transform")
         X = self._validate_fast(X)
         return apply_rows(self._smooth, X, self.evaluation_.shape[0])
 
@@ -626,10 +632,13 @@ class CurveSmoother(PenalizedFitMixin, AdditiveTransformerMixin, TransformerMixi
 
         Returns
         -------
-        alphas : ndarray of shape (n_samples,)
-            A lazy dask array when X is one.
+        alphas : ndarray of shape (n_samples,) or (n_samples, n_channels)
+            A lazy dask array when X is one; with channels, one column per
+            channel.
         """
         check_is_fitted(self)
+        if hasattr(self, "channel_estimators_"):
+            return self._per_channel(X, "choose_alphas", columns=True)
         return apply_rows(self._chosen_alphas, self._validate_fast(X))
 
     def _chosen_alphas(self, X):
@@ -680,6 +689,8 @@ class CurveSmoother(PenalizedFitMixin, AdditiveTransformerMixin, TransformerMixi
         feature_names_out : ndarray of str objects
         """
         check_is_fitted(self)
+        if hasattr(self, "channel_estimators_"):
+            return self._channel_feature_names(input_features)
         names = _check_feature_names_in(self, input_features, generate_names=False)
         if self.eval_points is None and names is not None:
             return np.asarray(names, dtype=object)
