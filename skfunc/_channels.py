@@ -411,8 +411,8 @@ class ScaledCoordinates:
     Euclidean inner products of the scaled coordinates are the weighted inner
     products ``sum_c v_c <f_c, g_c>`` (Happ and Greven, 2018)."""
 
-    def __init__(self, coords, d):
-        self.coords, self.d = coords, d
+    def __init__(self, coords, d, d_grid):
+        self.coords, self.d, self.d_grid = coords, d, d_grid
         self.weights = coords.weights
         self.penalty = coords.penalty  # weighted roughness: unchanged
         self.n_coordinates = coords.n_coordinates
@@ -426,17 +426,24 @@ class ScaledCoordinates:
     def projection(self, Y):
         return self.coords.projection(Y * self.d[:, None])
 
+    def unit_free_values(self, Y):
+        """Values times ``sqrt(v_c)`` (k, m): what the sign convention reads,
+        so that signs do not follow one channel's units."""
+        return self.values(Y) * self.d_grid
+
 
 #: channel weights of FunctionalPCA
 CHANNEL_WEIGHTS = ("inverse_variance", "equal")
 
 
-def channel_coordinates(estimator, coords, squares):
+def channel_coordinates(estimator, coords, squares, mean):
     """Channel weights of a multichannel FunctionalPCA and its scaled
     coordinates; ``(coords, None)`` without channels.
 
     ``squares`` (K,) holds the variances of the unweighted coordinates; the
     integrated variance of channel ``c`` is the sum over its coordinates.
+    A channel whose variance is rounding against its mean's square (below
+    1e-20 of it, as FunctionalPCA's own zero-variance rule) has none.
     Returns the :class:`ScaledCoordinates` and the per-coordinate factors
     ``d``, and sets ``channel_weights_``.
     """
@@ -468,9 +475,11 @@ def channel_coordinates(estimator, coords, squares):
     elif option == "equal":
         weights = np.ones(len(names))
     else:
-        variance = np.array([squares[a:b].sum() for a, b in zip(bounds[:-1], bounds[1:])])
-        if np.any(variance <= 0):
-            flat = [n for n, v in zip(names, variance) if v <= 0]
+        cuts = list(zip(bounds[:-1], bounds[1:]))
+        variance = np.array([squares[a:b].sum() for a, b in cuts])
+        level = np.array([mean[a:b] @ mean[a:b] for a, b in cuts])
+        flat = [n for n, v, m in zip(names, variance, level) if v <= 1e-20 * m or v <= 0]
+        if flat:
             raise ValueError(
                 f"Channel(s) {flat} of X have zero variance, so "
                 "channel_weights='inverse_variance' (one over each channel's "
@@ -480,7 +489,8 @@ def channel_coordinates(estimator, coords, squares):
         weights = 1.0 / variance
     estimator.channel_weights_ = weights
     d = np.repeat(np.sqrt(weights), np.diff(bounds))
-    return ScaledCoordinates(coords, d), d
+    d_grid = np.repeat(np.sqrt(weights), estimator.channel_sizes_)
+    return ScaledCoordinates(coords, d, d_grid), d
 
 
 # ------------------------------------------- channel-separable transformers

@@ -352,7 +352,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
                 f"covariance; got {n} sample."
             )
         covariance = scatter / (n - 1)
-        coords, d = channel_coordinates(self, coords, np.diag(covariance))
+        coords, d = channel_coordinates(self, coords, np.diag(covariance), mean)
         weighted_mean = mean if d is None else mean * d
         if d is not None:
             covariance = covariance * np.outer(d, d)
@@ -370,7 +370,8 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         n, K = X.shape[0], coords.n_coordinates
         n_wanted = self._n_wanted(n, K)
         Z, mean = coords.centered(X)
-        coords, d = channel_coordinates(self, coords, np.einsum("ij,ij->j", Z, Z) / (n - 1))
+        coords, d = channel_coordinates(self, coords, np.einsum("ij,ij->j", Z, Z) / (n - 1),
+                                        mean)
         weighted_mean = mean
         if d is not None:
             Z *= d
@@ -406,7 +407,9 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
             n_wanted = int(np.searchsorted(cumulative, self.n_components - 1e-12)) + 1
         k = min(n_wanted, variances.size)
         variances, directions = variances[:k], directions[:, :k]
-        directions = directions * sign_convention(coords.values(directions))
+        # (channels: signs read from values in unit-free channel scales)
+        values = getattr(coords, "unit_free_values", coords.values)(directions)
+        directions = directions * sign_convention(values)
         self.n_samples_seen_ = int(n)
         self.coordinate_mean_ = mean
         self.quadrature_weights_ = coords.weights

@@ -172,6 +172,15 @@ def check_batch_grid(estimator, grid_param="grid", grid_attr="grid_"):
     """A later ``partial_fit`` batch: the grid parameter must still give the
     fitted grid."""
     grid = getattr(estimator, grid_param, None)
+    if isinstance(grid, Mapping):  # channels: their grids side by side
+        if [str(name) for name in grid] != getattr(estimator, "channel_names_", None):
+            raise ValueError(
+                f"partial_fit of {type(estimator).__name__} got channels "
+                f"{list(grid)} in {grid_param}, but its earlier calls had "
+                f"{getattr(estimator, 'channel_names_', 'one curve per row')}; all "
+                "batches must have the same channels (call fit to start afresh)."
+            )
+        grid = np.concatenate([np.asarray(g, dtype=np.float64) for g in grid.values()])
     if grid is not None:
         fitted = getattr(estimator, grid_attr)
         grid = np.asarray(grid, dtype=np.float64)
