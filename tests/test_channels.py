@@ -111,7 +111,8 @@ def _rescaled(X, factor=1e3):
 
 
 @pytest.mark.parametrize("estimator", [
-    FunctionalRidge(), FunctionalRidge(1e-3), FunctionalRidgeCV(cv=5),
+    FunctionalRidge(), FunctionalRidge(1e-3),
+    pytest.param(FunctionalRidgeCV(cv=5), marks=pytest.mark.slow),
 ])
 def test_ridge_predictions_do_not_depend_on_one_channels_units(estimator):
     # Derivation (skfunc._channels.channel_penalty): multiplying channel c
@@ -284,6 +285,7 @@ def test_smoother_channels_are_smoothed_each_with_its_own_alpha():
     assert names[0] == "T__0.0" and names[-1] == "O__2.5"
 
 
+@pytest.mark.slow
 def test_partial_fit_with_channels_equals_fit():
     X, y = _two_channels()
     grid = {"T": T, "O": U}
@@ -298,6 +300,7 @@ def test_partial_fit_with_channels_equals_fit():
         _close(getattr(parts, method)(X), getattr(whole, method)(X), 1e-9)
 
 
+@pytest.mark.slow
 def test_pipeline_and_persistence_with_channels(tmp_path):
     X, y = _two_channels()
     grid = {"T": T, "O": U}
