@@ -340,17 +340,7 @@ class CurveOutlierDetector(ShortReprMixin, OutlierMixin, BaseEstimator):
 
     # -------------------------------------------------------------- scoring
     def _validate(self, X, reset):
-        X = validate_curves(self, X, reset=reset, allow_nan=True)
-        X = np.asarray(X, dtype=np.float64)
-        if np.isnan(X).any():
-            row, col = np.argwhere(np.isnan(X))[0]
-            raise ValueError(
-                f"X contains NaN (first at row {row}, column {col}): "
-                "CurveOutlierDetector needs complete curves. Fill missing values "
-                "first, for example with skfunc.preprocessing.CurveSmoother in a "
-                "pipeline."
-            )
-        return X
+        return np.asarray(validate_curves(self, X, reset=reset), dtype=np.float64)
 
     def _outlyingness(self, X, weights):
         return magnitude_shape_values(X, self.median_, self.scale_, weights)

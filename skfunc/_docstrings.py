@@ -123,10 +123,6 @@ grid : array-like of shape (n_features,), default=None
 input_features : array-like of str or None, default=None
     Input feature names, validated against ``feature_names_in_``.
 """,
-    "fitted_grid_X": """
-X : array-like of shape (n_samples, n_features)
-    Curves on the fitted grid.
-""",
     "quadrature": """
 quadrature : {"trapezoid", "simpson"}, default="trapezoid"
     Quadrature rule of the integrals over the grid (see
@@ -158,6 +154,8 @@ feature_names_in_ : ndarray of shape (n_features_in_,)
     Column names of ``X`` when they are all strings.
 """,
     "curve_response_references": """
+References
+----------
 Ramsay, J. O. and Silverman, B. W. (2005). *Functional Data Analysis*,
 2nd ed., ch. 13-16. Springer.
 
@@ -250,6 +248,8 @@ feature_names_in_ : ndarray of shape (n_features_in_,)
     Column names of X when they are all strings.
 """,
     "scalar_outcome_notes": """
+Notes
+-----
 The fit minimises ``sum_i w_i (y_i - b0 - int x_i beta - gamma' s_i)^2 +
 alpha int (D^q beta)^2``; with the identity penalty (``penalty_order=0``)
 in an orthonormal basis this is :class:`sklearn.linear_model.Ridge` on
@@ -271,6 +271,8 @@ workers block by block and predicted lazily (alpha by GCV only).
 %(cautions)s
 """,
     "scalar_outcome_references": """
+References
+----------
 Ramsay, J. O. and Silverman, B. W. (2005). *Functional Data Analysis*,
 2nd ed., ch. 15. Springer.
 

@@ -89,8 +89,6 @@ class FunctionOnFunctionRidge(AdditiveRegressorMixin, CurveResponseRegressor):
     simultaneous.
     %(cautions)s
 
-    References
-    ----------
     %(curve_response_references)s
 
     Examples

@@ -86,8 +86,6 @@ class FunctionOnScalarRidge(AdditiveRegressorMixin, CurveResponseRegressor):
     and are not simultaneous.
     %(cautions)s
 
-    References
-    ----------
     %(curve_response_references)s
 
     Examples

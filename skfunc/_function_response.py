@@ -45,7 +45,6 @@ Craven, P. and Wahba, G. (1979). Smoothing noisy data with spline functions.
 import numpy as np
 from scipy.stats import norm as _normal
 from sklearn.base import BaseEstimator, RegressorMixin
-from sklearn.utils._param_validation import StrOptions
 from sklearn.utils.validation import (
     check_array,
     check_consistent_length,
@@ -53,9 +52,8 @@ from sklearn.utils.validation import (
 )
 
 from ._alpha import (
-    ALPHA_CONSTRAINT,
+    ALPHA_CONSTRAINTS,
     AUTO,
-    CRITERIA,
     best_index,
     candidates_from_eigenvalues,
     check_alpha,
@@ -85,8 +83,7 @@ _PINV_RTOL = 1e-12
 #: parameters shared by the curve-response regressors
 RESPONSE_PARAMETER_CONSTRAINTS = {
     **{key: value for key, value in BASIS_CONSTRAINTS.items() if key != "grid"},
-    "alpha": ALPHA_CONSTRAINT,
-    "criterion": [StrOptions(set(CRITERIA))],
+    **ALPHA_CONSTRAINTS,
     "response_grid": ["array-like", None],
 }
 
