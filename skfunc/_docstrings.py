@@ -135,6 +135,11 @@ response_grid : array-like of shape (n_response_points,), default=None
     one-column ``y`` is a response of one point: a scalar outcome, fitted
     by least squares.
 """,
+    "eval_points_response": """
+eval_points : array-like of shape (n_points,), default=None
+    Where to evaluate the curves, inside the response domain; None means
+    ``response_grid_``.
+""",
     "curve_response_attributes": """
 %(alpha_attributes)s
 edf_ : float
