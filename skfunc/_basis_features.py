@@ -65,8 +65,6 @@ class BasisFeatures(PenalizedFitMixin, AdditiveTransformerMixin, TransformerMixi
 
     Attributes
     ----------
-    grid_ : ndarray of shape (n_features,)
-        The grid used at fit.
     %(alpha_attributes)s
     edf_ : float
         Effective degrees of freedom of the fit at ``alpha_``.

@@ -61,12 +61,6 @@ class ConcurrentFunctionRidge(CurveInputResponseRegressor):
     ----------
     coef_function_ : ndarray of shape (n_response_points,)
         ``beta_1(t)`` on ``response_grid_``.
-    grid_ : ndarray of shape (n_features,)
-        The input grid used at fit.
-    response_grid_ : ndarray of shape (n_response_points,)
-        The response grid used at fit.
-    intercept_function_ : ndarray of shape (n_response_points,)
-        ``beta_0(t)`` on ``response_grid_``.
     basis_coef_ : ndarray of shape (2, n_basis_)
         Basis coefficients of ``beta_0`` (row 0) and ``beta_1``.
     coef_covariance_ : ndarray of shape (2 * n_basis_, 2 * n_basis_)

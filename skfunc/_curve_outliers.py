@@ -109,8 +109,6 @@ class CurveOutlierDetector(ShortReprMixin, OutlierMixin, BaseEstimator):
     offset_ : float
         Scores below it are outliers: ``decision_function = score_samples -
         offset_``.
-    grid_ : ndarray of shape (n_features,)
-        The grid used at fit.
     median_ : ndarray of shape (n_features,)
         Pointwise median of the training curves.
     scale_ : ndarray of shape (n_features,)

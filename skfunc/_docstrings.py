@@ -141,6 +141,10 @@ eval_points : array-like of shape (n_points,), default=None
     ``response_grid_``.
 """,
     "curve_response_attributes": """
+response_grid_ : ndarray of shape (n_response_points,)
+    The response grid used at fit; predictions are on it by default.
+intercept_function_ : ndarray of shape (n_response_points,)
+    ``beta_0(t)`` on ``response_grid_``.
 %(alpha_attributes)s
 edf_ : float
     Effective degrees of freedom at ``alpha_``.
@@ -153,6 +157,9 @@ n_samples_seen_ : int
     :meth:`partial_fit` since the first).
 """,
     "curve_input_attributes": """
+grid_ : ndarray of shape (n_features,)
+    The grid of the columns of ``X`` used at fit (of the curve columns when
+    there are scalar covariates).
 n_features_in_ : int
     Number of grid points (columns of ``X``) seen during fit.
 feature_names_in_ : ndarray of shape (n_features_in_,)

@@ -41,14 +41,8 @@ class FunctionOnFunctionRidge(AdditiveRegressorMixin, CurveInputResponseRegresso
 
     Attributes
     ----------
-    grid_ : ndarray of shape (n_features,)
-        The input grid used at fit.
-    response_grid_ : ndarray of shape (n_response_points,)
-        The response grid used at fit; predictions are on it.
     coef_function_ : ndarray of shape (n_features, n_response_points)
         ``beta(s, t)`` on ``grid_`` x ``response_grid_``.
-    intercept_function_ : ndarray of shape (n_response_points,)
-        ``beta_0(t)`` on ``response_grid_``.
     basis_coef_ : ndarray of shape (n_basis_input + 1, n_basis_)
         Coefficients in the response basis: row 0 the intercept, then the
         rows of ``B``, one per input basis function.

@@ -40,12 +40,8 @@ class FunctionOnScalarRidge(AdditiveRegressorMixin, CurveResponseRegressor):
 
     Attributes
     ----------
-    response_grid_ : ndarray of shape (n_response_points,)
-        The response grid used at fit; predictions are on it.
     coef_function_ : ndarray of shape (n_features_in_, n_response_points)
         ``beta_j(t)`` on ``response_grid_``, one row per covariate.
-    intercept_function_ : ndarray of shape (n_response_points,)
-        ``beta_0(t)`` on ``response_grid_``.
     basis_coef_ : ndarray of shape (n_features_in_ + 1, n_basis_)
         Basis coefficients of the intercept (row 0) and of the coefficient
         functions.

@@ -107,8 +107,6 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
 
     Attributes
     ----------
-    grid_ : ndarray of shape (n_features,)
-        The grid used at fit.
     quadrature_weights_ : ndarray of shape (n_features,)
         Quadrature weights on ``grid_``.
     mean_ : ndarray of shape (n_features,)

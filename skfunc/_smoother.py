@@ -417,8 +417,6 @@ class CurveSmoother(PenalizedFitMixin, AdditiveTransformerMixin, TransformerMixi
 
     Attributes
     ----------
-    grid_ : ndarray of shape (n_features,)
-        The grid used at fit.
     eval_points_ : ndarray of shape (n_outputs,)
         Points at which :meth:`transform` evaluates the curves.
     n_basis_ : int
