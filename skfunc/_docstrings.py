@@ -321,6 +321,16 @@ grid : int or array-like of shape (n_points,), default=None
 random_state : int, RandomState instance or None, default=None
     Seed.
 """,
+    "flagged_curves": """
+outliers : ndarray of bool of shape (n_curves,)
+    Which curves are flagged.
+labels : list of str, default=None
+    One label per curve; None means the row numbers.
+kinds : ndarray of str of shape (n_curves,), default=None
+    How each flagged curve is unusual (see
+    :meth:`skfunc.outliers.CurveOutlierDetector.outlier_kind`); shown
+    in the legend when given.
+""",
     "display_labels_ax": """
 labels : list of str, default=None
     One label per curve; None means the row numbers.

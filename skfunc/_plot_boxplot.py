@@ -115,14 +115,7 @@ class FunctionalBoxplotDisplay(FlaggedCurvesDisplayMixin):
         The deepest curve.
     central_lower, central_upper : ndarray of shape (n_points,)
         Envelope of the deepest half of the curves.
-    outliers : ndarray of bool of shape (n_curves,)
-        Which curves are flagged.
-    labels : list of str, default=None
-        One label per curve; None means the row numbers.
-    kinds : ndarray of str of shape (n_curves,), default=None
-        How each flagged curve is unusual (see
-        :meth:`skfunc.outliers.CurveOutlierDetector.outlier_kind`); shown
-        in the legend when given.
+    %(flagged_curves)s
 
     Attributes
     ----------

@@ -29,13 +29,7 @@ class OutlyingnessDisplay(FlaggedCurvesDisplayMixin):
         Mean directional outlyingness.
     shape : ndarray of shape (n_curves,)
         Variation of directional outlyingness.
-    outliers : ndarray of bool of shape (n_curves,)
-        Which curves are flagged.
-    labels : list of str, default=None
-        One label per curve; None means the row numbers.
-    kinds : ndarray of str of shape (n_curves,), default=None
-        How each flagged curve is unusual (see
-        :meth:`skfunc.outliers.CurveOutlierDetector.outlier_kind`).
+    %(flagged_curves)s
 
     Attributes
     ----------
