@@ -31,6 +31,7 @@ from sklearn.model_selection import KFold, cross_val_score
 from skfunc.channels import split_channels
 from skfunc.datasets import make_kiln_firing
 from skfunc.linear_model import FunctionalRidgeCV
+from skfunc.plotting import CoefficientFunctionDisplay
 from skfunc.preprocessing import CurveSmoother
 
 kiln = make_kiln_firing(300, random_state=3)
@@ -56,7 +57,6 @@ print(f"cross-validated R^2 from temperature only: {alone.mean():.3f}")
 
 ridge.fit(X, kiln.colour)
 lower, upper = ridge.confidence_band(0.95)
-estimate = split_channels(ridge, ridge.coef_function_)
 lows, highs = split_channels(ridge, lower), split_channels(ridge, upper)
 print(f"GCV-chosen penalty: {ridge.alpha_:.3g}")
 for name, truth in kiln.colour_coef_function.items():
@@ -72,19 +72,14 @@ change = np.abs(refit.predict(fraction) - ridge.predict(X)).max()
 print(f"largest change of a prediction with oxygen as a fraction: {change:.1e} L*")
 
 units = {"temperature": "L* per °C·min", "oxygen": "L* per %·min"}
-fig, axes = plt.subplots(2, 2, figsize=(12, 7), layout="constrained")
+fig, axes = plt.subplots(2, 2, figsize=(13, 7), layout="constrained")
 for column, name in enumerate(("temperature", "oxygen")):
-    t, beta = estimate[name]
-    raw = split_channels(ridge, kiln.channels[:5])[name][1]
+    t, raw = split_channels(ridge, kiln.channels[:5])[name]
     axes[0, column].plot(t, raw.T, lw=0.8)
     axes[0, column].set(title=f"Five runs: {name}", xlabel="minute",
                         ylabel="°C" if name == "temperature" else "oxygen, % by volume")
-    ax = axes[1, column]
-    ax.fill_between(t, lows[name][1], highs[name][1], alpha=0.3,
-                    label="95% pointwise band")
-    ax.plot(t, beta, label="estimate")
-    ax.plot(t, kiln.colour_coef_function[name], "k--", label="truth (invented)")
-    ax.axhline(0, color="grey", lw=0.5)
-    ax.set(title=f"Coefficient function of {name}", xlabel="minute",
-           ylabel=units[name])
-axes[1, 1].legend(loc="center left", bbox_to_anchor=(1.02, 0.5))
+    CoefficientFunctionDisplay.from_estimator(
+        ridge, channel=name, reference=kiln.colour_coef_function[name],
+        ax=axes[1, column])
+    axes[1, column].set(title=f"Coefficient function of {name}", xlabel="minute",
+                        ylabel=units[name])

@@ -293,6 +293,29 @@ def split_channels(estimator, values):
     }
 
 
+def channel_columns(estimator, channel, name):
+    """The columns of ``grid_`` of one channel of a fitted estimator (a
+    slice), or ``slice(None)`` for an estimator without channels and
+    ``channel=None``; ``name`` is the caller, for messages."""
+    layout = fitted_channels(estimator)
+    if layout is None:
+        if channel is not None:
+            raise ValueError(
+                f"channel={channel!r} was given, but {type(estimator).__name__} was "
+                f"fitted on one curve per row; {name} needs channel=None."
+            )
+        return slice(None)
+    names, grids = layout
+    if channel not in names:
+        raise ValueError(
+            f"{type(estimator).__name__} was fitted on channels {names}; pass "
+            f"{name} one of them as channel= (got {channel!r})."
+        )
+    c = names.index(channel)
+    start = sum(g.size for g in grids[:c])
+    return slice(start, start + grids[c].size)
+
+
 # ------------------------------------------------------- the composite basis
 
 

@@ -399,3 +399,75 @@ def test_other_bad_layouts():
     with warnings.catch_warnings():
         warnings.simplefilter("error")
         est.transform(X)  # no feature-name warning for plain arrays
+
+
+# ------------------------------------------- resolution, Dask, displays
+
+
+def _sampled(n_t, n_u, n=60):
+    """The same functions of two channels (T on [0, 1], O on [0, 5]) on
+    grids of n_t and n_u points; y sums the two channels' responses."""
+    t, u = np.linspace(0, 1, n_t), np.linspace(0, 5, n_u)
+    a, ya, _ = make_smooth_regression(n, grid=t, noise=0.0, random_state=0)
+    b, yb, _ = make_smooth_regression(n, grid=u, noise=0.0, random_state=1)
+    noise = np.random.default_rng(2).normal(0, 0.1, n)
+    return np.hstack([a, b]), ya + yb + noise, {"T": t, "O": u}
+
+
+@pytest.mark.parametrize("n_points", [(201, 201), (201, 51)])
+def test_channels_are_resolution_invariant(n_points):
+    # As tests/test_common.py::test_resolution_invariance, per channel: the
+    # trapezoid rule's O(h^2) error on these smooth Fourier curves is about
+    # 2e-4 at 201 points (common practice; derivation there), and 51 points
+    # (h 4x larger) about 16x that on the second channel alone, diluted in
+    # the sum with the first: 1e-3 and 5e-3 leave room. A sum over grid
+    # points instead of an integral changes by the ratio of point counts.
+    X_ref, y_ref, g_ref = _sampled(1001, 1001)
+    X, y, g = _sampled(*n_points)
+    rtol = 1e-3 if n_points == (201, 201) else 5e-3
+    ref = FunctionalRidge(1e-4, grid=g_ref).fit(X_ref, y_ref)
+    est = FunctionalRidge(1e-4, grid=g).fit(X, y)
+    _close(est.predict(X), ref.predict(X_ref), rtol)
+    ref = FunctionalPCA(3, grid=g_ref).fit(X_ref)
+    est = FunctionalPCA(3, grid=g).fit(X)
+    _close(est.explained_variance_, ref.explained_variance_, rtol)
+    _close(np.abs(est.transform(X)), np.abs(ref.transform(X_ref)), rtol)
+
+
+@pytest.mark.slow
+def test_dask_fits_with_channels_equal_in_memory_fits():
+    # Fits are sums over row blocks (skfunc._fit): the same statistics in
+    # another order, so equal up to rounding (1e-9 relative).
+    import dask.array as da
+
+    X, y = _two_channels()
+    grid = {"T": T, "O": U}
+    Xd, yd = da.from_array(X, chunks=(25, -1)), da.from_array(y, chunks=25)
+    for est, method, target in ((FunctionalRidge(grid=grid), "predict", y),
+                                (FunctionalPCA(3, grid=grid), "transform", None),
+                                (CurveSmoother(grid=grid), "transform", None)):
+        local = clone(est).fit(X, target)
+        remote = clone(est).fit(Xd, None if target is None else yd)
+        _close(np.asarray(getattr(remote, method)(Xd)), getattr(local, method)(X), 1e-9)
+
+
+def test_displays_draw_one_channel():
+    from skfunc.plotting import CoefficientFunctionDisplay, ComponentPerturbationDisplay
+
+    X, y = _two_channels()
+    ridge = FunctionalRidge(grid={"T": T, "O": U}).fit(X, y)
+    display = CoefficientFunctionDisplay.from_estimator(ridge, channel="O")
+    np.testing.assert_array_equal(display.line_.get_xdata(), U)
+    np.testing.assert_array_equal(display.line_.get_ydata(), ridge.coef_function_[T.size:])
+    with pytest.raises(ValueError, match=r"fitted on channels \['T', 'O'\]; pass"):
+        CoefficientFunctionDisplay.from_estimator(ridge)
+    fpca = FunctionalPCA(2, grid={"T": T, "O": U}).fit(X)
+    display = ComponentPerturbationDisplay.from_estimator(fpca, channel="T")
+    np.testing.assert_array_equal(display.grid, T)
+    np.testing.assert_array_equal(display.components, fpca.components_[:, : T.size])
+    single = FunctionalRidge().fit(X[:, : T.size], y)
+    with pytest.raises(ValueError, match="needs channel=None"):
+        CoefficientFunctionDisplay.from_estimator(single, channel="T")
+    import matplotlib.pyplot as plt
+
+    plt.close("all")
