@@ -60,7 +60,7 @@ class BasisFeatures(ChannelwiseMixin, PenalizedFitMixin, AdditiveTransformerMixi
     data_term : {"mean", "integral"}, default="mean"
         Data term of the fit: the mean squared error over the grid points,
         or quadrature weights (``int (x - f)^2``); see :class:`CurveSmoother`.
-    %(grid)s
+    %(grid_channels)s
     quadrature : {"trapezoid", "simpson"}, default="trapezoid"
         Quadrature rule of the weights with ``data_term="integral"``.
 
@@ -79,6 +79,7 @@ class BasisFeatures(ChannelwiseMixin, PenalizedFitMixin, AdditiveTransformerMixi
         Values on ``grid_`` of the orthonormalised basis functions, used by
         :meth:`inverse_transform`.
     %(n_samples_seen)s
+    %(channelwise_attributes)s
     %(curve_input_attributes)s
 
     See Also

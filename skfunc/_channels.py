@@ -125,7 +125,7 @@ def set_channels(estimator, X, n_points, n_covariates=0):
     Sets ``grid_`` (the channels' grids concatenated), ``channel_names_``
     and ``channel_sizes_``; a fit without channels removes them.
     """
-    for attr in ("channel_names_", "channel_sizes_"):
+    for attr in ("channel_names_", "channel_sizes_", "channel_weights_"):
         vars(estimator).pop(attr, None)
     grid = getattr(estimator, "grid", None)
     labels = _multi_columns(X)

@@ -98,9 +98,12 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         ``n_components < 0.1 min(n_samples, K)``, else 4).
     random_state : int, RandomState instance or None, default=None
         Seed of the randomized solver; pass an int for reproducible results.
-    grid : array-like of shape (n_features,), default=None
+    grid : array-like of shape (n_features,) or dict, default=None
         Sampling points of the columns of ``X``. None means the numeric column
-        labels of a DataFrame, else evenly spaced points on [0, 1].
+        labels of a DataFrame, else evenly spaced points on [0, 1]. A dict
+        ``{channel: grid}`` (or ``(channel, time)`` DataFrame labels)
+        declares several channels: multivariate components, see
+        ``channel_weights``.
     quadrature : {"trapezoid", "simpson"}, default="trapezoid"
         Quadrature rule for integrals over the grid. Without a basis the
         weights must be positive.
@@ -562,7 +565,9 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         ``-||x - x_hat||`` with ``x_hat = inverse_transform(transform(x))``,
         integrated with ``quadrature_weights_``: higher is more typical, as
         in scikit-learn's ``score_samples`` convention, so curves the
-        components do not describe well score lowest. (Unlike
+        components do not describe well score lowest. With channels the
+        norm is the weighted one of the components (``channel_weights_``).
+        (Unlike
         :meth:`sklearn.decomposition.PCA.score_samples`, this is not a
         log-likelihood: curves have no finite-dimensional density.) With a
         basis, the error includes what the basis cannot represent.
@@ -583,7 +588,10 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         residual = np.asarray(X, dtype=np.float64) - self.inverse_transform(
             self.transform(X)
         )
-        return -np.sqrt(np.maximum(residual**2 @ self.quadrature_weights_, 0.0))
+        weights = self.quadrature_weights_
+        if hasattr(self, "channel_weights_"):  # the weighted norm of channels
+            weights = weights * np.repeat(self.channel_weights_, self.channel_sizes_)
+        return -np.sqrt(np.maximum(residual**2 @ weights, 0.0))
 
     @fill_doc
     def mahalanobis(self, X):

@@ -412,7 +412,7 @@ class CurveSmoother(ChannelwiseMixin, PenalizedFitMixin, AdditiveTransformerMixi
         Points at which :meth:`transform` evaluates the smoothed curves
         (resampling); strictly increasing and inside the fitted grid's
         domain. None means the fitted grid.
-    %(grid)s
+    %(grid_channels)s
     quadrature : {"trapezoid", "simpson"}, default="trapezoid"
         Quadrature rule of the weights with ``data_term="integral"``.
 
@@ -433,6 +433,7 @@ class CurveSmoother(ChannelwiseMixin, PenalizedFitMixin, AdditiveTransformerMixi
         Values (or derivatives of order ``derivative``) of the basis
         functions at ``eval_points_``.
     %(n_samples_seen)s
+    %(channelwise_attributes)s
     %(curve_input_attributes)s
 
     See Also
