@@ -37,6 +37,7 @@ from scipy.linalg import block_diag
 from sklearn.base import clone
 from sklearn.utils.validation import check_is_fitted
 
+from ._docstrings import fill_doc
 from ._grid import check_grid, grid_from_labels, quadrature_weights
 from ._penalized import Penalty, penalty_for, penalty_scale
 
@@ -562,6 +563,10 @@ class ChannelwiseMixin:
         if first:
             self._validate_params()
             vars(self).pop("channel_estimators_", None)
+        else:
+            from ._validation import check_batch_grid
+
+            check_batch_grid(self)
         X = self._validate_channels(X, reset=first)
         if first:
             for param in self._channel_params:
@@ -595,13 +600,36 @@ class ChannelwiseMixin:
         if hasattr(ests[0], "eval_points_"):
             self.eval_points_ = np.concatenate([e.eval_points_ for e in ests])
 
+    @fill_doc
     def fit(self, X, y=None):
+        """Fit on the curves in X (forgetting earlier batches); with
+        channels, one fit per channel.
+
+        %(transformer_fit)s
+        """
         if not self._uses_channels(X, True):
             vars(self).pop("channel_estimators_", None)
             return super().fit(X, y)
         return self._fit_channels(X, partial=False)
 
     def partial_fit(self, X, y=None):
+        """Add a batch of curves and refit from the statistics of all batches.
+
+        The first batch fixes the grid (and the channels); with channels,
+        each channel's estimator takes its columns of the batch.
+
+        Parameters
+        ----------
+        X : array-like or dask array of shape (n_samples, n_features)
+            A batch of curves on the grid of the first batch.
+        y : None
+            Ignored; accepted for pipeline compatibility.
+
+        Returns
+        -------
+        self : object
+            The transformer, fitted on all batches so far.
+        """
         first = not hasattr(self, "n_samples_seen_")
         if not self._uses_channels(X, first):
             return super().partial_fit(X, y)
