@@ -203,6 +203,12 @@ def test_identical_channels_give_single_fpca_scaled_as_happ_greven():
     psi = single.components_ / np.sqrt(2 * v)
     _close(both.components_, np.hstack([psi, psi]))
     _close(both.transform(np.hstack([X, X])), np.sqrt(2 * v) * single.transform(X))
+    # one channel with the default weight v = 1 / V, the same derivation:
+    # nu_k = v lambda_k, psi_k = phi_k / sqrt(v), scores sqrt(v) xi_k
+    one = FunctionalPCA(4, grid={"a": T}).fit(X)
+    _close(one.explained_variance_, v * single.explained_variance_)
+    _close(one.components_, single.components_ / np.sqrt(v))
+    _close(one.transform(X), np.sqrt(v) * single.transform(X))
 
 
 def test_fpca_on_different_domains_matches_the_discretised_operator():
