@@ -31,6 +31,7 @@ How the estimators use it:
 """
 
 from collections.abc import Mapping
+from numbers import Integral
 
 import numpy as np
 from scipy.linalg import block_diag
@@ -59,7 +60,8 @@ def is_channel_grid(grid):
 def _multi_columns(X):
     """The (channel, time) column labels of a DataFrame, or None."""
     columns = getattr(X, "columns", None)
-    if columns is None or getattr(columns, "nlevels", 1) == 1:
+    nlevels = getattr(columns, "nlevels", 1) if columns is not None else 1
+    if not isinstance(nlevels, Integral) or nlevels == 1:  # (lazy collections too)
         return None
     if columns.nlevels != 2:
         raise ValueError(
