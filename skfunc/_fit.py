@@ -45,11 +45,21 @@ from ._validation import check_batch_grid
 _UNCERTAINTY = ("noise_variance_", "coef_covariance_")
 
 
+class UndefinedUncertaintyWarning(UserWarning):
+    """The fit leaves no residual degrees of freedom: the noise variance and
+    the confidence bands are undefined (NaN), while the fit itself stands.
+
+    A statistical property of the data, not a numerical failure, in the way
+    of scikit-learn's ``UndefinedMetricWarning``; numerical trouble stays a
+    ``RuntimeWarning`` or an error."""
+
+
 def check_finite_fit(estimator):
     """Never hand back NaN or inf silently: after a fit, non-finite values in
     a fitted attribute are a ``ValueError`` (the fit failed, usually because
-    sums of squares overflowed or underflowed), or a ``RuntimeWarning`` where
-    only the uncertainty is undefined. A selection criterion may be inf (GCV
+    sums of squares overflowed or underflowed), or an
+    :class:`UndefinedUncertaintyWarning` where only the uncertainty is
+    undefined. A selection criterion may be inf (GCV
     where a fit interpolates); what to choose then is the alpha choice's
     policy, not checked here. Returns the estimator.
     """
@@ -77,7 +87,7 @@ def check_finite_fit(estimator):
             f"{name}: {' and '.join(uncertain)} not finite: the fit leaves no "
             "residual degrees of freedom (too few observations, or weights summing "
             "to less than the effective number of parameters), so confidence bands "
-            "are undefined.", RuntimeWarning, stacklevel=3,
+            "are undefined.", UndefinedUncertaintyWarning, stacklevel=3,
         )
     return estimator
 

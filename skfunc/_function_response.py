@@ -42,7 +42,10 @@ Craven, P. and Wahba, G. (1979). Smoothing noisy data with spline functions.
 *Numerische Mathematik* 31, 377-403.
 """
 
+import warnings
+
 import numpy as np
+from scipy.linalg import block_diag, null_space
 from scipy.stats import norm as _normal
 from sklearn.base import BaseEstimator, RegressorMixin
 from sklearn.utils.validation import (
@@ -66,6 +69,7 @@ from ._estimator import store_init_params
 from ._fit import AdditiveFitMixin
 from ._grid import check_grid, grid_from_labels, quadrature_weights, resolve_grid
 from ._penalized import (
+    _RCOND,
     NotIdentifiableError,
     Penalty,
     SplitPath,
@@ -142,6 +146,54 @@ def response_split(basis, gram, penalty_order, penalized=True, total_weight=None
                else free_penalty(basis.n_basis))
     path = SplitPath(gram, penalty, scale=total_weight)
     return path.eigvecs, path.g, path.p, path.scale
+
+
+class UndeterminedCoefficientsWarning(UserWarning):
+    """The data do not determine every unpenalized coefficient; the fit is
+    the minimum-norm solution."""
+
+
+def min_norm_path(gram, penalty, scale, metric):
+    """``(path, n_dropped)``: the :class:`~skfunc._penalized.SplitPath` of
+    ``(gram, penalty)``, also when the data do not determine the penalty's
+    whole null space; ``metric=None`` allows no such fallback.
+
+    The null-space directions the data do not see are then dropped:
+    eigenvalues at rounding level (the engine's own test) of the
+    null-space block of ``gram`` scaled to a unit diagonal, so that columns
+    in different units (covariates against the intercept's weight total)
+    are not mistaken for a rank deficiency; when there are none, the
+    engine's error stands. The problem is solved on the ``metric``-orthogonal
+    complement of those directions, so among all minimisers the
+    coefficients ``c`` have the smallest ``c' metric c``, the minimum-norm
+    solution that :func:`numpy.linalg.lstsq` gives for rank-deficient least
+    squares. The path's ``eigvecs`` map to the full coordinates (with
+    ``n_dropped`` fewer columns), so coefficients, operators, effective
+    degrees of freedom and criteria are those of the identified part.
+    """
+    try:
+        return SplitPath(gram, penalty, scale=scale), 0
+    except NotIdentifiableError as exc:
+        if metric is None:
+            raise
+        error = exc
+    r = penalty.n_null
+    basis_n = penalty.transform[:, :r]  # orthonormal null-space basis
+    block = basis_n.T @ gram @ basis_n
+    diag = np.clip(np.diag(block), 0.0, None)
+    root = np.sqrt(np.where(diag > 0, diag, 1.0))
+    unit = block / np.outer(root, root)
+    lam, vec = np.linalg.eigh((unit + unit.T) / 2)
+    unseen = lam <= _RCOND * r * max(lam[-1], 1.0)
+    if not unseen.any():
+        raise error
+    undetermined = basis_n @ (vec[:, unseen] / root[:, None])
+    keep = null_space((metric @ undetermined).T)  # c with D' metric c = 0
+    free = basis_n @ null_space(undetermined.T @ metric @ basis_n)
+    reduced = Penalty(keep.T @ penalty.matrix @ keep, keep.T @ free)
+    path = SplitPath(keep.T @ gram @ keep, reduced, scale=scale)
+    path.eigvecs = keep @ path.eigvecs
+    return path, int(unseen.sum())
 
 
 class _PointBasis:
@@ -430,9 +482,30 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
                 f"{type(self).__name__} was given 1 sample; the coefficient "
                 "functions need n_samples >= 2 (the intercept and one slope)."
             )
-        paths = [self._direction_path(S, g[k], p_t[k], gram_s, pen_s, s_t, scale)
+        # raw sums of squares below the smallest normal number where the sums
+        # are not zero: the squares underflowed, a numerical failure (the
+        # engine's error stands), not a rank deficiency of the data
+        underflow = np.any((np.diag(stats["zz"]) < np.finfo(float).tiny)
+                           & (stats["z_sum"] != 0))
+        metric = None if underflow else block_diag(gram_s, 1.0)
+        built = [self._direction_path(S, g[k], p_t[k], gram_s, pen_s, s_t, scale, metric)
                  for k in range(g.size)]
+        paths = [None if item is None else item[0] for item in built]
         live = [k for k, path in enumerate(paths) if path is not None]
+        dropped = sum(built[k][1] for k in live)
+        if dropped:
+            warnings.warn(
+                f"{type(self).__name__}: the {stats['n']} rows (weights summing to "
+                f"{sw:g}) do not determine {dropped} combination(s) of the "
+                "unpenalized coefficients (the intercept and the part of every "
+                "coefficient function the penalty leaves free): too few rows for "
+                "the covariates, or collinear covariates. The fit is the "
+                "minimum-norm solution (smallest L2 norm of the coefficient "
+                "functions), as numpy.linalg.lstsq and "
+                "sklearn.linear_model.LinearRegression return for rank-deficient "
+                "designs. Use fewer covariates or more rows for a unique fit.",
+                UndeterminedCoefficientsWarning, stacklevel=5,
+            )
         rotated = {k: paths[k].rotate(rot[:, k])[None] for k in live}
         alphas = resolve_candidates(
             self.alpha, np.concatenate([paths[k].s for k in live]), scale)
@@ -483,10 +556,12 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
                     alphas, criterion, edf(alphas), best)
 
     @staticmethod
-    def _direction_path(S, g_k, p_k, gram_s, pen_s, s_t, scale):
-        """The split path of response direction k (None when the data do not
-        see it): design block penalized by ``g_k / s_t Ps + p_k Gs``, the
-        intercept (last) unpenalized."""
+    def _direction_path(S, g_k, p_k, gram_s, pen_s, s_t, scale, metric):
+        """``(path, n_dropped)`` of response direction k (None when the data
+        do not see it): design block penalized by ``g_k / s_t Ps + p_k Gs``,
+        the intercept (last) unpenalized; the minimum-norm solution in
+        ``metric`` where the data do not determine the unpenalized part
+        (:func:`min_norm_path`)."""
         p = gram_s.shape[0]
         if p_k == 0:  # the response penalty's null space: only Ps acts
             if pen_s is None:
@@ -498,7 +573,7 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         else:
             matrix = gram_s if pen_s is None else gram_s + g_k / s_t * pen_s.matrix
             pen = Penalty(matrix, np.zeros((p, 0)))
-        return SplitPath(g_k * S, pen.extend(1), scale=scale)
+        return min_norm_path(g_k * S, pen.extend(1), scale, metric)
 
     def _store(self, basis, basis_coef, coef_covariance, alphas, criterion, edf, best):
         """Set the fitted attributes of the solution at candidate ``best``."""
