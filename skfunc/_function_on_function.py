@@ -85,8 +85,8 @@ class FunctionOnFunctionRidge(AdditiveRegressorMixin, CurveResponseRegressor):
     GCV treats all ``n_samples * n_response_points`` residuals as
     independent; with strongly autocorrelated residual curves on dense grids
     prefer :class:`~sklearn.model_selection.GridSearchCV` over ``alpha``.
-    Confidence bands are pointwise, ignore the smoothing bias and are not
-    simultaneous.
+    Confidence bands are pointwise, or simultaneous over the whole surface
+    (``confidence_band(simultaneous=True)``); both ignore the smoothing bias.
     %(cautions)s
 
     References
@@ -118,6 +118,8 @@ class FunctionOnFunctionRidge(AdditiveRegressorMixin, CurveResponseRegressor):
     }
 
     _batch_grids = (("grid", "grid_"), ("response_grid", "response_grid_"))
+
+    _joint_band = True  # a simultaneous band covers the whole surface
 
     def __init__(self, alpha="auto", *, criterion="gcv", basis="bspline", n_basis=None,
                  degree=3, interior_knots=None, penalty_order=2, period=None, grid=None,
