@@ -24,8 +24,9 @@ splits, the weights and the constants, for every estimator of
 
 Every check is an identity that holds to rounding (tolerances say which
 rounding) or to the quadrature error derived in ``tests/test_common.py``.
-Examples are few (``max_examples``) so the module stays fast; estimators
-whose fit takes longer than about 0.1 s are marked slow.
+Examples are few (``max_examples``) so the module stays fast: the fast
+default runs each property on one estimator, the full run (CI's
+``-m "slow or not slow"``) on every estimator it applies to.
 """
 
 import numpy as np
@@ -44,21 +45,22 @@ from skfunc.utils import all_estimators
 CLASSES = dict(all_estimators())
 NAMES = list(CLASSES)
 
-#: estimators whose fit takes several times longer than the others (aligners
-#: iterate or run a dynamic program, the outlier detector bootstraps, the
-#: sparse FPCA cross-validates, the classifier runs Newton steps)
-SLOW = {"SparseFunctionalPCA", "ElasticAligner", "ShiftAligner", "CurveOutlierDetector",
-        "FunctionalLogisticRegression"}
+#: the fast default runs each property on one estimator (named at its test,
+#: chosen among those whose fits take a few hundredths of a second); the
+#: full run (``-m "slow or not slow"``, as CI) on every estimator it applies to
 
 #: a few examples per estimator and property, no deadline (fits vary in time
 #: with the machine's load); the same examples on every run, so a failure
-#: reproduces
-FEW = settings(max_examples=4, deadline=None, derandomize=True, phases=[Phase.explicit, Phase.generate],
+#: reproduces; no shrinking (each step refits estimators: minutes)
+FEW = settings(max_examples=4, deadline=None, derandomize=True,
+               phases=[Phase.explicit, Phase.generate],
                suppress_health_check=[HealthCheck.too_slow])
 
 
-def _names(applies=lambda name: True):
-    return [pytest.param(n, marks=pytest.mark.slow) if n in SLOW else n
+def _names(applies=lambda name: True, *, fast):
+    """The estimators a property applies to; all but ``fast`` marked slow."""
+    assert applies(fast)
+    return [n if n == fast else pytest.param(n, marks=pytest.mark.slow)
             for n in NAMES if applies(n)]
 
 
@@ -113,14 +115,16 @@ AFFINE = ("BasisFeatures", "CurveSmoother", "FunctionalPCA", "SparseFunctionalPC
 coefficients = st.floats(-3, 3, allow_nan=False).filter(lambda v: abs(v) > 1e-3)
 
 
-@pytest.mark.parametrize("name", _names(lambda n: n in AFFINE))
+@pytest.mark.parametrize("name", _names(lambda n: n in AFFINE, fast="FunctionalPCA"))
 @FEW
 @given(grid=grids, a=coefficients, b=coefficients, seed=st.integers(0, 2**32 - 1))
 def test_outputs_are_affine_in_the_input(name, grid, a, b, seed):
     # f(aX + bY) = a f(X) + b f(Y) + (1 - a - b) f(0) for an affine f
-    # (definition); a map with a bias it should not have (an uncentred FPCA
-    # score, a prediction with the intercept counted twice) or a nonlinear
-    # step fails. 1e-9 of the terms' size: rounding of a few products.
+    # (definition); a nonlinear step (a clipped value, a data-dependent
+    # choice at transform time) fails. The offset is checked where it is
+    # known: projections and smoothers are linear (f(0) = 0), and principal
+    # component scores are centred (the mean curve scores 0), so an uncentred
+    # score fails. 1e-9 of the terms' size: rounding of a few products.
     est, X, y = _case(name, grid)
     est.fit(X, y)
     rng = np.random.default_rng(seed)
@@ -133,6 +137,11 @@ def test_outputs_are_affine_in_the_input(name, grid, a, b, seed):
     scale = abs(a) * np.abs(fa).max() + abs(b) * np.abs(fb).max() \
         + abs(1 - a - b) * np.abs(f0).max()
     _assert_close(lhs, rhs, 1e-9, scale)
+    if name in ("BasisFeatures", "CurveSmoother"):
+        _assert_close(f0, np.zeros_like(f0), 1e-12, np.abs(fa).max())
+    if name == "FunctionalPCA":
+        centre = _output(est, est.mean_[None])
+        _assert_close(centre, np.zeros_like(centre), 1e-12, np.abs(fa).max())
 
 
 #: linear models at a fixed alpha: the fit is a linear map of y
@@ -140,7 +149,8 @@ LINEAR_IN_Y = ("FunctionalRidge", "FunctionOnScalarRidge", "FunctionOnFunctionRi
                "ConcurrentFunctionRidge")
 
 
-@pytest.mark.parametrize("name", _names(lambda n: n in LINEAR_IN_Y))
+@pytest.mark.parametrize("name", _names(lambda n: n in LINEAR_IN_Y,
+                                        fast="FunctionOnScalarRidge"))
 @FEW
 @given(grid=grids, a=coefficients, b=coefficients, seed=st.integers(0, 2**32 - 1))
 def test_fits_are_linear_in_the_response(name, grid, a, b, seed):
@@ -187,7 +197,7 @@ ITERATIVE_RTOL = {"FunctionalLogisticRegression": 1e-5}
 ORDER_FREE_PARAMS = {"CurveOutlierDetector": {"method": "boxplot"}}
 
 
-@pytest.mark.parametrize("name", _names())
+@pytest.mark.parametrize("name", _names(fast="FunctionalRidgeCV"))
 @FEW
 @given(grid=grids, data=st.data())
 def test_row_order_does_not_matter(name, grid, data):
@@ -231,7 +241,7 @@ def test_outlier_calls_and_row_order():
     np.testing.assert_array_equal(moved.predict(X), labels)
 
 
-@pytest.mark.parametrize("name", _names(_takes_sample_weight))
+@pytest.mark.parametrize("name", _names(_takes_sample_weight, fast="FunctionalRidge"))
 @FEW
 @given(grid=grids, weights=st.lists(st.integers(0, 3), min_size=40, max_size=40)
        .filter(lambda w: sum(v > 0 for v in w) >= 25))
@@ -250,7 +260,8 @@ def test_weight_k_equals_k_copies(name, grid, weights):
     _assert_close(_output(weighted, X), _output(copies, X), 1e-8)
 
 
-@pytest.mark.parametrize("name", _names(lambda n: hasattr(CLASSES[n], "partial_fit")))
+@pytest.mark.parametrize("name", _names(lambda n: hasattr(CLASSES[n], "partial_fit"),
+                                        fast="BasisFeatures"))
 @FEW
 @given(grid=grids, cuts=st.sets(st.integers(12, 59), max_size=8))
 def test_partial_fit_over_any_blocks_equals_fit(name, grid, cuts):
@@ -286,7 +297,7 @@ def _reference_output(name):
 
 
 @pytest.mark.parametrize("name", _names(
-    lambda n: not ESTIMATOR_CASES[n].get("even_grids_only")))
+    lambda n: not ESTIMATOR_CASES[n].get("even_grids_only"), fast="FunctionalRidge"))
 @settings(max_examples=3, deadline=None, derandomize=True)
 @given(m=st.integers(201, 401), strength=st.floats(-0.55, 0.55))
 def test_resolution_invariance_on_drawn_grids(name, m, strength):
@@ -309,7 +320,8 @@ _IN_X_UNITS = ("CurveSmoother", "BasisFeatures", "FunctionalPCA", "ShiftAligner"
                "FunctionOnFunctionRidge", "ConcurrentFunctionRidge")
 
 
-@pytest.mark.parametrize("name", _names(lambda n: n != "SparseFunctionalPCA"))
+@pytest.mark.parametrize("name", _names(lambda n: n != "SparseFunctionalPCA",
+                                        fast="FunctionalRidgeCV"))
 @FEW
 @given(shift=st.floats(-100, 100), stretch=st.floats(-3, 3), scale=st.floats(-3, 3),
        auto=st.booleans())
@@ -467,3 +479,25 @@ def test_sparse_fpca_components_are_l2_orthonormal(seed, n_components):
                       fpca.components_basis_coef_, fine)
     gram = integrate.simpson(values[:, None] * values[None], x=fine)
     np.testing.assert_allclose(gram, np.eye(fpca.n_components_), atol=1e-7)
+
+
+@FEW
+@given(stretch=st.floats(-2, 2), scale=st.floats(-3, 3), alpha=st.floats(1e-6, 1e-2),
+       seed=curves_seed)
+def test_fpca_smoothing_alpha_has_units_of_t_to_the_2q(stretch, scale, alpha, seed):
+    # FunctionalPCA's alpha is documented in units of t^(2q) (its roughness
+    # term alpha ||D^q phi||^2 against ||phi||^2): on the grid c t with X
+    # times s, alpha c^(2q) gives the same components (up to the 1/sqrt(c) of
+    # L2 normalisation on a c times longer domain) and the same
+    # reconstructions in X's units, to rounding (1e-8). Leaving alpha as it
+    # is changes the smoothing by c^4 and fails for c far from 1.
+    c, s = 10.0 ** stretch, 10.0 ** scale
+    grid = np.linspace(0, 1, 41)
+    X = _curves(grid, seed, n=20)
+    base = FunctionalPCA(n_components=3, basis="bspline", n_basis=12, alpha=alpha,
+                         grid=grid).fit(X)
+    moved = FunctionalPCA(n_components=3, basis="bspline", n_basis=12,
+                          alpha=alpha * c ** 4, grid=c * grid).fit(X * s)
+    _assert_close(moved.components_ * np.sqrt(c), base.components_, 1e-8)
+    once = base.inverse_transform(base.transform(X))
+    _assert_close(moved.inverse_transform(moved.transform(X * s)) / s, once, 1e-8)
