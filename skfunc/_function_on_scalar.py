@@ -78,8 +78,9 @@ class FunctionOnScalarRidge(AdditiveRegressorMixin, CurveResponseRegressor):
     merged in a tree) and predicted lazily block by block.
 
     Confidence bands are pointwise normal-theory bands assuming independent
-    curves with a common residual covariance; they ignore the smoothing bias
-    and are not simultaneous.
+    curves with a common residual covariance, pointwise or simultaneous over
+    each coefficient function (``confidence_band(simultaneous=True)``); they
+    ignore the smoothing bias.
     %(cautions)s
 
     %(curve_response_references)s

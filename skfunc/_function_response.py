@@ -46,8 +46,8 @@ import warnings
 
 import numpy as np
 from scipy.linalg import block_diag, null_space
-from scipy.stats import norm as _normal
 from sklearn.base import BaseEstimator, RegressorMixin
+from sklearn.utils import check_random_state
 from sklearn.utils.validation import (
     check_array,
     check_consistent_length,
@@ -62,6 +62,7 @@ from ._alpha import (
     check_alpha,
     reml_score,
 )
+from ._bands import critical_value
 from ._blocks import chunked_matmul, is_dask_array, row_blocks
 from ._dask import check_accepts_dask
 from ._docstrings import fill_doc
@@ -405,6 +406,11 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
 
     _batch_grids = (("response_grid", "response_grid_"),)
 
+    #: whether the simultaneous band covers all rows of ``coef_function_`` at
+    #: once (a coefficient surface) rather than each row (coefficient
+    #: functions of separate covariates)
+    _joint_band = False
+
     def __sklearn_tags__(self):
         tags = super().__sklearn_tags__()
         tags.target_tags.required = True
@@ -664,19 +670,32 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
             points = np.asarray(eval_points, dtype=np.float64).ravel()
         return intercept + self._design_effect(X, coef, points)
 
-    def confidence_band(self, level=0.95, intercept=False):
-        """Pointwise confidence band of the coefficient functions.
+    def confidence_band(self, level=0.95, intercept=False, *, simultaneous=False,
+                        n_draws=4000, random_state=None):
+        """Confidence band of the coefficient functions.
 
-        Normal-theory intervals ``estimate -/+ z sd`` at every grid point,
-        assuming independent observations; they ignore the smoothing bias
-        and are not simultaneous over the grid.
+        ``estimate -/+ c sd`` at every grid point, from ``coef_covariance_``
+        (independent observations). Pointwise, ``c`` is the normal quantile
+        ``z_{(1 + level)/2}``; simultaneous, ``c`` is the ``level`` quantile
+        of ``max |f~ - f_hat| / sd`` over ``n_draws`` draws ``f~`` from the
+        coefficients' normal distribution (Ruppert, Wand and Carroll, 2003),
+        so that the whole function lies inside at once: each coefficient
+        function separately, a coefficient surface as a whole. Both ignore
+        the smoothing bias: where the function is rough they are too narrow.
 
         Parameters
         ----------
         level : float, default=0.95
-            Coverage of each pointwise interval, in (0, 1).
+            Coverage level, in (0, 1).
         intercept : bool, default=False
             Band of ``intercept_function_`` instead of ``coef_function_``.
+        simultaneous : bool, default=False
+            Whether the level holds for the whole function at once (wider)
+            rather than at each point.
+        n_draws : int, default=4000
+            Draws for the simultaneous critical value.
+        random_state : int, RandomState instance or None, default=None
+            Seeds the draws (simultaneous bands only).
 
         Returns
         -------
@@ -686,10 +705,20 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         """
         check_is_fitted(self)
         level = check_level(level)
-        p1 = self.basis_coef_.shape[0]
+        p1, K = self.basis_coef_.shape
         left = np.eye(p1)[:1] if intercept else self._coef_rows()
         estimate, phi = self._evaluate(left)
-        half = _normal.ppf(0.5 + level / 2) * np.sqrt(self._band_variance(left, phi))
+        sd = np.sqrt(self._band_variance(left, phi))
+        joint = self._joint_band and not intercept
+        groups = [np.arange(left.shape[0])] if joint else np.arange(left.shape[0])[:, None]
+        rng = check_random_state(random_state)
+        crit = np.empty((left.shape[0], 1))
+        for rows in groups:
+            crit[rows] = critical_value(
+                level, simultaneous=simultaneous, covariance=self.coef_covariance_,
+                evaluate=lambda e, sub=left[rows]: sub @ e.reshape(-1, p1, K) @ phi.T,
+                sd=sd[rows], n_draws=n_draws, random_state=rng)
+        half = crit * sd
         shape = (self.intercept_function_ if intercept else self.coef_function_).shape
         return (estimate - half).reshape(shape), (estimate + half).reshape(shape)
 
