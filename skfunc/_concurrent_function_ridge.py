@@ -1,10 +1,12 @@
 """ConcurrentFunctionRidge: a response curve from an input curve at the same
 points, ``Y_i(t) = beta_0(t) + beta_1(t) X_i(t)``."""
 
+from functools import partial
+
 import numpy as np
 from sklearn.utils.validation import check_is_fitted
 
-from ._alpha import check_alpha, reml_score
+from ._alpha import check_alpha, gcv_in_data_units, reml_score
 from ._blocks import compute_statistics, is_dask_array
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
@@ -18,7 +20,15 @@ from ._function_response import (
     resolve_candidates,
     validate_response,
 )
-from ._penalized import NotIdentifiableError, SplitPath, gcv_score, penalty_for
+from ._penalized import (
+    NotIdentifiableError,
+    SplitPath,
+    gcv_score,
+    penalty_for,
+    scale_down,
+    scaled_statistics,
+    to_data_units,
+)
 from ._validation import validate_curves
 from ._weights import check_sample_weight
 
@@ -161,7 +171,9 @@ class ConcurrentFunctionRidge(CurveResponseRegressor):
         stats = compute_statistics(self._statistics, X, y, w)
         self.n_samples_seen_ = int(X.shape[0])
         self._solve(stats)
-        meat = compute_statistics(self._score_products, X, y, w)["meat"]
+        # the second pass in the first one's units (X, y over powers of two)
+        meat = compute_statistics(partial(self._score_products, x_exp=stats["x_exp"],
+                                          y_exp=stats["y_exp"]), X, y, w)["meat"]
         self.coef_covariance_ = self._sandwich(stats, meat)
         return check_finite_fit(self)
 
@@ -206,10 +218,15 @@ class ConcurrentFunctionRidge(CurveResponseRegressor):
 
         Keys ``n``, ``sw`` (count and weight total), ``x``, ``xx``, ``y``,
         ``xy``, ``yy`` (weighted sums of X, X^2, y, X y, y^2 per response
-        point, X read there): all sums, merged key by key
-        (:func:`skfunc._penalized.merge`).
+        point, X read there): all sums, of X and y divided by powers of two
+        (``x_exp``, ``y_exp``: :func:`skfunc._penalized.scaled_statistics`),
+        merged key by key (:func:`skfunc._penalized.merge`).
         """
         X = self._input_at_response(np.asarray(X, dtype=np.float64))
+        return scaled_statistics(self._point_sums, X, y, sample_weight)
+
+    @staticmethod
+    def _point_sums(X, y, sample_weight):
         y = np.asarray(y, dtype=np.float64)
         w = np.ones(X.shape[0]) if sample_weight is None else np.asarray(sample_weight)
         return {
@@ -262,7 +279,8 @@ class ConcurrentFunctionRidge(CurveResponseRegressor):
         def scores(values, criterion):
             if criterion == "reml":
                 return reml_score(yy_w - path.penalized_rss_reduction(rot, values)[0],
-                                  sw * m - path.n_null, path.log_det_ratio(values))
+                                  sw * m - path.n_null, path.log_det_ratio(values),
+                                  2 * stats["y_exp"] * np.log(2.0))
             rss = np.maximum(yy_w - path.rss_reduction(rot, values)[0], 0.0)
             return gcv_score(rss, path.edf(values), sw * m, sw * weights.sum())
 
@@ -274,17 +292,24 @@ class ConcurrentFunctionRidge(CurveResponseRegressor):
                 f"ConcurrentFunctionRidge: {exc}"
             ) from exc
         K = basis.n_basis
-        self._store(basis, coef.reshape(2, K)[::-1], np.full((2 * K, 2 * K), np.nan),
+        if criterion is not None and self.criterion == "gcv":
+            criterion = gcv_in_data_units(criterion, stats["y_exp"])
+        # (beta_0, beta_1) in the data's units: y's and y / x's
+        coef = to_data_units(coef.reshape(2, K)[::-1], stats, np.array([[0], [-1]]), 1)
+        self._store(basis, coef, np.full((2 * K, 2 * K), np.nan),
                     alphas, criterion, path.edf(alphas), best)
 
-    def _score_products(self, X, y, sample_weight):
+    def _score_products(self, X, y, sample_weight, x_exp, y_exp):
         """``sum w g g'`` of the curves' score contributions at the fit,
-        ``g_i = (Phi' W e_i, Phi' W (X_i e_i))`` (key ``meat``; a sum)."""
-        X = self._input_at_response(np.asarray(X, dtype=np.float64))
+        ``g_i = (Phi' W e_i, Phi' W (X_i e_i))`` (key ``meat``; a sum), with
+        X and y divided by ``2**x_exp`` and ``2**y_exp``."""
+        X = scale_down(self._input_at_response(np.asarray(X, dtype=np.float64)), x_exp)
         basis, weights = self._response_basis()
         phi_w = basis.evaluate(self.response_grid_) * weights[:, None]
-        resid = np.asarray(y, dtype=np.float64) - self.intercept_function_
-        resid -= X * self.coef_function_
+        scaled = {"x_exp": x_exp, "y_exp": y_exp}
+        resid = scale_down(y, y_exp) - to_data_units(self.intercept_function_, scaled,
+                                                     0, -1)
+        resid -= X * to_data_units(self.coef_function_, scaled, 1, -1)
         scores = np.hstack([resid @ phi_w, (resid * X) @ phi_w])
         return {"meat": (scores * sample_weight[:, None]).T @ scores}
 
@@ -298,7 +323,9 @@ class ConcurrentFunctionRidge(CurveResponseRegressor):
         bread = path.operator(self.alpha_)[np.ix_(order, order)]
         sw = stats["sw"]
         factor = sw / (sw - 2) if sw > 2 else np.nan
-        return factor * bread @ meat @ bread
+        x_power = np.r_[np.zeros(K, dtype=int), -np.ones(K, dtype=int)]
+        return to_data_units(factor * bread @ meat @ bread, stats,
+                             x_power[:, None] + x_power[None, :], 2)
 
     def _coef_rows(self):
         return np.array([[0.0, 1.0]])

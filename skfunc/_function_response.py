@@ -59,6 +59,7 @@ from ._alpha import (
     best_index,
     candidates_from_eigenvalues,
     check_alpha,
+    gcv_in_data_units,
     reml_score,
 )
 from ._blocks import chunked_matmul, is_dask_array, row_blocks
@@ -74,6 +75,8 @@ from ._penalized import (
     gcv_score,
     penalty_for,
     penalty_scale,
+    scaled_statistics,
+    to_data_units,
 )
 from ._validation import BASIS_CONSTRAINTS, basis_for, check_labels, check_level
 from ._weights import check_sample_weight
@@ -365,9 +368,16 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         The design is X itself, or ``X @ design`` for an operator ``design``
         (m, p). Keys of :func:`skfunc._penalized.cross_products` of the design and y
         (``n, sw, z_sum, y_sum, zz, zy, yy``) plus ``yproj``, the weighted
-        cross products of the projections ``Y_i' W Phi`` (K x K): all sums,
-        merged key by key (:func:`skfunc._penalized.merge`).
+        cross products of the projections ``Y_i' W Phi`` (K x K): all sums
+        of X and y divided by powers of two (``x_exp``, ``y_exp``:
+        :func:`skfunc._penalized.scaled_statistics`, so squares of data near
+        1e300 or 1e-300 stay finite and normal), merged key by key
+        (:func:`skfunc._penalized.merge`). The solve works in those units.
         """
+        return scaled_statistics(self._scaled_statistics, X, y, sample_weight,
+                                 design=design)
+
+    def _scaled_statistics(self, X, y, sample_weight=None, design=None):
         basis, weights = self._response_basis()
         phi_w = basis.evaluate(self.response_grid_) * weights[:, None]
         Y = np.asarray(y, dtype=np.float64)
@@ -432,7 +442,7 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
                 dof = sw * m - sum(paths[k].n_null for k in live)
                 logdet = sum(paths[k].log_det_ratio(values) for k in live)
                 return reml_score(yy_w - total("penalized_rss_reduction", values), dof,
-                                  logdet)
+                                  logdet, 2 * stats["y_exp"] * np.log(2.0))
             rss = np.maximum(yy_w - total("rss_reduction", values), 0.0)
             return gcv_score(rss, edf(values), sw * m, sw * weights.sum())
 
@@ -461,7 +471,15 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         cov = np.einsum("ai,bk,kilm,cm,dl->abcd", transform, U, cov, transform, U,
                         optimize=True)
         p1, K = C.shape
-        self._store(basis, transform @ C @ U.T, cov.reshape(p1 * K, p1 * K),
+        # back to the data's units: the intercept row is in y's, the others
+        # in y / x (powers of two, exact; variances may overflow: checked)
+        x_power = np.r_[0.0, -np.ones(p)]
+        basis_coef = to_data_units(transform @ C @ U.T, stats, x_power[:, None], 1)
+        cov = to_data_units(cov, stats, x_power[:, None, None, None]
+                            + x_power[None, None, :, None], 2)
+        if criterion is not None and self.criterion == "gcv":
+            criterion = gcv_in_data_units(criterion, stats["y_exp"])
+        self._store(basis, basis_coef, cov.reshape(p1 * K, p1 * K),
                     alphas, criterion, edf(alphas), best)
 
     @staticmethod

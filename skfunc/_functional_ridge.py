@@ -28,6 +28,8 @@ from ._penalized import (
     NotIdentifiableError,
     centered,
     centered_cross_products,
+    scaled_statistics,
+    to_data_units,
 )
 from ._weights import check_sample_weight
 
@@ -77,8 +79,16 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
         Keys of :func:`skfunc._penalized.centered_cross_products` of the
         integrated design and y: raw sums (``n, sw, z_sum, y_sum, zz, zy,
         yy``) and cross products about the block's means (``czz, czy,
-        cyy``), merged exactly by :func:`skfunc._penalized.merge`.
+        cyy``), of X and y divided by powers of two (``x_exp``, ``y_exp``:
+        :func:`skfunc._penalized.scaled_statistics`), merged exactly by
+        :func:`skfunc._penalized.merge`. Everything up to the fitted
+        attributes is computed in those scaled units, so data near 1e300 or
+        1e-300 neither overflow nor underflow.
         """
+        return scaled_statistics(self._design_statistics, X, y, sample_weight,
+                                 operator=operator)
+
+    def _design_statistics(self, X, y, sample_weight, operator):
         return centered_cross_products(self._design(X, operator), y, sample_weight)
 
     def _solve(self, stats):
@@ -136,7 +146,11 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
         u = path.eigvecs[:k]
         inv_d = 1.0 / path.denominators(per_target)
         covariance = np.einsum("t,kj,tj,lj->tkl", sigma2, u, inv_d, u)
-        self._set_coefficients(basis, theta, intercept, covariance, squeeze)
+        # from the scaled statistics back to the data's units (powers of two)
+        self._set_coefficients(
+            basis, to_data_units(theta, stats, -1, 1), to_data_units(intercept, stats, 0, 1),
+            to_data_units(covariance, stats, -2, 2), squeeze)
+        sigma2 = to_data_units(sigma2, stats, 0, 2)
         self.edf_ = float(edf[0]) if squeeze or np.ndim(alpha) == 0 else edf
         self.noise_variance_ = float(sigma2[0]) if squeeze else sigma2
         return self
@@ -160,6 +174,7 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
             # frequency weights: the weight total counts the rows (GCV's n, REML's n)
             path, part["rotated"], part["yy"], stats["sw"], alpha, criterion=criterion,
             total_weight=stats["sw"], extra_edf=int(self.fit_intercept), pooled=pooled,
+            y_exp=stats.get("y_exp", 0),
         )
         self._store_path(path, chosen)
         return self._solve_at(stats, self.alpha_, basis, squeeze=y_ndim == 1)

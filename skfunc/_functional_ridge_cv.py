@@ -13,6 +13,7 @@ from ._alpha import (
     best_index,
     candidate_alphas,
     check_alpha,
+    gcv_in_data_units,
 )
 from ._blocks import is_dask_array
 from ._docstrings import fill_doc
@@ -20,7 +21,7 @@ from ._estimator import store_init_params
 from ._fit import check_finite_fit
 from ._functional_ridge import FunctionalRidgeBase
 from ._integrated_design import DESIGN_CONSTRAINTS, PERIOD_CONSTRAINT
-from ._penalized import centered_cross_products, cross_products
+from ._penalized import centered_cross_products, data_exponent, scale_down
 
 
 @fill_doc
@@ -152,9 +153,13 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
         if is_dask_array(X):
             raise ValueError(self._needs_memory("a dask array X"))
         basis = self._basis()
-        Z = self._design(X, self._integration_operator(basis))
-        y2 = y.reshape(y.shape[0], -1)
+        # X and y divided by powers of two, as in the statistics of fit
+        # from sums: the criteria are computed in these units
+        x_exp, y_exp = data_exponent(X), data_exponent(y)
+        Z = self._design(scale_down(X, x_exp), self._integration_operator(basis))
+        y2 = scale_down(y, y_exp).reshape(y.shape[0], -1)
         stats = centered_cross_products(Z, y2, sample_weight)
+        stats.update(x_exp=x_exp, y_exp=y_exp)
         if alphas is None:
             alphas = candidate_alphas(self._path(stats, basis)[0])
         if self.cv is not None:
@@ -202,6 +207,7 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
             criterion = criterion.mean(axis=0)  # one alpha for all targets
         name = "leave-one-out" if self.cv is None else "K-fold"
         best = best_index(criterion, alphas, criterion=name)
+        criterion = gcv_in_data_units(criterion, stats["y_exp"])  # a mean squared error
         self.alphas_path_ = alphas
         self.criterion_path_ = criterion
         self.edf_path_ = self._path(stats, basis)[0].edf(alphas) + self.fit_intercept
@@ -214,15 +220,24 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
 
     def _held_out_error(self, path, part, Z, y2, sample_weight, alphas, leverage):
         """Weighted mean of squared (leave-one-out) residuals on rows of Z, for
-        every target and alpha; ``leverage`` adds the leave-one-out factor."""
+        every target and alpha; ``leverage`` adds the leave-one-out factor.
+
+        Frequency weights: a row of weight ``w_i`` is ``w_i`` observations,
+        and leaving one out removes ``min(w_i, 1)`` of its weight. With
+        ``q_i = z_i' (Z'WZ + lam P)^{-1} z_i`` (plus ``1 / sum w`` for the
+        intercept), removing weight ``delta`` from row i changes its residual
+        to ``e_i / (1 - delta q_i)`` (Sherman-Morrison), so an integer
+        weight gives exactly the criterion of the duplicated rows, and a
+        weight below 1 leaves the whole row out.
+        """
         inv_d = 1.0 / path.denominators(alphas)  # (L, K)
         zu = (Z - part["z_mean"]) @ path.eigvecs
         divisor = 1.0
         if leverage:
-            h = sample_weight[:, None] * (zu**2 @ inv_d.T)
+            q = zu**2 @ inv_d.T  # leverage of one observation, (n, L)
             if self.fit_intercept:
-                h += (sample_weight / sample_weight.sum())[:, None]
-            divisor = 1.0 - h
+                q += 1.0 / sample_weight.sum()
+            divisor = 1.0 - np.minimum(sample_weight, 1.0)[:, None] * q
         errors = np.zeros((y2.shape[1], len(alphas)))
         for j, rotated in enumerate(part["rotated"]):
             fitted = (zu * rotated) @ inv_d.T
@@ -237,7 +252,7 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
         cv = check_cv(self.cv)
         scores = []
         for train, test in cv.split(Z, y2):
-            stats = cross_products(Z[train], y2[train], sample_weight[train])
+            stats = centered_cross_products(Z[train], y2[train], sample_weight[train])
             path, part = self._path(stats, basis)
             scores.append(
                 self._held_out_error(

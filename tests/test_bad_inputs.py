@@ -32,6 +32,7 @@ from sklearn.base import clone
 from sklearn.linear_model import Ridge
 
 from skfunc import hilbert, metrics
+from skfunc._alpha import AlphaAtEdgeWarning
 from skfunc.persistence import load_model, save_model
 from skfunc.utils import all_estimators
 
@@ -381,21 +382,11 @@ BAD_ESTIMATOR_INPUTS = {
 #: (estimator, case) -> why it fails today. Strict expected failures: remove an
 #: entry when the estimator is fixed.
 _ALL = [name for name, _ in all_estimators()]
-_SCALAR_OUT = ["FunctionalRidge", "FunctionalRidgeCV"]
 KNOWN_ESTIMATOR_FAILURES = {
-    **{(name, "scaled-1e-170"): "the design statistics underflow: "
-       "NotIdentifiableError for valid curves near 1e-170" for name in _SCALAR_OUT},
     ("FunctionalPCA", "scaled-1e-170"): "'all curves are identical' for curves whose "
     "variance underflows",
     ("SparseFunctionalPCA", "scaled-1e-170"): "transform of curves near 1e-170 "
     "returns non-finite scores without an error (the fit itself is finite)",
-    **{(name, case): "the response side's null space is judged not determined "
-       "(NotIdentifiableError without naming the argument) for valid curves scaled "
-       "by 1e150 or 1e-170" for name in ["FunctionOnScalarRidge", "FunctionOnFunctionRidge"]
-       for case in ["scaled-1e150", "scaled-1e150-defaults", "scaled-1e-170"]},
-    **{("ConcurrentFunctionRidge", case): "NotIdentifiableError for valid curves "
-       "scaled by 1e150 or 1e-170" for case in ["scaled-1e150", "scaled-1e-170",
-                                                 "scaled-1e150-defaults"]},
 }
 
 
@@ -472,24 +463,81 @@ def test_one_training_curve_is_refused_by_name(name):
         estimator.fit(X[:1], y[:1])
 
 
-@pytest.mark.xfail(strict=True, reason=(
-    "measured: FunctionalRidge(alpha='auto') on data near 1e150 overflows while "
-    "generating its candidate alphas (RuntimeWarning in _alpha.candidates_from_"
-    "eigenvalues) and returns finite predictions that differ from the unit-scale "
-    "fit (-0.221 against -0.133 on the first curve): the ridge path does not yet "
-    "divide the data by a power of two before squaring"))
-def test_sums_of_squares_near_overflow_are_rescaled():
-    # curves and outcomes near 1e150: their squares (1e300) times a few dozen
-    # rows and grid weights overflow float64's 1.8e308 (numpy's finfo), which
-    # used to give NaN predictions. The engine divides the data by a power of
-    # two before squaring (exact in binary floating point), and alpha is
-    # unit-free, so the fit is the unit-scale fit times 1e150, to rounding
-    # (1e-8 relative: a few hundred ulps through the decompositions).
-    estimator, X, y, _ = make_case("FunctionalRidge", GRID)
-    unit = type(estimator)(grid=GRID).fit(X, y)
-    big = type(estimator)(grid=GRID).fit(X * 1e150, y * 1e150)
-    np.testing.assert_allclose(big.predict(X * 1e150) / 1e150, unit.predict(X),
-                               rtol=1e-8)
+#: the regressors whose statistics are formed from X and y divided by powers
+#: of two (skfunc._penalized.scaled_statistics)
+SCALED_REGRESSORS = ["FunctionalRidge", "FunctionalRidgeCV", "FunctionOnScalarRidge",
+                     "FunctionOnFunctionRidge", "ConcurrentFunctionRidge"]
+
+#: (X factor, y factor): squares of 1e150 times a few dozen rows and grid
+#: weights overflow float64's 1.8e308 and squares of 1e-170 underflow its
+#: smallest normal 2.2e-308 (numpy.finfo(float)); 1e300 and 1e-300 are the
+#: extremes the statistics must take
+EXTREME_SCALES = [(1e150, 1e150), (1e-170, 1e-170), (1e300, 1e300), (1e-300, 1e-300),
+                  (1e150, 1.0), (1.0, 1e-300)]
+
+
+def _defaults(estimator):
+    """The estimator with default hyperparameters (alpha="auto"), grids kept."""
+    return type(estimator)(**{k: v for k, v in estimator.get_params().items()
+                              if k in ("grid", "response_grid")})
+
+
+@pytest.mark.parametrize("factors", EXTREME_SCALES, ids=str)
+@pytest.mark.parametrize("defaults", [False, True], ids=["fixed", "auto"])
+@pytest.mark.parametrize("name", SCALED_REGRESSORS)
+def test_extreme_scales_give_the_unit_scale_fit(name, defaults, factors):
+    # Alpha is unit-free, so in exact arithmetic the fit on (a X, b y) is the
+    # fit on (X, y) with coefficients times b / a and predictions times b.
+    # The statistics divide X and y by powers of two before squaring (exact
+    # in binary floating point), so the scaled fit must reproduce the unit
+    # one to rounding: 1e-8 relative is a few hundred ulps through the
+    # decompositions (the two fits see different digits, as a and b are not
+    # powers of two). It used to raise NotIdentifiableError, a foreign-
+    # looking overflow error, or (FunctionalRidge with alpha="auto" at
+    # 1e150) return predictions off by 18%.
+    a, b = factors
+    estimator, X, y, _ = make_case(name, GRID)
+    if defaults:
+        estimator = _defaults(estimator)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", AlphaAtEdgeWarning)
+        unit = clone(estimator).fit(X, y)
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always", RuntimeWarning)
+            big = clone(estimator).fit(X * a, y * b)
+    reference = unit.predict(X)
+    np.testing.assert_allclose(big.predict(X * a) / b, reference,
+                               rtol=1e-8, atol=1e-8 * np.abs(reference).max())
+    assert big.alpha_ == pytest.approx(unit.alpha_, rel=1e-8)
+    np.testing.assert_allclose(big.coef_function_ * (a / b), unit.coef_function_,
+                               rtol=1e-8, atol=1e-8 * np.abs(unit.coef_function_).max())
+    # a number that does not fit in float64 in the data's units (a variance
+    # of y near 1e300 is near 1e600) is inf, and the fit says so
+    overflow = [str(w.message) for w in caught if "overflow" in str(w.message)]
+    for attribute in ("noise_variance_", "coef_covariance_", "criterion_path_"):
+        value = getattr(big, attribute, None)
+        if value is None or np.all(np.isfinite(value)):
+            continue
+        assert overflow, f"{attribute} overflowed without a warning"
+
+
+@pytest.mark.filterwarnings("ignore::skfunc._alpha.AlphaAtEdgeWarning")
+@pytest.mark.parametrize("name", SCALED_REGRESSORS[:4])
+def test_partial_fit_merges_batches_of_different_scales(name):
+    # two batches whose values differ by 2^-10 or so (1e-3) and a first batch
+    # near 1e150: each batch's statistics carry their own power of two and
+    # the merge brings them to one scale by powers of two, so partial_fit
+    # equals fit on the stacked rows (up to the rounding of the merge;
+    # 1e-10 relative, as for batches of one scale)
+    estimator, X, y, _ = make_case(name, GRID)
+    X, y = X * 1e150, y * 1e150
+    X[12:] *= 1e-3
+    y[12:] *= 1e-3
+    whole = clone(estimator).fit(X, y)
+    batches = clone(estimator).partial_fit(X[:12], y[:12]).partial_fit(X[12:], y[12:])
+    expected = whole.predict(X)
+    np.testing.assert_allclose(batches.predict(X), expected, rtol=1e-10,
+                               atol=1e-10 * np.abs(expected).max())
 
 
 def test_interpolating_fit_is_refused_by_gcv():
