@@ -472,8 +472,11 @@ SCALED_REGRESSORS = ["FunctionalRidge", "FunctionalRidgeCV", "FunctionOnScalarRi
 #: weights overflow float64's 1.8e308 and squares of 1e-170 underflow its
 #: smallest normal 2.2e-308 (numpy.finfo(float)); 1e300 and 1e-300 are the
 #: extremes the statistics must take
-EXTREME_SCALES = [(1e150, 1e150), (1e-170, 1e-170), (1e300, 1e300), (1e-300, 1e-300),
-                  (1e150, 1.0), (1.0, 1e-300)]
+#: (automatic alpha, for time, at three of them)
+EXTREME_SCALES = [
+    *[(False, f) for f in [(1e150, 1e150), (1e-170, 1e-170), (1e300, 1e300), (1e150, 1.0)]],
+    *[(True, f) for f in [(1e150, 1e150), (1e-300, 1e-300), (1.0, 1e-300)]],
+]
 
 
 def _defaults(estimator):
@@ -482,8 +485,9 @@ def _defaults(estimator):
                               if k in ("grid", "response_grid")})
 
 
-@pytest.mark.parametrize("factors", EXTREME_SCALES, ids=str)
-@pytest.mark.parametrize("defaults", [False, True], ids=["fixed", "auto"])
+@pytest.mark.parametrize("defaults, factors", EXTREME_SCALES,
+                         ids=lambda v: ("auto" if v else "fixed") if isinstance(v, bool)
+                         else str(v))
 @pytest.mark.parametrize("name", SCALED_REGRESSORS)
 def test_extreme_scales_give_the_unit_scale_fit(name, defaults, factors):
     # Alpha is unit-free, so in exact arithmetic the fit on (a X, b y) is the
