@@ -262,9 +262,30 @@ class ConcurrentFunctionRidge(CurveResponseRegressor):
         try:
             path = SplitPath(self._normal_matrix(stats, phi_w, phi), penalty)
         except NotIdentifiableError as exc:
+            m, k = self.response_grid_.size, basis.n_basis
+            if k > m:
+                advice = (
+                    f"the intercept function is unpenalized, so its {k} basis "
+                    f"functions need at least as many response grid points ({m}). "
+                    "Use a smaller n_basis."
+                )
+            elif self._unpenalized():
+                advice = (
+                    "with alpha=0 (no penalty) the data must determine every basis "
+                    "coefficient and do not. Use a smaller n_basis, more curves, or "
+                    "a roughness penalty (alpha > 0 or 'auto')."
+                )
+            else:
+                advice = (
+                    "the slope's functions that the roughness penalty leaves free "
+                    f"(degree < penalty_order={self.penalty_order}) are unpenalized, "
+                    "so the curves must differ enough at the response points to "
+                    "tell them from the intercept, whatever alpha. Use more (or "
+                    "more varied) curves or a lower penalty_order."
+                )
             raise NotIdentifiableError(
-                f"ConcurrentFunctionRidge: {exc} The intercept function is "
-                "unpenalized: use fewer basis functions (n_basis) than grid points."
+                "ConcurrentFunctionRidge cannot determine its coefficient functions "
+                f"from {int(stats['n'])} curves: {advice}"
             ) from exc
         return path, basis, weights, phi_w
 

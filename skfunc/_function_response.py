@@ -410,8 +410,11 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         sw = stats["sw"]
         zz, zy, _, z_mean, y_mean = centered(stats)
         p = zz.shape[0]
-        U, g, p_t, s_t = response_split(basis, phi_w.T @ phi, self.penalty_order,
-                                        not self._unpenalized(), float(weights.sum()))
+        try:
+            U, g, p_t, s_t = response_split(basis, phi_w.T @ phi, self.penalty_order,
+                                            not self._unpenalized(), float(weights.sum()))
+        except NotIdentifiableError as exc:
+            raise self._not_identifiable("response", stats["n"]) from exc
         design_pen = pen_s if pen_s is not None else free_penalty(p)
         scale = penalty_scale(zz, design_pen) * s_t
         S = np.zeros((p + 1, p + 1))
@@ -422,8 +425,11 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
                 f"{type(self).__name__} was given 1 sample; the coefficient "
                 "functions need n_samples >= 2 (the intercept and one slope)."
             )
-        paths = [self._direction_path(S, g[k], p_t[k], gram_s, pen_s, s_t, scale)
-                 for k in range(g.size)]
+        try:
+            paths = [self._direction_path(S, g[k], p_t[k], gram_s, pen_s, s_t, scale)
+                     for k in range(g.size)]
+        except NotIdentifiableError as exc:
+            raise self._not_identifiable("design", stats["n"]) from exc
         live = [k for k, path in enumerate(paths) if path is not None]
         rotated = {k: paths[k].rotate(rot[:, k])[None] for k in live}
         alphas = resolve_candidates(
@@ -456,11 +462,8 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
                 C[:, k] = paths[k].coef(rotated[k], alpha)[0]
                 A_inv[k] = paths[k].operator(alpha)
                 sample_edf[k] = paths[k].edf(alpha)
-        except NotIdentifiableError as exc:
-            raise NotIdentifiableError(
-                f"{type(self).__name__}: {exc} With alpha=0 use fewer basis "
-                "functions (n_basis) or more observations."
-            ) from exc
+        except NotIdentifiableError as exc:  # alpha = 0 only (d = 0)
+            raise self._not_identifiable("unpenalized", stats["n"]) from exc
         # back to the order (intercept, design)
         order = np.r_[p, np.arange(p)]
         C, S, rot = C[order], S[np.ix_(order, order)], rot[order]
@@ -481,6 +484,53 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
             criterion = gcv_in_data_units(criterion, stats["y_exp"])
         self._store(basis, basis_coef, cov.reshape(p1 * K, p1 * K),
                     alphas, criterion, edf(alphas), best)
+
+    def _not_identifiable(self, side, n_samples):
+        """The error for coefficients the data cannot determine, with the
+        advice that fits the case: the penalty's null space needs a lower
+        ``penalty_order`` (or more data), an unpenalized basis a smaller
+        ``n_basis``; only alpha = 0 is told to add a penalty."""
+        name, q = type(self).__name__, self.penalty_order
+        if side == "unpenalized":
+            detail = (
+                "with alpha=0 (no penalty) the data must determine every basis "
+                "coefficient and do not. Use a smaller n_basis, more observations, "
+                "or a roughness penalty (alpha > 0 or 'auto')."
+            )
+        elif side == "response" and self._unpenalized():
+            detail = (
+                f"the {self.response_grid_.size} response grid points do not "
+                "determine the response basis without a penalty (alpha=0). Use a "
+                "smaller n_basis or a roughness penalty (alpha > 0 or 'auto')."
+            )
+        elif side == "response":
+            detail = (
+                f"the {self.response_grid_.size} response grid points do not "
+                f"determine the functions of t the roughness penalty leaves free "
+                f"(polynomials of degree < penalty_order={q}), whatever alpha. Use "
+                "a lower penalty_order or a response grid with more points."
+            )
+        elif self._design_geometry()[1] is None:  # scalar covariates
+            detail = (
+                f"in the functions of t the roughness penalty leaves free "
+                f"(degree < penalty_order={q}) the covariates' coefficients are "
+                f"unpenalized, so the intercept and the {self.n_features_in_} "
+                f"covariate(s) must be linearly independent over the "
+                f"{n_samples} observations, whatever alpha. Use more "
+                "observations, drop collinear covariates, or penalty_order=0 "
+                "(which penalizes every function of t)."
+            )
+        else:
+            detail = (
+                f"the input curves must determine the input functions the "
+                f"roughness penalty leaves free (degree < penalty_order={q} in "
+                f"s, together with the intercept), whatever alpha; {n_samples} "
+                "curves do not. Use more curves or a lower penalty_order."
+            )
+        return NotIdentifiableError(
+            f"{name} cannot determine its coefficient functions from {n_samples} "
+            f"observations: {detail}"
+        )
 
     @staticmethod
     def _direction_path(S, g_k, p_k, gram_s, pen_s, s_t, scale):
