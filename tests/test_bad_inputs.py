@@ -554,3 +554,100 @@ def test_interpolating_fit_is_refused_by_gcv():
     estimator.set_params(alpha=[1e-16], n_basis=30)
     with pytest.raises(ValueError, match="No candidate alpha has a finite GCV score"):
         estimator.fit(X[:8], y[:8])
+
+
+# ------------------------------------ overflow in the data's units, said aloud
+def test_variances_and_criteria_that_overflow_are_said_to():
+    # y near 1e300: the fit is exact (above), but a variance of y is near
+    # 1e600, beyond float64's 1.8e308 (numpy.finfo): noise_variance_ and the
+    # GCV path are inf in y's units, and the fit says so instead of handing
+    # them back silently (they used to be NaN without a word)
+    estimator, X, y, _ = make_case("FunctionalRidge", GRID)
+    estimator.set_params(alpha="auto")
+    with pytest.warns(RuntimeWarning, match="overflow") as caught:
+        big = clone(estimator).fit(X, y * 1e300)
+    messages = " ".join(str(w.message) for w in caught)
+    assert "noise_variance_" in messages and "criterion_path_" in messages
+    assert np.isinf(big.noise_variance_) and np.isinf(big.criterion_path_).all()
+
+
+@pytest.mark.filterwarnings("ignore:.*overflow float64:RuntimeWarning")
+def test_reml_path_is_in_the_data_units_at_any_scale():
+    # REML (Wood 2011) profiles the noise variance: for responses c y the
+    # penalized residual sum of squares is c^2 D_p, so -2 l_R grows by exactly
+    # dof log(c^2) with dof = n - (null space + intercept) = n - 3 here
+    # (penalty order 2: two unpenalized functions). Computed in the log
+    # domain, it stays finite at c = 1e300 where c^2 D_p is not.
+    estimator, X, y, _ = make_case("FunctionalRidge", GRID)
+    estimator.set_params(alpha="auto", criterion="reml")
+    unit = clone(estimator).fit(X, y)
+    big = clone(estimator).fit(X, y * 1e300)
+    dof = len(y) - 3
+    np.testing.assert_allclose(big.criterion_path_ - unit.criterion_path_,
+                               dof * 2 * np.log(1e300), rtol=1e-9)
+    assert big.alpha_ == pytest.approx(unit.alpha_, rel=1e-8)
+
+
+# ------------------------------- identifiability: advice that fits the case
+NO_PENALTY_ADVICE = ("alpha > 0", "positive alpha", "alpha='auto'")
+
+
+def _advice(call):
+    with pytest.raises(ValueError) as info:
+        call()
+    return str(info.value)
+
+
+def test_smoother_null_space_advice_is_penalty_order_not_alpha():
+    # alpha > 0 already: three observed values 1e-4 apart cannot fix the
+    # quadratics a third-derivative penalty leaves free (the message used to
+    # advise "a smaller n_basis or a positive alpha"); with alpha = 0 every
+    # basis function needs the data, and there n_basis or a penalty helps
+    from skfunc.preprocessing import CurveSmoother
+
+    t = np.linspace(0, 1, 10001)
+    X = np.vstack([np.sin(6 * t), np.full(t.size, np.nan)])
+    X[1, 5000:5003] = [1.0, 2.0, 4.0]
+    message = _advice(lambda: CurveSmoother(alpha=1e-3, penalty_order=3).fit(X))
+    assert "penalty_order" in message
+    assert not any(a in message for a in NO_PENALTY_ADVICE)
+    t = np.linspace(0, 1, 30)
+    X = np.vstack([np.sin(6 * t), np.sin(6 * t)])
+    X[1, 5:25] = np.nan
+    message = _advice(lambda: CurveSmoother(alpha=0.0, n_basis=20).fit(X))
+    assert "n_basis" in message and "alpha > 0" in message
+
+
+def test_curve_response_advice_fits_the_case():
+    from skfunc.linear_model import (
+        ConcurrentFunctionRidge,
+        FunctionOnFunctionRidge,
+        FunctionOnScalarRidge,
+    )
+
+    rng = np.random.default_rng(0)
+    Y = rng.normal(size=(6, 30))
+
+    def penalty_order_case(message):
+        assert "penalty_order" in message
+        assert not any(a in message for a in NO_PENALTY_ADVICE)
+
+    # the penalty's null space is not determined: no alpha helps
+    # - two response points cannot fix the quadratics of a third-order penalty
+    S = rng.normal(size=(6, 1))
+    penalty_order_case(_advice(lambda: FunctionOnScalarRidge(
+        alpha=1e-3, n_basis=8, penalty_order=3).fit(S, Y[:, :2])))
+    # - collinear covariates: unpenalized in the functions of t with D^2 = 0
+    message = _advice(lambda: FunctionOnScalarRidge(alpha=1e-3).fit(
+        np.hstack([S, 2 * S]), Y))
+    assert "collinear" in message and not any(a in message for a in NO_PENALTY_ADVICE)
+    # - two input curves cannot fix the straight lines in s and the intercept
+    penalty_order_case(_advice(lambda: FunctionOnFunctionRidge(alpha=1e-3).fit(
+        rng.normal(size=(2, 30)), Y[:2])))
+    # - identical constant inputs cannot tell beta_1's straight lines from beta_0
+    penalty_order_case(_advice(lambda: ConcurrentFunctionRidge(alpha=1e-3).fit(
+        np.ones((6, 30)), Y)))
+    # an unpenalized basis larger than the grid: n_basis, not alpha
+    message = _advice(lambda: ConcurrentFunctionRidge(alpha=1e-3, n_basis=12).fit(
+        rng.normal(size=(6, 30)), Y[:, :8]))
+    assert "n_basis" in message and not any(a in message for a in NO_PENALTY_ADVICE)
