@@ -21,7 +21,7 @@ from ._estimator import store_init_params
 from ._fit import check_finite_fit
 from ._functional_ridge import FunctionalRidgeBase
 from ._integrated_design import DESIGN_CONSTRAINTS, PERIOD_CONSTRAINT
-from ._penalized import centered_cross_products, data_exponent, scale_down
+from ._penalized import centered_cross_products
 
 
 @fill_doc
@@ -155,11 +155,10 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
         basis = self._basis()
         # X and y divided by powers of two, as in the statistics of fit
         # from sums: the criteria are computed in these units
-        x_exp, y_exp = data_exponent(X), data_exponent(y)
-        Z = self._design(scale_down(X, x_exp), self._integration_operator(basis))
-        y2 = scale_down(y, y_exp).reshape(y.shape[0], -1)
+        Z, z_exp, y2, y_exp = self._scaled_design(X, y, self._integration_operator(basis))
+        y2 = y2.reshape(y.shape[0], -1)
         stats = centered_cross_products(Z, y2, sample_weight)
-        stats.update(x_exp=x_exp, y_exp=y_exp)
+        stats.update(x_exp=z_exp, y_exp=y_exp)
         if alphas is None:
             alphas = candidate_alphas(self._path(stats, basis)[0])
         if self.cv is not None:

@@ -198,8 +198,9 @@ def merge(*stats):
     combined by the exact pairwise update instead of summed.
     """
     if "x_exp" in stats[0]:  # scaled (scaled_statistics): one scale first
-        x_exp = max(s["x_exp"] for s in stats)
-        y_exp = max(s["y_exp"] for s in stats)
+        x_exp = np.maximum.reduce([np.asarray(s["x_exp"]) for s in stats])
+        x_exp = int(x_exp) if x_exp.ndim == 0 else x_exp
+        y_exp = max(int(s["y_exp"]) for s in stats)
         stats = [rescaled(s, x_exp, y_exp) for s in stats]
     if "czz" in stats[0]:
         return _merge_centered(*stats)
@@ -486,10 +487,16 @@ def scaled_statistics(statistics, X, y, sample_weight=None, **kwargs):
 def rescaled(stats, x_exp, y_exp):
     """Scaled statistics brought to the exponents ``(x_exp, y_exp)``, by
     powers of two (exact unless the values fall below float64's normal
-    range, where they are negligible beside the data that set the scale)."""
-    dx, dy = stats["x_exp"] - x_exp, stats["y_exp"] - y_exp
+    range, where they are negligible beside the data that set the scale).
+
+    ``x_exp`` is one exponent for all columns of the design, or one per
+    column (then ``z_sum`` scales per column, ``zz`` by the sum of its row's
+    and column's, ``zy`` by its row's).
+    """
+    dx = np.asarray(stats["x_exp"]) - np.asarray(x_exp)
+    dy = int(stats["y_exp"]) - int(y_exp)
     out = dict(stats, x_exp=x_exp, y_exp=y_exp)
-    if dx == 0 and dy == 0:
+    if not np.any(dx) and dy == 0:
         return out
     for key, value in stats.items():
         if key in _UNITLESS:
@@ -497,7 +504,13 @@ def rescaled(stats, x_exp, y_exp):
         if key not in SCALE_POWERS:
             raise KeyError(f"the statistic {key!r} has no declared scale (SCALE_POWERS)")
         p, q = SCALE_POWERS[key]
-        out[key] = np.ldexp(value, p * dx + q * dy)
+        if dx.ndim == 0 or p == 0:
+            shift = p * dx
+        elif p == 2:
+            shift = dx[:, None] + dx[None, :]
+        else:  # one design index: the first axis of a matrix, the only of a vector
+            shift = dx if np.ndim(value) == 1 else dx[:, None]
+        out[key] = np.ldexp(value, (shift + q * dy).astype(np.int64))
     return out
 
 
@@ -505,7 +518,8 @@ def to_data_units(value, stats, x_power, y_power):
     """A quantity computed from scaled statistics in the data's units:
     ``value * 2**(x_power ex + y_power ey)`` (coefficients ``(-1, 1)``,
     intercepts ``(0, 1)``, variances ``(0, 2)``, ...); unchanged for
-    statistics without exponents. May overflow to inf: the caller checks."""
+    statistics without exponents. Per-column exponents ``ex`` broadcast
+    along the last axis. May overflow to inf: the caller checks."""
     if "x_exp" not in stats:
         return value
     exponent = np.asarray(x_power * stats["x_exp"] + y_power * stats["y_exp"])

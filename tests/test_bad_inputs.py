@@ -556,6 +556,37 @@ def test_interpolating_fit_is_refused_by_gcv():
         estimator.fit(X[:8], y[:8])
 
 
+@pytest.mark.parametrize("name", ["FunctionalRidge", "FunctionalRidgeCV"])
+def test_covariates_in_other_units_than_the_curves(name):
+    # Covariates are unpenalized, so in exact arithmetic their units do not
+    # change the fit: a covariate c s gets the coefficient gamma / c and the
+    # same predictions. Each covariate is divided by its own power of two, so
+    # curves near 1e150 beside covariates near 1e-100 (a ratio of 1e250) fit
+    # as the unit data do, to rounding (1e-8 relative); a common scale lost
+    # the covariates' digits and called the coefficients not determined
+    # (already at a ratio of 1e7). Batches whose covariates differ by 2^-10
+    # merge exactly (partial_fit = fit, 1e-10).
+    estimator, X, y, _ = make_case(name, GRID)
+    rng = np.random.default_rng(0)
+    S = rng.normal(size=(len(y), 2))
+    y = y + S @ [0.5, -1.0]
+    estimator.set_params(n_covariates=2)
+    unit = clone(estimator).fit(np.hstack([X, S]), y)
+    scaled = np.hstack([X * 1e150, S * [1e-100, 1.0]])
+    big = clone(estimator).fit(scaled, y)
+    reference = unit.predict(np.hstack([X, S]))
+    np.testing.assert_allclose(big.predict(scaled), reference, rtol=1e-8)
+    np.testing.assert_allclose(big.covariate_coef_ * [1e-100, 1.0], unit.covariate_coef_,
+                               rtol=1e-8)
+    if name == "FunctionalRidge":
+        scaled[12:, -2] *= 1e-3
+        whole = clone(estimator).fit(scaled, y)
+        batches = clone(estimator).partial_fit(scaled[:12], y[:12]).partial_fit(
+            scaled[12:], y[12:])
+        np.testing.assert_allclose(batches.predict(scaled), whole.predict(scaled),
+                                   rtol=1e-10)
+
+
 # ------------------------------------ overflow in the data's units, said aloud
 def test_variances_and_criteria_that_overflow_are_said_to():
     # y near 1e300: the fit is exact (above), but a variance of y is near

@@ -60,7 +60,7 @@ def test_leave_one_out_equals_brute_force(data, rng, weighted):
     # those units: times 4**x_exp in the data's.)
     def scale(fit):
         stats = fit._partial_statistics
-        return np.ldexp(fit._path(stats, fit._basis())[0].scale, 2 * stats["x_exp"])
+        return np.ldexp(fit._path(stats, fit._basis())[0].scale, 2 * stats["x_exp"][0])
 
     full = scale(FunctionalRidge(alpha=1.0, n_basis=12).fit(X, y, sample_weight=w))
     for alpha, score in zip(ALPHAS[::2], est.criterion_path_[::2], strict=True):
