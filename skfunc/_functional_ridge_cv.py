@@ -11,7 +11,7 @@ from ._alpha import (
     AUTO,
     CRITERIA,
     best_index,
-    candidate_alphas,
+    candidates_for,
     check_alpha,
     gcv_in_data_units,
 )
@@ -80,8 +80,6 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
     FunctionalRidge : The model at a fixed alpha.
     sklearn.linear_model.RidgeCV : The same all-alpha path for plain ridge.
 
-    Notes
-    -----
     %(scalar_outcome_notes)s
 
     GCV is ``(RSS / sum w) / (1 - edf / n)^2`` with the intercept counted in
@@ -90,8 +88,6 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
     + w_i sum_k (z_i u_k)^2 / d_k(alpha)`` in the engine's diagonalising
     basis; it is the weighted mean of the squared leave-one-out residuals.
 
-    References
-    ----------
     %(scalar_outcome_references)s
 
     Craven, P. and Wahba, G. (1979). Smoothing noisy data with spline
@@ -126,12 +122,10 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
         store_init_params(self, locals())
 
     def _check_alphas(self):
-        """None for "auto", else the candidates (a number is the one
-        candidate: its criterion is computed, nothing is chosen)."""
+        """"auto", or the candidates (a number is the one candidate: its
+        criterion is computed, nothing is chosen)."""
         alphas = check_alpha(self.alpha)
-        if alphas is AUTO:
-            return None
-        return np.atleast_1d(alphas)
+        return alphas if alphas is AUTO else np.atleast_1d(alphas)
 
     @fill_doc
     def fit(self, X, y, sample_weight=None):
@@ -159,8 +153,7 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
         y2 = y2.reshape(y.shape[0], -1)
         stats = centered_cross_products(Z, y2, sample_weight)
         stats.update(x_exp=z_exp, y_exp=y_exp)
-        if alphas is None:
-            alphas = candidate_alphas(self._path(stats, basis)[0])
+        alphas = candidates_for(alphas, self._path(stats, basis)[0])
         if self.cv is not None:
             criterion = self._kfold_criterion(Z, y2, sample_weight, basis, alphas)
         else:
@@ -173,16 +166,15 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
         return check_finite_fit(self._select(stats, criterion, alphas, basis, y.ndim))
 
     def _check_pooled(self):
-        self._check_alphas()
+        check_alpha(self.alpha)
         if self.criterion not in CRITERIA or self.cv is not None:
             raise ValueError(self._needs_memory("partial_fit"))
 
     def _fit_pooled(self, stats, basis, y_ndim):
         """Alpha by GCV or REML from pooled statistics, then the fit at it."""
-        alphas = self._check_alphas()
         pooled = not (self.alpha_per_target and y_ndim == 2)
-        out = self._choose(stats, basis, y_ndim, AUTO if alphas is None else alphas,
-                           self.criterion, pooled=pooled)
+        out = self._choose(stats, basis, y_ndim, self._check_alphas(), self.criterion,
+                           pooled=pooled)
         self.best_score_ = self._best_score(self.criterion_path_, self.alpha_)
         return out
 
