@@ -49,7 +49,8 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
     cv : int, cross-validation generator or iterable, default=None
         None uses ``criterion``; otherwise a scikit-learn splitter (an int
         means ``KFold(cv)``), and the criterion is the mean over folds of the
-        weighted held-out mean squared error.
+        weighted held-out mean squared error (the splitter splits rows: a
+        weighted row stays whole in its fold; see Notes).
     alpha_per_target : bool, default=False
         With several targets, choose one alpha per target (as
         :class:`sklearn.linear_model.RidgeCV` does) instead of one alpha
@@ -83,10 +84,18 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
     %(scalar_outcome_notes)s
 
     GCV is ``(RSS / sum w) / (1 - edf / n)^2`` with the intercept counted in
-    ``edf``. Leave-one-out uses the exact identity ``y_i - yhat_{-i} =
-    (y_i - yhat_i) / (1 - h_ii)`` with leverages ``h_ii(alpha) = w_i / sum w
-    + w_i sum_k (z_i u_k)^2 / d_k(alpha)`` in the engine's diagonalising
-    basis; it is the weighted mean of the squared leave-one-out residuals.
+    ``edf``. Sample weights are frequencies (weight 2 = the row twice), and
+    both cross-validation criteria equal those of the duplicated rows.
+    Leave-one-out leaves out one observation: one unit of a row's weight,
+    or the whole row when its weight is below 1. It uses the exact identity
+    ``y_i - yhat_{-i} = (y_i - yhat_i) / (1 - delta_i q_i)`` with ``delta_i
+    = min(w_i, 1)`` and the leverage of one observation ``q_i(alpha) = 1 /
+    sum w + sum_k (z_i u_k)^2 / d_k(alpha)`` in the engine's diagonalising
+    basis, and is the weighted mean of the squared leave-one-out residuals.
+    K-fold keeps a weighted row whole in one fold (its copies go together,
+    as with :class:`~sklearn.model_selection.GroupKFold` grouping the copies
+    of each row), so a fold's held-out error is its weighted mean squared
+    error, and the criterion is the mean over folds.
 
     %(scalar_outcome_references)s
 
