@@ -232,6 +232,7 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
         """
         inv_d = 1.0 / path.denominators(alphas)  # (L, K)
         zu = (Z - part["z_mean"]) @ path.eigvecs
+        zu[:, path.g == 0] = 0.0  # directions the data do not see (SplitPath.rotate)
         divisor = 1.0
         if leverage:
             q = zu**2 @ inv_d.T  # leverage of one observation, (n, L)

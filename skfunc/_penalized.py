@@ -522,7 +522,9 @@ def to_data_units(value, stats, x_power, y_power):
     along the last axis. May overflow to inf: the caller checks."""
     if "x_exp" not in stats:
         return value
-    exponent = np.asarray(x_power * stats["x_exp"] + y_power * stats["y_exp"])
+    exponent = np.asarray(y_power * stats["y_exp"])
+    if np.any(x_power):  # (x_exp may be per column: only coefficients carry it)
+        exponent = exponent + np.asarray(x_power) * np.asarray(stats["x_exp"])
     with np.errstate(over="ignore"):
         return np.ldexp(value, exponent.astype(np.int64))
 
@@ -627,8 +629,19 @@ class SplitPath:
         return d
 
     def rotate(self, rhs):
-        """Rotated right-hand sides ``b U``, one row per right-hand side."""
-        return np.asarray(rhs) @ self.eigvecs
+        """Rotated right-hand sides ``b U``, one row per right-hand side.
+
+        Directions the data do not see (``s`` set to 0: at rounding level)
+        get exactly 0, their value in exact arithmetic (``u'Gu = 0`` means
+        ``Z u = 0``, so ``b'u = y'W Z u = 0``). Their rounding noise would
+        otherwise become coefficients ``r / lam`` at small alpha and a
+        spurious drop of the residual sum of squares in GCV.
+        """
+        rotated = np.asarray(rhs) @ self.eigvecs
+        unseen = self.g == 0
+        if unseen.any():
+            rotated[..., unseen] = 0.0
+        return rotated
 
     def coef(self, rotated, alpha):
         """Coefficients ``(G + lam P)^{-1} b`` as rows; alpha scalar or per row."""
