@@ -197,8 +197,11 @@ class _Problem:
         return SplitPath(phi_w.T @ self.phi, self.penalty, scale=scale)
 
     def rotation(self, path, weights):
-        """Operator from curve values to rotated right-hand sides, (m, K)."""
-        return (self.phi * weights[:, None]) @ path.eigvecs
+        """Operator from curve values to rotated right-hand sides, (m, K);
+        0 in the directions the data do not see (as ``SplitPath.rotate``)."""
+        operator = (self.phi * weights[:, None]) @ path.eigvecs
+        operator[:, path.g == 0] = 0.0
+        return operator
 
     def blocks(self, X, rows=None, scale=1.0):
         """Rows of X (divided by ``scale``) grouped by missing-value pattern.
