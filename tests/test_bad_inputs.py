@@ -383,11 +383,16 @@ BAD_ESTIMATOR_INPUTS = {
 #: entry when the estimator is fixed.
 _ALL = [name for name, _ in all_estimators()]
 KNOWN_ESTIMATOR_FAILURES = {
-    ("FunctionalPCA", "scaled-1e-170"): "'all curves are identical' for curves whose "
-    "variance underflows",
     ("SparseFunctionalPCA", "scaled-1e-170"): "transform of curves near 1e-170 "
     "returns non-finite scores without an error (the fit itself is finite)",
 }
+
+
+#: (estimator, case) -> words of the clear error expected where valid but
+#: extreme data have no representable answer: FunctionalPCA's variances of
+#: curves near 1e-170 are near 1e-340, below float64's smallest number
+#: (numpy.finfo: 4.9e-324), so explained_variance_ cannot be stored
+UNREPRESENTABLE = {("FunctionalPCA", "scaled-1e-170"): ["Rescale X"]}
 
 
 #: the grid of the battery's curves
@@ -425,6 +430,7 @@ def _estimator_params():
 def test_estimator_bad_inputs(name, case):
     estimator, X, y, _ = make_case(name, GRID)
     call, names = BAD_ESTIMATOR_INPUTS[case](clone(estimator), X, y)
+    names = UNREPRESENTABLE.get((name, case), names)
     _check(call, names or [], expected=ACCEPTED if names is None else CLEAR)
 
 
