@@ -382,17 +382,17 @@ BAD_ESTIMATOR_INPUTS = {
 #: (estimator, case) -> why it fails today. Strict expected failures: remove an
 #: entry when the estimator is fixed.
 _ALL = [name for name, _ in all_estimators()]
-KNOWN_ESTIMATOR_FAILURES = {
-    ("SparseFunctionalPCA", "scaled-1e-170"): "transform of curves near 1e-170 "
-    "returns non-finite scores without an error (the fit itself is finite)",
-}
+KNOWN_ESTIMATOR_FAILURES: dict = {}
 
 
 #: (estimator, case) -> words of the clear error expected where valid but
-#: extreme data have no representable answer: FunctionalPCA's variances of
-#: curves near 1e-170 are near 1e-340, below float64's smallest number
-#: (numpy.finfo: 4.9e-324), so explained_variance_ cannot be stored
-UNREPRESENTABLE = {("FunctionalPCA", "scaled-1e-170"): ["Rescale X"]}
+#: extreme data have no representable answer: the principal components'
+#: variances of curves near 1e-170 are near 1e-340, below float64's smallest
+#: number (numpy.finfo: 4.9e-324), so explained_variance_ cannot be stored
+#: (SparseFunctionalPCA's scores, which divide by the noise variance, were
+#: NaN without a word)
+UNREPRESENTABLE = {(name, "scaled-1e-170"): ["Rescale X"]
+                   for name in ("FunctionalPCA", "SparseFunctionalPCA")}
 
 
 #: the grid of the battery's curves
