@@ -60,6 +60,7 @@ from ._alpha import (
     best_index,
     candidates_from_eigenvalues,
     check_alpha,
+    gcv_in_data_units,
     reml_score,
 )
 from ._bands import critical_value
@@ -79,6 +80,8 @@ from ._penalized import (
     gcv_score,
     penalty_for,
     penalty_scale,
+    scaled_statistics,
+    to_data_units,
 )
 from ._validation import (
     BASIS_CONSTRAINTS,
@@ -441,9 +444,16 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         The design is X itself, or ``X @ design`` for an operator ``design``
         (m, p). Keys of :func:`skfunc._penalized.cross_products` of the design and y
         (``n, sw, z_sum, y_sum, zz, zy, yy``) plus ``yproj``, the weighted
-        cross products of the projections ``Y_i' W Phi`` (K x K): all sums,
-        merged key by key (:func:`skfunc._penalized.merge`).
+        cross products of the projections ``Y_i' W Phi`` (K x K): all sums
+        of X and y divided by powers of two (``x_exp``, ``y_exp``:
+        :func:`skfunc._penalized.scaled_statistics`, so squares of data near
+        1e300 or 1e-300 stay finite and normal), merged key by key
+        (:func:`skfunc._penalized.merge`). The solve works in those units.
         """
+        return scaled_statistics(self._scaled_statistics, X, y, sample_weight,
+                                 design=design)
+
+    def _scaled_statistics(self, X, y, sample_weight=None, design=None):
         basis, weights = self._response_basis()
         phi_w = basis.evaluate(self.response_grid_) * weights[:, None]
         Y = np.asarray(y, dtype=np.float64)
@@ -476,8 +486,11 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         sw = stats["sw"]
         zz, zy, _, z_mean, y_mean = centered(stats)
         p = zz.shape[0]
-        U, g, p_t, s_t = response_split(basis, phi_w.T @ phi, self.penalty_order,
-                                        not self._unpenalized(), float(weights.sum()))
+        try:
+            U, g, p_t, s_t = response_split(basis, phi_w.T @ phi, self.penalty_order,
+                                            not self._unpenalized(), float(weights.sum()))
+        except NotIdentifiableError as exc:
+            raise self._not_identifiable("response", stats["n"]) from exc
         design_pen = pen_s if pen_s is not None else free_penalty(p)
         scale = penalty_scale(zz, design_pen) * s_t
         S = np.zeros((p + 1, p + 1))
@@ -494,8 +507,12 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         underflow = np.any((np.diag(stats["zz"]) < np.finfo(float).tiny)
                            & (stats["z_sum"] != 0))
         metric = None if underflow else block_diag(gram_s, 1.0)
-        built = [self._direction_path(S, g[k], p_t[k], gram_s, pen_s, s_t, scale, metric)
-                 for k in range(g.size)]
+        try:
+            built = [self._direction_path(S, g[k], p_t[k], gram_s, pen_s, s_t, scale,
+                                          metric)
+                     for k in range(g.size)]
+        except NotIdentifiableError as exc:
+            raise self._not_identifiable("design", stats["n"]) from exc
         paths = [None if item is None else item[0] for item in built]
         live = [k for k, path in enumerate(paths) if path is not None]
         dropped = sum(built[k][1] for k in live)
@@ -529,7 +546,7 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
                 dof = sw * m - sum(paths[k].n_null for k in live)
                 logdet = sum(paths[k].log_det_ratio(values) for k in live)
                 return reml_score(yy_w - total("penalized_rss_reduction", values), dof,
-                                  logdet)
+                                  logdet, 2 * stats["y_exp"] * np.log(2.0))
             rss = np.maximum(yy_w - total("rss_reduction", values), 0.0)
             return gcv_score(rss, edf(values), sw * m, sw * weights.sum())
 
@@ -543,11 +560,8 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
                 C[:, k] = paths[k].coef(rotated[k], alpha)[0]
                 A_inv[k] = paths[k].operator(alpha)
                 sample_edf[k] = paths[k].edf(alpha)
-        except NotIdentifiableError as exc:
-            raise NotIdentifiableError(
-                f"{type(self).__name__}: {exc} With alpha=0 use fewer basis "
-                "functions (n_basis) or more observations."
-            ) from exc
+        except NotIdentifiableError as exc:  # alpha = 0 only (d = 0)
+            raise self._not_identifiable("unpenalized", stats["n"]) from exc
         # back to the order (intercept, design)
         order = np.r_[p, np.arange(p)]
         C, S, rot = C[order], S[np.ix_(order, order)], rot[order]
@@ -558,8 +572,63 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         cov = np.einsum("ai,bk,kilm,cm,dl->abcd", transform, U, cov, transform, U,
                         optimize=True)
         p1, K = C.shape
-        self._store(basis, transform @ C @ U.T, cov.reshape(p1 * K, p1 * K),
+        # back to the data's units: the intercept row is in y's, the others
+        # in y / x (powers of two, exact; variances may overflow: checked)
+        x_power = np.r_[0.0, -np.ones(p)]
+        basis_coef = to_data_units(transform @ C @ U.T, stats, x_power[:, None], 1)
+        cov = to_data_units(cov, stats, x_power[:, None, None, None]
+                            + x_power[None, None, :, None], 2)
+        if criterion is not None and self.criterion == "gcv":
+            criterion = gcv_in_data_units(criterion, stats["y_exp"])
+        self._store(basis, basis_coef, cov.reshape(p1 * K, p1 * K),
                     alphas, criterion, edf(alphas), best)
+
+    def _not_identifiable(self, side, n_samples):
+        """The error for coefficients the data cannot determine, with the
+        advice that fits the case: the penalty's null space needs a lower
+        ``penalty_order`` (or more data), an unpenalized basis a smaller
+        ``n_basis``; only alpha = 0 is told to add a penalty."""
+        name, q = type(self).__name__, self.penalty_order
+        if side == "unpenalized":
+            detail = (
+                "with alpha=0 (no penalty) the data must determine every basis "
+                "coefficient and do not. Use a smaller n_basis, more observations, "
+                "or a roughness penalty (alpha > 0 or 'auto')."
+            )
+        elif side == "response" and self._unpenalized():
+            detail = (
+                f"the {self.response_grid_.size} response grid points do not "
+                "determine the response basis without a penalty (alpha=0). Use a "
+                "smaller n_basis or a roughness penalty (alpha > 0 or 'auto')."
+            )
+        elif side == "response":
+            detail = (
+                f"the {self.response_grid_.size} response grid points do not "
+                f"determine the functions of t the roughness penalty leaves free "
+                f"(polynomials of degree < penalty_order={q}), whatever alpha. Use "
+                "a lower penalty_order or a response grid with more points."
+            )
+        elif self._design_geometry()[1] is None:  # scalar covariates
+            detail = (
+                f"in the functions of t the roughness penalty leaves free "
+                f"(degree < penalty_order={q}) the covariates' coefficients are "
+                f"unpenalized, so the intercept and the {self.n_features_in_} "
+                f"covariate(s) must be linearly independent over the "
+                f"{n_samples} observations, whatever alpha. Use more "
+                "observations, drop collinear covariates, or penalty_order=0 "
+                "(which penalizes every function of t)."
+            )
+        else:
+            detail = (
+                f"the input curves must determine the input functions the "
+                f"roughness penalty leaves free (degree < penalty_order={q} in "
+                f"s, together with the intercept), whatever alpha; {n_samples} "
+                "curves do not. Use more curves or a lower penalty_order."
+            )
+        return NotIdentifiableError(
+            f"{name} cannot determine its coefficient functions from {n_samples} "
+            f"observations: {detail}"
+        )
 
     @staticmethod
     def _direction_path(S, g_k, p_k, gram_s, pen_s, s_t, scale, metric):
