@@ -9,6 +9,7 @@ reuse it.
 """
 
 import warnings
+from functools import partial
 from numbers import Integral, Real
 
 import numpy as np
@@ -16,10 +17,11 @@ from scipy.special import expit, logsumexp
 from sklearn.base import BaseEstimator, ClassifierMixin
 from sklearn.exceptions import ConvergenceWarning
 from sklearn.utils._param_validation import Interval, StrOptions
-from sklearn.utils.class_weight import compute_sample_weight
+from sklearn.utils.class_weight import compute_class_weight
 from sklearn.utils.multiclass import check_classification_targets
 
-from ._alpha import ALPHA_CONSTRAINT, check_alpha
+from ._alpha import ALPHA_CONSTRAINT, candidate_alphas, check_alpha
+from ._blocks import _along_rows_of, apply_rows, compute_statistics, is_dask_array
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._fit import check_finite_fit
@@ -28,12 +30,14 @@ from ._integrated_design import (
     IntegratedDesignMixin,
 )
 from ._logistic_path import (
-    NULL_SPACE_RIDGE,
+    N_ALPHAS,
+    RIDGE,
     LogisticProblem,
     coef_covariance,
-    split_coordinates,
+    design_statistics,
+    split_design,
 )
-from ._penalized import centered, cross_products, penalty_for, penalty_scale
+from ._penalized import SplitPath, centered, penalty_for, penalty_scale
 from ._weights import check_sample_weight
 
 
@@ -228,88 +232,105 @@ class FunctionalLogisticRegression(
         Parameters
         ----------
         %(scalar_outcome_X)s
+            A Dask array is fitted where its blocks are: each Newton step is
+            one pass of summed gradients and Hessians over the row blocks.
         y : array-like of shape (n_samples,)
             Class labels.
         %(fit_weights_returns)s
         """
         self._validate_params()
         X, y = self._validate_curves(X, y, reset=True, ensure_min_samples=2)
-        check_classification_targets(y)
-        self.classes_, y_index = np.unique(y, return_inverse=True)
+        self.classes_ = _classes(y)
+        check_classification_targets(self.classes_)
         if self.classes_.size < 2:
             raise ValueError(
                 "FunctionalLogisticRegression needs samples of at least 2 classes "
                 f"in y; got only one class: {self.classes_[0]!r}."
             )
         sample_weight = check_sample_weight(sample_weight, X)
-        if self.class_weight is not None:
-            sample_weight = sample_weight * compute_sample_weight(self.class_weight, y)
+        Y, weight = _indicators(y, self.classes_, sample_weight, self.class_weight)
         basis = self._basis()
-        Z = self._design(X, self._integration_operator(basis))
-        if self.classes_.size == 2:
-            Y = (y_index == 1).astype(np.float64)[:, None]
-        else:
-            Y = np.eye(self.classes_.size)[y_index]
-        return check_finite_fit(self._solve(Z, Y, sample_weight, basis))
+        operator = self._integration_operator(basis)
+        stats = compute_statistics(
+            partial(design_statistics, operator=operator, n_covariates=self.n_covariates),
+            X, Y, weight,
+        )
+        return check_finite_fit(self._solve(X, Y, weight, stats, basis, operator))
 
-    def _solve(self, Z, Y, sample_weight, basis):
-        k = basis.n_basis
+    def _solve(self, X, Y, weight, stats, basis, operator):
         alpha = check_alpha(self.alpha)
-        stats = cross_products(Z, Y, sample_weight)
-        if isinstance(alpha, float) and alpha == 0:
-            gram = centered(stats)[0] if self.fit_intercept else stats["zz"]
-            self._checked_path(gram, self._penalty(basis), 0.0, stats["n"])
-        penalty = penalty_for(basis, self.penalty_order)
-        transform, n_null = split_coordinates(basis, penalty), penalty.n_null
+        k = basis.n_basis
         lead = int(self.fit_intercept)
-        z_mean = stats["z_sum"] / stats["sw"] if lead else np.zeros(Z.shape[1])
-        Zc = Z - z_mean
-        D = np.hstack([np.ones((len(Z), lead)), Zc[:, :k] @ transform, Zc[:, k:]])
-        # the one definition of alpha (skfunc._penalized.penalty_scale): the
-        # roughness on [0, 1] weighed by the largest eigenvalue of the centred
-        # data Gram matrix relative to the unit-domain Gram matrix
-        weighted = Zc[:, :k] * sample_weight[:, None]
-        scale = penalty_scale(weighted.T @ Zc[:, :k], penalty)
-        size = sample_weight @ D**2
-        ridge = np.zeros(D.shape[1])
-        null = slice(lead, lead + n_null)
-        if n_null:
-            ridge[null] = size[null].sum() / n_null
-        ridge[lead + k :] = size[lead + k :]
-        ridge = NULL_SPACE_RIDGE * np.where(ridge > 0, ridge, 1.0)
-        ridge[lead + n_null : lead + k] = 0.0
-        ridge[:lead] = 0.0
+        if lead:
+            gram, _, _, z_mean, _ = centered(stats)
+        else:
+            gram, z_mean = stats["zz"], np.zeros(stats["zz"].shape[0])
+        penalty = penalty_for(basis, self.penalty_order).extend(self.n_covariates)
+        scale = penalty_scale(gram, penalty)
+        fixed = isinstance(alpha, float)
+        ridge = (np.zeros_like(gram) if fixed and alpha == 0
+                 else self._ridge(gram, basis, scale))
+        path = self._split_path(gram + ridge, basis, stats["n"], scale=scale)
+        if fixed and alpha == 0:
+            self._check_identified(path, stats["n"])
+        U = path.eigvecs
+        # the design in the path's coordinates: U' (G + R) U = diag(g), and
+        # the roughness is exactly diag(p) (the null space first, exactly 0)
+        D = apply_rows(split_design, X, lead + U.shape[1], operator=operator,
+                       n_covariates=self.n_covariates, z_mean=z_mean, U=U, lead=lead)
+        if is_dask_array(D):
+            D = D.persist()  # read at every Newton step: keep it on the workers
+        column_size = np.concatenate([[stats["sw"]] * lead, np.diag(U.T @ gram @ U)])
+        ridge_theta = np.zeros((lead + U.shape[1],) * 2)
+        ridge_theta[lead:, lead:] = U.T @ ridge @ U
         problem = LogisticProblem(
-            D, Y, sample_weight, (lead, n_null, k - n_null, Z.shape[1] - k),
-            scale, ridge,
+            D, Y, weight, penalized=np.concatenate([np.zeros(lead, bool), path.p > 0]),
+            scale=scale, ridge=ridge_theta, fit_intercept=lead,
+            class_sums=stats["y_sum"], total_weight=stats["sw"],
+            column_size=column_size,
         )
         if isinstance(alpha, str):
-            alphas = problem.candidate_alphas()
+            # the engine's candidates for the curvature of the intercept-only
+            # fit: from nearly the null-space fit to nearly the full basis
+            freq = stats["y_sum"] / stats["sw"]
+            curvature = max(float(np.mean(freq * (1 - freq))), 1e-3)
+            alphas = candidate_alphas(
+                SplitPath(curvature * gram + ridge, penalty, scale=scale), N_ALPHAS)
         else:
             alphas = np.atleast_1d(alpha)
         fit = problem.path(alphas, self.tol, self.max_iter)
-        j, theta, hess, converged = fit["best"], fit["theta"], fit["hess"], fit["converged"]
+        j, theta = fit["best"], fit["theta"]
         self.alpha_ = float(alphas[j])
         self.alphas_path_ = alphas
         self.criterion_path_ = fit["criterion"]
         self.edf_path_ = fit["edf"]
         self.n_iter_ = fit["n_iter"]
-        self._warn_convergence(converged, D @ theta.T, sample_weight)
+        self._warn_convergence(fit["converged"], fit["saturated"])
         n_out = theta.shape[0]
-        covariance = coef_covariance(problem, theta, hess, self.alpha_)
-        blocks = np.stack(
-            [
-                transform @ covariance[c, lead : lead + k, c, lead : lead + k]
-                @ transform.T
-                for c in range(n_out)
-            ]
-        )
-        coef = np.hstack([theta[:, lead : lead + k] @ transform.T, theta[:, lead + k :]])
+        covariance = coef_covariance(problem, fit["hess"], self.alpha_)
+        U_f = U[:k]
+        blocks = np.stack([U_f @ covariance[c, lead:, c, lead:] @ U_f.T
+                           for c in range(n_out)])
+        coef = theta[:, lead:] @ U.T
         intercept = theta[:, 0] - coef @ z_mean if lead else np.zeros(n_out)
         self._set_coefficients(basis, coef, intercept, blocks, squeeze=False)
         return self
 
-    def _warn_convergence(self, converged, eta, sample_weight):
+    def _ridge(self, gram, basis, scale):
+        """The fixed ridge ``R`` in the coefficients ``[c, gamma]``.
+
+        ``RIDGE * scale * int_0^1 beta^2`` on beta (scale: the engine weight
+        of alpha = 1, so the ridge is unit-free like alpha) and ``RIDGE``
+        times each covariate's own weighted variance on the covariates.
+        """
+        k = basis.n_basis
+        ridge = np.zeros_like(gram)
+        ridge[:k, :k] = RIDGE * scale * basis.unit_gram()
+        size = np.diag(gram)[k:]
+        ridge[k:, k:] = np.diag(RIDGE * np.where(size > 0, size, 1.0))
+        return ridge
+
+    def _warn_convergence(self, converged, saturated):
         if not converged:
             advice = (
                 " alpha=0 has no finite optimum when the classes are separable by "
@@ -324,7 +345,7 @@ class FunctionalLogisticRegression(
                 ConvergenceWarning,
                 stacklevel=4,
             )
-        elif self.alpha_ == 0 and _saturated(eta, sample_weight):
+        elif saturated:
             warnings.warn(
                 "FunctionalLogisticRegression did not converge to a finite "
                 "maximum: fitted probabilities numerically 0 or 1 occurred, so "
@@ -381,11 +402,46 @@ class FunctionalLogisticRegression(
         return self.classes_[index]
 
 
-def _saturated(eta, sample_weight, eps=1e-12):
-    """Whether a weighted row has a fitted probability within eps of 0 or 1,
-    the usual symptom of separation (common practice in GLM software)."""
-    if eta.shape[1] == 1:
-        eta = np.column_stack([np.zeros(len(eta)), eta])
-    log_prob = eta - logsumexp(eta, axis=1, keepdims=True)
-    rows = sample_weight > 0
-    return bool(np.any(log_prob[rows] < np.log(eps)))
+def _classes(y):
+    """Sorted class labels of y (computed on the workers for a Dask y)."""
+    if is_dask_array(y):
+        import dask.array as da
+
+        return np.asarray(da.unique(y).compute())
+    return np.unique(y)
+
+
+def _indicators(y, classes, sample_weight, class_weight):
+    """0/1 indicators of the classes (one column for two classes) and the
+    row weights times the class weights, lazily for a Dask y."""
+    if class_weight is None:
+        factors = np.ones(classes.size)
+    elif isinstance(class_weight, str):  # "balanced": n / (n_classes * count)
+        counts = compute_statistics(partial(class_counts, classes=classes), y)["counts"]
+        factors = counts.sum() / (classes.size * np.where(counts > 0, counts, 1))
+    else:
+        factors = compute_class_weight(class_weight, classes=classes, y=classes)
+    n_out = 1 if classes.size == 2 else classes.size
+    Y = apply_rows(indicators, y[:, None], n_out, classes=classes)
+    if is_dask_array(y):
+        sample_weight = _along_rows_of(y, sample_weight)
+    weight = sample_weight * apply_rows(class_factors, y[:, None], classes=classes,
+                                        factors=factors)
+    return Y, weight
+
+
+def indicators(y, classes):
+    """0/1 indicators of ``classes`` for a column of labels; the column of
+    ``classes[1]`` alone for two classes (a row-block function)."""
+    Y = (y == classes[None, :]).astype(np.float64)
+    return Y[:, 1:] if classes.size == 2 else Y
+
+
+def class_factors(y, classes, factors):
+    """Class weight of each row (a row-block function)."""
+    return factors[np.searchsorted(classes, y[:, 0])]
+
+
+def class_counts(y, classes):
+    """Row counts per class (additive statistics)."""
+    return {"counts": np.bincount(np.searchsorted(classes, y), minlength=classes.size)}
