@@ -27,6 +27,7 @@ from ._estimator import store_init_params
 from ._fit import check_finite_fit
 from ._integrated_design import (
     DESIGN_CONSTRAINTS,
+    PERIOD_CONSTRAINT,
     IntegratedDesignMixin,
 )
 from ._logistic_path import (
@@ -66,6 +67,7 @@ class FunctionalLogisticRegression(
         the spread of the data (Notes), so a value means the same smoothing
         whatever the grid's unit or origin and the scale of X.
     %(scalar_outcome)s
+    %(period)s
     class_weight : dict, "balanced" or None, default=None
         Weights of the classes, multiplied into ``sample_weight``, as in
         scikit-learn's classifiers.
@@ -213,6 +215,7 @@ class FunctionalLogisticRegression(
 
     _parameter_constraints = {
         **DESIGN_CONSTRAINTS,
+        **PERIOD_CONSTRAINT,
         "alpha": ALPHA_CONSTRAINT,
         "class_weight": [dict, StrOptions({"balanced"}), None],
         "max_iter": [Interval(Integral, 1, None, closed="left")],
@@ -220,7 +223,7 @@ class FunctionalLogisticRegression(
     }
 
     def __init__(self, alpha="auto", *, basis="bspline", n_basis=None, degree=3,
-                 interior_knots=None, penalty_order=2, n_covariates=0,
+                 interior_knots=None, penalty_order=2, period=None, n_covariates=0,
                  fit_intercept=True, class_weight=None, max_iter=100, tol=1e-10,
                  grid=None, quadrature="trapezoid"):
         store_init_params(self, locals())
@@ -258,6 +261,14 @@ class FunctionalLogisticRegression(
         return check_finite_fit(self._solve(X, Y, weight, stats, basis, operator))
 
     def _solve(self, X, Y, weight, stats, basis, operator):
+        totals = np.r_[stats["sw"] - stats["y_sum"].sum(), stats["y_sum"]] \
+            if self.classes_.size == 2 else stats["y_sum"]
+        if np.any(totals <= 0):
+            raise ValueError(
+                "FunctionalLogisticRegression needs a positive total sample weight "
+                f"in every class of y; class {self.classes_[np.argmin(totals)]!r} "
+                "has total weight 0. Drop its rows from X and y, or give them weight."
+            )
         alpha = check_alpha(self.alpha)
         k = basis.n_basis
         lead = int(self.fit_intercept)

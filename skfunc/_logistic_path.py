@@ -260,17 +260,20 @@ class LogisticProblem:
             if not decrement > 0:  # at the optimum to rounding
                 converged = True
                 break
+            # within tol the objective is quadratic to rounding: a last full
+            # step, without a line search (whose test rounding would decide)
+            last = decrement / 2 <= tol * (1.0 + abs(value))
             size = 1.0
             while True:
                 trial = theta - size * step.reshape(n_out, p)
                 stats = self.sums(trial)
                 trial_value = penalized(trial, stats)
-                if trial_value <= value - 1e-4 * size * decrement or size < 1e-10:
+                if last or trial_value <= value - 1e-4 * size * decrement or size < 1e-10:
                     break
                 size /= 2
             theta, current, value = trial, stats, trial_value
-            if decrement / 2 <= tol * (1.0 + abs(value)):
-                converged = True  # after a last full step: Newton converges fast
+            if last:
+                converged = True
                 break
         return theta, n_iter, converged, current, quadratic
 

@@ -88,7 +88,7 @@ def test_identity_penalty_equals_sklearn_l2(rng, n_classes):
     X, y = make_data(rng, n_classes=n_classes)
     alpha = 0.5
     ours = FunctionalLogisticRegression(
-        alpha=alpha, basis="fourier", n_basis=7, penalty_order=0
+        alpha=alpha, basis="fourier", n_basis=7, penalty_order=0, period=1.0
     ).fit(X, y)
     Z = BasisFeatures(basis="fourier", n_basis=7, alpha=0, period=1.0,
                       data_term="integral").fit_transform(X)
@@ -97,6 +97,22 @@ def test_identity_penalty_equals_sklearn_l2(rng, n_classes):
     ref = LogisticRegression(C=C, solver="newton-cg", tol=1e-12).fit(Z, y)
     np.testing.assert_allclose(ours.basis_coef_, ref.coef_, rtol=1e-5, atol=1e-7)
     np.testing.assert_allclose(ours.predict_proba(X), ref.predict_proba(Z), atol=1e-7)
+
+def test_fourier_period_equals_sklearn_on_basis_features(rng):
+    # Source: sklearn.linear_model.LogisticRegression without penalty on the
+    # integrated design of BasisFeatures' Fourier basis of the same period
+    # (2, not the grid's range): the period reaches the classifier's basis.
+    X, y = make_data(rng)
+    ours = FunctionalLogisticRegression(
+        alpha=0.0, basis="fourier", n_basis=5, period=2.0
+    ).fit(X, y)
+    Z = BasisFeatures(basis="fourier", n_basis=5, alpha=0, period=2.0,
+                      data_term="integral").fit_transform(X)
+    ref = LogisticRegression(C=np.inf, solver="newton-cg", tol=1e-12).fit(Z, y)
+    np.testing.assert_allclose(ours.predict_proba(X), ref.predict_proba(Z), atol=1e-8)
+    default = FunctionalLogisticRegression(alpha=0.0, basis="fourier", n_basis=5)
+    assert np.abs(default.fit(X, y).predict_proba(X) - ours.predict_proba(X)).max() > 1e-3
+
 
 def test_class_weight_equals_sklearn(rng):
     # Source: sklearn.linear_model.LogisticRegression(class_weight=...).
