@@ -213,6 +213,10 @@ class FunctionalLogisticRegression(
     True
     """
 
+    #: each Newton step is one pass of summed statistics over the row blocks,
+    #: so dask arrays are fitted where they are
+    _accepts_dask = True
+
     _parameter_constraints = {
         **DESIGN_CONSTRAINTS,
         **PERIOD_CONSTRAINT,
