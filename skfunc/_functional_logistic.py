@@ -13,7 +13,7 @@ from functools import partial
 from numbers import Integral, Real
 
 import numpy as np
-from scipy.special import expit, logsumexp
+from scipy.special import logsumexp
 from sklearn.base import BaseEstimator, ClassifierMixin
 from sklearn.exceptions import ConvergenceWarning
 from sklearn.utils._param_validation import Interval, StrOptions
@@ -139,19 +139,35 @@ class FunctionalLogisticRegression(
     the roughness. ``s`` and the data term scale alike when the grid changes
     unit or X changes scale, so fits at a fixed alpha do not change, and
     ``s`` hardly moves with ``n_basis``. It is minimised by Newton's method
-    (penalized iteratively reweighted least squares) in coordinates where
-    the penalty is exactly diagonal (Demmler and Reinsch, 1975): the
+    (penalized iteratively reweighted least squares) in the coordinates of
+    the engine's split path (:class:`~skfunc._penalized.SplitPath`; Demmler
+    and Reinsch, 1975), where the roughness is exactly diagonal and the
+    design's cross products are the identity on the null space: the
     intercept and the penalty's null space (functions with ``D^q beta = 0``)
     are never shrunk by alpha, so a large alpha gives the null-space fit.
+    Newton stops after a step whose half squared Newton decrement is below
+    ``tol * (1 + |objective|)``; near the optimum Newton converges
+    quadratically, so the answer is then exact to rounding (weighted and
+    duplicated curves give the same fit to about 1e-14).
+
+    The loss, gradient and Hessian are sums over the rows, so a Dask array
+    is fitted on its workers: the design is computed and kept there, and
+    each Newton step is one pass of summed statistics over the blocks (only
+    arrays of the size of the Hessian travel).
 
     Separable classes have no finite maximum likelihood. For ``alpha > 0``
-    (and ``"auto"``) the null space, and each scalar covariate, carries a
-    small ridge ``NULL_SPACE_RIDGE = 1e-4`` times the design's own variance
-    there (the sum of squares of the centred null-space coordinates,
-    orthonormal in L2 of [0, 1], per dimension), much as the ``C`` of
-    :class:`sklearn.linear_model.LogisticRegression` penalizes every
-    coefficient; the coefficients are then always finite. ``alpha=0`` keeps
-    plain maximum likelihood and warns when it diverges.
+    (and ``"auto"``) the objective carries a small fixed ridge
+    ``(RIDGE s / 2) int_0^1 beta^2`` with ``RIDGE = 1e-3`` and the same ``s``
+    as alpha (so it is unit-free too), and ``RIDGE`` times each scalar
+    covariate's own weighted variance on the covariates: the functional
+    counterpart of the ``C`` of :class:`sklearn.linear_model.LogisticRegression`,
+    which penalizes every coefficient. The coefficients are then always
+    finite, and where the training classes are separable (common with a few
+    dozen curves) the fit tends, as alpha falls, to the separating direction
+    of smallest ``int beta^2`` rather than the smoothest one: a direction the
+    curves vary along, not one they hardly vary along. As alpha grows the
+    fit tends to the null-space fit with this ridge. ``alpha=0`` keeps plain
+    maximum likelihood and warns when it diverges.
 
     ``alpha="auto"`` fits the candidates from the largest alpha down, each
     fit starting from the previous one, and keeps the alpha minimising the
@@ -160,8 +176,10 @@ class FunctionalLogisticRegression(
     penalty's; ``n`` the weight total): Craven and Wahba's criterion for a
     known dispersion, 1 for class labels, applied to penalized likelihood as
     in O'Sullivan, Yandell and Raynor (1986), Gu (1992) and Wood (2008). The
-    candidates and the choice follow the rules of every skfunc estimator:
-    ties go to the larger alpha, and an ``AlphaAtEdgeWarning`` names the end
+    candidates are the engine's (:func:`~skfunc._alpha.candidate_alphas` of
+    the split path of the design weighted by the logistic curvature of the
+    intercept-only fit, ridge included) and the choice follows the rules of
+    every skfunc estimator: ties go to the larger alpha, and an ``AlphaAtEdgeWarning`` names the end
     of the candidates when the choice is there.
 
     The multinomial model uses one coefficient set per class and the
@@ -294,7 +312,8 @@ class FunctionalLogisticRegression(
         D = apply_rows(split_design, X, lead + U.shape[1], operator=operator,
                        n_covariates=self.n_covariates, z_mean=z_mean, U=U, lead=lead)
         if is_dask_array(D):
-            D = D.persist()  # read at every Newton step: keep it on the workers
+            # read at every Newton step: computed once, kept on the workers
+            D, Y, weight = D.persist(), Y.persist(), weight.persist()
         column_size = np.concatenate([[stats["sw"]] * lead, np.diag(U.T @ gram @ U)])
         ridge_theta = np.zeros((lead + U.shape[1],) * 2)
         ridge_theta[lead:, lead:] = U.T @ ridge @ U
@@ -387,19 +406,14 @@ class FunctionalLogisticRegression(
         return scores[:, 0] if scores.shape[1] == 1 else scores
 
     def predict_proba(self, X):
-        """Class probabilities of the curves in X, shape (n_samples, n_classes)."""
-        scores = self.decision_function(X)
-        if scores.ndim == 1:
-            p = expit(scores)
-            return np.column_stack([1 - p, p])
-        return np.exp(scores - logsumexp(scores, axis=1, keepdims=True))
+        """Class probabilities of the curves in X, shape (n_samples, n_classes)
+        (a lazy Dask array for Dask input)."""
+        return apply_rows(probabilities, self._linear_predictor(X), self.classes_.size)
 
     def predict_log_proba(self, X):
         """Logarithms of :meth:`predict_proba`, shape (n_samples, n_classes)."""
-        scores = self.decision_function(X)
-        if scores.ndim == 1:
-            return -np.logaddexp(0.0, np.column_stack([scores, -scores]))
-        return scores - logsumexp(scores, axis=1, keepdims=True)
+        return apply_rows(log_probabilities, self._linear_predictor(X),
+                          self.classes_.size)
 
     @fill_doc
     def predict(self, X):
@@ -410,11 +424,32 @@ class FunctionalLogisticRegression(
         Returns
         -------
         labels : ndarray of shape (n_samples,)
-            Entries of ``classes_``.
+            Entries of ``classes_`` (a lazy Dask array for Dask input).
         """
-        scores = self.decision_function(X)
-        index = (scores > 0).astype(int) if scores.ndim == 1 else scores.argmax(axis=1)
-        return self.classes_[index]
+        eta = self._linear_predictor(X)
+        if is_dask_array(eta):
+            return eta.map_blocks(labels, classes=self.classes_, drop_axis=1,
+                                  dtype=self.classes_.dtype)
+        return labels(eta, self.classes_)
+
+
+def log_probabilities(eta):
+    """Log class probabilities from the linear predictor (n, 1 or T) (a
+    row-block function): the log-odds of ``classes_[1]`` for one column."""
+    if eta.shape[1] == 1:
+        return -np.logaddexp(0.0, np.column_stack([eta[:, 0], -eta[:, 0]]))
+    return eta - logsumexp(eta, axis=1, keepdims=True)
+
+
+def probabilities(eta):
+    """Class probabilities from the linear predictor (a row-block function)."""
+    return np.exp(log_probabilities(eta))
+
+
+def labels(eta, classes):
+    """The most probable class of each row (a row-block function)."""
+    index = (eta[:, 0] > 0).astype(int) if eta.shape[1] == 1 else eta.argmax(axis=1)
+    return classes[index]
 
 
 def _classes(y):
