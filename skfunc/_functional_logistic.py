@@ -8,6 +8,7 @@ over rows (:func:`newton_statistics`), so chunked or distributed fits can
 reuse it.
 """
 
+import contextlib
 import warnings
 from functools import partial
 from numbers import Integral, Real
@@ -36,6 +37,7 @@ from ._logistic_path import (
     LogisticProblem,
     coef_covariance,
     design_statistics,
+    single_thread_blas,
     split_design,
 )
 from ._penalized import SplitPath, centered, penalty_for, penalty_scale
@@ -266,7 +268,6 @@ class FunctionalLogisticRegression(
         self._validate_params()
         X, y = self._validate_curves(X, y, reset=True, ensure_min_samples=2)
         self.classes_ = _classes(y)
-        check_classification_targets(self.classes_)
         if self.classes_.size < 2:
             raise ValueError(
                 "FunctionalLogisticRegression needs samples of at least 2 classes "
@@ -276,11 +277,16 @@ class FunctionalLogisticRegression(
         Y, weight = _indicators(y, self.classes_, sample_weight, self.class_weight)
         basis = self._basis()
         operator = self._integration_operator(basis)
-        stats = compute_statistics(
-            partial(design_statistics, operator=operator, n_covariates=self.n_covariates),
-            X, Y, weight,
-        )
-        return check_finite_fit(self._solve(X, Y, weight, stats, basis, operator))
+        # Dask workers in this process (a LocalCluster of threads) would run
+        # multi-threaded BLAS on top of one another: one thread each
+        with single_thread_blas() if is_dask_array(X) else contextlib.nullcontext():
+            stats = compute_statistics(
+                partial(design_statistics, operator=operator,
+                        n_covariates=self.n_covariates),
+                X, Y, weight,
+            )
+            self._solve(X, Y, weight, stats, basis, operator)
+        return check_finite_fit(self)
 
     def _solve(self, X, Y, weight, stats, basis, operator):
         totals = np.r_[stats["sw"] - stats["y_sum"].sum(), stats["y_sum"]] \
@@ -453,12 +459,21 @@ def labels(eta, classes):
 
 
 def _classes(y):
-    """Sorted class labels of y (computed on the workers for a Dask y)."""
-    if is_dask_array(y):
-        import dask.array as da
+    """Sorted class labels of y, checked to be labels (computed on the
+    workers for a Dask y, whose labels alone are checked)."""
+    if not is_dask_array(y):
+        check_classification_targets(y)
+        return np.unique(y)
+    import dask.array as da
 
-        return np.asarray(da.unique(y).compute())
-    return np.unique(y)
+    classes = np.asarray(da.unique(y).compute())
+    with warnings.catch_warnings():
+        # the distinct labels are all unique, which the check would call a
+        # hint of a regression target: only the values are checked here
+        warnings.filterwarnings("ignore", "The number of unique classes",
+                                UserWarning)
+        check_classification_targets(classes)
+    return classes
 
 
 def _indicators(y, classes, sample_weight, class_weight):

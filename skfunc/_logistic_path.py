@@ -379,6 +379,11 @@ def _single_thread(size):
 _CONTROLLER = None
 
 
+def single_thread_blas():
+    """One BLAS thread in this process, whatever the problem size."""
+    return _single_thread(0)
+
+
 def _solve(matrix, rhs):
     """Solve with a symmetric positive definite matrix (Cholesky)."""
     return cho_solve(cho_factor(matrix), rhs)
