@@ -21,7 +21,7 @@ from sklearn.utils._param_validation import Interval, StrOptions
 from sklearn.utils.class_weight import compute_class_weight
 from sklearn.utils.multiclass import check_classification_targets
 
-from ._alpha import ALPHA_CONSTRAINT, candidate_alphas, check_alpha
+from ._alpha import ALPHA_CONSTRAINT, candidates_for, check_alpha
 from ._blocks import _along_rows_of, apply_rows, compute_statistics, is_dask_array
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
@@ -329,15 +329,12 @@ class FunctionalLogisticRegression(
             class_sums=stats["y_sum"], total_weight=stats["sw"],
             column_size=column_size,
         )
-        if isinstance(alpha, str):
-            # the engine's candidates for the curvature of the intercept-only
-            # fit: from nearly the null-space fit to nearly the full basis
-            freq = stats["y_sum"] / stats["sw"]
-            curvature = max(float(np.mean(freq * (1 - freq))), 1e-3)
-            alphas = candidate_alphas(
-                SplitPath(curvature * gram + ridge, penalty, scale=scale), N_ALPHAS)
-        else:
-            alphas = np.atleast_1d(alpha)
+        # the engine's candidates for the curvature of the intercept-only
+        # fit: from nearly the null-space fit to nearly the full basis
+        freq = stats["y_sum"] / stats["sw"]
+        curvature = max(float(np.mean(freq * (1 - freq))), 1e-3)
+        alphas = candidates_for(
+            alpha, SplitPath(curvature * gram + ridge, penalty, scale=scale), N_ALPHAS)
         fit = problem.path(alphas, self.tol, self.max_iter)
         j, theta = fit["best"], fit["theta"]
         self.alpha_ = float(alphas[j])
