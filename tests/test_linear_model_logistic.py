@@ -210,7 +210,7 @@ def null_space_reference(X, y, t):
 def test_large_alpha_is_the_null_space_fit(rng, alpha):
     # Source: sklearn.linear_model.LogisticRegression on the design of the
     # null space (straight lines) of the second-derivative penalty, with the
-    # documented null-space ridge as its C. Separable labels: without that
+    # documented ridge (on int beta^2) as its C. Separable labels: without that
     # ridge the fit would diverge. A null space shrunk by alpha (an inexact
     # split) would be off by far more than 1e-6 at alpha = 1e12 or 1e20.
     t = np.linspace(0, 600, 151)  # a grid in minutes
