@@ -15,6 +15,7 @@ from sklearn.utils import check_random_state
 from sklearn.utils._param_validation import Interval, RealNotInt, StrOptions
 from sklearn.utils.validation import check_is_fitted
 
+from ._alpha import ALPHA_CONSTRAINT, check_alpha
 from ._bases import BASES
 from ._blocks import chunked_matmul, is_dask_array
 from ._docstrings import fill_doc
@@ -24,11 +25,13 @@ from ._fpca import (
     ComponentCurvesMixin,
     CurveCoordinates,
     covariance_directions,
+    cross_validate_alpha,
+    merge_fold_moments,
+    pooled_moments,
     sign_convention,
     svd_directions,
 )
 from ._grid import quadrature_weights
-from ._moments import merge_moments
 from ._validation import BASIS_CONSTRAINTS, basis_for, validate_curves
 
 SVD_SOLVERS = ("auto", "full", "covariance_eigh", "randomized")
@@ -246,7 +249,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         ],
         **BASIS_CONSTRAINTS,
         "basis": [StrOptions(set(BASES)), None],
-        "alpha": [Interval(Real, 0, None, closed="left")],
+        "alpha": ALPHA_CONSTRAINT,
         "svd_solver": [StrOptions(set(SVD_SOLVERS))],
         "n_oversamples": [Interval(Integral, 1, None, closed="left")],
         "iterated_power": [Interval(Integral, 0, None, closed="left"),
@@ -255,15 +258,16 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
     }
 
     def __init__(self, n_components=None, *, basis=None, n_basis=None, degree=3,
-                 interior_knots=None, alpha=0.0, penalty_order=2, svd_solver="auto",
+                 interior_knots=None, alpha="auto", penalty_order=2, svd_solver="auto",
                  n_oversamples=10, iterated_power="auto", random_state=None, grid=None,
                  quadrature="trapezoid"):
         store_init_params(self, locals())
 
     # ------------------------------------------------------------------ fit
     #: keys ``n``, ``mean``, ``scatter`` (count, mean and centered scatter of
-    #: the coordinates), merged exactly in any order (Chan et al., 1979)
-    _merge_statistics = staticmethod(merge_moments)
+    #: the coordinates; per fold of rows when alpha is chosen by
+    #: cross-validation), merged exactly in any order (Chan et al., 1979)
+    _merge_statistics = staticmethod(merge_fold_moments)
 
     @fill_doc
     def fit(self, X, y=None):
@@ -293,8 +297,14 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
 
     def _validate_batch(self, X, y, sample_weight, first):
         validated = getattr(self, "_batch_validated", None)
-        if validated is not None:
-            return (validated,)
+        X = self._validate_new_batch(X, first) if validated is None else validated
+        if not self._chooses_alpha():
+            return (X,)
+        # the position of each row over all batches: its fold of curves
+        offset = 0 if first else self.n_samples_seen_
+        return X, np.arange(offset, offset + X.shape[0])
+
+    def _validate_new_batch(self, X, first):
         if not first:
             self._check_chunk_width(X)
             if not hasattr(self, "_partial_statistics"):
@@ -309,19 +319,25 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         X = self._validate(X, reset=first)
         if first and is_dask_array(X):
             self._solver(X.shape[0], self._coordinates().n_coordinates, True)
-        return (X,)
+        return X
 
-    def _statistics(self, X):
-        """Count, mean and centered scatter of the coordinates of X's rows."""
-        return self._coordinates().statistics(X)
+    def _statistics(self, X, index=None):
+        """Count, mean and centered scatter of the coordinates of X's rows
+        (per fold of rows, given their positions ``index``, when alpha is
+        chosen by cross-validation)."""
+        return self._statistics_function()(X, *(() if index is None else (index,)))
 
     def _statistics_function(self):
         # the coordinate maps are built once per batch, not once per block
-        return self._coordinates().statistics
+        coords = self._coordinates()
+        return coords.fold_statistics if self._chooses_alpha() else coords.statistics
 
     def _solve(self, stats):
         """Set the fitted attributes from merged statistics."""
         coords = self._coordinates()
+        folds = stats if np.ndim(stats["n"]) else None
+        if folds is not None:
+            stats = pooled_moments(folds)
         n, mean, scatter = stats["n"], stats["mean"], stats["scatter"]
         if n < 2:
             raise ValueError(
@@ -332,9 +348,15 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         total = float(np.trace(covariance))
         self._check_variance(total, mean)
         n_wanted = self._n_wanted(n, coords.n_coordinates)
-        variances, directions = covariance_directions(
-            covariance, n_wanted, coords.penalty, self.alpha
-        )
+        alpha, alphas, scores = self._fixed_alpha(), None, None
+        if folds is not None:
+            alpha, alphas, scores = cross_validate_alpha(
+                folds, coords,
+                self.n_components if isinstance(self.n_components, Integral) else None,
+                self.alpha,
+            )
+        self._set_alpha(alpha, alphas, scores, coords)
+        variances, directions = covariance_directions(covariance, n_wanted, coords, alpha)
         self.coordinate_scatter_ = scatter
         self._set_components(variances, directions, total, mean, n, n_wanted, coords)
 
@@ -353,6 +375,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
             iterated_power=self.iterated_power,
         )
         del Z
+        self._set_alpha(0.0, None, None, coords)
         # the exact SVD has all directions, hence the whole scatter, and
         # partial_fit can continue from it
         self.coordinate_scatter_ = None
@@ -363,6 +386,15 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
             }
         self._set_components(
             squares / (n - 1), directions, total, mean, n, n_wanted, coords
+        )
+
+    def _set_alpha(self, alpha, alphas, scores, coords):
+        self.alpha_ = float(alpha)
+        self.alphas_path_ = np.array([self.alpha_]) if alphas is None else alphas
+        self.criterion_path_ = scores
+        self.edf_path_ = (
+            np.full(self.alphas_path_.shape, float(coords.n_coordinates))
+            if coords.path is None else coords.path.edf(self.alphas_path_)
         )
 
     def _set_components(self, variances, directions, total, mean, n, n_wanted, coords):
@@ -417,6 +449,19 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
     def _uses_basis(self):
         return self.basis is not None
 
+    def _chooses_alpha(self):
+        """Whether alpha is chosen from the data (a basis, and "auto" or
+        candidates)."""
+        return self._uses_basis() and not isinstance(check_alpha(self.alpha), float)
+
+    def _fixed_alpha(self):
+        """The fixed alpha (0 without a basis: nothing to smooth)."""
+        value = check_alpha(self.alpha)
+        return value if isinstance(value, float) and self._uses_basis() else 0.0
+
+    def _smooths(self):
+        return self._chooses_alpha() or self._fixed_alpha() > 0
+
     def _check_basis_parameters(self):
         """basis=None means grid values: parameters of a basis are an error."""
         if self.basis is not None:
@@ -426,7 +471,8 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
             for name, unset in (("n_basis", None), ("interior_knots", None))
             if getattr(self, name) is not unset
         ]
-        if self.alpha > 0:
+        value = check_alpha(self.alpha)
+        if not isinstance(value, str) and np.any(value > 0):
             given.append(f"alpha={self.alpha!r}")
         if given:
             raise ValueError(
@@ -448,7 +494,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
             return CurveCoordinates(weights)
         return CurveCoordinates(
             weights, basis_for(self, self.grid_), self.grid_,
-            self.penalty_order if self.alpha > 0 else None,
+            self.penalty_order if self._smooths() else None,
         )
 
     def _fraction(self):
@@ -466,10 +512,11 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
                     "svd_solver='auto' or 'covariance_eigh'."
                 )
             return "covariance_eigh"
-        if self.alpha > 0:
+        if self._smooths():
             if solver not in ("auto", "covariance_eigh"):
                 raise ValueError(
-                    f"Smoothed components (alpha > 0) are computed from the "
+                    f"Smoothed components (alpha > 0 or 'auto' with a basis) are "
+                    f"computed from the "
                     f"covariance; svd_solver={solver!r} cannot be used. Use "
                     "svd_solver='auto' or 'covariance_eigh'."
                 )

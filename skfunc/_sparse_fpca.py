@@ -46,6 +46,7 @@ from sklearn.utils.validation import check_is_fitted
 from ._alpha import (
     ALPHA_CONSTRAINT,
     AUTO,
+    CV_FOLDS,
     best_index,
     candidate_alphas,
     check_alpha,
@@ -87,10 +88,6 @@ NOISE_FLOOR = np.sqrt(np.finfo(float).eps)
 #: of the domain: exact for the cubic-spline integrand on up to 30 knot spans,
 #: and far below the statistical error otherwise
 _NOISE_NODES = 64
-
-#: folds of curves for choosing alpha by cross-validation (10-fold
-#: cross-validation: common practice)
-CV_FOLDS = 10
 
 #: fraction of observed cells above which the covariance sums use dense
 #: products (BLAS) instead of sparse ones; both give the same sums
