@@ -50,8 +50,9 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
     are variances of integrals, not of sums over grid points, so they do not
     depend on how densely or evenly the curves were sampled.
 
-    Optionally the curves are expanded in a basis, and the components can be
-    smoothed with a roughness penalty (Silverman's method).
+    Optionally the curves are expanded in a basis, and the components are
+    then smoothed with a roughness penalty (Silverman's method) whose weight
+    is chosen from the training curves by cross-validation by default.
 
     Parameters
     ----------
@@ -63,9 +64,10 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         components with variance); None keeps ``min(n_samples, K)``.
     basis : {"bspline", "fourier", "legendre"} or None, default=None
         Basis in which curves and components are expanded. None means no
-        expansion: the grid values themselves are the coordinates, and
-        ``n_basis``, ``interior_knots`` or ``alpha > 0`` are an error (they describe
-        a basis; pass one, e.g. ``basis="bspline"``).
+        expansion: the grid values themselves are the coordinates, nothing
+        is smoothed (``alpha_`` is 0), and ``n_basis``, ``interior_knots``,
+        ``alpha > 0`` or candidate alphas are an error (they describe a
+        basis; pass one, e.g. ``basis="bspline"``).
     n_basis : int, default=None
         Number of basis functions; None means the basis' default (20
         B-splines, 21 Fourier functions, 12 Legendre polynomials) capped by
@@ -75,11 +77,20 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         Degree of the B-splines. Ignored without a B-spline basis.
     interior_knots : array-like of shape (n_knots,), default=None
         Interior B-spline knots; None means evenly spaced.
-    alpha : float, default=0.0
-        Roughness penalty of smoothed components: they maximise
-        ``var <x, phi>`` subject to ``||phi||^2 + alpha ||D^q phi||^2 = 1``
-        (Silverman, 1996), then are re-orthonormalised in L2 in order.
-        ``alpha`` has the units of ``t^(2q)``. 0 for ordinary components.
+    alpha : "auto", float or array-like, default="auto"
+        Roughness penalty of smoothed components (with a basis): they
+        maximise ``var <x, phi>`` subject to ``||phi||^2 + alpha ||D^q
+        phi||^2 = 1`` with both norms taken on the domain mapped to [0, 1]
+        (Silverman, 1996), then are re-orthonormalised in L2 in order. So
+        alpha is unit-free: the same number smooths alike whatever the
+        grid's unit or origin and the data's scale (see
+        :doc:`/bases_and_penalties`); the penalty's null space (straight
+        lines for ``penalty_order=2``) is never penalized. ``"auto"`` chooses
+        it by 10-fold cross-validation over curves of the reconstruction
+        error (see Notes) among candidates spanning every fit from nearly
+        unsmoothed to nearly the null space; an array of numbers > 0 gives
+        the candidates; a number >= 0 fixes it (0: ordinary components).
+        Without a basis nothing is smoothed and ``"auto"`` means 0.
     penalty_order : int, default=2
         Derivative order ``q`` of the roughness penalty.
     svd_solver : {"auto", "full", "covariance_eigh", "randomized"}, default="auto"
@@ -94,6 +105,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         min(n_samples, K)``, else "full". Smoothed components (``alpha > 0``)
         are always computed from the covariance ("auto" or "covariance_eigh"),
         and :meth:`partial_fit` always takes the "covariance_eigh" route.
+        So does ``alpha="auto"`` with a basis.
     n_oversamples : int, default=10
         Extra random vectors of the randomized solver.
     iterated_power : int or "auto", default="auto"
@@ -140,6 +152,18 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         of the centered curves in L2-orthonormal coordinates.
     n_components_ : int
         Number of components kept.
+    alpha_ : float
+        The alpha used: the cross-validated choice, or the given number (0
+        without a basis).
+    alphas_path_ : ndarray of shape (n_alphas,)
+        The candidates (``[alpha_]`` when alpha is fixed).
+    criterion_path_ : ndarray of shape (n_alphas,) or None
+        Cross-validated reconstruction error of each candidate (lower is
+        better); None when alpha is fixed.
+    edf_path_ : ndarray of shape (n_alphas,)
+        Effective dimension of each candidate's penalized norm,
+        ``tr (G + lam R)^{-1} G``: from the number of basis functions
+        (unsmoothed) down to the null space's dimension.
     projection_ : ndarray of shape (n_components_, n_features)
         The operator of :meth:`transform`: scores are
         ``(X - mean_) @ projection_.T``.
@@ -174,6 +198,20 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
     over grid points: its eigenvalues scale with the number of points, and on
     uneven grids densely sampled stretches weigh more (see Examples).
 
+    With a basis and ``alpha="auto"``, alpha is chosen by cross-validation
+    over curves (Rice and Silverman, 1991; Ramsay and Silverman, 2005, sec.
+    9.3.3): curves are dealt to 10 folds by their row position (row ``i``
+    to fold ``i mod 10``, counted across :meth:`partial_fit` batches), and
+    for each fold and candidate the components computed without the fold
+    reconstruct the fold's curves; the criterion is the summed squared L2
+    reconstruction error with ``n_components`` components (with
+    ``n_components`` None or a fraction, summed over every number of
+    components, 1, 2, ..., so that each counts). It needs only the count,
+    mean and scatter of ``z`` per fold, so it runs from the same additive
+    statistics as the fit. A choice at the smallest or largest candidate
+    gives an ``AlphaAtEdgeWarning``; at the smallest,
+    the curves need no smoothing (or too few curves are seen to tell).
+
     :meth:`partial_fit` accumulates the count, mean and centered scatter
     (K x K) of ``z`` over chunks (merged exactly, Chan et al., 1979), so its
     memory is one chunk plus K x K, and its result equals :meth:`fit` on the
@@ -189,6 +227,10 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
     ----------
     Ramsay, J. O. and Silverman, B. W. (2005). *Functional Data Analysis*,
     2nd ed., ch. 8-9. Springer.
+
+    Rice, J. A. and Silverman, B. W. (1991). Estimating the mean and
+    covariance structure nonparametrically when the data are curves.
+    *Journal of the Royal Statistical Society, Series B* 53(1), 233-243.
 
     Silverman, B. W. (1996). Smoothed functional principal components
     analysis by choice of norm. *The Annals of Statistics* 24(1), 1-24.
