@@ -85,11 +85,21 @@ def simulation_fits():
 def test_recovers_eigenvalues_and_eigenfunctions(simulation_fits):
     # Reference: the true eigenvalues (4, 1) and eigenfunctions of the YMW
     # design above. Target: eigenvalues within 10% and eigenfunctions within
-    # 0.1 in L2 at n = 500, read as averages over replicates (YMW report
-    # averages over simulation runs). Measured over 8 seeds at n = 500: mean
-    # errors 0.08 (first) and 0.13 (second eigenfunction): the second misses
-    # 0.1 at this size (single fits scatter from 0.04 to 0.27; at n = 1000
-    # single fits measured 0.035-0.084), so its bound here is 0.15.
+    # 0.1 in L2, read as averages over replicates (YMW report averages over
+    # simulation runs). Measured over seeds 0-7 at n = 500: mean errors 0.079
+    # (first) and 0.121 (second eigenfunction; seeds 0-4 used here: 0.139),
+    # single fits 0.07-0.27. The second misses 0.1 at this size for a reason
+    # that is not a tuning choice: the error is the same with the true mean
+    # plugged in (0.121), without measurement noise (0.116), with 30 instead
+    # of 100 covariance cells (0.122), 8 instead of 15 B-splines per
+    # direction (0.121), the covariance alpha fixed at 3e-5, 1e-4 or 2e-4
+    # around the cross-validated ~5e-5 (0.125, 0.117, 0.123; 1e-3: 0.226),
+    # or pairs weighted per curve (0.116 to 0.182). It is the variance of
+    # pooling pairs: each cell of the surface averages the few curves
+    # observed near both of its times, so the surface mixes in shapes
+    # outside the true span (errors largest at the ends of the domain). It
+    # falls with n: 0.074 and 0.076 at n = 1000, 0.03 and 0.045 at n = 4000
+    # (test_recovers_eigenfunctions_within_0_1_at_n_1000). Bound here 0.15.
     eigenvalues = np.array([f.explained_variance_ for f, _, _ in simulation_fits])
     errors = np.array([[l2_error(f, d.grid, k) for k in range(2)]
                        for f, d, _ in simulation_fits])
@@ -99,6 +109,24 @@ def test_recovers_eigenvalues_and_eigenfunctions(simulation_fits):
     # measured over 8 seeds (eigenvalues 0.85-1.15 x, errors up to 0.27)
     np.testing.assert_allclose(eigenvalues, np.tile(LAMBDA, (len(eigenvalues), 1)), rtol=0.25)
     assert errors.max() < 0.3
+
+
+@pytest.mark.slow
+def test_recovers_eigenfunctions_within_0_1_at_n_1000():
+    # The YMW design above at n = 1000 (seeds 0-4): eigenvalues within 10%
+    # and both eigenfunctions within 0.1 in L2 on average, the targets of
+    # the simulation check (measured: mean errors 0.062 and 0.046 on these
+    # seeds, 0.074 and 0.076 over seeds 0-7, single fits up to 0.19).
+    eigenvalues, errors = [], []
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")  # edge warnings of the alpha choice
+        for seed in range(5):
+            data, _ = simulate(1000, seed)
+            fitted = SparseFunctionalPCA(2, grid=data.grid).fit(data.X)
+            eigenvalues.append(fitted.explained_variance_)
+            errors.append([l2_error(fitted, data.grid, k) for k in range(2)])
+    np.testing.assert_allclose(np.mean(eigenvalues, axis=0), LAMBDA, rtol=0.10)
+    assert np.all(np.mean(errors, axis=0) < 0.1), errors
 
 
 def test_recovers_noise_variance_and_mean(simulation_fits):
