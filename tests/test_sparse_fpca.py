@@ -266,6 +266,65 @@ def test_covariance_sums_match_pairs():
             np.testing.assert_allclose(g, e, atol=1e-12)
 
 
+def test_centred_pair_sums_expand_the_power_sums():
+    # Reference: explicit loops over the ordered pairs j != l of one curve,
+    # with numpy, of (z_j - d_J)(z_l - d_L) and of its square for per-bin
+    # offsets d. The fit accumulates power sums of z before the mean (hence
+    # d) is known and expands them (binomial expansion, common practice);
+    # a sign or a transposed term in the expansion fails here.
+    from skfunc._sparse_fpca import centred_pair_sums, pair_sums
+
+    rng = np.random.default_rng(1)
+    n, m = 25, 6
+    rows = np.repeat(np.arange(n), rng.integers(1, 7, n))
+    bins = rng.integers(0, m, rows.size)
+    z = rng.standard_normal(rows.size) + 3.0
+    d = rng.standard_normal(m)
+    expected = np.zeros((3, m, m))
+    for i in range(n):
+        idx = np.flatnonzero(rows == i)
+        for j in idx:
+            for k in idx:
+                if j != k:
+                    a, b = z[j] - d[bins[j]], z[k] - d[bins[k]]
+                    expected[:, bins[j], bins[k]] += [1, a * b, a**2 * b**2]
+    got = centred_pair_sums(pair_sums(rows, bins, z, n, m), d)
+    for g, e in zip(got, expected):
+        np.testing.assert_allclose(g, e, rtol=1e-10, atol=1e-10)
+
+
+@pytest.mark.parametrize("max_points", [100, 12])
+def test_partial_fit_equals_fit(max_points):
+    # "Fits are sums": the statistics per column and per covariance cell
+    # (12 < 40 distinct times: binned cells) add over batches, and rows keep
+    # their fold of the alpha choice by position, so partial_fit over uneven
+    # batches (one of a single row) equals fit on the stacked rows (numpy
+    # stacking is the reference) up to rounding: 1e-8 relative.
+    times = np.linspace(0, 10, 40)
+    rng = np.random.default_rng(5)
+    xi = rng.standard_normal((150, 2)) * np.sqrt(LAMBDA)
+    keep = rng.random((150, 40)).argsort(axis=1) < rng.integers(2, 8, (150, 1))
+    X = np.where(keep, true_mean(times) + xi @ true_components(times)
+                 + 0.5 * rng.standard_normal((150, 40)), np.nan)
+    kw = {"n_components": 2, "grid": times, "max_covariance_points": max_points,
+          "n_basis": 8, "covariance_n_basis": 6}
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")  # edge warnings of the alpha choice
+        fitted = SparseFunctionalPCA(**kw).fit(X)
+        streamed = SparseFunctionalPCA(**kw)
+        for chunk in np.array_split(X, [37, 38, 90]):
+            streamed.partial_fit(chunk)
+    assert streamed.n_samples_seen_ == 150
+    assert streamed.alpha_ == pytest.approx(fitted.alpha_, rel=1e-12)
+    assert streamed.covariance_alpha_ == pytest.approx(fitted.covariance_alpha_, rel=1e-12)
+    for name in ("mean_", "components_", "explained_variance_", "noise_variance_",
+                 "covariance_basis_coef_", "criterion_path_", "covariance_criterion_path_"):
+        np.testing.assert_allclose(getattr(streamed, name), getattr(fitted, name),
+                                   rtol=1e-8, atol=1e-10, err_msg=name)
+    np.testing.assert_allclose(streamed.transform(X), fitted.transform(X), rtol=1e-8,
+                               atol=1e-10)
+
+
 def test_unobserved_columns_change_nothing():
     # Resolution invariance for sparse data: the same observations placed on
     # a grid with extra columns that no curve observed give the same fit.
