@@ -48,7 +48,7 @@ from sklearn.utils.extmath import randomized_svd
 from sklearn.utils.validation import check_is_fitted
 from threadpoolctl import threadpool_limits
 
-from ._alpha import CV_FOLDS, best_index, candidate_alphas, check_alpha
+from ._alpha import CV_FOLDS, best_index, candidates_for
 from ._bases import gram_sqrt
 from ._basis_features import orthonormal_operators
 from ._blocks import chunked_matmul
@@ -308,8 +308,7 @@ def cross_validate_alpha(folds, coords, n_components, alpha="auto"):
     choice from :func:`skfunc._alpha.best_index`. Returns ``(alpha, alphas,
     scores)``.
     """
-    value = check_alpha(alpha)
-    alphas = candidate_alphas(coords.path) if isinstance(value, str) else value
+    alphas = candidates_for(alpha, coords.path)
     K = coords.path.eigvecs.shape[0]
     scores, used = np.zeros(alphas.size), 0
     # small batched eigensolves: BLAS threads only add synchronisation

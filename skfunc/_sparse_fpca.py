@@ -49,10 +49,9 @@ from sklearn.utils.validation import check_is_fitted
 
 from ._alpha import (
     ALPHA_CONSTRAINT,
-    AUTO,
     CV_FOLDS,
     best_index,
-    candidate_alphas,
+    candidates_for,
     check_alpha,
     choose_alpha,
 )
@@ -167,7 +166,7 @@ class _CurveFoldFit:
         value = check_alpha(alpha)
         if isinstance(value, float):
             return path.coef(rotated, value), value, np.array([value]), None
-        alphas = candidate_alphas(path) if value is AUTO else value
+        alphas = candidates_for(value, path)
         scores, used = np.zeros(alphas.size), 0
         for fold, gram, b, y2 in zip(self._fold_paths(), self.grams, rhs, yy):
             if fold is None:
