@@ -206,7 +206,7 @@ def _tensor_gram(psi, weights):
 PAIR_KEYS = ("N", "P10", "P11", "P20", "P21", "P22")
 
 
-def pair_sums(rows, bins, values, n_rows, n_bins):
+def pair_sums(rows, bins, values, n_bins):
     """Sums over pairs of different observations of one curve, per cell.
 
     Returns a dict of (n_bins, n_bins) arrays keyed by :data:`PAIR_KEYS`:
@@ -221,20 +221,27 @@ def pair_sums(rows, bins, values, n_rows, n_bins):
     ``d`` (:func:`centred_pair_sums`), so they can be accumulated before the
     mean is known.
     """
+    # one product of the stacked matrix [R_0 R_1 R_2] (rows compressed to
+    # the curves present) gives every R_a' R_b as a block
+    rows = np.unique(rows, return_inverse=True)[1]
+    n_rows = int(rows.max()) + 1 if rows.size else 0
     dense = bins.size > _DENSE_FRACTION * n_rows * n_bins
-    powers = [np.ones_like(values), values, values**2]
-    matrices = []
-    for p in powers:
-        matrix = scipy.sparse.csr_matrix((p, (rows, bins)), shape=(n_rows, n_bins))
-        matrices.append(matrix.toarray() if dense else matrix)
+    stacked = scipy.sparse.csr_matrix(
+        (np.concatenate([np.ones_like(values), values, values**2]),
+         (np.tile(rows, 3), np.concatenate([bins, bins + n_bins, bins + 2 * n_bins]))),
+        shape=(n_rows, 3 * n_bins),
+    )
+    if dense:
+        stacked = stacked.toarray()
+        product = stacked.T @ stacked
+    else:
+        product = (stacked.T @ stacked).toarray()
     out = {}
     for key in PAIR_KEYS:
-        a, b = int(key[1]) if key != "N" else 0, int(key[2]) if key != "N" else 0
-        product = matrices[a].T @ matrices[b]
-        if not dense:
-            product = product.toarray()
-        product -= np.diag(np.bincount(bins, values ** (a + b), minlength=n_bins))
-        out[key] = product
+        a, b = (0, 0) if key == "N" else (int(key[1]), int(key[2]))
+        block = product[a * n_bins:(a + 1) * n_bins, b * n_bins:(b + 1) * n_bins].copy()
+        block -= np.diag(np.bincount(bins, values ** (a + b), minlength=n_bins))
+        out[key] = block
     return out
 
 
@@ -255,8 +262,9 @@ def centred_pair_sums(sums, d):
 
 def covariance_sums(rows, bins, residuals, n_rows, n_bins):
     """``(N, C, Q)`` of :func:`pair_sums` for residuals: the number of pairs,
-    and the sums of ``r_j r_l`` and of ``r_j^2 r_l^2``, per cell."""
-    sums = pair_sums(rows, bins, residuals, n_rows, n_bins)
+    and the sums of ``r_j r_l`` and of ``r_j^2 r_l^2``, per cell (``n_rows``,
+    the number of curves, is implied by ``rows``)."""
+    sums = pair_sums(rows, bins, residuals, n_bins)
     return sums["N"], sums["P11"], sums["P22"]
 
 
@@ -285,9 +293,13 @@ class _BatchStatistics:
             for p in range(5)
         ])
         pairs = np.zeros((len(PAIR_KEYS), CV_FOLDS, self.n_bins, self.n_bins))
-        for f in np.unique(folds):
-            mine = folds == f
-            sums = pair_sums(rows[mine], bins[mine], z[mine], X.shape[0], self.n_bins)
+        order = np.argsort(folds, kind="stable")
+        bounds = np.searchsorted(folds[order], np.arange(CV_FOLDS + 1))
+        for f in range(CV_FOLDS):
+            mine = order[bounds[f]:bounds[f + 1]]
+            if mine.size == 0:
+                continue
+            sums = pair_sums(rows[mine], bins[mine], z[mine], self.n_bins)
             for i, key in enumerate(PAIR_KEYS):
                 pairs[i, f] = sums[key]
         return {"columns": columns, "pairs": pairs}

@@ -288,7 +288,7 @@ def test_centred_pair_sums_expand_the_power_sums():
                 if j != k:
                     a, b = z[j] - d[bins[j]], z[k] - d[bins[k]]
                     expected[:, bins[j], bins[k]] += [1, a * b, a**2 * b**2]
-    got = centred_pair_sums(pair_sums(rows, bins, z, n, m), d)
+    got = centred_pair_sums(pair_sums(rows, bins, z, m), d)
     for g, e in zip(got, expected):
         np.testing.assert_allclose(g, e, rtol=1e-10, atol=1e-10)
 
