@@ -326,12 +326,13 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         self._n_wanted(X.shape[0], coords.n_coordinates)  # fail before the work
         solver = self._solver(X.shape[0], coords.n_coordinates)
         if solver == "covariance_eigh":
-            # the statistics route of partial_fit, on the validated X
-            self._batch_validated = X
+            # the statistics route of partial_fit, on the validated X and
+            # the coordinate maps built above (not rebuilt per step)
+            self._batch_validated, self._batch_coordinates = X, coords
             try:
                 return self._fit_statistics(X)
             finally:
-                del self._batch_validated
+                del self._batch_validated, self._batch_coordinates
         self._fit_svd(X, coords, solver)
         return self
 
@@ -369,12 +370,12 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
 
     def _statistics_function(self):
         # the coordinate maps are built once per batch, not once per block
-        coords = self._coordinates()
+        coords = self._batch_coords()
         return coords.fold_statistics if self._chooses_alpha() else coords.statistics
 
     def _solve(self, stats):
         """Set the fitted attributes from merged statistics."""
-        coords = self._coordinates()
+        coords = self._batch_coords()
         folds = stats if np.ndim(stats["n"]) else None
         if folds is not None:
             stats = pooled_moments(folds)
@@ -505,6 +506,11 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
                 "the grid values themselves are the coordinates; pass a basis, "
                 "for example basis='bspline'."
             )
+
+    def _batch_coords(self):
+        """The coordinate maps of the fit in progress, else built anew."""
+        coords = vars(self).get("_batch_coordinates")
+        return self._coordinates() if coords is None else coords
 
     def _coordinates(self):
         """Rebuild the coordinate maps from the parameters and ``grid_``."""
