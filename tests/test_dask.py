@@ -493,6 +493,9 @@ def test_functional_pca_partial_fit_over_dask_batches(sync):
     for start in range(0, 800, 200):
         batches.partial_fit(da.from_array(X[start : start + 200], chunks=(64, 41)))
     assert batches.n_samples_seen_ == 800
+    # alpha="auto": folds by row position across batches, as in fit
+    assert batches.alpha_ == reference.alpha_
+    assert_rel_close(batches.criterion_path_, reference.criterion_path_)
     assert_rel_close(batches.components_, reference.components_)
     with pytest.raises(ValueError, match="svd_solver='randomized' needs all curves"):
         FunctionalPCA(3, svd_solver="randomized").fit(da.from_array(X, chunks=100))
