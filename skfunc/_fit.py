@@ -64,7 +64,7 @@ def check_finite_fit(estimator):
     policy, not checked here. Returns the estimator.
     """
     name = type(estimator).__name__
-    uncertain = []
+    uncertain, overflow = [], []
     for key, value in vars(estimator).items():
         if not key.endswith("_") or key.startswith("_"):
             continue
@@ -74,13 +74,21 @@ def check_finite_fit(estimator):
         if key in ("criterion_path_", "best_score_"):  # inf where a candidate
             continue  # interpolates: the alpha choice has its own policy for that
         if key in _UNCERTAINTY:
-            uncertain.append(key)
+            (overflow if np.isinf(arr).any() else uncertain).append(key)
             continue
         raise ValueError(
             f"{name}: the fitted {key} is not finite. This usually means the values "
             "of X or y are too large or too small for their sums of squares in "
             "float64 (beyond about 1e150 or below 1e-150); rescale X and y, for "
             "example to units near 1."
+        )
+    if overflow:
+        warnings.warn(
+            f"{name}: {' and '.join(overflow)} overflow float64 in the data's "
+            "units (variances are squares: of y beyond about 1e154, or of "
+            "coefficients y / X beyond that); the fit itself is exact, but "
+            "confidence bands are undefined. Rescale X and y, for example to "
+            "units near 1, for bands.", RuntimeWarning, stacklevel=3,
         )
     if uncertain:
         warnings.warn(
