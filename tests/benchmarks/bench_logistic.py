@@ -152,10 +152,10 @@ def main():
     print(f"auto / fixed: {auto_time / fixed_time:.2f} (target <= 3)")
     print(f"auto / LogisticRegression: {auto_time / sk_time:.3f} (target <= 0.1)")
 
-    n_dask, m_dask = (2_000, 100) if args.quick else (50_000, 200)
-    (memory, on_dask), diff, est = dask_and_memory(n_dask, m_dask, repeat=3)
+    n_dask, m_dask, repeat = (1_000, 100, 1) if args.quick else (50_000, 200, 3)
+    (memory, on_dask), diff, est = dask_and_memory(n_dask, m_dask, repeat)
     print(f"\n{n_dask} curves x {m_dask} points x 2 classes, alpha='auto' "
-          f"({est.n_iter_} Newton iterations); best of 3 runs, in turns")
+          f"({est.n_iter_} Newton iterations); best of {repeat} runs, in turns")
     print(f"{'in memory':48s} {memory:8.3f} s")
     print(f"{'Dask array on a LocalCluster (2 workers)':48s} {on_dask:8.3f} s")
     print(f"Dask / in memory: {on_dask / memory:.2f} (target <= 1.5); "
