@@ -440,8 +440,12 @@ class ScaledCoordinates:
     def __init__(self, coords, d, d_grid):
         self.coords, self.d, self.d_grid = coords, d, d_grid
         self.weights = coords.weights
-        self.penalty = coords.penalty  # weighted roughness: unchanged
         self.n_coordinates = coords.n_coordinates
+
+    def __getattr__(self, name):  # everything else as the unweighted maps
+        if name == "coords":
+            raise AttributeError(name)
+        return getattr(self.coords, name)
 
     def values(self, Y):
         return self.coords.values(Y / self.d[:, None])
@@ -477,6 +481,12 @@ def channel_coordinates(estimator, coords, squares, mean):
     if layout is None:
         return coords, None
     names = layout[0]
+    if estimator._smooths():
+        raise ValueError(
+            "Smoothed components (alpha > 0, or alpha='auto' with a basis) are "
+            "not available with several channels; pass alpha=0 (components of "
+            "the basis expansions) or basis=None."
+        )
     if estimator.basis is None:
         sizes = estimator.channel_sizes_
     else:

@@ -67,9 +67,9 @@ SINGLE = [
     (CurveSmoother(), "transform"),
     (CurveSmoother(per_curve=True, derivative=1), "transform"),
     (FunctionalPCA(3, channel_weights="equal"), "transform"),
-    (FunctionalPCA(3, basis="bspline", svd_solver="full", channel_weights="equal"),
-     "transform"),
-    (FunctionalPCA(3, basis="bspline", alpha=1e-4, channel_weights={"T": 1.0}),
+    (FunctionalPCA(3, basis="bspline", alpha=0.0, svd_solver="full",
+                   channel_weights="equal"), "transform"),
+    (FunctionalPCA(3, basis="bspline", alpha=0.0, channel_weights={"T": 1.0}),
      "transform"),
     (FunctionalRidge(), "predict"),
     (FunctionalRidge(1e-2, n_covariates=1), "predict"),
@@ -92,13 +92,17 @@ def test_one_channel_equals_the_single_channel_estimator(estimator, method):
     fit_y = None if method == "transform" else y
     single = clone(estimator).set_params(grid=T).fit(X, fit_y)
     multi = clone(estimator).set_params(grid={"T": T}).fit(X, fit_y)
-    _close(getattr(multi, method)(X), getattr(single, method)(X))
+    # the logistic model's Newton iterations stop at a tolerance, not at the
+    # optimum: see test_logistic_decisions_do_not_depend_on_one_channels_units
+    # for the derivation of 1e-3
+    tol = 1e-3 if isinstance(estimator, FunctionalLogisticRegression) else EXACT
+    _close(getattr(multi, method)(X), getattr(single, method)(X), tol)
     assert multi.channel_names_ == ["T"] and multi.channel_sizes_ == [T.size]
     for attr in ("coef_function_", "components_", "explained_variance_", "mean_"):
         if hasattr(single, attr):
-            _close(getattr(multi, attr), getattr(single, attr))
+            _close(getattr(multi, attr), getattr(single, attr), tol)
     if hasattr(single, "alpha_"):
-        _close(np.ravel(multi.alpha_), np.ravel(single.alpha_))
+        _close(np.ravel(multi.alpha_), np.ravel(single.alpha_), tol)
 
 
 # ------------------------------------------- units of one channel changed
@@ -145,14 +149,18 @@ def test_one_shared_penalty_scale_would_depend_on_units(monkeypatch):
 
 
 def test_logistic_decisions_do_not_depend_on_one_channels_units():
-    # Same derivation as for the ridge; the null-space ridge is measured in
-    # the penalty's metric, which carries each channel's scale.
+    # Same derivation as for the ridge; the fixed ridge is measured in the
+    # penalty's metric, which carries each channel's scale. Newton stops
+    # when half the squared Newton decrement is below tol (1 + |objective|)
+    # = 1e-10 * ~60 for these 120 rows, so the two fits may stop up to a
+    # decrement of about sqrt(2 * 6e-9) ~ 1e-4 apart: 1e-3 relative leaves
+    # room (measured 2e-5); a shared penalty scale is off by far more.
     X, y = _two_channels(120)
     labels = (y > np.median(y)).astype(int)
     grid = {"T": T, "O": U}
     a = FunctionalLogisticRegression(grid=grid).fit(X, labels)
     b = FunctionalLogisticRegression(grid=grid).fit(_rescaled(X), labels)
-    _close(b.decision_function(_rescaled(X)), a.decision_function(X), 1e-8)
+    _close(b.decision_function(_rescaled(X)), a.decision_function(X), 1e-3)
     assert a.coef_function_.shape == (1, T.size + U.size)
 
 
@@ -162,7 +170,8 @@ def test_fpca_inverse_variance_weights_make_scores_unit_free():
     # on the channels' units. Equal weights do (the check can fail).
     X, _ = _two_channels()
     grid = {"T": T, "O": U}
-    for kwargs in ({}, {"basis": "bspline"}, {"svd_solver": "covariance_eigh"}):
+    for kwargs in ({}, {"basis": "bspline", "alpha": 0.0},
+                   {"svd_solver": "covariance_eigh"}):
         a = FunctionalPCA(3, grid=grid, **kwargs).fit(X)
         b = FunctionalPCA(3, grid=grid, **kwargs).fit(_rescaled(X))
         _close(b.transform(_rescaled(X)), a.transform(X), 1e-9)
@@ -392,6 +401,8 @@ def test_other_bad_layouts():
     with pytest.raises(ValueError, match="positive finite"):
         FunctionalPCA(grid={"T": T, "O": U},
                       channel_weights={"T": 1.0, "O": -1.0}).fit(X)
+    with pytest.raises(ValueError, match="Smoothed components.*not available"):
+        FunctionalPCA(2, basis="bspline", grid={"T": T, "O": U}).fit(X)
     flat = X.copy()
     flat[:, T.size:] = 3.0
     with pytest.raises(ValueError, match=r"\['O'\].*zero variance"):
