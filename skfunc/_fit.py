@@ -154,6 +154,7 @@ class AdditiveTransformerMixin(AdditiveFitMixin):
         """
         return self._fit_statistics(X)
 
+    @fill_doc
     def partial_fit(self, X, y=None):
         """Add a batch of curves and refit from the statistics of all batches.
 
@@ -165,13 +166,7 @@ class AdditiveTransformerMixin(AdditiveFitMixin):
         ----------
         X : array-like or dask array of shape (n_samples, n_features)
             A batch of curves on the grid of the first batch.
-        y : None
-            Ignored; accepted for pipeline compatibility.
-
-        Returns
-        -------
-        self : object
-            The transformer, fitted on all batches so far.
+        %(partial_fit_y_returns)s
         """
         return self._partial_fit_statistics(X)
 

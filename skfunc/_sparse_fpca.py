@@ -561,6 +561,7 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         """
         return self._fit_statistics(X)
 
+    @fill_doc
     def partial_fit(self, X, y=None):
         """Add a batch of curves and refit from the statistics of all batches.
 
@@ -575,13 +576,7 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         X : array-like of shape (n_samples, n_features)
             A batch of curves on the grid of the first batch, NaN where not
             observed.
-        y : None
-            Ignored; accepted for pipeline compatibility.
-
-        Returns
-        -------
-        self : object
-            The transformer, fitted on all batches so far.
+        %(partial_fit_y_returns)s
         """
         return self._partial_fit_statistics(X)
 

@@ -10,6 +10,7 @@ import warnings
 import numpy as np
 import pytest
 import scipy.linalg
+from conftest import trapezoid_weights
 from scipy.integrate import trapezoid
 from scipy.interpolate import BSpline
 from sklearn.decomposition import PCA
@@ -19,15 +20,6 @@ from sklearn.preprocessing import StandardScaler
 from skfunc._bases import make_basis
 from skfunc._grid import quadrature_weights
 from skfunc.decomposition import FunctionalPCA
-
-
-def trapezoid_weights(t):
-    # composite trapezoid rule, computed here independently (common practice)
-    h = np.diff(t)
-    w = np.zeros_like(t)
-    w[:-1] += h / 2
-    w[1:] += h / 2
-    return w
 
 
 def low_rank_curves(rng, n, t, rank=4, noise=0.0):

@@ -10,6 +10,7 @@ import numpy as np
 import pandas as pd
 import pytest
 import statsmodels.api as sm
+from conftest import trapezoid_weights
 from numpy.testing import assert_allclose
 from sklearn.linear_model import LinearRegression, RidgeCV
 from sklearn.model_selection import GridSearchCV, KFold, cross_val_score
@@ -42,13 +43,6 @@ def _engine_lambda(alpha, X, w):
     Xc = X - X.mean(axis=0)
     design = np.linalg.eigvalsh(Xc.T @ Xc)[-1]
     return np.asarray(alpha) * design * w.sum()
-
-
-def _trapezoid(t):
-    w = np.zeros_like(t)
-    w[:-1] += np.diff(t) / 2
-    w[1:] += np.diff(t) / 2
-    return w
 
 
 # --------------------------------------------------------------------------
@@ -184,7 +178,7 @@ def test_fixed_alpha_matches_dense_kronecker_solve(rng):
 
     basis = make_basis("bspline", (0, 1), 8)
     phi, P = basis.evaluate(t), basis.penalty(2)
-    w = _trapezoid(t)
+    w = trapezoid_weights(t)
     alpha = _engine_lambda(0.01, X, w)
     Xc = X - X.mean(axis=0)
     Z = np.column_stack([np.ones(len(X)), Xc])
@@ -209,7 +203,7 @@ def test_gcv_criterion_matches_dense_hat_matrix(rng):
 
     basis = make_basis("bspline", (0, 1), 6)
     phi, P = basis.evaluate(t), basis.penalty(2)
-    w = _trapezoid(t)
+    w = trapezoid_weights(t)
     lams = _engine_lambda(alphas, X, w)
     Z = np.column_stack([np.ones(len(X)), X - X.mean(axis=0)])
     D = np.kron(Z, phi)
@@ -241,7 +235,7 @@ def test_gcv_recovers_smooth_coefficients(rng):
     X, Y, t, beta = _scalar_data(rng, n=200, m=101, noise=1.0)
     model = FunctionOnScalarRidge().fit(X, Y)
     per_point = LinearRegression().fit(X, Y).coef_.T
-    w = _trapezoid(t)
+    w = trapezoid_weights(t)
     err = ((model.coef_function_ - beta) ** 2) @ w
     err_raw = ((per_point - beta) ** 2) @ w
     assert np.all(err < err_raw)  # smoothing beats pointwise least squares
@@ -429,7 +423,7 @@ def _bump_simulation(rng, n=500, m=101, noise=0.1):
     k = np.arange(1, 31)
     X = (rng.normal(size=(n, 30)) / k) @ (np.sqrt(2) * np.sin(np.pi * np.outer(k, s)))
     beta = 3 * np.exp(-((s[:, None] - 0.4) ** 2 + (t[None, :] - 0.6) ** 2) / 0.045)
-    w = _trapezoid(s)
+    w = trapezoid_weights(s)
     Y = X @ (beta * w[:, None]) + noise * rng.normal(size=(n, m))
     return X, Y, s, beta, w
 
@@ -508,7 +502,7 @@ def test_score_is_integrated_r2(rng):
     t = np.sort(rng.uniform(0, 1, t.size))
     model = FunctionOnScalarRidge(alpha=1e-2, response_grid=t).fit(X, Y)
     pred = model.predict(X)
-    w = _trapezoid(t)
+    w = trapezoid_weights(t)
     # 1 - int SSE / int SST with the trapezoid rule (scikit-learn's R^2 per
     # point, integrated)
     sse = ((Y - pred) ** 2).sum(axis=0) @ w

@@ -386,6 +386,12 @@ def test_unit_invariance_for_drawn_units(name, shift, stretch, scale, auto):
 curves_seed = st.integers(0, 2**32 - 1)
 
 
+#: a basis fit of noisy curves: grid, data and the fit's basis parameters
+BASIS_FIT_CASES = dict(grid=grids, seed=curves_seed, n_basis=st.integers(4, 15),
+                       data_term=st.sampled_from(["mean", "integral"]),
+                       basis=st.sampled_from(["bspline", "fourier", "legendre"]))
+
+
 def _curves(grid, seed, n=12):
     from conftest import smooth_curves
 
@@ -394,9 +400,7 @@ def _curves(grid, seed, n=12):
 
 
 @FEW
-@given(grid=grids, seed=curves_seed, n_basis=st.integers(4, 15),
-       data_term=st.sampled_from(["mean", "integral"]),
-       basis=st.sampled_from(["bspline", "fourier", "legendre"]))
+@given(**BASIS_FIT_CASES)
 def test_smoothing_a_smoothed_curve_at_alpha_0_returns_it(grid, seed, n_basis, data_term,
                                                           basis):
     # At alpha = 0 the smoother is a (weighted) least-squares projection onto
@@ -412,9 +416,7 @@ def test_smoothing_a_smoothed_curve_at_alpha_0_returns_it(grid, seed, n_basis, d
 
 
 @FEW
-@given(grid=grids, seed=curves_seed, n_basis=st.integers(4, 15),
-       data_term=st.sampled_from(["mean", "integral"]),
-       basis=st.sampled_from(["bspline", "fourier", "legendre"]))
+@given(**BASIS_FIT_CASES)
 def test_basis_features_reconstruction_is_a_projection(grid, seed, n_basis, data_term,
                                                        basis):
     # P = inverse_transform o transform at alpha = 0: P(P x) = P x, and the

@@ -236,6 +236,20 @@ def test_dense_curves_agree_with_functional_pca():
     assert np.all(err < 0.05), err
 
 
+def _loop_pair_sums(rows, bins, a, m):
+    """Sums over the ordered pairs j != l of one curve's observations, by
+    explicit loops with numpy, per cell (bin_j, bin_l): the count, ``a_j
+    a_l`` and ``a_j^2 a_l^2``."""
+    expected = np.zeros((3, m, m))
+    for i in np.unique(rows):
+        idx = np.flatnonzero(rows == i)
+        for j in idx:
+            for k in idx:
+                if j != k:
+                    expected[:, bins[j], bins[k]] += [1, a[j] * a[k], a[j] ** 2 * a[k] ** 2]
+    return expected
+
+
 def test_covariance_sums_match_pairs():
     # Reference: the sums over ordered pairs j != l of one curve's
     # observations, by explicit loops with numpy.
@@ -245,13 +259,7 @@ def test_covariance_sums_match_pairs():
     rows = np.repeat(np.arange(n), counts)
     bins = rng.integers(0, m, rows.size)  # several observations may share a bin
     r = rng.standard_normal(rows.size)
-    expected = np.zeros((3, m, m))
-    for i in range(n):
-        idx = np.flatnonzero(rows == i)
-        for j in idx:
-            for k in idx:
-                if j != k:
-                    expected[:, bins[j], bins[k]] += [1, r[j] * r[k], r[j] ** 2 * r[k] ** 2]
+    expected = _loop_pair_sums(rows, bins, r, m)
     for dense_rows in (n, 10**6):  # the dense (BLAS) and the sparse products
         got = covariance_sums(rows, bins, r, n, m) if dense_rows == n else None
         if got is None:
@@ -280,14 +288,7 @@ def test_centred_pair_sums_expand_the_power_sums():
     bins = rng.integers(0, m, rows.size)
     z = rng.standard_normal(rows.size) + 3.0
     d = rng.standard_normal(m)
-    expected = np.zeros((3, m, m))
-    for i in range(n):
-        idx = np.flatnonzero(rows == i)
-        for j in idx:
-            for k in idx:
-                if j != k:
-                    a, b = z[j] - d[bins[j]], z[k] - d[bins[k]]
-                    expected[:, bins[j], bins[k]] += [1, a * b, a**2 * b**2]
+    expected = _loop_pair_sums(rows, bins, z - d[bins], m)
     got = centred_pair_sums(pair_sums(rows, bins, z, m), d)
     for g, e in zip(got, expected):
         np.testing.assert_allclose(g, e, rtol=1e-10, atol=1e-10)
