@@ -5,22 +5,20 @@ Every estimator in skfunc solves, for one or many right-hand sides ``b``,
     minimize  ||y - Z c||_W^2 + alpha * c' P c    =>   (G + alpha P) c = b,
 
 with ``G = Z' W Z`` (K x K, the data's cross products), ``b = Z' W y`` and a
-roughness matrix ``P``. One simultaneous diagonalisation of ``G`` and ``P``
-(Demmler and Reinsch, 1975) serves every alpha: with ``U' G U = diag(mu)`` and
-``U' P U = diag(1 - mu) / scale``,
+roughness matrix ``P``. :class:`SplitPath` diagonalises ``G`` and ``P``
+simultaneously (Demmler and Reinsch, 1975) in the basis split into the
+penalty's null space and its complement (:class:`Penalty`, from the basis'
+exact null space): with ``U' G U = diag(g)`` and ``U' P U = diag(p)``
+(``p = 0`` exactly on the null space),
 
-    (G + alpha P)^{-1} = U diag(1 / d(alpha)) U',   d = mu + alpha/scale (1 - mu),
+    (G + lam P)^{-1} = U diag(1 / (g + lam p)) U',
 
-so coefficients, effective degrees of freedom ``sum mu / d`` and residual sums
-of squares for a whole grid of alphas cost O(K) per right-hand side and alpha.
-
-:class:`SplitPath` is the same path in the basis split into the penalty's
-null space and its complement (:class:`Penalty`, from the basis' exact null
-space), so the null space is exactly unpenalized at any alpha, and with the
-user's alpha made unit-free by :func:`engine_alpha` (the penalty on the
-domain mapped to [0, 1], weighed by the largest eigenvalue of the data's
-cross products against the unit-domain Gram matrix). :class:`PenalizedPath`
-remains for the estimators not yet moved to it.
+so coefficients, effective degrees of freedom and residual sums of squares
+for a whole grid of alphas cost O(K) per right-hand side and alpha, and the
+null space is exactly unpenalized at any alpha. The user's alpha is
+unit-free (:func:`engine_alpha`: the penalty on the domain mapped to [0, 1],
+weighed by the largest eigenvalue of the data's cross products against the
+unit-domain Gram matrix).
 
 What a fit needs from the data is additive over rows (:func:`cross_products`,
 :func:`merge`), so in-memory fits, ``partial_fit`` and distributed fits share
@@ -52,94 +50,6 @@ class NotIdentifiableError(ValueError):
 
 def _symmetric(a):
     return (a + a.T) / 2
-
-
-class PenalizedPath:
-    """Simultaneous diagonalisation of a cross-product matrix and a penalty.
-
-    Parameters
-    ----------
-    gram : ndarray of shape (K, K)
-        Symmetric positive semi-definite cross products ``Z' W Z``.
-    penalty : ndarray of shape (K, K) or None
-        Symmetric positive semi-definite roughness matrix; None for none.
-
-    Attributes
-    ----------
-    eigvecs : ndarray of shape (K, K)
-        ``U`` with ``U' (G + scale P) U = I``.
-    mu : ndarray of shape (K,)
-        Eigenvalues of ``G`` relative to ``G + scale P``, in [0, 1].
-    scale : float
-        ``trace(G) / trace(P)``, so that alpha / scale is dimensionless.
-    """
-
-    def __init__(self, gram, penalty=None):
-        gram = _symmetric(np.asarray(gram, dtype=np.float64))
-        k = gram.shape[0]
-        if penalty is None:
-            penalty = np.zeros_like(gram)
-        penalty = _symmetric(np.asarray(penalty, dtype=np.float64))
-        trace_g, trace_p = np.trace(gram), np.trace(penalty)
-        self.scale = float(trace_g / trace_p) if trace_p > 0 and trace_g > 0 else 1.0
-        combined = gram + self.scale * penalty
-        eig = np.linalg.eigvalsh(combined)
-        if eig[0] <= _RCOND * max(eig[-1], np.finfo(float).tiny) * k:
-            raise NotIdentifiableError(
-                "The data do not determine all basis coefficients: the cross-"
-                "product matrix is singular on functions the roughness penalty "
-                "does not penalise (or there is no penalty). Use fewer basis "
-                "functions, more observations, or a roughness penalty alpha > 0."
-            )
-        lower = np.linalg.cholesky(combined)
-        inv_lower = np.linalg.inv(lower)
-        mu, vecs = np.linalg.eigh(_symmetric(inv_lower @ gram @ inv_lower.T))
-        self.mu = np.clip(mu, 0.0, 1.0)
-        self.eigvecs = inv_lower.T @ vecs
-
-    def denominators(self, alpha):
-        """``d = mu + alpha / scale (1 - mu)``: shape alpha.shape + (K,)."""
-        alpha = np.asarray(alpha, dtype=np.float64)[..., None]
-        d = self.mu + alpha / self.scale * (1.0 - self.mu)
-        if np.any(d <= 0):
-            raise NotIdentifiableError(
-                "alpha = 0 leaves coefficients undetermined that only the "
-                "roughness penalty can fix; use alpha > 0 or fewer basis functions."
-            )
-        return d
-
-    def rotate(self, rhs):
-        """Rotated right-hand sides ``r = b U``, one row per right-hand side."""
-        return np.asarray(rhs) @ self.eigvecs
-
-    def coef(self, rotated, alpha):
-        """Coefficients ``(G + alpha P)^{-1} b`` as rows, from rotated ``b``.
-
-        ``alpha`` is a scalar, or one value per row of ``rotated``.
-        """
-        return (rotated / self.denominators(alpha)) @ self.eigvecs.T
-
-    def operator(self, alpha):
-        """The matrix ``(G + alpha P)^{-1}`` for a scalar alpha."""
-        return (self.eigvecs / self.denominators(alpha)) @ self.eigvecs.T
-
-    def edf(self, alphas):
-        """Effective degrees of freedom ``trace of the hat matrix`` per alpha."""
-        return (self.mu / self.denominators(alphas)).sum(axis=-1)
-
-    def rss_reduction(self, rotated, alphas):
-        """``y'Wy - RSS(alpha)`` for every row of ``rotated`` and every alpha.
-
-        Uses ``RSS = y'Wy - 2 c'b + c'Gc`` in the rotated coordinates; the
-        result has shape (rows, len(alphas)).
-        """
-        d = self.denominators(np.atleast_1d(alphas))
-        factor = 2.0 / d - self.mu / d**2
-        return (np.asarray(rotated) ** 2) @ factor.T
-
-    def default_alphas(self, n_alphas=25, low=1e-8, high=1e4):
-        """Log-spaced candidate alphas scaled to the problem."""
-        return self.scale * np.logspace(np.log10(low), np.log10(high), n_alphas)
 
 
 def gcv_score(rss, edf, n_obs, total_weight=None):
@@ -197,12 +107,18 @@ def merge(*stats):
     Centred cross products (from :func:`centered_cross_products`) are
     combined by the exact pairwise update instead of summed.
     """
+    if "x_exp" in stats[0]:  # scaled (scaled_statistics): one scale first
+        x_exp = np.maximum.reduce([np.asarray(s["x_exp"]) for s in stats])
+        x_exp = int(x_exp) if x_exp.ndim == 0 else x_exp
+        y_exp = max(int(s["y_exp"]) for s in stats)
+        stats = [rescaled(s, x_exp, y_exp) for s in stats]
     if "czz" in stats[0]:
         return _merge_centered(*stats)
     out = dict(stats[0])
     for s in stats[1:]:
         for key in out:
-            out[key] = out[key] + s[key]
+            if key not in ("x_exp", "y_exp"):  # equal after rescaling
+                out[key] = out[key] + s[key]
     return out
 
 
@@ -413,17 +329,114 @@ def power_of_two_scale(*arrays):
     values near 1e300 and normal for values near 1e-300; a power of two
     changes no digit, so fits on ``x / s`` times ``s`` equal fits on ``x``.
     """
+    exponent = data_exponent(*arrays)
+    return 1.0 if exponent == ZERO_EXPONENT else float(np.ldexp(1.0, exponent))
+
+
+#: :func:`data_exponent` of all-zero data: below every float64 exponent, so
+#: merging takes the other blocks' scale (zeros stay zeros at any scale)
+ZERO_EXPONENT = -1100
+
+
+def data_exponent(*arrays):
+    """The integer ``e`` with ``max |x| / 2**e`` in [0.5, 1), ignoring NaN
+    and inf (:data:`ZERO_EXPONENT` when every value is 0).
+
+    ``np.ldexp(x, -e)`` is then ``x`` divided by a power of two: exact, and
+    defined even where ``2**e`` itself would overflow (values near 1.8e308).
+    """
     top = 0.0
     for a in arrays:
         a = np.asarray(a, dtype=np.float64)
         if a.size:
             with np.errstate(invalid="ignore"):
-                m = np.nanmax(np.abs(a)) if np.isnan(a).any() else np.max(np.abs(a))
-            if np.isfinite(m):
-                top = max(top, float(m))
+                m = np.max(np.abs(a), where=np.isfinite(a), initial=0.0)
+            top = max(top, float(m))
     if top == 0.0:
-        return 1.0
-    return float(np.ldexp(1.0, np.frexp(top)[1]))
+        return ZERO_EXPONENT
+    return int(np.frexp(top)[1])
+
+
+def scale_down(a, exponent):
+    """``a / 2**exponent`` in float64, exactly (no-op for all-zero data)."""
+    a = np.asarray(a, dtype=np.float64)
+    return a if exponent == ZERO_EXPONENT else np.ldexp(a, -exponent)
+
+
+#: ``(p, q)`` of each scaled statistic: it was formed from ``x / 2**ex`` and
+#: ``y / 2**ey`` and so carries the factor ``2**(-p ex - q ey)``. The keys of
+#: :func:`cross_products`, :func:`centered_cross_products` and the
+#: curve-response statistics (``yproj``; the concurrent model's per-point
+#: ``x``, ``xx``, ``y``, ``xy``); ``n`` and ``sw`` carry no unit.
+SCALE_POWERS = {
+    "z_sum": (1, 0), "y_sum": (0, 1), "zz": (2, 0), "zy": (1, 1), "yy": (0, 2),
+    "czz": (2, 0), "czy": (1, 1), "cyy": (0, 2), "yproj": (0, 2),
+    "x": (1, 0), "xx": (2, 0), "y": (0, 1), "xy": (1, 1),
+}
+
+#: statistics that are counts, not sums of data
+_UNITLESS = ("n", "sw", "x_exp", "y_exp")
+
+
+def scaled_statistics(statistics, X, y, sample_weight=None, **kwargs):
+    """``statistics(X / 2**ex, y / 2**ey, sample_weight, **kwargs)`` with the
+    power-of-two exponents of X and y (:func:`data_exponent`) stored as
+    ``x_exp`` and ``y_exp``.
+
+    Sums of squares of data near 1e300 would overflow and of data near
+    1e-300 underflow; of the scaled data they cannot. Statistics of blocks
+    with different exponents merge exactly (:func:`merge` brings them to the
+    larger exponents by powers of two), so the scale never changes a digit.
+    """
+    ex, ey = data_exponent(X), data_exponent(y)
+    stats = statistics(scale_down(X, ex), scale_down(y, ey), sample_weight, **kwargs)
+    stats.update(x_exp=ex, y_exp=ey)
+    return stats
+
+
+def rescaled(stats, x_exp, y_exp):
+    """Scaled statistics brought to the exponents ``(x_exp, y_exp)``, by
+    powers of two (exact unless the values fall below float64's normal
+    range, where they are negligible beside the data that set the scale).
+
+    ``x_exp`` is one exponent for all columns of the design, or one per
+    column (then ``z_sum`` scales per column, ``zz`` by the sum of its row's
+    and column's, ``zy`` by its row's).
+    """
+    dx = np.asarray(stats["x_exp"]) - np.asarray(x_exp)
+    dy = int(stats["y_exp"]) - int(y_exp)
+    out = dict(stats, x_exp=x_exp, y_exp=y_exp)
+    if not np.any(dx) and dy == 0:
+        return out
+    for key, value in stats.items():
+        if key in _UNITLESS:
+            continue
+        if key not in SCALE_POWERS:
+            raise KeyError(f"the statistic {key!r} has no declared scale (SCALE_POWERS)")
+        p, q = SCALE_POWERS[key]
+        if dx.ndim == 0 or p == 0:
+            shift = p * dx
+        elif p == 2:
+            shift = dx[:, None] + dx[None, :]
+        else:  # one design index: the first axis of a matrix, the only of a vector
+            shift = dx if np.ndim(value) == 1 else dx[:, None]
+        out[key] = np.ldexp(value, (shift + q * dy).astype(np.int64))
+    return out
+
+
+def to_data_units(value, stats, x_power, y_power):
+    """A quantity computed from scaled statistics in the data's units:
+    ``value * 2**(x_power ex + y_power ey)`` (coefficients ``(-1, 1)``,
+    intercepts ``(0, 1)``, variances ``(0, 2)``, ...); unchanged for
+    statistics without exponents. Per-column exponents ``ex`` broadcast
+    along the last axis. May overflow to inf: the caller checks."""
+    if "x_exp" not in stats:
+        return value
+    exponent = np.asarray(y_power * stats["y_exp"])
+    if np.any(x_power):  # (x_exp may be per column: only coefficients carry it)
+        exponent = exponent + np.asarray(x_power) * np.asarray(stats["x_exp"])
+    with np.errstate(over="ignore"):
+        return np.ldexp(value, exponent.astype(np.int64))
 
 
 class SplitPath:
@@ -526,8 +539,19 @@ class SplitPath:
         return d
 
     def rotate(self, rhs):
-        """Rotated right-hand sides ``b U``, one row per right-hand side."""
-        return np.asarray(rhs) @ self.eigvecs
+        """Rotated right-hand sides ``b U``, one row per right-hand side.
+
+        Directions the data do not see (``s`` set to 0: at rounding level)
+        get exactly 0, their value in exact arithmetic (``u'Gu = 0`` means
+        ``Z u = 0``, so ``b'u = y'W Z u = 0``). Their rounding noise would
+        otherwise become coefficients ``r / lam`` at small alpha and a
+        spurious drop of the residual sum of squares in GCV.
+        """
+        rotated = np.asarray(rhs) @ self.eigvecs
+        unseen = self.g == 0
+        if unseen.any():
+            rotated[..., unseen] = 0.0
+        return rotated
 
     def coef(self, rotated, alpha):
         """Coefficients ``(G + lam P)^{-1} b`` as rows; alpha scalar or per row."""

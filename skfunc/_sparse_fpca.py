@@ -626,6 +626,14 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         grid = self.grid_
         domain = (grid[0], grid[-1])
         scale = self._value_scale
+        if scale < 1e-145:  # variances (scale^2) below float64's normal range
+            raise ValueError(
+                "The variances of X are not representable: its observed values "
+                "vary by so little that their squares fall below float64's range "
+                "(about 1e-290), so explained_variance_ and noise_variance_ would "
+                "be 0 and the scores undefined. Rescale X, for example to units "
+                "near 1."
+            )
         if self.n_samples_seen_ < 2:
             raise ValueError(
                 "SparseFunctionalPCA needs at least 2 samples (curves) to estimate "
