@@ -5,7 +5,7 @@ import numpy as np
 from sklearn.utils.validation import check_is_fitted
 
 from ._alpha import check_alpha, reml_score
-from ._blocks import compute_statistics, is_dask_array
+from ._blocks import compute_statistics, is_dask_array, output_dtype
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._fit import check_finite_fit
@@ -321,4 +321,7 @@ class ConcurrentFunctionRidge(CurveResponseRegressor):
         """
         check_is_fitted(self)
         X = validate_curves(self, X, reset=False)
-        return self.intercept_function_ + self._input_at_response(X) * self.coef_function_
+        # float64 arithmetic on float32 rows is exact enough; the result
+        # keeps the input's precision
+        fitted = self.intercept_function_ + self._input_at_response(X) * self.coef_function_
+        return fitted.astype(output_dtype(X), copy=False)

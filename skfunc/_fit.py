@@ -36,7 +36,7 @@ import numpy as np
 
 from ._blocks import compute_statistics
 from ._docstrings import fill_doc
-from ._estimator import ShortReprMixin
+from ._estimator import PreservesFloat32Mixin, ShortReprMixin
 from ._penalized import merge as merge_sums
 from ._validation import check_batch_grid
 
@@ -125,7 +125,7 @@ class AdditiveFitMixin(ShortReprMixin):
         return self
 
 
-class AdditiveTransformerMixin(AdditiveFitMixin):
+class AdditiveTransformerMixin(PreservesFloat32Mixin, AdditiveFitMixin):
     """The skeleton for transformers: ``fit(X, y=None)``, ``partial_fit(X, y=None)``."""
 
     @fill_doc

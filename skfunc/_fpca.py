@@ -33,7 +33,7 @@ from threadpoolctl import threadpool_limits
 
 from ._bases import gram_sqrt
 from ._basis_features import orthonormal_operators
-from ._blocks import chunked_matmul
+from ._blocks import chunked_matmul, output_dtype
 from ._dask import check_rows
 from ._moments import moments, scale_moments
 
@@ -56,9 +56,7 @@ class ComponentCurvesMixin:
         """
         check_is_fitted(self)
         X = check_rows(X, self.n_components_, "scores per row (n_components_)")
-        curves = chunked_matmul(X, self.components_)
-        curves += self.mean_
-        return curves
+        return chunked_matmul(X, self.components_, self.mean_, dtype=output_dtype(X))
 
 
 class CurveCoordinates:

@@ -6,7 +6,7 @@ from functools import partial
 import numpy as np
 from sklearn.utils.validation import check_is_fitted
 
-from ._blocks import chunked_matmul, is_dask_array
+from ._blocks import chunked_matmul, is_dask_array, output_dtype
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._fit import AdditiveRegressorMixin
@@ -181,4 +181,4 @@ class FunctionOnFunctionRidge(AdditiveRegressorMixin, CurveResponseRegressor):
         else:
             intercept, coef = self.coef_functions_at(eval_points)
         w = quadrature_weights(self.grid_, self.quadrature)
-        return chunked_matmul(X, coef * w[:, None]) + intercept
+        return chunked_matmul(X, coef * w[:, None], intercept, dtype=output_dtype(X))

@@ -3,7 +3,7 @@
 import numpy as np
 from sklearn.utils.validation import check_is_fitted, validate_data
 
-from ._blocks import affine_block, apply_rows, is_dask_array
+from ._blocks import affine_block, apply_rows, is_dask_array, output_dtype
 from ._dask import validate_dask
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
@@ -160,10 +160,10 @@ class FunctionOnScalarRidge(AdditiveRegressorMixin, CurveResponseRegressor):
         if is_dask_array(X):
             X = validate_dask(self, X, reset=False, curves=False)
         else:
-            X = validate_data(self, X, reset=False, dtype=np.float64)
+            X = validate_data(self, X, reset=False, dtype=[np.float64, np.float32])
         if eval_points is None:
             intercept, coef = self.intercept_function_, self.coef_function_
         else:
             intercept, coef = self.coef_functions_at(eval_points)
-        return apply_rows(affine_block, X, intercept.size, coef=coef,
+        return apply_rows(affine_block, X, intercept.size, dtype=output_dtype(X), coef=coef,
                           intercept=intercept)

@@ -185,7 +185,7 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
         -------
         y_pred : ndarray of shape (n_samples,) or (n_samples, n_targets)
         """
-        return self._linear_predictor(X)
+        return self._linear_predictor(X, keep_float32=True)
 
 
 @fill_doc

@@ -52,9 +52,9 @@ from ._alpha import (
     choose_alpha,
 )
 from ._bases import BSplineBasis, default_n_basis, gram_sqrt
-from ._blocks import row_blocks
+from ._blocks import output_dtype, row_blocks
 from ._docstrings import fill_doc
-from ._estimator import ShortReprMixin, store_init_params
+from ._estimator import PreservesFloat32Mixin, ShortReprMixin, store_init_params
 from ._fit import check_finite_fit
 from ._fpca import ComponentCurvesMixin, _single_thread, sign_convention
 from ._penalized import (
@@ -229,7 +229,7 @@ def covariance_sums(rows, bins, residuals, n_rows, n_bins):
 
 @fill_doc
 class SparseFunctionalPCA(ShortReprMixin, ComponentCurvesMixin, ClassNamePrefixFeaturesOutMixin,
-                          TransformerMixin, BaseEstimator):
+                          PreservesFloat32Mixin, TransformerMixin, BaseEstimator):
     """Functional principal components of sparse, irregularly observed curves.
 
     Each row of ``X`` is a curve observed at a few of the grid's points:
@@ -683,7 +683,8 @@ class SparseFunctionalPCA(ShortReprMixin, ComponentCurvesMixin, ClassNamePrefixF
             ``E[xi_k | observations]`` under the fitted model (the best
             linear predictor).
         """
-        return self._conditional(self._validate(X))[0]
+        X = self._validate(X)
+        return self._conditional(X)[0].astype(output_dtype(X), copy=False)
 
     def predict_curves(self, X, *, level=0.95, eval_points=None):
         """Predicted whole curves with pointwise bands.
