@@ -75,10 +75,10 @@ def _check_eval_points(points):
     return check_grid(out, name="eval_points")
 
 
-def _products(X, first_T, second_T=None):
+def _products(X, first_T, second_T=None, dtype=np.float64):
     """``X @ first_T`` (then ``@ second_T``) in row chunks, and a mask of the
-    rows of X that hold NaN; float32 for float32 X (computed in float32 by
-    :class:`skfunc._blocks.Float32Product`), else float64.
+    rows of X that hold NaN; in float64, or with ``dtype=np.float32`` (the
+    transform of float32 X) in float32 by :class:`skfunc._blocks.Float32Product`.
 
     Both products run chunk by chunk, so X is read once and the (rows, K)
     intermediate stays small. An extra column of ones in ``first_T`` gives
@@ -90,7 +90,6 @@ def _products(X, first_T, second_T=None):
     n, m = X.shape
     extended = np.column_stack([first_T, np.ones(m)])
     width = first_T.shape[1] if second_T is None else second_T.shape[1]
-    dtype = output_dtype(X)
     out = np.empty((n, width), dtype=dtype)
     missing = np.empty(n, dtype=bool)
     if dtype == np.float32:
@@ -622,7 +621,8 @@ class CurveSmoother(PenalizedFitMixin, AdditiveTransformerMixin, TransformerMixi
         if self.per_curve:
             return chunked_matmul(self._per_curve(X)[0], self.evaluation_.T,
                                   dtype=output_dtype(X))
-        out, missing = _products(X, self.projection_.T, self.evaluation_.T)
+        out, missing = _products(X, self.projection_.T, self.evaluation_.T,
+                                 output_dtype(X))
         if missing.any():
             rows = np.flatnonzero(missing)
             scale = power_of_two_scale(X[rows])
