@@ -225,7 +225,12 @@ class Float32Product:
     def __call__(self, block, out=None):
         block = np.asarray(block, dtype=np.float32)
         if self.center is not None:
-            block = block - self.center
+            # one buffer for every block: fresh memory per block would cost
+            # a page fault per 4 KiB, as much as the subtraction itself
+            buffer = getattr(self, "_buffer", None)
+            if buffer is None or buffer.shape[0] < block.shape[0]:
+                buffer = self._buffer = np.empty_like(block)
+            block = np.subtract(block, self.center, out=buffer[: block.shape[0]])
         out = np.matmul(block, self.operator32, out=out)
         out += self.offset32
         return out
