@@ -54,6 +54,10 @@ EDF_MARGIN = 0.05
 
 CRITERIA = ("gcv", "reml")
 
+#: ``_parameter_constraints`` of ``alpha`` and ``criterion`` in every
+#: estimator that chooses alpha by GCV or REML
+ALPHA_CONSTRAINTS = {"alpha": ALPHA_CONSTRAINT, "criterion": [StrOptions(set(CRITERIA))]}
+
 _ALPHA_MESSAGE = (
     "alpha must be 'auto' (choose from the data), a number >= 0, or a non-empty "
     "1-D array of finite candidates > 0; got {!r}."
@@ -130,6 +134,16 @@ def candidate_alphas(path, n_alphas=N_ALPHAS, margin=EDF_MARGIN):
     Returned in user units (ascending).
     """
     return candidates_from_eigenvalues(path.s, path.scale, n_alphas, margin)
+
+
+def candidates_for(alpha, path, n_alphas=N_ALPHAS):
+    """The candidates for a user ``alpha`` (:func:`check_alpha`): the default
+    :func:`candidate_alphas` of ``path`` for ``"auto"``, the given array, or
+    ``[alpha]`` for a number."""
+    value = check_alpha(alpha)
+    if value is AUTO:
+        return candidate_alphas(path, n_alphas)
+    return np.atleast_1d(value)
 
 
 def candidates_from_eigenvalues(s, scale, n_alphas=N_ALPHAS, margin=EDF_MARGIN):
@@ -320,7 +334,7 @@ def choose_alpha(path, rotated, yy, n_obs, alpha=AUTO, *, criterion="gcv",
         return {"alpha": value, "alphas": np.array([value]), "criterion": None, "index": 0}
     if criterion not in CRITERIA:
         raise ValueError(f"criterion must be one of {CRITERIA}; got {criterion!r}.")
-    alphas = candidate_alphas(path, n_alphas) if value is AUTO else value
+    alphas = candidates_for(value, path, n_alphas)
     if criterion == "gcv":
         scores = gcv_criterion(path, rotated, yy, n_obs, alphas, total_weight=total_weight,
                                extra_edf=extra_edf, pooled=pooled)

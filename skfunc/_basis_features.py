@@ -8,7 +8,7 @@ from sklearn.utils.validation import (
     check_is_fitted,
 )
 
-from ._alpha import ALPHA_CONSTRAINT, CRITERIA
+from ._alpha import ALPHA_CONSTRAINTS
 from ._bases import gram_sqrt
 from ._blocks import chunked_matmul, output_dtype
 from ._dask import check_rows
@@ -65,8 +65,6 @@ class BasisFeatures(PenalizedFitMixin, AdditiveTransformerMixin, TransformerMixi
 
     Attributes
     ----------
-    grid_ : ndarray of shape (n_features,)
-        The grid used at fit.
     %(alpha_attributes)s
     edf_ : float
         Effective degrees of freedom of the fit at ``alpha_``.
@@ -127,8 +125,7 @@ class BasisFeatures(PenalizedFitMixin, AdditiveTransformerMixin, TransformerMixi
 
     _parameter_constraints = {
         **BASIS_CONSTRAINTS,
-        "alpha": ALPHA_CONSTRAINT,
-        "criterion": [StrOptions(set(CRITERIA))],
+        **ALPHA_CONSTRAINTS,
         "data_term": [StrOptions(set(DATA_TERMS))],
     }
 

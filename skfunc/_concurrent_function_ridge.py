@@ -2,16 +2,13 @@
 points, ``Y_i(t) = beta_0(t) + beta_1(t) X_i(t)``."""
 
 import numpy as np
-from sklearn.utils.validation import check_is_fitted
 
 from ._alpha import check_alpha, reml_score
-from ._blocks import compute_statistics, is_dask_array, output_dtype
+from ._blocks import compute_statistics, output_dtype
 from ._docstrings import fill_doc
-from ._estimator import store_init_params
 from ._fit import check_finite_fit
 from ._function_response import (
-    RESPONSE_PARAMETER_CONSTRAINTS,
-    CurveResponseRegressor,
+    CurveInputResponseRegressor,
     check_in_domain,
     choose_from_scores,
     free_penalty,
@@ -19,12 +16,11 @@ from ._function_response import (
     validate_response,
 )
 from ._penalized import NotIdentifiableError, SplitPath, gcv_score, penalty_for
-from ._validation import validate_curves
 from ._weights import check_sample_weight
 
 
 @fill_doc
-class ConcurrentFunctionRidge(CurveResponseRegressor):
+class ConcurrentFunctionRidge(CurveInputResponseRegressor):
     """Concurrent functional regression: a response curve from an input curve
     at the same points.
 
@@ -65,12 +61,6 @@ class ConcurrentFunctionRidge(CurveResponseRegressor):
     ----------
     coef_function_ : ndarray of shape (n_response_points,)
         ``beta_1(t)`` on ``response_grid_``.
-    grid_ : ndarray of shape (n_features,)
-        The input grid used at fit.
-    response_grid_ : ndarray of shape (n_response_points,)
-        The response grid used at fit.
-    intercept_function_ : ndarray of shape (n_response_points,)
-        ``beta_0(t)`` on ``response_grid_``.
     basis_coef_ : ndarray of shape (2, n_basis_)
         Basis coefficients of ``beta_0`` (row 0) and ``beta_1``.
     coef_covariance_ : ndarray of shape (2 * n_basis_, 2 * n_basis_)
@@ -119,16 +109,6 @@ class ConcurrentFunctionRidge(CurveResponseRegressor):
     (3, 5)
     """
 
-    _parameter_constraints = {
-        **RESPONSE_PARAMETER_CONSTRAINTS,
-        "grid": ["array-like", None],
-    }
-
-    def __init__(self, alpha="auto", *, criterion="gcv", basis="bspline", n_basis=None,
-                 degree=3, interior_knots=None, penalty_order=2, period=None, grid=None,
-                 response_grid=None, quadrature="trapezoid"):
-        store_init_params(self, locals())
-
     def __sklearn_tags__(self):
         tags = super().__sklearn_tags__()
         # The response at t is paired with the input at t only: a one-column
@@ -167,10 +147,7 @@ class ConcurrentFunctionRidge(CurveResponseRegressor):
 
     def _validate_batch(self, X, y, sample_weight, first):
         check_alpha(self.alpha)
-        if is_dask_array(X) or is_dask_array(y):
-            X, y_valid = validate_curves(self, X, y, reset=first, multi_output=True)
-        else:
-            X, y_valid = validate_curves(self, X, reset=first), y
+        X, y_valid = self._validate_inputs(X, y, reset=first)
         if X.shape[0] < 2:
             raise ValueError(
                 f"ConcurrentFunctionRidge needs at least 2 curves to tell beta_0 "
@@ -189,11 +166,11 @@ class ConcurrentFunctionRidge(CurveResponseRegressor):
             return self.grid_.copy()
         return np.linspace(self.grid_[0], self.grid_[-1], n_points)
 
-    def _input_at_response(self, X):
-        """``X_i(t)`` at the response points: the columns themselves on the
+    def _input_at(self, X, points):
+        """``X_i(t)`` at the points ``t``: the columns themselves on the
         input grid, else linear interpolation between the two neighbouring
         columns (numpy or dask rows)."""
-        grid, points = self.grid_, self.response_grid_
+        grid = self.grid_
         if np.array_equal(grid, points):
             return X
         left = np.clip(np.searchsorted(grid, points, side="right") - 1, 0,
@@ -209,7 +186,7 @@ class ConcurrentFunctionRidge(CurveResponseRegressor):
         point, X read there): all sums, merged key by key
         (:func:`skfunc._penalized.merge`).
         """
-        X = self._input_at_response(np.asarray(X, dtype=np.float64))
+        X = self._input_at(np.asarray(X, dtype=np.float64), self.response_grid_)
         y = np.asarray(y, dtype=np.float64)
         w = np.ones(X.shape[0]) if sample_weight is None else np.asarray(sample_weight)
         return {
@@ -280,7 +257,7 @@ class ConcurrentFunctionRidge(CurveResponseRegressor):
     def _score_products(self, X, y, sample_weight):
         """``sum w g g'`` of the curves' score contributions at the fit,
         ``g_i = (Phi' W e_i, Phi' W (X_i e_i))`` (key ``meat``; a sum)."""
-        X = self._input_at_response(np.asarray(X, dtype=np.float64))
+        X = self._input_at(np.asarray(X, dtype=np.float64), self.response_grid_)
         basis, weights = self._response_basis()
         phi_w = basis.evaluate(self.response_grid_) * weights[:, None]
         resid = np.asarray(y, dtype=np.float64) - self.intercept_function_
@@ -306,22 +283,10 @@ class ConcurrentFunctionRidge(CurveResponseRegressor):
     def _coef_shape(self, n_points):
         return (n_points,)
 
-    def predict(self, X):
-        """Predicted response curves ``beta_0 + beta_1 X`` on ``response_grid_``.
-
-        Parameters
-        ----------
-        X : array-like or dask array of shape (n_samples, n_features)
-            Input curves on ``grid_``.
-
-        Returns
-        -------
-        y_pred : ndarray of shape (n_samples, n_response_points)
-            A lazy dask array when X is one.
-        """
-        check_is_fitted(self)
-        X = validate_curves(self, X, reset=False)
-        # float64 arithmetic on float32 rows is exact enough; the result
-        # keeps the input's precision
-        fitted = self.intercept_function_ + self._input_at_response(X) * self.coef_function_
-        return fitted.astype(output_dtype(X), copy=False)
+    def _design_effect(self, X, coef, points, offset=None):
+        """``beta_1(t) X(t)`` (plus ``offset``), with X read at the points
+        ``t``; computed in float64, returned in X's precision."""
+        effect = self._input_at(X, points) * coef
+        if offset is not None:
+            effect = effect + offset
+        return effect.astype(output_dtype(X), copy=False)

@@ -109,8 +109,6 @@ class CurveOutlierDetector(ShortReprMixin, OutlierMixin, BaseEstimator):
     offset_ : float
         Scores below it are outliers: ``decision_function = score_samples -
         offset_``.
-    grid_ : ndarray of shape (n_features,)
-        The grid used at fit.
     median_ : ndarray of shape (n_features,)
         Pointwise median of the training curves.
     scale_ : ndarray of shape (n_features,)
@@ -340,17 +338,7 @@ class CurveOutlierDetector(ShortReprMixin, OutlierMixin, BaseEstimator):
 
     # -------------------------------------------------------------- scoring
     def _validate(self, X, reset):
-        X = validate_curves(self, X, reset=reset, allow_nan=True)
-        X = np.asarray(X, dtype=np.float64)
-        if np.isnan(X).any():
-            row, col = np.argwhere(np.isnan(X))[0]
-            raise ValueError(
-                f"X contains NaN (first at row {row}, column {col}): "
-                "CurveOutlierDetector needs complete curves. Fill missing values "
-                "first, for example with skfunc.preprocessing.CurveSmoother in a "
-                "pipeline."
-            )
-        return X
+        return np.asarray(validate_curves(self, X, reset=reset), dtype=np.float64)
 
     def _outlyingness(self, X, weights):
         return magnitude_shape_values(X, self.median_, self.scale_, weights)

@@ -123,10 +123,6 @@ grid : array-like of shape (n_features,), default=None
 input_features : array-like of str or None, default=None
     Input feature names, validated against ``feature_names_in_``.
 """,
-    "fitted_grid_X": """
-X : array-like of shape (n_samples, n_features)
-    Curves on the fitted grid.
-""",
     "quadrature": """
 quadrature : {"trapezoid", "simpson"}, default="trapezoid"
     Quadrature rule of the integrals over the grid (see
@@ -139,7 +135,16 @@ response_grid : array-like of shape (n_response_points,), default=None
     one-column ``y`` is a response of one point: a scalar outcome, fitted
     by least squares.
 """,
+    "eval_points_response": """
+eval_points : array-like of shape (n_points,), default=None
+    Where to evaluate the curves, inside the response domain; None means
+    ``response_grid_``.
+""",
     "curve_response_attributes": """
+response_grid_ : ndarray of shape (n_response_points,)
+    The response grid used at fit; predictions are on it by default.
+intercept_function_ : ndarray of shape (n_response_points,)
+    ``beta_0(t)`` on ``response_grid_``.
 %(alpha_attributes)s
 edf_ : float
     Effective degrees of freedom at ``alpha_``.
@@ -152,12 +157,17 @@ n_samples_seen_ : int
     :meth:`partial_fit` since the first).
 """,
     "curve_input_attributes": """
+grid_ : ndarray of shape (n_features,)
+    The grid of the columns of ``X`` used at fit (of the curve columns when
+    there are scalar covariates).
 n_features_in_ : int
     Number of grid points (columns of ``X``) seen during fit.
 feature_names_in_ : ndarray of shape (n_features_in_,)
     Column names of ``X`` when they are all strings.
 """,
     "curve_response_references": """
+References
+----------
 Ramsay, J. O. and Silverman, B. W. (2005). *Functional Data Analysis*,
 2nd ed., ch. 13-16. Springer.
 
@@ -250,6 +260,8 @@ feature_names_in_ : ndarray of shape (n_features_in_,)
     Column names of X when they are all strings.
 """,
     "scalar_outcome_notes": """
+Notes
+-----
 The fit minimises ``sum_i w_i (y_i - b0 - int x_i beta - gamma' s_i)^2 +
 alpha int (D^q beta)^2``; with the identity penalty (``penalty_order=0``)
 in an orthonormal basis this is :class:`sklearn.linear_model.Ridge` on
@@ -271,6 +283,8 @@ workers block by block and predicted lazily (alpha by GCV only).
 %(cautions)s
 """,
     "scalar_outcome_references": """
+References
+----------
 Ramsay, J. O. and Silverman, B. W. (2005). *Functional Data Analysis*,
 2nd ed., ch. 15. Springer.
 
@@ -306,6 +320,16 @@ grid : int or array-like of shape (n_points,), default=None
     "dataset_random_state": """
 random_state : int, RandomState instance or None, default=None
     Seed.
+""",
+    "flagged_curves": """
+outliers : ndarray of bool of shape (n_curves,)
+    Which curves are flagged.
+labels : list of str, default=None
+    One label per curve; None means the row numbers.
+kinds : ndarray of str of shape (n_curves,), default=None
+    How each flagged curve is unusual (see
+    :meth:`skfunc.outliers.CurveOutlierDetector.outlier_kind`); shown
+    in the legend when given.
 """,
     "display_labels_ax": """
 labels : list of str, default=None

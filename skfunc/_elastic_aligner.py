@@ -55,7 +55,6 @@ class ElasticAligner(AlignerBase):
 
     Attributes
     ----------
-    grid_ : ndarray of shape (n_features,)
     template_ : ndarray of shape (n_features,)
         Template curve: the mean of the aligned training curves (or the
         given template).

@@ -4,23 +4,18 @@ an integral (tensor-product) coefficient surface."""
 from functools import partial
 
 import numpy as np
-from sklearn.utils.validation import check_is_fitted
 
-from ._blocks import chunked_matmul, is_dask_array, output_dtype
+from ._blocks import chunked_matmul, output_dtype
 from ._docstrings import fill_doc
-from ._estimator import store_init_params
 from ._fit import AdditiveRegressorMixin
-from ._function_response import (
-    RESPONSE_PARAMETER_CONSTRAINTS,
-    CurveResponseRegressor,
-)
+from ._function_response import CurveInputResponseRegressor
 from ._grid import quadrature_weights
 from ._penalized import penalty_for
-from ._validation import basis_for, validate_curves
+from ._validation import basis_for
 
 
 @fill_doc
-class FunctionOnFunctionRidge(AdditiveRegressorMixin, CurveResponseRegressor):
+class FunctionOnFunctionRidge(AdditiveRegressorMixin, CurveInputResponseRegressor):
     """Function-on-function regression through a coefficient surface.
 
     Each row of ``X`` is an input curve on ``grid``, each row of ``y`` a
@@ -46,14 +41,8 @@ class FunctionOnFunctionRidge(AdditiveRegressorMixin, CurveResponseRegressor):
 
     Attributes
     ----------
-    grid_ : ndarray of shape (n_features,)
-        The input grid used at fit.
-    response_grid_ : ndarray of shape (n_response_points,)
-        The response grid used at fit; predictions are on it.
     coef_function_ : ndarray of shape (n_features, n_response_points)
         ``beta(s, t)`` on ``grid_`` x ``response_grid_``.
-    intercept_function_ : ndarray of shape (n_response_points,)
-        ``beta_0(t)`` on ``response_grid_``.
     basis_coef_ : ndarray of shape (n_basis_input + 1, n_basis_)
         Coefficients in the response basis: row 0 the intercept, then the
         rows of ``B``, one per input basis function.
@@ -89,8 +78,6 @@ class FunctionOnFunctionRidge(AdditiveRegressorMixin, CurveResponseRegressor):
     simultaneous.
     %(cautions)s
 
-    References
-    ----------
     %(curve_response_references)s
 
     Examples
@@ -112,17 +99,7 @@ class FunctionOnFunctionRidge(AdditiveRegressorMixin, CurveResponseRegressor):
     (3, 41)
     """
 
-    _parameter_constraints = {
-        **RESPONSE_PARAMETER_CONSTRAINTS,
-        "grid": ["array-like", None],
-    }
-
     _batch_grids = (("grid", "grid_"), ("response_grid", "response_grid_"))
-
-    def __init__(self, alpha="auto", *, criterion="gcv", basis="bspline", n_basis=None,
-                 degree=3, interior_knots=None, penalty_order=2, period=None, grid=None,
-                 response_grid=None, quadrature="trapezoid"):
-        store_init_params(self, locals())
 
     def __sklearn_tags__(self):
         tags = super().__sklearn_tags__()
@@ -131,11 +108,6 @@ class FunctionOnFunctionRidge(AdditiveRegressorMixin, CurveResponseRegressor):
         # ten points) cannot isolate.
         tags.regressor_tags.poor_score = True
         return tags
-
-    def _validate_inputs(self, X, y, reset):
-        if is_dask_array(X) or is_dask_array(y):
-            return validate_curves(self, X, y, reset=reset, multi_output=True)
-        return validate_curves(self, X, reset=reset), y
 
     def _input_basis(self):
         return basis_for(self, self.grid_, cap=self._unpenalized())
@@ -158,27 +130,8 @@ class FunctionOnFunctionRidge(AdditiveRegressorMixin, CurveResponseRegressor):
         psi = basis_for(self, self.grid_, cap=False).evaluate(self.grid_)
         return np.column_stack([np.zeros(psi.shape[0]), psi])
 
-    def predict(self, X, eval_points=None):
-        """Predicted response curves.
-
-        Parameters
-        ----------
-        X : array-like of shape (n_samples, n_features)
-            Input curves on ``grid_``.
-        eval_points : array-like of shape (n_points,), default=None
-            Where to evaluate the curves, inside the response domain; None
-            means ``response_grid_``.
-
-        Returns
-        -------
-        y_pred : ndarray of shape (n_samples, n_response_points or n_points)
-            A lazy dask array when X is one.
-        """
-        check_is_fitted(self)
-        X = validate_curves(self, X, reset=False)
-        if eval_points is None:
-            intercept, coef = self.intercept_function_, self.coef_function_
-        else:
-            intercept, coef = self.coef_functions_at(eval_points)
+    def _design_effect(self, X, coef, points, offset=None):
+        """``int X(s) beta(s, t) ds`` (plus ``offset``) by the quadrature of
+        ``grid_``."""
         w = quadrature_weights(self.grid_, self.quadrature)
-        return chunked_matmul(X, coef * w[:, None], intercept, dtype=output_dtype(X))
+        return chunked_matmul(X, coef * w[:, None], offset, dtype=output_dtype(X))

@@ -1,9 +1,9 @@
 """FunctionOnScalarRidge: curve-valued responses from scalar covariates."""
 
 import numpy as np
-from sklearn.utils.validation import check_is_fitted, validate_data
+from sklearn.utils.validation import validate_data
 
-from ._blocks import affine_block, apply_rows, is_dask_array, output_dtype
+from ._blocks import chunked_matmul, is_dask_array, output_dtype
 from ._dask import validate_dask
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
@@ -40,12 +40,8 @@ class FunctionOnScalarRidge(AdditiveRegressorMixin, CurveResponseRegressor):
 
     Attributes
     ----------
-    response_grid_ : ndarray of shape (n_response_points,)
-        The response grid used at fit; predictions are on it.
     coef_function_ : ndarray of shape (n_features_in_, n_response_points)
         ``beta_j(t)`` on ``response_grid_``, one row per covariate.
-    intercept_function_ : ndarray of shape (n_response_points,)
-        ``beta_0(t)`` on ``response_grid_``.
     basis_coef_ : ndarray of shape (n_features_in_ + 1, n_basis_)
         Basis coefficients of the intercept (row 0) and of the coefficient
         functions.
@@ -86,8 +82,6 @@ class FunctionOnScalarRidge(AdditiveRegressorMixin, CurveResponseRegressor):
     and are not simultaneous.
     %(cautions)s
 
-    References
-    ----------
     %(curve_response_references)s
 
     Examples
@@ -122,12 +116,12 @@ class FunctionOnScalarRidge(AdditiveRegressorMixin, CurveResponseRegressor):
                  response_grid=None, quadrature="trapezoid"):
         store_init_params(self, locals())
 
-    def _validate_inputs(self, X, y, reset):
-        if is_dask_array(X) or is_dask_array(y):
-            return validate_dask(self, X, y, reset=reset, multi_output=True,
-                                 curves=False)
+    def _validate_X(self, X, reset, **y_params):
+        """Scalar covariates (not curves: no grid)."""
+        if y_params or is_dask_array(X):
+            return validate_dask(self, X, reset=reset, curves=False, **y_params)
         try:
-            return validate_data(self, X, reset=reset, dtype=np.float64), y
+            return validate_data(self, X, reset=reset, dtype=[np.float64, np.float32])
         except ValueError as exc:
             explain_not_numbers(exc, X, None)
             raise
@@ -140,30 +134,5 @@ class FunctionOnScalarRidge(AdditiveRegressorMixin, CurveResponseRegressor):
         p1 = self.basis_coef_.shape[0]
         return np.eye(p1)[1:]
 
-    def predict(self, X, eval_points=None):
-        """Predicted response curves.
-
-        Parameters
-        ----------
-        X : array-like of shape (n_samples, n_features)
-            Scalar covariates.
-        eval_points : array-like of shape (n_points,), default=None
-            Where to evaluate the curves, inside the response domain; None
-            means ``response_grid_``.
-
-        Returns
-        -------
-        y_pred : ndarray of shape (n_samples, n_response_points or n_points)
-            A lazy dask array when X is one.
-        """
-        check_is_fitted(self)
-        if is_dask_array(X):
-            X = validate_dask(self, X, reset=False, curves=False)
-        else:
-            X = validate_data(self, X, reset=False, dtype=[np.float64, np.float32])
-        if eval_points is None:
-            intercept, coef = self.intercept_function_, self.coef_function_
-        else:
-            intercept, coef = self.coef_functions_at(eval_points)
-        return apply_rows(affine_block, X, intercept.size, dtype=output_dtype(X), coef=coef,
-                          intercept=intercept)
+    def _design_effect(self, X, coef, points, offset=None):
+        return chunked_matmul(X, coef, offset, dtype=output_dtype(X))

@@ -45,7 +45,6 @@ Craven, P. and Wahba, G. (1979). Smoothing noisy data with spline functions.
 import numpy as np
 from scipy.stats import norm as _normal
 from sklearn.base import BaseEstimator, RegressorMixin
-from sklearn.utils._param_validation import StrOptions
 from sklearn.utils.validation import (
     check_array,
     check_consistent_length,
@@ -53,9 +52,8 @@ from sklearn.utils.validation import (
 )
 
 from ._alpha import (
-    ALPHA_CONSTRAINT,
+    ALPHA_CONSTRAINTS,
     AUTO,
-    CRITERIA,
     best_index,
     candidates_from_eigenvalues,
     check_alpha,
@@ -63,6 +61,8 @@ from ._alpha import (
 )
 from ._blocks import chunked_matmul, is_dask_array, row_blocks
 from ._dask import check_accepts_dask
+from ._docstrings import fill_doc
+from ._estimator import store_init_params
 from ._fit import AdditiveFitMixin
 from ._grid import check_grid, grid_from_labels, quadrature_weights, resolve_grid
 from ._penalized import (
@@ -75,7 +75,13 @@ from ._penalized import (
     penalty_for,
     penalty_scale,
 )
-from ._validation import BASIS_CONSTRAINTS, basis_for, check_labels, check_level
+from ._validation import (
+    BASIS_CONSTRAINTS,
+    basis_for,
+    check_labels,
+    check_level,
+    validate_curves,
+)
 from ._weights import check_sample_weight
 
 #: eigenvalues below this fraction of the largest make a direction undetermined
@@ -85,8 +91,7 @@ _PINV_RTOL = 1e-12
 #: parameters shared by the curve-response regressors
 RESPONSE_PARAMETER_CONSTRAINTS = {
     **{key: value for key, value in BASIS_CONSTRAINTS.items() if key != "grid"},
-    "alpha": ALPHA_CONSTRAINT,
-    "criterion": [StrOptions(set(CRITERIA))],
+    **ALPHA_CONSTRAINTS,
     "response_grid": ["array-like", None],
 }
 
@@ -329,7 +334,13 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
     then the design's coefficient functions, in the response basis) with
     covariance ``coef_covariance_``. A subclass defines
 
-    * ``_validate_inputs(X, y, reset)``: validated X (and y aligned to it);
+    * ``_validate_X(X, reset, **y_params)``: validated X, or ``(X, y)``
+      validated together when ``y_params`` holds ``y``
+      (:class:`CurveInputResponseRegressor` for input curves);
+    * ``_design_effect(X, coef, points, offset=None)``: the prediction
+      minus the intercept (plus ``offset``, the intercept), from validated X
+      and ``coef`` shaped like ``coef_function_`` at the response
+      ``points``; float32 for float32 X (``skfunc._blocks.output_dtype``);
     * ``_statistics_function()`` (optional): ``_statistics`` with a linear
       ``design`` operator when the design is not X itself;
     * ``_design_geometry()``: ``(Gs, Ps)``, the Gram and roughness matrices
@@ -358,6 +369,14 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         X, y = self._validate_inputs(X, y, reset=first)
         y = validate_response(self, y, X.shape[0], reset=first)
         return X, y, check_sample_weight(sample_weight, X)
+
+    def _validate_inputs(self, X, y, reset):
+        """Validated X, and y: validated along with X when either is a dask
+        array (rows aligned, not gathered), else as given (for
+        :func:`validate_response`)."""
+        if is_dask_array(X) or is_dask_array(y):
+            return self._validate_X(X, reset=reset, y=y, multi_output=True)
+        return self._validate_X(X, reset=reset), y
 
     def _statistics(self, X, y, sample_weight=None, design=None):
         """Additive statistics of one block of rows.
@@ -546,6 +565,33 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         values = self._evaluate(self._coef_rows(), eval_points)[0]
         return intercept, values.reshape(self._coef_shape(values.shape[1]))
 
+    @fill_doc
+    def predict(self, X, eval_points=None):
+        """Predicted response curves.
+
+        Parameters
+        ----------
+        X : array-like or dask array of shape (n_samples, n_features)
+            Inputs as at fit: scalar covariates, or input curves on ``grid_``.
+        %(eval_points_response)s
+
+        Returns
+        -------
+        y_pred : ndarray of shape (n_samples, n_response_points or n_points)
+            A lazy dask array when X is one.
+        """
+        check_is_fitted(self)
+        X = self._validate_X(X, reset=False)
+        if eval_points is None:
+            points = self.response_grid_
+            intercept, coef = self.intercept_function_, self.coef_function_
+        else:
+            intercept, coef = self.coef_functions_at(eval_points)
+            points = np.asarray(eval_points, dtype=np.float64).ravel()
+        # the intercept enters the product: float32 X gives a float32
+        # prediction, centered where a large mean would cost digits
+        return self._design_effect(X, coef, points, offset=intercept)
+
     def confidence_band(self, level=0.95, intercept=False):
         """Pointwise confidence band of the coefficient functions.
 
@@ -616,3 +662,21 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
             y, y_pred, grid=self.response_grid_, quadrature=self.quadrature,
             sample_weight=sample_weight,
         )
+
+
+class CurveInputResponseRegressor(CurveResponseRegressor):
+    """A curve-response regressor whose inputs are curves on ``grid``: its
+    parameters and the validation of X."""
+
+    _parameter_constraints = {
+        **RESPONSE_PARAMETER_CONSTRAINTS,
+        "grid": ["array-like", None],
+    }
+
+    def __init__(self, alpha="auto", *, criterion="gcv", basis="bspline", n_basis=None,
+                 degree=3, interior_knots=None, penalty_order=2, period=None, grid=None,
+                 response_grid=None, quadrature="trapezoid"):
+        store_init_params(self, locals())
+
+    def _validate_X(self, X, reset, **y_params):
+        return validate_curves(self, X, reset=reset, **y_params)

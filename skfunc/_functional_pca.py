@@ -107,8 +107,6 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
 
     Attributes
     ----------
-    grid_ : ndarray of shape (n_features,)
-        The grid used at fit.
     quadrature_weights_ : ndarray of shape (n_features,)
         Quadrature weights on ``grid_``.
     mean_ : ndarray of shape (n_features,)
@@ -387,22 +385,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
 
     # ------------------------------------------------------------- helpers
     def _validate(self, X, reset):
-        if is_dask_array(X):  # NaN is rejected block by block when computed
-            return validate_curves(
-                self, X, reset=reset, ensure_min_samples=2 if reset else 1
-            )
-        X = validate_curves(
-            self, X, reset=reset, allow_nan=True, ensure_min_samples=2 if reset else 1
-        )
-        if np.isnan(np.sum(X)) and np.isnan(X).any():
-            row, col = np.argwhere(np.isnan(X))[0]
-            raise ValueError(
-                f"X contains NaN (first at row {row}, column {col}): "
-                "FunctionalPCA needs complete curves. Fill missing values "
-                "first, for example with skfunc.preprocessing.CurveSmoother "
-                "in a pipeline."
-            )
-        return X
+        return validate_curves(self, X, reset=reset, ensure_min_samples=2 if reset else 1)
 
     def _check_chunk_width(self, X):
         width = getattr(X, "shape", (None, None))[-1]
@@ -524,9 +507,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
     def transform(self, X):
         """Principal component scores ``<x - mean_, phi_k>`` of each curve.
 
-        Parameters
-        ----------
-        %(fitted_grid_X)s
+        %(fitted_curves)s
 
         Returns
         -------
@@ -550,9 +531,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         log-likelihood: curves have no finite-dimensional density.) With a
         basis, the error includes what the basis cannot represent.
 
-        Parameters
-        ----------
-        %(fitted_grid_X)s
+        %(fitted_curves)s
 
         Returns
         -------
@@ -578,9 +557,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         is within the space the components span (its reconstruction error,
         :meth:`score_samples`, measures the rest).
 
-        Parameters
-        ----------
-        %(fitted_grid_X)s
+        %(fitted_curves)s
 
         Returns
         -------

@@ -13,9 +13,8 @@ from functools import partial
 
 import numpy as np
 from sklearn.base import BaseEstimator, RegressorMixin
-from sklearn.utils._param_validation import StrOptions
 
-from ._alpha import ALPHA_CONSTRAINT, AUTO, CRITERIA, check_alpha, choose_alpha
+from ._alpha import ALPHA_CONSTRAINTS, AUTO, check_alpha, choose_alpha
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._fit import AdditiveRegressorMixin
@@ -219,12 +218,8 @@ class FunctionalRidge(FunctionalRidgeBase):
     FunctionalLogisticRegression : The same model for class labels.
     sklearn.linear_model.Ridge : Ridge regression on ordinary features.
 
-    Notes
-    -----
     %(scalar_outcome_notes)s
 
-    References
-    ----------
     %(scalar_outcome_references)s
 
     Examples
@@ -243,8 +238,7 @@ class FunctionalRidge(FunctionalRidgeBase):
     _parameter_constraints = {
         **DESIGN_CONSTRAINTS,
         **PERIOD_CONSTRAINT,
-        "alpha": ALPHA_CONSTRAINT,
-        "criterion": [StrOptions(set(CRITERIA))],
+        **ALPHA_CONSTRAINTS,
     }
 
     def __init__(self, alpha=AUTO, *, criterion="gcv", basis="bspline", n_basis=None,

@@ -6,14 +6,7 @@ import numpy as np
 from sklearn.model_selection import check_cv
 from sklearn.utils._param_validation import StrOptions
 
-from ._alpha import (
-    ALPHA_CONSTRAINT,
-    AUTO,
-    CRITERIA,
-    best_index,
-    candidate_alphas,
-    check_alpha,
-)
+from ._alpha import ALPHA_CONSTRAINT, AUTO, CRITERIA, best_index, candidates_for, check_alpha
 from ._blocks import is_dask_array
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
@@ -79,8 +72,6 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
     FunctionalRidge : The model at a fixed alpha.
     sklearn.linear_model.RidgeCV : The same all-alpha path for plain ridge.
 
-    Notes
-    -----
     %(scalar_outcome_notes)s
 
     GCV is ``(RSS / sum w) / (1 - edf / n)^2`` with the intercept counted in
@@ -89,8 +80,6 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
     + w_i sum_k (z_i u_k)^2 / d_k(alpha)`` in the engine's diagonalising
     basis; it is the weighted mean of the squared leave-one-out residuals.
 
-    References
-    ----------
     %(scalar_outcome_references)s
 
     Craven, P. and Wahba, G. (1979). Smoothing noisy data with spline
@@ -125,12 +114,10 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
         store_init_params(self, locals())
 
     def _check_alphas(self):
-        """None for "auto", else the candidates (a number is the one
-        candidate: its criterion is computed, nothing is chosen)."""
+        """"auto", or the candidates (a number is the one candidate: its
+        criterion is computed, nothing is chosen)."""
         alphas = check_alpha(self.alpha)
-        if alphas is AUTO:
-            return None
-        return np.atleast_1d(alphas)
+        return alphas if alphas is AUTO else np.atleast_1d(alphas)
 
     @fill_doc
     def fit(self, X, y, sample_weight=None):
@@ -155,8 +142,7 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
         Z = self._design(X, self._integration_operator(basis))
         y2 = y.reshape(y.shape[0], -1)
         stats = centered_cross_products(Z, y2, sample_weight)
-        if alphas is None:
-            alphas = candidate_alphas(self._path(stats, basis)[0])
+        alphas = candidates_for(alphas, self._path(stats, basis)[0])
         if self.cv is not None:
             criterion = self._kfold_criterion(Z, y2, sample_weight, basis, alphas)
         else:
@@ -169,16 +155,15 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
         return check_finite_fit(self._select(stats, criterion, alphas, basis, y.ndim))
 
     def _check_pooled(self):
-        self._check_alphas()
+        check_alpha(self.alpha)
         if self.criterion not in CRITERIA or self.cv is not None:
             raise ValueError(self._needs_memory("partial_fit"))
 
     def _fit_pooled(self, stats, basis, y_ndim):
         """Alpha by GCV or REML from pooled statistics, then the fit at it."""
-        alphas = self._check_alphas()
         pooled = not (self.alpha_per_target and y_ndim == 2)
-        out = self._choose(stats, basis, y_ndim, AUTO if alphas is None else alphas,
-                           self.criterion, pooled=pooled)
+        out = self._choose(stats, basis, y_ndim, self._check_alphas(), self.criterion,
+                           pooled=pooled)
         self.best_score_ = self._best_score(self.criterion_path_, self.alpha_)
         return out
 

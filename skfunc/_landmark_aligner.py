@@ -56,7 +56,6 @@ class LandmarkAligner(AlignerBase):
 
     Attributes
     ----------
-    grid_ : ndarray of shape (n_features,)
     target_landmarks_ : ndarray of shape (k,)
     landmarks_ : ndarray of shape (n_samples, k)
         Landmark times of the training curves.

@@ -60,8 +60,43 @@ def flags_and_kinds(estimator, X):
     return flagged, kinds
 
 
+class FlaggedCurvesDisplayMixin:
+    """``from_estimator`` of the displays of flagged curves: what the class
+    draws of X (``_display_data(estimator, X)``, a dict of constructor
+    arguments), the detector's flags and kinds, then :meth:`plot`."""
+
+    @classmethod
+    @fill_doc
+    def from_estimator(cls, estimator, X, *, labels=None, ax=None, **plot_kwargs):
+        """Draw X with a fitted outlier detector's flags.
+
+        Parameters
+        ----------
+        estimator : fitted outlier detector
+            With ``predict`` (1 / -1) on curves, and optionally
+            ``outlier_kind`` (else flagged curves are of kind "unspecified"),
+            as :class:`~skfunc.outliers.CurveOutlierDetector` has.
+            :class:`FunctionalBoxplotDisplay` reads the grid from ``grid_``
+            when there is one; :class:`OutlyingnessDisplay` draws the
+            estimator's ``outlyingness`` of X.
+        X : array-like of shape (n_curves, n_points)
+            Curves on the estimator's grid.
+        %(display_labels_ax)s
+
+        Returns
+        -------
+        display : FunctionalBoxplotDisplay or OutlyingnessDisplay
+            The display of the class it is called on.
+        """
+        data = cls._display_data(estimator, X)
+        flagged, kinds = flags_and_kinds(estimator, X)
+        display = cls(**data, outliers=flagged, labels=curve_labels(labels, flagged.size),
+                      kinds=kinds)
+        return display.plot(ax=ax, **plot_kwargs)
+
+
 @fill_doc
-class FunctionalBoxplotDisplay:
+class FunctionalBoxplotDisplay(FlaggedCurvesDisplayMixin):
     """Functional boxplot: median curve, central 50% region, range, outliers.
 
     The curves are ordered by modified band depth; the median is the
@@ -80,14 +115,7 @@ class FunctionalBoxplotDisplay:
         The deepest curve.
     central_lower, central_upper : ndarray of shape (n_points,)
         Envelope of the deepest half of the curves.
-    outliers : ndarray of bool of shape (n_curves,)
-        Which curves are flagged.
-    labels : list of str, default=None
-        One label per curve; None means the row numbers.
-    kinds : ndarray of str of shape (n_curves,), default=None
-        How each flagged curve is unusual (see
-        :meth:`skfunc.outliers.CurveOutlierDetector.outlier_kind`); shown
-        in the legend when given.
+    %(flagged_curves)s
 
     Attributes
     ----------
@@ -126,15 +154,6 @@ class FunctionalBoxplotDisplay:
         store_init_params(self, locals())
 
     @classmethod
-    def _build(cls, values, grid, flagged, kinds, labels, ax, plot_kwargs):
-        depth = mbd_values(values, values, time_weights(grid, values.shape[1]))
-        deepest, lower, upper = central_region(values, depth)
-        display = cls(grid=grid, curves=values, median=values[deepest],
-                      central_lower=lower, central_upper=upper, outliers=flagged,
-                      labels=curve_labels(labels, len(values)), kinds=kinds)
-        return display.plot(ax=ax, **plot_kwargs)
-
-    @classmethod
     @fill_doc
     def from_curves(cls, X, *, grid=None, factor=1.5, labels=None, ax=None,
                     **plot_kwargs):
@@ -155,32 +174,17 @@ class FunctionalBoxplotDisplay:
                                     factor=factor, grid=grid)
 
     @classmethod
-    @fill_doc
-    def from_estimator(cls, estimator, X, *, labels=None, ax=None, **plot_kwargs):
-        """Draw the functional boxplot of X with a fitted detector's flags.
-
-        Parameters
-        ----------
-        estimator : fitted outlier detector
-            With ``predict`` (1 / -1) on curves, and optionally
-            ``outlier_kind`` and ``grid_``, as
-            :class:`~skfunc.outliers.CurveOutlierDetector` has.
-        X : array-like of shape (n_curves, n_points)
-            Curves on the estimator's grid; the median and central region
-            are those of X.
-        %(display_labels_ax)s
-
-        Returns
-        -------
-        display : FunctionalBoxplotDisplay
-        """
+    def _display_data(cls, estimator, X):
+        """Curves, median and central region of X, on the estimator's grid."""
         values = check_curves(X, min_curves=2, what="a functional boxplot")
-        flagged, kinds = flags_and_kinds(estimator, X)
         grid = getattr(estimator, "grid_", None)
         if grid is None:
             grid = resolve_grid(None, X, values.shape[1])
-        return cls._build(values, np.asarray(grid), flagged, kinds, labels, ax,
-                          plot_kwargs)
+        grid = np.asarray(grid)
+        depth = mbd_values(values, values, time_weights(grid, values.shape[1]))
+        deepest, lower, upper = central_region(values, depth)
+        return dict(grid=grid, curves=values, median=values[deepest],
+                    central_lower=lower, central_upper=upper)
 
     def plot(self, ax=None, *, xlabel="t", ylabel="value", title=None,
              max_labels=8):

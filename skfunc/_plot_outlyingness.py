@@ -6,15 +6,15 @@ from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._plot_boxplot import (
     KIND_STYLE,
+    FlaggedCurvesDisplayMixin,
     curve_labels,
     display_axes,
-    flags_and_kinds,
     from_fitted_detector,
 )
 
 
 @fill_doc
-class OutlyingnessDisplay:
+class OutlyingnessDisplay(FlaggedCurvesDisplayMixin):
     """Magnitude against shape outlyingness, one point per curve.
 
     The horizontal axis is the mean directional outlyingness of a curve
@@ -29,13 +29,7 @@ class OutlyingnessDisplay:
         Mean directional outlyingness.
     shape : ndarray of shape (n_curves,)
         Variation of directional outlyingness.
-    outliers : ndarray of bool of shape (n_curves,)
-        Which curves are flagged.
-    labels : list of str, default=None
-        One label per curve; None means the row numbers.
-    kinds : ndarray of str of shape (n_curves,), default=None
-        How each flagged curve is unusual (see
-        :meth:`skfunc.outliers.CurveOutlierDetector.outlier_kind`).
+    %(flagged_curves)s
 
     Attributes
     ----------
@@ -72,21 +66,16 @@ class OutlyingnessDisplay:
 
     @classmethod
     @fill_doc
-    def from_curves(cls, X, *, grid=None, labels=None, random_state=None,
+    def from_curves(cls, X, *, grid=None, random_state=None, labels=None,
                     ax=None, **plot_kwargs):
         """Outlyingness of X relative to X, flagged by the magnitude-shape rule.
 
         Parameters
         ----------
         %(display_curves_grid)s
-        labels : list of str, default=None
-            One label per curve; None means the row numbers.
         random_state : int, RandomState instance or None, default=None
             Seed of the minimum covariance determinant fit.
-        ax : matplotlib Axes, default=None
-            Axes to draw on; None makes a new figure.
-        **plot_kwargs
-            Passed to :meth:`plot` (``title``).
+        %(display_labels_ax)s
 
         Returns
         -------
@@ -97,23 +86,8 @@ class OutlyingnessDisplay:
                                     random_state=random_state, grid=grid)
 
     @classmethod
-    @fill_doc
-    def from_estimator(cls, estimator, X, *, labels=None, ax=None, **plot_kwargs):
-        """Outlyingness of X relative to a fitted detector's training curves.
-
-        Parameters
-        ----------
-        estimator : fitted CurveOutlierDetector
-            Any method: points are its :meth:`outlyingness`, flags its
-            :meth:`predict`, kinds its :meth:`outlier_kind`.
-        X : array-like of shape (n_curves, n_points)
-            Curves on the estimator's grid.
-        %(display_labels_ax)s
-
-        Returns
-        -------
-        display : OutlyingnessDisplay
-        """
+    def _display_data(cls, estimator, X):
+        """Magnitude and shape outlyingness of X from the estimator."""
         if not hasattr(estimator, "outlyingness"):
             raise ValueError(
                 "OutlyingnessDisplay.from_estimator needs a fitted detector with "
@@ -121,10 +95,7 @@ class OutlyingnessDisplay:
                 f"{type(estimator).__name__}."
             )
         magnitude, shape = estimator.outlyingness(X)
-        flagged, kinds = flags_and_kinds(estimator, X)
-        display = cls(magnitude=magnitude, shape=shape, outliers=flagged,
-                      labels=curve_labels(labels, len(magnitude)), kinds=kinds)
-        return display.plot(ax=ax, **plot_kwargs)
+        return dict(magnitude=magnitude, shape=shape)
 
     def plot(self, ax=None, *, title=None, max_labels=12):
         """Draw the display.

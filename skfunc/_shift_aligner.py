@@ -102,7 +102,6 @@ class ShiftAligner(AlignerBase):
 
     Attributes
     ----------
-    grid_ : ndarray of shape (n_features,)
     template_ : ndarray of shape (n_features,)
         The template on ``grid_``.
     shifts_ : ndarray of shape (n_samples,)

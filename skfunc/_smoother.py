@@ -31,11 +31,9 @@ from sklearn.utils._param_validation import Interval, StrOptions
 from sklearn.utils.validation import _check_feature_names_in, check_is_fitted
 
 from ._alpha import (
-    ALPHA_CONSTRAINT,
-    AUTO,
-    CRITERIA,
+    ALPHA_CONSTRAINTS,
     best_index,
-    candidate_alphas,
+    candidates_for,
     check_alpha,
     gcv_criterion,
     reml_criterion,
@@ -293,10 +291,7 @@ class PenalizedFitMixin:
     def _setup_alphas(self, X, problem):
         """Candidates (``alphas_path_``) and the power-of-two scale of X."""
         alpha = self._alpha()
-        if alpha is AUTO:
-            self.alphas_path_ = candidate_alphas(problem.full)
-        else:
-            self.alphas_path_ = np.atleast_1d(alpha)
+        self.alphas_path_ = candidates_for(alpha, problem.full)
         if isinstance(alpha, float) and alpha == 0:
             phi_w = problem.phi * problem.weights()[:, None]
             check_unpenalized_fit(phi_w.T @ problem.phi, problem.basis.gram())
@@ -436,8 +431,6 @@ class CurveSmoother(PenalizedFitMixin, AdditiveTransformerMixin, TransformerMixi
 
     Attributes
     ----------
-    grid_ : ndarray of shape (n_features,)
-        The grid used at fit.
     eval_points_ : ndarray of shape (n_outputs,)
         Points at which :meth:`transform` evaluates the curves.
     n_basis_ : int
@@ -536,8 +529,7 @@ class CurveSmoother(PenalizedFitMixin, AdditiveTransformerMixin, TransformerMixi
 
     _parameter_constraints = {
         **BASIS_CONSTRAINTS,
-        "alpha": ALPHA_CONSTRAINT,
-        "criterion": [StrOptions(set(CRITERIA))],
+        **ALPHA_CONSTRAINTS,
         "per_curve": ["boolean"],
         "data_term": [StrOptions(set(DATA_TERMS))],
         "derivative": [Interval(Integral, 0, None, closed="left")],

@@ -287,8 +287,6 @@ class SparseFunctionalPCA(ShortReprMixin, ComponentCurvesMixin, ClassNamePrefixF
 
     Attributes
     ----------
-    grid_ : ndarray of shape (n_features,)
-        The grid of the columns of X.
     mean_ : ndarray of shape (n_features,)
         The smoothed mean function on ``grid_``.
     mean_basis_coef_ : ndarray of shape (n_basis_,)

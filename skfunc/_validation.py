@@ -101,7 +101,10 @@ def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
         if "contains NaN" not in str(exc):
             raise
         first = str(exc).split("\n")[0].split(".")[0]  # "Input X contains NaN"
-        raise ValueError(f"{first}. {NAN_ADVICE.format(type(estimator).__name__)}") from exc
+        where = first_nan(y if first.startswith("Input y") else X)
+        raise ValueError(
+            f"{first}{where}. {NAN_ADVICE.format(type(estimator).__name__)}"
+        ) from exc
     X = out[0] if isinstance(out, tuple) else out
     n_points = X.shape[1] - n_covariates
     if n_covariates and n_points < 2:
@@ -131,6 +134,19 @@ def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
     else:
         check_labels(estimator, inferred, estimator.grid_, "X", "grid")
     return out
+
+
+def first_nan(data):
+    """`` (first at row i, column j)`` for the first NaN of ``data``, or ""."""
+    try:
+        values = np.asarray(data, dtype=np.float64)
+    except (TypeError, ValueError):
+        return ""
+    where = np.argwhere(np.isnan(values))
+    if not where.size:
+        return ""
+    names = ("row", "column")[: values.ndim]
+    return " (first at " + ", ".join(f"{n} {i}" for n, i in zip(names, where[0])) + ")"
 
 
 def explain_not_numbers(exc, X, y):

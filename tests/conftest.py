@@ -24,7 +24,7 @@ through :func:`skfunc.utils.all_estimators`.
 import matplotlib
 import numpy as np
 import pytest
-from scipy.interpolate import CubicSpline
+from scipy.interpolate import CubicSpline, make_smoothing_spline
 
 from skfunc.datasets import make_smooth_regression
 
@@ -40,6 +40,21 @@ N_CURVES = 60
 @pytest.fixture
 def rng():
     return np.random.default_rng(0)
+
+
+@pytest.fixture(scope="session")
+def scipy_smoothing():
+    """Noisy curves on an uneven grid (70 points on [0, 0.3], 30 on [0.3, 1],
+    the same noise at every point, 50 replications) and the mean squared
+    error to the truth of scipy's GCV smoothing splines
+    (``scipy.interpolate.make_smoothing_spline`` with ``lam=None``):
+    ``(t, truth, X, mse_ref)``."""
+    rng = np.random.default_rng(1)
+    t = np.concatenate([np.linspace(0, 0.3, 70, endpoint=False), np.linspace(0.3, 1, 30)])
+    truth = np.sin(2 * np.pi * t) + 0.5 * np.cos(5 * t)
+    X = truth + 0.3 * rng.normal(size=(50, t.size))
+    ref = np.stack([make_smoothing_spline(t, x)(t) for x in X])
+    return t, truth, X, ((ref - truth) ** 2).mean()
 
 
 def smooth_curves(grid, random_state=0, n=N_CURVES):

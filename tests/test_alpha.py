@@ -2,7 +2,6 @@ import warnings
 
 import numpy as np
 import pytest
-from scipy.interpolate import make_smoothing_spline
 
 from skfunc._alpha import (
     AUTO,
@@ -208,17 +207,6 @@ def test_choose_alpha_fixed_and_candidates(rng):
 
 
 # -- the smoother's data term against scipy ----------------------------------
-
-
-@pytest.fixture(scope="module")
-def scipy_smoothing():
-    """50 replications on an uneven grid and scipy's GCV smoothing splines."""
-    rng = np.random.default_rng(1)
-    t = np.concatenate([np.linspace(0, 0.3, 70, endpoint=False), np.linspace(0.3, 1, 30)])
-    truth = np.sin(2 * np.pi * t) + 0.5 * np.cos(5 * t)
-    X = truth + 0.3 * rng.normal(size=(50, t.size))
-    ref = np.stack([make_smoothing_spline(t, x)(t) for x in X])
-    return t, truth, X, ((ref - truth) ** 2).mean()
 
 
 @pytest.mark.parametrize("basis", ["default", "40", "every point"])

@@ -306,6 +306,14 @@ def test_concurrent_response_off_the_input_grid_is_pointwise_least_squares(rng):
     assert_allclose(model.intercept_function_, expected[:, 0], atol=1e-9)
     assert_allclose(model.coef_function_, expected[:, 1], atol=1e-9)
     assert_allclose(model.predict(X), expected[:, 0] + Xs * expected[:, 1], atol=1e-9)
+    # between the response points the degree-1 coefficient functions are the
+    # linear interpolants of those fits, and X is read by interpolation too
+    # (numpy.interp); a model that read X at the response grid would fail
+    p = np.linspace(s[0], s[-1], 13)
+    Xp = np.array([np.interp(p, t, row) for row in X])
+    assert_allclose(model.predict(X, eval_points=p),
+                    np.interp(p, s, expected[:, 0]) + Xp * np.interp(p, s, expected[:, 1]),
+                    atol=1e-9)
     # default response grid of 9 columns: evenly spaced on X's domain [0, 1]
     default = ConcurrentFunctionRidge(alpha=1e-3).fit(X, Y)
     assert_allclose(default.response_grid_, np.linspace(0, 1, 9))

@@ -82,16 +82,21 @@ def _response_values(est):
     return basis_for(est, est.response_grid_, cap=False).evaluate(est.response_grid_)
 
 
+def _null_space_fit(est, z, Y, w):
+    """Weighted least squares of Y (rows of curves on T, weights w) on the
+    null space of the penalties: any intercept function in the response
+    basis, and the design ``z`` (one row per observation) times (1, t)."""
+    n, m = Y.shape
+    rows_t = np.tile(T, n)[:, None]
+    design = np.column_stack([np.tile(_response_values(est), (n, 1)), z, z * rows_t])
+    coef = _lstsq(design, Y.ravel(), np.sqrt(np.tile(w, n)))
+    return (design @ coef).reshape(n, m)
+
+
 @pytest.mark.parametrize("alpha", ALPHAS)
 def test_function_on_scalar_tends_to_straight_line_coefficients(alpha):
     est, X, Y = _case("FunctionOnScalarRidge", alpha)
-    n, m = Y.shape
-    phi = _response_values(est)  # the unpenalized intercept function
-    rows_t = np.tile(T, n)
-    x = np.repeat(X, m, axis=0)
-    design = np.column_stack([np.tile(phi, (n, 1)), x, x * rows_t[:, None]])
-    coef = _lstsq(design, Y.ravel(), np.sqrt(np.tile(_trapezoid(T), n)))
-    expected = (design @ coef).reshape(n, m)
+    expected = _null_space_fit(est, np.repeat(X, Y.shape[1], axis=0), Y, _trapezoid(T))
     assert _relative(est.predict(X), expected) < RTOL
 
 
@@ -99,26 +104,14 @@ def test_function_on_scalar_tends_to_straight_line_coefficients(alpha):
 def test_function_on_function_tends_to_a_bilinear_surface(alpha):
     # both penalties vanish only on beta(s, t) = (1, s) A (1, t)'
     est, X, Y = _case("FunctionOnFunctionRidge", alpha)
-    n, m = Y.shape
     w = _trapezoid(T)
     moments = np.column_stack([X @ w, X @ (w * T)])  # int x, int x s
-    phi = _response_values(est)
-    rows_t = np.tile(T, n)
-    z = np.repeat(moments, m, axis=0)
-    design = np.column_stack([np.tile(phi, (n, 1)), z, z * rows_t[:, None]])
-    coef = _lstsq(design, Y.ravel(), np.sqrt(np.tile(w, n)))
-    expected = (design @ coef).reshape(n, m)
+    expected = _null_space_fit(est, np.repeat(moments, Y.shape[1], axis=0), Y, w)
     assert _relative(est.predict(X), expected) < RTOL
 
 
 @pytest.mark.parametrize("alpha", ALPHAS)
 def test_concurrent_tends_to_a_straight_line_slope(alpha):
     est, X, Y = _case("ConcurrentFunctionRidge", alpha)
-    n, m = Y.shape
-    phi = _response_values(est)
-    rows_t = np.tile(T, n)
-    x = X.ravel()
-    design = np.column_stack([np.tile(phi, (n, 1)), x, x * rows_t])
-    coef = _lstsq(design, Y.ravel(), np.sqrt(np.tile(_trapezoid(T), n)))
-    expected = (design @ coef).reshape(n, m)
+    expected = _null_space_fit(est, X.reshape(-1, 1), Y, _trapezoid(T))
     assert _relative(est.predict(X), expected) < RTOL

@@ -398,19 +398,14 @@ def test_bad_rows(rng):
         CurveSmoother().fit(X_inf)
 
 
-def test_gcv_on_uneven_grid_as_accurate_as_scipy():
+def test_gcv_on_uneven_grid_as_accurate_as_scipy(scipy_smoothing):
     # Source: scipy.interpolate.make_smoothing_spline with lam=None (GCV per
     # curve) on an uneven grid (70 points on [0, 0.3], 30 on [0.3, 1]) with the
     # same noise at every point, 50 replications: CurveSmoother's per-curve
     # GCV with its default data term (the mean over observed points) has mean
     # squared error to the truth within 1.10x of scipy's (the package's
     # target). The trapezoid-weighted data term fails this (checked below).
-    rng = np.random.default_rng(1)
-    t = np.concatenate([np.linspace(0, 0.3, 70, endpoint=False), np.linspace(0.3, 1, 30)])
-    truth = np.sin(2 * np.pi * t) + 0.5 * np.cos(5 * t)
-    X = truth + 0.3 * rng.normal(size=(50, t.size))
-    ref = np.stack([make_smoothing_spline(t, x)(t) for x in X])
-    mse_ref = ((ref - truth) ** 2).mean()
+    t, truth, X, mse_ref = scipy_smoothing
     for kw in ({}, {"n_basis": 40}):
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", AlphaAtEdgeWarning)
