@@ -25,7 +25,7 @@ Usage, from the repository root::
 
     python tests/benchmarks/bench_out_of_core.py            # 4 GB file
     python tests/benchmarks/bench_out_of_core.py --size-gb 8
-    python tests/benchmarks/bench_out_of_core.py --quick    # 0.3 GB smoke run
+    python tests/benchmarks/bench_out_of_core.py --quick    # 0.1 GB smoke run
 
 The file goes to ``--dir`` (default: the system's temporary folder) and is
 removed at the end; the script first checks with ``df`` that the folder has
@@ -158,7 +158,7 @@ def run_fit(name, x_path, y_path, show_progress, blas_threads):
 
 def main(argv=None):
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--quick", action="store_true", help="a 0.3 GB file")
+    parser.add_argument("--quick", action="store_true", help="a 0.1 GB file")
     parser.add_argument("--size-gb", type=float, default=None, help="file size (GB)")
     parser.add_argument("--repeat", type=int, default=None, help="reads and fits each")
     parser.add_argument("--dir", default=None, help="folder for the file")
@@ -171,7 +171,7 @@ def main(argv=None):
     if args.fit_child:
         fit_child(*args.fit_child)
         return 0
-    size = args.size_gb or (0.3 if args.quick else 4.0)
+    size = args.size_gb or (0.1 if args.quick else 4.0)
     repeat = args.repeat or (1 if args.quick else 2)
     parent = Path(args.dir or tempfile.gettempdir())
     df = subprocess.run(["df", "-h", str(parent)], capture_output=True, text=True)
