@@ -248,7 +248,8 @@ def gcv_criterion(path, rotated, yy, n_obs, alphas, *, total_weight=None,
     return out[0] if out.shape[0] == 1 else out
 
 
-def reml_criterion(path, rotated, yy, n_obs, alphas, *, extra_null=0, pooled=False):
+def reml_criterion(path, rotated, yy, n_obs, alphas, *, extra_null=0, pooled=False,
+                   log_scale=0.0):
     """Minus twice the restricted log-likelihood, profiled over the noise variance.
 
     Mixed-model form of the penalized fit (Wood 2011, section 2; Harville
@@ -264,7 +265,9 @@ def reml_criterion(path, rotated, yy, n_obs, alphas, *, extra_null=0, pooled=Fal
     intercept profiled out by centring) and ``s_k`` the data eigenvalues of
     the penalized directions; ``const`` (log-determinants of the weights and
     of the null-space design) does not depend on alpha. ``pooled`` shares
-    ``sigma^2`` and alpha over the rows (independent curves).
+    ``sigma^2`` and alpha over the rows (independent curves). ``log_scale``
+    is ``log(c)`` when ``rotated`` and ``yy`` come from responses divided by
+    ``sqrt(c)`` (:func:`reml_score`).
     """
     rotated, yy = _rows(rotated, yy)
     alphas = np.atleast_1d(alphas)
@@ -273,14 +276,19 @@ def reml_criterion(path, rotated, yy, n_obs, alphas, *, extra_null=0, pooled=Fal
     logdet = path.log_det_ratio(alphas)
     if pooled:
         k = rotated.shape[0]
-        return reml_score(d_p.sum(axis=0), k * dof, k * logdet)
-    out = reml_score(d_p, dof, logdet)
+        return reml_score(d_p.sum(axis=0), k * dof, k * logdet, log_scale)
+    out = reml_score(d_p, dof, logdet, log_scale)
     return out[0] if out.shape[0] == 1 else out
 
 
-def reml_score(penalized_rss, dof, log_det_ratio):
+def reml_score(penalized_rss, dof, log_det_ratio, log_scale=0.0):
     """``-2 l_R = dof (log(2 pi D_p / dof) + 1) + log_det_ratio`` (see
     :func:`reml_criterion`); inf where undefined (``dof <= 0`` or ``D_p <= 0``).
+
+    ``log_scale`` is ``log(c)`` when ``D_p`` was computed from responses
+    divided by ``sqrt(c)`` (a power of two, so that squares stay finite):
+    the score is then the one of the responses themselves, ``D_p c`` in
+    place of ``D_p``, without forming ``D_p c``.
 
     The building block for problems whose decomposition is not one
     :class:`~skfunc._penalized.SplitPath`: ``dof = n - (unpenalized
@@ -289,13 +297,31 @@ def reml_score(penalized_rss, dof, log_det_ratio):
     """
     d_p = np.maximum(np.asarray(penalized_rss, dtype=np.float64), 0.0)
     with np.errstate(divide="ignore", invalid="ignore"):
-        out = dof * (np.log(2 * np.pi * d_p / dof) + 1) + log_det_ratio
+        out = dof * (np.log(2 * np.pi * d_p / dof) + log_scale + 1) + log_det_ratio
     return np.where((np.asarray(dof) > 0) & (d_p > 0), out, np.inf)
+
+
+def gcv_in_data_units(scores, y_exp):
+    """GCV (or any mean squared error) of responses divided by ``2**y_exp``,
+    in the responses' own units: exact; inf, with a ``RuntimeWarning``,
+    where it overflows (the choice is made on the scaled scores)."""
+    scores = np.asarray(scores, dtype=np.float64)
+    with np.errstate(over="ignore"):
+        out = np.ldexp(scores, 2 * y_exp)
+    if np.any(np.isinf(out) & np.isfinite(scores)):
+        warnings.warn(
+            "The criterion overflows float64 in the responses' units (squares "
+            "of values beyond about 1e154): criterion_path_ holds inf there. "
+            "alpha_ was chosen on the responses divided by a power of two, "
+            "where every score is finite; rescale y, for example to units "
+            "near 1, to read the scores.", RuntimeWarning, stacklevel=3,
+        )
+    return out
 
 
 def choose_alpha(path, rotated, yy, n_obs, alpha=AUTO, *, criterion="gcv",
                  n_alphas=N_ALPHAS, total_weight=None, extra_edf=0, pooled=False,
-                 warn=True):
+                 warn=True, y_exp=0):
     """Resolve a user ``alpha`` for a least-squares problem on ``path``.
 
     Parameters
@@ -322,6 +348,12 @@ def choose_alpha(path, rotated, yy, n_obs, alpha=AUTO, *, criterion="gcv",
         One alpha for all rows (else one per row).
     warn : bool
         Warn when the choice is at an end of the candidates.
+    y_exp : int
+        ``rotated`` and ``yy`` come from responses divided by ``2**y_exp``
+        (:func:`skfunc._penalized.scaled_statistics`); the returned
+        criterion is in the responses' own units (GCV may overflow to inf
+        there for responses near 1e154 and beyond; the choice is made on
+        the scaled scores, which cannot).
 
     Returns
     -------
@@ -340,7 +372,9 @@ def choose_alpha(path, rotated, yy, n_obs, alpha=AUTO, *, criterion="gcv",
                                extra_edf=extra_edf, pooled=pooled)
     else:
         scores = reml_criterion(path, rotated, yy, n_obs, alphas, extra_null=extra_edf,
-                                pooled=pooled)
+                                pooled=pooled, log_scale=2 * y_exp * np.log(2.0))
     index = best_index(scores, alphas, criterion=criterion.upper(), warn=warn)
+    if criterion == "gcv":
+        scores = gcv_in_data_units(scores, y_exp)
     return {"alpha": alphas[index] if np.ndim(index) else float(alphas[index]),
             "alphas": alphas, "criterion": scores, "index": index}

@@ -1,9 +1,11 @@
 """ConcurrentFunctionRidge: a response curve from an input curve at the same
 points, ``Y_i(t) = beta_0(t) + beta_1(t) X_i(t)``."""
 
+from functools import partial
+
 import numpy as np
 
-from ._alpha import check_alpha, reml_score
+from ._alpha import check_alpha, gcv_in_data_units, reml_score
 from ._blocks import compute_statistics, output_dtype
 from ._docstrings import fill_doc
 from ._fit import check_finite_fit
@@ -15,7 +17,15 @@ from ._function_response import (
     resolve_candidates,
     validate_response,
 )
-from ._penalized import NotIdentifiableError, SplitPath, gcv_score, penalty_for
+from ._penalized import (
+    NotIdentifiableError,
+    SplitPath,
+    gcv_score,
+    penalty_for,
+    scale_down,
+    scaled_statistics,
+    to_data_units,
+)
 from ._weights import check_sample_weight
 
 
@@ -141,7 +151,9 @@ class ConcurrentFunctionRidge(CurveInputResponseRegressor):
         stats = compute_statistics(self._statistics, X, y, w)
         self.n_samples_seen_ = int(X.shape[0])
         self._solve(stats)
-        meat = compute_statistics(self._score_products, X, y, w)["meat"]
+        # the second pass in the first one's units (X, y over powers of two)
+        meat = compute_statistics(partial(self._score_products, x_exp=stats["x_exp"],
+                                          y_exp=stats["y_exp"]), X, y, w)["meat"]
         self.coef_covariance_ = self._sandwich(stats, meat)
         return check_finite_fit(self)
 
@@ -183,10 +195,15 @@ class ConcurrentFunctionRidge(CurveInputResponseRegressor):
 
         Keys ``n``, ``sw`` (count and weight total), ``x``, ``xx``, ``y``,
         ``xy``, ``yy`` (weighted sums of X, X^2, y, X y, y^2 per response
-        point, X read there): all sums, merged key by key
-        (:func:`skfunc._penalized.merge`).
+        point, X read there): all sums, of X and y divided by powers of two
+        (``x_exp``, ``y_exp``: :func:`skfunc._penalized.scaled_statistics`),
+        merged key by key (:func:`skfunc._penalized.merge`).
         """
         X = self._input_at(np.asarray(X, dtype=np.float64), self.response_grid_)
+        return scaled_statistics(self._point_sums, X, y, sample_weight)
+
+    @staticmethod
+    def _point_sums(X, y, sample_weight):
         y = np.asarray(y, dtype=np.float64)
         w = np.ones(X.shape[0]) if sample_weight is None else np.asarray(sample_weight)
         return {
@@ -222,9 +239,30 @@ class ConcurrentFunctionRidge(CurveInputResponseRegressor):
         try:
             path = SplitPath(self._normal_matrix(stats, phi_w, phi), penalty)
         except NotIdentifiableError as exc:
+            m, k = self.response_grid_.size, basis.n_basis
+            if k > m:
+                advice = (
+                    f"the intercept function is unpenalized, so its {k} basis "
+                    f"functions need at least as many response grid points ({m}). "
+                    "Use a smaller n_basis."
+                )
+            elif self._unpenalized():
+                advice = (
+                    "with alpha=0 (no penalty) the data must determine every basis "
+                    "coefficient and do not. Use a smaller n_basis, more curves, or "
+                    "a roughness penalty (alpha > 0 or 'auto')."
+                )
+            else:
+                advice = (
+                    "the slope's functions that the roughness penalty leaves free "
+                    f"(degree < penalty_order={self.penalty_order}) are unpenalized, "
+                    "so the curves must differ enough at the response points to "
+                    "tell them from the intercept, whatever alpha. Use more (or "
+                    "more varied) curves or a lower penalty_order."
+                )
             raise NotIdentifiableError(
-                f"ConcurrentFunctionRidge: {exc} The intercept function is "
-                "unpenalized: use fewer basis functions (n_basis) than grid points."
+                "ConcurrentFunctionRidge cannot determine its coefficient functions "
+                f"from {int(stats['n'])} curves: {advice}"
             ) from exc
         return path, basis, weights, phi_w
 
@@ -239,7 +277,8 @@ class ConcurrentFunctionRidge(CurveInputResponseRegressor):
         def scores(values, criterion):
             if criterion == "reml":
                 return reml_score(yy_w - path.penalized_rss_reduction(rot, values)[0],
-                                  sw * m - path.n_null, path.log_det_ratio(values))
+                                  sw * m - path.n_null, path.log_det_ratio(values),
+                                  2 * stats["y_exp"] * np.log(2.0))
             rss = np.maximum(yy_w - path.rss_reduction(rot, values)[0], 0.0)
             return gcv_score(rss, path.edf(values), sw * m, sw * weights.sum())
 
@@ -251,17 +290,24 @@ class ConcurrentFunctionRidge(CurveInputResponseRegressor):
                 f"ConcurrentFunctionRidge: {exc}"
             ) from exc
         K = basis.n_basis
-        self._store(basis, coef.reshape(2, K)[::-1], np.full((2 * K, 2 * K), np.nan),
+        if criterion is not None and self.criterion == "gcv":
+            criterion = gcv_in_data_units(criterion, stats["y_exp"])
+        # (beta_0, beta_1) in the data's units: y's and y / x's
+        coef = to_data_units(coef.reshape(2, K)[::-1], stats, np.array([[0], [-1]]), 1)
+        self._store(basis, coef, np.full((2 * K, 2 * K), np.nan),
                     alphas, criterion, path.edf(alphas), best)
 
-    def _score_products(self, X, y, sample_weight):
+    def _score_products(self, X, y, sample_weight, x_exp, y_exp):
         """``sum w g g'`` of the curves' score contributions at the fit,
-        ``g_i = (Phi' W e_i, Phi' W (X_i e_i))`` (key ``meat``; a sum)."""
-        X = self._input_at(np.asarray(X, dtype=np.float64), self.response_grid_)
+        ``g_i = (Phi' W e_i, Phi' W (X_i e_i))`` (key ``meat``; a sum), with
+        X and y divided by ``2**x_exp`` and ``2**y_exp``."""
+        X = scale_down(self._input_at(np.asarray(X, dtype=np.float64), self.response_grid_), x_exp)
         basis, weights = self._response_basis()
         phi_w = basis.evaluate(self.response_grid_) * weights[:, None]
-        resid = np.asarray(y, dtype=np.float64) - self.intercept_function_
-        resid -= X * self.coef_function_
+        scaled = {"x_exp": x_exp, "y_exp": y_exp}
+        resid = scale_down(y, y_exp) - to_data_units(self.intercept_function_, scaled,
+                                                     0, -1)
+        resid -= X * to_data_units(self.coef_function_, scaled, 1, -1)
         scores = np.hstack([resid @ phi_w, (resid * X) @ phi_w])
         return {"meat": (scores * sample_weight[:, None]).T @ scores}
 
@@ -275,7 +321,9 @@ class ConcurrentFunctionRidge(CurveInputResponseRegressor):
         bread = path.operator(self.alpha_)[np.ix_(order, order)]
         sw = stats["sw"]
         factor = sw / (sw - 2) if sw > 2 else np.nan
-        return factor * bread @ meat @ bread
+        x_power = np.r_[np.zeros(K, dtype=int), -np.ones(K, dtype=int)]
+        return to_data_units(factor * bread @ meat @ bread, stats,
+                             x_power[:, None] + x_power[None, :], 2)
 
     def _coef_rows(self):
         return np.array([[0.0, 1.0]])

@@ -45,16 +45,26 @@ from ._validation import check_batch_grid
 _UNCERTAINTY = ("noise_variance_", "coef_covariance_")
 
 
+class UndefinedUncertaintyWarning(UserWarning):
+    """The fit leaves no residual degrees of freedom: the noise variance and
+    the confidence bands are undefined (NaN), while the fit itself stands.
+
+    A statistical property of the data, not a numerical failure, in the way
+    of scikit-learn's ``UndefinedMetricWarning``; numerical trouble stays a
+    ``RuntimeWarning`` or an error."""
+
+
 def check_finite_fit(estimator):
     """Never hand back NaN or inf silently: after a fit, non-finite values in
     a fitted attribute are a ``ValueError`` (the fit failed, usually because
-    sums of squares overflowed or underflowed), or a ``RuntimeWarning`` where
-    only the uncertainty is undefined. A selection criterion may be inf (GCV
+    sums of squares overflowed or underflowed), or an
+    :class:`UndefinedUncertaintyWarning` where only the uncertainty is
+    undefined. A selection criterion may be inf (GCV
     where a fit interpolates); what to choose then is the alpha choice's
     policy, not checked here. Returns the estimator.
     """
     name = type(estimator).__name__
-    uncertain = []
+    uncertain, overflow = [], []
     for key, value in vars(estimator).items():
         if not key.endswith("_") or key.startswith("_"):
             continue
@@ -64,7 +74,7 @@ def check_finite_fit(estimator):
         if key in ("criterion_path_", "best_score_"):  # inf where a candidate
             continue  # interpolates: the alpha choice has its own policy for that
         if key in _UNCERTAINTY:
-            uncertain.append(key)
+            (overflow if np.isinf(arr).any() else uncertain).append(key)
             continue
         raise ValueError(
             f"{name}: the fitted {key} is not finite. This usually means the values "
@@ -72,12 +82,20 @@ def check_finite_fit(estimator):
             "float64 (beyond about 1e150 or below 1e-150); rescale X and y, for "
             "example to units near 1."
         )
+    if overflow:
+        warnings.warn(
+            f"{name}: {' and '.join(overflow)} overflow float64 in the data's "
+            "units (variances are squares: of y beyond about 1e154, or of "
+            "coefficients y / X beyond that); the fit itself is exact, but "
+            "confidence bands are undefined. Rescale X and y, for example to "
+            "units near 1, for bands.", RuntimeWarning, stacklevel=3,
+        )
     if uncertain:
         warnings.warn(
             f"{name}: {' and '.join(uncertain)} not finite: the fit leaves no "
             "residual degrees of freedom (too few observations, or weights summing "
             "to less than the effective number of parameters), so confidence bands "
-            "are undefined.", RuntimeWarning, stacklevel=3,
+            "are undefined.", UndefinedUncertaintyWarning, stacklevel=3,
         )
     return estimator
 

@@ -74,8 +74,8 @@ class FunctionOnFunctionRidge(AdditiveRegressorMixin, CurveInputResponseRegresso
     GCV treats all ``n_samples * n_response_points`` residuals as
     independent; with strongly autocorrelated residual curves on dense grids
     prefer :class:`~sklearn.model_selection.GridSearchCV` over ``alpha``.
-    Confidence bands are pointwise, ignore the smoothing bias and are not
-    simultaneous.
+    Confidence bands are pointwise, or simultaneous over the whole surface
+    (``confidence_band(simultaneous=True)``); both ignore the smoothing bias.
     %(cautions)s
 
     %(curve_response_references)s
@@ -100,6 +100,8 @@ class FunctionOnFunctionRidge(AdditiveRegressorMixin, CurveInputResponseRegresso
     """
 
     _batch_grids = (("grid", "grid_"), ("response_grid", "response_grid_"))
+
+    _joint_band = True  # a simultaneous band covers the whole surface
 
     def __sklearn_tags__(self):
         tags = super().__sklearn_tags__()

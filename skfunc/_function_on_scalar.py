@@ -66,8 +66,10 @@ class FunctionOnScalarRidge(AdditiveRegressorMixin, CurveResponseRegressor):
     The fit minimises ``sum_i w_i int (Y_i - fit_i)^2 dt + alpha sum_j int
     (D^q beta_j)^2`` (sample weights ``w_i``, integrals by quadrature on the
     response grid) with centered covariates, so the result does not change
-    when a covariate is shifted. Rank-deficient designs get the
-    minimum-norm solution, as :func:`numpy.linalg.lstsq`. GCV treats the
+    when a covariate is shifted. The penalty leaves the functions of t with
+    ``D^q = 0`` free, and there the covariates' coefficients are not
+    penalized at all, so collinear covariates (or fewer observations than
+    covariates plus one) are a ``NotIdentifiableError`` that says so. GCV treats the
     ``n_samples * n_response_points`` residuals as independent; with strongly
     autocorrelated residual curves on dense grids it may undersmooth, and
     :class:`~sklearn.model_selection.GridSearchCV` over ``alpha`` (which
@@ -78,8 +80,9 @@ class FunctionOnScalarRidge(AdditiveRegressorMixin, CurveResponseRegressor):
     merged in a tree) and predicted lazily block by block.
 
     Confidence bands are pointwise normal-theory bands assuming independent
-    curves with a common residual covariance; they ignore the smoothing bias
-    and are not simultaneous.
+    curves with a common residual covariance, pointwise or simultaneous over
+    each coefficient function (``confidence_band(simultaneous=True)``); they
+    ignore the smoothing bias.
     %(cautions)s
 
     %(curve_response_references)s

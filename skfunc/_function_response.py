@@ -42,9 +42,12 @@ Craven, P. and Wahba, G. (1979). Smoothing noisy data with spline functions.
 *Numerische Mathematik* 31, 377-403.
 """
 
+import warnings
+
 import numpy as np
-from scipy.stats import norm as _normal
+from scipy.linalg import block_diag, null_space
 from sklearn.base import BaseEstimator, RegressorMixin
+from sklearn.utils import check_random_state
 from sklearn.utils.validation import (
     check_array,
     check_consistent_length,
@@ -57,8 +60,10 @@ from ._alpha import (
     best_index,
     candidates_from_eigenvalues,
     check_alpha,
+    gcv_in_data_units,
     reml_score,
 )
+from ._bands import critical_value
 from ._blocks import chunked_matmul, is_dask_array, row_blocks
 from ._dask import check_accepts_dask
 from ._docstrings import fill_doc
@@ -66,6 +71,7 @@ from ._estimator import store_init_params
 from ._fit import AdditiveFitMixin
 from ._grid import check_grid, grid_from_labels, quadrature_weights, resolve_grid
 from ._penalized import (
+    _RCOND,
     NotIdentifiableError,
     Penalty,
     SplitPath,
@@ -74,6 +80,8 @@ from ._penalized import (
     gcv_score,
     penalty_for,
     penalty_scale,
+    scaled_statistics,
+    to_data_units,
 )
 from ._validation import (
     BASIS_CONSTRAINTS,
@@ -142,6 +150,54 @@ def response_split(basis, gram, penalty_order, penalized=True, total_weight=None
                else free_penalty(basis.n_basis))
     path = SplitPath(gram, penalty, scale=total_weight)
     return path.eigvecs, path.g, path.p, path.scale
+
+
+class UndeterminedCoefficientsWarning(UserWarning):
+    """The data do not determine every unpenalized coefficient; the fit is
+    the minimum-norm solution."""
+
+
+def min_norm_path(gram, penalty, scale, metric):
+    """``(path, n_dropped)``: the :class:`~skfunc._penalized.SplitPath` of
+    ``(gram, penalty)``, also when the data do not determine the penalty's
+    whole null space; ``metric=None`` allows no such fallback.
+
+    The null-space directions the data do not see are then dropped:
+    eigenvalues at rounding level (the engine's own test) of the
+    null-space block of ``gram`` scaled to a unit diagonal, so that columns
+    in different units (covariates against the intercept's weight total)
+    are not mistaken for a rank deficiency; when there are none, the
+    engine's error stands. The problem is solved on the ``metric``-orthogonal
+    complement of those directions, so among all minimisers the
+    coefficients ``c`` have the smallest ``c' metric c``, the minimum-norm
+    solution that :func:`numpy.linalg.lstsq` gives for rank-deficient least
+    squares. The path's ``eigvecs`` map to the full coordinates (with
+    ``n_dropped`` fewer columns), so coefficients, operators, effective
+    degrees of freedom and criteria are those of the identified part.
+    """
+    try:
+        return SplitPath(gram, penalty, scale=scale), 0
+    except NotIdentifiableError as exc:
+        if metric is None:
+            raise
+        error = exc
+    r = penalty.n_null
+    basis_n = penalty.transform[:, :r]  # orthonormal null-space basis
+    block = basis_n.T @ gram @ basis_n
+    diag = np.clip(np.diag(block), 0.0, None)
+    root = np.sqrt(np.where(diag > 0, diag, 1.0))
+    unit = block / np.outer(root, root)
+    lam, vec = np.linalg.eigh((unit + unit.T) / 2)
+    unseen = lam <= _RCOND * r * max(lam[-1], 1.0)
+    if not unseen.any():
+        raise error
+    undetermined = basis_n @ (vec[:, unseen] / root[:, None])
+    keep = null_space((metric @ undetermined).T)  # c with D' metric c = 0
+    free = basis_n @ null_space(undetermined.T @ metric @ basis_n)
+    reduced = Penalty(keep.T @ penalty.matrix @ keep, keep.T @ free)
+    path = SplitPath(keep.T @ gram @ keep, reduced, scale=scale)
+    path.eigvecs = keep @ path.eigvecs
+    return path, int(unseen.sum())
 
 
 class _PointBasis:
@@ -354,6 +410,11 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
 
     _batch_grids = (("response_grid", "response_grid_"),)
 
+    #: whether the simultaneous band covers all rows of ``coef_function_`` at
+    #: once (a coefficient surface) rather than each row (coefficient
+    #: functions of separate covariates)
+    _joint_band = False
+
     def __sklearn_tags__(self):
         tags = super().__sklearn_tags__()
         tags.target_tags.required = True
@@ -384,9 +445,16 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         The design is X itself, or ``X @ design`` for an operator ``design``
         (m, p). Keys of :func:`skfunc._penalized.cross_products` of the design and y
         (``n, sw, z_sum, y_sum, zz, zy, yy``) plus ``yproj``, the weighted
-        cross products of the projections ``Y_i' W Phi`` (K x K): all sums,
-        merged key by key (:func:`skfunc._penalized.merge`).
+        cross products of the projections ``Y_i' W Phi`` (K x K): all sums
+        of X and y divided by powers of two (``x_exp``, ``y_exp``:
+        :func:`skfunc._penalized.scaled_statistics`, so squares of data near
+        1e300 or 1e-300 stay finite and normal), merged key by key
+        (:func:`skfunc._penalized.merge`). The solve works in those units.
         """
+        return scaled_statistics(self._scaled_statistics, X, y, sample_weight,
+                                 design=design)
+
+    def _scaled_statistics(self, X, y, sample_weight=None, design=None):
         basis, weights = self._response_basis()
         phi_w = basis.evaluate(self.response_grid_) * weights[:, None]
         Y = np.asarray(y, dtype=np.float64)
@@ -419,8 +487,11 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         sw = stats["sw"]
         zz, zy, _, z_mean, y_mean = centered(stats)
         p = zz.shape[0]
-        U, g, p_t, s_t = response_split(basis, phi_w.T @ phi, self.penalty_order,
-                                        not self._unpenalized(), float(weights.sum()))
+        try:
+            U, g, p_t, s_t = response_split(basis, phi_w.T @ phi, self.penalty_order,
+                                            not self._unpenalized(), float(weights.sum()))
+        except NotIdentifiableError as exc:
+            raise self._not_identifiable("response", stats["n"]) from exc
         design_pen = pen_s if pen_s is not None else free_penalty(p)
         scale = penalty_scale(zz, design_pen) * s_t
         S = np.zeros((p + 1, p + 1))
@@ -431,9 +502,34 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
                 f"{type(self).__name__} was given 1 sample; the coefficient "
                 "functions need n_samples >= 2 (the intercept and one slope)."
             )
-        paths = [self._direction_path(S, g[k], p_t[k], gram_s, pen_s, s_t, scale)
-                 for k in range(g.size)]
+        # raw sums of squares below the smallest normal number where the sums
+        # are not zero: the squares underflowed, a numerical failure (the
+        # engine's error stands), not a rank deficiency of the data
+        underflow = np.any((np.diag(stats["zz"]) < np.finfo(float).tiny)
+                           & (stats["z_sum"] != 0))
+        metric = None if underflow else block_diag(gram_s, 1.0)
+        try:
+            built = [self._direction_path(S, g[k], p_t[k], gram_s, pen_s, s_t, scale,
+                                          metric)
+                     for k in range(g.size)]
+        except NotIdentifiableError as exc:
+            raise self._not_identifiable("design", stats["n"]) from exc
+        paths = [None if item is None else item[0] for item in built]
         live = [k for k, path in enumerate(paths) if path is not None]
+        dropped = sum(built[k][1] for k in live)
+        if dropped:
+            warnings.warn(
+                f"{type(self).__name__}: the {stats['n']} rows (weights summing to "
+                f"{sw:g}) do not determine {dropped} combination(s) of the "
+                "unpenalized coefficients (the intercept and the part of every "
+                "coefficient function the penalty leaves free): too few rows for "
+                "the covariates, or collinear covariates. The fit is the "
+                "minimum-norm solution (smallest L2 norm of the coefficient "
+                "functions), as numpy.linalg.lstsq and "
+                "sklearn.linear_model.LinearRegression return for rank-deficient "
+                "designs. Use fewer covariates or more rows for a unique fit.",
+                UndeterminedCoefficientsWarning, stacklevel=5,
+            )
         rotated = {k: paths[k].rotate(rot[:, k])[None] for k in live}
         alphas = resolve_candidates(
             self.alpha, np.concatenate([paths[k].s for k in live]), scale)
@@ -451,7 +547,7 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
                 dof = sw * m - sum(paths[k].n_null for k in live)
                 logdet = sum(paths[k].log_det_ratio(values) for k in live)
                 return reml_score(yy_w - total("penalized_rss_reduction", values), dof,
-                                  logdet)
+                                  logdet, 2 * stats["y_exp"] * np.log(2.0))
             rss = np.maximum(yy_w - total("rss_reduction", values), 0.0)
             return gcv_score(rss, edf(values), sw * m, sw * weights.sum())
 
@@ -465,11 +561,8 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
                 C[:, k] = paths[k].coef(rotated[k], alpha)[0]
                 A_inv[k] = paths[k].operator(alpha)
                 sample_edf[k] = paths[k].edf(alpha)
-        except NotIdentifiableError as exc:
-            raise NotIdentifiableError(
-                f"{type(self).__name__}: {exc} With alpha=0 use fewer basis "
-                "functions (n_basis) or more observations."
-            ) from exc
+        except NotIdentifiableError as exc:  # alpha = 0 only (d = 0)
+            raise self._not_identifiable("unpenalized", stats["n"]) from exc
         # back to the order (intercept, design)
         order = np.r_[p, np.arange(p)]
         C, S, rot = C[order], S[np.ix_(order, order)], rot[order]
@@ -480,14 +573,71 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         cov = np.einsum("ai,bk,kilm,cm,dl->abcd", transform, U, cov, transform, U,
                         optimize=True)
         p1, K = C.shape
-        self._store(basis, transform @ C @ U.T, cov.reshape(p1 * K, p1 * K),
+        # back to the data's units: the intercept row is in y's, the others
+        # in y / x (powers of two, exact; variances may overflow: checked)
+        x_power = np.r_[0.0, -np.ones(p)]
+        basis_coef = to_data_units(transform @ C @ U.T, stats, x_power[:, None], 1)
+        cov = to_data_units(cov, stats, x_power[:, None, None, None]
+                            + x_power[None, None, :, None], 2)
+        if criterion is not None and self.criterion == "gcv":
+            criterion = gcv_in_data_units(criterion, stats["y_exp"])
+        self._store(basis, basis_coef, cov.reshape(p1 * K, p1 * K),
                     alphas, criterion, edf(alphas), best)
 
+    def _not_identifiable(self, side, n_samples):
+        """The error for coefficients the data cannot determine, with the
+        advice that fits the case: the penalty's null space needs a lower
+        ``penalty_order`` (or more data), an unpenalized basis a smaller
+        ``n_basis``; only alpha = 0 is told to add a penalty."""
+        name, q = type(self).__name__, self.penalty_order
+        if side == "unpenalized":
+            detail = (
+                "with alpha=0 (no penalty) the data must determine every basis "
+                "coefficient and do not. Use a smaller n_basis, more observations, "
+                "or a roughness penalty (alpha > 0 or 'auto')."
+            )
+        elif side == "response" and self._unpenalized():
+            detail = (
+                f"the {self.response_grid_.size} response grid points do not "
+                "determine the response basis without a penalty (alpha=0). Use a "
+                "smaller n_basis or a roughness penalty (alpha > 0 or 'auto')."
+            )
+        elif side == "response":
+            detail = (
+                f"the {self.response_grid_.size} response grid points do not "
+                f"determine the functions of t the roughness penalty leaves free "
+                f"(polynomials of degree < penalty_order={q}), whatever alpha. Use "
+                "a lower penalty_order or a response grid with more points."
+            )
+        elif self._design_geometry()[1] is None:  # scalar covariates
+            detail = (
+                f"in the functions of t the roughness penalty leaves free "
+                f"(degree < penalty_order={q}) the covariates' coefficients are "
+                f"unpenalized, so the intercept and the {self.n_features_in_} "
+                f"covariate(s) must be linearly independent over the "
+                f"{n_samples} observations, whatever alpha. Use more "
+                "observations, drop collinear covariates, or penalty_order=0 "
+                "(which penalizes every function of t)."
+            )
+        else:
+            detail = (
+                f"the input curves must determine the input functions the "
+                f"roughness penalty leaves free (degree < penalty_order={q} in "
+                f"s, together with the intercept), whatever alpha; {n_samples} "
+                "curves do not. Use more curves or a lower penalty_order."
+            )
+        return NotIdentifiableError(
+            f"{name} cannot determine its coefficient functions from {n_samples} "
+            f"observations: {detail}"
+        )
+
     @staticmethod
-    def _direction_path(S, g_k, p_k, gram_s, pen_s, s_t, scale):
-        """The split path of response direction k (None when the data do not
-        see it): design block penalized by ``g_k / s_t Ps + p_k Gs``, the
-        intercept (last) unpenalized."""
+    def _direction_path(S, g_k, p_k, gram_s, pen_s, s_t, scale, metric):
+        """``(path, n_dropped)`` of response direction k (None when the data
+        do not see it): design block penalized by ``g_k / s_t Ps + p_k Gs``,
+        the intercept (last) unpenalized; the minimum-norm solution in
+        ``metric`` where the data do not determine the unpenalized part
+        (:func:`min_norm_path`)."""
         p = gram_s.shape[0]
         if p_k == 0:  # the response penalty's null space: only Ps acts
             if pen_s is None:
@@ -499,7 +649,7 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         else:
             matrix = gram_s if pen_s is None else gram_s + g_k / s_t * pen_s.matrix
             pen = Penalty(matrix, np.zeros((p, 0)))
-        return SplitPath(g_k * S, pen.extend(1), scale=scale)
+        return min_norm_path(g_k * S, pen.extend(1), scale, metric)
 
     def _store(self, basis, basis_coef, coef_covariance, alphas, criterion, edf, best):
         """Set the fitted attributes of the solution at candidate ``best``."""
@@ -592,19 +742,32 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         # prediction, centered where a large mean would cost digits
         return self._design_effect(X, coef, points, offset=intercept)
 
-    def confidence_band(self, level=0.95, intercept=False):
-        """Pointwise confidence band of the coefficient functions.
+    def confidence_band(self, level=0.95, intercept=False, *, simultaneous=False,
+                        n_draws=4000, random_state=None):
+        """Confidence band of the coefficient functions.
 
-        Normal-theory intervals ``estimate -/+ z sd`` at every grid point,
-        assuming independent observations; they ignore the smoothing bias
-        and are not simultaneous over the grid.
+        ``estimate -/+ c sd`` at every grid point, from ``coef_covariance_``
+        (independent observations). Pointwise, ``c`` is the normal quantile
+        ``z_{(1 + level)/2}``; simultaneous, ``c`` is the ``level`` quantile
+        of ``max |f~ - f_hat| / sd`` over ``n_draws`` draws ``f~`` from the
+        coefficients' normal distribution (Ruppert, Wand and Carroll, 2003),
+        so that the whole function lies inside at once: each coefficient
+        function separately, a coefficient surface as a whole. Both ignore
+        the smoothing bias: where the function is rough they are too narrow.
 
         Parameters
         ----------
         level : float, default=0.95
-            Coverage of each pointwise interval, in (0, 1).
+            Coverage level, in (0, 1).
         intercept : bool, default=False
             Band of ``intercept_function_`` instead of ``coef_function_``.
+        simultaneous : bool, default=False
+            Whether the level holds for the whole function at once (wider)
+            rather than at each point.
+        n_draws : int, default=4000
+            Draws for the simultaneous critical value.
+        random_state : int, RandomState instance or None, default=None
+            Seeds the draws (simultaneous bands only).
 
         Returns
         -------
@@ -614,10 +777,20 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         """
         check_is_fitted(self)
         level = check_level(level)
-        p1 = self.basis_coef_.shape[0]
+        p1, K = self.basis_coef_.shape
         left = np.eye(p1)[:1] if intercept else self._coef_rows()
         estimate, phi = self._evaluate(left)
-        half = _normal.ppf(0.5 + level / 2) * np.sqrt(self._band_variance(left, phi))
+        sd = np.sqrt(self._band_variance(left, phi))
+        joint = self._joint_band and not intercept
+        groups = [np.arange(left.shape[0])] if joint else np.arange(left.shape[0])[:, None]
+        rng = check_random_state(random_state)
+        crit = np.empty((left.shape[0], 1))
+        for rows in groups:
+            crit[rows] = critical_value(
+                level, simultaneous=simultaneous, covariance=self.coef_covariance_,
+                evaluate=lambda e, sub=left[rows]: sub @ e.reshape(-1, p1, K) @ phi.T,
+                sd=sd[rows], n_draws=n_draws, random_state=rng)
+        half = crit * sd
         shape = (self.intercept_function_ if intercept else self.coef_function_).shape
         return (estimate - half).reshape(shape), (estimate + half).reshape(shape)
 

@@ -33,6 +33,10 @@ from ._validation import BASIS_CONSTRAINTS, basis_for, validate_curves
 
 SVD_SOLVERS = ("auto", "full", "covariance_eigh", "randomized")
 
+#: variances below this (squares of values near 1e-145) have lost their
+#: digits to float64's underflow (its smallest normal number is 2.2e-308)
+_SMALLEST_VARIANCE = 1e-290
+
 
 @fill_doc
 class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
@@ -492,6 +496,16 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         return self.n_components
 
     def _check_variance(self, total, mean):
+        size = float(np.abs(mean).max(initial=0.0))
+        if total < _SMALLEST_VARIANCE and 0 < size < np.sqrt(_SMALLEST_VARIANCE):
+            raise ValueError(
+                f"The variance of X is not representable: the curves' values "
+                f"(mean values up to {size:.3g}) are so small that their squares "
+                "fall below float64's range (about 1e-300), so the variances "
+                "(explained_variance_) would be 0. Rescale X, for example to "
+                "units near 1; the components do not change, and the variances "
+                "scale with the square of the factor."
+            )
         if total <= 1e-20 * float(mean @ mean) or total == 0:
             raise ValueError(
                 "X has zero variance: all curves are identical (up to rounding), "

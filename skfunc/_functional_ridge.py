@@ -27,6 +27,9 @@ from ._penalized import (
     NotIdentifiableError,
     centered,
     centered_cross_products,
+    data_exponent,
+    scale_down,
+    to_data_units,
 )
 from ._weights import check_sample_weight
 
@@ -76,9 +79,34 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
         Keys of :func:`skfunc._penalized.centered_cross_products` of the
         integrated design and y: raw sums (``n, sw, z_sum, y_sum, zz, zy,
         yy``) and cross products about the block's means (``czz, czy,
-        cyy``), merged exactly by :func:`skfunc._penalized.merge`.
+        cyy``), of X and y divided by powers of two (``x_exp``, ``y_exp``:
+        :func:`skfunc._penalized.scaled_statistics`), merged exactly by
+        :func:`skfunc._penalized.merge`. Everything up to the fitted
+        attributes is computed in those scaled units, so data near 1e300 or
+        1e-300 neither overflow nor underflow.
         """
-        return centered_cross_products(self._design(X, operator), y, sample_weight)
+        Z, z_exp, y, y_exp = self._scaled_design(X, y, operator)
+        stats = centered_cross_products(Z, y, sample_weight)
+        stats.update(x_exp=z_exp, y_exp=y_exp)
+        return stats
+
+    def _scaled_design(self, X, y, operator):
+        """``(Z, z_exp, y, y_exp)``: the integrated design of the curves and
+        the covariates divided by powers of two ``2**z_exp`` (one exponent
+        for the curves' columns, one per covariate: covariates are
+        unpenalized, so scaling each is a change of units that leaves the
+        fit unchanged, and covariates in other units than the curves keep
+        their digits) and y divided by ``2**y_exp``."""
+        m = X.shape[1] - self.n_covariates
+        curves = data_exponent(X[:, :m])
+        covariates = [data_exponent(X[:, j]) for j in range(m, X.shape[1])]
+        z_exp = np.array([curves] * operator.shape[1] + covariates, dtype=np.int64)
+        X = np.asarray(X, dtype=np.float64)
+        scaled = np.hstack([scale_down(X[:, :m], curves)]
+                           + [scale_down(X[:, j:j + 1], e)
+                              for j, e in zip(range(m, X.shape[1]), covariates)])
+        y_exp = data_exponent(y)
+        return self._design(scaled, operator), z_exp, scale_down(y, y_exp), y_exp
 
     def _solve(self, stats):
         self._fit_pooled(stats, self._basis(), self._target_ndim)
@@ -136,7 +164,13 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
         u = path.eigvecs[:k]
         inv_d = 1.0 / path.denominators(per_target)
         covariance = np.einsum("t,kj,tj,lj->tkl", sigma2, u, inv_d, u)
-        self._set_coefficients(basis, theta, intercept, covariance, squeeze)
+        # from the scaled statistics back to the data's units (powers of two;
+        # the covariance is of the curves' coefficients, which share one)
+        curves = {"x_exp": np.asarray(stats["x_exp"]).ravel()[0], "y_exp": stats["y_exp"]}
+        self._set_coefficients(
+            basis, to_data_units(theta, stats, -1, 1), to_data_units(intercept, stats, 0, 1),
+            to_data_units(covariance, curves, -2, 2), squeeze)
+        sigma2 = to_data_units(sigma2, stats, 0, 2)
         self.edf_ = float(edf[0]) if squeeze or np.ndim(alpha) == 0 else edf
         self.noise_variance_ = float(sigma2[0]) if squeeze else sigma2
         return self
@@ -160,6 +194,7 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
             # frequency weights: the weight total counts the rows (GCV's n, REML's n)
             path, part["rotated"], part["yy"], stats["sw"], alpha, criterion=criterion,
             total_weight=stats["sw"], extra_edf=int(self.fit_intercept), pooled=pooled,
+            y_exp=stats.get("y_exp", 0),
         )
         self._store_path(path, chosen)
         return self._solve_at(stats, self.alpha_, basis, squeeze=y_ndim == 1)

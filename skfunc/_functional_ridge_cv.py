@@ -6,14 +6,22 @@ import numpy as np
 from sklearn.model_selection import check_cv
 from sklearn.utils._param_validation import StrOptions
 
-from ._alpha import ALPHA_CONSTRAINT, AUTO, CRITERIA, best_index, candidates_for, check_alpha
+from ._alpha import (
+    ALPHA_CONSTRAINT,
+    AUTO,
+    CRITERIA,
+    best_index,
+    candidates_for,
+    check_alpha,
+    gcv_in_data_units,
+)
 from ._blocks import is_dask_array
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._fit import check_finite_fit
 from ._functional_ridge import FunctionalRidgeBase
 from ._integrated_design import DESIGN_CONSTRAINTS, PERIOD_CONSTRAINT
-from ._penalized import centered_cross_products, cross_products
+from ._penalized import centered_cross_products
 
 
 @fill_doc
@@ -41,7 +49,8 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
     cv : int, cross-validation generator or iterable, default=None
         None uses ``criterion``; otherwise a scikit-learn splitter (an int
         means ``KFold(cv)``), and the criterion is the mean over folds of the
-        weighted held-out mean squared error.
+        weighted held-out mean squared error (the splitter splits rows: a
+        weighted row stays whole in its fold; see Notes).
     alpha_per_target : bool, default=False
         With several targets, choose one alpha per target (as
         :class:`sklearn.linear_model.RidgeCV` does) instead of one alpha
@@ -75,10 +84,18 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
     %(scalar_outcome_notes)s
 
     GCV is ``(RSS / sum w) / (1 - edf / n)^2`` with the intercept counted in
-    ``edf``. Leave-one-out uses the exact identity ``y_i - yhat_{-i} =
-    (y_i - yhat_i) / (1 - h_ii)`` with leverages ``h_ii(alpha) = w_i / sum w
-    + w_i sum_k (z_i u_k)^2 / d_k(alpha)`` in the engine's diagonalising
-    basis; it is the weighted mean of the squared leave-one-out residuals.
+    ``edf``. Sample weights are frequencies (weight 2 = the row twice), and
+    both cross-validation criteria equal those of the duplicated rows.
+    Leave-one-out leaves out one observation: one unit of a row's weight,
+    or the whole row when its weight is below 1. It uses the exact identity
+    ``y_i - yhat_{-i} = (y_i - yhat_i) / (1 - delta_i q_i)`` with ``delta_i
+    = min(w_i, 1)`` and the leverage of one observation ``q_i(alpha) = 1 /
+    sum w + sum_k (z_i u_k)^2 / d_k(alpha)`` in the engine's diagonalising
+    basis, and is the weighted mean of the squared leave-one-out residuals.
+    K-fold keeps a weighted row whole in one fold (its copies go together,
+    as with :class:`~sklearn.model_selection.GroupKFold` grouping the copies
+    of each row), so a fold's held-out error is its weighted mean squared
+    error, and the criterion is the mean over folds.
 
     %(scalar_outcome_references)s
 
@@ -139,9 +156,12 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
         if is_dask_array(X):
             raise ValueError(self._needs_memory("a dask array X"))
         basis = self._basis()
-        Z = self._design(X, self._integration_operator(basis))
-        y2 = y.reshape(y.shape[0], -1)
+        # X and y divided by powers of two, as in the statistics of fit
+        # from sums: the criteria are computed in these units
+        Z, z_exp, y2, y_exp = self._scaled_design(X, y, self._integration_operator(basis))
+        y2 = y2.reshape(y.shape[0], -1)
         stats = centered_cross_products(Z, y2, sample_weight)
+        stats.update(x_exp=z_exp, y_exp=y_exp)
         alphas = candidates_for(alphas, self._path(stats, basis)[0])
         if self.cv is not None:
             criterion = self._kfold_criterion(Z, y2, sample_weight, basis, alphas)
@@ -187,6 +207,7 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
             criterion = criterion.mean(axis=0)  # one alpha for all targets
         name = "leave-one-out" if self.cv is None else "K-fold"
         best = best_index(criterion, alphas, criterion=name)
+        criterion = gcv_in_data_units(criterion, stats["y_exp"])  # a mean squared error
         self.alphas_path_ = alphas
         self.criterion_path_ = criterion
         self.edf_path_ = self._path(stats, basis)[0].edf(alphas) + self.fit_intercept
@@ -199,15 +220,25 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
 
     def _held_out_error(self, path, part, Z, y2, sample_weight, alphas, leverage):
         """Weighted mean of squared (leave-one-out) residuals on rows of Z, for
-        every target and alpha; ``leverage`` adds the leave-one-out factor."""
+        every target and alpha; ``leverage`` adds the leave-one-out factor.
+
+        Frequency weights: a row of weight ``w_i`` is ``w_i`` observations,
+        and leaving one out removes ``min(w_i, 1)`` of its weight. With
+        ``q_i = z_i' (Z'WZ + lam P)^{-1} z_i`` (plus ``1 / sum w`` for the
+        intercept), removing weight ``delta`` from row i changes its residual
+        to ``e_i / (1 - delta q_i)`` (Sherman-Morrison), so an integer
+        weight gives exactly the criterion of the duplicated rows, and a
+        weight below 1 leaves the whole row out.
+        """
         inv_d = 1.0 / path.denominators(alphas)  # (L, K)
         zu = (Z - part["z_mean"]) @ path.eigvecs
+        zu[:, path.g == 0] = 0.0  # directions the data do not see (SplitPath.rotate)
         divisor = 1.0
         if leverage:
-            h = sample_weight[:, None] * (zu**2 @ inv_d.T)
+            q = zu**2 @ inv_d.T  # leverage of one observation, (n, L)
             if self.fit_intercept:
-                h += (sample_weight / sample_weight.sum())[:, None]
-            divisor = 1.0 - h
+                q += 1.0 / sample_weight.sum()
+            divisor = 1.0 - np.minimum(sample_weight, 1.0)[:, None] * q
         errors = np.zeros((y2.shape[1], len(alphas)))
         for j, rotated in enumerate(part["rotated"]):
             fitted = (zu * rotated) @ inv_d.T
@@ -222,7 +253,7 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
         cv = check_cv(self.cv)
         scores = []
         for train, test in cv.split(Z, y2):
-            stats = cross_products(Z[train], y2[train], sample_weight[train])
+            stats = centered_cross_products(Z[train], y2[train], sample_weight[train])
             path, part = self._path(stats, basis)
             scores.append(
                 self._held_out_error(

@@ -29,11 +29,11 @@ from numbers import Integral, Real
 
 import numpy as np
 from scipy.linalg import block_diag
-from scipy.stats import norm
 from sklearn.utils import check_random_state
 from sklearn.utils._param_validation import Interval
 from sklearn.utils.validation import check_is_fitted
 
+from ._bands import critical_value
 from ._blocks import chunked_matmul, output_dtype
 from ._estimator import ShortReprMixin
 from ._grid import quadrature_weights
@@ -212,33 +212,14 @@ class IntegratedDesignMixin(ShortReprMixin):
         phi = self._basis().evaluate(self.grid_)
         var = np.einsum("jk,...kl,jl->...j", phi, self.coef_covariance_, phi)
         sd = np.sqrt(np.maximum(var, 0.0))
-        if simultaneous:
-            if isinstance(n_draws, bool) or not isinstance(n_draws, Integral) \
-                    or n_draws < 100:
-                raise ValueError(
-                    f"n_draws must be an integer >= 100; got {n_draws!r}."
-                )
-            crit = _simultaneous_critical_value(
-                phi, self.coef_covariance_, sd, level, n_draws,
-                check_random_state(random_state))
-        else:
-            crit = norm.ppf(0.5 + level / 2)
+        covs = self.coef_covariance_.reshape((-1,) + self.coef_covariance_.shape[-2:])
+        rng = check_random_state(random_state)
+        crit = np.array([
+            critical_value(level, simultaneous=simultaneous, covariance=cov,
+                           evaluate=lambda e: e @ phi.T, sd=s, n_draws=n_draws,
+                           random_state=rng)
+            for cov, s in zip(covs, sd.reshape(len(covs), -1))])
+        crit = crit[:, None] if self.coef_covariance_.ndim == 3 else crit[0]
         half = crit * sd
         return self.coef_function_ - half, self.coef_function_ + half
 
-
-def _simultaneous_critical_value(phi, covariance, sd, level, n_draws, rng):
-    """The ``level`` quantile of ``max_t |phi(t)' e| / sd(t)`` for ``e`` drawn
-    from N(0, covariance), per target (Ruppert, Wand and Carroll, 2003)."""
-    covs = covariance.reshape((-1,) + covariance.shape[-2:])
-    sds = sd.reshape(len(covs), -1)
-    crit = np.empty(len(covs))
-    for i, (cov, s) in enumerate(zip(covs, sds)):
-        eigval, eigvec = np.linalg.eigh(cov)
-        root = eigvec * np.sqrt(np.maximum(eigval, 0.0))  # root @ root.T = cov
-        draws = rng.standard_normal((n_draws, root.shape[1])) @ root.T @ phi.T
-        inside = s > 0
-        worst = np.max(np.abs(draws[:, inside]) / s[inside], axis=1)
-        crit[i] = np.quantile(worst, level)
-    return crit.reshape(covariance.shape[:-2] + (1,)) if covariance.ndim == 3 \
-        else float(crit[0])

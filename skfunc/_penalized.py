@@ -197,12 +197,18 @@ def merge(*stats):
     Centred cross products (from :func:`centered_cross_products`) are
     combined by the exact pairwise update instead of summed.
     """
+    if "x_exp" in stats[0]:  # scaled (scaled_statistics): one scale first
+        x_exp = np.maximum.reduce([np.asarray(s["x_exp"]) for s in stats])
+        x_exp = int(x_exp) if x_exp.ndim == 0 else x_exp
+        y_exp = max(int(s["y_exp"]) for s in stats)
+        stats = [rescaled(s, x_exp, y_exp) for s in stats]
     if "czz" in stats[0]:
         return _merge_centered(*stats)
     out = dict(stats[0])
     for s in stats[1:]:
         for key in out:
-            out[key] = out[key] + s[key]
+            if key not in ("x_exp", "y_exp"):  # equal after rescaling
+                out[key] = out[key] + s[key]
     return out
 
 
@@ -413,17 +419,114 @@ def power_of_two_scale(*arrays):
     values near 1e300 and normal for values near 1e-300; a power of two
     changes no digit, so fits on ``x / s`` times ``s`` equal fits on ``x``.
     """
+    exponent = data_exponent(*arrays)
+    return 1.0 if exponent == ZERO_EXPONENT else float(np.ldexp(1.0, exponent))
+
+
+#: :func:`data_exponent` of all-zero data: below every float64 exponent, so
+#: merging takes the other blocks' scale (zeros stay zeros at any scale)
+ZERO_EXPONENT = -1100
+
+
+def data_exponent(*arrays):
+    """The integer ``e`` with ``max |x| / 2**e`` in [0.5, 1), ignoring NaN
+    and inf (:data:`ZERO_EXPONENT` when every value is 0).
+
+    ``np.ldexp(x, -e)`` is then ``x`` divided by a power of two: exact, and
+    defined even where ``2**e`` itself would overflow (values near 1.8e308).
+    """
     top = 0.0
     for a in arrays:
         a = np.asarray(a, dtype=np.float64)
         if a.size:
             with np.errstate(invalid="ignore"):
-                m = np.nanmax(np.abs(a)) if np.isnan(a).any() else np.max(np.abs(a))
-            if np.isfinite(m):
-                top = max(top, float(m))
+                m = np.max(np.abs(a), where=np.isfinite(a), initial=0.0)
+            top = max(top, float(m))
     if top == 0.0:
-        return 1.0
-    return float(np.ldexp(1.0, np.frexp(top)[1]))
+        return ZERO_EXPONENT
+    return int(np.frexp(top)[1])
+
+
+def scale_down(a, exponent):
+    """``a / 2**exponent`` in float64, exactly (no-op for all-zero data)."""
+    a = np.asarray(a, dtype=np.float64)
+    return a if exponent == ZERO_EXPONENT else np.ldexp(a, -exponent)
+
+
+#: ``(p, q)`` of each scaled statistic: it was formed from ``x / 2**ex`` and
+#: ``y / 2**ey`` and so carries the factor ``2**(-p ex - q ey)``. The keys of
+#: :func:`cross_products`, :func:`centered_cross_products` and the
+#: curve-response statistics (``yproj``; the concurrent model's per-point
+#: ``x``, ``xx``, ``y``, ``xy``); ``n`` and ``sw`` carry no unit.
+SCALE_POWERS = {
+    "z_sum": (1, 0), "y_sum": (0, 1), "zz": (2, 0), "zy": (1, 1), "yy": (0, 2),
+    "czz": (2, 0), "czy": (1, 1), "cyy": (0, 2), "yproj": (0, 2),
+    "x": (1, 0), "xx": (2, 0), "y": (0, 1), "xy": (1, 1),
+}
+
+#: statistics that are counts, not sums of data
+_UNITLESS = ("n", "sw", "x_exp", "y_exp")
+
+
+def scaled_statistics(statistics, X, y, sample_weight=None, **kwargs):
+    """``statistics(X / 2**ex, y / 2**ey, sample_weight, **kwargs)`` with the
+    power-of-two exponents of X and y (:func:`data_exponent`) stored as
+    ``x_exp`` and ``y_exp``.
+
+    Sums of squares of data near 1e300 would overflow and of data near
+    1e-300 underflow; of the scaled data they cannot. Statistics of blocks
+    with different exponents merge exactly (:func:`merge` brings them to the
+    larger exponents by powers of two), so the scale never changes a digit.
+    """
+    ex, ey = data_exponent(X), data_exponent(y)
+    stats = statistics(scale_down(X, ex), scale_down(y, ey), sample_weight, **kwargs)
+    stats.update(x_exp=ex, y_exp=ey)
+    return stats
+
+
+def rescaled(stats, x_exp, y_exp):
+    """Scaled statistics brought to the exponents ``(x_exp, y_exp)``, by
+    powers of two (exact unless the values fall below float64's normal
+    range, where they are negligible beside the data that set the scale).
+
+    ``x_exp`` is one exponent for all columns of the design, or one per
+    column (then ``z_sum`` scales per column, ``zz`` by the sum of its row's
+    and column's, ``zy`` by its row's).
+    """
+    dx = np.asarray(stats["x_exp"]) - np.asarray(x_exp)
+    dy = int(stats["y_exp"]) - int(y_exp)
+    out = dict(stats, x_exp=x_exp, y_exp=y_exp)
+    if not np.any(dx) and dy == 0:
+        return out
+    for key, value in stats.items():
+        if key in _UNITLESS:
+            continue
+        if key not in SCALE_POWERS:
+            raise KeyError(f"the statistic {key!r} has no declared scale (SCALE_POWERS)")
+        p, q = SCALE_POWERS[key]
+        if dx.ndim == 0 or p == 0:
+            shift = p * dx
+        elif p == 2:
+            shift = dx[:, None] + dx[None, :]
+        else:  # one design index: the first axis of a matrix, the only of a vector
+            shift = dx if np.ndim(value) == 1 else dx[:, None]
+        out[key] = np.ldexp(value, (shift + q * dy).astype(np.int64))
+    return out
+
+
+def to_data_units(value, stats, x_power, y_power):
+    """A quantity computed from scaled statistics in the data's units:
+    ``value * 2**(x_power ex + y_power ey)`` (coefficients ``(-1, 1)``,
+    intercepts ``(0, 1)``, variances ``(0, 2)``, ...); unchanged for
+    statistics without exponents. Per-column exponents ``ex`` broadcast
+    along the last axis. May overflow to inf: the caller checks."""
+    if "x_exp" not in stats:
+        return value
+    exponent = np.asarray(y_power * stats["y_exp"])
+    if np.any(x_power):  # (x_exp may be per column: only coefficients carry it)
+        exponent = exponent + np.asarray(x_power) * np.asarray(stats["x_exp"])
+    with np.errstate(over="ignore"):
+        return np.ldexp(value, exponent.astype(np.int64))
 
 
 class SplitPath:
@@ -526,8 +629,19 @@ class SplitPath:
         return d
 
     def rotate(self, rhs):
-        """Rotated right-hand sides ``b U``, one row per right-hand side."""
-        return np.asarray(rhs) @ self.eigvecs
+        """Rotated right-hand sides ``b U``, one row per right-hand side.
+
+        Directions the data do not see (``s`` set to 0: at rounding level)
+        get exactly 0, their value in exact arithmetic (``u'Gu = 0`` means
+        ``Z u = 0``, so ``b'u = y'W Z u = 0``). Their rounding noise would
+        otherwise become coefficients ``r / lam`` at small alpha and a
+        spurious drop of the residual sum of squares in GCV.
+        """
+        rotated = np.asarray(rhs) @ self.eigvecs
+        unseen = self.g == 0
+        if unseen.any():
+            rotated[..., unseen] = 0.0
+        return rotated
 
     def coef(self, rotated, alpha):
         """Coefficients ``(G + lam P)^{-1} b`` as rows; alpha scalar or per row."""

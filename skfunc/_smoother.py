@@ -211,8 +211,11 @@ class _Problem:
         return SplitPath(phi_w.T @ self.phi, self.penalty, scale=scale)
 
     def rotation(self, path, weights):
-        """Operator from curve values to rotated right-hand sides, (m, K)."""
-        return (self.phi * weights[:, None]) @ path.eigvecs
+        """Operator from curve values to rotated right-hand sides, (m, K);
+        0 in the directions the data do not see (as ``SplitPath.rotate``)."""
+        operator = (self.phi * weights[:, None]) @ path.eigvecs
+        operator[:, path.g == 0] = 0.0
+        return operator
 
     def blocks(self, X, rows=None, scale=1.0):
         """Rows of X (divided by ``scale``) grouped by missing-value pattern.
@@ -265,11 +268,16 @@ class _Problem:
                 if null == 0:  # unpenalized: every direction needs the data
                     path.denominators(0.0)
             except NotIdentifiableError as exc:
+                if null == 0:  # alpha = 0: every basis function needs the data
+                    advice = "use a smaller n_basis or a roughness penalty (alpha > 0 or 'auto')"
+                else:  # penalized: the values cannot fix the penalty's null space
+                    advice = (f"use a lower penalty_order (its {null} unpenalized "
+                              "functions need observed values spread over the domain)")
                 raise ValueError(
                     f"Row {int(group[0])} of X has {int(pattern.sum())} observed "
-                    f"value(s) (non-NaN), too few to determine a smooth curve in "
-                    f"this basis with this penalty. Remove the row, fill in "
-                    f"values, or use a smaller n_basis or a positive alpha."
+                    f"value(s) (non-NaN), too few or too close together to "
+                    f"determine a smooth curve in this basis with this penalty. "
+                    f"Remove the row, fill in values, or {advice}."
                 ) from exc
             yield (group, X_p @ self.rotation(path, w_p),
                    _weighted_squares(X_p, w_p), path, int(pattern.sum()),

@@ -462,6 +462,14 @@ class SparseFunctionalPCA(ShortReprMixin, ComponentCurvesMixin, ClassNamePrefixF
         domain = (grid[0], grid[-1])
         rows, cols, values = _observations(X)
         scale = power_of_two_scale(values)
+        if scale < 1e-145:  # variances (scale^2) below float64's normal range
+            raise ValueError(
+                f"The variances of X are not representable: its observed values "
+                f"(up to {np.abs(values).max():.3g}) are so small that their "
+                "squares fall below float64's range (about 1e-290), so "
+                "explained_variance_ and noise_variance_ would be 0 and the "
+                "scores undefined. Rescale X, for example to units near 1."
+            )
         values = values / scale
         m = grid.size
         counts = np.bincount(cols, minlength=m).astype(np.float64)

@@ -30,6 +30,7 @@ from skfunc._penalized import (  # noqa: E402
     centered_cross_products,
     cross_products,
 )
+from skfunc.datasets import make_kiln_firing  # noqa: E402
 from skfunc.decomposition import FunctionalPCA  # noqa: E402
 from skfunc.linear_model import (  # noqa: E402
     FunctionalRidge,
@@ -65,25 +66,13 @@ def assert_same_gcv_fit(model, reference, X_lazy, X):
 
 
 def kiln_runs(n_runs, n_minutes=121, seed=0):
-    """Invented kiln-firing temperature logs (deg C) over a 10-hour cycle.
-
-    Ramp to a peak, soak, cool down; every number here is invented. Returns
-    the grid in hours, the curves and a flexural strength (MPa) that is a
-    linear functional of the curve plus noise.
-    """
-    rng = np.random.default_rng(seed)
-    t = np.linspace(0.0, 10.0, n_minutes)
-    peak = rng.uniform(1150, 1250, n_runs)[:, None]
-    ramp_end = rng.uniform(3.5, 4.5, n_runs)[:, None]
-    soak_end = ramp_end + rng.uniform(1.5, 2.5, n_runs)[:, None]
-    rise = np.clip(t / ramp_end, 0, 1)
-    fall = np.clip((t - soak_end) / (10.0 - soak_end), 0, 1)
-    X = 20 + (peak - 20) * rise * (1 - 0.8 * fall)
-    X = X + rng.normal(0, 3.0, X.shape)
-    beta = np.exp(-((t - 5.0) ** 2))  # weight of the soak on strength
-    noise = rng.normal(0, 0.5, n_runs)
-    strength = 30 + 0.002 * np.trapezoid(X * beta, t, axis=1) + noise
-    return t, X, strength
+    """Invented kiln-firing runs (:func:`skfunc.datasets.make_kiln_firing`,
+    no thermocouple dropouts) logged at ``n_minutes`` evenly spaced minutes
+    of the 10-hour cycle: the grid, the temperature curves (deg C) and the
+    tiles' strength (MPa)."""
+    kiln = make_kiln_firing(n_runs, grid=np.linspace(0, 599, n_minutes),
+                            dropout_fraction=0.0, random_state=seed)
+    return kiln.grid, kiln.data, kiln.strength
 
 
 # ---------------------------------------------------------------------------

@@ -44,29 +44,68 @@ def test_gcv_equals_brute_force(data):
 def test_leave_one_out_equals_brute_force(data, rng, weighted):
     # Source: the definition of leave-one-out cross-validation (Stone, 1974):
     # refit without curve i, predict it; weighted mean of the squared errors.
+    # Weights are frequencies (scikit-learn's meaning), so leaving one
+    # observation out removes one unit of a row's weight, or the whole row
+    # when its weight is below 1 (weights from 0.5 to 2.5 take both branches).
     X, y = data
     n = len(y)
-    w = rng.uniform(0.5, 2.0, size=n) if weighted else np.ones(n)
+    w = rng.uniform(0.5, 2.5, size=n) if weighted else np.ones(n)
     est = FunctionalRidgeCV(alpha=ALPHAS, criterion="loo", n_basis=12)
     est.fit(X, y, sample_weight=w)
     # The leverage identity holds the penalty's weight fixed at the full
     # data's; the unit-free alpha scales with the data's largest eigenvalue
     # (docs/bases_and_penalties.rst), so each refit's alpha is rescaled by the
     # ratio of the two scales to keep that weight.
+    # (The statistics hold X divided by 2**x_exp, so the path's scale is in
+    # those units: times 4**x_exp in the data's.)
     def scale(fit):
-        return fit._path(fit._partial_statistics, fit._basis())[0].scale
+        stats = fit._partial_statistics
+        return np.ldexp(fit._path(stats, fit._basis())[0].scale, 2 * stats["x_exp"][0])
 
     full = scale(FunctionalRidge(alpha=1.0, n_basis=12).fit(X, y, sample_weight=w))
     for alpha, score in zip(ALPHAS[::2], est.criterion_path_[::2], strict=True):
         errors = np.empty(n)
         for i in range(n):
-            keep = np.arange(n) != i
+            left = w.copy()
+            left[i] -= min(w[i], 1.0)
+            keep = left > 0
             fit = FunctionalRidge(alpha=alpha, n_basis=12)
-            fit.fit(X[keep], y[keep], sample_weight=w[keep])
+            fit.fit(X[keep], y[keep], sample_weight=left[keep])
             fit.set_params(alpha=alpha * full / scale(fit))
-            fit.fit(X[keep], y[keep], sample_weight=w[keep])
+            fit.fit(X[keep], y[keep], sample_weight=left[keep])
             errors[i] = y[i] - fit.predict(X[i : i + 1])[0]
         np.testing.assert_allclose(score, w @ errors**2 / w.sum(), rtol=1e-8)
+
+
+def _duplicated(w):
+    """Row indices repeating row i w[i] times (integer frequency weights)."""
+    return np.repeat(np.arange(w.size), w.astype(int))
+
+
+@pytest.mark.filterwarnings("ignore::skfunc._alpha.AlphaAtEdgeWarning")
+def test_weighted_criteria_equal_duplicated_rows(data, rng):
+    # Source: scikit-learn's meaning of sample_weight (its glossary, common
+    # practice): a row of weight k counts as k copies of it, weight 0 as no
+    # row. Leave-one-out then leaves out one copy at a time (the other copies
+    # stay in the fit), and K-fold keeps a row's copies together in its fold
+    # (the folds below map each original row's fold to all of its copies).
+    # Before frequency weights, weight 2 moved the leave-one-out criterion by
+    # up to 49% and its choice of alpha by three orders of magnitude.
+    X, y = data
+    w = rng.integers(0, 4, size=len(y)).astype(float)
+    rows = _duplicated(w)
+    loo = FunctionalRidgeCV(alpha=ALPHAS, criterion="loo", n_basis=12)
+    weighted = loo.fit(X, y, sample_weight=w).criterion_path_
+    copies = loo.fit(X[rows], y[rows]).criterion_path_
+    np.testing.assert_allclose(weighted, copies, rtol=1e-9)
+    folds = list(KFold(5, shuffle=True, random_state=0).split(X))
+    copy_folds = [(np.flatnonzero(np.isin(rows, train)), np.flatnonzero(np.isin(rows, test)))
+                  for train, test in folds]
+    weighted = FunctionalRidgeCV(alpha=ALPHAS, cv=folds, n_basis=12).fit(
+        X, y, sample_weight=w).criterion_path_
+    copies = FunctionalRidgeCV(alpha=ALPHAS, cv=copy_folds, n_basis=12).fit(
+        X[rows], y[rows]).criterion_path_
+    np.testing.assert_allclose(weighted, copies, rtol=1e-9)
 
 
 def test_leave_one_out_equals_sklearn_ridgecv(data):

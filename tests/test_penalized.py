@@ -270,3 +270,33 @@ def test_null_space_not_identified(rng):
     path = SplitPath(phi.T @ phi, penalty_for(basis, 2))
     with pytest.raises(NotIdentifiableError, match="alpha > 0"):
         path.coef(path.rotate(np.ones((1, 8))), 0.0)
+
+
+def test_directions_the_data_do_not_see_get_no_coefficient(rng):
+    # Five observed points and eight cubic B-splines: three penalized
+    # directions are invisible to the data (Z u = 0), so in exact arithmetic
+    # their right-hand side b'u = y'W Z u is 0 and the fit tends, as alpha
+    # -> 0, to the interpolant of least roughness. Reference: that
+    # interpolant from the KKT system [[P, Z'], [Z, 0]] [c; l] = [0; y]
+    # (numpy.linalg.lstsq, which also resolves the unpenalized straight
+    # line). Rounding noise along an invisible direction (1e-9 here, far
+    # above the 1e-16 of a real computation, to make it visible) must not
+    # come back as noise / alpha: it once made FunctionOnFunctionRidge's GCV
+    # drop to 0 at the smallest alpha and choose a fit with 7000x the error.
+    basis = BSplineBasis((0.0, 1.0), 8)
+    pen = penalty_for(basis, 2)
+    Z = basis.evaluate(np.linspace(0.1, 0.9, 5))
+    y = rng.normal(size=5)
+    path = SplitPath(Z.T @ Z, pen)
+    invisible = np.linalg.svd(Z)[2][5:]  # rows spanning the null space of Z
+    b = Z.T @ y
+    noisy = b + 1e-9 * invisible.sum(axis=0)
+    assert np.count_nonzero(path.g == 0) == 3
+    np.testing.assert_array_equal(path.rotate(noisy)[path.g == 0], 0.0)
+    P = pen.matrix
+    kkt = np.block([[P, Z.T], [Z, np.zeros((5, 5))]])
+    expected = np.linalg.lstsq(kkt, np.r_[np.zeros(8), y], rcond=None)[0][:8]
+    for rhs in (b, noisy):
+        coef = path.coef(path.rotate(rhs), 1e-12)
+        np.testing.assert_allclose(Z @ coef, y, atol=1e-6)
+        np.testing.assert_allclose(coef, expected, rtol=1e-5, atol=1e-5)
