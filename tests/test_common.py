@@ -350,9 +350,6 @@ def test_float32_in_float32_out(name, shift):
     # values: the fit's statistics are accumulated in float64, and products
     # of curves with a large mean (kiln temperatures near 1200) are centered
     # before they are rounded to float32.
-    if name == "ConcurrentFunctionRidge" and shift:
-        pytest.xfail("curves near 1200 make the concurrent model's [1, x(t)] "
-                     "design singular to the penalty split, in float64 too")
     est64, est32, X, y = _float32_case(name, shift)
     X32 = X.astype(np.float32)
     X64 = X32.astype(np.float64)  # the same values
