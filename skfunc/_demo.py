@@ -200,7 +200,9 @@ def functional_search(minutes, cv, memory=None, n_jobs=None):
     pipe = Pipeline(
         [
             ("smooth", skfunc.CurveSmoother(grid=minutes, n_basis=40)),
-            ("fpca", skfunc.FunctionalPCA(grid=minutes, basis="bspline", n_basis=25)),
+            # the curves are already smoothed: plain components (alpha=0)
+            ("fpca", skfunc.FunctionalPCA(grid=minutes, basis="bspline", n_basis=25,
+                                          alpha=0)),
             ("regression", Ridge()),
         ],
         memory=memory,
@@ -525,7 +527,8 @@ def _draw_figure(kiln, final, path, force, new_seed):
     if not hasattr(fpca, "components_") or len(fpca.components_) < 3:
         from .decomposition import FunctionalPCA
 
-        fpca = FunctionalPCA(n_components=3, basis="bspline", n_basis=25, grid=minutes).fit(curves)
+        fpca = FunctionalPCA(n_components=3, basis="bspline", n_basis=25, alpha=0,
+                             grid=minutes).fit(curves)
         source = "a FunctionalPCA fitted for this figure (the chosen pipeline has none)"
     bottom.suptitle(
         f"Leading principal components of the GCV-smoothed curves, from {source}: "

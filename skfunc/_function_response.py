@@ -22,7 +22,7 @@ shifts of the covariates.
 Normal equations: ``S B Gq + alpha (Ps B Gq + Gs B Pt) = R`` with
 ``S = sum w zaug zaug'`` and ``R = sum w zaug (Phi' W Y_i)'``. The
 Demmler-Reinsch rotation ``U`` of the pair ``(Gq, Pt)``
-(:class:`~skfunc._penalized.PenalizedPath`) makes them separate over response
+(the split engine, :class:`~skfunc._penalized.SplitPath`) makes them separate over response
 directions k: ``A_k c_k = r_k`` with
 ``A_k = mu_k (S + alpha Ps) + alpha (1 - mu_k) / scale Gs``, a small
 (p+1)-square system per direction and alpha. So GCV over every candidate alpha

@@ -24,7 +24,6 @@ from ._integrated_design import (
     IntegratedDesignMixin,
 )
 from ._penalized import (
-    NotIdentifiableError,
     centered,
     centered_cross_products,
     data_exponent,
@@ -180,16 +179,8 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
         choice per target unless ``pooled``); set the path attributes and
         fit at the choice."""
         path, part = self._path(stats, basis)
-        if np.ndim(alpha) == 0 and alpha == 0 and np.any(path.s <= 0):
-            k = basis.n_basis
-            raise NotIdentifiableError(
-                f"{type(self).__name__} cannot determine {k + self.n_covariates} "
-                f"coefficients ({k} basis functions for beta and "
-                f"{self.n_covariates} covariate(s)) from {stats['n']} curves "
-                "without a penalty (alpha=0). Use a roughness penalty alpha > 0 "
-                "or 'auto' (the usual choice), fewer basis functions (n_basis) "
-                "or more curves."
-            )
+        if np.ndim(alpha) == 0 and alpha == 0:
+            self._check_identified(path, stats["n"])
         chosen = choose_alpha(
             # frequency weights: the weight total counts the rows (GCV's n, REML's n)
             path, part["rotated"], part["yy"], stats["sw"], alpha, criterion=criterion,

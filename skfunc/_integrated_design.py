@@ -25,10 +25,9 @@ Cardot, H., Ferraty, F. and Sarda, P. (2003). Spline estimators for the
 functional linear model. *Statistica Sinica* 13, 571-591.
 """
 
-from numbers import Integral, Real
+from numbers import Integral
 
 import numpy as np
-from scipy.linalg import block_diag
 from sklearn.utils import check_random_state
 from sklearn.utils._param_validation import Interval
 from sklearn.utils.validation import check_is_fitted
@@ -37,7 +36,7 @@ from ._bands import critical_value
 from ._blocks import chunked_matmul, output_dtype
 from ._estimator import ShortReprMixin
 from ._grid import quadrature_weights
-from ._penalized import _RCOND, NotIdentifiableError, PenalizedPath, SplitPath, penalty_for
+from ._penalized import NotIdentifiableError, SplitPath, penalty_for
 from ._validation import BASIS_CONSTRAINTS, basis_for, check_level, validate_curves
 
 #: parameter constraints common to every model on the integrated design
@@ -50,8 +49,15 @@ DESIGN_CONSTRAINTS = {
 #: ``period`` (Fourier) for the models that take it
 PERIOD_CONSTRAINT = {"period": BASIS_CONSTRAINTS["period"]}
 
-#: a fixed alpha (FunctionalLogisticRegression, until it takes "auto")
-ALPHA_CONSTRAINT = [Interval(Real, 0, None, closed="left")]
+
+def integrated_design(X, operator, n_covariates):
+    """``[X_curves W Phi, covariates]`` (n x K + p) for curves X followed by
+    ``n_covariates`` scalar columns (a row-block function)."""
+    m = operator.shape[0]
+    Z = chunked_matmul(X[:, :m], operator)
+    if n_covariates:
+        Z = np.hstack([Z, np.asarray(X[:, m:], dtype=np.float64)])
+    return Z
 
 
 class IntegratedDesignMixin(ShortReprMixin):
@@ -77,31 +83,15 @@ class IntegratedDesignMixin(ShortReprMixin):
 
     def _design(self, X, operator):
         """The integrated design ``[X_curves W Phi, covariates]`` (n x K + p)."""
-        m = operator.shape[0]
-        Z = chunked_matmul(X[:, :m], operator)
-        if self.n_covariates:
-            Z = np.hstack([Z, np.asarray(X[:, m:], dtype=np.float64)])
-        return Z
+        return integrated_design(X, operator, self.n_covariates)
 
-    def _penalty(self, basis):
-        """Roughness matrix for ``[basis coefficients, covariate coefficients]``;
-        the covariates are unpenalized."""
-        k, degree = basis.n_basis, getattr(basis, "degree", None)
-        if degree is not None and k == degree + 1 and self.penalty_order > degree:
-            # B-splines without interior knots (the adaptive default on a tiny
-            # grid) span polynomials of degree < q, whose D^q vanishes.
-            roughness = np.zeros((k, k))
-        else:
-            roughness = basis.penalty(self.penalty_order)
-        return block_diag(roughness, np.zeros((self.n_covariates, self.n_covariates)))
-
-    def _split_path(self, zz, basis, n_samples):
+    def _split_path(self, zz, basis, n_samples, scale=None):
         """:class:`~skfunc._penalized.SplitPath` of the (centred) cross
         products with beta's penalty split into its null space and the
         covariates unpenalized; errors say what to change."""
         penalty = penalty_for(basis, self.penalty_order).extend(self.n_covariates)
         try:
-            return SplitPath(zz, penalty)
+            return SplitPath(zz, penalty, scale=scale)
         except NotIdentifiableError as exc:
             n_coef = zz.shape[0]
             raise NotIdentifiableError(
@@ -113,37 +103,18 @@ class IntegratedDesignMixin(ShortReprMixin):
                 "more curves, a lower penalty_order or fewer covariates."
             ) from exc
 
-    def _checked_path(self, zz, penalty, alphas, n_samples):
-        """``PenalizedPath(zz, penalty)``, with errors that say what to change."""
-        n_coef = zz.shape[0]
-        try:
-            path = PenalizedPath(zz, penalty)
-            if np.min(alphas) == 0 and path.mu.min() <= _RCOND * n_coef:
-                raise NotIdentifiableError(
-                    "with alpha=0 the cross products of the integrated design "
-                    "are singular"
-                )
-            path.denominators(alphas)
-        except NotIdentifiableError as exc:
-            if np.min(alphas) == 0:
-                advice = (
-                    "Use a roughness penalty alpha > 0 (the usual choice), fewer "
-                    "basis functions (n_basis) or more curves."
-                )
-            else:
-                advice = (
-                    "The penalty leaves functions with D^penalty_order = 0 (and "
-                    "the covariates) unpenalized, so the data must determine "
-                    "those: use more curves, a lower penalty_order or fewer "
-                    "covariates."
-                )
+    def _check_identified(self, path, n_samples):
+        """Raise unless the data alone determine every coefficient (alpha=0)."""
+        if np.any(path.s <= 0):
+            n_coef = path.eigvecs.shape[0]
             raise NotIdentifiableError(
                 f"{type(self).__name__} cannot determine {n_coef} coefficients "
                 f"({n_coef - self.n_covariates} basis functions for beta and "
-                f"{self.n_covariates} covariate(s)) from {n_samples} curves: "
-                f"{exc}. {advice}"
-            ) from exc
-        return path
+                f"{self.n_covariates} covariate(s)) from {n_samples} curves "
+                "without a penalty (alpha=0). Use a roughness penalty alpha > 0 "
+                "or 'auto' (the usual choice), fewer basis functions (n_basis) "
+                "or more curves."
+            )
 
     def _set_coefficients(self, basis, theta, intercept, covariance, squeeze):
         """Store the fitted model from design coefficients ``theta`` (T, K + p),

@@ -175,7 +175,10 @@ ESTIMATOR_CASES = {
         data=_curves_only, output=_transform, curve_input=True,
     ),
     "FunctionalPCA": dict(
-        params=lambda grid: {"n_components": 3, "grid": grid},
+        # smoothed components in a basis, so that the penalty and its
+        # automatic choice are exercised
+        params=lambda grid: {"n_components": 3, "basis": "bspline", "n_basis": 12,
+                             "alpha": 1e-4, "grid": grid},
         data=_curves_only, output=_pca_output, curve_input=True,
     ),
     "FunctionalRidge": dict(

@@ -236,13 +236,10 @@ def test_unit_invariance(name, alpha):
     # and at the automatic choice, to 1e-8 relative (rounding of the products,
     # a few hundred ulps; a penalty in the grid's own units changes fits by
     # orders of magnitude more, 250^3 here).
-    if name == "FunctionalPCA" and alpha == "auto":
-        pytest.xfail("FunctionalPCA has no automatic choice of alpha yet")
     base, X = _unit_case(name, alpha, moved=False)
     moved, X_moved = _unit_case(name, alpha, moved=True)
-    if name == "SparseFunctionalPCA":
-        pytest.xfail("SparseFunctionalPCA's alpha is not yet unit-free")
-    out_scale = X_SCALE if name in ("CurveSmoother", "BasisFeatures", "FunctionalPCA")  \
+    out_scale = X_SCALE if name in ("CurveSmoother", "BasisFeatures", "FunctionalPCA",
+                                    "SparseFunctionalPCA")  \
         or name.endswith("Aligner") else (
         Y_SCALE if name in _CURVE_RESPONSE else 1.0)
     if getattr(base, "alpha_", None) is not None:

@@ -240,6 +240,59 @@ def test_function_on_function_on_cluster_equals_in_memory(client):
     assert_rel_close(prediction.compute(), reference.predict(X), rtol=1e-8)
 
 
+def assert_same_logistic_fit(model, reference, rtol=1e-8):
+    """A Dask fit chose the same alpha from the same UBRE path as the
+    in-memory fit and predicts the same probabilities."""
+    assert model.alpha_ == pytest.approx(reference.alpha_, rel=rtol)
+    assert_rel_close(model.criterion_path_, reference.criterion_path_, rtol)
+    assert_rel_close(model.coef_function_, reference.coef_function_, rtol)
+    assert_rel_close(model.intercept_, reference.intercept_, rtol)
+
+
+def kiln_classes(n_runs, n_classes, seed=0):
+    """Kiln runs labelled by strength tercile (3 classes) or by strength
+    above the median (2), with noise so the classes overlap."""
+    t, X, strength = kiln_runs(n_runs, n_minutes=61, seed=seed)
+    noisy = strength + np.random.default_rng(seed + 1).normal(0, strength.std(), n_runs)
+    cuts = np.quantile(noisy, np.linspace(0, 1, n_classes + 1)[1:-1])
+    return t, X, np.array(["cracked", "sound", "warped"])[np.digitize(noisy, cuts)]
+
+
+def test_functional_logistic_on_cluster_equals_in_memory(client):
+    # Each Newton step is one pass of summed gradients and Hessians over the
+    # blocks, on the workers: the same fit as in memory (sums in another
+    # order, 1e-8 relative), the automatic alpha included, with weights.
+    from skfunc.linear_model import FunctionalLogisticRegression
+
+    t, X, labels = kiln_classes(400, 3)
+    weights = np.random.default_rng(3).integers(1, 4, len(X)).astype(float)
+    Xd = da.from_array(X, chunks=(70, 61))
+    model = FunctionalLogisticRegression(grid=t).fit(
+        Xd, da.from_array(labels, chunks=70), sample_weight=weights)
+    reference = FunctionalLogisticRegression(grid=t).fit(X, labels, sample_weight=weights)
+    assert_same_logistic_fit(model, reference)
+    assert_rel_close(model.predict_proba(X), reference.predict_proba(X), 1e-8)
+
+
+def test_functional_logistic_gathers_no_rows(sync, monkeypatch):
+    # Neither the curves nor the labels are converted to numpy as a whole.
+    from skfunc.linear_model import FunctionalLogisticRegression
+
+    t, X, labels = kiln_classes(300, 2)
+    Xd = da.from_array(X, chunks=(64, 61))
+    yd = da.from_array(labels, chunks=64)
+
+    def refuse(*args, **kwargs):
+        raise AssertionError("a dask array was converted to numpy as a whole")
+
+    params = {"grid": t, "class_weight": "balanced"}
+    monkeypatch.setattr(type(Xd), "__array__", refuse)
+    model = FunctionalLogisticRegression(**params).fit(Xd, yd)
+    monkeypatch.undo()
+    reference = FunctionalLogisticRegression(**params).fit(X, labels)
+    assert_same_logistic_fit(model, reference)
+
+
 def test_statistics_are_reduced_on_workers_in_a_tree(client):
     rng = np.random.default_rng(2)
     Z = rng.normal(size=(2000, 6))
@@ -401,15 +454,11 @@ def test_other_dask_collections_are_refused_with_advice(sync):
 
 
 def test_estimators_without_dask_support_refuse_dask_input(sync):
-    from skfunc.linear_model import FunctionalLogisticRegression
+    from skfunc.alignment import ShiftAligner
 
-    t, X, _ = kiln_runs(30)
-    Xd = da.from_array(X, chunks=10)
-    labels = np.arange(30) % 2
+    _, X, _ = kiln_runs(30)
     with pytest.raises(TypeError, match="does not accept dask arrays yet"):
-        FunctionalLogisticRegression().fit(Xd, labels)
-    with pytest.raises(TypeError, match="does not accept dask arrays yet"):
-        FunctionalLogisticRegression().fit(X, da.from_array(labels, chunks=10))
+        ShiftAligner().fit(da.from_array(X, chunks=10))
 
 
 def test_integer_and_float32_dtypes_follow_sklearn(sync):
@@ -465,6 +514,9 @@ def test_functional_pca_partial_fit_over_dask_batches(sync):
     for start in range(0, 800, 200):
         batches.partial_fit(da.from_array(X[start : start + 200], chunks=(64, 41)))
     assert batches.n_samples_seen_ == 800
+    # alpha="auto": folds by row position across batches, as in fit
+    assert batches.alpha_ == reference.alpha_
+    assert_rel_close(batches.criterion_path_, reference.criterion_path_)
     assert_rel_close(batches.components_, reference.components_)
     with pytest.raises(ValueError, match="svd_solver='randomized' needs all curves"):
         FunctionalPCA(3, svd_solver="randomized").fit(da.from_array(X, chunks=100))

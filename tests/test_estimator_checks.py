@@ -15,17 +15,7 @@ from skfunc.utils import all_estimators
 pytestmark = pytest.mark.slow
 
 #: {estimator class name: {check name: why it is expected to fail}}
-EXPECTED_FAILURES = {
-    "FunctionalLogisticRegression": {
-        "check_sample_weight_equivalence_on_dense_data": (
-            "measured: probabilities of the weighted and the duplicated fit agree "
-            "to 7.5e-7 relative (1.8e-7 absolute), the check asks 1e-7; with the "
-            "generous default number of basis functions the 3 classes on 15 "
-            "random rows are nearly separated by the unpenalized part of beta, "
-            "so the answer depends on where the iterations stop."
-        ),
-    },
-}
+EXPECTED_FAILURES = {}
 
 
 def _instances():
