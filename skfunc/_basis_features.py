@@ -10,7 +10,7 @@ from sklearn.utils.validation import (
 
 from ._alpha import ALPHA_CONSTRAINTS
 from ._bases import gram_sqrt
-from ._blocks import chunked_matmul
+from ._blocks import chunked_matmul, output_dtype
 from ._channels import ChannelwiseMixin, split_columns
 from ._dask import check_rows
 from ._docstrings import fill_doc
@@ -172,7 +172,7 @@ class BasisFeatures(ChannelwiseMixin, PenalizedFitMixin, AdditiveTransformerMixi
         if hasattr(self, "channel_estimators_"):
             return self._per_channel(X, "transform")
         X = validate_curves(self, X, reset=False)
-        return chunked_matmul(X, self.projection_.T)
+        return chunked_matmul(X, self.projection_.T, dtype=output_dtype(X))
 
     def inverse_transform(self, X):
         """Values on ``grid_`` of the functions with coordinates ``X``.
@@ -191,7 +191,7 @@ class BasisFeatures(ChannelwiseMixin, PenalizedFitMixin, AdditiveTransformerMixi
         if hasattr(self, "channel_estimators_"):
             return split_columns(self, X, "inverse_transform",
                                  [e.n_basis_ for e in self.channel_estimators_])
-        return chunked_matmul(X, self.reconstruction_.T)
+        return chunked_matmul(X, self.reconstruction_.T, dtype=output_dtype(X))
 
     def get_feature_names_out(self, input_features=None):
         """Names of the output coordinates, one per basis function.

@@ -393,9 +393,10 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
     * ``_validate_X(X, reset, **y_params)``: validated X, or ``(X, y)``
       validated together when ``y_params`` holds ``y``
       (:class:`CurveInputResponseRegressor` for input curves);
-    * ``_design_effect(X, coef, points)``: the prediction minus the
-      intercept, from validated X and ``coef`` shaped like
-      ``coef_function_`` at the response ``points``;
+    * ``_design_effect(X, coef, points, offset=None)``: the prediction
+      minus the intercept (plus ``offset``, the intercept), from validated X
+      and ``coef`` shaped like ``coef_function_`` at the response
+      ``points``; float32 for float32 X (``skfunc._blocks.output_dtype``);
     * ``_statistics_function()`` (optional): ``_statistics`` with a linear
       ``design`` operator when the design is not X itself;
     * ``_design_geometry()``: ``(Gs, Ps)``, the Gram and roughness matrices
@@ -737,7 +738,9 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         else:
             intercept, coef = self.coef_functions_at(eval_points)
             points = np.asarray(eval_points, dtype=np.float64).ravel()
-        return intercept + self._design_effect(X, coef, points)
+        # the intercept enters the product: float32 X gives a float32
+        # prediction, centered where a large mean would cost digits
+        return self._design_effect(X, coef, points, offset=intercept)
 
     def confidence_band(self, level=0.95, intercept=False, *, simultaneous=False,
                         n_draws=4000, random_state=None):

@@ -17,7 +17,7 @@ from sklearn.utils.validation import check_is_fitted
 
 from ._alpha import ALPHA_CONSTRAINT, check_alpha
 from ._bases import BASES
-from ._blocks import chunked_matmul, is_dask_array
+from ._blocks import chunked_matmul, is_dask_array, output_dtype
 from ._channels import CHANNEL_WEIGHTS, channel_coordinates, curve_weights
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
@@ -667,7 +667,9 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         """
         check_is_fitted(self)
         X = self._validate(X, reset=False)
-        return chunked_matmul(X, self.projection_.T) - self.mean_ @ self.projection_.T
+        operator_T = self.projection_.T
+        return chunked_matmul(X, operator_T, -self.mean_ @ operator_T,
+                              dtype=output_dtype(X))
 
     @fill_doc
     def score_samples(self, X):

@@ -115,13 +115,14 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
 
     def _check_same_targets(self, y):
         targets = self._partial_statistics["zy"].shape[1]
-        if (y.ndim == 1) != (np.ndim(self.intercept_) == 0) or (
+        one = self._target_ndim == 1  # set by the first batch (no solve needed)
+        if (y.ndim == 1) != one or (
             y.ndim == 2 and y.shape[1] != targets
         ):
             raise ValueError(
                 f"y of this partial_fit batch has shape {y.shape}; earlier "
                 f"batches had {targets} target(s) "
-                f"{'as a 1-D y' if np.ndim(self.intercept_) == 0 else 'as columns'}"
+                f"{'as a 1-D y' if one else 'as columns'}"
                 "; every batch needs the same targets."
             )
 
@@ -210,7 +211,7 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
         -------
         y_pred : ndarray of shape (n_samples,) or (n_samples, n_targets)
         """
-        return self._linear_predictor(X)
+        return self._linear_predictor(X, keep_float32=True)
 
 
 @fill_doc

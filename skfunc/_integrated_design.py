@@ -33,7 +33,7 @@ from sklearn.utils._param_validation import Interval
 from sklearn.utils.validation import check_is_fitted
 
 from ._bands import critical_value
-from ._blocks import chunked_matmul
+from ._blocks import chunked_matmul, output_dtype
 from ._channels import channel_penalty, curve_weights
 from ._estimator import ShortReprMixin
 from ._penalized import NotIdentifiableError, SplitPath
@@ -142,12 +142,14 @@ class IntegratedDesignMixin(ShortReprMixin):
         self.intercept_ = float(intercept[0]) if squeeze else intercept
         self.coef_covariance_ = out(covariance)
 
-    def _linear_predictor(self, X):
-        """``X @ coef_.T + intercept_`` for validated curves X."""
+    def _linear_predictor(self, X, keep_float32=False):
+        """``X @ coef_.T + intercept_`` for validated curves X (float32 for
+        float32 X with ``keep_float32``, else float64)."""
         check_is_fitted(self)
         X = self._validate_curves(X, reset=False)
         coef = np.atleast_2d(self.coef_)
-        eta = chunked_matmul(X, coef.T) + self.intercept_
+        dtype = output_dtype(X) if keep_float32 else np.float64
+        eta = chunked_matmul(X, coef.T, self.intercept_, dtype=dtype)
         return eta[:, 0] if np.ndim(self.coef_) == 1 else eta
 
     def confidence_band(self, level=0.95, *, simultaneous=False, n_draws=4000,
