@@ -48,6 +48,11 @@ ALPHA_CONSTRAINT = [Interval(Real, 0, None, closed="left"), StrOptions({AUTO}), 
 #: default number of candidates for ``alpha="auto"``
 N_ALPHAS = 25
 
+#: folds of curves for choosing alpha by cross-validation over curves, where
+#: a criterion over pooled observations does not apply (10-fold
+#: cross-validation: common practice); row ``i`` goes to fold ``i mod 10``
+CV_FOLDS = 10
+
 #: effective degrees of freedom above the null space at the largest default
 #: candidate, and below the full (identified) basis at the smallest
 EDF_MARGIN = 0.05

@@ -10,7 +10,7 @@ from sklearn.utils.validation import (
 
 from ._alpha import ALPHA_CONSTRAINTS
 from ._bases import gram_sqrt
-from ._blocks import chunked_matmul
+from ._blocks import chunked_matmul, output_dtype
 from ._dask import check_rows
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
@@ -165,7 +165,7 @@ class BasisFeatures(PenalizedFitMixin, AdditiveTransformerMixin, TransformerMixi
         """
         check_is_fitted(self)
         X = validate_curves(self, X, reset=False)
-        return chunked_matmul(X, self.projection_.T)
+        return chunked_matmul(X, self.projection_.T, dtype=output_dtype(X))
 
     def inverse_transform(self, X):
         """Values on ``grid_`` of the functions with coordinates ``X``.
@@ -181,7 +181,7 @@ class BasisFeatures(PenalizedFitMixin, AdditiveTransformerMixin, TransformerMixi
         """
         check_is_fitted(self)
         X = check_rows(X, self.n_basis_, "coordinates per row (n_basis_)")
-        return chunked_matmul(X, self.reconstruction_.T)
+        return chunked_matmul(X, self.reconstruction_.T, dtype=output_dtype(X))
 
     def get_feature_names_out(self, input_features=None):
         """Names of the output coordinates, one per basis function.

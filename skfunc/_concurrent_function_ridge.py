@@ -6,7 +6,7 @@ from functools import partial
 import numpy as np
 
 from ._alpha import check_alpha, gcv_in_data_units, reml_score
-from ._blocks import compute_statistics
+from ._blocks import compute_statistics, output_dtype
 from ._docstrings import fill_doc
 from ._fit import check_finite_fit
 from ._function_response import (
@@ -332,6 +332,10 @@ class ConcurrentFunctionRidge(CurveInputResponseRegressor):
     def _coef_shape(self, n_points):
         return (n_points,)
 
-    def _design_effect(self, X, coef, points):
-        """``beta_1(t) X(t)``, with X read at the points ``t``."""
-        return self._input_at(X, points) * coef
+    def _design_effect(self, X, coef, points, offset=None):
+        """``beta_1(t) X(t)`` (plus ``offset``), with X read at the points
+        ``t``; computed in float64, returned in X's precision."""
+        effect = self._input_at(X, points) * coef
+        if offset is not None:
+            effect = effect + offset
+        return effect.astype(output_dtype(X), copy=False)

@@ -198,6 +198,15 @@ X : array-like or dask array of shape (n_samples, n_features)
     Curves, one per row, sampled on the grid.
 %(y_ignored_returns_transformer)s
 """,
+    "partial_fit_y_returns": """
+y : None
+    Ignored; accepted for pipeline compatibility.
+
+Returns
+-------
+self : object
+    The transformer, fitted on all batches so far.
+""",
     "y_ignored_returns_transformer": """
 y : None
     Ignored.

@@ -36,7 +36,7 @@ import numpy as np
 
 from ._blocks import compute_statistics
 from ._docstrings import fill_doc
-from ._estimator import ShortReprMixin
+from ._estimator import PreservesFloat32Mixin, ShortReprMixin
 from ._penalized import merge as merge_sums
 from ._validation import check_batch_grid
 
@@ -45,11 +45,21 @@ from ._validation import check_batch_grid
 _UNCERTAINTY = ("noise_variance_", "coef_covariance_")
 
 
+class UndefinedUncertaintyWarning(UserWarning):
+    """The fit leaves no residual degrees of freedom: the noise variance and
+    the confidence bands are undefined (NaN), while the fit itself stands.
+
+    A statistical property of the data, not a numerical failure, in the way
+    of scikit-learn's ``UndefinedMetricWarning``; numerical trouble stays a
+    ``RuntimeWarning`` or an error."""
+
+
 def check_finite_fit(estimator):
     """Never hand back NaN or inf silently: after a fit, non-finite values in
     a fitted attribute are a ``ValueError`` (the fit failed, usually because
-    sums of squares overflowed or underflowed), or a ``RuntimeWarning`` where
-    only the uncertainty is undefined. A selection criterion may be inf (GCV
+    sums of squares overflowed or underflowed), or an
+    :class:`UndefinedUncertaintyWarning` where only the uncertainty is
+    undefined. A selection criterion may be inf (GCV
     where a fit interpolates); what to choose then is the alpha choice's
     policy, not checked here. Returns the estimator.
     """
@@ -85,7 +95,7 @@ def check_finite_fit(estimator):
             f"{name}: {' and '.join(uncertain)} not finite: the fit leaves no "
             "residual degrees of freedom (too few observations, or weights summing "
             "to less than the effective number of parameters), so confidence bands "
-            "are undefined.", RuntimeWarning, stacklevel=3,
+            "are undefined.", UndefinedUncertaintyWarning, stacklevel=3,
         )
     return estimator
 
@@ -111,7 +121,10 @@ class AdditiveFitMixin(ShortReprMixin):
         self._forget()
         return self._partial_fit_statistics(X, y, sample_weight)
 
-    def _partial_fit_statistics(self, X, y=None, sample_weight=None):
+    def _partial_fit_statistics(self, X, y=None, sample_weight=None, *, solve=True):
+        """Add a batch's statistics; then solve, unless ``solve`` is False
+        (:func:`skfunc.utils.partial_fit_batches` solves once, after its last
+        batch, with :meth:`_solve_statistics`)."""
         first = not hasattr(self, "n_samples_seen_")
         if first:
             self._validate_params()
@@ -128,12 +141,18 @@ class AdditiveFitMixin(ShortReprMixin):
             n_rows += self.n_samples_seen_
         self._partial_statistics = stats
         self.n_samples_seen_ = int(n_rows)
-        self._solve(stats)
+        if solve:
+            self._solve_statistics()
+        return self
+
+    def _solve_statistics(self):
+        """Set the fitted attributes from the statistics of all batches so far."""
+        self._solve(self._partial_statistics)
         check_finite_fit(self)
         return self
 
 
-class AdditiveTransformerMixin(AdditiveFitMixin):
+class AdditiveTransformerMixin(PreservesFloat32Mixin, AdditiveFitMixin):
     """The skeleton for transformers: ``fit(X, y=None)``, ``partial_fit(X, y=None)``."""
 
     @fill_doc
@@ -144,6 +163,7 @@ class AdditiveTransformerMixin(AdditiveFitMixin):
         """
         return self._fit_statistics(X)
 
+    @fill_doc
     def partial_fit(self, X, y=None):
         """Add a batch of curves and refit from the statistics of all batches.
 
@@ -155,13 +175,7 @@ class AdditiveTransformerMixin(AdditiveFitMixin):
         ----------
         X : array-like or dask array of shape (n_samples, n_features)
             A batch of curves on the grid of the first batch.
-        y : None
-            Ignored; accepted for pipeline compatibility.
-
-        Returns
-        -------
-        self : object
-            The transformer, fitted on all batches so far.
+        %(partial_fit_y_returns)s
         """
         return self._partial_fit_statistics(X)
 

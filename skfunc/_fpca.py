@@ -15,12 +15,29 @@ coordinates, mapped back to functions: on the grid ``y / sqrt(w)``, or
 ``<x - mean, phi_k>``, hence independent of the sampling density.
 
 Smoothed components (Silverman, 1996) maximise ``var <x, phi>`` subject to
-``||phi||^2 + alpha ||D^q phi||^2 = 1``, the generalized eigenproblem
-``C y = lambda (I + alpha P) y`` in orthonormal coordinates with the penalty
-``P = G^{-1/2} R G^{-1/2}`` (Ramsay and Silverman, 2005, sec. 9.4). The
-solutions are orthonormal in the penalized inner product; they are
-re-orthonormalised in L2 in order (Gram-Schmidt), so scores are ordinary L2
-inner products and their variances add up to at most the total variance.
+``||phi||^2 + alpha ||D^q phi||^2 = 1`` (Ramsay and Silverman, 2005, sec.
+9.4). Alpha is unit-free: both norms are taken on the domain mapped to
+[0, 1] (the engine weight of alpha = 1 is ``penalty_scale`` of the Gram
+matrix, the domain's length), and the penalty is split into its exact null
+space and complement by one data-free :class:`~skfunc._penalized.SplitPath`
+of the Gram matrix ``G`` and the roughness ``R``: with its
+``U' (G + lam R) U = diag(d)``, the map ``B = G^{1/2} U diag(d)^{-1/2}``
+turns the generalized eigenproblem into the ordinary one of ``B' C B`` for
+the coordinates' covariance ``C``, and the null space is never penalized
+(its entries of ``d`` are exactly 1 for every alpha). The solutions are
+orthonormal in the penalized inner product; they are re-orthonormalised in
+L2 in order (Gram-Schmidt), so scores are ordinary L2 inner products and
+their variances add up to at most the total variance.
+
+``alpha="auto"`` chooses alpha by cross-validation over curves of the
+reconstruction error (Rice and Silverman, 1991, sec. 3; Ramsay and
+Silverman, 2005, sec. 9.3.3): rows are dealt to :data:`CV_FOLDS` folds by
+their position (row ``i`` to fold ``i mod 10``, counted over all
+``partial_fit`` batches), and for each fold and candidate the components
+computed without the fold reconstruct the fold's curves; the score is the
+summed squared L2 error. Everything it needs is the count, mean and scatter
+of the coordinates per fold (:func:`fold_moments`), so it runs from the same
+additive statistics as the fit, in memory, over batches or on Dask blocks.
 """
 
 import contextlib
@@ -31,11 +48,13 @@ from sklearn.utils.extmath import randomized_svd
 from sklearn.utils.validation import check_is_fitted
 from threadpoolctl import threadpool_limits
 
+from ._alpha import CV_FOLDS, best_index, candidates_for
 from ._bases import gram_sqrt
 from ._basis_features import orthonormal_operators
-from ._blocks import chunked_matmul
+from ._blocks import chunked_matmul, output_dtype
 from ._dask import check_rows
-from ._moments import moments, scale_moments
+from ._moments import merge_moments, moments, scale_moments
+from ._penalized import SplitPath, penalty_for
 
 
 class ComponentCurvesMixin:
@@ -56,9 +75,7 @@ class ComponentCurvesMixin:
         """
         check_is_fitted(self)
         X = check_rows(X, self.n_components_, "scores per row (n_components_)")
-        curves = chunked_matmul(X, self.components_)
-        curves += self.mean_
-        return curves
+        return chunked_matmul(X, self.components_, self.mean_, dtype=output_dtype(X))
 
 
 class CurveCoordinates:
@@ -76,21 +93,27 @@ class CurveCoordinates:
     penalty_order : int or None
         Derivative order of the roughness penalty of smoothed components;
         None for none (needs ``basis``).
+
+    Attributes
+    ----------
+    path : SplitPath or None
+        The data-free decomposition of the Gram matrix and the roughness
+        penalty on [0, 1] (see the module doc); None without a penalty.
     """
 
     def __init__(self, weights, basis=None, grid=None, penalty_order=None):
         self.weights = weights
         self.root_w = np.sqrt(weights)
         self.features = basis is not None
-        self.penalty = None
+        self.path = None
         if self.features:
             self.projection_, self.reconstruction_ = orthonormal_operators(
                 basis, grid, weights
             )
-            self.inv_root = gram_sqrt(basis.gram())[1]
+            gram = basis.gram()
+            self.root, self.inv_root = gram_sqrt(gram)
             if penalty_order is not None:
-                penalty = basis.penalty(penalty_order)
-                self.penalty = self.inv_root @ penalty @ self.inv_root
+                self.path = SplitPath(gram, penalty_for(basis, penalty_order))
 
     @property
     def n_coordinates(self):
@@ -106,6 +129,14 @@ class CurveCoordinates:
             # scale the K x K result rather than copying the data
             return scale_moments(moments(X), self.root_w)
         return moments(X, self.projection_.T)
+
+    def fold_statistics(self, X, index):
+        """:meth:`statistics` per fold of rows, row ``index[i]`` in fold
+        ``index[i] mod CV_FOLDS`` (keys ``n`` (F,), ``mean`` (F, K),
+        ``scatter`` (F, K, K); merged by :func:`merge_fold_moments`)."""
+        Z = np.asarray(X, dtype=np.float64)
+        Z = Z * self.root_w if not self.features else Z @ self.projection_.T
+        return fold_moments(Z, np.asarray(index) % CV_FOLDS)
 
     def centered(self, X):
         """Coordinates of X's rows about their mean (a new float64 array),
@@ -138,7 +169,7 @@ class CurveCoordinates:
         return Y.T @ self.projection_
 
 
-def covariance_directions(covariance, n_wanted=None, penalty=None, alpha=0.0):
+def covariance_directions(covariance, n_wanted=None, coords=None, alpha=0.0):
     """Principal directions of a covariance matrix in orthonormal coordinates.
 
     Parameters
@@ -146,10 +177,11 @@ def covariance_directions(covariance, n_wanted=None, penalty=None, alpha=0.0):
     covariance : ndarray of shape (K, K)
     n_wanted : int or None
         Number of leading directions; None for all K.
-    penalty : ndarray of shape (K, K) or None
-        Roughness matrix in the same coordinates; used when ``alpha > 0``.
+    coords : CurveCoordinates or None
+        Its ``path`` and ``root`` define the roughness penalty; used when
+        ``alpha > 0``.
     alpha : float
-        Roughness penalty of Silverman's smoothed components.
+        Unit-free roughness penalty of Silverman's smoothed components.
 
     Returns
     -------
@@ -160,21 +192,139 @@ def covariance_directions(covariance, n_wanted=None, penalty=None, alpha=0.0):
     """
     K = covariance.shape[0]
     k = K if n_wanted is None else min(n_wanted, K)
+    if alpha > 0:
+        variances, directions = smoothed_directions(covariance, coords, [alpha], k)
+        return variances[0], directions[0]
     subset = None if k == K else [K - k, K - 1]
     with _single_thread(K):
-        if alpha > 0:
-            _, vecs = scipy.linalg.eigh(
-                covariance, np.eye(K) + alpha * penalty, subset_by_index=subset
-            )
-            q, r = np.linalg.qr(vecs[:, ::-1])  # Gram-Schmidt in L2, in order
-            directions = q * np.sign(np.diag(r))
-            variances = np.einsum("ik,ij,jk->k", directions, covariance, directions)
-        else:
-            variances, directions = scipy.linalg.eigh(
-                covariance, subset_by_index=subset
-            )
-            variances, directions = variances[::-1], directions[:, ::-1]
+        variances, directions = scipy.linalg.eigh(covariance, subset_by_index=subset)
+    variances, directions = variances[::-1], directions[:, ::-1]
     return np.clip(variances, 0.0, None), directions
+
+
+def smoothed_directions(covariance, coords, alphas, k):
+    """Silverman's smoothed components for several alphas at once.
+
+    For each alpha, the leading ``k`` solutions of ``C y = mu (I + lam P) y``
+    in orthonormal coordinates, computed as the eigenvectors of ``B' C B``
+    with ``B = G^{1/2} U diag(d)^{-1/2}`` (module doc; ``lam`` and ``d`` on
+    the path's unit-free scale), then orthonormalised in L2 in order.
+
+    Returns ``variances`` (L, k) and ``directions`` (L, K, k).
+    """
+    path = coords.path
+    d = path.denominators(np.asarray(alphas, dtype=np.float64))  # (L, K)
+    B = (coords.root @ path.eigvecs)[None] / np.sqrt(d)[:, None, :]
+    M = np.swapaxes(B, 1, 2) @ covariance @ B
+    with _single_thread(covariance.shape[0]):
+        _, u = np.linalg.eigh((M + np.swapaxes(M, 1, 2)) / 2)
+    y = B @ u[:, :, ::-1][:, :, :k]
+    q, r = np.linalg.qr(y)  # Gram-Schmidt in L2, in order
+    diag = np.diagonal(r, axis1=1, axis2=2)
+    directions = q * np.where(diag < 0, -1.0, 1.0)[:, None, :]
+    variances = np.einsum("lka,kj,lja->la", directions, covariance, directions)
+    return np.clip(variances, 0.0, None), directions
+
+
+def fold_moments(Z, folds):
+    """Count, mean and centered scatter of the rows of ``Z`` in each of the
+    :data:`CV_FOLDS` folds (``folds[i]`` the fold of row ``i``); empty folds
+    have count 0 and zero moments."""
+    K = Z.shape[1]
+    out = {"n": np.zeros(CV_FOLDS), "mean": np.zeros((CV_FOLDS, K)),
+           "scatter": np.zeros((CV_FOLDS, K, K))}
+    # ten small products per block: latency-bound, one BLAS thread (see
+    # _single_thread; measured 3x faster on a busy two-core machine)
+    with threadpool_limits(limits=1, user_api="blas"):
+        for f in np.unique(folds):
+            part = moments(Z[folds == f])
+            out["n"][f], out["mean"][f], out["scatter"][f] = (
+                part["n"], part["mean"], part["scatter"])
+    return out
+
+
+def merge_fold_moments(*stats):
+    """:func:`skfunc._moments.merge_moments` fold by fold (Chan et al., 1979),
+    empty folds included; plain moments (a scalar count) merge as there."""
+    if np.ndim(stats[0]["n"]) == 0:
+        return merge_moments(*stats)
+    out = dict(stats[0])
+    for other in stats[1:]:
+        n = out["n"] + other["n"]
+        delta = other["mean"] - out["mean"]
+        share = np.divide(other["n"], n, out=np.zeros_like(n), where=n > 0)
+        out = {
+            "n": n,
+            "mean": out["mean"] + share[:, None] * delta,
+            "scatter": out["scatter"] + other["scatter"]
+            + delta[:, :, None] * delta[:, None, :] * (out["n"] * share)[:, None, None],
+        }
+    return out
+
+
+def pooled_moments(folds):
+    """The moments of all rows from the moments per fold."""
+    parts = [{"n": int(n), "mean": m, "scatter": s}
+             for n, m, s in zip(folds["n"], folds["mean"], folds["scatter"]) if n > 0]
+    return merge_moments(*parts)
+
+
+def _add_fold_errors(scores, folds, f, coords, alphas, n_components, K):
+    """Add fold ``f``'s reconstruction errors to ``scores``; 0 if the other
+    folds hold fewer than two curves (no covariance), else 1."""
+    others = {key: np.delete(v, f, axis=0) for key, v in folds.items()}
+    n_train = int(others["n"].sum())
+    if n_train < 2:
+        return 0
+    train = pooled_moments(others)
+    delta = folds["mean"][f] - train["mean"]
+    held = folds["scatter"][f] + folds["n"][f] * np.outer(delta, delta)
+    k = min(K, n_train - 1 if n_components is None else n_components)
+    _, directions = smoothed_directions(train["scatter"] / (n_train - 1), coords,
+                                        alphas, max(k, 1))
+    captured = np.einsum("lka,kj,lja->la", directions, held, directions)
+    errors = np.trace(held) - np.cumsum(captured, axis=1)
+    scores += errors[:, -1] if n_components is not None else errors.sum(axis=1)
+    return 1
+
+
+def cross_validate_alpha(folds, coords, n_components, alpha="auto"):
+    """Alpha of smoothed components by cross-validation over curves.
+
+    For each fold ``f`` with at least one row, and at least two rows
+    elsewhere, the components at every candidate alpha are computed from the
+    other folds' covariance; the fold's curves, centred at the other folds'
+    mean, are reconstructed from the first ``k`` of them. The score is the
+    squared L2 reconstruction error summed over folds (Rice and Silverman,
+    1991; Ramsay and Silverman, 2005, sec. 9.3.3), from the fold moments
+    alone: with ``S~ = S_f + n_f d d'`` the fold's scatter about the other
+    folds' mean, the error with ``k`` orthonormal components ``y_j`` is
+    ``tr S~ - sum_{j <= k} y_j' S~ y_j``. With ``n_components`` an int,
+    ``k = n_components``; with None (all components, or a fraction of
+    variance, whose number depends on alpha) the errors for ``k = 1, 2,
+    ...`` up to the rank are summed, so every number of components counts.
+
+    Candidates come from :func:`skfunc._alpha.candidate_alphas` on the
+    data-free path (from nearly no smoothing to nearly the null space), the
+    choice from :func:`skfunc._alpha.best_index`. Returns ``(alpha, alphas,
+    scores)``.
+    """
+    alphas = candidates_for(alpha, coords.path)
+    K = coords.path.eigvecs.shape[0]
+    scores, used = np.zeros(alphas.size), 0
+    # small batched eigensolves: BLAS threads only add synchronisation
+    # (see _single_thread), measured 17x slower on a busy two-core machine
+    with threadpool_limits(limits=1, user_api="blas"):
+        for f in np.flatnonzero(folds["n"] > 0):
+            used += _add_fold_errors(scores, folds, f, coords, alphas, n_components, K)
+    if used == 0:
+        raise ValueError(
+            "alpha='auto' (or candidate alphas) chooses the smoothing of the "
+            "components by cross-validation over curves, which needs at least 3 "
+            "curves; pass a fixed alpha (0 for unsmoothed components)."
+        )
+    index = best_index(scores, alphas, criterion="cross-validation over curves")
+    return float(alphas[index]), alphas, scores
 
 
 def _single_thread(K):

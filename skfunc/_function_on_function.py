@@ -5,7 +5,7 @@ from functools import partial
 
 import numpy as np
 
-from ._blocks import chunked_matmul
+from ._blocks import chunked_matmul, output_dtype
 from ._docstrings import fill_doc
 from ._fit import AdditiveRegressorMixin
 from ._function_response import CurveInputResponseRegressor
@@ -74,8 +74,8 @@ class FunctionOnFunctionRidge(AdditiveRegressorMixin, CurveInputResponseRegresso
     GCV treats all ``n_samples * n_response_points`` residuals as
     independent; with strongly autocorrelated residual curves on dense grids
     prefer :class:`~sklearn.model_selection.GridSearchCV` over ``alpha``.
-    Confidence bands are pointwise, ignore the smoothing bias and are not
-    simultaneous.
+    Confidence bands are pointwise, or simultaneous over the whole surface
+    (``confidence_band(simultaneous=True)``); both ignore the smoothing bias.
     %(cautions)s
 
     %(curve_response_references)s
@@ -100,6 +100,8 @@ class FunctionOnFunctionRidge(AdditiveRegressorMixin, CurveInputResponseRegresso
     """
 
     _batch_grids = (("grid", "grid_"), ("response_grid", "response_grid_"))
+
+    _joint_band = True  # a simultaneous band covers the whole surface
 
     def __sklearn_tags__(self):
         tags = super().__sklearn_tags__()
@@ -130,7 +132,8 @@ class FunctionOnFunctionRidge(AdditiveRegressorMixin, CurveInputResponseRegresso
         psi = basis_for(self, self.grid_, cap=False).evaluate(self.grid_)
         return np.column_stack([np.zeros(psi.shape[0]), psi])
 
-    def _design_effect(self, X, coef, points):
-        """``int X(s) beta(s, t) ds`` by the quadrature of ``grid_``."""
+    def _design_effect(self, X, coef, points, offset=None):
+        """``int X(s) beta(s, t) ds`` (plus ``offset``) by the quadrature of
+        ``grid_``."""
         w = quadrature_weights(self.grid_, self.quadrature)
-        return chunked_matmul(X, coef * w[:, None])
+        return chunked_matmul(X, coef * w[:, None], offset, dtype=output_dtype(X))

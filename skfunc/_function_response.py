@@ -22,7 +22,7 @@ shifts of the covariates.
 Normal equations: ``S B Gq + alpha (Ps B Gq + Gs B Pt) = R`` with
 ``S = sum w zaug zaug'`` and ``R = sum w zaug (Phi' W Y_i)'``. The
 Demmler-Reinsch rotation ``U`` of the pair ``(Gq, Pt)``
-(:class:`~skfunc._penalized.PenalizedPath`) makes them separate over response
+(the split engine, :class:`~skfunc._penalized.SplitPath`) makes them separate over response
 directions k: ``A_k c_k = r_k`` with
 ``A_k = mu_k (S + alpha Ps) + alpha (1 - mu_k) / scale Gs``, a small
 (p+1)-square system per direction and alpha. So GCV over every candidate alpha
@@ -42,9 +42,12 @@ Craven, P. and Wahba, G. (1979). Smoothing noisy data with spline functions.
 *Numerische Mathematik* 31, 377-403.
 """
 
+import warnings
+
 import numpy as np
-from scipy.stats import norm as _normal
+from scipy.linalg import block_diag, null_space
 from sklearn.base import BaseEstimator, RegressorMixin
+from sklearn.utils import check_random_state
 from sklearn.utils.validation import (
     check_array,
     check_consistent_length,
@@ -60,6 +63,7 @@ from ._alpha import (
     gcv_in_data_units,
     reml_score,
 )
+from ._bands import critical_value
 from ._blocks import chunked_matmul, is_dask_array, row_blocks
 from ._dask import check_accepts_dask
 from ._docstrings import fill_doc
@@ -67,6 +71,7 @@ from ._estimator import store_init_params
 from ._fit import AdditiveFitMixin
 from ._grid import check_grid, grid_from_labels, quadrature_weights, resolve_grid
 from ._penalized import (
+    _RCOND,
     NotIdentifiableError,
     Penalty,
     SplitPath,
@@ -145,6 +150,54 @@ def response_split(basis, gram, penalty_order, penalized=True, total_weight=None
                else free_penalty(basis.n_basis))
     path = SplitPath(gram, penalty, scale=total_weight)
     return path.eigvecs, path.g, path.p, path.scale
+
+
+class UndeterminedCoefficientsWarning(UserWarning):
+    """The data do not determine every unpenalized coefficient; the fit is
+    the minimum-norm solution."""
+
+
+def min_norm_path(gram, penalty, scale, metric):
+    """``(path, n_dropped)``: the :class:`~skfunc._penalized.SplitPath` of
+    ``(gram, penalty)``, also when the data do not determine the penalty's
+    whole null space; ``metric=None`` allows no such fallback.
+
+    The null-space directions the data do not see are then dropped:
+    eigenvalues at rounding level (the engine's own test) of the
+    null-space block of ``gram`` scaled to a unit diagonal, so that columns
+    in different units (covariates against the intercept's weight total)
+    are not mistaken for a rank deficiency; when there are none, the
+    engine's error stands. The problem is solved on the ``metric``-orthogonal
+    complement of those directions, so among all minimisers the
+    coefficients ``c`` have the smallest ``c' metric c``, the minimum-norm
+    solution that :func:`numpy.linalg.lstsq` gives for rank-deficient least
+    squares. The path's ``eigvecs`` map to the full coordinates (with
+    ``n_dropped`` fewer columns), so coefficients, operators, effective
+    degrees of freedom and criteria are those of the identified part.
+    """
+    try:
+        return SplitPath(gram, penalty, scale=scale), 0
+    except NotIdentifiableError as exc:
+        if metric is None:
+            raise
+        error = exc
+    r = penalty.n_null
+    basis_n = penalty.transform[:, :r]  # orthonormal null-space basis
+    block = basis_n.T @ gram @ basis_n
+    diag = np.clip(np.diag(block), 0.0, None)
+    root = np.sqrt(np.where(diag > 0, diag, 1.0))
+    unit = block / np.outer(root, root)
+    lam, vec = np.linalg.eigh((unit + unit.T) / 2)
+    unseen = lam <= _RCOND * r * max(lam[-1], 1.0)
+    if not unseen.any():
+        raise error
+    undetermined = basis_n @ (vec[:, unseen] / root[:, None])
+    keep = null_space((metric @ undetermined).T)  # c with D' metric c = 0
+    free = basis_n @ null_space(undetermined.T @ metric @ basis_n)
+    reduced = Penalty(keep.T @ penalty.matrix @ keep, keep.T @ free)
+    path = SplitPath(keep.T @ gram @ keep, reduced, scale=scale)
+    path.eigvecs = keep @ path.eigvecs
+    return path, int(unseen.sum())
 
 
 class _PointBasis:
@@ -340,9 +393,10 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
     * ``_validate_X(X, reset, **y_params)``: validated X, or ``(X, y)``
       validated together when ``y_params`` holds ``y``
       (:class:`CurveInputResponseRegressor` for input curves);
-    * ``_design_effect(X, coef, points)``: the prediction minus the
-      intercept, from validated X and ``coef`` shaped like
-      ``coef_function_`` at the response ``points``;
+    * ``_design_effect(X, coef, points, offset=None)``: the prediction
+      minus the intercept (plus ``offset``, the intercept), from validated X
+      and ``coef`` shaped like ``coef_function_`` at the response
+      ``points``; float32 for float32 X (``skfunc._blocks.output_dtype``);
     * ``_statistics_function()`` (optional): ``_statistics`` with a linear
       ``design`` operator when the design is not X itself;
     * ``_design_geometry()``: ``(Gs, Ps)``, the Gram and roughness matrices
@@ -355,6 +409,11 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
     _accepts_dask = True
 
     _batch_grids = (("response_grid", "response_grid_"),)
+
+    #: whether the simultaneous band covers all rows of ``coef_function_`` at
+    #: once (a coefficient surface) rather than each row (coefficient
+    #: functions of separate covariates)
+    _joint_band = False
 
     def __sklearn_tags__(self):
         tags = super().__sklearn_tags__()
@@ -443,12 +502,34 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
                 f"{type(self).__name__} was given 1 sample; the coefficient "
                 "functions need n_samples >= 2 (the intercept and one slope)."
             )
+        # raw sums of squares below the smallest normal number where the sums
+        # are not zero: the squares underflowed, a numerical failure (the
+        # engine's error stands), not a rank deficiency of the data
+        underflow = np.any((np.diag(stats["zz"]) < np.finfo(float).tiny)
+                           & (stats["z_sum"] != 0))
+        metric = None if underflow else block_diag(gram_s, 1.0)
         try:
-            paths = [self._direction_path(S, g[k], p_t[k], gram_s, pen_s, s_t, scale)
+            built = [self._direction_path(S, g[k], p_t[k], gram_s, pen_s, s_t, scale,
+                                          metric)
                      for k in range(g.size)]
         except NotIdentifiableError as exc:
             raise self._not_identifiable("design", stats["n"]) from exc
+        paths = [None if item is None else item[0] for item in built]
         live = [k for k, path in enumerate(paths) if path is not None]
+        dropped = sum(built[k][1] for k in live)
+        if dropped:
+            warnings.warn(
+                f"{type(self).__name__}: the {stats['n']} rows (weights summing to "
+                f"{sw:g}) do not determine {dropped} combination(s) of the "
+                "unpenalized coefficients (the intercept and the part of every "
+                "coefficient function the penalty leaves free): too few rows for "
+                "the covariates, or collinear covariates. The fit is the "
+                "minimum-norm solution (smallest L2 norm of the coefficient "
+                "functions), as numpy.linalg.lstsq and "
+                "sklearn.linear_model.LinearRegression return for rank-deficient "
+                "designs. Use fewer covariates or more rows for a unique fit.",
+                UndeterminedCoefficientsWarning, stacklevel=5,
+            )
         rotated = {k: paths[k].rotate(rot[:, k])[None] for k in live}
         alphas = resolve_candidates(
             self.alpha, np.concatenate([paths[k].s for k in live]), scale)
@@ -552,10 +633,12 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         )
 
     @staticmethod
-    def _direction_path(S, g_k, p_k, gram_s, pen_s, s_t, scale):
-        """The split path of response direction k (None when the data do not
-        see it): design block penalized by ``g_k / s_t Ps + p_k Gs``, the
-        intercept (last) unpenalized."""
+    def _direction_path(S, g_k, p_k, gram_s, pen_s, s_t, scale, metric):
+        """``(path, n_dropped)`` of response direction k (None when the data
+        do not see it): design block penalized by ``g_k / s_t Ps + p_k Gs``,
+        the intercept (last) unpenalized; the minimum-norm solution in
+        ``metric`` where the data do not determine the unpenalized part
+        (:func:`min_norm_path`)."""
         p = gram_s.shape[0]
         if p_k == 0:  # the response penalty's null space: only Ps acts
             if pen_s is None:
@@ -567,7 +650,7 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         else:
             matrix = gram_s if pen_s is None else gram_s + g_k / s_t * pen_s.matrix
             pen = Penalty(matrix, np.zeros((p, 0)))
-        return SplitPath(g_k * S, pen.extend(1), scale=scale)
+        return min_norm_path(g_k * S, pen.extend(1), scale, metric)
 
     def _store(self, basis, basis_coef, coef_covariance, alphas, criterion, edf, best):
         """Set the fitted attributes of the solution at candidate ``best``."""
@@ -656,21 +739,36 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         else:
             intercept, coef = self.coef_functions_at(eval_points)
             points = np.asarray(eval_points, dtype=np.float64).ravel()
-        return intercept + self._design_effect(X, coef, points)
+        # the intercept enters the product: float32 X gives a float32
+        # prediction, centered where a large mean would cost digits
+        return self._design_effect(X, coef, points, offset=intercept)
 
-    def confidence_band(self, level=0.95, intercept=False):
-        """Pointwise confidence band of the coefficient functions.
+    def confidence_band(self, level=0.95, intercept=False, *, simultaneous=False,
+                        n_draws=4000, random_state=None):
+        """Confidence band of the coefficient functions.
 
-        Normal-theory intervals ``estimate -/+ z sd`` at every grid point,
-        assuming independent observations; they ignore the smoothing bias
-        and are not simultaneous over the grid.
+        ``estimate -/+ c sd`` at every grid point, from ``coef_covariance_``
+        (independent observations). Pointwise, ``c`` is the normal quantile
+        ``z_{(1 + level)/2}``; simultaneous, ``c`` is the ``level`` quantile
+        of ``max |f~ - f_hat| / sd`` over ``n_draws`` draws ``f~`` from the
+        coefficients' normal distribution (Ruppert, Wand and Carroll, 2003),
+        so that the whole function lies inside at once: each coefficient
+        function separately, a coefficient surface as a whole. Both ignore
+        the smoothing bias: where the function is rough they are too narrow.
 
         Parameters
         ----------
         level : float, default=0.95
-            Coverage of each pointwise interval, in (0, 1).
+            Coverage level, in (0, 1).
         intercept : bool, default=False
             Band of ``intercept_function_`` instead of ``coef_function_``.
+        simultaneous : bool, default=False
+            Whether the level holds for the whole function at once (wider)
+            rather than at each point.
+        n_draws : int, default=4000
+            Draws for the simultaneous critical value.
+        random_state : int, RandomState instance or None, default=None
+            Seeds the draws (simultaneous bands only).
 
         Returns
         -------
@@ -680,10 +778,20 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         """
         check_is_fitted(self)
         level = check_level(level)
-        p1 = self.basis_coef_.shape[0]
+        p1, K = self.basis_coef_.shape
         left = np.eye(p1)[:1] if intercept else self._coef_rows()
         estimate, phi = self._evaluate(left)
-        half = _normal.ppf(0.5 + level / 2) * np.sqrt(self._band_variance(left, phi))
+        sd = np.sqrt(self._band_variance(left, phi))
+        joint = self._joint_band and not intercept
+        groups = [np.arange(left.shape[0])] if joint else np.arange(left.shape[0])[:, None]
+        rng = check_random_state(random_state)
+        crit = np.empty((left.shape[0], 1))
+        for rows in groups:
+            crit[rows] = critical_value(
+                level, simultaneous=simultaneous, covariance=self.coef_covariance_,
+                evaluate=lambda e, sub=left[rows]: sub @ e.reshape(-1, p1, K) @ phi.T,
+                sd=sd[rows], n_draws=n_draws, random_state=rng)
+        half = crit * sd
         shape = (self.intercept_function_ if intercept else self.coef_function_).shape
         return (estimate - half).reshape(shape), (estimate + half).reshape(shape)
 

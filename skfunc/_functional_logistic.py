@@ -8,32 +8,39 @@ over rows (:func:`newton_statistics`), so chunked or distributed fits can
 reuse it.
 """
 
+import contextlib
 import warnings
+from functools import partial
 from numbers import Integral, Real
 
 import numpy as np
-from scipy.special import expit, logsumexp
+from scipy.special import logsumexp
 from sklearn.base import BaseEstimator, ClassifierMixin
 from sklearn.exceptions import ConvergenceWarning
 from sklearn.utils._param_validation import Interval, StrOptions
-from sklearn.utils.class_weight import compute_sample_weight
+from sklearn.utils.class_weight import compute_class_weight
 from sklearn.utils.multiclass import check_classification_targets
 
-from ._alpha import ALPHA_CONSTRAINT, check_alpha
+from ._alpha import ALPHA_CONSTRAINT, candidates_for, check_alpha
+from ._blocks import _along_rows_of, apply_rows, compute_statistics, is_dask_array
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._fit import check_finite_fit
 from ._integrated_design import (
     DESIGN_CONSTRAINTS,
+    PERIOD_CONSTRAINT,
     IntegratedDesignMixin,
 )
 from ._logistic_path import (
-    NULL_SPACE_RIDGE,
+    N_ALPHAS,
+    RIDGE,
     LogisticProblem,
     coef_covariance,
-    split_coordinates,
+    design_statistics,
+    single_thread_blas,
+    split_design,
 )
-from ._penalized import centered, cross_products, penalty_for, penalty_scale
+from ._penalized import SplitPath, centered, penalty_for, penalty_scale
 from ._weights import check_sample_weight
 
 
@@ -62,6 +69,7 @@ class FunctionalLogisticRegression(
         the spread of the data (Notes), so a value means the same smoothing
         whatever the grid's unit or origin and the scale of X.
     %(scalar_outcome)s
+    %(period)s
     class_weight : dict, "balanced" or None, default=None
         Weights of the classes, multiplied into ``sample_weight``, as in
         scikit-learn's classifiers.
@@ -133,19 +141,35 @@ class FunctionalLogisticRegression(
     the roughness. ``s`` and the data term scale alike when the grid changes
     unit or X changes scale, so fits at a fixed alpha do not change, and
     ``s`` hardly moves with ``n_basis``. It is minimised by Newton's method
-    (penalized iteratively reweighted least squares) in coordinates where
-    the penalty is exactly diagonal (Demmler and Reinsch, 1975): the
+    (penalized iteratively reweighted least squares) in the coordinates of
+    the engine's split path (:class:`~skfunc._penalized.SplitPath`; Demmler
+    and Reinsch, 1975), where the roughness is exactly diagonal and the
+    design's cross products are the identity on the null space: the
     intercept and the penalty's null space (functions with ``D^q beta = 0``)
     are never shrunk by alpha, so a large alpha gives the null-space fit.
+    Newton stops after a step whose half squared Newton decrement is below
+    ``tol * (1 + |objective|)``; near the optimum Newton converges
+    quadratically, so the answer is then exact to rounding (weighted and
+    duplicated curves give the same fit to about 1e-14).
+
+    The loss, gradient and Hessian are sums over the rows, so a Dask array
+    is fitted on its workers: the design is computed and kept there, and
+    each Newton step is one pass of summed statistics over the blocks (only
+    arrays of the size of the Hessian travel).
 
     Separable classes have no finite maximum likelihood. For ``alpha > 0``
-    (and ``"auto"``) the null space, and each scalar covariate, carries a
-    small ridge ``NULL_SPACE_RIDGE = 1e-4`` times the design's own variance
-    there (the sum of squares of the centred null-space coordinates,
-    orthonormal in L2 of [0, 1], per dimension), much as the ``C`` of
-    :class:`sklearn.linear_model.LogisticRegression` penalizes every
-    coefficient; the coefficients are then always finite. ``alpha=0`` keeps
-    plain maximum likelihood and warns when it diverges.
+    (and ``"auto"``) the objective carries a small fixed ridge
+    ``(RIDGE s / 2) int_0^1 beta^2`` with ``RIDGE = 1e-3`` and the same ``s``
+    as alpha (so it is unit-free too), and ``RIDGE`` times each scalar
+    covariate's own weighted variance on the covariates: the functional
+    counterpart of the ``C`` of :class:`sklearn.linear_model.LogisticRegression`,
+    which penalizes every coefficient. The coefficients are then always
+    finite, and where the training classes are separable (common with a few
+    dozen curves) the fit tends, as alpha falls, to the separating direction
+    of smallest ``int beta^2`` rather than the smoothest one: a direction the
+    curves vary along, not one they hardly vary along. As alpha grows the
+    fit tends to the null-space fit with this ridge. ``alpha=0`` keeps plain
+    maximum likelihood and warns when it diverges.
 
     ``alpha="auto"`` fits the candidates from the largest alpha down, each
     fit starting from the previous one, and keeps the alpha minimising the
@@ -154,8 +178,10 @@ class FunctionalLogisticRegression(
     penalty's; ``n`` the weight total): Craven and Wahba's criterion for a
     known dispersion, 1 for class labels, applied to penalized likelihood as
     in O'Sullivan, Yandell and Raynor (1986), Gu (1992) and Wood (2008). The
-    candidates and the choice follow the rules of every skfunc estimator:
-    ties go to the larger alpha, and an ``AlphaAtEdgeWarning`` names the end
+    candidates are the engine's (:func:`~skfunc._alpha.candidate_alphas` of
+    the split path of the design weighted by the logistic curvature of the
+    intercept-only fit, ridge included) and the choice follows the rules of
+    every skfunc estimator: ties go to the larger alpha, and an ``AlphaAtEdgeWarning`` names the end
     of the candidates when the choice is there.
 
     The multinomial model uses one coefficient set per class and the
@@ -207,8 +233,13 @@ class FunctionalLogisticRegression(
     True
     """
 
+    #: each Newton step is one pass of summed statistics over the row blocks,
+    #: so dask arrays are fitted where they are
+    _accepts_dask = True
+
     _parameter_constraints = {
         **DESIGN_CONSTRAINTS,
+        **PERIOD_CONSTRAINT,
         "alpha": ALPHA_CONSTRAINT,
         "class_weight": [dict, StrOptions({"balanced"}), None],
         "max_iter": [Interval(Integral, 1, None, closed="left")],
@@ -216,7 +247,7 @@ class FunctionalLogisticRegression(
     }
 
     def __init__(self, alpha="auto", *, basis="bspline", n_basis=None, degree=3,
-                 interior_knots=None, penalty_order=2, n_covariates=0,
+                 interior_knots=None, penalty_order=2, period=None, n_covariates=0,
                  fit_intercept=True, class_weight=None, max_iter=100, tol=1e-10,
                  grid=None, quadrature="trapezoid"):
         store_init_params(self, locals())
@@ -228,88 +259,115 @@ class FunctionalLogisticRegression(
         Parameters
         ----------
         %(scalar_outcome_X)s
+            A Dask array is fitted where its blocks are: each Newton step is
+            one pass of summed gradients and Hessians over the row blocks.
         y : array-like of shape (n_samples,)
             Class labels.
         %(fit_weights_returns)s
         """
         self._validate_params()
         X, y = self._validate_curves(X, y, reset=True, ensure_min_samples=2)
-        check_classification_targets(y)
-        self.classes_, y_index = np.unique(y, return_inverse=True)
+        self.classes_ = _classes(y)
         if self.classes_.size < 2:
             raise ValueError(
                 "FunctionalLogisticRegression needs samples of at least 2 classes "
                 f"in y; got only one class: {self.classes_[0]!r}."
             )
         sample_weight = check_sample_weight(sample_weight, X)
-        if self.class_weight is not None:
-            sample_weight = sample_weight * compute_sample_weight(self.class_weight, y)
+        Y, weight = _indicators(y, self.classes_, sample_weight, self.class_weight)
         basis = self._basis()
-        Z = self._design(X, self._integration_operator(basis))
-        if self.classes_.size == 2:
-            Y = (y_index == 1).astype(np.float64)[:, None]
-        else:
-            Y = np.eye(self.classes_.size)[y_index]
-        return check_finite_fit(self._solve(Z, Y, sample_weight, basis))
+        operator = self._integration_operator(basis)
+        # Dask workers in this process (a LocalCluster of threads) would run
+        # multi-threaded BLAS on top of one another: one thread each
+        with single_thread_blas() if is_dask_array(X) else contextlib.nullcontext():
+            stats = compute_statistics(
+                partial(design_statistics, operator=operator,
+                        n_covariates=self.n_covariates),
+                X, Y, weight,
+            )
+            self._solve(X, Y, weight, stats, basis, operator)
+        return check_finite_fit(self)
 
-    def _solve(self, Z, Y, sample_weight, basis):
-        k = basis.n_basis
+    def _solve(self, X, Y, weight, stats, basis, operator):
+        totals = np.r_[stats["sw"] - stats["y_sum"].sum(), stats["y_sum"]] \
+            if self.classes_.size == 2 else stats["y_sum"]
+        if np.any(totals <= 0):
+            raise ValueError(
+                "FunctionalLogisticRegression needs a positive total sample weight "
+                f"in every class of y; class {self.classes_[np.argmin(totals)]!r} "
+                "has total weight 0. Drop its rows from X and y, or give them weight."
+            )
         alpha = check_alpha(self.alpha)
-        stats = cross_products(Z, Y, sample_weight)
-        if isinstance(alpha, float) and alpha == 0:
-            gram = centered(stats)[0] if self.fit_intercept else stats["zz"]
-            self._checked_path(gram, self._penalty(basis), 0.0, stats["n"])
-        penalty = penalty_for(basis, self.penalty_order)
-        transform, n_null = split_coordinates(basis, penalty), penalty.n_null
+        k = basis.n_basis
         lead = int(self.fit_intercept)
-        z_mean = stats["z_sum"] / stats["sw"] if lead else np.zeros(Z.shape[1])
-        Zc = Z - z_mean
-        D = np.hstack([np.ones((len(Z), lead)), Zc[:, :k] @ transform, Zc[:, k:]])
-        # the one definition of alpha (skfunc._penalized.penalty_scale): the
-        # roughness on [0, 1] weighed by the largest eigenvalue of the centred
-        # data Gram matrix relative to the unit-domain Gram matrix
-        weighted = Zc[:, :k] * sample_weight[:, None]
-        scale = penalty_scale(weighted.T @ Zc[:, :k], penalty)
-        size = sample_weight @ D**2
-        ridge = np.zeros(D.shape[1])
-        null = slice(lead, lead + n_null)
-        if n_null:
-            ridge[null] = size[null].sum() / n_null
-        ridge[lead + k :] = size[lead + k :]
-        ridge = NULL_SPACE_RIDGE * np.where(ridge > 0, ridge, 1.0)
-        ridge[lead + n_null : lead + k] = 0.0
-        ridge[:lead] = 0.0
-        problem = LogisticProblem(
-            D, Y, sample_weight, (lead, n_null, k - n_null, Z.shape[1] - k),
-            scale, ridge,
-        )
-        if isinstance(alpha, str):
-            alphas = problem.candidate_alphas()
+        if lead:
+            gram, _, _, z_mean, _ = centered(stats)
         else:
-            alphas = np.atleast_1d(alpha)
+            gram, z_mean = stats["zz"], np.zeros(stats["zz"].shape[0])
+        penalty = penalty_for(basis, self.penalty_order).extend(self.n_covariates)
+        scale = penalty_scale(gram, penalty)
+        fixed = isinstance(alpha, float)
+        ridge = (np.zeros_like(gram) if fixed and alpha == 0
+                 else self._ridge(gram, basis, scale))
+        path = self._split_path(gram + ridge, basis, stats["n"], scale=scale)
+        if fixed and alpha == 0:
+            self._check_identified(path, stats["n"])
+        U = path.eigvecs
+        # the design in the path's coordinates: U' (G + R) U = diag(g), and
+        # the roughness is exactly diag(p) (the null space first, exactly 0)
+        D = apply_rows(split_design, X, lead + U.shape[1], operator=operator,
+                       n_covariates=self.n_covariates, z_mean=z_mean, U=U, lead=lead)
+        if is_dask_array(D):
+            # read at every Newton step: computed once, kept on the workers
+            D, Y, weight = D.persist(), Y.persist(), weight.persist()
+        column_size = np.concatenate([[stats["sw"]] * lead, np.diag(U.T @ gram @ U)])
+        ridge_theta = np.zeros((lead + U.shape[1],) * 2)
+        ridge_theta[lead:, lead:] = U.T @ ridge @ U
+        problem = LogisticProblem(
+            D, Y, weight, penalized=np.concatenate([np.zeros(lead, bool), path.p > 0]),
+            scale=scale, ridge=ridge_theta, fit_intercept=lead,
+            class_sums=stats["y_sum"], total_weight=stats["sw"],
+            column_size=column_size,
+        )
+        # the engine's candidates for the curvature of the intercept-only
+        # fit: from nearly the null-space fit to nearly the full basis
+        freq = stats["y_sum"] / stats["sw"]
+        curvature = max(float(np.mean(freq * (1 - freq))), 1e-3)
+        alphas = candidates_for(
+            alpha, SplitPath(curvature * gram + ridge, penalty, scale=scale), N_ALPHAS)
         fit = problem.path(alphas, self.tol, self.max_iter)
-        j, theta, hess, converged = fit["best"], fit["theta"], fit["hess"], fit["converged"]
+        j, theta = fit["best"], fit["theta"]
         self.alpha_ = float(alphas[j])
         self.alphas_path_ = alphas
         self.criterion_path_ = fit["criterion"]
         self.edf_path_ = fit["edf"]
         self.n_iter_ = fit["n_iter"]
-        self._warn_convergence(converged, D @ theta.T, sample_weight)
+        self._warn_convergence(fit["converged"], fit["saturated"])
         n_out = theta.shape[0]
-        covariance = coef_covariance(problem, theta, hess, self.alpha_)
-        blocks = np.stack(
-            [
-                transform @ covariance[c, lead : lead + k, c, lead : lead + k]
-                @ transform.T
-                for c in range(n_out)
-            ]
-        )
-        coef = np.hstack([theta[:, lead : lead + k] @ transform.T, theta[:, lead + k :]])
+        covariance = coef_covariance(problem, fit["hess"], self.alpha_)
+        U_f = U[:k]
+        blocks = np.stack([U_f @ covariance[c, lead:, c, lead:] @ U_f.T
+                           for c in range(n_out)])
+        coef = theta[:, lead:] @ U.T
         intercept = theta[:, 0] - coef @ z_mean if lead else np.zeros(n_out)
         self._set_coefficients(basis, coef, intercept, blocks, squeeze=False)
         return self
 
-    def _warn_convergence(self, converged, eta, sample_weight):
+    def _ridge(self, gram, basis, scale):
+        """The fixed ridge ``R`` in the coefficients ``[c, gamma]``.
+
+        ``RIDGE * scale * int_0^1 beta^2`` on beta (scale: the engine weight
+        of alpha = 1, so the ridge is unit-free like alpha) and ``RIDGE``
+        times each covariate's own weighted variance on the covariates.
+        """
+        k = basis.n_basis
+        ridge = np.zeros_like(gram)
+        ridge[:k, :k] = RIDGE * scale * basis.unit_gram()
+        size = np.diag(gram)[k:]
+        ridge[k:, k:] = np.diag(RIDGE * np.where(size > 0, size, 1.0))
+        return ridge
+
+    def _warn_convergence(self, converged, saturated):
         if not converged:
             advice = (
                 " alpha=0 has no finite optimum when the classes are separable by "
@@ -324,7 +382,7 @@ class FunctionalLogisticRegression(
                 ConvergenceWarning,
                 stacklevel=4,
             )
-        elif self.alpha_ == 0 and _saturated(eta, sample_weight):
+        elif saturated:
             warnings.warn(
                 "FunctionalLogisticRegression did not converge to a finite "
                 "maximum: fitted probabilities numerically 0 or 1 occurred, so "
@@ -351,19 +409,14 @@ class FunctionalLogisticRegression(
         return scores[:, 0] if scores.shape[1] == 1 else scores
 
     def predict_proba(self, X):
-        """Class probabilities of the curves in X, shape (n_samples, n_classes)."""
-        scores = self.decision_function(X)
-        if scores.ndim == 1:
-            p = expit(scores)
-            return np.column_stack([1 - p, p])
-        return np.exp(scores - logsumexp(scores, axis=1, keepdims=True))
+        """Class probabilities of the curves in X, shape (n_samples, n_classes)
+        (a lazy Dask array for Dask input)."""
+        return apply_rows(probabilities, self._linear_predictor(X), self.classes_.size)
 
     def predict_log_proba(self, X):
         """Logarithms of :meth:`predict_proba`, shape (n_samples, n_classes)."""
-        scores = self.decision_function(X)
-        if scores.ndim == 1:
-            return -np.logaddexp(0.0, np.column_stack([scores, -scores]))
-        return scores - logsumexp(scores, axis=1, keepdims=True)
+        return apply_rows(log_probabilities, self._linear_predictor(X),
+                          self.classes_.size)
 
     @fill_doc
     def predict(self, X):
@@ -374,18 +427,83 @@ class FunctionalLogisticRegression(
         Returns
         -------
         labels : ndarray of shape (n_samples,)
-            Entries of ``classes_``.
+            Entries of ``classes_`` (a lazy Dask array for Dask input).
         """
-        scores = self.decision_function(X)
-        index = (scores > 0).astype(int) if scores.ndim == 1 else scores.argmax(axis=1)
-        return self.classes_[index]
+        eta = self._linear_predictor(X)
+        if is_dask_array(eta):
+            return eta.map_blocks(labels, classes=self.classes_, drop_axis=1,
+                                  dtype=self.classes_.dtype)
+        return labels(eta, self.classes_)
 
 
-def _saturated(eta, sample_weight, eps=1e-12):
-    """Whether a weighted row has a fitted probability within eps of 0 or 1,
-    the usual symptom of separation (common practice in GLM software)."""
+def log_probabilities(eta):
+    """Log class probabilities from the linear predictor (n, 1 or T) (a
+    row-block function): the log-odds of ``classes_[1]`` for one column."""
     if eta.shape[1] == 1:
-        eta = np.column_stack([np.zeros(len(eta)), eta])
-    log_prob = eta - logsumexp(eta, axis=1, keepdims=True)
-    rows = sample_weight > 0
-    return bool(np.any(log_prob[rows] < np.log(eps)))
+        return -np.logaddexp(0.0, np.column_stack([eta[:, 0], -eta[:, 0]]))
+    return eta - logsumexp(eta, axis=1, keepdims=True)
+
+
+def probabilities(eta):
+    """Class probabilities from the linear predictor (a row-block function)."""
+    return np.exp(log_probabilities(eta))
+
+
+def labels(eta, classes):
+    """The most probable class of each row (a row-block function)."""
+    index = (eta[:, 0] > 0).astype(int) if eta.shape[1] == 1 else eta.argmax(axis=1)
+    return classes[index]
+
+
+def _classes(y):
+    """Sorted class labels of y, checked to be labels (computed on the
+    workers for a Dask y, whose labels alone are checked)."""
+    if not is_dask_array(y):
+        check_classification_targets(y)
+        return np.unique(y)
+    import dask.array as da
+
+    classes = np.asarray(da.unique(y).compute())
+    with warnings.catch_warnings():
+        # the distinct labels are all unique, which the check would call a
+        # hint of a regression target: only the values are checked here
+        warnings.filterwarnings("ignore", "The number of unique classes",
+                                UserWarning)
+        check_classification_targets(classes)
+    return classes
+
+
+def _indicators(y, classes, sample_weight, class_weight):
+    """0/1 indicators of the classes (one column for two classes) and the
+    row weights times the class weights, lazily for a Dask y."""
+    if class_weight is None:
+        factors = np.ones(classes.size)
+    elif isinstance(class_weight, str):  # "balanced": n / (n_classes * count)
+        counts = compute_statistics(partial(class_counts, classes=classes), y)["counts"]
+        factors = counts.sum() / (classes.size * np.where(counts > 0, counts, 1))
+    else:
+        factors = compute_class_weight(class_weight, classes=classes, y=classes)
+    n_out = 1 if classes.size == 2 else classes.size
+    Y = apply_rows(indicators, y[:, None], n_out, classes=classes)
+    if is_dask_array(y):
+        sample_weight = _along_rows_of(y, sample_weight)
+    weight = sample_weight * apply_rows(class_factors, y[:, None], classes=classes,
+                                        factors=factors)
+    return Y, weight
+
+
+def indicators(y, classes):
+    """0/1 indicators of ``classes`` for a column of labels; the column of
+    ``classes[1]`` alone for two classes (a row-block function)."""
+    Y = (y == classes[None, :]).astype(np.float64)
+    return Y[:, 1:] if classes.size == 2 else Y
+
+
+def class_factors(y, classes, factors):
+    """Class weight of each row (a row-block function)."""
+    return factors[np.searchsorted(classes, y[:, 0])]
+
+
+def class_counts(y, classes):
+    """Row counts per class (additive statistics)."""
+    return {"counts": np.bincount(np.searchsorted(classes, y), minlength=classes.size)}

@@ -15,8 +15,9 @@ from sklearn.utils import check_random_state
 from sklearn.utils._param_validation import Interval, RealNotInt, StrOptions
 from sklearn.utils.validation import check_is_fitted
 
+from ._alpha import ALPHA_CONSTRAINT, check_alpha
 from ._bases import BASES
-from ._blocks import chunked_matmul, is_dask_array
+from ._blocks import chunked_matmul, is_dask_array, output_dtype
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._fit import AdditiveTransformerMixin
@@ -24,11 +25,13 @@ from ._fpca import (
     ComponentCurvesMixin,
     CurveCoordinates,
     covariance_directions,
+    cross_validate_alpha,
+    merge_fold_moments,
+    pooled_moments,
     sign_convention,
     svd_directions,
 )
 from ._grid import quadrature_weights
-from ._moments import merge_moments
 from ._validation import BASIS_CONSTRAINTS, basis_for, validate_curves
 
 SVD_SOLVERS = ("auto", "full", "covariance_eigh", "randomized")
@@ -51,8 +54,9 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
     are variances of integrals, not of sums over grid points, so they do not
     depend on how densely or evenly the curves were sampled.
 
-    Optionally the curves are expanded in a basis, and the components can be
-    smoothed with a roughness penalty (Silverman's method).
+    Optionally the curves are expanded in a basis, and the components are
+    then smoothed with a roughness penalty (Silverman's method) whose weight
+    is chosen from the training curves by cross-validation by default.
 
     Parameters
     ----------
@@ -64,9 +68,10 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         components with variance); None keeps ``min(n_samples, K)``.
     basis : {"bspline", "fourier", "legendre"} or None, default=None
         Basis in which curves and components are expanded. None means no
-        expansion: the grid values themselves are the coordinates, and
-        ``n_basis``, ``interior_knots`` or ``alpha > 0`` are an error (they describe
-        a basis; pass one, e.g. ``basis="bspline"``).
+        expansion: the grid values themselves are the coordinates, nothing
+        is smoothed (``alpha_`` is 0), and ``n_basis``, ``interior_knots``,
+        ``alpha > 0`` or candidate alphas are an error (they describe a
+        basis; pass one, e.g. ``basis="bspline"``).
     n_basis : int, default=None
         Number of basis functions; None means the basis' default (20
         B-splines, 21 Fourier functions, 12 Legendre polynomials) capped by
@@ -76,11 +81,20 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         Degree of the B-splines. Ignored without a B-spline basis.
     interior_knots : array-like of shape (n_knots,), default=None
         Interior B-spline knots; None means evenly spaced.
-    alpha : float, default=0.0
-        Roughness penalty of smoothed components: they maximise
-        ``var <x, phi>`` subject to ``||phi||^2 + alpha ||D^q phi||^2 = 1``
-        (Silverman, 1996), then are re-orthonormalised in L2 in order.
-        ``alpha`` has the units of ``t^(2q)``. 0 for ordinary components.
+    alpha : "auto", float or array-like, default="auto"
+        Roughness penalty of smoothed components (with a basis): they
+        maximise ``var <x, phi>`` subject to ``||phi||^2 + alpha ||D^q
+        phi||^2 = 1`` with both norms taken on the domain mapped to [0, 1]
+        (Silverman, 1996), then are re-orthonormalised in L2 in order. So
+        alpha is unit-free: the same number smooths alike whatever the
+        grid's unit or origin and the data's scale (see
+        :doc:`/bases_and_penalties`); the penalty's null space (straight
+        lines for ``penalty_order=2``) is never penalized. ``"auto"`` chooses
+        it by 10-fold cross-validation over curves of the reconstruction
+        error (see Notes) among candidates spanning every fit from nearly
+        unsmoothed to nearly the null space; an array of numbers > 0 gives
+        the candidates; a number >= 0 fixes it (0: ordinary components).
+        Without a basis nothing is smoothed and ``"auto"`` means 0.
     penalty_order : int, default=2
         Derivative order ``q`` of the roughness penalty.
     svd_solver : {"auto", "full", "covariance_eigh", "randomized"}, default="auto"
@@ -95,6 +109,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         min(n_samples, K)``, else "full". Smoothed components (``alpha > 0``)
         are always computed from the covariance ("auto" or "covariance_eigh"),
         and :meth:`partial_fit` always takes the "covariance_eigh" route.
+        So does ``alpha="auto"`` with a basis.
     n_oversamples : int, default=10
         Extra random vectors of the randomized solver.
     iterated_power : int or "auto", default="auto"
@@ -139,6 +154,18 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         of the centered curves in L2-orthonormal coordinates.
     n_components_ : int
         Number of components kept.
+    alpha_ : float
+        The alpha used: the cross-validated choice, or the given number (0
+        without a basis).
+    alphas_path_ : ndarray of shape (n_alphas,)
+        The candidates (``[alpha_]`` when alpha is fixed).
+    criterion_path_ : ndarray of shape (n_alphas,) or None
+        Cross-validated reconstruction error of each candidate (lower is
+        better); None when alpha is fixed.
+    edf_path_ : ndarray of shape (n_alphas,)
+        Effective dimension of each candidate's penalized norm,
+        ``tr (G + lam R)^{-1} G``: from the number of basis functions
+        (unsmoothed) down to the null space's dimension.
     projection_ : ndarray of shape (n_components_, n_features)
         The operator of :meth:`transform`: scores are
         ``(X - mean_) @ projection_.T``.
@@ -173,6 +200,20 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
     over grid points: its eigenvalues scale with the number of points, and on
     uneven grids densely sampled stretches weigh more (see Examples).
 
+    With a basis and ``alpha="auto"``, alpha is chosen by cross-validation
+    over curves (Rice and Silverman, 1991; Ramsay and Silverman, 2005, sec.
+    9.3.3): curves are dealt to 10 folds by their row position (row ``i``
+    to fold ``i mod 10``, counted across :meth:`partial_fit` batches), and
+    for each fold and candidate the components computed without the fold
+    reconstruct the fold's curves; the criterion is the summed squared L2
+    reconstruction error with ``n_components`` components (with
+    ``n_components`` None or a fraction, summed over every number of
+    components, 1, 2, ..., so that each counts). It needs only the count,
+    mean and scatter of ``z`` per fold, so it runs from the same additive
+    statistics as the fit. A choice at the smallest or largest candidate
+    gives an ``AlphaAtEdgeWarning``; at the smallest,
+    the curves need no smoothing (or too few curves are seen to tell).
+
     :meth:`partial_fit` accumulates the count, mean and centered scatter
     (K x K) of ``z`` over chunks (merged exactly, Chan et al., 1979), so its
     memory is one chunk plus K x K, and its result equals :meth:`fit` on the
@@ -188,6 +229,10 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
     ----------
     Ramsay, J. O. and Silverman, B. W. (2005). *Functional Data Analysis*,
     2nd ed., ch. 8-9. Springer.
+
+    Rice, J. A. and Silverman, B. W. (1991). Estimating the mean and
+    covariance structure nonparametrically when the data are curves.
+    *Journal of the Royal Statistical Society, Series B* 53(1), 233-243.
 
     Silverman, B. W. (1996). Smoothed functional principal components
     analysis by choice of norm. *The Annals of Statistics* 24(1), 1-24.
@@ -248,7 +293,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         ],
         **BASIS_CONSTRAINTS,
         "basis": [StrOptions(set(BASES)), None],
-        "alpha": [Interval(Real, 0, None, closed="left")],
+        "alpha": ALPHA_CONSTRAINT,
         "svd_solver": [StrOptions(set(SVD_SOLVERS))],
         "n_oversamples": [Interval(Integral, 1, None, closed="left")],
         "iterated_power": [Interval(Integral, 0, None, closed="left"),
@@ -257,15 +302,16 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
     }
 
     def __init__(self, n_components=None, *, basis=None, n_basis=None, degree=3,
-                 interior_knots=None, alpha=0.0, penalty_order=2, svd_solver="auto",
+                 interior_knots=None, alpha="auto", penalty_order=2, svd_solver="auto",
                  n_oversamples=10, iterated_power="auto", random_state=None, grid=None,
                  quadrature="trapezoid"):
         store_init_params(self, locals())
 
     # ------------------------------------------------------------------ fit
     #: keys ``n``, ``mean``, ``scatter`` (count, mean and centered scatter of
-    #: the coordinates), merged exactly in any order (Chan et al., 1979)
-    _merge_statistics = staticmethod(merge_moments)
+    #: the coordinates; per fold of rows when alpha is chosen by
+    #: cross-validation), merged exactly in any order (Chan et al., 1979)
+    _merge_statistics = staticmethod(merge_fold_moments)
 
     @fill_doc
     def fit(self, X, y=None):
@@ -284,19 +330,26 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         self._n_wanted(X.shape[0], coords.n_coordinates)  # fail before the work
         solver = self._solver(X.shape[0], coords.n_coordinates)
         if solver == "covariance_eigh":
-            # the statistics route of partial_fit, on the validated X
-            self._batch_validated = X
+            # the statistics route of partial_fit, on the validated X and
+            # the coordinate maps built above (not rebuilt per step)
+            self._batch_validated, self._batch_coordinates = X, coords
             try:
                 return self._fit_statistics(X)
             finally:
-                del self._batch_validated
+                del self._batch_validated, self._batch_coordinates
         self._fit_svd(X, coords, solver)
         return self
 
     def _validate_batch(self, X, y, sample_weight, first):
         validated = getattr(self, "_batch_validated", None)
-        if validated is not None:
-            return (validated,)
+        X = self._validate_new_batch(X, first) if validated is None else validated
+        if not self._chooses_alpha():
+            return (X,)
+        # the position of each row over all batches: its fold of curves
+        offset = 0 if first else self.n_samples_seen_
+        return X, np.arange(offset, offset + X.shape[0])
+
+    def _validate_new_batch(self, X, first):
         if not first:
             self._check_chunk_width(X)
             if not hasattr(self, "_partial_statistics"):
@@ -311,19 +364,25 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         X = self._validate(X, reset=first)
         if first and is_dask_array(X):
             self._solver(X.shape[0], self._coordinates().n_coordinates, True)
-        return (X,)
+        return X
 
-    def _statistics(self, X):
-        """Count, mean and centered scatter of the coordinates of X's rows."""
-        return self._coordinates().statistics(X)
+    def _statistics(self, X, index=None):
+        """Count, mean and centered scatter of the coordinates of X's rows
+        (per fold of rows, given their positions ``index``, when alpha is
+        chosen by cross-validation)."""
+        return self._statistics_function()(X, *(() if index is None else (index,)))
 
     def _statistics_function(self):
         # the coordinate maps are built once per batch, not once per block
-        return self._coordinates().statistics
+        coords = self._batch_coords()
+        return coords.fold_statistics if self._chooses_alpha() else coords.statistics
 
     def _solve(self, stats):
         """Set the fitted attributes from merged statistics."""
-        coords = self._coordinates()
+        coords = self._batch_coords()
+        folds = stats if np.ndim(stats["n"]) else None
+        if folds is not None:
+            stats = pooled_moments(folds)
         n, mean, scatter = stats["n"], stats["mean"], stats["scatter"]
         if n < 2:
             raise ValueError(
@@ -334,9 +393,15 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         total = float(np.trace(covariance))
         self._check_variance(total, mean)
         n_wanted = self._n_wanted(n, coords.n_coordinates)
-        variances, directions = covariance_directions(
-            covariance, n_wanted, coords.penalty, self.alpha
-        )
+        alpha, alphas, scores = self._fixed_alpha(), None, None
+        if folds is not None:
+            alpha, alphas, scores = cross_validate_alpha(
+                folds, coords,
+                self.n_components if isinstance(self.n_components, Integral) else None,
+                self.alpha,
+            )
+        self._set_alpha(alpha, alphas, scores, coords)
+        variances, directions = covariance_directions(covariance, n_wanted, coords, alpha)
         self.coordinate_scatter_ = scatter
         self._set_components(variances, directions, total, mean, n, n_wanted, coords)
 
@@ -355,6 +420,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
             iterated_power=self.iterated_power,
         )
         del Z
+        self._set_alpha(0.0, None, None, coords)
         # the exact SVD has all directions, hence the whole scatter, and
         # partial_fit can continue from it
         self.coordinate_scatter_ = None
@@ -365,6 +431,15 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
             }
         self._set_components(
             squares / (n - 1), directions, total, mean, n, n_wanted, coords
+        )
+
+    def _set_alpha(self, alpha, alphas, scores, coords):
+        self.alpha_ = float(alpha)
+        self.alphas_path_ = np.array([self.alpha_]) if alphas is None else alphas
+        self.criterion_path_ = scores
+        self.edf_path_ = (
+            np.full(self.alphas_path_.shape, float(coords.n_coordinates))
+            if coords.path is None else coords.path.edf(self.alphas_path_)
         )
 
     def _set_components(self, variances, directions, total, mean, n, n_wanted, coords):
@@ -404,6 +479,19 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
     def _uses_basis(self):
         return self.basis is not None
 
+    def _chooses_alpha(self):
+        """Whether alpha is chosen from the data (a basis, and "auto" or
+        candidates)."""
+        return self._uses_basis() and not isinstance(check_alpha(self.alpha), float)
+
+    def _fixed_alpha(self):
+        """The fixed alpha (0 without a basis: nothing to smooth)."""
+        value = check_alpha(self.alpha)
+        return value if isinstance(value, float) and self._uses_basis() else 0.0
+
+    def _smooths(self):
+        return self._chooses_alpha() or self._fixed_alpha() > 0
+
     def _check_basis_parameters(self):
         """basis=None means grid values: parameters of a basis are an error."""
         if self.basis is not None:
@@ -413,7 +501,8 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
             for name, unset in (("n_basis", None), ("interior_knots", None))
             if getattr(self, name) is not unset
         ]
-        if self.alpha > 0:
+        value = check_alpha(self.alpha)
+        if not isinstance(value, str) and np.any(value > 0):
             given.append(f"alpha={self.alpha!r}")
         if given:
             raise ValueError(
@@ -421,6 +510,11 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
                 "the grid values themselves are the coordinates; pass a basis, "
                 "for example basis='bspline'."
             )
+
+    def _batch_coords(self):
+        """The coordinate maps of the fit in progress, else built anew."""
+        coords = vars(self).get("_batch_coordinates")
+        return self._coordinates() if coords is None else coords
 
     def _coordinates(self):
         """Rebuild the coordinate maps from the parameters and ``grid_``."""
@@ -435,7 +529,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
             return CurveCoordinates(weights)
         return CurveCoordinates(
             weights, basis_for(self, self.grid_), self.grid_,
-            self.penalty_order if self.alpha > 0 else None,
+            self.penalty_order if self._smooths() else None,
         )
 
     def _fraction(self):
@@ -453,10 +547,11 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
                     "svd_solver='auto' or 'covariance_eigh'."
                 )
             return "covariance_eigh"
-        if self.alpha > 0:
+        if self._smooths():
             if solver not in ("auto", "covariance_eigh"):
                 raise ValueError(
-                    f"Smoothed components (alpha > 0) are computed from the "
+                    f"Smoothed components (alpha > 0 or 'auto' with a basis) are "
+                    f"computed from the "
                     f"covariance; svd_solver={solver!r} cannot be used. Use "
                     "svd_solver='auto' or 'covariance_eigh'."
                 )
@@ -529,7 +624,9 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         """
         check_is_fitted(self)
         X = self._validate(X, reset=False)
-        return chunked_matmul(X, self.projection_.T) - self.mean_ @ self.projection_.T
+        operator_T = self.projection_.T
+        return chunked_matmul(X, operator_T, -self.mean_ @ operator_T,
+                              dtype=output_dtype(X))
 
     @fill_doc
     def score_samples(self, X):

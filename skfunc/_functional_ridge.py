@@ -24,7 +24,6 @@ from ._integrated_design import (
     IntegratedDesignMixin,
 )
 from ._penalized import (
-    NotIdentifiableError,
     centered,
     centered_cross_products,
     data_exponent,
@@ -116,13 +115,14 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
 
     def _check_same_targets(self, y):
         targets = self._partial_statistics["zy"].shape[1]
-        if (y.ndim == 1) != (np.ndim(self.intercept_) == 0) or (
+        one = self._target_ndim == 1  # set by the first batch (no solve needed)
+        if (y.ndim == 1) != one or (
             y.ndim == 2 and y.shape[1] != targets
         ):
             raise ValueError(
                 f"y of this partial_fit batch has shape {y.shape}; earlier "
                 f"batches had {targets} target(s) "
-                f"{'as a 1-D y' if np.ndim(self.intercept_) == 0 else 'as columns'}"
+                f"{'as a 1-D y' if one else 'as columns'}"
                 "; every batch needs the same targets."
             )
 
@@ -180,16 +180,8 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
         choice per target unless ``pooled``); set the path attributes and
         fit at the choice."""
         path, part = self._path(stats, basis)
-        if np.ndim(alpha) == 0 and alpha == 0 and np.any(path.s <= 0):
-            k = basis.n_basis
-            raise NotIdentifiableError(
-                f"{type(self).__name__} cannot determine {k + self.n_covariates} "
-                f"coefficients ({k} basis functions for beta and "
-                f"{self.n_covariates} covariate(s)) from {stats['n']} curves "
-                "without a penalty (alpha=0). Use a roughness penalty alpha > 0 "
-                "or 'auto' (the usual choice), fewer basis functions (n_basis) "
-                "or more curves."
-            )
+        if np.ndim(alpha) == 0 and alpha == 0:
+            self._check_identified(path, stats["n"])
         chosen = choose_alpha(
             # frequency weights: the weight total counts the rows (GCV's n, REML's n)
             path, part["rotated"], part["yy"], stats["sw"], alpha, criterion=criterion,
@@ -220,7 +212,7 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
         -------
         y_pred : ndarray of shape (n_samples,) or (n_samples, n_targets)
         """
-        return self._linear_predictor(X)
+        return self._linear_predictor(X, keep_float32=True)
 
 
 @fill_doc

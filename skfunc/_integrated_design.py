@@ -25,19 +25,18 @@ Cardot, H., Ferraty, F. and Sarda, P. (2003). Spline estimators for the
 functional linear model. *Statistica Sinica* 13, 571-591.
 """
 
-from numbers import Integral, Real
+from numbers import Integral
 
 import numpy as np
-from scipy.linalg import block_diag
-from scipy.stats import norm
 from sklearn.utils import check_random_state
 from sklearn.utils._param_validation import Interval
 from sklearn.utils.validation import check_is_fitted
 
-from ._blocks import chunked_matmul
+from ._bands import critical_value
+from ._blocks import chunked_matmul, output_dtype
 from ._estimator import ShortReprMixin
 from ._grid import quadrature_weights
-from ._penalized import _RCOND, NotIdentifiableError, PenalizedPath, SplitPath, penalty_for
+from ._penalized import NotIdentifiableError, SplitPath, penalty_for
 from ._validation import BASIS_CONSTRAINTS, basis_for, check_level, validate_curves
 
 #: parameter constraints common to every model on the integrated design
@@ -50,8 +49,15 @@ DESIGN_CONSTRAINTS = {
 #: ``period`` (Fourier) for the models that take it
 PERIOD_CONSTRAINT = {"period": BASIS_CONSTRAINTS["period"]}
 
-#: a fixed alpha (FunctionalLogisticRegression, until it takes "auto")
-ALPHA_CONSTRAINT = [Interval(Real, 0, None, closed="left")]
+
+def integrated_design(X, operator, n_covariates):
+    """``[X_curves W Phi, covariates]`` (n x K + p) for curves X followed by
+    ``n_covariates`` scalar columns (a row-block function)."""
+    m = operator.shape[0]
+    Z = chunked_matmul(X[:, :m], operator)
+    if n_covariates:
+        Z = np.hstack([Z, np.asarray(X[:, m:], dtype=np.float64)])
+    return Z
 
 
 class IntegratedDesignMixin(ShortReprMixin):
@@ -77,31 +83,15 @@ class IntegratedDesignMixin(ShortReprMixin):
 
     def _design(self, X, operator):
         """The integrated design ``[X_curves W Phi, covariates]`` (n x K + p)."""
-        m = operator.shape[0]
-        Z = chunked_matmul(X[:, :m], operator)
-        if self.n_covariates:
-            Z = np.hstack([Z, np.asarray(X[:, m:], dtype=np.float64)])
-        return Z
+        return integrated_design(X, operator, self.n_covariates)
 
-    def _penalty(self, basis):
-        """Roughness matrix for ``[basis coefficients, covariate coefficients]``;
-        the covariates are unpenalized."""
-        k, degree = basis.n_basis, getattr(basis, "degree", None)
-        if degree is not None and k == degree + 1 and self.penalty_order > degree:
-            # B-splines without interior knots (the adaptive default on a tiny
-            # grid) span polynomials of degree < q, whose D^q vanishes.
-            roughness = np.zeros((k, k))
-        else:
-            roughness = basis.penalty(self.penalty_order)
-        return block_diag(roughness, np.zeros((self.n_covariates, self.n_covariates)))
-
-    def _split_path(self, zz, basis, n_samples):
+    def _split_path(self, zz, basis, n_samples, scale=None):
         """:class:`~skfunc._penalized.SplitPath` of the (centred) cross
         products with beta's penalty split into its null space and the
         covariates unpenalized; errors say what to change."""
         penalty = penalty_for(basis, self.penalty_order).extend(self.n_covariates)
         try:
-            return SplitPath(zz, penalty)
+            return SplitPath(zz, penalty, scale=scale)
         except NotIdentifiableError as exc:
             n_coef = zz.shape[0]
             raise NotIdentifiableError(
@@ -113,37 +103,18 @@ class IntegratedDesignMixin(ShortReprMixin):
                 "more curves, a lower penalty_order or fewer covariates."
             ) from exc
 
-    def _checked_path(self, zz, penalty, alphas, n_samples):
-        """``PenalizedPath(zz, penalty)``, with errors that say what to change."""
-        n_coef = zz.shape[0]
-        try:
-            path = PenalizedPath(zz, penalty)
-            if np.min(alphas) == 0 and path.mu.min() <= _RCOND * n_coef:
-                raise NotIdentifiableError(
-                    "with alpha=0 the cross products of the integrated design "
-                    "are singular"
-                )
-            path.denominators(alphas)
-        except NotIdentifiableError as exc:
-            if np.min(alphas) == 0:
-                advice = (
-                    "Use a roughness penalty alpha > 0 (the usual choice), fewer "
-                    "basis functions (n_basis) or more curves."
-                )
-            else:
-                advice = (
-                    "The penalty leaves functions with D^penalty_order = 0 (and "
-                    "the covariates) unpenalized, so the data must determine "
-                    "those: use more curves, a lower penalty_order or fewer "
-                    "covariates."
-                )
+    def _check_identified(self, path, n_samples):
+        """Raise unless the data alone determine every coefficient (alpha=0)."""
+        if np.any(path.s <= 0):
+            n_coef = path.eigvecs.shape[0]
             raise NotIdentifiableError(
                 f"{type(self).__name__} cannot determine {n_coef} coefficients "
                 f"({n_coef - self.n_covariates} basis functions for beta and "
-                f"{self.n_covariates} covariate(s)) from {n_samples} curves: "
-                f"{exc}. {advice}"
-            ) from exc
-        return path
+                f"{self.n_covariates} covariate(s)) from {n_samples} curves "
+                "without a penalty (alpha=0). Use a roughness penalty alpha > 0 "
+                "or 'auto' (the usual choice), fewer basis functions (n_basis) "
+                "or more curves."
+            )
 
     def _set_coefficients(self, basis, theta, intercept, covariance, squeeze):
         """Store the fitted model from design coefficients ``theta`` (T, K + p),
@@ -164,12 +135,14 @@ class IntegratedDesignMixin(ShortReprMixin):
         self.intercept_ = float(intercept[0]) if squeeze else intercept
         self.coef_covariance_ = out(covariance)
 
-    def _linear_predictor(self, X):
-        """``X @ coef_.T + intercept_`` for validated curves X."""
+    def _linear_predictor(self, X, keep_float32=False):
+        """``X @ coef_.T + intercept_`` for validated curves X (float32 for
+        float32 X with ``keep_float32``, else float64)."""
         check_is_fitted(self)
         X = self._validate_curves(X, reset=False)
         coef = np.atleast_2d(self.coef_)
-        eta = chunked_matmul(X, coef.T) + self.intercept_
+        dtype = output_dtype(X) if keep_float32 else np.float64
+        eta = chunked_matmul(X, coef.T, self.intercept_, dtype=dtype)
         return eta[:, 0] if np.ndim(self.coef_) == 1 else eta
 
     def confidence_band(self, level=0.95, *, simultaneous=False, n_draws=4000,
@@ -210,33 +183,14 @@ class IntegratedDesignMixin(ShortReprMixin):
         phi = self._basis().evaluate(self.grid_)
         var = np.einsum("jk,...kl,jl->...j", phi, self.coef_covariance_, phi)
         sd = np.sqrt(np.maximum(var, 0.0))
-        if simultaneous:
-            if isinstance(n_draws, bool) or not isinstance(n_draws, Integral) \
-                    or n_draws < 100:
-                raise ValueError(
-                    f"n_draws must be an integer >= 100; got {n_draws!r}."
-                )
-            crit = _simultaneous_critical_value(
-                phi, self.coef_covariance_, sd, level, n_draws,
-                check_random_state(random_state))
-        else:
-            crit = norm.ppf(0.5 + level / 2)
+        covs = self.coef_covariance_.reshape((-1,) + self.coef_covariance_.shape[-2:])
+        rng = check_random_state(random_state)
+        crit = np.array([
+            critical_value(level, simultaneous=simultaneous, covariance=cov,
+                           evaluate=lambda e: e @ phi.T, sd=s, n_draws=n_draws,
+                           random_state=rng)
+            for cov, s in zip(covs, sd.reshape(len(covs), -1))])
+        crit = crit[:, None] if self.coef_covariance_.ndim == 3 else crit[0]
         half = crit * sd
         return self.coef_function_ - half, self.coef_function_ + half
 
-
-def _simultaneous_critical_value(phi, covariance, sd, level, n_draws, rng):
-    """The ``level`` quantile of ``max_t |phi(t)' e| / sd(t)`` for ``e`` drawn
-    from N(0, covariance), per target (Ruppert, Wand and Carroll, 2003)."""
-    covs = covariance.reshape((-1,) + covariance.shape[-2:])
-    sds = sd.reshape(len(covs), -1)
-    crit = np.empty(len(covs))
-    for i, (cov, s) in enumerate(zip(covs, sds)):
-        eigval, eigvec = np.linalg.eigh(cov)
-        root = eigvec * np.sqrt(np.maximum(eigval, 0.0))  # root @ root.T = cov
-        draws = rng.standard_normal((n_draws, root.shape[1])) @ root.T @ phi.T
-        inside = s > 0
-        worst = np.max(np.abs(draws[:, inside]) / s[inside], axis=1)
-        crit[i] = np.quantile(worst, level)
-    return crit.reshape(covariance.shape[:-2] + (1,)) if covariance.ndim == 3 \
-        else float(crit[0])

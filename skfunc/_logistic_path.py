@@ -21,6 +21,7 @@ generalized additive models. *J. R. Statist. Soc. B* 70, 495-518.
 """
 
 import contextlib
+from functools import partial
 
 import numpy as np
 from scipy.linalg import (
@@ -33,11 +34,15 @@ from scipy.linalg import (
 from scipy.special import expit
 from threadpoolctl import ThreadpoolController
 
-from ._alpha import best_index, candidates_from_eigenvalues
+from ._alpha import best_index
+from ._blocks import compute_statistics
+from ._integrated_design import integrated_design
+from ._penalized import centered_cross_products
 
-#: Ridge on the penalty's null space (and on scalar covariates), relative to
-#: the design's own variance there; see FunctionalLogisticRegression's Notes.
-NULL_SPACE_RIDGE = 1e-4
+#: the fixed ridge for alpha > 0: ``RIDGE * scale * int_0^1 beta^2`` on beta
+#: and ``RIDGE`` times each covariate's own variance on the covariates; see
+#: FunctionalLogisticRegression's Notes
+RIDGE = 1e-3
 
 #: number of candidate alphas of ``alpha="auto"``: fewer than the 25 of the
 #: least-squares estimators (skfunc._alpha.N_ALPHAS), whose candidates cost a
@@ -46,33 +51,21 @@ NULL_SPACE_RIDGE = 1e-4
 #: most two curves of 40 (four of 900), as often up as down (docs/open_data.rst)
 N_ALPHAS = 12
 
-#: relative Newton tolerance of the fits along the path: with warm starts and
-#: the secant predictor, usually one Newton step per candidate; the chosen
-#: fit is then refined to the estimator's ``tol``. Measured on nine UCR
-#: sets: the same choices as 1e-3 on seven, within one test curve on the
-#: small ones, at half the Newton iterations (at most 2x a fixed-alpha fit)
+#: relative Newton tolerance of the fits along the path: warm-started from
+#: the previous candidate (whose sums over the rows serve again, the penalty
+#: being added in closed form), usually one Newton step, one pass over the
+#: rows, per candidate; the chosen fit is then refined to the estimator's
+#: ``tol``. Measured on nine UCR sets: the same choices as 1e-3 on seven,
+#: within one test curve on the small ones, at half the Newton iterations
 PATH_TOL = 1e-1
-
-
-def split_coordinates(basis, penalty):
-    """``c = transform @ theta`` with the penalty exactly diagonal in theta.
-
-    The engine's split (:class:`~skfunc._penalized.Penalty`: exact null
-    space, whitened complement with ``T_C' P01 T_C = I``) with its null-space
-    columns made orthonormal in L2 of the unit domain, so that the
-    null-space ridge weighs every function of the null space alike.
-    """
-    transform = penalty.transform.copy()
-    r = penalty.n_null
-    if r:
-        null = transform[:, :r]
-        lower = np.linalg.cholesky(null.T @ basis.unit_gram() @ null)
-        transform[:, :r] = solve_triangular(lower, null.T, lower=True).T
-    return transform
 
 
 def newton_statistics(D, Y, sample_weight, theta, derivatives=True):
     """Negative log-likelihood, gradient and Hessian summed over rows.
+
+    Additive over rows: statistics of row blocks combine with
+    :func:`skfunc._penalized.merge` (key by key), so a Newton step over a
+    Dask array is one pass over its blocks.
 
     Parameters
     ----------
@@ -88,33 +81,55 @@ def newton_statistics(D, Y, sample_weight, theta, derivatives=True):
 
     Returns
     -------
-    loss : float
-    grad : ndarray of shape (T * p,)
-        Only when ``derivatives``.
-    hess : ndarray of shape (T * p, T * p)
-        Only when ``derivatives``.
+    dict with ``loss`` (float) and, when ``derivatives``, ``grad`` (T * p,)
+    and ``hess`` (T * p, T * p).
     """
+    D = np.asarray(D, dtype=np.float64)
+    Y = np.asarray(Y, dtype=np.float64)
     eta = D @ theta.T
     n_out, p = theta.shape
+    loss = float(sample_weight @ _row_loss(eta, Y))
+    if not derivatives:
+        return {"loss": loss}
     if n_out == 1:
-        loss = sample_weight @ (np.logaddexp(0.0, eta[:, 0]) - Y[:, 0] * eta[:, 0])
-        if not derivatives:
-            return float(loss)
         prob = expit(eta)
         grad = ((prob - Y) * sample_weight[:, None]).T @ D
         hess = (D * (sample_weight * (prob * (1 - prob))[:, 0])[:, None]).T @ D
-        return float(loss), grad.ravel(), hess
-    log_norm = _logsumexp(eta)
-    loss = sample_weight @ (log_norm - np.sum(Y * eta, axis=1))
-    if not derivatives:
-        return float(loss)
-    prob = np.exp(eta - log_norm[:, None])
+        return {"loss": loss, "grad": grad.ravel(), "hess": hess}
+    prob = np.exp(eta - _logsumexp(eta)[:, None])
     grad = ((prob - Y) * sample_weight[:, None]).T @ D
     curvature = _curvature(prob) * sample_weight[:, None, None]
     # one product: H[a, :, b, :] = D' diag(curvature[:, a, b]) D
     weighted = (curvature[:, :, :, None] * D[:, None, None, :]).reshape(len(D), -1)
     hess = (D.T @ weighted).reshape(p, n_out, n_out, p).transpose(1, 0, 2, 3)
-    return float(loss), grad.ravel(), hess.reshape(n_out * p, n_out * p)
+    return {"loss": loss, "grad": grad.ravel(), "hess": hess.reshape(n_out * p, n_out * p)}
+
+
+def design_statistics(X, Y, sample_weight, operator, n_covariates):
+    """Additive statistics of the integrated design of a block of curves
+    (:func:`~skfunc._penalized.centered_cross_products` with the class
+    indicators as responses: their sums are the class totals)."""
+    return centered_cross_products(integrated_design(X, operator, n_covariates), Y,
+                                   sample_weight)
+
+
+def split_design(X, operator, n_covariates, z_mean, U, lead):
+    """Rows of the Newton design: ``[1, (Z - z_mean) U]`` (a row-block
+    function; ``lead`` is 1 with an intercept column, else 0)."""
+    Zc = integrated_design(X, operator, n_covariates) - z_mean
+    return np.hstack([np.ones((len(Zc), lead)), Zc @ U])
+
+
+def saturated_rows(D, Y, sample_weight, theta, eps=1e-12):
+    """Rows of positive weight whose fitted probability of some class is
+    within ``eps`` of 0 or 1, the usual symptom of separation (common
+    practice in GLM software); additive over row blocks."""
+    eta = np.asarray(D, dtype=np.float64) @ theta.T
+    if eta.shape[1] == 1:
+        eta = np.column_stack([np.zeros(len(eta)), eta])
+    log_prob = eta - _logsumexp(eta)[:, None]
+    rows = (sample_weight > 0) & np.any(log_prob < np.log(eps), axis=1)
+    return {"saturated": int(rows.sum())}
 
 
 def _curvature(prob):
@@ -125,114 +140,142 @@ def _curvature(prob):
 
 
 class LogisticProblem:
-    """A penalized logistic likelihood in exactly split coordinates.
+    """A penalized logistic likelihood in the split engine's coordinates.
+
+    The objective of one class's coefficients ``theta`` (rows of ``(T, p)``)
+    is ``sum_i w_i l_i + theta' Q(alpha) theta / 2`` with
+
+        Q(alpha) = alpha * scale * diag(penalized) + ridge,
+
+    the roughness exactly diagonal (the coordinates of a
+    :class:`~skfunc._penalized.SplitPath`) and a fixed small ridge.
 
     Parameters
     ----------
-    D : ndarray of shape (n, p)
-        Design: a column of ones when the intercept is fitted, the centred
-        integrated design in the coordinates of :func:`penalty_split` (null
-        space first), then the centred covariates.
-    Y : ndarray of shape (n, T)
-    sample_weight : ndarray of shape (n,)
-    blocks : tuple of int
-        Numbers of columns ``(lead, null, penalized, covariates)``.
-    roughness_scale : float
-        Weight of the roughness at ``alpha = 1``:
-        :func:`~skfunc._penalized.penalty_scale` of the centred design.
-    ridge : ndarray of shape (p,)
-        The null-space ridge on every column (zero on the intercept and the
-        penalized columns).
+    D : ndarray or dask array of shape (n, p)
+        Design: a column of ones when the intercept is fitted, then the
+        centred integrated design and covariates in the path's coordinates.
+    Y : ndarray or dask array of shape (n, T)
+    sample_weight : ndarray or dask array of shape (n,)
+    penalized : ndarray of bool, shape (p,)
+        Columns the roughness penalty acts on.
+    scale : float
+        Engine weight of ``alpha = 1``
+        (:func:`~skfunc._penalized.penalty_scale` of the centred design).
+    ridge : ndarray of shape (p, p)
+        The fixed ridge (zero on the intercept); applied for ``alpha > 0``.
+    fit_intercept : bool
+        Whether the first column of ``D`` is the intercept's.
+    class_sums : ndarray of shape (T,)
+        ``sum_i w_i Y_i``: the class totals (the intercept-only fit).
+    total_weight : float
+        ``sum_i w_i``.
+    column_size : ndarray of shape (p,)
+        ``sum_i w_i D_ij^2`` (the multinomial shift penalty's weights).
     """
 
-    def __init__(self, D, Y, sample_weight, blocks, roughness_scale, ridge):
+    def __init__(self, D, Y, sample_weight, *, penalized, scale, ridge,
+                 fit_intercept, class_sums, total_weight, column_size):
         self.D, self.Y, self.sample_weight = D, Y, sample_weight
-        self.blocks = blocks
-        self.roughness_scale = roughness_scale
+        self.penalized = np.asarray(penalized, dtype=bool)
+        self.scale = float(scale)
         self.ridge = ridge
-        lead, n_null, n_pen, _ = blocks
-        self.penalized = np.zeros(D.shape[1], bool)
-        self.penalized[lead + n_null : lead + n_null + n_pen] = True
-        n_out, p = Y.shape[1], D.shape[1]
+        self.fit_intercept = bool(fit_intercept)
+        self.class_sums = np.atleast_1d(np.asarray(class_sums, dtype=np.float64))
+        self.total_weight = float(total_weight)
+        n_out, p = self.shape
         if n_out > 1:
             # The softmax is unchanged by a common shift of all classes'
             # coefficients; a penalty on their sum over classes selects the
             # centred solution without moving the optimum (whose sum is
             # zero) and makes the Hessian invertible.
-            size = sample_weight @ D**2
-            self.shift_size = np.where(size > 0, size, 1.0) / n_out
-            self.shift = np.kron(np.ones((n_out, n_out)), np.diag(self.shift_size))
+            shift_size = np.where(column_size > 0, column_size, 1.0) / n_out
+            self.shift = np.kron(np.ones((n_out, n_out)), np.diag(shift_size))
         else:
-            self.shift_size = np.zeros(p)
             self.shift = np.zeros((p, p))
+        self.n_passes = 0
 
     @property
     def shape(self):
-        return self.Y.shape[1], self.D.shape[1]
+        return self.class_sums.size, self.penalized.size
 
-    def penalty(self, alpha):
-        """Diagonal of the penalty's Hessian for one class at ``alpha``."""
+    def quadratic(self, alpha):
+        """The penalty's Hessian for all classes, ``kron(I, Q) + shift``."""
+        n_out, p = self.shape
         if alpha == 0:
-            return np.zeros(self.D.shape[1])
-        return np.where(self.penalized, alpha * self.roughness_scale, self.ridge)
+            Q = np.zeros((p, p))
+        else:
+            Q = self.ridge + np.diag(alpha * self.scale * self.penalized)
+        return np.kron(np.eye(n_out), Q) + self.shift
+
+    def sums(self, theta, derivatives=True):
+        """:func:`newton_statistics` over the row blocks (one pass)."""
+        self.n_passes += 1
+        return compute_statistics(
+            partial(newton_statistics, theta=theta, derivatives=derivatives),
+            self.D, self.Y, self.sample_weight,
+        )
 
     def start(self):
         """Coefficients of the intercept-only fit (class frequencies)."""
         n_out, p = self.shape
         theta = np.zeros((n_out, p))
-        if self.blocks[0]:
-            freq = self.sample_weight @ self.Y / self.sample_weight.sum()
-            freq = np.clip(freq, 1e-12, 1.0)
+        if self.fit_intercept:
+            freq = np.clip(self.class_sums / self.total_weight, 1e-12, 1.0)
             if n_out == 1:
                 theta[0, 0] = np.log(freq[0]) - np.log1p(-min(freq[0], 1 - 1e-12))
             else:
                 theta[:, 0] = np.log(freq) - np.log(freq).mean()
         return theta
 
-    def newton(self, alpha, theta, tol, max_iter, guess=None):
+    def newton(self, alpha, theta, tol, max_iter, current=None):
         """Minimise the penalized loss from ``theta`` by damped Newton steps.
 
-        Returns ``theta, n_iter, converged, hess`` with ``hess`` the
-        likelihood's Hessian at the returned ``theta``.
+        ``current`` is ``sums(theta)`` when already known. Every trial point
+        is one pass computing loss, gradient and Hessian together, so an
+        accepted step (the usual case) costs one pass over the rows.
+
+        Returns ``theta, n_iter, converged, stats, quadratic`` with
+        ``stats`` the sums at the returned ``theta``.
         """
         n_out, p = self.shape
-        quadratic = np.kron(np.eye(n_out), np.diag(self.penalty(alpha))) + self.shift
-        D, Y, w = self.D, self.Y, self.sample_weight
+        quadratic = self.quadratic(alpha)
 
-        def objective(theta, derivatives=True):
+        def penalized(theta, stats):
             flat = theta.ravel()
-            value = flat @ quadratic @ flat / 2
-            if not derivatives:
-                return value + newton_statistics(D, Y, w, theta, False)
-            loss, grad, hess = newton_statistics(D, Y, w, theta)
-            return value + loss, grad + quadratic @ flat, hess
+            return stats["loss"] + flat @ quadratic @ flat / 2
 
-        if guess is not None and objective(guess, False) < objective(theta, False):
-            theta = guess
-        value, grad, hess = objective(theta)
+        if current is None:
+            current = self.sums(theta)
+        value = penalized(theta, current)
         converged, n_iter = False, 0
         while n_iter < max_iter:
             n_iter += 1
-            step = _newton_step(hess + quadratic, grad)
+            grad = current["grad"] + quadratic @ theta.ravel()
+            step = _newton_step(current["hess"] + quadratic, grad)
             decrement = grad @ step
             if not decrement > 0:  # at the optimum to rounding
                 converged = True
                 break
+            # a decrease below sqrt(eps) of the objective is lost to rounding
+            # in the line search's test: take the full step there, where the
+            # objective is quadratic to rounding
+            tiny = decrement / 2 <= 1.5e-8 * (1.0 + abs(value))
             size = 1.0
             while True:
                 trial = theta - size * step.reshape(n_out, p)
-                trial_value = objective(trial, derivatives=False)
-                if trial_value <= value - 1e-4 * size * decrement or size < 1e-10:
+                stats = self.sums(trial)
+                trial_value = penalized(trial, stats)
+                if tiny or trial_value <= value - 1e-4 * size * decrement or size < 1e-10:
                     break
                 size /= 2
-            theta = trial
-            value, grad, hess = objective(theta)
+            theta, current, value = trial, stats, trial_value
             if decrement / 2 <= tol * (1.0 + abs(value)):
                 converged = True  # after a last step: Newton converges fast
                 break
-        return theta, n_iter, converged, hess, quadratic
+        return theta, n_iter, converged, current, quadratic
 
-    def ubre(self, alpha, theta, hess, quadratic):
+    def ubre(self, stats, quadratic):
         """Un-biased risk estimate of the fit and its effective degrees of freedom.
 
         ``UBRE = deviance / sum(w) - 1 + 2 edf / sum(w)`` with ``edf =
@@ -242,22 +285,14 @@ class LogisticProblem:
         and Raynor, 1986; Gu, 1992; Wood, 2008). For 0/1 labels the deviance
         is twice the negative log-likelihood.
         """
-        # edf = dim - trace(M^-1 S), M = H + S = L L', from the rows of L^-1:
-        # diag(M^-1) for the diagonal part of S, class sums for the shift
+        # edf = dim - trace(M^-1 S), M = H + S = L L': trace(L^-1 S L^-T)
         try:
-            lower = cholesky(hess + quadratic, lower=True)
+            lower = cholesky(stats["hess"] + quadratic, lower=True)
         except (np.linalg.LinAlgError, LinAlgError):
             return np.inf, np.nan
-        n_out, p = self.shape
-        inv_lower = solve_triangular(lower, np.eye(n_out * p), lower=True)
-        diagonal = np.tile(self.penalty(alpha), n_out)
-        edf = n_out * p - float(np.sum(inv_lower**2, axis=0) @ diagonal)
-        if n_out > 1:
-            class_sums = inv_lower.reshape(-1, n_out, p).sum(axis=1)
-            edf -= float(np.sum(class_sums**2, axis=0) @ self.shift_size)
-        w = self.sample_weight
-        deviance = 2 * float(w @ _row_loss(self.D @ theta.T, self.Y))
-        return (deviance + 2 * edf) / w.sum() - 1.0, edf
+        inv_lower = solve_triangular(lower, np.eye(len(lower)), lower=True)
+        edf = len(lower) - float(np.sum((inv_lower @ quadratic) * inv_lower))
+        return (2 * stats["loss"] + 2 * edf) / self.total_weight - 1.0, edf
 
     def path(self, alphas, tol, max_iter, path_tol=None, warn=True):
         """Fit at every alpha, largest first, each fit starting from the last.
@@ -267,73 +302,49 @@ class LogisticProblem:
 
         Returns a dict: ``criterion`` and ``edf`` (one per alpha), ``best``
         (:func:`~skfunc._alpha.best_index`, which warns when it is an end of
-        several candidates and ``warn``),
-        ``theta``, ``hess`` and ``converged`` of the fit there, and ``n_iter``
-        (Newton iterations in all).
+        several candidates and ``warn``), ``theta``, ``stats`` and
+        ``converged`` of the fit there, and ``n_iter`` (Newton iterations in
+        all).
         """
         alphas = np.asarray(alphas, dtype=np.float64)
         criterion = np.full(alphas.size, np.inf)
         edf = np.full(alphas.size, np.nan)
         path_tol = PATH_TOL if path_tol is None else path_tol
         loose = max(tol, path_tol) if alphas.size > 1 else tol
-        theta, n_iter, fits = self.start(), 0, {}
-        with _single_thread(self.D.shape[1] * self.Y.shape[1]):
+        theta, current, n_iter, fits = self.start(), None, 0, {}
+        with _single_thread(self.penalized.size * self.class_sums.size):
             for j in range(alphas.size)[::-1]:
-                # the secant through the last two fits predicts the next one
-                # (equal steps in log alpha); Newton starts from the better
-                guess = 2 * fits[j + 1] - fits[j + 2] if j + 2 in fits else None
-                theta, it, converged, hess, quadratic = self.newton(
-                    alphas[j], theta, loose, max_iter, guess=guess
+                # the likelihood's sums at the last fit serve the next alpha
+                # (the penalty is added in closed form): no pass to start
+                theta, it, converged, current, quadratic = self.newton(
+                    alphas[j], theta, loose, max_iter, current=current
                 )
                 n_iter += it
-                criterion[j], edf[j] = self.ubre(alphas[j], theta, hess, quadratic)
-                fits[j] = theta
+                criterion[j], edf[j] = self.ubre(current, quadratic)
+                fits[j] = (theta, current)
             best = (
                 best_index(criterion, alphas, criterion="UBRE", warn=warn)
                 if alphas.size > 1
                 else 0
             )
             if loose > tol or best != 0:  # the last fit made is at index 0
-                theta, it, converged, hess, _ = self.newton(
-                    alphas[best], fits[best], tol, max_iter
+                theta, it, converged, current, _ = self.newton(
+                    alphas[best], fits[best][0], tol, max_iter, current=fits[best][1]
                 )
                 n_iter += it
+        saturated = alphas[best] == 0 and compute_statistics(
+            partial(saturated_rows, theta=theta), self.D, self.Y, self.sample_weight
+        )["saturated"] > 0
         return {
+            "saturated": saturated,
             "criterion": criterion,
             "edf": edf,
             "best": best,
             "theta": theta,
-            "hess": hess,
+            "hess": current["hess"],
             "converged": converged,
             "n_iter": n_iter,
         }
-
-    def candidate_alphas(self, n_alphas=None):
-        """Log-spaced alphas spanning the effective degrees of freedom.
-
-        The engine's candidates (:func:`~skfunc._alpha.candidates_from_eigenvalues`)
-        for the eigenvalues of the penalized columns after the unpenalized
-        ones are profiled out, weighted by the logistic curvature of the
-        intercept-only fit: from nearly the null-space fit to nearly the
-        full basis.
-        """
-        n_alphas = N_ALPHAS if n_alphas is None else n_alphas
-        D, w = self.D, self.sample_weight
-        free = D[:, ~self.penalized]
-        pen = D[:, self.penalized]
-        if pen.shape[1] == 0:
-            return np.array([1.0])
-        root = np.sqrt(w)[:, None]
-        if free.shape[1]:
-            coef = np.linalg.lstsq(root * free, root * pen, rcond=None)[0]
-            pen = pen - free @ coef
-        mu = np.linalg.eigvalsh((pen * w[:, None]).T @ pen)
-        mu = mu[mu > 1e-12 * max(mu[-1], np.finfo(float).tiny)]
-        freq = w @ self.Y / w.sum()
-        curvature = max(float(np.mean(freq * (1 - freq))), 1e-3)
-        return candidates_from_eigenvalues(
-            mu * curvature, self.roughness_scale, n_alphas
-        )
 
 
 def _logsumexp(eta):
@@ -368,6 +379,11 @@ def _single_thread(size):
 _CONTROLLER = None
 
 
+def single_thread_blas():
+    """One BLAS thread in this process, whatever the problem size."""
+    return _single_thread(0)
+
+
 def _solve(matrix, rhs):
     """Solve with a symmetric positive definite matrix (Cholesky)."""
     return cho_solve(cho_factor(matrix), rhs)
@@ -380,7 +396,7 @@ def _newton_step(hess, grad):
         return np.linalg.lstsq(hess, grad, rcond=None)[0]
 
 
-def coef_covariance(problem, theta, hess, alpha):
+def coef_covariance(problem, hess, alpha):
     """Inverse penalized Hessian at the optimum, of the centred coefficients.
 
     The penalized Hessian maps the centred and the common-shift subspaces of
@@ -389,12 +405,12 @@ def coef_covariance(problem, theta, hess, alpha):
     the inverse on that subspace. Returns shape (T, p, T, p).
     """
     n_out, p = problem.shape
-    penalized = hess + np.kron(np.eye(n_out), np.diag(problem.penalty(alpha)))
+    penalized = hess + problem.quadratic(alpha)
     with _single_thread(n_out * p):
         try:
-            inverse = _solve(penalized + problem.shift, np.eye(n_out * p))
+            inverse = _solve(penalized, np.eye(n_out * p))
         except (np.linalg.LinAlgError, LinAlgError):
-            inverse = np.linalg.pinv(penalized, hermitian=True)
+            inverse = np.linalg.pinv(penalized - problem.shift, hermitian=True)
     inverse = inverse.reshape(n_out, p, n_out, p)
     if n_out > 1:  # centre over the class axes
         inverse = inverse - inverse.mean(axis=0, keepdims=True)

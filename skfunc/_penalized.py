@@ -5,22 +5,20 @@ Every estimator in skfunc solves, for one or many right-hand sides ``b``,
     minimize  ||y - Z c||_W^2 + alpha * c' P c    =>   (G + alpha P) c = b,
 
 with ``G = Z' W Z`` (K x K, the data's cross products), ``b = Z' W y`` and a
-roughness matrix ``P``. One simultaneous diagonalisation of ``G`` and ``P``
-(Demmler and Reinsch, 1975) serves every alpha: with ``U' G U = diag(mu)`` and
-``U' P U = diag(1 - mu) / scale``,
+roughness matrix ``P``. :class:`SplitPath` diagonalises ``G`` and ``P``
+simultaneously (Demmler and Reinsch, 1975) in the basis split into the
+penalty's null space and its complement (:class:`Penalty`, from the basis'
+exact null space): with ``U' G U = diag(g)`` and ``U' P U = diag(p)``
+(``p = 0`` exactly on the null space),
 
-    (G + alpha P)^{-1} = U diag(1 / d(alpha)) U',   d = mu + alpha/scale (1 - mu),
+    (G + lam P)^{-1} = U diag(1 / (g + lam p)) U',
 
-so coefficients, effective degrees of freedom ``sum mu / d`` and residual sums
-of squares for a whole grid of alphas cost O(K) per right-hand side and alpha.
-
-:class:`SplitPath` is the same path in the basis split into the penalty's
-null space and its complement (:class:`Penalty`, from the basis' exact null
-space), so the null space is exactly unpenalized at any alpha, and with the
-user's alpha made unit-free by :func:`engine_alpha` (the penalty on the
-domain mapped to [0, 1], weighed by the largest eigenvalue of the data's
-cross products against the unit-domain Gram matrix). :class:`PenalizedPath`
-remains for the estimators not yet moved to it.
+so coefficients, effective degrees of freedom and residual sums of squares
+for a whole grid of alphas cost O(K) per right-hand side and alpha, and the
+null space is exactly unpenalized at any alpha. The user's alpha is
+unit-free (:func:`engine_alpha`: the penalty on the domain mapped to [0, 1],
+weighed by the largest eigenvalue of the data's cross products against the
+unit-domain Gram matrix).
 
 What a fit needs from the data is additive over rows (:func:`cross_products`,
 :func:`merge`), so in-memory fits, ``partial_fit`` and distributed fits share
@@ -52,94 +50,6 @@ class NotIdentifiableError(ValueError):
 
 def _symmetric(a):
     return (a + a.T) / 2
-
-
-class PenalizedPath:
-    """Simultaneous diagonalisation of a cross-product matrix and a penalty.
-
-    Parameters
-    ----------
-    gram : ndarray of shape (K, K)
-        Symmetric positive semi-definite cross products ``Z' W Z``.
-    penalty : ndarray of shape (K, K) or None
-        Symmetric positive semi-definite roughness matrix; None for none.
-
-    Attributes
-    ----------
-    eigvecs : ndarray of shape (K, K)
-        ``U`` with ``U' (G + scale P) U = I``.
-    mu : ndarray of shape (K,)
-        Eigenvalues of ``G`` relative to ``G + scale P``, in [0, 1].
-    scale : float
-        ``trace(G) / trace(P)``, so that alpha / scale is dimensionless.
-    """
-
-    def __init__(self, gram, penalty=None):
-        gram = _symmetric(np.asarray(gram, dtype=np.float64))
-        k = gram.shape[0]
-        if penalty is None:
-            penalty = np.zeros_like(gram)
-        penalty = _symmetric(np.asarray(penalty, dtype=np.float64))
-        trace_g, trace_p = np.trace(gram), np.trace(penalty)
-        self.scale = float(trace_g / trace_p) if trace_p > 0 and trace_g > 0 else 1.0
-        combined = gram + self.scale * penalty
-        eig = np.linalg.eigvalsh(combined)
-        if eig[0] <= _RCOND * max(eig[-1], np.finfo(float).tiny) * k:
-            raise NotIdentifiableError(
-                "The data do not determine all basis coefficients: the cross-"
-                "product matrix is singular on functions the roughness penalty "
-                "does not penalise (or there is no penalty). Use fewer basis "
-                "functions, more observations, or a roughness penalty alpha > 0."
-            )
-        lower = np.linalg.cholesky(combined)
-        inv_lower = np.linalg.inv(lower)
-        mu, vecs = np.linalg.eigh(_symmetric(inv_lower @ gram @ inv_lower.T))
-        self.mu = np.clip(mu, 0.0, 1.0)
-        self.eigvecs = inv_lower.T @ vecs
-
-    def denominators(self, alpha):
-        """``d = mu + alpha / scale (1 - mu)``: shape alpha.shape + (K,)."""
-        alpha = np.asarray(alpha, dtype=np.float64)[..., None]
-        d = self.mu + alpha / self.scale * (1.0 - self.mu)
-        if np.any(d <= 0):
-            raise NotIdentifiableError(
-                "alpha = 0 leaves coefficients undetermined that only the "
-                "roughness penalty can fix; use alpha > 0 or fewer basis functions."
-            )
-        return d
-
-    def rotate(self, rhs):
-        """Rotated right-hand sides ``r = b U``, one row per right-hand side."""
-        return np.asarray(rhs) @ self.eigvecs
-
-    def coef(self, rotated, alpha):
-        """Coefficients ``(G + alpha P)^{-1} b`` as rows, from rotated ``b``.
-
-        ``alpha`` is a scalar, or one value per row of ``rotated``.
-        """
-        return (rotated / self.denominators(alpha)) @ self.eigvecs.T
-
-    def operator(self, alpha):
-        """The matrix ``(G + alpha P)^{-1}`` for a scalar alpha."""
-        return (self.eigvecs / self.denominators(alpha)) @ self.eigvecs.T
-
-    def edf(self, alphas):
-        """Effective degrees of freedom ``trace of the hat matrix`` per alpha."""
-        return (self.mu / self.denominators(alphas)).sum(axis=-1)
-
-    def rss_reduction(self, rotated, alphas):
-        """``y'Wy - RSS(alpha)`` for every row of ``rotated`` and every alpha.
-
-        Uses ``RSS = y'Wy - 2 c'b + c'Gc`` in the rotated coordinates; the
-        result has shape (rows, len(alphas)).
-        """
-        d = self.denominators(np.atleast_1d(alphas))
-        factor = 2.0 / d - self.mu / d**2
-        return (np.asarray(rotated) ** 2) @ factor.T
-
-    def default_alphas(self, n_alphas=25, low=1e-8, high=1e4):
-        """Log-spaced candidate alphas scaled to the problem."""
-        return self.scale * np.logspace(np.log10(low), np.log10(high), n_alphas)
 
 
 def gcv_score(rss, edf, n_obs, total_weight=None):

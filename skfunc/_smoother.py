@@ -40,7 +40,14 @@ from ._alpha import (
     reml_score,
 )
 from ._bases import check_unpenalized_fit
-from ._blocks import apply_rows, chunked_matmul, is_dask_array, row_blocks
+from ._blocks import (
+    Float32Product,
+    apply_rows,
+    chunked_matmul,
+    is_dask_array,
+    output_dtype,
+    row_blocks,
+)
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._fit import AdditiveTransformerMixin
@@ -66,9 +73,10 @@ def _check_eval_points(points):
     return check_grid(out, name="eval_points")
 
 
-def _products(X, first_T, second_T=None):
+def _products(X, first_T, second_T=None, dtype=np.float64):
     """``X @ first_T`` (then ``@ second_T``) in row chunks, and a mask of the
-    rows of X that hold NaN.
+    rows of X that hold NaN; in float64, or with ``dtype=np.float32`` (the
+    transform of float32 X) in float32 by :class:`skfunc._blocks.Float32Product`.
 
     Both products run chunk by chunk, so X is read once and the (rows, K)
     intermediate stays small. An extra column of ones in ``first_T`` gives
@@ -80,11 +88,17 @@ def _products(X, first_T, second_T=None):
     n, m = X.shape
     extended = np.column_stack([first_T, np.ones(m)])
     width = first_T.shape[1] if second_T is None else second_T.shape[1]
-    out = np.empty((n, width))
+    out = np.empty((n, width), dtype=dtype)
     missing = np.empty(n, dtype=bool)
+    if dtype == np.float32:
+        first = Float32Product(X, extended)
+        second_T = None if second_T is None else second_T.astype(np.float32)
+    else:
+        def first(block):
+            return np.asarray(block, dtype=np.float64) @ extended
     for part in row_blocks(n, m):
         with np.errstate(invalid="ignore", over="ignore"):  # inf is flagged
-            coef = np.asarray(X[part], dtype=np.float64) @ extended
+            coef = first(X[part])
         missing[part] = ~np.isfinite(coef[:, -1])
         if second_T is None:
             out[part] = coef[:, :-1]
@@ -600,13 +614,15 @@ class CurveSmoother(PenalizedFitMixin, AdditiveTransformerMixin, TransformerMixi
         """
         check_is_fitted(self)
         X = self._validate_fast(X)
-        return apply_rows(self._smooth, X, self.evaluation_.shape[0])
+        return apply_rows(self._smooth, X, self.evaluation_.shape[0], dtype=output_dtype(X))
 
     def _smooth(self, X):
         """The smoothed curves of validated in-memory rows."""
         if self.per_curve:
-            return chunked_matmul(self._per_curve(X)[0], self.evaluation_.T)
-        out, missing = _products(X, self.projection_.T, self.evaluation_.T)
+            return chunked_matmul(self._per_curve(X)[0], self.evaluation_.T,
+                                  dtype=output_dtype(X))
+        out, missing = _products(X, self.projection_.T, self.evaluation_.T,
+                                 output_dtype(X))
         if missing.any():
             rows = np.flatnonzero(missing)
             scale = power_of_two_scale(X[rows])

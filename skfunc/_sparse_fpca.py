@@ -15,8 +15,12 @@ through conditional expectation, built on the package's penalized engine:
    cells of a grid of at most ``max_covariance_points`` squared points and
    smoothed by a penalized tensor-product B-spline surface. Per cell the fit
    needs the number of pairs and the sums of the products and of their
-   squares, accumulated from sparse products in time linear in the number
-   of pairs.
+   squares; these follow by binomial expansion from power sums of the
+   values (:func:`pair_sums`, :func:`centred_pair_sums`), accumulated from
+   sparse products in time linear in the number of pairs before the mean is
+   known, so the whole fit is one pass of additive statistics
+   (:class:`_BatchStatistics`, merged by addition): ``fit`` is ``partial_fit``
+   on one batch.
 3. **Components.** The eigenproblem ``int G(s, t) phi(t) dt = lambda phi(s)``
    of the smoothed surface in L2 of the domain, solved exactly in the basis
    (``J^{1/2} C J^{1/2}`` with ``J`` the exact Gram matrix); negative
@@ -45,17 +49,17 @@ from sklearn.utils.validation import check_is_fitted
 
 from ._alpha import (
     ALPHA_CONSTRAINT,
-    AUTO,
+    CV_FOLDS,
     best_index,
-    candidate_alphas,
+    candidates_for,
     check_alpha,
     choose_alpha,
 )
 from ._bases import BSplineBasis, default_n_basis, gram_sqrt
-from ._blocks import row_blocks
+from ._blocks import output_dtype, row_blocks
 from ._docstrings import fill_doc
-from ._estimator import ShortReprMixin, store_init_params
-from ._fit import check_finite_fit
+from ._estimator import store_init_params
+from ._fit import AdditiveTransformerMixin
 from ._fpca import ComponentCurvesMixin, _single_thread, sign_convention
 from ._penalized import (
     NotIdentifiableError,
@@ -87,10 +91,6 @@ NOISE_FLOOR = np.sqrt(np.finfo(float).eps)
 #: of the domain: exact for the cubic-spline integrand on up to 30 knot spans,
 #: and far below the statistical error otherwise
 _NOISE_NODES = 64
-
-#: folds of curves for choosing alpha by cross-validation (10-fold
-#: cross-validation: common practice)
-CV_FOLDS = 10
 
 #: fraction of observed cells above which the covariance sums use dense
 #: products (BLAS) instead of sparse ones; both give the same sums
@@ -158,14 +158,15 @@ class _CurveFoldFit:
         return self._folds
 
     def solve(self, rhs, yy, alpha):
-        """Coefficients and the alpha used (chosen when ``alpha`` asks)."""
+        """Coefficients, the alpha used (chosen when ``alpha`` asks), the
+        candidates and their scores (None when alpha is fixed)."""
         path = self.path
         total = rhs.sum(axis=0)
         rotated = path.rotate(total)
         value = check_alpha(alpha)
         if isinstance(value, float):
-            return path.coef(rotated, value), value
-        alphas = candidate_alphas(path) if value is AUTO else value
+            return path.coef(rotated, value), value, np.array([value]), None
+        alphas = candidates_for(value, path)
         scores, used = np.zeros(alphas.size), 0
         for fold, gram, b, y2 in zip(self._fold_paths(), self.grams, rhs, yy):
             if fold is None:
@@ -175,9 +176,10 @@ class _CurveFoldFit:
             used += 1
         if used == 0:  # every fold is needed to identify the fit: GCV instead
             choice = choose_alpha(path, rotated, float(np.sum(yy)), self.n_obs, value)
-            return path.coef(rotated, choice["alpha"]), float(choice["alpha"])
+            return (path.coef(rotated, choice["alpha"]), float(choice["alpha"]),
+                    choice["alphas"], choice["criterion"])
         best = alphas[best_index(scores, alphas, criterion="cross-validation over curves")]
-        return path.coef(rotated, best), float(best)
+        return path.coef(rotated, best), float(best), alphas, scores
 
 
 def _tensor_penalty(basis, order):
@@ -200,36 +202,112 @@ def _tensor_gram(psi, weights):
     return out.transpose(0, 2, 1, 3).reshape(k * k, k * k)
 
 
-def covariance_sums(rows, bins, residuals, n_rows, n_bins):
+#: keys of :func:`pair_sums`: ``N`` pairs, then ``Pab = sum z_j^a z_l^b``
+PAIR_KEYS = ("N", "P10", "P11", "P20", "P21", "P22")
+
+
+def pair_sums(rows, bins, values, n_bins):
     """Sums over pairs of different observations of one curve, per cell.
 
-    Returns ``(N, C, Q)``, each (n_bins, n_bins): the number of ordered pairs
-    ``(j, l)``, ``j != l``, of observations of one curve falling in cells
-    ``(J, L)``, and the sums of ``r_j r_l`` and of ``r_j^2 r_l^2``. With
-    ``R[i, J]`` the sum of curve i's residuals in bin J, ``R'R`` sums all
-    ordered pairs, the same observation twice included; subtracting the
-    per-bin sums of ``r^2`` removes exactly those. Sparse products cost
-    O(sum_i n_i^2), linear in the observations for bounded ``n_i``.
+    Returns a dict of (n_bins, n_bins) arrays keyed by :data:`PAIR_KEYS`:
+    ``N[J, L]`` the number of ordered pairs ``(j, l)``, ``j != l``, of
+    observations of one curve falling in cells ``(J, L)``, and ``Pab[J, L]``
+    the sum of ``z_j^a z_l^b`` over them. With ``R_a[i, J]`` the sum of curve
+    i's ``z^a`` in bin J, ``R_a' R_b`` sums all ordered pairs, the same
+    observation twice included; subtracting the per-bin sums of ``z^(a+b)``
+    removes exactly those. Sparse products cost O(sum_i n_i^2), linear in the
+    observations for bounded ``n_i``. These sums give the pair sums of
+    ``(z_j - d_J)(z_l - d_L)`` and of its square for any per-bin offsets
+    ``d`` (:func:`centred_pair_sums`), so they can be accumulated before the
+    mean is known.
     """
-    ones = np.ones_like(residuals)
-    squares = residuals**2
+    # one product of the stacked matrix [R_0 R_1 R_2] (rows compressed to
+    # the curves present) gives every R_a' R_b as a block
+    rows = np.unique(rows, return_inverse=True)[1]
+    n_rows = int(rows.max()) + 1 if rows.size else 0
     dense = bins.size > _DENSE_FRACTION * n_rows * n_bins
-    out = []
-    for values, diagonal in ((ones, ones), (residuals, squares), (squares, squares**2)):
-        matrix = scipy.sparse.csr_matrix((values, (rows, bins)), shape=(n_rows, n_bins))
-        if dense:
-            matrix = matrix.toarray()
-            product = matrix.T @ matrix
-        else:
-            product = (matrix.T @ matrix).toarray()
-        product -= np.diag(np.bincount(bins, diagonal, minlength=n_bins))
-        out.append(product)
-    return tuple(out)
+    stacked = scipy.sparse.csr_matrix(
+        (np.concatenate([np.ones_like(values), values, values**2]),
+         (np.tile(rows, 3), np.concatenate([bins, bins + n_bins, bins + 2 * n_bins]))),
+        shape=(n_rows, 3 * n_bins),
+    )
+    if dense:
+        stacked = stacked.toarray()
+        product = stacked.T @ stacked
+    else:
+        product = (stacked.T @ stacked).toarray()
+    out = {}
+    for key in PAIR_KEYS:
+        a, b = (0, 0) if key == "N" else (int(key[1]), int(key[2]))
+        block = product[a * n_bins:(a + 1) * n_bins, b * n_bins:(b + 1) * n_bins].copy()
+        block -= np.diag(np.bincount(bins, values ** (a + b), minlength=n_bins))
+        out[key] = block
+    return out
+
+
+def centred_pair_sums(sums, d):
+    """``(N, C, Q)`` with ``C = sum (z_j - d_J)(z_l - d_L)`` and ``Q = sum
+    (z_j - d_J)^2 (z_l - d_L)^2`` over the pairs of each cell, expanded in
+    the power sums of :func:`pair_sums` (``P01 = P10'``, ``P12 = P21'``,
+    ``P02 = P20'`` by the symmetry of ordered pairs). Works on stacked
+    (..., n_bins, n_bins) arrays."""
+    N, P10, P11, P20, P21, P22 = (sums[k] for k in PAIR_KEYS)
+    P01, P12, P02 = (np.swapaxes(m, -1, -2) for m in (P10, P21, P20))
+    dj, dl = d[:, None], d[None, :]
+    C = P11 - dl * P10 - dj * P01 + dj * dl * N
+    Q = (P22 - 2 * dl * P21 + dl**2 * P20 - 2 * dj * P12 + 4 * dj * dl * P11
+         - 2 * dj * dl**2 * P10 + dj**2 * P02 - 2 * dj**2 * dl * P01 + dj**2 * dl**2 * N)
+    return N, C, Q
+
+
+def covariance_sums(rows, bins, residuals, n_rows, n_bins):
+    """``(N, C, Q)`` of :func:`pair_sums` for residuals: the number of pairs,
+    and the sums of ``r_j r_l`` and of ``r_j^2 r_l^2``, per cell (``n_rows``,
+    the number of curves, is implied by ``rows``)."""
+    sums = pair_sums(rows, bins, residuals, n_bins)
+    return sums["N"], sums["P11"], sums["P22"]
+
+
+class _BatchStatistics:
+    """Additive statistics of a block of curves (see ``SparseFunctionalPCA``
+    Notes): per fold of rows (row position ``i`` in fold ``i mod 10``) and
+    grid column, the count and the sums of ``z``, ``z^2``, ``z^3``, ``z^4``
+    (key ``columns``, shape (5, F, m)), and per fold the pair sums of
+    :func:`pair_sums` per covariance cell (key ``pairs``, shape (6, F,
+    n_bins, n_bins)), with ``z = (y - shift of the bin) / scale``. Merged by
+    plain addition. A small picklable object (arrays only)."""
+
+    def __init__(self, column_bin, shift, scale, n_bins):
+        self.column_bin, self.shift, self.scale = column_bin, shift, scale
+        self.n_bins = n_bins
+
+    def __call__(self, X, index):
+        rows, cols, values = _observations(np.asarray(X, dtype=np.float64))
+        bins = self.column_bin[cols]
+        z = (values - self.shift[bins]) / self.scale
+        folds = np.asarray(index)[rows] % CV_FOLDS
+        m = self.column_bin.size
+        where = folds * m + cols
+        columns = np.stack([
+            np.bincount(where, z**p, minlength=CV_FOLDS * m).reshape(CV_FOLDS, m)
+            for p in range(5)
+        ])
+        pairs = np.zeros((len(PAIR_KEYS), CV_FOLDS, self.n_bins, self.n_bins))
+        order = np.argsort(folds, kind="stable")
+        bounds = np.searchsorted(folds[order], np.arange(CV_FOLDS + 1))
+        for f in range(CV_FOLDS):
+            mine = order[bounds[f]:bounds[f + 1]]
+            if mine.size == 0:
+                continue
+            sums = pair_sums(rows[mine], bins[mine], z[mine], self.n_bins)
+            for i, key in enumerate(PAIR_KEYS):
+                pairs[i, f] = sums[key]
+        return {"columns": columns, "pairs": pairs}
 
 
 @fill_doc
-class SparseFunctionalPCA(ShortReprMixin, ComponentCurvesMixin, ClassNamePrefixFeaturesOutMixin,
-                          TransformerMixin, BaseEstimator):
+class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
+                          ClassNamePrefixFeaturesOutMixin, TransformerMixin, BaseEstimator):
     """Functional principal components of sparse, irregularly observed curves.
 
     Each row of ``X`` is a curve observed at a few of the grid's points:
@@ -308,8 +386,18 @@ class SparseFunctionalPCA(ShortReprMixin, ComponentCurvesMixin, ClassNamePrefixF
         The measurement-error variance used by the scores.
     alpha_ : float
         The mean's roughness penalty (chosen or given).
+    alphas_path_ : ndarray of shape (n_alphas,)
+        The mean's candidate alphas (``[alpha_]`` when fixed).
+    criterion_path_ : ndarray of shape (n_alphas,) or None
+        Cross-validated squared error of the mean for each candidate (lower
+        is better); None when alpha is fixed.
     covariance_alpha_ : float
         The surface's roughness penalty (chosen or given).
+    covariance_alphas_path_ : ndarray of shape (n_covariance_alphas,)
+        The surface's candidate alphas.
+    covariance_criterion_path_ : ndarray of shape (n_covariance_alphas,) or None
+        Cross-validated squared error of the surface for each candidate;
+        None when covariance_alpha is fixed.
     covariance_points_ : ndarray of shape (n_cells,)
         Times of the covariance grid (per direction).
     n_components_ : int
@@ -324,6 +412,8 @@ class SparseFunctionalPCA(ShortReprMixin, ComponentCurvesMixin, ClassNamePrefixF
         Degree of the surface's B-splines.
     n_observations_ : int
         Number of observed values (non-NaN entries) in the fit.
+    n_samples_seen_ : int
+        Number of curves the fit is based on (summed over ``partial_fit``).
     %(curve_input_attributes)s
 
     See Also
@@ -362,9 +452,19 @@ class SparseFunctionalPCA(ShortReprMixin, ComponentCurvesMixin, ClassNamePrefixF
     same true scores but different observation times get different
     predictions.
 
-    Fitting takes two passes over the observations (the covariance needs the
-    smoothed mean), so there is no ``partial_fit``; :meth:`transform` is
-    row by row.
+    The covariance needs the smoothed mean, yet the fit takes one pass over
+    the data: it keeps, per fold of curves, the count and the sums of
+    ``z``, ``z^2``, ``z^3``, ``z^4`` per grid column and the sums of
+    ``z_j^a z_l^b`` (``a, b <= 2``) over the pairs of each covariance cell,
+    with ``z`` the values less a fixed offset per cell (the first batch's
+    mean there, against cancellation); the pair sums of residuals
+    ``r = y - mu`` and of their squares follow from these by binomial
+    expansion once ``mu`` is known. So :meth:`partial_fit` over batches
+    equals :meth:`fit` on the stacked rows up to rounding, in memory of one
+    batch plus the sums (five per fold and column, six per fold and cell).
+    When columns are binned (more grid points than
+    ``max_covariance_points``), each residual in a pair is taken from the
+    mean at its cell's time. :meth:`transform` is row by row.
 
     %(cautions)s
 
@@ -445,6 +545,9 @@ class SparseFunctionalPCA(ShortReprMixin, ComponentCurvesMixin, ClassNamePrefixF
         return tags
 
     # ------------------------------------------------------------------ fit
+    #: fitted in memory from additive statistics; not yet over Dask arrays
+    _accepts_dask = False
+
     @fill_doc
     def fit(self, X, y=None):
         """Estimate the mean, covariance, components and noise variance.
@@ -456,23 +559,87 @@ class SparseFunctionalPCA(ShortReprMixin, ComponentCurvesMixin, ClassNamePrefixF
             observed. Every row needs at least one observed value.
         %(y_ignored_returns_transformer)s
         """
-        self._validate_params()
-        X = validate_curves(self, X, reset=True, allow_nan=True, ensure_min_samples=2)
+        return self._fit_statistics(X)
+
+    @fill_doc
+    def partial_fit(self, X, y=None):
+        """Add a batch of curves and refit from the statistics of all batches.
+
+        The fit depends on the curves only through sums per grid column and
+        per covariance cell (see Notes), so after the last batch it equals
+        :meth:`fit` on all batches stacked, up to rounding; rows are dealt to
+        the folds of the alpha choice by their position over all batches.
+        The first batch fixes the grid.
+
+        Parameters
+        ----------
+        X : array-like of shape (n_samples, n_features)
+            A batch of curves on the grid of the first batch, NaN where not
+            observed.
+        %(partial_fit_y_returns)s
+        """
+        return self._partial_fit_statistics(X)
+
+    def _forget(self):
+        super()._forget()
+        for key in ("_bin_shift", "_value_scale"):
+            vars(self).pop(key, None)
+
+    def _validate_batch(self, X, y, sample_weight, first):
+        X = validate_curves(self, X, reset=first, allow_nan=True)
+        if first:
+            # offsets that keep the pair sums free of cancellation: the
+            # first batch's mean per covariance bin, and a power of two
+            # bringing the centred values near 1 (exact scalings)
+            column_bin, n_bins = self._column_bins()
+            rows, cols, values = _observations(X)
+            bins = column_bin[cols]
+            count = np.bincount(bins, minlength=n_bins)
+            total = np.bincount(bins, values, minlength=n_bins)
+            overall = float(values.mean()) if values.size else 0.0
+            self._bin_shift = np.where(count > 0, total / np.maximum(count, 1), overall)
+            self._value_scale = power_of_two_scale(values - self._bin_shift[bins])
+        offset = 0 if first else self.n_samples_seen_
+        return X, np.arange(offset, offset + X.shape[0])
+
+    def _statistics_function(self):
+        column_bin, n_bins = self._column_bins()
+        return _BatchStatistics(column_bin, self._bin_shift, self._value_scale, n_bins)
+
+    def _column_bins(self):
+        """Covariance bin of each grid column and the number of bins (see
+        ``max_covariance_points``)."""
+        m = self.grid_.size
+        if m <= self.max_covariance_points:
+            return np.arange(m), m
+        edges = np.linspace(self.grid_[0], self.grid_[-1], self.max_covariance_points + 1)
+        column_bin = np.clip(np.searchsorted(edges, self.grid_, side="right") - 1, 0,
+                             self.max_covariance_points - 1)
+        return column_bin, self.max_covariance_points
+
+    def _solve(self, stats):
         grid = self.grid_
         domain = (grid[0], grid[-1])
-        rows, cols, values = _observations(X)
-        scale = power_of_two_scale(values)
+        scale = self._value_scale
         if scale < 1e-145:  # variances (scale^2) below float64's normal range
             raise ValueError(
-                f"The variances of X are not representable: its observed values "
-                f"(up to {np.abs(values).max():.3g}) are so small that their "
-                "squares fall below float64's range (about 1e-290), so "
-                "explained_variance_ and noise_variance_ would be 0 and the "
-                "scores undefined. Rescale X, for example to units near 1."
+                "The variances of X are not representable: its observed values "
+                "vary by so little that their squares fall below float64's range "
+                "(about 1e-290), so explained_variance_ and noise_variance_ would "
+                "be 0 and the scores undefined. Rescale X, for example to units "
+                "near 1."
             )
-        values = values / scale
-        m = grid.size
-        counts = np.bincount(cols, minlength=m).astype(np.float64)
+        if self.n_samples_seen_ < 2:
+            raise ValueError(
+                "SparseFunctionalPCA needs at least 2 samples (curves) to estimate "
+                f"a covariance; got {self.n_samples_seen_} sample."
+            )
+        # per fold and column: count and sums of z^1..z^4, z = (y - shift) / scale
+        N_c, S1, S2, S3, S4 = stats["columns"]
+        column_bin, n_bins = self._column_bins()
+        u = self._bin_shift[column_bin] / scale  # y / scale = z + u
+        counts = N_c.sum(axis=0)
+        n_obs = float(counts.sum())
         seen = np.flatnonzero(counts)
         if seen.size < 2:
             raise ValueError(
@@ -482,33 +649,22 @@ class SparseFunctionalPCA(ShortReprMixin, ComponentCurvesMixin, ClassNamePrefixF
             )
 
         # 1. the mean: pooled observations, sums per column and fold of rows
-        folds = np.arange(X.shape[0]) % min(CV_FOLDS, X.shape[0])
-        n_folds = int(folds.max()) + 1
-        obs_fold = folds[rows]
-        per_fold = obs_fold * m + cols
-        fold_counts = np.bincount(per_fold, minlength=n_folds * m).reshape(n_folds, m)
         basis = _bspline(domain, self.n_basis, seen.size, self.degree)
         phi = basis.evaluate(grid)
-        grams = np.einsum("ja,fj,jb->fab", phi, fold_counts, phi)
         mean_fit = _CurveFoldFit(
-            grams, values.size, penalty_for(basis, self.penalty_order), "mean", "n_basis"
+            np.einsum("ja,fj,jb->fab", phi, N_c, phi), n_obs,
+            penalty_for(basis, self.penalty_order), "mean", "n_basis",
         )
-
-        def fold_sums(weights):
-            return np.bincount(per_fold, weights, minlength=n_folds * m).reshape(n_folds, m)
-
-        mean_coef, mean_alpha = mean_fit.solve(
-            fold_sums(values) @ phi, np.bincount(obs_fold, values**2, minlength=n_folds),
-            self.alpha,
+        mean_coef, mean_alpha, mean_alphas, mean_scores = mean_fit.solve(
+            (S1 + u * N_c) @ phi, (S2 + 2 * u * S1 + u**2 * N_c).sum(axis=1), self.alpha,
         )
         mean = phi @ mean_coef
-        residuals = values - mean[cols]
+        e = mean - u  # residual r = z - e at each column
 
         # 2. the covariance: pairs of different observations, pooled per cell
-        column_bin, points = self._covariance_grid(grid, counts)
-        bins = cols if column_bin is None else column_bin[cols]
-        n_cells = np.unique(bins).size
-        if n_cells < 3:
+        points = self._covariance_points(counts, column_bin, n_bins)
+        occupied = np.flatnonzero(np.bincount(column_bin, counts, minlength=n_bins))
+        if occupied.size < 3:
             # two times give one covariance between them: a constant surface
             warnings.warn(
                 "X has observed values at only 2 distinct times (or covariance "
@@ -516,35 +672,35 @@ class SparseFunctionalPCA(ShortReprMixin, ComponentCurvesMixin, ClassNamePrefixF
                 "component, constant in time. Observe at least 3 distinct times "
                 "for a surface that varies.",
                 UserWarning,
-                stacklevel=2,
+                stacklevel=3,
             )
             cbasis = BSplineBasis(domain, 1, degree=0)
         else:
-            cbasis = _bspline(domain, self._covariance_n_basis(n_cells), n_cells,
-                              self.degree)
-        psi = cbasis.evaluate(points)
-        k = cbasis.n_basis
-        sums = [
-            covariance_sums(rows[obs_fold == f], bins[obs_fold == f],
-                            residuals[obs_fold == f], X.shape[0], points.size)
-            for f in range(n_folds)
-        ]
-        if sum(float(n_pairs.sum()) for n_pairs, _, _ in sums) == 0:
+            cbasis = _bspline(domain, self._covariance_n_basis(occupied.size),
+                              occupied.size, self.degree)
+        # residual offsets per bin: the mean at the bin's time (the column's
+        # own time when every column is its own bin)
+        d = basis.evaluate(points) @ mean_coef - self._bin_shift / scale
+        n_pairs, cross, fourth = centred_pair_sums(
+            dict(zip(PAIR_KEYS, stats["pairs"], strict=True)), d)
+        if float(n_pairs.sum()) == 0:
             raise ValueError(
                 "No curve of X has two or more observed values: the covariance "
                 "between times is estimated from pairs of observations of the "
                 "same curve."
             )
+        psi = cbasis.evaluate(points)
+        k = cbasis.n_basis
         with _single_thread(k * k):
             cov_fit = _CurveFoldFit(
-                np.array([_tensor_gram(psi, n_pairs) for n_pairs, _, _ in sums]),
-                sum(float(n_pairs.sum()) for n_pairs, _, _ in sums),
+                np.array([_tensor_gram(psi, pairs) for pairs in n_pairs]),
+                float(n_pairs.sum()),
                 _tensor_penalty(cbasis, self.penalty_order), "covariance surface",
                 "covariance_n_basis",
             )
-            cov_coef, cov_alpha = cov_fit.solve(
-                np.array([(psi.T @ cross @ psi).ravel() for _, cross, _ in sums]),
-                np.array([fourth.sum() for _, _, fourth in sums]),
+            cov_coef, cov_alpha, cov_alphas, cov_scores = cov_fit.solve(
+                np.array([(psi.T @ c @ psi).ravel() for c in cross]),
+                fourth.sum(axis=(1, 2)),
                 self.covariance_alpha,
             )
         cov_coef = cov_coef.reshape(k, k)
@@ -555,6 +711,7 @@ class SparseFunctionalPCA(ShortReprMixin, ComponentCurvesMixin, ClassNamePrefixF
         eigvals, eigvecs = np.linalg.eigh(root @ cov_coef @ root)
         eigvals, eigvecs = eigvals[::-1], eigvecs[:, ::-1]
         positive = eigvals > EIGEN_RTOL * max(eigvals[0], 0.0)
+        mean_square = float(((S2 - 2 * e * S1 + e**2 * N_c).sum()) / n_obs)
         if not positive.any():
             # nothing varies between times: keep the leading direction with
             # a negligible variance, so that every score is predicted as ~0
@@ -563,11 +720,11 @@ class SparseFunctionalPCA(ShortReprMixin, ComponentCurvesMixin, ClassNamePrefixF
                 "show no variation between times beyond measurement error. One "
                 "component is kept with a negligible variance (scores near 0).",
                 UserWarning,
-                stacklevel=2,
+                stacklevel=3,
             )
             positive[0] = True
             eigvals = eigvals.copy()
-            eigvals[0] = NOISE_FLOOR * max(float(np.mean(residuals**2)), np.finfo(float).tiny) * (
+            eigvals[0] = NOISE_FLOOR * max(mean_square, np.finfo(float).tiny) * (
                 domain[1] - domain[0])
         eigvals, eigvecs = eigvals[positive], eigvecs[:, positive]
         n_keep = self._n_keep(eigvals)
@@ -575,17 +732,21 @@ class SparseFunctionalPCA(ShortReprMixin, ComponentCurvesMixin, ClassNamePrefixF
         components = coef @ cbasis.evaluate(grid).T
         signs = sign_convention(components)
 
-        # 4. the measurement-error variance
-        variance_coef, _ = mean_fit.solve(
-            fold_sums(residuals**2) @ phi,
-            np.bincount(obs_fold, residuals**4, minlength=n_folds), self.alpha,
+        # 4. the measurement-error variance: the pooled squared residuals
+        variance_coef, *_ = mean_fit.solve(
+            (S2 - 2 * e * S1 + e**2 * N_c) @ phi,
+            (S4 - 4 * e * S3 + 6 * e**2 * S2 - 4 * e**3 * S1 + e**4 * N_c).sum(axis=1),
+            self.alpha,
         )
         noise = self._noise(basis, cbasis, variance_coef, cov_coef, domain, scale)
 
         self.n_basis_, self.degree_ = basis.n_basis, basis.degree
         self.covariance_n_basis_, self.covariance_degree_ = k, cbasis.degree
         self.alpha_ = mean_alpha
+        self.alphas_path_, self.criterion_path_ = mean_alphas, mean_scores
         self.covariance_alpha_ = cov_alpha
+        self.covariance_alphas_path_ = cov_alphas
+        self.covariance_criterion_path_ = cov_scores
         self.mean_basis_coef_ = mean_coef * scale
         self.mean_ = mean * scale
         self.covariance_basis_coef_ = cov_coef * scale**2
@@ -596,27 +757,24 @@ class SparseFunctionalPCA(ShortReprMixin, ComponentCurvesMixin, ClassNamePrefixF
         self.explained_variance_ratio_ = eigvals[:n_keep] / eigvals.sum()
         self.noise_variance_ = noise
         self.n_components_ = int(n_keep)
-        self.n_observations_ = int(values.size)
-        return check_finite_fit(self)
+        self.n_observations_ = int(n_obs)
+
+    def _covariance_points(self, counts, column_bin, n_bins):
+        """The time of each covariance bin: the grid point itself, or the mean
+        time of the bin's observations (its centre when it has none)."""
+        grid = self.grid_
+        if n_bins == grid.size:
+            return grid
+        weight = np.bincount(column_bin, counts, minlength=n_bins)
+        mean_time = np.bincount(column_bin, counts * grid, minlength=n_bins)
+        edges = np.linspace(grid[0], grid[-1], n_bins + 1)
+        centres = (edges[:-1] + edges[1:]) / 2
+        return np.where(weight > 0, mean_time / np.where(weight > 0, weight, 1), centres)
 
     def _covariance_n_basis(self, n_points):
         if self.covariance_n_basis is not None:
             return self.covariance_n_basis
         return min(default_n_basis("bspline", n_points, self.degree), MAX_COVARIANCE_BASIS)
-
-    def _covariance_grid(self, grid, counts):
-        """Bin of each grid column and the time of each bin (see
-        ``max_covariance_points``)."""
-        if grid.size <= self.max_covariance_points:
-            return None, grid
-        edges = np.linspace(grid[0], grid[-1], self.max_covariance_points + 1)
-        column_bin = np.clip(np.searchsorted(edges, grid, side="right") - 1, 0,
-                             self.max_covariance_points - 1)
-        weight = np.bincount(column_bin, counts, minlength=edges.size - 1)
-        mean_time = np.bincount(column_bin, counts * grid, minlength=edges.size - 1)
-        centres = (edges[:-1] + edges[1:]) / 2
-        points = np.where(weight > 0, mean_time / np.where(weight > 0, weight, 1), centres)
-        return column_bin, points
 
     def _n_keep(self, eigvals):
         n = self.n_components
@@ -689,7 +847,8 @@ class SparseFunctionalPCA(ShortReprMixin, ComponentCurvesMixin, ClassNamePrefixF
             ``E[xi_k | observations]`` under the fitted model (the best
             linear predictor).
         """
-        return self._conditional(self._validate(X))[0]
+        X = self._validate(X)
+        return self._conditional(X)[0].astype(output_dtype(X), copy=False)
 
     def predict_curves(self, X, *, level=0.95, eval_points=None):
         """Predicted whole curves with pointwise bands.

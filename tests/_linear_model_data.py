@@ -7,7 +7,7 @@ same curves can be sampled on several grids.
 """
 
 import numpy as np
-from scipy.integrate import trapezoid
+from conftest import trapezoid_weights  # noqa: F401 (the linear-model tests import it here)
 
 N_TERMS = 15
 
@@ -37,7 +37,3 @@ def integral_with_beta(scores):
     return curves_on(scores, t) @ (w * true_beta(t))
 
 
-def trapezoid_weights(t):
-    """Composite trapezoid weights on the points t, from scipy's trapezoid
-    rule applied to the unit vectors (independent of skfunc)."""
-    return trapezoid(np.eye(t.size), t, axis=1)

@@ -24,6 +24,7 @@ through :func:`skfunc.utils.all_estimators`.
 import matplotlib
 import numpy as np
 import pytest
+from scipy.integrate import trapezoid
 from scipy.interpolate import CubicSpline, make_smoothing_spline
 
 from skfunc.datasets import make_smooth_regression
@@ -55,6 +56,13 @@ def scipy_smoothing():
     X = truth + 0.3 * rng.normal(size=(50, t.size))
     ref = np.stack([make_smoothing_spline(t, x)(t) for x in X])
     return t, truth, X, ((ref - truth) ** 2).mean()
+
+
+def trapezoid_weights(t):
+    """Composite trapezoid weights on the points t, from scipy's trapezoid
+    rule applied to the unit vectors (independent of skfunc)."""
+    t = np.asarray(t, dtype=np.float64)
+    return trapezoid(np.eye(t.size), t, axis=1)
 
 
 def smooth_curves(grid, random_state=0, n=N_CURVES):
@@ -175,7 +183,10 @@ ESTIMATOR_CASES = {
         data=_curves_only, output=_transform, curve_input=True,
     ),
     "FunctionalPCA": dict(
-        params=lambda grid: {"n_components": 3, "grid": grid},
+        # smoothed components in a basis, so that the penalty and its
+        # automatic choice are exercised
+        params=lambda grid: {"n_components": 3, "basis": "bspline", "n_basis": 12,
+                             "alpha": 1e-4, "grid": grid},
         data=_curves_only, output=_pca_output, curve_input=True,
     ),
     "FunctionalRidge": dict(

@@ -684,6 +684,7 @@ def test_smoother_null_space_advice_is_penalty_order_not_alpha():
 
 
 def test_curve_response_advice_fits_the_case():
+    from skfunc.exceptions import UndeterminedCoefficientsWarning
     from skfunc.linear_model import (
         ConcurrentFunctionRidge,
         FunctionOnFunctionRidge,
@@ -702,13 +703,21 @@ def test_curve_response_advice_fits_the_case():
     S = rng.normal(size=(6, 1))
     penalty_order_case(_advice(lambda: FunctionOnScalarRidge(
         alpha=1e-3, n_basis=8, penalty_order=3).fit(S, Y[:, :2])))
+    # rows that do not determine the design's unpenalized part give the
+    # minimum-norm fit with a warning (as numpy.linalg.lstsq and scikit-learn's
+    # LinearRegression do), and the warning's advice is not "add a penalty":
     # - collinear covariates: unpenalized in the functions of t with D^2 = 0
-    message = _advice(lambda: FunctionOnScalarRidge(alpha=1e-3).fit(
-        np.hstack([S, 2 * S]), Y))
-    assert "collinear" in message and not any(a in message for a in NO_PENALTY_ADVICE)
     # - two input curves cannot fix the straight lines in s and the intercept
-    penalty_order_case(_advice(lambda: FunctionOnFunctionRidge(alpha=1e-3).fit(
-        rng.normal(size=(2, 30)), Y[:2])))
+    for call in (
+        lambda: FunctionOnScalarRidge(alpha=1e-3).fit(np.hstack([S, 2 * S]), Y),
+        lambda: FunctionOnFunctionRidge(alpha=1e-3).fit(rng.normal(size=(2, 30)),
+                                                        Y[:2]),
+    ):
+        with pytest.warns(UndeterminedCoefficientsWarning) as record:
+            call()
+        message = " ".join(str(w.message) for w in record
+                           if isinstance(w.message, UndeterminedCoefficientsWarning))
+        assert "collinear" in message and not any(a in message for a in NO_PENALTY_ADVICE)
     # - identical constant inputs cannot tell beta_1's straight lines from beta_0
     penalty_order_case(_advice(lambda: ConcurrentFunctionRidge(alpha=1e-3).fit(
         np.ones((6, 30)), Y)))

@@ -30,10 +30,12 @@ from skfunc._penalized import (  # noqa: E402
     centered_cross_products,
     cross_products,
 )
+from skfunc.datasets import make_kiln_firing  # noqa: E402
 from skfunc.decomposition import FunctionalPCA  # noqa: E402
 from skfunc.linear_model import (  # noqa: E402
     FunctionalRidge,
     FunctionalRidgeCV,
+    FunctionOnFunctionRidge,
     FunctionOnScalarRidge,
 )
 from skfunc.preprocessing import CurveSmoother  # noqa: E402
@@ -64,25 +66,13 @@ def assert_same_gcv_fit(model, reference, X_lazy, X):
 
 
 def kiln_runs(n_runs, n_minutes=121, seed=0):
-    """Invented kiln-firing temperature logs (deg C) over a 10-hour cycle.
-
-    Ramp to a peak, soak, cool down; every number here is invented. Returns
-    the grid in hours, the curves and a flexural strength (MPa) that is a
-    linear functional of the curve plus noise.
-    """
-    rng = np.random.default_rng(seed)
-    t = np.linspace(0.0, 10.0, n_minutes)
-    peak = rng.uniform(1150, 1250, n_runs)[:, None]
-    ramp_end = rng.uniform(3.5, 4.5, n_runs)[:, None]
-    soak_end = ramp_end + rng.uniform(1.5, 2.5, n_runs)[:, None]
-    rise = np.clip(t / ramp_end, 0, 1)
-    fall = np.clip((t - soak_end) / (10.0 - soak_end), 0, 1)
-    X = 20 + (peak - 20) * rise * (1 - 0.8 * fall)
-    X = X + rng.normal(0, 3.0, X.shape)
-    beta = np.exp(-((t - 5.0) ** 2))  # weight of the soak on strength
-    noise = rng.normal(0, 0.5, n_runs)
-    strength = 30 + 0.002 * np.trapezoid(X * beta, t, axis=1) + noise
-    return t, X, strength
+    """Invented kiln-firing runs (:func:`skfunc.datasets.make_kiln_firing`,
+    no thermocouple dropouts) logged at ``n_minutes`` evenly spaced minutes
+    of the 10-hour cycle: the grid, the temperature curves (deg C) and the
+    tiles' strength (MPa)."""
+    kiln = make_kiln_firing(n_runs, grid=np.linspace(0, 599, n_minutes),
+                            dropout_fraction=0.0, random_state=seed)
+    return kiln.grid, kiln.data, kiln.strength
 
 
 # ---------------------------------------------------------------------------
@@ -228,6 +218,79 @@ def test_functional_ridge_on_cluster_equals_in_memory_and_trapezoid(client):
     ridge = FunctionalRidge(alpha=1.0, grid=t).fit(Xd, exact)
     np.testing.assert_allclose(ridge.coef_function_, 1.0, rtol=1e-7)
     assert ridge.intercept_ == pytest.approx(3.0, rel=1e-7)
+
+
+def test_function_on_function_on_cluster_equals_in_memory(client):
+    # responses: the running integral of each run (scipy's
+    # cumulative_trapezoid), a function-on-function relation; the GCV fit from
+    # statistics summed on two workers equals the in-memory one
+    t, X, _ = kiln_runs(300, n_minutes=61)
+    Y = integrate.cumulative_trapezoid(X, t, axis=1, initial=0)
+    Xd, Yd = da.from_array(X, chunks=(70, 61)), da.from_array(Y, chunks=(70, 61))
+    model = FunctionOnFunctionRidge(grid=t, response_grid=t).fit(Xd, Yd)
+    reference = FunctionOnFunctionRidge(grid=t, response_grid=t).fit(X, Y)
+    # 1e-8, not RTOL: this model merges raw sums, not centered ones, so on
+    # temperatures near 1200 another summation order moves the coefficient
+    # surface by about 3e-9 of its size (measured); a fit that dropped or
+    # double-counted a block would differ by percents
+    assert model.alpha_ == pytest.approx(reference.alpha_, rel=1e-8)
+    assert_rel_close(model.coef_function_, reference.coef_function_, rtol=1e-8)
+    prediction = model.predict(Xd)
+    assert is_dask_array(prediction)
+    assert_rel_close(prediction.compute(), reference.predict(X), rtol=1e-8)
+
+
+def assert_same_logistic_fit(model, reference, rtol=1e-8):
+    """A Dask fit chose the same alpha from the same UBRE path as the
+    in-memory fit and predicts the same probabilities."""
+    assert model.alpha_ == pytest.approx(reference.alpha_, rel=rtol)
+    assert_rel_close(model.criterion_path_, reference.criterion_path_, rtol)
+    assert_rel_close(model.coef_function_, reference.coef_function_, rtol)
+    assert_rel_close(model.intercept_, reference.intercept_, rtol)
+
+
+def kiln_classes(n_runs, n_classes, seed=0):
+    """Kiln runs labelled by strength tercile (3 classes) or by strength
+    above the median (2), with noise so the classes overlap."""
+    t, X, strength = kiln_runs(n_runs, n_minutes=61, seed=seed)
+    noisy = strength + np.random.default_rng(seed + 1).normal(0, strength.std(), n_runs)
+    cuts = np.quantile(noisy, np.linspace(0, 1, n_classes + 1)[1:-1])
+    return t, X, np.array(["cracked", "sound", "warped"])[np.digitize(noisy, cuts)]
+
+
+def test_functional_logistic_on_cluster_equals_in_memory(client):
+    # Each Newton step is one pass of summed gradients and Hessians over the
+    # blocks, on the workers: the same fit as in memory (sums in another
+    # order, 1e-8 relative), the automatic alpha included, with weights.
+    from skfunc.linear_model import FunctionalLogisticRegression
+
+    t, X, labels = kiln_classes(400, 3)
+    weights = np.random.default_rng(3).integers(1, 4, len(X)).astype(float)
+    Xd = da.from_array(X, chunks=(70, 61))
+    model = FunctionalLogisticRegression(grid=t).fit(
+        Xd, da.from_array(labels, chunks=70), sample_weight=weights)
+    reference = FunctionalLogisticRegression(grid=t).fit(X, labels, sample_weight=weights)
+    assert_same_logistic_fit(model, reference)
+    assert_rel_close(model.predict_proba(X), reference.predict_proba(X), 1e-8)
+
+
+def test_functional_logistic_gathers_no_rows(sync, monkeypatch):
+    # Neither the curves nor the labels are converted to numpy as a whole.
+    from skfunc.linear_model import FunctionalLogisticRegression
+
+    t, X, labels = kiln_classes(300, 2)
+    Xd = da.from_array(X, chunks=(64, 61))
+    yd = da.from_array(labels, chunks=64)
+
+    def refuse(*args, **kwargs):
+        raise AssertionError("a dask array was converted to numpy as a whole")
+
+    params = {"grid": t, "class_weight": "balanced"}
+    monkeypatch.setattr(type(Xd), "__array__", refuse)
+    model = FunctionalLogisticRegression(**params).fit(Xd, yd)
+    monkeypatch.undo()
+    reference = FunctionalLogisticRegression(**params).fit(X, labels)
+    assert_same_logistic_fit(model, reference)
 
 
 def test_statistics_are_reduced_on_workers_in_a_tree(client):
@@ -391,15 +454,11 @@ def test_other_dask_collections_are_refused_with_advice(sync):
 
 
 def test_estimators_without_dask_support_refuse_dask_input(sync):
-    from skfunc.linear_model import FunctionalLogisticRegression
+    from skfunc.alignment import ShiftAligner
 
-    t, X, _ = kiln_runs(30)
-    Xd = da.from_array(X, chunks=10)
-    labels = np.arange(30) % 2
+    _, X, _ = kiln_runs(30)
     with pytest.raises(TypeError, match="does not accept dask arrays yet"):
-        FunctionalLogisticRegression().fit(Xd, labels)
-    with pytest.raises(TypeError, match="does not accept dask arrays yet"):
-        FunctionalLogisticRegression().fit(X, da.from_array(labels, chunks=10))
+        ShiftAligner().fit(da.from_array(X, chunks=10))
 
 
 def test_integer_and_float32_dtypes_follow_sklearn(sync):
@@ -455,6 +514,9 @@ def test_functional_pca_partial_fit_over_dask_batches(sync):
     for start in range(0, 800, 200):
         batches.partial_fit(da.from_array(X[start : start + 200], chunks=(64, 41)))
     assert batches.n_samples_seen_ == 800
+    # alpha="auto": folds by row position across batches, as in fit
+    assert batches.alpha_ == reference.alpha_
+    assert_rel_close(batches.criterion_path_, reference.criterion_path_)
     assert_rel_close(batches.components_, reference.components_)
     with pytest.raises(ValueError, match="svd_solver='randomized' needs all curves"):
         FunctionalPCA(3, svd_solver="randomized").fit(da.from_array(X, chunks=100))

@@ -15,34 +15,7 @@ from skfunc.utils import all_estimators
 pytestmark = pytest.mark.slow
 
 #: {estimator class name: {check name: why it is expected to fail}}
-EXPECTED_FAILURES = {
-    "FunctionOnScalarRidge": {
-        "check_sample_weight_equivalence_on_dense_data": (
-            "The check fits 10 covariates on 15 rows, some with weight 0: the "
-            "rows that count are too few for the 11 unpenalized coefficients "
-            "of the penalty's null space (intercept and straight-line parts of "
-            "every coefficient function, never shrunk), so the fit raises "
-            "NotIdentifiableError instead of returning a minimum-norm answer."
-        ),
-        "check_regressor_multioutput": (
-            "The check fits 10 covariates on 11 rows: the intercept and the 10 "
-            "unpenalized slopes on each null-space direction of the response "
-            "(straight lines, never shrunk) interpolate the 11 rows, so the noise "
-            "variance has no residual degrees of freedom and the fit warns "
-            "(RuntimeWarning) that the bands are undefined, which the test "
-            "configuration turns into an error."
-        ),
-    },
-    "FunctionalLogisticRegression": {
-        "check_sample_weight_equivalence_on_dense_data": (
-            "measured: probabilities of the weighted and the duplicated fit agree "
-            "to 7.5e-7 relative (1.8e-7 absolute), the check asks 1e-7; with the "
-            "generous default number of basis functions the 3 classes on 15 "
-            "random rows are nearly separated by the unpenalized part of beta, "
-            "so the answer depends on where the iterations stop."
-        ),
-    },
-}
+EXPECTED_FAILURES = {}
 
 
 def _instances():

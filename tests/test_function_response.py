@@ -10,6 +10,7 @@ import numpy as np
 import pandas as pd
 import pytest
 import statsmodels.api as sm
+from conftest import trapezoid_weights
 from numpy.testing import assert_allclose
 from sklearn.linear_model import LinearRegression, RidgeCV
 from sklearn.model_selection import GridSearchCV, KFold, cross_val_score
@@ -42,13 +43,6 @@ def _engine_lambda(alpha, X, w):
     Xc = X - X.mean(axis=0)
     design = np.linalg.eigvalsh(Xc.T @ Xc)[-1]
     return np.asarray(alpha) * design * w.sum()
-
-
-def _trapezoid(t):
-    w = np.zeros_like(t)
-    w[:-1] += np.diff(t) / 2
-    w[1:] += np.diff(t) / 2
-    return w
 
 
 # --------------------------------------------------------------------------
@@ -98,6 +92,64 @@ def test_interpolating_unpenalized_equals_linear_regression(rng, degree, uneven)
     assert_allclose(model.predict(X), reference.predict(X), atol=1e-8)
 
 
+def _min_norm_least_squares(X, y, w):
+    """Weighted least squares with an intercept, minimum-norm slopes:
+    scikit-learn's LinearRegression recipe (centre X and y with the weighted
+    means, numpy.linalg.lstsq on the sqrt(w)-scaled centred data, which
+    returns the minimum-norm solution of a rank-deficient problem)."""
+    x_mean, y_mean = w @ X / w.sum(), w @ y / w.sum()
+    root = np.sqrt(w)[:, None]
+    slopes = np.linalg.lstsq(root * (X - x_mean), root * (y - y_mean), rcond=None)[0]
+    return y_mean - x_mean @ slopes, slopes
+
+
+@pytest.mark.parametrize("weighted", [False, True])
+def test_too_few_rows_give_the_minimum_norm_fit(rng, weighted):
+    # Reference: numpy.linalg.lstsq (minimum-norm least squares) at every grid
+    # point. 8 covariates and 6 rows leave the intercept and slopes of an
+    # unpenalized fit undetermined; with an interpolating basis (alpha = 0,
+    # degree 1, a knot at every grid point) the fit separates by grid point
+    # and the smallest integrated squared coefficient functions are the
+    # smallest slopes at every point. Zero weights remove rows, integer
+    # weights repeat them (frequency weights). A fit that kept an arbitrary
+    # solution of the undetermined part, or penalised the intercept, fails.
+    m, n, p = 11, 6, 8
+    t = np.linspace(0, 1, m)
+    X = rng.normal(size=(n, p))
+    Y = rng.normal(size=(n, m))
+    w = np.array([0, 2, 1, 3, 1, 1.0]) if weighted else np.ones(n)
+    model = FunctionOnScalarRidge(alpha=0, interior_knots=t[1:-1], degree=1,
+                                  response_grid=t)
+    with pytest.warns(UserWarning, match="minimum-norm solution"):
+        model.fit(X, Y, sample_weight=w)
+    intercept, slopes = _min_norm_least_squares(X, Y, w)
+    assert_allclose(model.coef_function_, slopes, atol=1e-9)
+    assert_allclose(model.intercept_function_, intercept, atol=1e-9)
+    assert_allclose(model.predict(X[w > 0]), Y[w > 0], atol=1e-9)  # interpolated
+    # a one-point response (scikit-learn's checks pass such a y): no roughness,
+    # so any fixed alpha gives the same least squares
+    with pytest.warns(UserWarning, match="minimum-norm solution"):
+        one = FunctionOnScalarRidge(alpha=1.0).fit(X, Y[:, 4:5], sample_weight=w)
+    assert_allclose(one.coef_function_, slopes[:, 4:5], atol=1e-9)
+    assert_allclose(one.intercept_function_, intercept[4:5], atol=1e-9)
+
+
+def test_weighted_rank_deficient_fit_equals_repeated_rows(rng):
+    # scikit-learn's sample-weight rule (check_sample_weight_equivalence): a
+    # weight k equals the row repeated k times, a zero weight removes the row,
+    # also when the rows do not determine the unpenalized part.
+    t = np.linspace(0, 1, 9)
+    X = rng.normal(size=(7, 10))
+    Y = np.sin(np.pi * t) + X[:, :1] * t + 0.1 * rng.normal(size=(7, t.size))
+    w = np.array([0, 1, 2, 0, 3, 1, 2])
+    with pytest.warns(UserWarning, match="minimum-norm"):
+        weighted = FunctionOnScalarRidge(response_grid=t).fit(X, Y, sample_weight=w)
+        repeated = FunctionOnScalarRidge(response_grid=t).fit(
+            np.repeat(X, w, axis=0), np.repeat(Y, w, axis=0))
+    assert weighted.alpha_ == pytest.approx(repeated.alpha_, rel=1e-8)
+    assert_allclose(weighted.predict(X), repeated.predict(X), rtol=1e-7, atol=1e-9)
+
+
 def test_bands_equal_pointwise_ols_standard_errors(rng):
     # Interpolating basis, alpha = 0: the pointwise standard errors are those
     # of OLS at each grid point (statsmodels OLS .bse), residual variance
@@ -126,7 +178,7 @@ def test_fixed_alpha_matches_dense_kronecker_solve(rng):
 
     basis = make_basis("bspline", (0, 1), 8)
     phi, P = basis.evaluate(t), basis.penalty(2)
-    w = _trapezoid(t)
+    w = trapezoid_weights(t)
     alpha = _engine_lambda(0.01, X, w)
     Xc = X - X.mean(axis=0)
     Z = np.column_stack([np.ones(len(X)), Xc])
@@ -151,7 +203,7 @@ def test_gcv_criterion_matches_dense_hat_matrix(rng):
 
     basis = make_basis("bspline", (0, 1), 6)
     phi, P = basis.evaluate(t), basis.penalty(2)
-    w = _trapezoid(t)
+    w = trapezoid_weights(t)
     lams = _engine_lambda(alphas, X, w)
     Z = np.column_stack([np.ones(len(X)), X - X.mean(axis=0)])
     D = np.kron(Z, phi)
@@ -183,7 +235,7 @@ def test_gcv_recovers_smooth_coefficients(rng):
     X, Y, t, beta = _scalar_data(rng, n=200, m=101, noise=1.0)
     model = FunctionOnScalarRidge().fit(X, Y)
     per_point = LinearRegression().fit(X, Y).coef_.T
-    w = _trapezoid(t)
+    w = trapezoid_weights(t)
     err = ((model.coef_function_ - beta) ** 2) @ w
     err_raw = ((per_point - beta) ** 2) @ w
     assert np.all(err < err_raw)  # smoothing beats pointwise least squares
@@ -371,7 +423,7 @@ def _bump_simulation(rng, n=500, m=101, noise=0.1):
     k = np.arange(1, 31)
     X = (rng.normal(size=(n, 30)) / k) @ (np.sqrt(2) * np.sin(np.pi * np.outer(k, s)))
     beta = 3 * np.exp(-((s[:, None] - 0.4) ** 2 + (t[None, :] - 0.6) ** 2) / 0.045)
-    w = _trapezoid(s)
+    w = trapezoid_weights(s)
     Y = X @ (beta * w[:, None]) + noise * rng.normal(size=(n, m))
     return X, Y, s, beta, w
 
@@ -450,7 +502,7 @@ def test_score_is_integrated_r2(rng):
     t = np.sort(rng.uniform(0, 1, t.size))
     model = FunctionOnScalarRidge(alpha=1e-2, response_grid=t).fit(X, Y)
     pred = model.predict(X)
-    w = _trapezoid(t)
+    w = trapezoid_weights(t)
     # 1 - int SSE / int SST with the trapezoid rule (scikit-learn's R^2 per
     # point, integrated)
     sse = ((Y - pred) ** 2).sum(axis=0) @ w

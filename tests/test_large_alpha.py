@@ -5,7 +5,7 @@ roughness penalty's null space, with no loss of accuracy at alpha 1e12 and
 Source of each reference: the null space of a second-derivative penalty is
 the straight lines (common practice: D^2 (a + b t) = 0), and the fit on it
 is computed here with ``numpy.linalg.lstsq`` on the null-space design, built
-independently of the estimators (trapezoid weights from ``numpy.diff``; the
+independently of the estimators (trapezoid weights from scipy's trapezoid rule; the
 unpenalized intercept functions of the curve-response models are expanded in
 the response basis, whose values come from the basis' ``evaluate``).
 Tolerance: the penalized part of the fit decays like 1 / alpha (1e-12 at
@@ -14,20 +14,13 @@ Tolerance: the penalized part of the fit decays like 1 / alpha (1e-12 at
 
 import numpy as np
 import pytest
-from conftest import make_case
+from conftest import make_case, trapezoid_weights
 
 from skfunc._validation import basis_for
 
 T = np.linspace(2.0, 7.0, 101)  # not [0, 1]: the null space must be exact anywhere
 RTOL = 1e-8
 ALPHAS = [1e12, 1e20]
-
-
-def _trapezoid(t):
-    w = np.zeros_like(t)
-    w[:-1] += np.diff(t) / 2
-    w[1:] += np.diff(t) / 2
-    return w
 
 
 def _lstsq(design, target, sqrt_w=None):
@@ -60,7 +53,7 @@ def test_smoothers_tend_to_the_straight_line(name, alpha):
     if est.data_term == "mean":
         weights = None
     else:
-        weights = np.sqrt(_trapezoid(T))
+        weights = np.sqrt(trapezoid_weights(T))
     expected = np.array([line @ _lstsq(line, x, weights) for x in X])
     out = est.transform(X) if name == "CurveSmoother" else est.inverse_transform(
         est.transform(X))
@@ -71,7 +64,7 @@ def test_smoothers_tend_to_the_straight_line(name, alpha):
 @pytest.mark.parametrize("name", ["FunctionalRidge", "FunctionalRidgeCV"])
 def test_scalar_outcome_tends_to_a_straight_line_beta(name, alpha):
     est, X, y = _case(name, alpha)
-    w = _trapezoid(T)
+    w = trapezoid_weights(T)
     design = np.column_stack([np.ones(len(X)), X @ w, X @ (w * T)])
     coef = _lstsq(design, y)
     assert _relative(est.predict(X), design @ coef) < RTOL
@@ -96,7 +89,7 @@ def _null_space_fit(est, z, Y, w):
 @pytest.mark.parametrize("alpha", ALPHAS)
 def test_function_on_scalar_tends_to_straight_line_coefficients(alpha):
     est, X, Y = _case("FunctionOnScalarRidge", alpha)
-    expected = _null_space_fit(est, np.repeat(X, Y.shape[1], axis=0), Y, _trapezoid(T))
+    expected = _null_space_fit(est, np.repeat(X, Y.shape[1], axis=0), Y, trapezoid_weights(T))
     assert _relative(est.predict(X), expected) < RTOL
 
 
@@ -104,7 +97,7 @@ def test_function_on_scalar_tends_to_straight_line_coefficients(alpha):
 def test_function_on_function_tends_to_a_bilinear_surface(alpha):
     # both penalties vanish only on beta(s, t) = (1, s) A (1, t)'
     est, X, Y = _case("FunctionOnFunctionRidge", alpha)
-    w = _trapezoid(T)
+    w = trapezoid_weights(T)
     moments = np.column_stack([X @ w, X @ (w * T)])  # int x, int x s
     expected = _null_space_fit(est, np.repeat(moments, Y.shape[1], axis=0), Y, w)
     assert _relative(est.predict(X), expected) < RTOL
@@ -113,5 +106,5 @@ def test_function_on_function_tends_to_a_bilinear_surface(alpha):
 @pytest.mark.parametrize("alpha", ALPHAS)
 def test_concurrent_tends_to_a_straight_line_slope(alpha):
     est, X, Y = _case("ConcurrentFunctionRidge", alpha)
-    expected = _null_space_fit(est, X.reshape(-1, 1), Y, _trapezoid(T))
+    expected = _null_space_fit(est, X.reshape(-1, 1), Y, trapezoid_weights(T))
     assert _relative(est.predict(X), expected) < RTOL

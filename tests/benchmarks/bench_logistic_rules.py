@@ -81,17 +81,24 @@ def ubre_choices(X, y):
     """Candidates and the index each UBRE-based rule picks on them."""
     record = {}
     ubre = lp.LogisticProblem.ubre
+    newton = lp.LogisticProblem.newton
 
-    def recording_ubre(self, alpha, theta, hess, quadratic):
-        record[alpha] = row_terms(self, alpha, theta, hess, quadratic)
+    def recording_newton(self, alpha, theta, *args, **kwargs):
+        out = newton(self, alpha, theta, *args, **kwargs)
+        record["fit"] = (alpha, out[0])
+        return out
+
+    def recording_ubre(self, stats, quadratic):
+        alpha, theta = record.pop("fit")
+        record[alpha] = row_terms(self, alpha, theta, stats["hess"], quadratic)
         record["w"] = self.sample_weight
-        return ubre(self, alpha, theta, hess, quadratic)
+        return ubre(self, stats, quadratic)
 
-    lp.LogisticProblem.ubre = recording_ubre
+    lp.LogisticProblem.ubre, lp.LogisticProblem.newton = recording_ubre, recording_newton
     try:
         est = FunctionalLogisticRegression().fit(X, y)
     finally:
-        lp.LogisticProblem.ubre = ubre
+        lp.LogisticProblem.ubre, lp.LogisticProblem.newton = ubre, newton
     alphas, crit, w = est.alphas_path_, est.criterion_path_, record["w"]
     total = w.sum()
     terms = np.array([record[a][0] for a in alphas])
