@@ -539,7 +539,11 @@ class SplitPath:
             S, A_n = R, np.zeros((T.shape[0], 0))
         s, V = np.linalg.eigh(S)
         s = np.clip(s, 0.0, None)
-        s[s <= 1e-13 * max(s.max(initial=0.0), top) * max(s.size, 1)] = 0.0
+        # rounding in S = R - W'W is relative to the penalized block R, not
+        # to the null-space block (an intercept of weight sum w, say), whose
+        # size says nothing about it: directions below that are unseen
+        top_c = max(np.abs(np.diag(R)).max(initial=0.0), np.finfo(float).tiny)
+        s[s <= 1e-13 * max(s.max(initial=0.0), top_c) * max(s.size, 1)] = 0.0
         E = (T[:, r:] - A_n @ W) @ V
         self.eigvecs = np.column_stack([A_n, E])
         self.g = np.concatenate([np.ones(r), s])
