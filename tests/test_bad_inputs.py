@@ -663,6 +663,7 @@ def _advice(call):
     return str(info.value)
 
 
+@pytest.mark.slow
 def test_smoother_null_space_advice_is_penalty_order_not_alpha():
     # alpha > 0 already: three observed values 1e-4 apart cannot fix the
     # quadratics a third-derivative penalty leaves free (the message used to

@@ -34,6 +34,7 @@ def _relative(a, b):
     return np.linalg.norm(a - b) / np.linalg.norm(b)
 
 
+@pytest.mark.slow
 def test_memory_mapped_file_gives_the_in_memory_fit(data, mapped):
     # Batches of a memory-mapped .npy give the fit on all rows: the
     # statistics are sums, so only their order differs (1e-10 relative).
@@ -114,6 +115,7 @@ def _mapped_resident_bytes(path):
     return total
 
 
+@pytest.mark.slow
 def test_pages_of_finished_batches_are_released(tmp_path):
     # Reading a memory-mapped file maps its pages into the process, where they
     # count as resident memory until the mapping goes (proc(5): Rss of the

@@ -22,6 +22,10 @@ from skfunc.persistence import load_model, save_model, skfunc_types
 from skfunc.utils import all_estimators
 
 NAMES = [name for name, _ in all_estimators()]
+#: the same names, with the estimators whose fits take seconds here (the
+#: elastic aligner's dynamic program) kept for the full run
+NAMES_SLOW_MARKED = [pytest.param(name, marks=pytest.mark.slow)
+                    if name == "ElasticAligner" else name for name in NAMES]
 
 #: the reference sampling and two coarser ones of [0, 1]
 FINE = np.linspace(0, 1, 1001)
@@ -43,7 +47,7 @@ def _fit(name, grid, **extra):
     return estimator.fit(X, y), X, y, output
 
 
-@pytest.mark.parametrize("name", NAMES)
+@pytest.mark.parametrize("name", NAMES_SLOW_MARKED)
 def test_resolution_invariance(name):
     # Integrals replace sums, so results on 201 points (even or uneven)
     # agree with those on 1001 points within the composite trapezoid rule's
@@ -228,7 +232,7 @@ def _unit_case(name, alpha, moved):
 
 
 @pytest.mark.parametrize("alpha", [None, "auto"], ids=["fixed", "auto"])
-@pytest.mark.parametrize("name", NAMES)
+@pytest.mark.parametrize("name", NAMES_SLOW_MARKED)
 def test_unit_invariance(name, alpha):
     # The unit-free alpha (docs/bases_and_penalties.rst): a grid in other
     # units and origin (t -> -3 + 250 t), X times 1e3 and curve responses times
