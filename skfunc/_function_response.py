@@ -576,9 +576,10 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         # back to the data's units: the intercept row is in y's, the others
         # in y / x (powers of two, exact; variances may overflow: checked)
         x_power = np.r_[0.0, -np.ones(p)]
-        basis_coef = to_data_units(transform @ C @ U.T, stats, x_power[:, None], 1)
+        basis_coef = to_data_units(transform @ C @ U.T, stats, x_power[:, None], 1,
+                                   "basis_coef_")
         cov = to_data_units(cov, stats, x_power[:, None, None, None]
-                            + x_power[None, None, :, None], 2)
+                            + x_power[None, None, :, None], 2, "coef_covariance_")
         if criterion is not None and self.criterion == "gcv":
             criterion = gcv_in_data_units(criterion, stats["y_exp"])
         self._store(basis, basis_coef, cov.reshape(p1 * K, p1 * K),

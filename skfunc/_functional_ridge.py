@@ -167,9 +167,10 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
         # the covariance is of the curves' coefficients, which share one)
         curves = {"x_exp": np.asarray(stats["x_exp"]).ravel()[0], "y_exp": stats["y_exp"]}
         self._set_coefficients(
-            basis, to_data_units(theta, stats, -1, 1), to_data_units(intercept, stats, 0, 1),
-            to_data_units(covariance, curves, -2, 2), squeeze)
-        sigma2 = to_data_units(sigma2, stats, 0, 2)
+            basis, to_data_units(theta, stats, -1, 1, "coef_"),
+            to_data_units(intercept, stats, 0, 1, "intercept_"),
+            to_data_units(covariance, curves, -2, 2, "coef_covariance_"), squeeze)
+        sigma2 = to_data_units(sigma2, stats, 0, 2, "noise_variance_")
         self.edf_ = float(edf[0]) if squeeze or np.ndim(alpha) == 0 else edf
         self.noise_variance_ = float(sigma2[0]) if squeeze else sigma2
         return self

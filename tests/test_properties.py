@@ -321,17 +321,10 @@ _IN_X_UNITS = ("CurveSmoother", "BasisFeatures", "FunctionalPCA", "ShiftAligner"
                "FunctionOnFunctionRidge", "ConcurrentFunctionRidge")
 
 
-#: known failure: a direction of the data 1e-6 below the largest is dropped
-#: as unseen in some units (SplitPath's rounding level is set by the largest
-#: diagonal of the whole transformed Gram matrix, intercept block included,
-#: whose size relative to the design changes with t's unit; rotate then
-#: zeroes that direction)
-_UNIT_FAILURES = {"FunctionOnFunctionRidge": pytest.mark.xfail(strict=True, reason=(
-    "FunctionOnFunctionRidge at alpha=1e-6 on the grid 0.26 t predicts 3.0e-5 "
-    "(relative) away from the fit on t (2.7e-15 before SplitPath.rotate zeroed "
-    "unseen directions; 0.5, 2 and 10 t still agree to 1e-15): SplitPath sets "
-    "a direction with 1.1e-6 of the largest data eigenvalue to 0 because its "
-    "rounding threshold reads the intercept block's diagonal"))}
+#: known failures (none: FunctionOnFunctionRidge at t -> 0.26 t once dropped
+#: a data direction 1e-6 below the largest, when SplitPath's rounding level
+#: read the intercept block's diagonal)
+_UNIT_FAILURES: dict = {}
 
 
 def _unit_names():
