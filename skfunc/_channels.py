@@ -624,6 +624,7 @@ class ChannelwiseMixin:
             return super().fit(X, y)
         return self._fit_channels(X, partial=False)
 
+    @fill_doc
     def partial_fit(self, X, y=None):
         """Add a batch of curves and refit from the statistics of all batches.
 
@@ -634,13 +635,7 @@ class ChannelwiseMixin:
         ----------
         X : array-like or dask array of shape (n_samples, n_features)
             A batch of curves on the grid of the first batch.
-        y : None
-            Ignored; accepted for pipeline compatibility.
-
-        Returns
-        -------
-        self : object
-            The transformer, fitted on all batches so far.
+        %(partial_fit_y_returns)s
         """
         first = not hasattr(self, "n_samples_seen_")
         if not self._uses_channels(X, first):

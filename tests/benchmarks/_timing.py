@@ -37,3 +37,12 @@ def best_times(funcs, repeat):
 def best_time(func, repeat):
     """Shortest wall-clock time of ``repeat`` calls of ``func()``, in seconds."""
     return best_times([func], repeat)[0]
+
+
+def status_bytes(field):
+    """A memory field of ``/proc/self/status`` (``VmRSS``, ``VmHWM``) in bytes."""
+    with open("/proc/self/status") as status:
+        for line in status:
+            if line.startswith(field + ":"):
+                return int(line.split()[1]) * 1024
+    raise RuntimeError(f"{field} not in /proc/self/status")

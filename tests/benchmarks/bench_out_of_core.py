@@ -43,18 +43,10 @@ import time
 from pathlib import Path
 
 import numpy as np
-from _timing import ROOT  # noqa: F401  (puts the repository on sys.path)
+from _timing import status_bytes  # (also puts the repository on sys.path)
 
 M = 500  # grid points per curve
 READ_BUFFER = 64 << 20
-
-
-def status_bytes(field):
-    with open("/proc/self/status") as status:
-        for line in status:
-            if line.startswith(field + ":"):
-                return int(line.split()[1]) * 1024
-    raise RuntimeError(f"{field} not in /proc/self/status")
 
 
 def meminfo(field):

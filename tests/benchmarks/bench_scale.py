@@ -38,7 +38,7 @@ import warnings
 from functools import partial
 
 import numpy as np
-from _timing import best_time, best_times  # noqa: E402
+from _timing import best_time, best_times, status_bytes  # noqa: E402
 
 from skfunc.utils import all_estimators  # noqa: E402
 
@@ -111,24 +111,16 @@ def fit_case(name, cls, t, X, s=None, S=None):
 # ---------------------------------------------------------------------------
 
 
-def _status_bytes(field):
-    with open("/proc/self/status") as status:
-        for line in status:
-            if line.startswith(field + ":"):
-                return int(line.split()[1]) * 1024
-    raise RuntimeError(f"{field} not in /proc/self/status")
-
-
 def memory_child(name, n):
     """Fit on a few curves, then transform n curves; print the figures."""
     cls = dict(available(TRANSFORMERS))[name]
     t, sample = smooth_curves(2000)
     est = fit_case(name, cls, t, sample)
-    before = _status_bytes("VmRSS")
+    before = status_bytes("VmRSS")
     X = np.empty((n, M))
     X[:] = sample[:1]  # touches every page; values do not matter here
     Z = est.transform(X)
-    print(json.dumps({"before": before, "peak": _status_bytes("VmHWM"),
+    print(json.dumps({"before": before, "peak": status_bytes("VmHWM"),
                       "input": X.nbytes, "output": Z.nbytes}))
 
 
