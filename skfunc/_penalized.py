@@ -515,7 +515,11 @@ class SplitPath:
             S, A_n = R, np.zeros((T.shape[0], 0))
         s, V = np.linalg.eigh(S)
         s = np.clip(s, 0.0, None)
-        s[s <= 1e-13 * max(s.max(initial=0.0), top) * max(s.size, 1)] = 0.0
+        # rounding level of S = R - W'W: that of R, the penalized block, in
+        # the units of s (the null-space block F may carry other units: an
+        # intercept's weight total beside a design in the grid's units)
+        top_c = max(np.abs(np.diag(R)).max(initial=0.0), np.finfo(float).tiny)
+        s[s <= 1e-13 * max(s.max(initial=0.0), top_c) * max(s.size, 1)] = 0.0
         E = (T[:, r:] - A_n @ W) @ V
         self.eigvecs = np.column_stack([A_n, E])
         self.g = np.concatenate([np.ones(r), s])
