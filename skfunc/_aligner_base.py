@@ -6,9 +6,9 @@ from sklearn.base import BaseEstimator, TransformerMixin
 from sklearn.utils._param_validation import StrOptions
 from sklearn.utils.validation import _check_feature_names_in, check_array, check_is_fitted
 
-from ._blocks import row_blocks
+from ._blocks import output_dtype, row_blocks
 from ._docstrings import fill_doc
-from ._estimator import ShortReprMixin
+from ._estimator import PreservesFloat32Mixin, ShortReprMixin
 from ._validation import validate_curves
 from ._warping import compose, warp_coordinates
 
@@ -16,7 +16,7 @@ from ._warping import compose, warp_coordinates
 OUTPUTS = ("curves", "warps", "warp_coordinates")
 
 
-class AlignerBase(ShortReprMixin, TransformerMixin, BaseEstimator):
+class AlignerBase(ShortReprMixin, PreservesFloat32Mixin, TransformerMixin, BaseEstimator):
     """Base of the aligners.
 
     Subclasses implement ``_fit(X)`` for validated curves (setting
@@ -90,13 +90,15 @@ class AlignerBase(ShortReprMixin, TransformerMixin, BaseEstimator):
 
     def _transform(self, X, **kwargs):
         check_is_fitted(self)
-        X = self._validate(X, reset=False)
+        X = validate_curves(self, X, reset=False)
+        dtype = output_dtype(X)  # aligned in float64, returned in X's precision
+        X = np.asarray(X, dtype=np.float64)
         if self.output == "curves":
-            return self._align(X, warps=False, **kwargs)[0]
+            return self._align(X, warps=False, **kwargs)[0].astype(dtype, copy=False)
         warps = self._align(X, curves=False, **kwargs)[1]
         if self.output == "warps":
-            return warps
-        return warp_coordinates(self.grid_, warps)
+            return warps.astype(dtype, copy=False)
+        return warp_coordinates(self.grid_, warps).astype(dtype, copy=False)
 
     def _warps(self, X, **kwargs):
         check_is_fitted(self)

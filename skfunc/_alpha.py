@@ -310,9 +310,12 @@ def gcv_in_data_units(scores, y_exp):
     """GCV (or any mean squared error) of responses divided by ``2**y_exp``,
     in the responses' own units: exact; inf, with a ``RuntimeWarning``,
     where it overflows (the choice is made on the scaled scores)."""
+    from ._penalized import warn_underflow
+
     scores = np.asarray(scores, dtype=np.float64)
-    with np.errstate(over="ignore"):
+    with np.errstate(over="ignore", under="ignore"):
         out = np.ldexp(scores, 2 * y_exp)
+    warn_underflow("criterion_path_", scores, out)
     if np.any(np.isinf(out) & np.isfinite(scores)):
         warnings.warn(
             "The criterion overflows float64 in the responses' units (squares "

@@ -10,7 +10,8 @@ from sklearn.utils.validation import (
 
 from ._alpha import ALPHA_CONSTRAINTS
 from ._bases import gram_sqrt
-from ._blocks import chunked_matmul
+from ._blocks import chunked_matmul, output_dtype
+from ._channels import ChannelwiseMixin, split_columns
 from ._dask import check_rows
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
@@ -35,8 +36,8 @@ def orthonormal_operators(basis, grid, weights):
 
 
 @fill_doc
-class BasisFeatures(PenalizedFitMixin, AdditiveTransformerMixin, TransformerMixin,
-                    BaseEstimator):
+class BasisFeatures(ChannelwiseMixin, PenalizedFitMixin, AdditiveTransformerMixin,
+                    TransformerMixin, BaseEstimator):
     """Project sampled curves onto a basis, in L2-orthonormal coordinates.
 
     Each row of ``X`` is a curve sampled on a grid. It is fitted in a basis
@@ -59,7 +60,7 @@ class BasisFeatures(PenalizedFitMixin, AdditiveTransformerMixin, TransformerMixi
     data_term : {"mean", "integral"}, default="mean"
         Data term of the fit: the mean squared error over the grid points,
         or quadrature weights (``int (x - f)^2``); see :class:`CurveSmoother`.
-    %(grid)s
+    %(grid_channels)s
     quadrature : {"trapezoid", "simpson"}, default="trapezoid"
         Quadrature rule of the weights with ``data_term="integral"``.
 
@@ -78,6 +79,7 @@ class BasisFeatures(PenalizedFitMixin, AdditiveTransformerMixin, TransformerMixi
         Values on ``grid_`` of the orthonormalised basis functions, used by
         :meth:`inverse_transform`.
     %(n_samples_seen)s
+    %(channelwise_attributes)s
     %(curve_input_attributes)s
 
     See Also
@@ -123,6 +125,9 @@ class BasisFeatures(PenalizedFitMixin, AdditiveTransformerMixin, TransformerMixi
     #: fit runs on skfunc._dask.compute_statistics, so dask arrays are accepted
     _accepts_dask = True
 
+    #: with channels, these may be mappings {channel: value}
+    _channel_params = ("interior_knots",)
+
     _parameter_constraints = {
         **BASIS_CONSTRAINTS,
         **ALPHA_CONSTRAINTS,
@@ -164,8 +169,10 @@ class BasisFeatures(PenalizedFitMixin, AdditiveTransformerMixin, TransformerMixi
             A lazy dask array when X is one.
         """
         check_is_fitted(self)
+        if hasattr(self, "channel_estimators_"):
+            return self._per_channel(X, "transform")
         X = validate_curves(self, X, reset=False)
-        return chunked_matmul(X, self.projection_.T)
+        return chunked_matmul(X, self.projection_.T, dtype=output_dtype(X))
 
     def inverse_transform(self, X):
         """Values on ``grid_`` of the functions with coordinates ``X``.
@@ -181,7 +188,10 @@ class BasisFeatures(PenalizedFitMixin, AdditiveTransformerMixin, TransformerMixi
         """
         check_is_fitted(self)
         X = check_rows(X, self.n_basis_, "coordinates per row (n_basis_)")
-        return chunked_matmul(X, self.reconstruction_.T)
+        if hasattr(self, "channel_estimators_"):
+            return split_columns(self, X, "inverse_transform",
+                                 [e.n_basis_ for e in self.channel_estimators_])
+        return chunked_matmul(X, self.reconstruction_.T, dtype=output_dtype(X))
 
     def get_feature_names_out(self, input_features=None):
         """Names of the output coordinates, one per basis function.
@@ -196,6 +206,8 @@ class BasisFeatures(PenalizedFitMixin, AdditiveTransformerMixin, TransformerMixi
         feature_names_out : ndarray of str objects
         """
         check_is_fitted(self)
+        if hasattr(self, "channel_estimators_"):
+            return self._channel_feature_names(input_features)
         _check_feature_names_in(self, input_features, generate_names=False)
         names = basis_for(self, self.grid_, cap=False).feature_names()
         return np.asarray(names, dtype=object)

@@ -6,7 +6,7 @@ from functools import partial
 import numpy as np
 
 from ._alpha import check_alpha, gcv_in_data_units, reml_score
-from ._blocks import compute_statistics
+from ._blocks import compute_statistics, output_dtype
 from ._docstrings import fill_doc
 from ._fit import check_finite_fit
 from ._function_response import (
@@ -293,7 +293,8 @@ class ConcurrentFunctionRidge(CurveInputResponseRegressor):
         if criterion is not None and self.criterion == "gcv":
             criterion = gcv_in_data_units(criterion, stats["y_exp"])
         # (beta_0, beta_1) in the data's units: y's and y / x's
-        coef = to_data_units(coef.reshape(2, K)[::-1], stats, np.array([[0], [-1]]), 1)
+        coef = to_data_units(coef.reshape(2, K)[::-1], stats, np.array([[0], [-1]]), 1,
+                             "basis_coef_")
         self._store(basis, coef, np.full((2 * K, 2 * K), np.nan),
                     alphas, criterion, path.edf(alphas), best)
 
@@ -323,7 +324,7 @@ class ConcurrentFunctionRidge(CurveInputResponseRegressor):
         factor = sw / (sw - 2) if sw > 2 else np.nan
         x_power = np.r_[np.zeros(K, dtype=int), -np.ones(K, dtype=int)]
         return to_data_units(factor * bread @ meat @ bread, stats,
-                             x_power[:, None] + x_power[None, :], 2)
+                             x_power[:, None] + x_power[None, :], 2, "coef_covariance_")
 
     def _coef_rows(self):
         return np.array([[0.0, 1.0]])
@@ -331,6 +332,10 @@ class ConcurrentFunctionRidge(CurveInputResponseRegressor):
     def _coef_shape(self, n_points):
         return (n_points,)
 
-    def _design_effect(self, X, coef, points):
-        """``beta_1(t) X(t)``, with X read at the points ``t``."""
-        return self._input_at(X, points) * coef
+    def _design_effect(self, X, coef, points, offset=None):
+        """``beta_1(t) X(t)`` (plus ``offset``), with X read at the points
+        ``t``; computed in float64, returned in X's precision."""
+        effect = self._input_at(X, points) * coef
+        if offset is not None:
+            effect = effect + offset
+        return effect.astype(output_dtype(X), copy=False)

@@ -47,6 +47,44 @@ def kiln_crack_coef(minutes):
     return -2.5e-4 * _bump(t, 500.0, 40.0)
 
 
+#: oxygen in air (percent by volume), where the kiln atmosphere starts and ends
+AIR_OXYGEN = 20.9
+#: minutes between two readings of the oxygen analyser (default oxygen grid)
+OXYGEN_STEP = 5
+
+
+def kiln_colour_coefs(minutes, oxygen_minutes):
+    """The invented true coefficient functions of glaze lightness (L*).
+
+    Returns ``(temperature, oxygen)``: lightness per (°C·min) on ``minutes``
+    and per (percent O2·min) on ``oxygen_minutes``. A leaner atmosphere
+    (less oxygen) in the soak (around minute 330) darkens the glaze, and so,
+    less, does more heat around minute 360. Invented.
+    """
+    t = np.asarray(minutes, dtype=np.float64)
+    u = np.asarray(oxygen_minutes, dtype=np.float64)
+    return -6.0e-5 * _bump(t, 360.0, 60.0), 4.0e-3 * _bump(u, 330.0, 55.0)
+
+
+def _oxygen_profiles(t, start, end_ramp, end_soak, base, reduction, wander):
+    """Oxygen (percent) at times ``t``: air, burners on (``base``), a
+    reduction window (``reduction = (start, length, depth)``), air again
+    after the soak. Run parameters are column vectors."""
+    t = t[None, :]
+
+    def on(u, h):
+        return 0.5 * (1.0 + np.tanh(u / h))
+
+    burning = on(t - start, 5.0) * on(end_soak - t, 10.0)
+    r_start, r_length, r_depth = reduction
+    reducing = on(t - r_start, 6.0) * on(r_start + r_length - t, 6.0)
+    harmonics = np.arange(1, wander.shape[1] + 1)[:, None]
+    angle = 2 * np.pi * harmonics * t / KILN_MINUTES
+    drift = (wander[:, :, 0] * np.cos(wander[:, :, 1])) @ np.sin(angle)
+    level = AIR_OXYGEN - (AIR_OXYGEN - base) * burning - (base - r_depth) * reducing
+    return level + drift * burning
+
+
 def _softplus(u, h):
     """Smooth ``max(u, 0)``, rounded over a few ``h``."""
     return h * np.logaddexp(0.0, u / h)
@@ -97,6 +135,8 @@ def _dropout_mask(minutes, n_runs, dropout_fraction, rng):
         "faulty_fraction": [Interval(Real, 0, 1, closed="both")],
         "thermocouple_noise": [Interval(Real, 0, None, closed="left")],
         "strength_noise": [Interval(Real, 0, None, closed="left")],
+        "oxygen_grid": ["array-like", None],
+        "oxygen_noise": [Interval(Real, 0, None, closed="left")],
         "as_frame": ["boolean"],
         "random_state": ["random_state"],
     },
@@ -104,8 +144,8 @@ def _dropout_mask(minutes, n_runs, dropout_fraction, rng):
 )
 def make_kiln_firing(n_samples=200, *, grid=None, late_start_fraction=0.1,
                      dropout_fraction=0.1, faulty_fraction=0.03,
-                     thermocouple_noise=1.5, strength_noise=1.0, as_frame=False,
-                     random_state=None):
+                     thermocouple_noise=1.5, strength_noise=1.0, oxygen_grid=None,
+                     oxygen_noise=0.2, as_frame=False, random_state=None):
     """Invented kiln-firing runs: temperature curves, tile strength and cracks.
 
     A made-up ceramics plant fires stoneware tiles. Each run logs the kiln
@@ -151,6 +191,11 @@ def make_kiln_firing(n_samples=200, *, grid=None, late_start_fraction=0.1,
         Standard deviation (°C) of independent measurement noise.
     strength_noise : float, default=1.0
         Standard deviation (MPa) of the strength measurement noise.
+    oxygen_grid : array-like of shape (n_oxygen_points,), default=None
+        Minutes at which the oxygen is logged, strictly increasing within
+        [0, 599]. None means every five minutes, ``0, 5, ..., 595``.
+    oxygen_noise : float, default=0.2
+        Standard deviation (percentage points) of the analyser's noise.
     as_frame : bool, default=False
         If True, ``data`` is a pandas DataFrame whose column labels are the
         minutes (so skfunc infers the grid), ``target``, ``cracked`` and
@@ -191,6 +236,25 @@ def make_kiln_firing(n_samples=200, *, grid=None, late_start_fraction=0.1,
         start_delay : ndarray of shape (n_samples,)
             Minutes from the start of the log to the start of heating.
         late_start, faulty, has_dropout : ndarray of bool, shape (n_samples,)
+        oxygen : ndarray or DataFrame of shape (n_samples, n_oxygen_points)
+            Logged oxygen (percent by volume) on ``oxygen_grid``.
+        oxygen_grid : ndarray of shape (n_oxygen_points,)
+        true_oxygen : ndarray of shape (n_samples, n_oxygen_points)
+            Noise-free oxygen curves.
+        channels : ndarray or DataFrame of shape (n_samples, n_points + n_oxygen_points)
+            Temperature and oxygen side by side (a DataFrame with (channel,
+            minute) column labels), for the estimators that take several
+            channels.
+        channel_grid : dict
+            ``{"temperature": grid, "oxygen": oxygen_grid}``: pass it as
+            ``grid=`` with ``channels``.
+        colour : ndarray or Series of shape (n_samples,)
+            Glaze lightness (L*, invented) from both channels.
+        colour_coef_function : dict
+            True coefficient functions of ``colour``: ``"temperature"`` on
+            ``grid`` (L* per °C·min) and ``"oxygen"`` on ``oxygen_grid`` (L*
+            per percent·min).
+        colour_intercept : float
         DESCR : str
 
     See Also
@@ -258,6 +322,7 @@ def make_kiln_firing(n_samples=200, *, grid=None, late_start_fraction=0.1,
     gaps = _dropout_mask(minutes, n, dropout_fraction, rng)
     observed[gaps] = np.nan
     settings = np.hstack([peak_set, ramp_set, soak, load])
+    oxygen = _kiln_oxygen(rng, oxygen_grid, oxygen_noise, minutes, params, fine, w)
 
     bunch = Bunch(
         data=observed,
@@ -277,11 +342,62 @@ def make_kiln_firing(n_samples=200, *, grid=None, late_start_fraction=0.1,
         late_start=late,
         faulty=faulty,
         has_dropout=gaps.any(axis=1),
+        **oxygen,
+        channels=np.hstack([observed, oxygen["oxygen"]]),
+        channel_grid={"temperature": minutes, "oxygen": oxygen["oxygen_grid"]},
         DESCR=_KILN_DESCR,
     )
     if as_frame:
         _to_frames(bunch)
     return bunch
+
+
+def _kiln_oxygen(rng, oxygen_grid, oxygen_noise, minutes, params, fine, w):
+    """The oxygen channel and the lightness it drives, from one extra draw of
+    ``rng`` (made after all the others, which therefore do not change)."""
+    if oxygen_grid is None:
+        oxygen_grid = np.arange(0.0, KILN_MINUTES, OXYGEN_STEP)
+    oxygen_minutes = check_grid(oxygen_grid, name="oxygen_grid")
+    if oxygen_minutes[0] < 0 or oxygen_minutes[-1] > KILN_MINUTES - 1:
+        raise ValueError(
+            f"oxygen_grid must lie within [0, {KILN_MINUTES - 1}] (the cycle); got "
+            f"values in [{oxygen_minutes[0]}, {oxygen_minutes[-1]}]."
+        )
+    own = np.random.RandomState(rng.randint(2**31 - 1))
+    start, ramp, peak, soak, _, _ = params
+    n = start.shape[0]
+    end_ramp = start + (peak - AMBIENT_C) / ramp
+    end_soak = end_ramp + soak
+
+    def column(low, high):
+        return own.uniform(low, high, size=(n, 1))
+
+    base = column(7.0, 11.0)
+    reduction = (end_ramp - column(0.0, 40.0), column(30.0, 90.0), column(1.0, 4.0))
+    wander = np.stack([own.normal(0.0, 0.3, size=(n, 3)),
+                       own.uniform(0, 2 * np.pi, size=(n, 3))], axis=-1)
+    args = (start, end_ramp, end_soak, base, reduction, wander)
+    true_oxygen = _oxygen_profiles(oxygen_minutes, *args)
+    beta_t, beta_o = kiln_colour_coefs(_FINE, _FINE)
+    nominal_t = _nominal_profile()
+    one = np.ones((1, 1))
+    nominal_o = _oxygen_profiles(
+        _FINE, 10 * one, 10 + 1175 / 5.5 * one, 10 + 1175 / 5.5 + 75 * one, 9 * one,
+        (10 + 1175 / 5.5 - 20 * one, 60 * one, 2.5 * one), np.zeros((1, 3, 2)),
+    )[0]
+    intercept = 62.0 - float(nominal_t @ (w * beta_t) + nominal_o @ (w * beta_o))
+    colour = (intercept + fine @ (w * beta_t) + _oxygen_profiles(_FINE, *args) @ (w * beta_o)
+              + own.normal(0.0, 0.5, n))
+    observed = true_oxygen + own.normal(0.0, oxygen_noise, true_oxygen.shape)
+    coef_t, coef_o = kiln_colour_coefs(minutes, oxygen_minutes)
+    return {
+        "oxygen": observed,
+        "oxygen_grid": oxygen_minutes,
+        "true_oxygen": true_oxygen,
+        "colour": colour,
+        "colour_coef_function": {"temperature": coef_t, "oxygen": coef_o},
+        "colour_intercept": intercept,
+    }
 
 
 def _nominal_profile():
@@ -304,6 +420,13 @@ def _to_frames(bunch):
     labels = [int(m) if float(m).is_integer() else float(m) for m in bunch.grid]
     bunch.data = pd.DataFrame(bunch.data, columns=labels)
     bunch.data.columns.name = "minute"
+    oxygen_labels = [int(m) if float(m).is_integer() else float(m)
+                     for m in bunch.oxygen_grid]
+    bunch.oxygen = pd.DataFrame(bunch.oxygen, columns=pd.Index(oxygen_labels,
+                                                               name="minute"))
+    bunch.channels = pd.concat({"temperature": bunch.data, "oxygen": bunch.oxygen},
+                               axis=1, names=["channel", "minute"])
+    bunch.colour = pd.Series(bunch.colour, name="colour")
     for name in ("strength", "cracked"):
         bunch[name] = pd.Series(bunch[name], name=name)
     bunch.target = bunch.strength
@@ -319,7 +442,9 @@ over a 10-hour cycle (ramp, soak near 1150-1250 deg C, cool-down). Some runs
 start late, some have thermocouple dropouts (NaN), a few are faulty. Targets:
 tile flexural strength (MPa) from a known smooth coefficient function of the
 curve, and a crack flag from a known functional logistic model. Settings: peak
-set-point, ramp rate, soak length and load mass.
+set-point, ramp rate, soak length and load mass. A second channel, the oxygen
+in the kiln atmosphere (percent) every five minutes, and a glaze lightness
+(L*) from known coefficient functions of both channels.
 """
 
 

@@ -67,6 +67,14 @@ grid : array-like of shape (n_features,), default=None
     Sampling points of the columns of ``X``. None means the numeric column
     labels of a DataFrame, else evenly spaced points on [0, 1].
 """,
+    "grid_channels": """
+grid : array-like of shape (n_features,) or dict, default=None
+    Sampling points of the columns of ``X``. None means the numeric column
+    labels of a DataFrame (with ``(channel, time)`` labels: each channel's
+    times), else evenly spaced points on [0, 1]. A dict ``{channel: grid}``
+    declares several channels, their columns side by side in that order,
+    each on its own grid (see :doc:`/channels`).
+""",
     "aligner_output": """
 output : {"curves", "warps", "warp_coordinates"}, default="curves"
     What :meth:`transform` returns: the aligned curves, each curve's warp
@@ -156,6 +164,14 @@ n_samples_seen_ : int
     Number of rows fitted (by :meth:`fit`, or by all calls of
     :meth:`partial_fit` since the first).
 """,
+    "channelwise_attributes": """
+channel_names_, channel_sizes_ : list
+    With channels only: their names and numbers of grid points, in order;
+    ``grid_`` holds their grids side by side.
+channel_estimators_ : list
+    With channels only: the fitted estimator of each channel (``alpha_``
+    and ``edf_`` then hold one value per channel).
+""",
     "curve_input_attributes": """
 grid_ : ndarray of shape (n_features,)
     The grid of the columns of ``X`` used at fit (of the curve columns when
@@ -230,9 +246,12 @@ n_covariates : int, default=0
     columns first and the scalar columns last).
 fit_intercept : bool, default=True
     Whether to fit an unpenalized intercept.
-grid : array-like of shape (n_features - n_covariates,), default=None
+grid : array-like of shape (n_features - n_covariates,) or dict, default=None
     Sampling points of the curve columns. None means their numeric
-    DataFrame column labels, else evenly spaced points on [0, 1].
+    DataFrame column labels, else evenly spaced points on [0, 1]. A dict
+    ``{channel: grid}`` (or ``(channel, time)`` DataFrame labels) declares
+    several channels, side by side in that order, each with its own
+    coefficient function (see :doc:`/channels`).
 %(quadrature)s
 """,
     "scalar_outcome_attributes": """
@@ -257,7 +276,9 @@ coef_covariance_ : ndarray of shape (n_basis_, n_basis_) or (n_targets, ...)
     Bayesian posterior covariance of ``basis_coef_`` (see Notes), used by
     :meth:`confidence_band`.
 grid_ : ndarray of shape (n_grid,)
-    The grid of the curve columns.
+    The grid of the curve columns (with channels: their grids side by side).
+channel_names_, channel_sizes_ : list
+    With channels only: their names and numbers of grid points, in order.
 quadrature_weights_ : ndarray of shape (n_grid,)
     Quadrature weights on ``grid_``.
 n_basis_ : int

@@ -27,6 +27,18 @@ def _short_arrays():
     return np.printoptions(threshold=ARRAY_THRESHOLD, edgeitems=ARRAY_EDGE_ITEMS)
 
 
+class PreservesFloat32Mixin:
+    """Transformers whose ``transform`` gives float32 for float32 input
+    (scikit-learn's ``preserves_dtype`` tag; statistics of the fit are still
+    accumulated in float64, see :func:`skfunc._blocks.output_dtype`). Place
+    it before scikit-learn's ``TransformerMixin`` among the bases."""
+
+    def __sklearn_tags__(self):
+        tags = super().__sklearn_tags__()
+        tags.transformer_tags.preserves_dtype = ["float64", "float32"]
+        return tags
+
+
 class ShortReprMixin:
     """``repr`` with long array parameters summarised."""
 

@@ -36,7 +36,7 @@ import numpy as np
 
 from ._blocks import compute_statistics
 from ._docstrings import fill_doc
-from ._estimator import ShortReprMixin
+from ._estimator import PreservesFloat32Mixin, ShortReprMixin
 from ._penalized import merge as merge_sums
 from ._validation import check_batch_grid
 
@@ -121,7 +121,10 @@ class AdditiveFitMixin(ShortReprMixin):
         self._forget()
         return self._partial_fit_statistics(X, y, sample_weight)
 
-    def _partial_fit_statistics(self, X, y=None, sample_weight=None):
+    def _partial_fit_statistics(self, X, y=None, sample_weight=None, *, solve=True):
+        """Add a batch's statistics; then solve, unless ``solve`` is False
+        (:func:`skfunc.utils.partial_fit_batches` solves once, after its last
+        batch, with :meth:`_solve_statistics`)."""
         first = not hasattr(self, "n_samples_seen_")
         if first:
             self._validate_params()
@@ -138,12 +141,18 @@ class AdditiveFitMixin(ShortReprMixin):
             n_rows += self.n_samples_seen_
         self._partial_statistics = stats
         self.n_samples_seen_ = int(n_rows)
-        self._solve(stats)
+        if solve:
+            self._solve_statistics()
+        return self
+
+    def _solve_statistics(self):
+        """Set the fitted attributes from the statistics of all batches so far."""
+        self._solve(self._partial_statistics)
         check_finite_fit(self)
         return self
 
 
-class AdditiveTransformerMixin(AdditiveFitMixin):
+class AdditiveTransformerMixin(PreservesFloat32Mixin, AdditiveFitMixin):
     """The skeleton for transformers: ``fit(X, y=None)``, ``partial_fit(X, y=None)``."""
 
     @fill_doc

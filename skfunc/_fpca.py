@@ -51,7 +51,7 @@ from threadpoolctl import threadpool_limits
 from ._alpha import CV_FOLDS, best_index, candidates_for
 from ._bases import gram_sqrt
 from ._basis_features import orthonormal_operators
-from ._blocks import chunked_matmul
+from ._blocks import chunked_matmul, output_dtype
 from ._dask import check_rows
 from ._moments import merge_moments, moments, scale_moments
 from ._penalized import SplitPath, penalty_for
@@ -75,9 +75,7 @@ class ComponentCurvesMixin:
         """
         check_is_fitted(self)
         X = check_rows(X, self.n_components_, "scores per row (n_components_)")
-        curves = chunked_matmul(X, self.components_)
-        curves += self.mean_
-        return curves
+        return chunked_matmul(X, self.components_, self.mean_, dtype=output_dtype(X))
 
 
 class CurveCoordinates:

@@ -5,7 +5,7 @@ from functools import partial
 
 import numpy as np
 
-from ._blocks import chunked_matmul
+from ._blocks import chunked_matmul, output_dtype
 from ._docstrings import fill_doc
 from ._fit import AdditiveRegressorMixin
 from ._function_response import CurveInputResponseRegressor
@@ -132,7 +132,8 @@ class FunctionOnFunctionRidge(AdditiveRegressorMixin, CurveInputResponseRegresso
         psi = basis_for(self, self.grid_, cap=False).evaluate(self.grid_)
         return np.column_stack([np.zeros(psi.shape[0]), psi])
 
-    def _design_effect(self, X, coef, points):
-        """``int X(s) beta(s, t) ds`` by the quadrature of ``grid_``."""
+    def _design_effect(self, X, coef, points, offset=None):
+        """``int X(s) beta(s, t) ds`` (plus ``offset``) by the quadrature of
+        ``grid_``."""
         w = quadrature_weights(self.grid_, self.quadrature)
-        return chunked_matmul(X, coef * w[:, None])
+        return chunked_matmul(X, coef * w[:, None], offset, dtype=output_dtype(X))

@@ -3,7 +3,7 @@
 import numpy as np
 from sklearn.utils.validation import validate_data
 
-from ._blocks import chunked_matmul, is_dask_array
+from ._blocks import chunked_matmul, is_dask_array, output_dtype
 from ._dask import validate_dask
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
@@ -124,7 +124,7 @@ class FunctionOnScalarRidge(AdditiveRegressorMixin, CurveResponseRegressor):
         if y_params or is_dask_array(X):
             return validate_dask(self, X, reset=reset, curves=False, **y_params)
         try:
-            return validate_data(self, X, reset=reset, dtype=np.float64)
+            return validate_data(self, X, reset=reset, dtype=[np.float64, np.float32])
         except ValueError as exc:
             explain_not_numbers(exc, X, None)
             raise
@@ -137,5 +137,5 @@ class FunctionOnScalarRidge(AdditiveRegressorMixin, CurveResponseRegressor):
         p1 = self.basis_coef_.shape[0]
         return np.eye(p1)[1:]
 
-    def _design_effect(self, X, coef, points):
-        return chunked_matmul(X, coef)
+    def _design_effect(self, X, coef, points, offset=None):
+        return chunked_matmul(X, coef, offset, dtype=output_dtype(X))

@@ -393,9 +393,10 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
     * ``_validate_X(X, reset, **y_params)``: validated X, or ``(X, y)``
       validated together when ``y_params`` holds ``y``
       (:class:`CurveInputResponseRegressor` for input curves);
-    * ``_design_effect(X, coef, points)``: the prediction minus the
-      intercept, from validated X and ``coef`` shaped like
-      ``coef_function_`` at the response ``points``;
+    * ``_design_effect(X, coef, points, offset=None)``: the prediction
+      minus the intercept (plus ``offset``, the intercept), from validated X
+      and ``coef`` shaped like ``coef_function_`` at the response
+      ``points``; float32 for float32 X (``skfunc._blocks.output_dtype``);
     * ``_statistics_function()`` (optional): ``_statistics`` with a linear
       ``design`` operator when the design is not X itself;
     * ``_design_geometry()``: ``(Gs, Ps)``, the Gram and roughness matrices
@@ -575,9 +576,10 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         # back to the data's units: the intercept row is in y's, the others
         # in y / x (powers of two, exact; variances may overflow: checked)
         x_power = np.r_[0.0, -np.ones(p)]
-        basis_coef = to_data_units(transform @ C @ U.T, stats, x_power[:, None], 1)
+        basis_coef = to_data_units(transform @ C @ U.T, stats, x_power[:, None], 1,
+                                   "basis_coef_")
         cov = to_data_units(cov, stats, x_power[:, None, None, None]
-                            + x_power[None, None, :, None], 2)
+                            + x_power[None, None, :, None], 2, "coef_covariance_")
         if criterion is not None and self.criterion == "gcv":
             criterion = gcv_in_data_units(criterion, stats["y_exp"])
         self._store(basis, basis_coef, cov.reshape(p1 * K, p1 * K),
@@ -737,7 +739,9 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         else:
             intercept, coef = self.coef_functions_at(eval_points)
             points = np.asarray(eval_points, dtype=np.float64).ravel()
-        return intercept + self._design_effect(X, coef, points)
+        # the intercept enters the product: float32 X gives a float32
+        # prediction, centered where a large mean would cost digits
+        return self._design_effect(X, coef, points, offset=intercept)
 
     def confidence_band(self, level=0.95, intercept=False, *, simultaneous=False,
                         n_draws=4000, random_state=None):

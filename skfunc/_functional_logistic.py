@@ -23,6 +23,7 @@ from sklearn.utils.multiclass import check_classification_targets
 
 from ._alpha import ALPHA_CONSTRAINT, candidates_for, check_alpha
 from ._blocks import _along_rows_of, apply_rows, compute_statistics, is_dask_array
+from ._channels import channel_penalty
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._fit import check_finite_fit
@@ -40,7 +41,7 @@ from ._logistic_path import (
     single_thread_blas,
     split_design,
 )
-from ._penalized import SplitPath, centered, penalty_for, penalty_scale
+from ._penalized import SplitPath, centered, penalty_scale
 from ._weights import check_sample_weight
 
 
@@ -304,11 +305,12 @@ class FunctionalLogisticRegression(
             gram, _, _, z_mean, _ = centered(stats)
         else:
             gram, z_mean = stats["zz"], np.zeros(stats["zz"].shape[0])
-        penalty = penalty_for(basis, self.penalty_order).extend(self.n_covariates)
+        # (several channels: each channel's roughness on its own scale)
+        penalty = channel_penalty(basis, self.penalty_order, gram).extend(self.n_covariates)
         scale = penalty_scale(gram, penalty)
         fixed = isinstance(alpha, float)
         ridge = (np.zeros_like(gram) if fixed and alpha == 0
-                 else self._ridge(gram, basis, scale))
+                 else self._ridge(gram, basis, scale, penalty.metric))
         path = self._split_path(gram + ridge, basis, stats["n"], scale=scale)
         if fixed and alpha == 0:
             self._check_identified(path, stats["n"])
@@ -353,16 +355,18 @@ class FunctionalLogisticRegression(
         self._set_coefficients(basis, coef, intercept, blocks, squeeze=False)
         return self
 
-    def _ridge(self, gram, basis, scale):
+    def _ridge(self, gram, basis, scale, metric):
         """The fixed ridge ``R`` in the coefficients ``[c, gamma]``.
 
         ``RIDGE * scale * int_0^1 beta^2`` on beta (scale: the engine weight
-        of alpha = 1, so the ridge is unit-free like alpha) and ``RIDGE``
-        times each covariate's own weighted variance on the covariates.
+        of alpha = 1, so the ridge is unit-free like alpha; ``metric`` the
+        penalty's unit-domain Gram matrix, with several channels each
+        channel's scaled by its own data scale) and ``RIDGE`` times each
+        covariate's own weighted variance on the covariates.
         """
         k = basis.n_basis
         ridge = np.zeros_like(gram)
-        ridge[:k, :k] = RIDGE * scale * basis.unit_gram()
+        ridge[:k, :k] = RIDGE * scale * metric
         size = np.diag(gram)[k:]
         ridge[k:, k:] = np.diag(RIDGE * np.where(size > 0, size, 1.0))
         return ridge

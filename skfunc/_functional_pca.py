@@ -17,7 +17,8 @@ from sklearn.utils.validation import check_is_fitted
 
 from ._alpha import ALPHA_CONSTRAINT, check_alpha
 from ._bases import BASES
-from ._blocks import chunked_matmul, is_dask_array
+from ._blocks import chunked_matmul, is_dask_array, output_dtype
+from ._channels import CHANNEL_WEIGHTS, channel_coordinates, curve_weights
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._fit import AdditiveTransformerMixin
@@ -31,7 +32,6 @@ from ._fpca import (
     sign_convention,
     svd_directions,
 )
-from ._grid import quadrature_weights
 from ._validation import BASIS_CONSTRAINTS, basis_for, validate_curves
 
 SVD_SOLVERS = ("auto", "full", "covariance_eigh", "randomized")
@@ -117,12 +117,27 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         ``n_components < 0.1 min(n_samples, K)``, else 4).
     random_state : int, RandomState instance or None, default=None
         Seed of the randomized solver; pass an int for reproducible results.
-    grid : array-like of shape (n_features,), default=None
+    grid : array-like of shape (n_features,) or dict, default=None
         Sampling points of the columns of ``X``. None means the numeric column
-        labels of a DataFrame, else evenly spaced points on [0, 1].
+        labels of a DataFrame, else evenly spaced points on [0, 1]. A dict
+        ``{channel: grid}`` (or ``(channel, time)`` DataFrame labels)
+        declares several channels: multivariate components, see
+        ``channel_weights``.
     quadrature : {"trapezoid", "simpson"}, default="trapezoid"
         Quadrature rule for integrals over the grid. Without a basis the
         weights must be positive.
+    channel_weights : {"inverse_variance", "equal"} or dict, default="inverse_variance"
+        With several channels (``grid`` a mapping ``{channel: grid}``, or
+        (channel, time) DataFrame columns; see :doc:`/channels`): the
+        weights ``v_c`` of the inner product ``sum_c v_c <f_c, g_c>`` in
+        which the multivariate components are found and orthonormal.
+        "inverse_variance": one over each channel's integrated variance
+        (Happ and Greven, 2018), so a change of units of one channel changes
+        no score; "equal": 1 for every channel (channels in one unit on a
+        shared domain, Ramsay and Silverman, 2005, sec. 8.5); a dict gives a
+        positive weight per channel name. Ignored without channels. With
+        channels, components are not smoothed: pass ``alpha=0`` with a
+        basis.
 
     Attributes
     ----------
@@ -178,6 +193,11 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         ``n_samples_seen_`` and ``coordinate_mean_``, the statistics
         :meth:`partial_fit` continues from. None after a randomized fit,
         which does not compute them.
+    channel_weights_ : ndarray of shape (n_channels,)
+        With channels only: the channel weights used.
+    channel_names_, channel_sizes_ : list
+        With channels only: the channels' names and numbers of grid points,
+        in column order; ``grid_`` holds their grids side by side.
     %(curve_input_attributes)s
 
     See Also
@@ -236,6 +256,10 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
 
     Silverman, B. W. (1996). Smoothed functional principal components
     analysis by choice of norm. *The Annals of Statistics* 24(1), 1-24.
+
+    Happ, C. and Greven, S. (2018). Multivariate functional principal
+    component analysis for data observed on different (dimensional) domains.
+    *Journal of the American Statistical Association* 113(522), 649-659.
 
     Halko, N., Martinsson, P.-G. and Tropp, J. A. (2011). Finding structure
     with randomness: probabilistic algorithms for constructing approximate
@@ -299,12 +323,16 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         "iterated_power": [Interval(Integral, 0, None, closed="left"),
                            StrOptions({"auto"})],
         "random_state": ["random_state"],
+        "channel_weights": [StrOptions(set(CHANNEL_WEIGHTS)), dict],
     }
+
+    #: a layout of several channels is accepted (skfunc._channels)
+    _accepts_channels = True
 
     def __init__(self, n_components=None, *, basis=None, n_basis=None, degree=3,
                  interior_knots=None, alpha="auto", penalty_order=2, svd_solver="auto",
                  n_oversamples=10, iterated_power="auto", random_state=None, grid=None,
-                 quadrature="trapezoid"):
+                 quadrature="trapezoid", channel_weights="inverse_variance"):
         store_init_params(self, locals())
 
     # ------------------------------------------------------------------ fit
@@ -390,6 +418,10 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
                 f"covariance; got {n} sample."
             )
         covariance = scatter / (n - 1)
+        coords, d = channel_coordinates(self, coords, np.diag(covariance), mean)
+        weighted_mean = mean if d is None else mean * d
+        if d is not None:
+            covariance = covariance * np.outer(d, d)
         total = float(np.trace(covariance))
         self._check_variance(total, mean)
         n_wanted = self._n_wanted(n, coords.n_coordinates)
@@ -402,13 +434,20 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
             )
         self._set_alpha(alpha, alphas, scores, coords)
         variances, directions = covariance_directions(covariance, n_wanted, coords, alpha)
-        self.coordinate_scatter_ = scatter
-        self._set_components(variances, directions, total, mean, n, n_wanted, coords)
+        self._set_components(variances, directions, total, weighted_mean, n,
+                             n_wanted, coords)
+        self.coordinate_scatter_, self.coordinate_mean_ = scatter, mean
 
     def _fit_svd(self, X, coords, solver):
         n, K = X.shape[0], coords.n_coordinates
         n_wanted = self._n_wanted(n, K)
         Z, mean = coords.centered(X)
+        coords, d = channel_coordinates(self, coords, np.einsum("ij,ij->j", Z, Z) / (n - 1),
+                                        mean)
+        weighted_mean = mean
+        if d is not None:
+            Z *= d
+            weighted_mean = mean * d
         total = float(np.vdot(Z, Z)) / (n - 1)
         self._check_variance(total, mean)
         squares, directions = svd_directions(
@@ -425,13 +464,15 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         # partial_fit can continue from it
         self.coordinate_scatter_ = None
         if solver == "full":
-            self.coordinate_scatter_ = (directions * squares) @ directions.T
-            self._partial_statistics = {
-                "n": n, "mean": mean, "scatter": self.coordinate_scatter_,
-            }
+            scatter = (directions * squares) @ directions.T
+            if d is not None:  # the statistics are of the unweighted coordinates
+                scatter /= np.outer(d, d)
+            self.coordinate_scatter_ = scatter
+            self._partial_statistics = {"n": n, "mean": mean, "scatter": scatter}
         self._set_components(
-            squares / (n - 1), directions, total, mean, n, n_wanted, coords
+            squares / (n - 1), directions, total, weighted_mean, n, n_wanted, coords
         )
+        self.coordinate_mean_ = mean
 
     def _set_alpha(self, alpha, alphas, scores, coords):
         self.alpha_ = float(alpha)
@@ -448,7 +489,9 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
             n_wanted = int(np.searchsorted(cumulative, self.n_components - 1e-12)) + 1
         k = min(n_wanted, variances.size)
         variances, directions = variances[:k], directions[:, :k]
-        directions = directions * sign_convention(coords.values(directions))
+        # (channels: signs read from values in unit-free channel scales)
+        values = getattr(coords, "unit_free_values", coords.values)(directions)
+        directions = directions * sign_convention(values)
         self.n_samples_seen_ = int(n)
         self.coordinate_mean_ = mean
         self.quadrature_weights_ = coords.weights
@@ -518,7 +561,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
 
     def _coordinates(self):
         """Rebuild the coordinate maps from the parameters and ``grid_``."""
-        weights = quadrature_weights(self.grid_, self.quadrature)
+        weights = curve_weights(self)
         if not self._uses_basis():
             if np.any(weights <= 0):
                 raise ValueError(
@@ -624,7 +667,9 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         """
         check_is_fitted(self)
         X = self._validate(X, reset=False)
-        return chunked_matmul(X, self.projection_.T) - self.mean_ @ self.projection_.T
+        operator_T = self.projection_.T
+        return chunked_matmul(X, operator_T, -self.mean_ @ operator_T,
+                              dtype=output_dtype(X))
 
     @fill_doc
     def score_samples(self, X):
@@ -633,7 +678,9 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         ``-||x - x_hat||`` with ``x_hat = inverse_transform(transform(x))``,
         integrated with ``quadrature_weights_``: higher is more typical, as
         in scikit-learn's ``score_samples`` convention, so curves the
-        components do not describe well score lowest. (Unlike
+        components do not describe well score lowest. With channels the
+        norm is the weighted one of the components (``channel_weights_``).
+        (Unlike
         :meth:`sklearn.decomposition.PCA.score_samples`, this is not a
         log-likelihood: curves have no finite-dimensional density.) With a
         basis, the error includes what the basis cannot represent.
@@ -654,7 +701,10 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         residual = np.asarray(X, dtype=np.float64) - self.inverse_transform(
             self.transform(X)
         )
-        return -np.sqrt(np.maximum(residual**2 @ self.quadrature_weights_, 0.0))
+        weights = self.quadrature_weights_
+        if hasattr(self, "channel_weights_"):  # the weighted norm of channels
+            weights = weights * np.repeat(self.channel_weights_, self.channel_sizes_)
+        return -np.sqrt(np.maximum(residual**2 @ weights, 0.0))
 
     @fill_doc
     def mahalanobis(self, X):

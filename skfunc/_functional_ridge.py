@@ -115,13 +115,14 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
 
     def _check_same_targets(self, y):
         targets = self._partial_statistics["zy"].shape[1]
-        if (y.ndim == 1) != (np.ndim(self.intercept_) == 0) or (
+        one = self._target_ndim == 1  # set by the first batch (no solve needed)
+        if (y.ndim == 1) != one or (
             y.ndim == 2 and y.shape[1] != targets
         ):
             raise ValueError(
                 f"y of this partial_fit batch has shape {y.shape}; earlier "
                 f"batches had {targets} target(s) "
-                f"{'as a 1-D y' if np.ndim(self.intercept_) == 0 else 'as columns'}"
+                f"{'as a 1-D y' if one else 'as columns'}"
                 "; every batch needs the same targets."
             )
 
@@ -166,9 +167,10 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
         # the covariance is of the curves' coefficients, which share one)
         curves = {"x_exp": np.asarray(stats["x_exp"]).ravel()[0], "y_exp": stats["y_exp"]}
         self._set_coefficients(
-            basis, to_data_units(theta, stats, -1, 1), to_data_units(intercept, stats, 0, 1),
-            to_data_units(covariance, curves, -2, 2), squeeze)
-        sigma2 = to_data_units(sigma2, stats, 0, 2)
+            basis, to_data_units(theta, stats, -1, 1, "coef_"),
+            to_data_units(intercept, stats, 0, 1, "intercept_"),
+            to_data_units(covariance, curves, -2, 2, "coef_covariance_"), squeeze)
+        sigma2 = to_data_units(sigma2, stats, 0, 2, "noise_variance_")
         self.edf_ = float(edf[0]) if squeeze or np.ndim(alpha) == 0 else edf
         self.noise_variance_ = float(sigma2[0]) if squeeze else sigma2
         return self
@@ -210,7 +212,7 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
         -------
         y_pred : ndarray of shape (n_samples,) or (n_samples, n_targets)
         """
-        return self._linear_predictor(X)
+        return self._linear_predictor(X, keep_float32=True)
 
 
 @fill_doc

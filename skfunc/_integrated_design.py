@@ -33,10 +33,10 @@ from sklearn.utils._param_validation import Interval
 from sklearn.utils.validation import check_is_fitted
 
 from ._bands import critical_value
-from ._blocks import chunked_matmul
+from ._blocks import chunked_matmul, output_dtype
+from ._channels import channel_penalty, curve_weights
 from ._estimator import ShortReprMixin
-from ._grid import quadrature_weights
-from ._penalized import NotIdentifiableError, SplitPath, penalty_for
+from ._penalized import NotIdentifiableError, SplitPath
 from ._validation import BASIS_CONSTRAINTS, basis_for, check_level, validate_curves
 
 #: parameter constraints common to every model on the integrated design
@@ -65,7 +65,14 @@ class IntegratedDesignMixin(ShortReprMixin):
 
     Subclasses set ``basis``, ``n_basis``, ``degree``, ``interior_knots``,
     ``penalty_order``, ``n_covariates``, ``grid`` and ``quadrature``.
+
+    Several channels (``grid`` a mapping, see :mod:`skfunc._channels`) give
+    one coefficient function per channel: the basis is the channels' bases
+    side by side and each channel's roughness is on its own unit-free scale.
     """
+
+    #: a layout of several channels is accepted (skfunc._channels)
+    _accepts_channels = True
 
     def _validate_curves(self, X, y="no_validation", *, reset, **check_params):
         return validate_curves(
@@ -78,7 +85,7 @@ class IntegratedDesignMixin(ShortReprMixin):
 
     def _integration_operator(self, basis):
         """``W Phi`` (m x K): curves times it give the integrated design."""
-        w = quadrature_weights(self.grid_, self.quadrature)
+        w = curve_weights(self)
         return basis.evaluate(self.grid_) * w[:, None]
 
     def _design(self, X, operator):
@@ -89,7 +96,7 @@ class IntegratedDesignMixin(ShortReprMixin):
         """:class:`~skfunc._penalized.SplitPath` of the (centred) cross
         products with beta's penalty split into its null space and the
         covariates unpenalized; errors say what to change."""
-        penalty = penalty_for(basis, self.penalty_order).extend(self.n_covariates)
+        penalty = channel_penalty(basis, self.penalty_order, zz).extend(self.n_covariates)
         try:
             return SplitPath(zz, penalty, scale=scale)
         except NotIdentifiableError as exc:
@@ -120,7 +127,7 @@ class IntegratedDesignMixin(ShortReprMixin):
         """Store the fitted model from design coefficients ``theta`` (T, K + p),
         ``intercept`` (T,) and the basis-coefficient covariance (T, K, K)."""
         k = basis.n_basis
-        w = quadrature_weights(self.grid_, self.quadrature)
+        w = curve_weights(self)
         beta = theta[:, :k] @ basis.evaluate(self.grid_).T
 
         def out(a):
@@ -135,12 +142,14 @@ class IntegratedDesignMixin(ShortReprMixin):
         self.intercept_ = float(intercept[0]) if squeeze else intercept
         self.coef_covariance_ = out(covariance)
 
-    def _linear_predictor(self, X):
-        """``X @ coef_.T + intercept_`` for validated curves X."""
+    def _linear_predictor(self, X, keep_float32=False):
+        """``X @ coef_.T + intercept_`` for validated curves X (float32 for
+        float32 X with ``keep_float32``, else float64)."""
         check_is_fitted(self)
         X = self._validate_curves(X, reset=False)
         coef = np.atleast_2d(self.coef_)
-        eta = chunked_matmul(X, coef.T) + self.intercept_
+        dtype = output_dtype(X) if keep_float32 else np.float64
+        eta = chunked_matmul(X, coef.T, self.intercept_, dtype=dtype)
         return eta[:, 0] if np.ndim(self.coef_) == 1 else eta
 
     def confidence_band(self, level=0.95, *, simultaneous=False, n_draws=4000,

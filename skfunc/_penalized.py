@@ -424,19 +424,43 @@ def rescaled(stats, x_exp, y_exp):
     return out
 
 
-def to_data_units(value, stats, x_power, y_power):
+def to_data_units(value, stats, x_power, y_power, name=None):
     """A quantity computed from scaled statistics in the data's units:
     ``value * 2**(x_power ex + y_power ey)`` (coefficients ``(-1, 1)``,
     intercepts ``(0, 1)``, variances ``(0, 2)``, ...); unchanged for
     statistics without exponents. Per-column exponents ``ex`` broadcast
-    along the last axis. May overflow to inf: the caller checks."""
+    along the last axis. May overflow to inf (the caller checks: see
+    :func:`skfunc._fit.check_finite_fit`); where it underflows (nonzero
+    values below float64's smallest normal number, 2.2e-308, so 0 or digits
+    lost), the fitted attribute ``name`` gets a ``RuntimeWarning``."""
     if "x_exp" not in stats:
         return value
     exponent = np.asarray(y_power * stats["y_exp"])
     if np.any(x_power):  # (x_exp may be per column: only coefficients carry it)
         exponent = exponent + np.asarray(x_power) * np.asarray(stats["x_exp"])
-    with np.errstate(over="ignore"):
-        return np.ldexp(value, exponent.astype(np.int64))
+    with np.errstate(over="ignore", under="ignore"):
+        out = np.ldexp(value, exponent.astype(np.int64))
+    if name is not None:
+        warn_underflow(name, value, out)
+    return out
+
+
+def warn_underflow(name, scaled, value):
+    """``RuntimeWarning`` when nonzero ``scaled`` values became 0 or
+    subnormal in ``value`` (the data's units)."""
+    scaled, value = np.asarray(scaled), np.asarray(value)
+    with np.errstate(invalid="ignore"):
+        lost = (scaled != 0) & np.isfinite(scaled) & (np.abs(value) < np.finfo(float).tiny)
+    if lost.any():
+        import warnings
+
+        warnings.warn(
+            f"{name} underflows float64 in the data's units (values below "
+            "2.2e-308, as variances of y near 1e-160 or coefficients y / X "
+            "that small): it is stored as 0 or with lost digits; the fit "
+            "itself was computed on rescaled data. Rescale X and y, for "
+            "example to units near 1, to read it.", RuntimeWarning, stacklevel=4,
+        )
 
 
 def _unseen_null_space(F, abs_t, abs_gram):
@@ -530,9 +554,9 @@ class SplitPath:
             S, A_n = R, np.zeros((T.shape[0], 0))
         s, V = np.linalg.eigh(S)
         s = np.clip(s, 0.0, None)
-        # rounding level of S = R - W'W: that of R, the penalized block, in
-        # the units of s (the null-space block F may carry other units: an
-        # intercept's weight total beside a design in the grid's units)
+        # rounding in S = R - W'W is relative to the penalized block R, not
+        # to the null-space block (an intercept of weight sum w, say), whose
+        # size says nothing about it: directions below that are unseen
         top_c = max(np.abs(np.diag(R)).max(initial=0.0), np.finfo(float).tiny)
         s[s <= 1e-13 * max(s.max(initial=0.0), top_c) * max(s.size, 1)] = 0.0
         E = (T[:, r:] - A_n @ W) @ V

@@ -3,6 +3,7 @@
 import numpy as np
 from sklearn.utils.validation import check_array
 
+from ._channels import channel_columns
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._plot_base import GRID_LABEL, _Display, _fitted_attributes, _label, _legend_beside
@@ -66,7 +67,7 @@ class CoefficientFunctionDisplay(_Display):
 
     @classmethod
     def from_estimator(cls, estimator, *, level=0.95, target=0, reference=None,
-                       ax=None):
+                       channel=None, ax=None):
         """Plot a fitted estimator's ``coef_function_`` and confidence band.
 
         Parameters
@@ -81,7 +82,11 @@ class CoefficientFunctionDisplay(_Display):
             Which row of ``coef_function_`` when it is 2-D: a target, or a
             covariate of a function-on-scalar model.
         reference : array-like of shape (n_points,), default=None
-            A known coefficient function on ``grid_`` to draw for comparison.
+            A known coefficient function on ``grid_`` (on the channel's grid
+            with ``channel``) to draw for comparison.
+        channel : str, default=None
+            For an estimator fitted on several channels (:doc:`/channels`),
+            the channel whose coefficient function to draw; required there.
         ax : matplotlib Axes, default=None
 
         Returns
@@ -100,7 +105,9 @@ class CoefficientFunctionDisplay(_Display):
         if not (0 < level < 1):
             raise ValueError(f"level must be in (0, 1); got {level!r}.")
         lower, upper = estimator.confidence_band(level)
-        coef, lower, upper = (np.atleast_2d(a) for a in (coef, lower, upper))
+        columns = channel_columns(estimator, channel, "CoefficientFunctionDisplay")
+        grid = grid[columns]
+        coef, lower, upper = (np.atleast_2d(a)[:, columns] for a in (coef, lower, upper))
         if not (isinstance(target, int | np.integer) and 0 <= target < len(coef)):
             raise ValueError(
                 f"target must be an int from 0 to {len(coef) - 1} (one per "

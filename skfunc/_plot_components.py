@@ -3,6 +3,7 @@ the mean curve."""
 
 import numpy as np
 
+from ._channels import channel_columns
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._plot_base import (
@@ -66,7 +67,8 @@ class ComponentPerturbationDisplay(_Display):
         store_init_params(self, locals())
 
     @classmethod
-    def from_estimator(cls, estimator, *, n_components=None, n_sd=2.0, ax=None):
+    def from_estimator(cls, estimator, *, n_components=None, n_sd=2.0, channel=None,
+                       ax=None):
         """Plot the leading components of a fitted FunctionalPCA.
 
         Parameters
@@ -79,6 +81,10 @@ class ComponentPerturbationDisplay(_Display):
             How many leading components to show; None means up to 3.
         n_sd : float, default=2.0
             How many standard deviations along each component.
+        channel : str, default=None
+            For components of several channels (:doc:`/channels`), the
+            channel whose part of the mean and components to draw; required
+            there.
         ax : matplotlib Axes or array of Axes, default=None
             One Axes per component; None makes a new figure with a row of
             panels.
@@ -102,9 +108,10 @@ class ComponentPerturbationDisplay(_Display):
                 f"components); got {n_components!r}."
             )
         k = int(n_components)
+        columns = channel_columns(estimator, channel, "ComponentPerturbationDisplay")
         display = cls(
-            grid=np.asarray(grid), mean=np.asarray(mean),
-            components=np.asarray(comps)[:k], explained_variance=np.asarray(var)[:k],
+            grid=np.asarray(grid)[columns], mean=np.asarray(mean)[columns],
+            components=np.asarray(comps)[:k, columns], explained_variance=np.asarray(var)[:k],
             explained_variance_ratio=None if ratio is None else np.asarray(ratio)[:k],
             n_sd=_check_n_sd(n_sd, strict=True),
         )

@@ -40,7 +40,15 @@ from ._alpha import (
     reml_score,
 )
 from ._bases import check_unpenalized_fit
-from ._blocks import apply_rows, chunked_matmul, is_dask_array, row_blocks
+from ._blocks import (
+    Float32Product,
+    apply_rows,
+    chunked_matmul,
+    is_dask_array,
+    output_dtype,
+    row_blocks,
+)
+from ._channels import ChannelwiseMixin
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._fit import AdditiveTransformerMixin
@@ -66,9 +74,10 @@ def _check_eval_points(points):
     return check_grid(out, name="eval_points")
 
 
-def _products(X, first_T, second_T=None):
+def _products(X, first_T, second_T=None, dtype=np.float64):
     """``X @ first_T`` (then ``@ second_T``) in row chunks, and a mask of the
-    rows of X that hold NaN.
+    rows of X that hold NaN; in float64, or with ``dtype=np.float32`` (the
+    transform of float32 X) in float32 by :class:`skfunc._blocks.Float32Product`.
 
     Both products run chunk by chunk, so X is read once and the (rows, K)
     intermediate stays small. An extra column of ones in ``first_T`` gives
@@ -80,11 +89,17 @@ def _products(X, first_T, second_T=None):
     n, m = X.shape
     extended = np.column_stack([first_T, np.ones(m)])
     width = first_T.shape[1] if second_T is None else second_T.shape[1]
-    out = np.empty((n, width))
+    out = np.empty((n, width), dtype=dtype)
     missing = np.empty(n, dtype=bool)
+    if dtype == np.float32:
+        first = Float32Product(X, extended)
+        second_T = None if second_T is None else second_T.astype(np.float32)
+    else:
+        def first(block):
+            return np.asarray(block, dtype=np.float64) @ extended
     for part in row_blocks(n, m):
         with np.errstate(invalid="ignore", over="ignore"):  # inf is flagged
-            coef = np.asarray(X[part], dtype=np.float64) @ extended
+            coef = first(X[part])
         missing[part] = ~np.isfinite(coef[:, -1])
         if second_T is None:
             out[part] = coef[:, :-1]
@@ -373,8 +388,8 @@ class PenalizedFitMixin:
 
 
 @fill_doc
-class CurveSmoother(PenalizedFitMixin, AdditiveTransformerMixin, TransformerMixin,
-                    BaseEstimator):
+class CurveSmoother(ChannelwiseMixin, PenalizedFitMixin, AdditiveTransformerMixin,
+                    TransformerMixin, BaseEstimator):
     """Smooth sampled curves with a roughness penalty chosen from the data.
 
     Each row of ``X`` is a curve sampled on a grid, possibly with missing
@@ -419,7 +434,7 @@ class CurveSmoother(PenalizedFitMixin, AdditiveTransformerMixin, TransformerMixi
         Points at which :meth:`transform` evaluates the smoothed curves
         (resampling); strictly increasing and inside the fitted grid's
         domain. None means the fitted grid.
-    %(grid)s
+    %(grid_channels)s
     quadrature : {"trapezoid", "simpson"}, default="trapezoid"
         Quadrature rule of the weights with ``data_term="integral"``.
 
@@ -440,6 +455,7 @@ class CurveSmoother(PenalizedFitMixin, AdditiveTransformerMixin, TransformerMixi
         Values (or derivatives of order ``derivative``) of the basis
         functions at ``eval_points_``.
     %(n_samples_seen)s
+    %(channelwise_attributes)s
     %(curve_input_attributes)s
 
     See Also
@@ -521,6 +537,9 @@ class CurveSmoother(PenalizedFitMixin, AdditiveTransformerMixin, TransformerMixi
     #: fit runs on skfunc._dask.compute_statistics, so dask arrays are accepted
     _accepts_dask = True
 
+    #: with channels, these may be mappings {channel: value}
+    _channel_params = ("eval_points", "interior_knots")
+
     _parameter_constraints = {
         **BASIS_CONSTRAINTS,
         **ALPHA_CONSTRAINTS,
@@ -599,14 +618,18 @@ class CurveSmoother(PenalizedFitMixin, AdditiveTransformerMixin, TransformerMixi
             A lazy dask array when X is one.
         """
         check_is_fitted(self)
+        if hasattr(self, "channel_estimators_"):
+            return self._per_channel(X, "transform")
         X = self._validate_fast(X)
-        return apply_rows(self._smooth, X, self.evaluation_.shape[0])
+        return apply_rows(self._smooth, X, self.evaluation_.shape[0], dtype=output_dtype(X))
 
     def _smooth(self, X):
         """The smoothed curves of validated in-memory rows."""
         if self.per_curve:
-            return chunked_matmul(self._per_curve(X)[0], self.evaluation_.T)
-        out, missing = _products(X, self.projection_.T, self.evaluation_.T)
+            return chunked_matmul(self._per_curve(X)[0], self.evaluation_.T,
+                                  dtype=output_dtype(X))
+        out, missing = _products(X, self.projection_.T, self.evaluation_.T,
+                                 output_dtype(X))
         if missing.any():
             rows = np.flatnonzero(missing)
             scale = power_of_two_scale(X[rows])
@@ -626,10 +649,13 @@ class CurveSmoother(PenalizedFitMixin, AdditiveTransformerMixin, TransformerMixi
 
         Returns
         -------
-        alphas : ndarray of shape (n_samples,)
-            A lazy dask array when X is one.
+        alphas : ndarray of shape (n_samples,) or (n_samples, n_channels)
+            A lazy dask array when X is one; with channels, one column per
+            channel.
         """
         check_is_fitted(self)
+        if hasattr(self, "channel_estimators_"):
+            return self._per_channel(X, "choose_alphas", columns=True)
         return apply_rows(self._chosen_alphas, self._validate_fast(X))
 
     def _chosen_alphas(self, X):
@@ -680,6 +706,8 @@ class CurveSmoother(PenalizedFitMixin, AdditiveTransformerMixin, TransformerMixi
         feature_names_out : ndarray of str objects
         """
         check_is_fitted(self)
+        if hasattr(self, "channel_estimators_"):
+            return self._channel_feature_names(input_features)
         names = _check_feature_names_in(self, input_features, generate_names=False)
         if self.eval_points is None and names is not None:
             return np.asarray(names, dtype=object)

@@ -56,7 +56,7 @@ from ._alpha import (
     choose_alpha,
 )
 from ._bases import BSplineBasis, default_n_basis, gram_sqrt
-from ._blocks import row_blocks
+from ._blocks import output_dtype, row_blocks
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._fit import AdditiveTransformerMixin
@@ -847,7 +847,8 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
             ``E[xi_k | observations]`` under the fitted model (the best
             linear predictor).
         """
-        return self._conditional(self._validate(X))[0]
+        X = self._validate(X)
+        return self._conditional(X)[0].astype(output_dtype(X), copy=False)
 
     def predict_curves(self, X, *, level=0.95, eval_points=None):
         """Predicted whole curves with pointwise bands.

@@ -6,6 +6,7 @@ their basis parameters' constraints from :data:`BASIS_CONSTRAINTS` and build
 their basis with :func:`basis_for`.
 """
 
+from collections.abc import Mapping
 from numbers import Integral, Real
 
 import numpy as np
@@ -15,6 +16,7 @@ from sklearn.utils.validation import validate_data
 
 from ._bases import BASES, default_n_basis, default_period, make_basis
 from ._blocks import is_dask_array
+from ._channels import channel_basis, check_channels, set_channels
 from ._dask import validate_dask
 from ._grid import QUADRATURES, check_grid, grid_from_labels, resolve_grid
 
@@ -27,7 +29,8 @@ BASIS_CONSTRAINTS = {
     "interior_knots": ["array-like", None],
     "penalty_order": [Interval(Integral, 0, None, closed="left")],
     "period": [Interval(Real, 0, None, closed="neither"), None],
-    "grid": ["array-like", None],
+    # a mapping {channel: grid} declares several channels (skfunc._channels)
+    "grid": ["array-like", Mapping, None],
     "quadrature": [StrOptions(set(QUADRATURES))],
 }
 
@@ -70,11 +73,14 @@ def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
                             n_covariates=n_covariates, **check_params)
         if reset:
             n_points = estimator.n_features_in_ - n_covariates
-            estimator.grid_ = resolve_grid(getattr(estimator, "grid", None), None,
-                                           n_points)
+            if not set_channels(estimator, None, n_points, n_covariates):
+                estimator.grid_ = resolve_grid(getattr(estimator, "grid", None), None,
+                                               n_points)
         return out
     X_in = X
     labels = getattr(X_in, "columns", None)
+    if getattr(labels, "nlevels", 1) > 1:  # (channel, time): read by _channels
+        labels = None
     if labels is not None and n_covariates:
         n_curve = len(labels) - n_covariates
         # too few curve columns: left to the clear error below
@@ -129,9 +135,11 @@ def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
                 "values to be represented."
             )
     if reset:
-        grid = getattr(estimator, "grid", None)
-        estimator.grid_ = resolve_grid(grid if grid is not None else inferred, X, n_points)
-    else:
+        if not set_channels(estimator, X_in, n_points, n_covariates):
+            grid = getattr(estimator, "grid", None)
+            estimator.grid_ = resolve_grid(grid if grid is not None else inferred, X,
+                                           n_points)
+    elif not check_channels(estimator, X_in, n_covariates):
         check_labels(estimator, inferred, estimator.grid_, "X", "grid")
     return out
 
@@ -180,6 +188,15 @@ def check_batch_grid(estimator, grid_param="grid", grid_attr="grid_"):
     """A later ``partial_fit`` batch: the grid parameter must still give the
     fitted grid."""
     grid = getattr(estimator, grid_param, None)
+    if isinstance(grid, Mapping):  # channels: their grids side by side
+        if [str(name) for name in grid] != getattr(estimator, "channel_names_", None):
+            raise ValueError(
+                f"partial_fit of {type(estimator).__name__} got channels "
+                f"{list(grid)} in {grid_param}, but its earlier calls had "
+                f"{getattr(estimator, 'channel_names_', 'one curve per row')}; all "
+                "batches must have the same channels (call fit to start afresh)."
+            )
+        grid = np.concatenate([np.asarray(g, dtype=np.float64) for g in grid.values()])
     if grid is not None:
         fitted = getattr(estimator, grid_attr)
         grid = np.asarray(grid, dtype=np.float64)
@@ -234,12 +251,22 @@ def basis_for(estimator, grid, cap=True):
 
     Reads ``basis``, ``n_basis``, ``degree``, ``interior_knots`` and ``period``
     (Fourier; None means :func:`skfunc._bases.default_period` of the grid)
-    from the estimator.
+    from the estimator. For an estimator fitted with channels and its
+    ``grid_``, the block-diagonal :class:`skfunc._channels.ChannelBasis` of
+    the channels' bases, each built by this rule on its own grid.
     With ``n_basis=None`` on a grid of fewer than ``degree + 1`` points, the
     B-spline degree is lowered to ``n_points - 1`` (the polynomial through the
     points): the adaptive default serves tiny grids, while an explicit
     ``n_basis`` the degree cannot support stays an error.
     """
+    sizes = getattr(estimator, "channel_sizes_", None)
+    if sizes is not None and np.shape(grid) == np.shape(estimator.grid_) \
+            and np.array_equal(grid, estimator.grid_):
+        return channel_basis(_single_basis_for, estimator, cap)
+    return _single_basis_for(estimator, grid, cap)
+
+
+def _single_basis_for(estimator, grid, cap):
     grid = check_grid(grid)
     name = estimator.basis
     degree = getattr(estimator, "degree", 3)

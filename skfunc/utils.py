@@ -1,6 +1,8 @@
 """Utilities for working with skfunc's estimators."""
 
-__all__ = ["all_estimators"]
+from ._batches import partial_fit_batches
+
+__all__ = ["all_estimators", "partial_fit_batches"]
 
 #: the public modules that export estimators
 _ESTIMATOR_MODULES = ("preprocessing", "decomposition", "linear_model", "alignment",

@@ -215,6 +215,7 @@ def test_elastic_recovers_a_known_warp():
     assert l2(t, t - gamma) > 3e-2
 
 
+@pytest.mark.slow
 def test_karcher_mean_recovers_the_bump():
     # warped copies of one bump (warps averaging to the identity): the
     # Karcher mean is the bump again; the cross-sectional mean is flattened
@@ -288,6 +289,7 @@ def test_landmark_resolution_invariance():
         assert np.max(l2(common, w - warps[0])) < 5e-3
 
 
+@pytest.mark.slow
 def test_elastic_resolution_invariance():
     common = np.linspace(0, 1, 101)
     a = np.array([-0.5, -0.1, 0.2, 0.4])
@@ -306,6 +308,7 @@ def test_elastic_resolution_invariance():
 # -- scikit-learn integration ---------------------------------------------------
 
 
+@pytest.mark.slow
 def test_pipeline_and_grid_search_over_penalty():
     rng = np.random.default_rng(5)
     t = np.linspace(0, 1, 40)

@@ -210,6 +210,7 @@ def test_choose_alpha_fixed_and_candidates(rng):
 
 
 @pytest.mark.parametrize("basis", ["default", "40", "every point"])
+@pytest.mark.slow
 def test_gcv_with_mean_data_term_matches_scipy_smoothing_spline(scipy_smoothing, basis):
     # Reference: scipy.interpolate.make_smoothing_spline with lam=None (its GCV,
     # Craven & Wahba 1979) on an uneven grid (70 points on [0, 0.3], 30 on

@@ -522,13 +522,41 @@ def test_extreme_scales_give_the_unit_scale_fit(name, defaults, factors):
     np.testing.assert_allclose(big.coef_function_ * (a / b), unit.coef_function_,
                                rtol=1e-8, atol=1e-8 * np.abs(unit.coef_function_).max())
     # a number that does not fit in float64 in the data's units (a variance
-    # of y near 1e300 is near 1e600) is inf, and the fit says so
-    overflow = [str(w.message) for w in caught if "overflow" in str(w.message)]
+    # of y near 1e300 is near 1e600, of y near 1e-300 near 1e-600) is inf or
+    # 0, and the fit says so, naming it
+    said = " ".join(str(w.message) for w in caught)
     for attribute in ("noise_variance_", "coef_covariance_", "criterion_path_"):
-        value = getattr(big, attribute, None)
-        if value is None or np.all(np.isfinite(value)):
+        value, reference = getattr(big, attribute, None), getattr(unit, attribute, None)
+        if value is None or reference is None:
             continue
-        assert overflow, f"{attribute} overflowed without a warning"
+        value, reference = np.asarray(value), np.asarray(reference)
+        if not np.all(np.isfinite(value)):
+            assert "overflow" in said and attribute in said, attribute
+        if np.any((value == 0) & (reference != 0)):
+            assert "underflows" in said and attribute in said, attribute
+
+
+@pytest.mark.filterwarnings("ignore::skfunc._alpha.AlphaAtEdgeWarning")
+@pytest.mark.filterwarnings("ignore:.*underflows float64:RuntimeWarning")
+@pytest.mark.parametrize("factors", [(1e150, 1e150), (1e-170, 1e-300)], ids=str)
+@pytest.mark.parametrize("params", [{"criterion": "loo"}, {"cv": 3}], ids=["loo", "kfold"])
+def test_cross_validation_criteria_at_extreme_scales(params, factors):
+    # FunctionalRidgeCV's in-memory criteria (leave-one-out, K-fold) read
+    # the design row by row; they work on the same powers of two as the
+    # statistics, so the choice and the fit are the unit-scale ones (1e-8,
+    # as above) and the criterion path is in y's units (times b^2: a mean
+    # squared error; 1e-300^2 underflows to 0, with a warning, so only the
+    # 1e150 path is compared: (1e150)^2 = 1e300 is still finite)
+    a, b = factors
+    estimator, X, y, _ = make_case("FunctionalRidgeCV", GRID)
+    estimator.set_params(**params)
+    unit = clone(estimator).fit(X, y)
+    big = clone(estimator).fit(X * a, y * b)
+    assert big.alpha_ == unit.alpha_
+    np.testing.assert_allclose(big.predict(X * a) / b, unit.predict(X), rtol=1e-8)
+    if b > 1:
+        np.testing.assert_allclose(big.criterion_path_ / b**2, unit.criterion_path_,
+                                   rtol=1e-8)
 
 
 @pytest.mark.filterwarnings("ignore::skfunc._alpha.AlphaAtEdgeWarning")
@@ -635,6 +663,7 @@ def _advice(call):
     return str(info.value)
 
 
+@pytest.mark.slow
 def test_smoother_null_space_advice_is_penalty_order_not_alpha():
     # alpha > 0 already: three observed values 1e-4 apart cannot fix the
     # quadratics a third-derivative penalty leaves free (the message used to

@@ -22,6 +22,10 @@ from skfunc.persistence import load_model, save_model, skfunc_types
 from skfunc.utils import all_estimators
 
 NAMES = [name for name, _ in all_estimators()]
+#: the same names, with the estimators whose fits take seconds here (the
+#: elastic aligner's dynamic program) kept for the full run
+NAMES_SLOW_MARKED = [pytest.param(name, marks=pytest.mark.slow)
+                    if name == "ElasticAligner" else name for name in NAMES]
 
 #: the reference sampling and two coarser ones of [0, 1]
 FINE = np.linspace(0, 1, 1001)
@@ -43,7 +47,7 @@ def _fit(name, grid, **extra):
     return estimator.fit(X, y), X, y, output
 
 
-@pytest.mark.parametrize("name", NAMES)
+@pytest.mark.parametrize("name", NAMES_SLOW_MARKED)
 def test_resolution_invariance(name):
     # Integrals replace sums, so results on 201 points (even or uneven)
     # agree with those on 1001 points within the composite trapezoid rule's
@@ -228,7 +232,7 @@ def _unit_case(name, alpha, moved):
 
 
 @pytest.mark.parametrize("alpha", [None, "auto"], ids=["fixed", "auto"])
-@pytest.mark.parametrize("name", NAMES)
+@pytest.mark.parametrize("name", NAMES_SLOW_MARKED)
 def test_unit_invariance(name, alpha):
     # The unit-free alpha (docs/bases_and_penalties.rst): a grid in other
     # units and origin (t -> -3 + 250 t), X times 1e3 and curve responses times
@@ -294,3 +298,85 @@ def test_integer_weights_equal_duplicated_rows(name):
     if hasattr(weighted, "confidence_band"):
         for a, b in zip(weighted.confidence_band(), duplicated.confidence_band()):
             np.testing.assert_allclose(a, b, rtol=1e-8, atol=1e-12)
+
+
+# ---------------------------------------------------------------------------
+# float32 in, float32 out
+# ---------------------------------------------------------------------------
+
+def _output_method(estimator):
+    """The method whose output keeps float32: transform, else predict.
+    Classifiers and outlier detectors are left out: their outputs
+    (probabilities, labels, outlyingness) are float64 whatever X is."""
+    from sklearn.base import is_classifier, is_outlier_detector
+
+    if is_classifier(estimator) or is_outlier_detector(estimator):
+        return None
+    return "transform" if hasattr(estimator, "transform") else "predict"
+
+
+FLOAT32_NAMES = [n for n, cls in all_estimators() if _output_method(cls()) is not None]
+
+#: relative error of float32 outputs against the float64 ones: float32's
+#: unit roundoff is 2^-24 ~ 6e-8 (IEEE 754), a sum of m products errs by about
+#: sqrt(m) of it in practice (Higham, Accuracy and Stability of Numerical
+#: Algorithms, ch. 3; from memory), 1.5e-6 for m = 600 points; 1e-5 is what
+#: float32 results promise (docs/performance.rst). A plain float32 product of
+#: curves near 1200 loses about 1200 / (their spread) times more: 2.7e-4 on
+#: the shifted data below (measured), which fails.
+FLOAT32_RTOL = 1e-5
+
+
+def _float32_case(name, shift):
+    """Two fresh estimators of the case, and its data with the curves (or,
+    for curve responses of scalars, the responses) moved by ``shift``."""
+    est64, X, y, _ = make_case(name, EVEN)
+    est32 = make_case(name, EVEN)[0]
+    if ESTIMATOR_CASES[name]["curve_input"]:
+        X = X + shift
+    else:
+        y = y + shift
+    template = est64.get_params().get("template")
+    if template is not None:  # a template is a curve: in X's units
+        for est in (est64, est32):
+            est.set_params(template=np.asarray(template) + shift)
+    return est64, est32, X, y
+
+
+@pytest.mark.parametrize("shift", [0.0, 1200.0], ids=["centered", "mean-1200"])
+@pytest.mark.parametrize("name", FLOAT32_NAMES)
+def test_float32_in_float32_out(name, shift):
+    # float32 curves (half the memory of float64) give float32 transforms and
+    # predictions, within FLOAT32_RTOL of the float64 computation on the same
+    # values: the fit's statistics are accumulated in float64, and products
+    # of curves with a large mean (kiln temperatures near 1200) are centered
+    # before they are rounded to float32.
+    est64, est32, X, y = _float32_case(name, shift)
+    X32 = X.astype(np.float32)
+    X64 = X32.astype(np.float64)  # the same values
+    method = _output_method(est64)
+    expected = getattr(est64.fit(X64, y), method)(X64)
+    got = getattr(est32.fit(X32, y), method)(X32)
+    assert got.dtype == np.float32
+    assert expected.dtype == np.float64
+    assert _relative(got, expected) < FLOAT32_RTOL
+
+
+@pytest.mark.parametrize("name", ["BasisFeatures", "CurveSmoother", "FunctionalPCA",
+                                  "FunctionalRidge", "FunctionalRidgeCV", "ShiftAligner"])
+def test_float32_on_kiln_runs(name):
+    # The kiln runs (temperatures from ambient to 1250 degC over 600 minutes)
+    # at each estimator's defaults: float32 outputs within FLOAT32_RTOL of
+    # float64 on the same values.
+    from skfunc.datasets import make_kiln_firing
+
+    runs = make_kiln_firing(100, dropout_fraction=0.0, random_state=0)
+    X32 = np.asarray(runs.data, dtype=np.float32)
+    X64 = X32.astype(np.float64)
+    cls = dict(all_estimators())[name]
+    method = _output_method(cls())
+    grid = np.arange(X32.shape[1], dtype=float)
+    expected = getattr(cls(grid=grid).fit(X64, runs.target), method)(X64)
+    got = getattr(cls(grid=grid).fit(X32, runs.target), method)(X32)
+    assert got.dtype == np.float32
+    assert _relative(got, expected) < FLOAT32_RTOL

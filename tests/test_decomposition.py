@@ -87,6 +87,7 @@ def test_fraction_of_variance_matches_sklearn(rng):
     [((600, 50), 5), ((100, 50), 5), ((600, 520), 5), ((600, 520), 450),
      ((100, 600), None), ((100, 600), 0.5)],
 )
+@pytest.mark.slow
 def test_auto_solver_choice_matches_sklearn(rng, shape, n_components):
     # Source: sklearn.decomposition.PCA's "auto" rule (its _fit_svd_solver
     # after fit); FunctionalPCA documents the same rule.
@@ -204,6 +205,7 @@ def test_partial_fit_continues_a_fit(rng):
 
 
 # -------------------------------------------------------------- solvers
+@pytest.mark.slow
 def test_randomized_solver_honours_random_state(rng):
     t = np.linspace(0, 1, 300)
     X = low_rank_curves(rng, 400, t, rank=10, noise=1e-3)
@@ -219,6 +221,7 @@ def test_randomized_solver_honours_random_state(rng):
                                rtol=1e-3)
 
 
+@pytest.mark.slow
 def test_sign_convention_is_the_same_for_every_solver(rng):
     t = np.linspace(0, 1, 120)
     X = low_rank_curves(rng, 300, t, rank=5, noise=0.01)

@@ -36,8 +36,11 @@ def demo_run(tmp_path_factory):
 @pytest.mark.slow
 def test_demo_runs_saves_and_draws(demo_run):
     folder, out, _ = demo_run
-    progress = [line for line in out.splitlines() if line.startswith("[")]
+    progress = [line for line in out.splitlines() if line[:1] == "[" and line[1].isdigit()]
     assert [line[:5] for line in progress] == [f"[{i}/8]" for i in range(1, 9)]
+    # the runs' components fitted from a file in 4 batches, with progress
+    batches = [line for line in out.splitlines() if line.startswith("[partial_fit_batches]")]
+    assert len(batches) == 5 and "batch 4/4" in batches[3] and "left" in batches[0]
     assert "baseline RidgeCV" in out and "cross-validated R^2" in out
     # the other-kilns table: RidgeCV refuses the other grids, with its own error
     assert "New runs logged by other kilns" in out

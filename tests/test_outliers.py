@@ -162,6 +162,7 @@ def test_magnitude_shape_score_is_minus_robust_distance():
     np.testing.assert_allclose(detector.offset_, -chi2.ppf(0.993, 2))
 
 
+@pytest.mark.slow
 def test_kinds_of_planted_outliers():
     rng = np.random.default_rng(3)
     t = np.linspace(0, 1, 60)

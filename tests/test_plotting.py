@@ -299,6 +299,7 @@ def _every_display(kiln, fpca):
     }
 
 
+@pytest.mark.slow
 def test_every_display_is_labelled_unclipped_and_keeps_legends_off_the_curves(
         tmp_path):
     kiln, fpca = _kiln_fpca_and_curves()

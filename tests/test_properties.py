@@ -16,7 +16,8 @@ splits, the weights and the constants, for every estimator of
 * sample weights as frequencies: weight k equals k copies of the row;
 * ``partial_fit`` over any split into blocks equals ``fit``;
 * resolution invariance on drawn uneven grids;
-* unit invariance under ``t -> a + c t``, ``X -> s X`` for drawn a, c, s;
+* unit invariance under ``t -> a + c t``, ``X -> s X`` for drawn a, c, s
+  (FunctionalPCA's smoothing alpha included);
 * idempotent projections: smoothing a smoothed curve at alpha = 0 returns
   it; ``inverse_transform(transform(.))`` of BasisFeatures (alpha = 0) and
   FunctionalPCA is a projection;
@@ -320,8 +321,19 @@ _IN_X_UNITS = ("CurveSmoother", "BasisFeatures", "FunctionalPCA", "ShiftAligner"
                "FunctionOnFunctionRidge", "ConcurrentFunctionRidge")
 
 
-@pytest.mark.parametrize("name", _names(lambda n: n != "SparseFunctionalPCA",
-                                        fast="FunctionalRidgeCV"))
+#: known failures (none: FunctionOnFunctionRidge at t -> 0.26 t once dropped
+#: a data direction 1e-6 below the largest, when SplitPath's rounding level
+#: read the intercept block's diagonal)
+_UNIT_FAILURES: dict = {}
+
+
+def _unit_names():
+    return [pytest.param(*p.values, marks=[*p.marks, _UNIT_FAILURES[p.values[0]]])
+            if not isinstance(p, str) and p.values[0] in _UNIT_FAILURES else p
+            for p in _names(lambda n: n != "SparseFunctionalPCA", fast="FunctionalRidgeCV")]
+
+
+@pytest.mark.parametrize("name", _unit_names())
 @FEW
 @given(shift=st.floats(-100, 100), stretch=st.floats(-3, 3), scale=st.floats(-3, 3),
        auto=st.booleans())
@@ -337,8 +349,8 @@ def test_unit_invariance_for_drawn_units(name, shift, stretch, scale, auto):
     grid = np.linspace(0, 1, 51)
     base, X, y = _case(name, grid)
     params = {}
-    if auto and "alpha" in base.get_params() and name != "FunctionalPCA":
-        params["alpha"] = "auto"  # FunctionalPCA has no automatic choice
+    if auto and "alpha" in base.get_params():
+        params["alpha"] = "auto"
     if name == "CurveSmoother":
         params["eval_points"] = None
     base.set_params(**params).fit(X, y)
@@ -486,20 +498,21 @@ def test_sparse_fpca_components_are_l2_orthonormal(seed, n_components):
 @FEW
 @given(stretch=st.floats(-2, 2), scale=st.floats(-3, 3), alpha=st.floats(1e-6, 1e-2),
        seed=curves_seed)
-def test_fpca_smoothing_alpha_has_units_of_t_to_the_2q(stretch, scale, alpha, seed):
-    # FunctionalPCA's alpha is documented in units of t^(2q) (its roughness
-    # term alpha ||D^q phi||^2 against ||phi||^2): on the grid c t with X
-    # times s, alpha c^(2q) gives the same components (up to the 1/sqrt(c) of
-    # L2 normalisation on a c times longer domain) and the same
-    # reconstructions in X's units, to rounding (1e-8). Leaving alpha as it
-    # is changes the smoothing by c^4 and fails for c far from 1.
+def test_fpca_smoothing_alpha_is_unit_free(stretch, scale, alpha, seed):
+    # FunctionalPCA's alpha is documented unit-free (both norms on the
+    # domain mapped to [0, 1]): on the grid c t with X times s, the same
+    # alpha gives the same components (up to the 1/sqrt(c) of L2
+    # normalisation on a c times longer domain) and the same reconstructions
+    # in X's units, to rounding (1e-8). A penalty in the grid's own units
+    # changes the smoothing by c^4 and fails for c far from 1 (measured: 0.45
+    # relative at c = 10^1.5, alpha = 1e-4).
     c, s = 10.0 ** stretch, 10.0 ** scale
     grid = np.linspace(0, 1, 41)
     X = _curves(grid, seed, n=20)
     base = FunctionalPCA(n_components=3, basis="bspline", n_basis=12, alpha=alpha,
                          grid=grid).fit(X)
-    moved = FunctionalPCA(n_components=3, basis="bspline", n_basis=12,
-                          alpha=alpha * c ** 4, grid=c * grid).fit(X * s)
+    moved = FunctionalPCA(n_components=3, basis="bspline", n_basis=12, alpha=alpha,
+                          grid=c * grid).fit(X * s)
     _assert_close(moved.components_ * np.sqrt(c), base.components_, 1e-8)
     once = base.inverse_transform(base.transform(X))
     _assert_close(moved.inverse_transform(moved.transform(X * s)) / s, once, 1e-8)

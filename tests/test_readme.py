@@ -3,9 +3,12 @@
 import re
 from pathlib import Path
 
+import pytest
+
 README = Path(__file__).resolve().parents[1] / "README.md"
 
 
+@pytest.mark.slow
 def test_quickstart_runs():
     blocks = re.findall(r"```python\n(.*?)```", README.read_text(), re.S)
     assert blocks, "the README has a python quickstart block"

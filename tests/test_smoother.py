@@ -398,6 +398,7 @@ def test_bad_rows(rng):
         CurveSmoother().fit(X_inf)
 
 
+@pytest.mark.slow
 def test_gcv_on_uneven_grid_as_accurate_as_scipy(scipy_smoothing):
     # Source: scipy.interpolate.make_smoothing_spline with lam=None (GCV per
     # curve) on an uneven grid (70 points on [0, 0.3], 30 on [0.3, 1]) with the

@@ -82,6 +82,7 @@ def simulation_fits():
     return fits
 
 
+@pytest.mark.slow
 def test_recovers_eigenvalues_and_eigenfunctions(simulation_fits):
     # Reference: the true eigenvalues (4, 1) and eigenfunctions of the YMW
     # design above. Target: eigenvalues within 10% and eigenfunctions within
@@ -361,6 +362,7 @@ def test_time_unit_invariance():
     np.testing.assert_allclose(b.noise_variance_, a.noise_variance_, rtol=1e-6)
 
 
+@pytest.mark.slow
 def test_pipeline_to_a_regressor():
     # Sparse curves -> scores -> a scikit-learn model. The outcome is the
     # first true score; the conditional expectation of that score explains

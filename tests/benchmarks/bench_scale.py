@@ -1,19 +1,30 @@
-"""Benchmark of scale: transform memory, fit time against n, Dask overhead.
+"""Benchmark of scale: transform memory, fit time against n, Dask, float32.
 
 1. Memory: ``transform`` of 1,000,000 curves x 200 points (1.6 GB of
    float64) by each fitted transformer, in a fresh process; peak resident
    memory (``VmHWM``) against input + output. Target: below 1.3.
-2. Scaling: ``fit`` time at four sizes n (200 grid points). Target: linear
-   in n, every time within 15% of the least-squares line ``a + b n`` ("off
-   line"); also shown, the time per row relative to the largest n and the
-   ratio to the bare numpy product ``X @ Phi`` (n x 200 by 200 x 20).
+2. Scaling: ``fit`` time of every estimator at four sizes n (200 grid
+   points; each estimator at its own multiple of the sizes, so that its
+   largest fit takes a fraction of a second). Target: linear in n, every
+   time within 5% of the least-squares line ``a + b n`` ("off line"), with
+   a constant ``a`` below 10 ms; also shown, the time per row relative to
+   the largest n and the ratio to the bare numpy product ``X @ Phi``
+   (n x 200 by 200 x 20).
 3. Dask: fit and transform of a chunked dask array on the local thread pool
-   against the in-memory fit and transform (ratio; no target).
+   against the in-memory fit and transform (ratio; no target), and
+   ``FunctionOnFunctionRidge`` fitted on a ``distributed.LocalCluster`` of two
+   single-threaded workers, its data persisted there, against the in-memory
+   fit (target: at most 1.5x) and equal to it within 1e-8.
+4. float32: ``transform`` (``predict``) of 100,000 curves x 500 points stored
+   as float32 against the same values as float64, fitted alike. Target: at
+   most 0.6x the float64 time; shown also on curves with a large mean (near
+   1200), where the products are centered first to keep 1e-5 accuracy.
 
 Usage, from the repository root::
 
     python tests/benchmarks/bench_scale.py           # full sizes
-    python tests/benchmarks/bench_scale.py --quick   # small sizes, a few seconds
+    python tests/benchmarks/bench_scale.py --quick   # small sizes, no cluster: a smoke run
+    python tests/benchmarks/bench_scale.py --only scaling float32   # some sections
 
 Times are the best of a few runs; other processes on the machine inflate
 them, so read the ratios rather than the seconds.
@@ -23,10 +34,11 @@ import argparse
 import json
 import subprocess
 import sys
+import warnings
 from functools import partial
 
 import numpy as np
-from _timing import best_time  # noqa: E402
+from _timing import best_time, best_times  # noqa: E402
 
 from skfunc.utils import all_estimators  # noqa: E402
 
@@ -58,6 +70,27 @@ CASES = {
                           lambda est, X, s, S: est.fit(X, s)),
     "FunctionOnScalarRidge": (lambda cls, t: cls(response_grid=t),
                               lambda est, X, s, S: est.fit(S, X)),
+}
+
+#: the other estimators, for the scaling table only: name -> (estimator on
+#: grid t, how fit is called, sizes as multiples of the base sizes); the call
+#: gets the estimator and the data dict of :func:`scaling_data` cut to n rows
+MORE_CASES = {
+    "FunctionOnFunctionRidge": (lambda cls, t: cls(grid=t, response_grid=t),
+                                lambda est, d: est.fit(d["X"], d["Y"]), 1.0),
+    "ConcurrentFunctionRidge": (lambda cls, t: cls(grid=t),
+                                lambda est, d: est.fit(d["X"], d["Y"]), 1.0),
+    "FunctionalLogisticRegression": (lambda cls, t: cls(grid=t),
+                                     lambda est, d: est.fit(d["X"], d["classes"]), 0.2),
+    "SparseFunctionalPCA": (lambda cls, t: cls(grid=t),
+                            lambda est, d: est.fit(d["sparse"]), 0.5),
+    "ShiftAligner": (lambda cls, t: cls(grid=t), lambda est, d: est.fit(d["X"]), 0.1),
+    "LandmarkAligner": (lambda cls, t: cls(grid=t), lambda est, d: est.fit(d["X"]), 0.1),
+    # the elastic dynamic program costs O(m^2) per curve: 50 points
+    "ElasticAligner": (lambda cls, t: cls(grid=t[::4]),
+                       lambda est, d: est.fit(d["X"][:, ::4]), 0.002),
+    "CurveOutlierDetector": (lambda cls, t: cls(grid=t, random_state=0),
+                             lambda est, d: est.fit(d["X"]), 0.02),
 }
 TRANSFORMERS = ("BasisFeatures", "CurveSmoother", "FunctionalPCA")
 
@@ -125,42 +158,81 @@ def bench_memory(n, names=TRANSFORMERS):
 # ---------------------------------------------------------------------------
 
 
-def bench_scaling(sizes, repeat):
-    t, X_all = smooth_curves(sizes[-1])
+def scaling_data(n):
+    """Curves, their responses and a sparse copy, n rows each."""
+    t, X = smooth_curves(n)
     rng = np.random.default_rng(2)
-    s_all = X_all @ np.exp(-((t - 0.5) ** 2) / 0.02) / M + rng.normal(0, 0.1, sizes[-1])
-    S_all = rng.standard_normal((sizes[-1], 3))
-    phi = np.ascontiguousarray(rng.standard_normal((M, 20)))
-    base = {n: best_time(lambda n=n: X_all[:n] @ phi, repeat) for n in sizes}
-    print(f"\nScaling: fit time against n ({M} grid points); relative distance "
-          "from the line a + b n (target: <= 0.15), per-row time relative to the "
-          "largest n, and fit time / bare X @ Phi (200 x 20)")
-    header = "".join(f"{n:>12,}" for n in sizes)
-    print(f"{'estimator':24s} {'quantity':16s}{header}")
-    print(f"{'numpy X @ Phi':24s} {'seconds':16s}"
-          + "".join(f"{base[n]:12.4f}" for n in sizes))
-    verdicts = {}
+    s = X @ np.exp(-((t - 0.5) ** 2) / 0.02) / M + rng.normal(0, 0.1, n)
+    sparse = np.where(rng.random(X.shape) < 0.03, X, np.nan)  # about 6 points per curve
+    sparse[np.arange(n), rng.integers(0, M, n)] = X[np.arange(n), rng.integers(0, M, n)]
+    return t, {"X": X, "s": s, "S": rng.standard_normal((n, 3)),
+               "Y": X[::-1] + 0.1 * np.cos(3 * t),  # another curve per row
+               "classes": (s > np.median(s)).astype(int), "sparse": sparse}
+
+
+def all_scaling_cases():
+    """name -> (class, make, call on (estimator, data cut to n rows), size factor)."""
+    out = {}
     for name, cls in available(CASES):
-        fit_case(name, cls, t, X_all[: sizes[0]], s_all[: sizes[0]], S_all[: sizes[0]])
-        seconds = dict.fromkeys(sizes, np.inf)
-        for _ in range(repeat):  # interleaved, so load hits every size alike
-            for n in sizes:
-                seconds[n] = min(seconds[n], best_time(partial(
-                    fit_case, name, cls, t, X_all[:n], s_all[:n], S_all[:n]), 1))
-        times = np.array([seconds[n] for n in sizes])
-        per_row = times / np.array(sizes)
-        relative = per_row / per_row[-1]
-        slope, intercept = np.polyfit(sizes, times, 1)
-        deviation = np.abs(times - (intercept + slope * np.array(sizes))) / times
-        verdicts[name] = (bool(deviation.max() <= 0.15), intercept)
-        print(f"{name:24s} {'seconds':16s}" + "".join(f"{seconds[n]:12.4f}" for n in sizes))
-        print(f"{'':24s} {'per row / last':16s}" + "".join(f"{r:12.3f}" for r in relative))
-        print(f"{'':24s} {'off line':16s}" + "".join(f"{d:12.3f}" for d in deviation))
-        print(f"{'':24s} {'/ X @ Phi':16s}"
-              + "".join(f"{seconds[n] / base[n]:12.2f}" for n in sizes))
-    print("linear in n (every time within 15% of the least-squares line a + b n): "
-          + ", ".join(f"{name} {'yes' if ok else 'NO'} (a = {a * 1e3:.1f} ms)"
-                      for name, (ok, a) in verdicts.items()))
+        make, call = CASES[name]
+        out[name] = (cls, make, (lambda est, d, call=call: call(est, d["X"], d["s"], d["S"])),
+                     1.0)
+    for name, cls in available(MORE_CASES):
+        make, call, factor = MORE_CASES[name]
+        out[name] = (cls, make, call, factor)
+    return out
+
+
+def _rows(data, n):
+    return {key: value[:n] for key, value in data.items()}
+
+
+def bench_scaling(sizes, repeat, names=None):
+    """Fit time against n for every estimator (each at its own multiple of
+    ``sizes``); least-squares line a + b n; verdict: every time within 5% of
+    the line and a below 10 ms."""
+    cases = all_scaling_cases()
+    if names:
+        cases = {k: v for k, v in cases.items() if k in names}
+    t, data = scaling_data(sizes[-1])
+    phi = np.ascontiguousarray(np.random.default_rng(2).standard_normal((M, 20)))
+    base = {n: best_time(lambda n=n: data["X"][:n] @ phi, repeat) for n in sizes}
+    print(f"\nScaling: fit time against n ({M} grid points; each estimator at its own "
+          "multiple of the sizes); relative distance from the least-squares line "
+          "a + b n (target: <= 0.05, a < 10 ms), per-row time relative to the "
+          "largest n, and fit time / bare X @ Phi (200 x 20) at the same n")
+    print(f"{'numpy X @ Phi':24s} {'n':16s}" + "".join(f"{n:>12,}" for n in sizes))
+    print(f"{'':24s} {'seconds':16s}" + "".join(f"{base[n]:12.4f}" for n in sizes))
+    verdicts = {}
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")  # edge and convergence notices of some sizes
+        for name, (cls, make, call, factor) in cases.items():
+            # at least 8, 16, 32, 64 rows: distinct sizes even for small factors
+            ns = [max(8 << i, int(round(n * factor))) for i, n in enumerate(sizes)]
+            call(make(cls, t), _rows(data, ns[0]))  # warm-up
+            seconds = dict.fromkeys(ns, np.inf)
+            for _ in range(repeat):  # interleaved, so load hits every size alike
+                for n in ns:
+                    cut = _rows(data, n)
+                    seconds[n] = min(seconds[n], best_time(
+                        partial(call, make(cls, t), cut), 1))
+            times = np.array([seconds[n] for n in ns])
+            per_row = times / np.array(ns)
+            slope, intercept = np.polyfit(ns, times, 1)
+            deviation = np.abs(times - (intercept + slope * np.array(ns))) / times
+            verdicts[name] = (bool(deviation.max() <= 0.05 and intercept < 0.010),
+                              intercept, deviation.max())
+            print(f"{name:24s} {'n':16s}" + "".join(f"{n:12,}" for n in ns))
+            print(f"{'':24s} {'seconds':16s}" + "".join(f"{seconds[n]:12.4f}" for n in ns))
+            print(f"{'':24s} {'per row / last':16s}"
+                  + "".join(f"{r:12.3f}" for r in per_row / per_row[-1]))
+            print(f"{'':24s} {'off line':16s}" + "".join(f"{d:12.3f}" for d in deviation))
+            if factor == 1.0:
+                print(f"{'':24s} {'/ X @ Phi':16s}"
+                      + "".join(f"{seconds[n] / base[n]:12.2f}" for n in sizes))
+    print("linear in n (every time within 5% of the line a + b n, a < 10 ms): "
+          + "; ".join(f"{name} {'yes' if ok else 'NO'} (a = {a * 1e3:.1f} ms, "
+                      f"off line {d:.3f})" for name, (ok, a, d) in verdicts.items()))
     return verdicts
 
 
@@ -193,23 +265,123 @@ def bench_dask(n, repeat):
                   f"{tr_np:12.4f} {tr_da:8.4f} {tr_da / tr_np:7.2f}")
 
 
+# ---------------------------------------------------------------------------
+# 3b. FunctionOnFunctionRidge on a distributed LocalCluster
+# ---------------------------------------------------------------------------
+
+
+def bench_cluster(n, repeat):
+    try:
+        import dask.array as da
+        import distributed
+    except ImportError:
+        print("\nLocalCluster: dask.distributed not installed, skipped")
+        return
+    present = dict(all_estimators())
+    cls = present["FunctionOnFunctionRidge"]
+    t, X = smooth_curves(n)
+    Y = X[::-1] + 0.1 * np.cos(3 * t)
+    make = partial(cls, grid=t, response_grid=t)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        cluster = distributed.LocalCluster(n_workers=2, threads_per_worker=1,
+                                           processes=True, host="127.0.0.1",
+                                           dashboard_address=None)
+        client = distributed.Client(cluster)
+    try:
+        chunks = max(1, n // 8)
+        Xd = client.persist(da.from_array(X, chunks=(chunks, M)))
+        Yd = client.persist(da.from_array(np.ascontiguousarray(Y), chunks=(chunks, M)))
+        distributed.wait([Xd, Yd])
+        times = best_times({"memory": lambda: make().fit(X, Y),
+                            "cluster": lambda: make().fit(Xd, Yd)}, repeat)
+        here, there = make().fit(X, Y), make().fit(Xd, Yd)
+        a, b = there.predict(X[:500]), here.predict(X[:500])
+        difference = np.linalg.norm(a - b) / np.linalg.norm(b)
+    finally:
+        client.close()
+        cluster.close()
+    print(f"\nLocalCluster (2 workers x 1 thread): FunctionOnFunctionRidge on {n:,} x {M} "
+          f"curves in 8 blocks persisted on the workers")
+    print(f"{'estimator':24s} {'memory s':>9s} {'cluster s':>10s} {'ratio':>7s} "
+          f"{'rel. diff':>10s}  target: ratio <= 1.5, diff <= 1e-8")
+    print(f"{'FunctionOnFunctionRidge':24s} {times['memory']:9.3f} {times['cluster']:10.3f} "
+          f"{times['cluster'] / times['memory']:7.2f} {difference:10.1e}")
+
+
+# ---------------------------------------------------------------------------
+# 4. float32 against float64
+# ---------------------------------------------------------------------------
+
+FLOAT32_CASES = {
+    "BasisFeatures": (lambda cls, t: cls(n_basis=20, grid=t), "transform"),
+    "CurveSmoother": (lambda cls, t: cls(grid=t), "transform"),
+    "FunctionalPCA": (lambda cls, t: cls(n_components=5, basis="bspline", n_basis=20,
+                                         grid=t), "transform"),
+    "FunctionalRidge": (lambda cls, t: cls(grid=t), "predict"),
+    "FunctionOnFunctionRidge": (lambda cls, t: cls(n_basis=20, grid=t, response_grid=t[::10]),
+                                "predict"),
+}
+
+
+def bench_float32(n, m, repeat):
+    t = np.linspace(0.0, 1.0, m)
+    rng = np.random.default_rng(0)
+    shapes = np.array([np.cos(np.pi * k * t) for k in range(8)])
+    print(f"\nfloat32: transform / predict of {n:,} x {m} curves, float32 time / float64 "
+          "time on the same values (target: <= 0.6), and the float32 result's "
+          "relative error (target: <= 1e-5)")
+    print(f"{'estimator':24s} {'data':10s} {'float64 s':>10s} {'float32 s':>10s} "
+          f"{'ratio':>7s} {'rel. error':>11s}")
+    present = dict(all_estimators())
+    for shift, label in ((0.0, "mean 0"), (1200.0, "mean 1200")):
+        X32 = (rng.standard_normal((n, 8)) @ shapes + 0.1 * rng.standard_normal((n, m))
+               + shift).astype(np.float32)
+        X64 = X32.astype(np.float64)
+        s = X64[:2000] @ np.exp(-((t - 0.5) ** 2) / 0.02) / m
+        for name, (make, method) in FLOAT32_CASES.items():
+            if name not in present:
+                continue
+            target = {"FunctionalRidge": s, "FunctionOnFunctionRidge": X64[:2000, ::10]}
+            est = make(present[name], t).fit(X64[:2000], target.get(name))
+            run = getattr(est, method)
+            times = best_times({"64": partial(run, X64), "32": partial(run, X32)}, repeat)
+            a, b = run(X32), run(X64)
+            assert a.dtype == np.float32
+            error = np.linalg.norm(a - b) / np.linalg.norm(b)
+            print(f"{name:24s} {label:10s} {times['64']:10.4f} {times['32']:10.4f} "
+                  f"{times['32'] / times['64']:7.2f} {error:11.1e}")
+            del a, b
+
+
+SECTIONS = ("memory", "scaling", "dask", "cluster", "float32")
+
+
 def main(argv=None):
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--quick", action="store_true", help="small sizes")
+    parser.add_argument("--only", nargs="+", choices=SECTIONS, help="these sections")
+    parser.add_argument("--names", nargs="+", help="scaling: only these estimators")
     parser.add_argument("--memory-child", nargs=2, metavar=("NAME", "N"),
                         help=argparse.SUPPRESS)
     args = parser.parse_args(argv)
     if args.memory_child:
         memory_child(args.memory_child[0], int(args.memory_child[1]))
         return
+    run = set(args.only or SECTIONS)
     if args.quick:
-        bench_memory(50_000, names=TRANSFORMERS[:1])
-        bench_scaling([2_500, 5_000, 10_000, 20_000], repeat=1)
-        bench_dask(20_000, repeat=1)
+        "memory" in run and bench_memory(50_000, names=TRANSFORMERS[:1])
+        "scaling" in run and bench_scaling([500, 1_000, 2_000, 4_000], 1, args.names)
+        "dask" in run and bench_dask(20_000, repeat=1)
+        if "cluster" in run:  # starting worker processes is most of a smoke run
+            print("\nLocalCluster: skipped with --quick (tests/test_dask.py runs one)")
+        "float32" in run and bench_float32(5_000, 500, repeat=1)
     else:
-        bench_memory(1_000_000)
-        bench_scaling([25_000, 50_000, 100_000, 200_000], repeat=5)
-        bench_dask(200_000, repeat=3)
+        "memory" in run and bench_memory(1_000_000)
+        "scaling" in run and bench_scaling([25_000, 50_000, 100_000, 200_000], 5, args.names)
+        "dask" in run and bench_dask(200_000, repeat=3)
+        "cluster" in run and bench_cluster(200_000, repeat=3)
+        "float32" in run and bench_float32(100_000, 500, repeat=5)
 
 
 if __name__ == "__main__":

@@ -1,0 +1,687 @@
+"""Several channels per sample: the layout, its validation and the composite
+basis that lets the single-channel engine fit them.
+
+A sample logs several signals at once (a kiln's temperature and its oxygen
+level). ``X`` stays 2-D: the channels' columns side by side, channel by
+channel, each channel on its own grid and domain. The layout is declared
+
+* by ``grid`` given as a mapping ``{channel name: grid}`` (in column order), or
+* by DataFrame columns keyed by ``(channel, time)`` (a two-level
+  ``pandas.MultiIndex``, as :func:`skfunc.irregular.curves_from_table`
+  returns with ``channel=``); each channel's times are its grid.
+
+Fitted state stays plain: ``grid_`` is the channels' grids concatenated
+(one point per curve column), ``channel_names_`` (list of str) and
+``channel_sizes_`` (list of int) cut it into channels.
+
+How the estimators use it:
+
+* coupled fits (FunctionalRidge, FunctionalRidgeCV,
+  FunctionalLogisticRegression, FunctionalPCA) see one curve on the
+  concatenated grid, expanded in :class:`ChannelBasis`, the block-diagonal
+  composite of the channels' own bases (quadrature weights per channel,
+  :func:`curve_weights`). A roughness penalty is one block per channel, each
+  measured on its own unit-free scale (:func:`channel_penalty`), so a change
+  of units of one channel changes no prediction; FunctionalPCA weighs the
+  channels' inner products (:func:`channel_coordinates`);
+* channel-separable transformers (BasisFeatures, CurveSmoother) fit one
+  single-channel estimator per channel (:class:`ChannelwiseMixin`): their
+  problem is block diagonal, so this is the same fit with each channel's own
+  alpha.
+"""
+
+from collections.abc import Mapping
+from numbers import Integral
+
+import numpy as np
+from scipy.linalg import block_diag
+from sklearn.base import clone
+from sklearn.utils.validation import check_is_fitted
+
+from ._docstrings import fill_doc
+from ._grid import check_grid, grid_from_labels, quadrature_weights
+from ._penalized import Penalty, penalty_for, penalty_scale
+
+#: the estimators that accept several channels (named in error messages)
+ACCEPTING = (
+    "BasisFeatures, CurveSmoother, FunctionalPCA, FunctionalRidge, "
+    "FunctionalRidgeCV and FunctionalLogisticRegression"
+)
+
+
+# ---------------------------------------------------------------- the layout
+
+
+def is_channel_grid(grid):
+    """Whether a ``grid`` parameter declares channels (a mapping)."""
+    return isinstance(grid, Mapping)
+
+
+def _multi_columns(X):
+    """The (channel, time) column labels of a DataFrame, or None."""
+    columns = getattr(X, "columns", None)
+    nlevels = getattr(columns, "nlevels", 1) if columns is not None else 1
+    if not isinstance(nlevels, Integral) or nlevels == 1:  # (lazy collections too)
+        return None
+    if columns.nlevels != 2:
+        raise ValueError(
+            f"X has column labels of {columns.nlevels} levels; channels are read "
+            "from two levels, (channel, time)."
+        )
+    return list(columns)
+
+
+def _grid_layout(grid):
+    """Names and checked grids of a ``{channel: grid}`` mapping."""
+    if not grid:
+        raise ValueError("grid is an empty mapping; give at least one channel: "
+                         "{name: grid}.")
+    names, grids = [], []
+    for name, points in grid.items():
+        if not isinstance(name, str):
+            raise TypeError(
+                f"Channel names (the keys of grid) must be strings; got {name!r}."
+            )
+        names.append(name)
+        grids.append(check_grid(points, name=f"grid[{name!r}]"))
+    return names, grids
+
+
+def _label_layout(labels):
+    """Names, per-channel time labels of (channel, time) column labels, in
+    column order; each channel's columns must be contiguous."""
+    names, times = [], []
+    for channel, t in labels:
+        channel = str(channel)
+        if names and channel == names[-1]:
+            times[-1].append(t)
+            continue
+        if channel in names:
+            raise ValueError(
+                f"The columns of channel {channel!r} in X are not side by side: "
+                "order the columns channel by channel (for example "
+                "X.sort_index(axis=1, level=0, sort_remaining=False))."
+            )
+        names.append(channel)
+        times.append([t])
+    return names, times
+
+
+def _describe(names, sizes):
+    return ", ".join(f"{n!r}: {s}" for n, s in zip(names, sizes))
+
+
+def fitted_channels(estimator):
+    """``(names, grids)`` of a fitted multichannel estimator, else None."""
+    sizes = getattr(estimator, "channel_sizes_", None)
+    if sizes is None:
+        return None
+    bounds = np.cumsum([0] + list(sizes))
+    grids = [estimator.grid_[a:b] for a, b in zip(bounds[:-1], bounds[1:])]
+    return list(estimator.channel_names_), grids
+
+
+def set_channels(estimator, X, n_points, n_covariates=0):
+    """At fit: store the channel layout declared by ``grid`` or by X's
+    (channel, time) columns; return False when none is declared.
+
+    Sets ``grid_`` (the channels' grids concatenated), ``channel_names_``
+    and ``channel_sizes_``; a fit without channels removes them.
+    """
+    for attr in ("channel_names_", "channel_sizes_", "channel_weights_"):
+        vars(estimator).pop(attr, None)
+    grid = getattr(estimator, "grid", None)
+    labels = _multi_columns(X)
+    if labels is not None and n_covariates:
+        labels = labels[: len(labels) - n_covariates]
+    if not is_channel_grid(grid) and labels is None:
+        return False
+    name = type(estimator).__name__
+    if not getattr(estimator, "_accepts_channels", False):
+        what = "grid is a mapping of channels" if is_channel_grid(grid) else \
+            "X has (channel, time) column labels"
+        raise ValueError(
+            f"{what}, but {name} takes one curve per row; the estimators that "
+            f"accept several channels are {ACCEPTING}. Fit one {name} per channel "
+            "(select its columns) instead."
+        )
+    if labels is not None:
+        label_names, times = _label_layout(labels)
+    if is_channel_grid(grid):
+        names, grids = _grid_layout(grid)
+        if labels is not None:
+            sizes = [len(t) for t in times]
+            if label_names != names or sizes != [g.size for g in grids]:
+                raise ValueError(
+                    f"The (channel, time) columns of X ({_describe(label_names, sizes)}"
+                    f" columns) do not match the channels of grid "
+                    f"({_describe(names, [g.size for g in grids])} points), in "
+                    "order; give the channels' grids in the order of X's columns."
+                )
+    else:
+        names = label_names
+        grids = []
+        for channel, t in zip(names, times):
+            inferred = grid_from_labels(t)
+            grids.append(
+                check_grid(inferred, name=f"the times of channel {channel!r}")
+                if inferred is not None else np.linspace(0.0, 1.0, len(t))
+            )
+    sizes = [int(g.size) for g in grids]
+    if sum(sizes) != n_points:
+        extra = f" (besides the {n_covariates} covariate column(s))" if n_covariates \
+            else ""
+        raise ValueError(
+            f"X has {n_points} curve column(s){extra}, but the channels declare "
+            f"{sum(sizes)} grid points ({_describe(names, sizes)}); give X one "
+            "column per grid point of each channel, channel by channel."
+        )
+    estimator.grid_ = np.concatenate(grids)
+    estimator.channel_names_ = names
+    estimator.channel_sizes_ = sizes
+    return True
+
+
+def check_channels(estimator, X, n_covariates=0):
+    """After fit: X's (channel, time) labels must match the fitted layout.
+
+    Returns True when the estimator was fitted with channels (the caller
+    skips its single-grid label check), False otherwise.
+    """
+    labels = _multi_columns(X)
+    layout = fitted_channels(estimator)
+    name = type(estimator).__name__
+    if layout is None:
+        if labels is not None:
+            raise ValueError(
+                f"X has (channel, time) column labels, but {name} was fitted on "
+                "one curve per row; pass X as it was at fit."
+            )
+        return False
+    if labels is None:
+        columns = getattr(X, "columns", None)
+        if columns is not None and grid_from_labels(
+                list(columns)[: len(columns) - n_covariates]) is not None:
+            raise ValueError(
+                f"X has plain time labels, but {name} was fitted on channels "
+                f"{layout[0]}; pass (channel, time) column labels or an array "
+                "with the channels' columns side by side."
+            )
+        return True
+    if n_covariates:
+        labels = labels[: len(labels) - n_covariates]
+    names, grids = layout
+    found, times = _label_layout(labels)
+    unknown = [c for c in found if c not in names]
+    if unknown:
+        raise ValueError(
+            f"X has columns of channel(s) {unknown} that {name} was not fitted "
+            f"on; fitted channels: {names}."
+        )
+    sizes = [len(t) for t in times]
+    if found != names or sizes != [g.size for g in grids]:
+        raise ValueError(
+            f"The channels of X ({_describe(found, sizes)} columns) differ from "
+            f"those {name} was fitted on ({_describe(names, [g.size for g in grids])}"
+            "), in order; pass every fitted channel, in the same order, on its "
+            "fitted grid."
+        )
+    for channel, t, g in zip(names, times, grids):
+        inferred = grid_from_labels(t)
+        if inferred is not None and not np.allclose(inferred, g, rtol=1e-9, atol=0):
+            raise ValueError(
+                f"The time labels of channel {channel!r} in X differ from the grid "
+                f"{name} was fitted on; resample that channel to its fitted grid."
+            )
+    return True
+
+
+def curve_weights(estimator):
+    """Quadrature weights on ``grid_``, channel by channel."""
+    layout = fitted_channels(estimator)
+    if layout is None:
+        return quadrature_weights(estimator.grid_, estimator.quadrature)
+    return np.concatenate(
+        [quadrature_weights(g, estimator.quadrature) for g in layout[1]]
+    )
+
+
+def split_channels(estimator, values):
+    """Cut values on a fitted multichannel estimator's ``grid_`` by channel.
+
+    Parameters
+    ----------
+    estimator : fitted skfunc estimator
+        Fitted with channels (``channel_names_`` and ``channel_sizes_``).
+    values : array-like of shape (..., n_points)
+        Values on ``grid_`` along the last axis, such as ``coef_function_``,
+        ``components_`` or ``mean_``.
+
+    Returns
+    -------
+    channels : dict
+        Channel name -> ``(grid, values)``: the channel's grid and its part
+        of ``values``.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from skfunc.channels import split_channels
+    >>> from skfunc.decomposition import FunctionalPCA
+    >>> t, u = np.linspace(0, 1, 5), np.linspace(0, 2, 3)
+    >>> X = np.random.default_rng(0).normal(size=(10, 8))
+    >>> fpca = FunctionalPCA(2, grid={"temperature": t, "oxygen": u}).fit(X)
+    >>> parts = split_channels(fpca, fpca.mean_)
+    >>> {name: values.shape for name, (grid, values) in parts.items()}
+    {'temperature': (5,), 'oxygen': (3,)}
+    """
+    check_is_fitted(estimator)
+    layout = fitted_channels(estimator)
+    if layout is None:
+        raise ValueError(
+            f"{type(estimator).__name__} was fitted on one curve per row, not on "
+            "channels; its values need no splitting."
+        )
+    values = np.asarray(values)
+    total = sum(g.size for g in layout[1])
+    if values.ndim == 0 or values.shape[-1] != total:
+        raise ValueError(
+            f"values must have {total} entries along the last axis (one per point "
+            f"of grid_); got shape {values.shape}."
+        )
+    bounds = np.cumsum([0] + [g.size for g in layout[1]])
+    return {
+        name: (g, values[..., a:b])
+        for name, g, a, b in zip(layout[0], layout[1], bounds[:-1], bounds[1:])
+    }
+
+
+def channel_columns(estimator, channel, name):
+    """The columns of ``grid_`` of one channel of a fitted estimator (a
+    slice), or ``slice(None)`` for an estimator without channels and
+    ``channel=None``; ``name`` is the caller, for messages."""
+    layout = fitted_channels(estimator)
+    if layout is None:
+        if channel is not None:
+            raise ValueError(
+                f"channel={channel!r} was given, but {type(estimator).__name__} was "
+                f"fitted on one curve per row; {name} needs channel=None."
+            )
+        return slice(None)
+    names, grids = layout
+    if channel not in names:
+        raise ValueError(
+            f"{type(estimator).__name__} was fitted on channels {names}; pass "
+            f"{name} one of them as channel= (got {channel!r})."
+        )
+    c = names.index(channel)
+    start = sum(g.size for g in grids[:c])
+    return slice(start, start + grids[c].size)
+
+
+# ------------------------------------------------------- the composite basis
+
+
+class ChannelBasis:
+    """Block-diagonal composite of the channels' bases.
+
+    Channel ``c``'s curve is expanded in its own basis on its own domain, so
+    values, Gram, roughness and null-space matrices are block diagonal; the
+    coefficients are the channels' coefficients side by side. ``evaluate``
+    takes points concatenated channel by channel with the sizes of the
+    fitted grids.
+    """
+
+    name = "channels"
+
+    def __init__(self, bases, grids):
+        self.bases = list(bases)
+        self.grid_sizes = [int(np.size(g)) for g in grids]
+        self.sizes = [b.n_basis for b in self.bases]
+        self.n_basis = int(sum(self.sizes))
+
+    def _split(self, t):
+        t = np.asarray(t, dtype=np.float64)
+        if t.ndim != 1 or t.size != sum(self.grid_sizes):
+            raise ValueError(
+                f"Points of a multichannel basis must be the channels' points side "
+                f"by side ({sum(self.grid_sizes)} values); got shape {t.shape}."
+            )
+        return np.split(t, np.cumsum(self.grid_sizes)[:-1])
+
+    def evaluate(self, t, derivative=0):
+        return block_diag(*[b.evaluate(part, derivative)
+                            for b, part in zip(self.bases, self._split(t))])
+
+    def _blocks(self, method, *args):
+        return block_diag(*[getattr(b, method)(*args) for b in self.bases])
+
+    def gram(self):
+        return self._blocks("gram")
+
+    def penalty(self, order):
+        return self._blocks("penalty", order)
+
+    def roughness(self, order):
+        return self._blocks("roughness", order)
+
+    def unit_roughness(self, order):
+        return self._blocks("unit_roughness", order)
+
+    def unit_gram(self):
+        return self._blocks("unit_gram")
+
+    def null_space(self, order):
+        parts = [b.null_space(order) for b in self.bases]
+        out = np.zeros((self.n_basis, sum(p.shape[1] for p in parts)))
+        row = col = 0
+        for p in parts:
+            out[row : row + p.shape[0], col : col + p.shape[1]] = p
+            row, col = row + p.shape[0], col + p.shape[1]
+        return out
+
+    def null_dimension(self, order):
+        return sum(b.null_dimension(order) for b in self.bases)
+
+
+def channel_basis(single_basis_for, estimator, cap):
+    """The :class:`ChannelBasis` of a fitted multichannel estimator: each
+    channel's basis from the estimator's basis parameters on its own grid."""
+    names, grids = fitted_channels(estimator)
+    return ChannelBasis([single_basis_for(estimator, g, cap) for g in grids], grids)
+
+
+def channel_penalty(basis, order, gram):
+    """The split roughness penalty of ``basis``, each channel on its own scale.
+
+    For a plain basis, :func:`skfunc._penalized.penalty_for`. For a
+    :class:`ChannelBasis`, channel ``c``'s block is its roughness on the
+    unit domain times ``s_c = penalty_scale(G_cc)``, the largest eigenvalue
+    of the channel's own block of the data's cross products ``gram``
+    against its unit-domain Gram matrix, and the metric is scaled alike.
+    Multiplying channel ``c``'s values by ``a`` multiplies ``G_cc`` and
+    ``s_c`` by ``a^2``; with coefficients divided by ``a`` the penalized
+    criterion is unchanged, so the fit and its predictions are too. With one
+    channel the penalty is ``s_1`` times the plain one and the engine's scale
+    (against the scaled metric) ``1 / s_1`` times the plain one: the same
+    fit.
+    """
+    if not isinstance(basis, ChannelBasis):
+        return penalty_for(basis, order)
+    gram = np.asarray(gram, dtype=np.float64)
+    parts, scales = [], []
+    start = 0
+    for b, k in zip(basis.bases, basis.sizes):
+        part = penalty_for(b, order)
+        parts.append(part)
+        scales.append(penalty_scale(gram[start : start + k, start : start + k], part))
+        start += k
+    # the split coordinates channel by channel (null-space columns of every
+    # channel first, as Penalty keeps them), each divided by sqrt(s_c): the
+    # engine's coordinates then do not change with any channel's units
+    out = Penalty.__new__(Penalty)
+    out.matrix = block_diag(*[s * p.matrix for s, p in zip(scales, parts)])
+    out.metric = block_diag(*[s * p.metric for s, p in zip(scales, parts)])
+    out.n_null = sum(p.n_null for p in parts)
+    null = [p.transform[:, : p.n_null] / np.sqrt(s) for s, p in zip(scales, parts)]
+    rest = [p.transform[:, p.n_null :] / np.sqrt(s) for s, p in zip(scales, parts)]
+    out.transform = np.hstack([block_diag(*null), block_diag(*rest)])
+    return out
+
+
+# -------------------------------------------- multivariate principal components
+
+
+class ScaledCoordinates:
+    """L2 coordinates with channel ``c``'s multiplied by ``d_c = sqrt(v_c)``:
+    Euclidean inner products of the scaled coordinates are the weighted inner
+    products ``sum_c v_c <f_c, g_c>`` (Happ and Greven, 2018)."""
+
+    def __init__(self, coords, d, d_grid):
+        self.coords, self.d, self.d_grid = coords, d, d_grid
+        self.weights = coords.weights
+        self.n_coordinates = coords.n_coordinates
+
+    def __getattr__(self, name):  # everything else as the unweighted maps
+        if name == "coords":
+            raise AttributeError(name)
+        return getattr(self.coords, name)
+
+    def values(self, Y):
+        return self.coords.values(Y / self.d[:, None])
+
+    def coefficients(self, Y):
+        return self.coords.coefficients(Y / self.d[:, None])
+
+    def projection(self, Y):
+        return self.coords.projection(Y * self.d[:, None])
+
+    def unit_free_values(self, Y):
+        """Values times ``sqrt(v_c)`` (k, m): what the sign convention reads,
+        so that signs do not follow one channel's units."""
+        return self.values(Y) * self.d_grid
+
+
+#: channel weights of FunctionalPCA
+CHANNEL_WEIGHTS = ("inverse_variance", "equal")
+
+
+def channel_coordinates(estimator, coords, squares, mean):
+    """Channel weights of a multichannel FunctionalPCA and its scaled
+    coordinates; ``(coords, None)`` without channels.
+
+    ``squares`` (K,) holds the variances of the unweighted coordinates; the
+    integrated variance of channel ``c`` is the sum over its coordinates.
+    A channel whose variance is rounding against its mean's square (below
+    1e-20 of it, as FunctionalPCA's own zero-variance rule) has none.
+    Returns the :class:`ScaledCoordinates` and the per-coordinate factors
+    ``d``, and sets ``channel_weights_``.
+    """
+    layout = fitted_channels(estimator)
+    if layout is None:
+        return coords, None
+    names = layout[0]
+    if estimator._smooths():
+        raise ValueError(
+            "Smoothed components (alpha > 0, or alpha='auto' with a basis) are "
+            "not available with several channels; pass alpha=0 (components of "
+            "the basis expansions) or basis=None."
+        )
+    if estimator.basis is None:
+        sizes = estimator.channel_sizes_
+    else:
+        from ._validation import basis_for
+
+        sizes = basis_for(estimator, estimator.grid_).sizes
+    bounds = np.cumsum([0] + list(sizes))
+    option = estimator.channel_weights
+    if isinstance(option, Mapping):
+        missing = [n for n in names if n not in option]
+        extra = [n for n in option if n not in names]
+        if missing or extra:
+            raise ValueError(
+                f"channel_weights must give a weight for each fitted channel "
+                f"{names}; missing {missing}, unknown {extra}."
+            )
+        weights = np.array([option[n] for n in names], dtype=np.float64)
+        if not np.all(np.isfinite(weights) & (weights > 0)):
+            raise ValueError(
+                f"channel_weights must be positive finite numbers; got {dict(option)}."
+            )
+    elif option == "equal":
+        weights = np.ones(len(names))
+    else:
+        cuts = list(zip(bounds[:-1], bounds[1:]))
+        variance = np.array([squares[a:b].sum() for a, b in cuts])
+        level = np.array([mean[a:b] @ mean[a:b] for a, b in cuts])
+        flat = [n for n, v, m in zip(names, variance, level) if v <= 1e-20 * m or v <= 0]
+        if flat:
+            raise ValueError(
+                f"Channel(s) {flat} of X have zero variance, so "
+                "channel_weights='inverse_variance' (one over each channel's "
+                "integrated variance) is undefined; drop the channel or pass "
+                "channel_weights as a dict."
+            )
+        weights = 1.0 / variance
+    estimator.channel_weights_ = weights
+    d = np.repeat(np.sqrt(weights), np.diff(bounds))
+    d_grid = np.repeat(np.sqrt(weights), estimator.channel_sizes_)
+    return ScaledCoordinates(coords, d, d_grid), d
+
+
+# ------------------------------------------- channel-separable transformers
+
+
+def _blocks(estimator):
+    bounds = np.cumsum([0] + list(estimator.channel_sizes_))
+    return [slice(int(a), int(b)) for a, b in zip(bounds[:-1], bounds[1:])]
+
+
+class ChannelwiseMixin:
+    """Channels for transformers whose problem separates by channel.
+
+    With a channel layout the fit is one clone of the estimator per channel
+    (its grid the channel's grid, its parameters otherwise the same; those
+    in ``_channel_params`` may be mappings {channel: value}, a channel left
+    out taking None), stored in
+    ``channel_estimators_``; outputs are the channels' outputs side by side.
+    Without a layout nothing changes. Subclasses list the per-channel
+    parameters given as mappings in ``_channel_params``.
+    """
+
+    _accepts_channels = True
+    _channel_params = ()
+
+    def _uses_channels(self, X, first):
+        if first:
+            return is_channel_grid(self.grid) or _multi_columns(X) is not None
+        return hasattr(self, "channel_estimators_")
+
+    def _validate_channels(self, X, reset):
+        from ._validation import validate_curves
+
+        return validate_curves(self, X, reset=reset, allow_nan=True)
+
+    def _channel_clone(self, name, grid):
+        params = {"grid": grid}
+        for param in self._channel_params:
+            value = getattr(self, param)
+            if is_channel_grid(value):  # a channel left out gets the default
+                params[param] = value.get(name)
+        return clone(self).set_params(**params)
+
+    def _fit_channels(self, X, partial):
+        first = not partial or not hasattr(self, "channel_estimators_")
+        if first:
+            self._validate_params()
+            vars(self).pop("channel_estimators_", None)
+        else:
+            from ._validation import check_batch_grid
+
+            check_batch_grid(self)
+        X = self._validate_channels(X, reset=first)
+        if first:
+            for param in self._channel_params:
+                value = getattr(self, param)
+                if is_channel_grid(value):
+                    unknown = [n for n in value if n not in self.channel_names_]
+                    if unknown:
+                        raise ValueError(
+                            f"{param} names channel(s) {unknown} that X does not "
+                            f"have; channels: {self.channel_names_}."
+                        )
+            layout = fitted_channels(self)
+            estimators = [self._channel_clone(n, g) for n, g in zip(*layout)]
+        else:
+            estimators = self.channel_estimators_
+        fitted = []
+        for est, block in zip(estimators, _blocks(self)):
+            part = X[:, block]
+            fitted.append(est.partial_fit(part) if partial else est.fit(part))
+        self.channel_estimators_ = fitted
+        self.n_samples_seen_ = int(fitted[0].n_samples_seen_)
+        self._collect_channels()
+        return self
+
+    def _collect_channels(self):
+        """Set the estimator's summary attributes from its channels'."""
+        ests = self.channel_estimators_
+        self.alpha_ = np.array([e.alpha_ for e in ests])
+        self.edf_ = np.array([e.edf_ for e in ests])
+        self.n_basis_ = int(sum(e.n_basis_ for e in ests))
+        if hasattr(ests[0], "eval_points_"):
+            self.eval_points_ = np.concatenate([e.eval_points_ for e in ests])
+
+    @fill_doc
+    def fit(self, X, y=None):
+        """Fit on the curves in X (forgetting earlier batches); with
+        channels, one fit per channel.
+
+        %(transformer_fit)s
+        """
+        if not self._uses_channels(X, True):
+            vars(self).pop("channel_estimators_", None)
+            return super().fit(X, y)
+        return self._fit_channels(X, partial=False)
+
+    def partial_fit(self, X, y=None):
+        """Add a batch of curves and refit from the statistics of all batches.
+
+        The first batch fixes the grid (and the channels); with channels,
+        each channel's estimator takes its columns of the batch.
+
+        Parameters
+        ----------
+        X : array-like or dask array of shape (n_samples, n_features)
+            A batch of curves on the grid of the first batch.
+        y : None
+            Ignored; accepted for pipeline compatibility.
+
+        Returns
+        -------
+        self : object
+            The transformer, fitted on all batches so far.
+        """
+        first = not hasattr(self, "n_samples_seen_")
+        if not self._uses_channels(X, first):
+            return super().partial_fit(X, y)
+        return self._fit_channels(X, partial=True)
+
+    def _per_channel(self, X, method, columns=False):
+        """``method`` of each channel's estimator on its columns of X, side
+        by side (``columns``: each output is one column)."""
+        X = self._validate_channels(X, reset=False)
+        parts = [getattr(e, method)(X[:, block])
+                 for e, block in zip(self.channel_estimators_, _blocks(self))]
+        if columns:
+            parts = [p[:, None] for p in parts]
+        return _hstack(parts)
+
+    def _channel_feature_names(self, input_features):
+        """Output names ``channel__name`` from the channels' estimators."""
+        from sklearn.utils.validation import _check_feature_names_in
+
+        _check_feature_names_in(self, input_features, generate_names=False)
+        names = [
+            f"{channel}__{feature}"
+            for channel, est in zip(self.channel_names_, self.channel_estimators_)
+            for feature in est.get_feature_names_out()
+        ]
+        return np.asarray(names, dtype=object)
+
+
+def split_columns(estimator, X, method, widths):
+    """``method`` of each channel's estimator on its ``widths`` columns of X
+    (outputs of the estimator, such as coordinates), side by side."""
+    bounds = np.cumsum([0] + list(widths))
+    parts = [getattr(e, method)(X[:, a:b]) for e, a, b in
+             zip(estimator.channel_estimators_, bounds[:-1], bounds[1:])]
+    return _hstack(parts)
+
+
+def _hstack(parts):
+    if any(type(p).__module__.startswith("dask") for p in parts):
+        import dask.array as da
+
+        return da.hstack(parts)
+    return np.hstack(parts)
