@@ -463,6 +463,23 @@ def warn_underflow(name, scaled, value):
         )
 
 
+def _unseen_null_space(F, abs_t, abs_gram):
+    """Whether the null-space block ``F = T_N' G T_N`` is singular, by tests
+    that hold in any units of its coordinates (an intercept's weight total
+    beside a design in the grid's units): a diagonal entry at the rounding
+    level of its own column (``|T_N|' |G| |T_N|``, the size of the terms
+    summed into it), or the smallest eigenvalue of ``F`` scaled to a unit
+    diagonal at rounding level (collinear columns)."""
+    r = F.shape[0]
+    d = np.diag(F)
+    noise = np.einsum("ij,ik,kj->j", abs_t, abs_gram, abs_t)
+    if np.any(d <= _RCOND * 1e-3 * r * noise):
+        return True
+    root = np.sqrt(d)
+    lam = np.linalg.eigvalsh(F / np.outer(root, root))
+    return bool(lam[0] <= _RCOND * r * lam[-1])
+
+
 class SplitPath:
     """Penalized least squares for every alpha, null space exactly unpenalized.
 
@@ -519,10 +536,8 @@ class SplitPath:
         T = penalty.transform
         Gt = _symmetric(T.T @ gram @ T)
         F, C, R = Gt[:r, :r], Gt[:r, r:], Gt[r:, r:]
-        top = max(np.abs(np.diag(Gt)).max(initial=0.0), np.finfo(float).tiny)
         if r:
-            eig_f = np.linalg.eigvalsh(F)
-            if eig_f[0] <= _RCOND * r * max(eig_f[-1], top * 1e-3):
+            if _unseen_null_space(F, np.abs(T[:, :r]), np.abs(gram)):
                 raise NotIdentifiableError(
                     "The data do not determine the functions the roughness "
                     "penalty leaves free (for example a straight line needs "
