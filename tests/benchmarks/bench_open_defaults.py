@@ -35,13 +35,13 @@ import warnings
 sys.path.insert(0, os.path.abspath(os.path.join(os.path.dirname(__file__), "..", "..")))
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
 
+from bench_logistic import open_sets  # noqa: E402
 from sklearn.decomposition import PCA  # noqa: E402
 from sklearn.exceptions import ConvergenceWarning  # noqa: E402
 from sklearn.linear_model import LogisticRegression  # noqa: E402
 from sklearn.neighbors import KNeighborsClassifier  # noqa: E402
 from sklearn.pipeline import make_pipeline  # noqa: E402
 
-from bench_logistic import open_sets  # noqa: E402
 from skfunc import BasisFeatures, CurveSmoother, FunctionalPCA  # noqa: E402
 from skfunc._alpha import AlphaAtEdgeWarning  # noqa: E402
 
@@ -98,7 +98,7 @@ def main():
             cells.append(f"{a:.3f} / {b:.3f}{mark:>4s}")
         print(f"{set_name:18s} " + " ".join(f"{c:>24s}" for c in cells), flush=True)
     print(f"{'wins/ties/losses':18s} "
-          + " ".join(f"{'%d/%d/%d' % tuple(tally[name]):>24s}" for name, _, _ in rows))
+          + " ".join(f"{'/'.join(map(str, tally[name])):>24s}" for name, _, _ in rows))
     print(f"total {time.perf_counter() - start:.1f} s")
 
 
