@@ -11,7 +11,8 @@ feature per sampling point) followed by the same ``LogisticRegression()``:
 * ``BasisFeatures()`` against the raw values;
 * ``CurveSmoother()`` against the raw values;
 * ``FunctionalPCA(n_components=k)`` against ``PCA(n_components=k)``, k = 5, 10
-  (both with ``random_state=0``: on PigCVP both pick a randomized solver);
+  (both with ``random_state=0``, so that a randomized solver, which PCA's "auto"
+  picks on PigCVP, gives the same numbers on every run);
 * ``KNeighborsClassifier(n_neighbors=1)`` on ``BasisFeatures()`` coordinates
   against the same on the raw values (1-NN Euclidean, the archive's
   reference classifier).
