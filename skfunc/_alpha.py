@@ -168,15 +168,22 @@ def candidates_from_eigenvalues(s, scale, n_alphas=N_ALPHAS, margin=EDF_MARGIN):
     return np.exp(np.linspace(low, high, n_alphas)) / scale
 
 
-def best_index(scores, alphas, *, criterion="GCV", warn=True):
+#: what the smallest candidate means for a least-squares fit
+LOW_EDGE_ADVICE = ("nearly no smoothing: the fit may be following the noise; use "
+                   "fewer basis functions or candidates below it")
+
+
+def best_index(scores, alphas, *, criterion="GCV", warn=True,
+               low_advice=LOW_EDGE_ADVICE):
     """Index of the best (lowest) score, one policy for every estimator.
 
     Non-finite scores are skipped; among equal best scores (within 1e-12
     relative) the larger alpha wins (the smoother fit); if no score is
     finite a ``ValueError`` says so. With ``warn``, a best value at the
     smallest or largest candidate raises :class:`AlphaAtEdgeWarning` naming
-    that end (unless the criterion is flat). ``scores`` may be (L,) or
-    (rows, L) for one choice per row; returns an int or an int array.
+    that end (unless the criterion is flat), with ``low_advice`` for the
+    smallest. ``scores`` may be (L,) or (rows, L) for one choice per row;
+    returns an int or an int array.
     """
     scores = np.asarray(scores, dtype=np.float64)
     alphas = np.asarray(alphas, dtype=np.float64)
@@ -204,8 +211,7 @@ def best_index(scores, alphas, *, criterion="GCV", warn=True):
         at_low = (best == np.argmin(alphas)) & ~flat
         at_high = (best == np.argmax(alphas)) & ~flat
         for hit, end, advice in (
-            (at_low, "smallest", "nearly no smoothing: the fit may be following the "
-             "noise; use fewer basis functions or candidates below it"),
+            (at_low, "smallest", low_advice),
             (at_high, "largest", "nearly the fit on the penalty's null space alone "
              "(a straight line for a second-derivative penalty); that is a fine "
              "answer when the truth is that simple, else add larger candidates"),

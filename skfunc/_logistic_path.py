@@ -39,6 +39,16 @@ from ._blocks import compute_statistics
 from ._integrated_design import integrated_design
 from ._penalized import centered_cross_products
 
+#: what the smallest candidate means for the classifier: training classes
+#: that a smooth beta separates make the likelihood keep improving as the
+#: roughness penalty vanishes, until the small ridge on beta holds the fit
+LOW_EDGE_ADVICE = (
+    "nearly no roughness penalty: the fit is held by the small ridge on beta "
+    "alone, as happens when the training classes are (nearly) separable; "
+    "compare with a fixed alpha by cross-validation (GridSearchCV) before "
+    "trusting it"
+)
+
 #: the fixed ridge for alpha > 0: ``RIDGE * scale * int_0^1 beta^2`` on beta
 #: and ``RIDGE`` times each covariate's own variance on the covariates; see
 #: FunctionalLogisticRegression's Notes
@@ -323,7 +333,8 @@ class LogisticProblem:
                 criterion[j], edf[j] = self.ubre(current, quadratic)
                 fits[j] = (theta, current)
             best = (
-                best_index(criterion, alphas, criterion="UBRE", warn=warn)
+                best_index(criterion, alphas, criterion="UBRE", warn=warn,
+                           low_advice=LOW_EDGE_ADVICE)
                 if alphas.size > 1
                 else 0
             )
