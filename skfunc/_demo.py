@@ -430,7 +430,12 @@ def run_demo(args, stream=None):
         figure, message = _draw_figure(kiln, final, args.figure, args.force, new_seed)
         progress.line(message)
 
+    # the same folds for both models (one KFold, one seed): paired differences
+    best_folds = np.array([search.cv_results_[f"split{i}_test_score"][search.best_index_]
+                           for i in range(baseline_cv.size)])
+    paired = best_folds - baseline_cv
     results = {
+        "cv_gain_se": float(paired.std(ddof=1) / np.sqrt(paired.size)),
         "cv_r2": float(search.best_score_),
         "cv_r2_std": float(search.cv_results_["std_test_score"][search.best_index_]),
         "baseline_cv_r2": float(baseline_cv.mean()),
@@ -620,6 +625,18 @@ def _legend_below(ax):
               frameon=False)
 
 
+def _verdict(gain, gain_se, held_out):
+    """A winner only where the data support one: the paired cross-validation
+    difference beyond twice its standard error (common practice for a
+    difference of means) and the held-out runs agreeing in sign."""
+    if gain > 2 * gain_se and held_out > 0:
+        return "the functional pipeline beats the baseline"
+    if gain < -2 * gain_se and held_out < 0:
+        return "the baseline beats the functional pipeline"
+    return ("no clear winner (the difference is within twice its standard error, "
+            "or the held-out runs disagree)")
+
+
 def _summary(results, stream):
     gain = results["cv_r2"] - results["baseline_cv_r2"]
     held_out = results["test_r2"] - results["baseline_test_r2"]
@@ -635,9 +652,10 @@ def _summary(results, stream):
         f"baseline {results['baseline_test_rmse']:.2f} MPa",
         f"  chosen settings       {results['best_params']}; smoothing alpha "
         f"{results['smoothing_alpha']:.3g} (GCV)",
-        f"  the functional pipeline {'beats' if gain > 0 else 'does not beat'} "
-        f"the baseline: CV R^2 {gain:+.3f}, held-out R^2 {held_out:+.3f} (a grid "
-        "search's best CV score is slightly optimistic; held-out runs are not)",
+        f"  {_verdict(gain, results['cv_gain_se'], held_out)}: CV R^2 {gain:+.3f} "
+        f"(+/- {results['cv_gain_se']:.3f} over the paired folds), held-out R^2 "
+        f"{held_out:+.3f} (a grid search's best CV score is slightly optimistic; "
+        "held-out runs are not)",
         f"  model saved to        {results['output']} (load it with "
         "skfunc.persistence.load_model; "
         + ("skops files load trusting only skfunc's and scikit-learn's types)"

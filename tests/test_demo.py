@@ -215,3 +215,15 @@ def test_interpolate_gaps_matches_numpy_interp():
                                                     [0, 2, 8]))
     np.testing.assert_allclose(filled[1], [1, 2, 3, 4, 5, 5])
     assert np.isnan(X[0, 1])  # input untouched
+
+
+def test_no_winner_is_declared_that_the_data_do_not_support():
+    # A winner needs the paired cross-validation difference beyond twice its
+    # standard error (common practice) and the held-out runs agreeing; a
+    # bare positive difference (the old rule) is not enough.
+    from skfunc._demo import _verdict
+
+    assert _verdict(0.002, 0.004, 0.004).startswith("no clear winner")
+    assert _verdict(0.05, 0.01, 0.03).startswith("the functional pipeline beats")
+    assert _verdict(0.05, 0.01, -0.01).startswith("no clear winner")  # held-out disagrees
+    assert _verdict(-0.05, 0.01, -0.02).startswith("the baseline beats")
