@@ -42,7 +42,7 @@ from ._penalized import centered_cross_products
 #: what the smallest candidate means for the classifier: training classes
 #: that a smooth beta separates make the likelihood keep improving as the
 #: roughness penalty vanishes, until the small ridge on beta holds the fit
-LOW_EDGE_ADVICE = (
+SEPARABLE_EDGE_ADVICE = (
     "nearly no roughness penalty: the fit is held by the small ridge on beta "
     "alone, as happens when the training classes are (nearly) separable; "
     "compare with a fixed alpha by cross-validation (GridSearchCV) before "
@@ -334,7 +334,7 @@ class LogisticProblem:
                 fits[j] = (theta, current)
             best = (
                 best_index(criterion, alphas, criterion="UBRE", warn=warn,
-                           low_advice=LOW_EDGE_ADVICE)
+                           low_advice=SEPARABLE_EDGE_ADVICE)
                 if alphas.size > 1
                 else 0
             )
