@@ -297,7 +297,7 @@ def test_centred_pair_sums_expand_the_power_sums():
 
 @pytest.mark.parametrize("max_points", [100, 12])
 def test_partial_fit_equals_fit(max_points):
-    # "Fits are sums": the statistics per column and per covariance cell
+    # "Fits are sums": the moment fit's statistics per column and covariance cell
     # (12 < 40 distinct times: binned cells) add over batches, and rows keep
     # their fold of the alpha choice by position, so partial_fit over uneven
     # batches (one of a single row) equals fit on the stacked rows (numpy
@@ -309,7 +309,7 @@ def test_partial_fit_equals_fit(max_points):
     X = np.where(keep, true_mean(times) + xi @ true_components(times)
                  + 0.5 * rng.standard_normal((150, 40)), np.nan)
     kw = {"n_components": 2, "grid": times, "max_covariance_points": max_points,
-          "n_basis": 8, "covariance_n_basis": 6}
+          "n_basis": 8, "covariance_n_basis": 6, "max_iter": 0}
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")  # edge warnings of the alpha choice
         fitted = SparseFunctionalPCA(**kw).fit(X)
