@@ -565,9 +565,9 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
     The moment estimates weight every pair of observations equally, so a
     curve with ten readings counts as 90 pairs and one with two as 2, while
     the information in a curve about the K-dimensional scores is bounded;
-    their components carry more error than the data hold (about 0.12 in L2
-    for the second component of the simulation of Yao et al. at 500
-    curves). :meth:`fit` therefore refines them by maximum likelihood of
+    their components carry more error than the data hold (in the
+    simulation of Yao et al. at 500 curves, 0.117 in L2 for the second
+    component on average over 20 replicates, against 0.069 refined). :meth:`fit` therefore refines them by maximum likelihood of
     the Gaussian reduced-rank model ``y_i = mu_i + Psi_i Gamma z_i + e_i``,
     ``z_i ~ N(0, I_K)`` (James, Hastie and Sugar, 2000), which weighs each
     curve by its own covariance ``Psi_i Gamma Gamma' Psi_i' + sigma^2 I``.
