@@ -567,18 +567,21 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
     the information in a curve about the K-dimensional scores is bounded;
     their components carry more error than the data hold (in the
     simulation of Yao et al. at 500 curves, 0.117 in L2 for the second
-    component on average over 20 replicates, against 0.069 refined). :meth:`fit` therefore refines them by maximum likelihood of
+    component on average over 20 replicates, against 0.069 refined).
+    :meth:`fit` therefore refines them by penalized maximum likelihood of
     the Gaussian reduced-rank model ``y_i = mu_i + Psi_i Gamma z_i + e_i``,
     ``z_i ~ N(0, I_K)`` (James, Hastie and Sugar, 2000), which weighs each
     curve by its own covariance ``Psi_i Gamma Gamma' Psi_i' + sigma^2 I``.
-    EM from the moment estimates (K = ``n_components_``) maximises the
-    log-likelihood minus ``lam / (2 sigma^2) sum_k int (D^q gamma_k)^2``,
-    with ``lam`` the surface's unit-free ``covariance_alpha_`` on the scale
-    of the observations' Gram matrix (:func:`skfunc._penalized.penalty_scale`):
-    the penalty chosen by cross-validation for the surface, applied to each
-    loading function. The mean stays the pooled one. The components are the
-    L2 eigenfunctions of ``Gamma Gamma'``, the eigenvalues its eigenvalues,
-    and ``sigma^2`` the EM's estimate (floored as below), so the model used
+    EM runs from the moment estimates (K = ``n_components_``); each M-step
+    minimises the expected residual sum of squares plus ``lam sum_k int
+    (D^q gamma_k)^2`` over the loading functions, then sets ``sigma^2`` to
+    the expected mean squared residual; ``lam`` is the surface's unit-free
+    ``covariance_alpha_`` on the scale of the observations' Gram matrix
+    (:func:`skfunc._penalized.penalty_scale`): the penalty chosen by
+    cross-validation for the surface, applied to each loading function.
+    The mean stays the pooled one. The components are the L2
+    eigenfunctions of ``Gamma Gamma'``, the eigenvalues its eigenvalues,
+    and ``sigma^2`` the EM's estimate (floored as above), so the model used
     by the scores is the one fitted. ``max_iter=0`` keeps the moment
     estimates; :meth:`partial_fit` gives those too, since each EM step needs
     every curve again.
