@@ -17,6 +17,7 @@ Usage::
 
     python tests/benchmarks/bench_sparse_fpca.py           # full size
     python tests/benchmarks/bench_sparse_fpca.py --quick   # small, seconds
+    python tests/benchmarks/bench_sparse_fpca.py --sizes 2000 4000 8000 16000 32000
 
 The observations are binned to a 100-point grid (``curves_from_arrays(...,
 grid=100)``), so the padded matrix is as large as the dense one. Times are
@@ -56,8 +57,10 @@ def main(argv=None):
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--quick", action="store_true", help="small sizes, a smoke run")
     parser.add_argument("--repeat", type=int, default=None)
+    parser.add_argument("--sizes", type=int, nargs="+", help="numbers of curves")
     args = parser.parse_args(argv)
-    sizes = [2_000, 4_000, 8_000] if args.quick else [12_500, 25_000, 50_000, 100_000]
+    sizes = args.sizes or ([2_000, 4_000, 8_000] if args.quick
+                           else [12_500, 25_000, 50_000, 100_000])
     repeat = args.repeat or (1 if args.quick else 2)
     per_curve = 5
     warnings.simplefilter("ignore")  # alpha at an edge of its candidates
