@@ -233,7 +233,7 @@ class FunctionalRidge(FunctionalRidgeBase):
 
     Parameters
     ----------
-    %(alpha)s
+    %(alpha_reml)s
     %(scalar_outcome)s
     %(period)s
 
@@ -274,8 +274,8 @@ class FunctionalRidge(FunctionalRidgeBase):
         **ALPHA_CONSTRAINTS,
     }
 
-    def __init__(self, alpha=AUTO, *, criterion=CURVE_DESIGN_CRITERION, basis="bspline", n_basis=None,
-                 degree=3, interior_knots=None, penalty_order=2, period=None,
+    def __init__(self, alpha=AUTO, *, criterion=CURVE_DESIGN_CRITERION, basis="bspline",
+                 n_basis=None, degree=3, interior_knots=None, penalty_order=2, period=None,
                  n_covariates=0, fit_intercept=True, grid=None, quadrature="trapezoid"):
         store_init_params(self, locals())
 
