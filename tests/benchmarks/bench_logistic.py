@@ -19,7 +19,7 @@ only, among 1e-5 ... 1e-2 and ``1 / n``; then its test accuracy against the
 one of 1e-3), and (ii) two curve sets shipped by statsmodels that played no
 part in choosing it, scored by repeated stratified 5-fold cross-validation:
 the World Bank fertility rates of 1960-1999 per country (classes: a rate
-below the replacement level 2.1 in 2012, thirteen years after the curve
+below the replacement level 2.1 in 2011, twelve years after the curve
 ends) and the monthly El Nino sea-surface temperatures per year 1950-2009
 (classes: the next year's January-March mean above the median).
 
@@ -220,7 +220,7 @@ def statsmodels_sets():
 
     fertility = sm.datasets.fertility.load_pandas().data
     years = [str(year) for year in range(1960, 2000)]
-    values = fertility[years + ["2012"]].to_numpy(float)
+    values = fertility[years + ["2011"]].to_numpy(float)
     keep = ~np.isnan(values).any(axis=1)
     X_f, y_f = values[keep, :-1], (values[keep, -1] < 2.1).astype(int)
     elnino = sm.datasets.elnino.load_pandas().data.to_numpy(float)[:, 1:]
