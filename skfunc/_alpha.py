@@ -226,6 +226,10 @@ def best_index(scores, alphas, *, criterion="GCV", warn=True,
         flat = (high - low)[:, 0] <= tol[:, 0]
         at_low = (best == np.argmin(alphas)) & ~flat
         at_high = (best == np.argmax(alphas)) & ~flat
+        if criterion == "GCV" and low_advice == LOW_EDGE_ADVICE:
+            low_advice += ("; or criterion='reml', which does not follow the noise "
+                           "as often (GCV's score can keep falling as the fit "
+                           "nears interpolation)")
         for hit, end, advice in (
             (at_low, "smallest", low_advice),
             (at_high, "largest", "nearly the fit on the penalty's null space alone "
