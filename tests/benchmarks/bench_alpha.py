@@ -212,7 +212,7 @@ def main():
                bench_smoother(n, m, K, rng, repeat))
         report(f"scalar-outcome ridge: {n} curves x {m} points, K={K}",
                bench_ridge(n, m, K, rng, repeat))
-    bench_estimators(30 if args.quick else 300, 1 if args.quick else repeat)
+    bench_estimators(30 if args.quick else 300, 1 if args.quick else 3)
 
 
 if __name__ == "__main__":
