@@ -94,9 +94,9 @@ def main(argv=None):
         fits = np.array([r[column] for r in rows])
         slope, fixed = np.polyfit(obs, fits, 1)
         worst = np.max(np.abs(fits - (fixed + slope * obs)) / fits)
-        print(f"{label} time = {fixed:.2f} s + {1e6 * slope:.2f} us per observation; "
-              f"worst deviation from that line {100 * worst:.0f}% (the EM's number of "
-              "steps varies with the data)")
+        print(f"{label} time = {1e3 * fixed:.1f} ms + {1e6 * slope:.2f} us per "
+              f"observation; worst deviation from that line {100 * worst:.1f}% (the "
+              "EM's number of steps varies with the data)")
     print(f"fit time ratio {n1} / {n0} curves: {f1 / f0:.2f} (observations x{o1 / o0:.2f})")
 
     # the dense baseline on the largest size
