@@ -334,6 +334,36 @@ def test_centred_pair_sums_expand_the_power_sums():
         np.testing.assert_allclose(g, e, rtol=1e-10, atol=1e-10)
 
 
+def test_fold_pair_sums_match_pairs_per_fold():
+    # Reference: explicit loops with numpy over the ordered pairs j != l of
+    # each fold's curves (count, products and products of squares). The
+    # one-product form keeps the folds' columns apart; a fold index mixed
+    # up with a bin, or one fold's pairs in another's block, fails here.
+    from skfunc._sparse_fpca import CV_FOLDS, PAIR_KEYS, fold_pair_sums
+
+    rng = np.random.default_rng(2)
+    n, m = 47, 6
+    rows = np.repeat(rng.permutation(100)[:n], rng.integers(1, 6, n))
+    bins = rng.integers(0, m, rows.size)
+    z = rng.standard_normal(rows.size)
+    folds = (rows * 7) % CV_FOLDS
+    got = fold_pair_sums(rows, bins, z, folds, m)
+    for f in range(CV_FOLDS):
+        mine = folds == f
+        expected = _loop_pair_sums(rows[mine], bins[mine], z[mine], m)
+        for key, e in zip(("N", "P11", "P22"), expected):
+            np.testing.assert_allclose(got[PAIR_KEYS.index(key), f], e, atol=1e-12)
+        # P10: sum of z_j over pairs (count pairs weighted by the first's z)
+        p10 = np.zeros((m, m))
+        for i in np.unique(rows[mine]):
+            idx = np.flatnonzero(mine & (rows == i))
+            for j in idx:
+                for k in idx:
+                    if j != k:
+                        p10[bins[j], bins[k]] += z[j]
+        np.testing.assert_allclose(got[PAIR_KEYS.index("P10"), f], p10, atol=1e-12)
+
+
 @pytest.mark.parametrize("max_points", [100, 12])
 def test_partial_fit_equals_fit(max_points):
     # "Fits are sums": the moment fit's statistics per column and covariance cell
