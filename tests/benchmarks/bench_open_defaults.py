@@ -53,6 +53,7 @@ Run from the repository root::
 
     python tests/benchmarks/bench_open_defaults.py           # all ten sets
     python tests/benchmarks/bench_open_defaults.py --quick   # Coffee only, < 20 s
+    python tests/benchmarks/bench_open_defaults.py --only recipe   # one table
 """
 
 import argparse
@@ -141,16 +142,21 @@ def two_standard_errors(a, b, n_test):
 def main():
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--quick", action="store_true", help="Coffee only (< 20 s)")
+    parser.add_argument("--only", choices=("defaults", "recipe", "diagnostic"),
+                        help="print one of the three tables")
     args = parser.parse_args()
     sets = open_sets(args.quick)
     if args.quick:
         sets = {"Coffee": sets["Coffee"]}
     start = time.perf_counter()
-    table(sets, lambda m: pairs(), "with every parameter at its default")
-    table(sets, lambda m: recipe_rows(), "recommended recipe: StandardScaler() (SS) between "
-          "the transformer and LogisticRegression() (LR); LRCV: LogisticRegressionCV()")
-    table(sets, lambda m: pairs(C=m), "diagnostic: the skfunc side with "
-          "LogisticRegression(C=m), m sampling points")
+    if args.only in (None, "defaults"):
+        table(sets, lambda m: pairs(), "with every parameter at its default")
+    if args.only in (None, "recipe"):
+        table(sets, lambda m: recipe_rows(), "recommended recipe: StandardScaler() (SS) between "
+              "the transformer and LogisticRegression() (LR); LRCV: LogisticRegressionCV()")
+    if args.only in (None, "diagnostic"):
+        table(sets, lambda m: pairs(C=m), "diagnostic: the skfunc side with "
+              "LogisticRegression(C=m), m sampling points")
     print(f"total {time.perf_counter() - start:.1f} s")
 
 
