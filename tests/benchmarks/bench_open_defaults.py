@@ -25,8 +25,8 @@ on the raw values (``StandardScaler()`` before ``LogisticRegression()``, or
 ``PCA(n_components=k)``, ``StandardScaler()``, ``LogisticRegression()``;
 second number). A third column pair puts ``LogisticRegressionCV()`` (C
 chosen by 5-fold cross-validation among ten values from 1e-4 to 1e4)
-after ``BasisFeatures()``, the alternative for coordinates whose variances
-span decades (not run on PigCVP, two training curves per class).
+after ``BasisFeatures()``, the other remedy: a penalty chosen for the
+features (not run on PigCVP, two training curves per class).
 
 A third table refits the skfunc pipelines whose features are
 L2-orthonormal coordinates or scores (``BasisFeatures``, ``FunctionalPCA``)
