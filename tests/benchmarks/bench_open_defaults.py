@@ -130,6 +130,14 @@ def score(pipe, X_train, X_test, y_train, y_test):
     return acc, flags
 
 
+def cached(cache, pipe, data):
+    """:func:`score` of ``pipe`` on ``data``, once per pipeline (by its repr)."""
+    key = repr(pipe)
+    if key not in cache:
+        cache[key] = score(pipe, *data)
+    return cache[key]
+
+
 def two_standard_errors(a, b, n_test):
     """Two standard errors of the difference of two test accuracies on
     ``n_test`` curves, with the pooled proportion ``p = (a + b) / 2``:
@@ -177,17 +185,18 @@ def table(sets, make_rows, title):
     print(f"{'set':18s} " + " ".join(f"{name:>{width}s}" for name, *_ in rows))
     for set_name, data in sets.items():
         cells = []
+        cache = {}  # reference pipelines repeat across columns: fit each once
         for name, ours, ref, ref2 in make_rows(data[0].shape[1]):
             if min(np.unique(data[2], return_counts=True)[1]) < 5 and "LRCV" in name:
                 cells.append("not run")  # 5-fold CV needs 5 curves per class
                 continue
             a, fa = score(ours, *data)
-            b, fb = score(ref, *data)
+            b, fb = cached(cache, ref, data)
             tally[name][0 if a > b else 1 if a == b else 2] += 1
             beyond[name] += a < b - two_standard_errors(a, b, len(data[3]))
             text = f"{a:.3f} / {b:.3f}"
             if ref2 is not None:
-                c, fc = score(ref2, *data)
+                c, fc = cached(cache, ref2, data)
                 same[name][0 if a > c else 1 if a == c else 2] += 1
                 fb = fb | fc
                 text += f" / {c:.3f}"
