@@ -230,8 +230,8 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
     models, put a ``StandardScaler`` between them
     (``make_pipeline(FunctionalPCA(10), StandardScaler(),
     LogisticRegression())``), which whitens the scores, or choose ``C`` by
-    cross-validation; :doc:`/open_data` compares both with ``PCA`` on open
-    data.
+    cross-validation; :doc:`/open_data` compares the recipe with ``PCA`` on
+    open data.
 
     With a basis and ``alpha="auto"``, alpha is chosen by cross-validation
     over curves (Rice and Silverman, 1991; Ramsay and Silverman, 2005, sec.
