@@ -23,10 +23,11 @@ advises for penalized linear models, against scikit-learn's defaults on
 the raw values (first number after the slash) and against the same recipe
 on the raw values (``StandardScaler()`` before ``LogisticRegression()``, or
 ``PCA(n_components=k)``, ``StandardScaler()``, ``LogisticRegression()``;
-second number). A third column pair puts ``LogisticRegressionCV()`` (C
+second number). The last column puts ``LogisticRegressionCV()`` (C
 chosen by 5-fold cross-validation among ten values from 1e-4 to 1e4)
 after ``BasisFeatures()``, the other remedy: a penalty chosen for the
-features (not run on PigCVP, two training curves per class).
+features; its second number is ``LogisticRegressionCV()`` on the raw
+values (not run on PigCVP, two training curves per class).
 
 A third table refits the skfunc pipelines whose features are
 L2-orthonormal coordinates or scores (``BasisFeatures``, ``FunctionalPCA``)
@@ -45,9 +46,9 @@ higher, equal, lower on the test split than scikit-learn's defaults;
 the difference of two accuracies, ``2 sqrt(2 p (1 - p) / n_test)`` with
 the pooled accuracy p of the two pipelines (the two-proportion z-test;
 common practice): a smaller difference is one a single test split cannot
-tell from chance. Every model is fitted
-on the training split only. The regression estimators have no open
-regression set here and are not in the table.
+tell from chance. Every model is fitted on the training split only. The
+regression estimators have no open regression set here and are not in the
+table.
 
 Run from the repository root::
 
