@@ -481,12 +481,6 @@ def channel_coordinates(estimator, coords, squares, mean):
     if layout is None:
         return coords, None
     names = layout[0]
-    if estimator._smooths():
-        raise ValueError(
-            "Smoothed components (alpha > 0, or alpha='auto' with a basis) are "
-            "not available with several channels; pass alpha=0 (components of "
-            "the basis expansions) or basis=None."
-        )
     if estimator.basis is None:
         sizes = estimator.channel_sizes_
     else:

@@ -54,7 +54,8 @@ from ._basis_features import orthonormal_operators
 from ._blocks import chunked_matmul, output_dtype
 from ._dask import check_rows
 from ._moments import merge_moments, moments, scale_moments
-from ._penalized import SplitPath, penalty_for
+from ._channels import channel_penalty
+from ._penalized import SplitPath
 
 
 class ComponentCurvesMixin:
@@ -113,7 +114,9 @@ class CurveCoordinates:
             gram = basis.gram()
             self.root, self.inv_root = gram_sqrt(gram)
             if penalty_order is not None:
-                self.path = SplitPath(gram, penalty_for(basis, penalty_order))
+                # (several channels: a block per channel, each relative to
+                # its own Gram matrix, so the same alpha on every channel)
+                self.path = SplitPath(gram, channel_penalty(basis, penalty_order, gram))
 
     @property
     def n_coordinates(self):

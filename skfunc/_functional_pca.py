@@ -427,6 +427,9 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         n_wanted = self._n_wanted(n, coords.n_coordinates)
         alpha, alphas, scores = self._fixed_alpha(), None, None
         if folds is not None:
+            if d is not None:  # the folds in the channels' weighted coordinates
+                folds = dict(folds, mean=folds["mean"] * d,
+                             scatter=folds["scatter"] * np.outer(d, d))
             alpha, alphas, scores = cross_validate_alpha(
                 folds, coords,
                 self.n_components if isinstance(self.n_components, Integral) else None,
