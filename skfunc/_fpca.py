@@ -52,9 +52,9 @@ from ._alpha import CV_FOLDS, best_index, candidates_for
 from ._bases import gram_sqrt
 from ._basis_features import orthonormal_operators
 from ._blocks import chunked_matmul, output_dtype
+from ._channels import channel_penalty
 from ._dask import check_rows
 from ._moments import merge_moments, moments, scale_moments
-from ._channels import channel_penalty
 from ._penalized import SplitPath
 
 

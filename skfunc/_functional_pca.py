@@ -32,7 +32,7 @@ from ._fpca import (
     sign_convention,
     svd_directions,
 )
-from ._validation import BASIS_CONSTRAINTS, basis_for, validate_curves
+from ._validation import BASIS_CONSTRAINTS, CHANNEL_N_BASIS, basis_for, validate_curves
 
 SVD_SOLVERS = ("auto", "full", "covariance_eigh", "randomized")
 
@@ -316,6 +316,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
             None,
         ],
         **BASIS_CONSTRAINTS,
+        **CHANNEL_N_BASIS,
         "basis": [StrOptions(set(BASES)), None],
         "alpha": ALPHA_CONSTRAINT,
         "svd_solver": [StrOptions(set(SVD_SOLVERS))],
