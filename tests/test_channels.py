@@ -460,6 +460,8 @@ def test_dask_fits_with_channels_equal_in_memory_fits():
     Xd, yd = da.from_array(X, chunks=(25, -1)), da.from_array(y, chunks=25)
     for est, method, target in ((FunctionalRidge(grid=grid), "predict", y),
                                 (FunctionalPCA(3, grid=grid), "transform", None),
+                                (FunctionalPCA(3, basis="bspline", grid=grid),
+                                 "transform", None),
                                 (CurveSmoother(grid=grid), "transform", None)):
         local = clone(est).fit(X, target)
         remote = clone(est).fit(Xd, None if target is None else yd)
