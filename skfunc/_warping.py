@@ -236,7 +236,7 @@ DP_CACHE_VALUES = 131_072  # 1 MB of float64
 _PAD = 4
 
 #: arrays of one table row per step and curve: lagged curve values, lagged
-#: midpoints, lagged squares, the candidates, a scratch array, table indices
+#: midpoints, lagged squares, the candidates, a scratch array (and bytes)
 _ROW_ARRAYS = 6
 
 
@@ -311,27 +311,31 @@ class _DynamicProgram:
         table[_PAD, :, _PAD] = 0.0
         self.energy = table[_PAD:, :, _PAD:]
         choice = np.zeros((m, n, m), dtype=np.int8)
-        # flat positions of each step's predecessor (k, l) = (i - di, j - dj),
-        # counted from the table row i - _PAD
-        col = np.arange(m) + _PAD - self.dj[:, None]
-        where = ((_PAD - self.di)[:, None, None] * n * W
-                 + np.arange(n)[None, :, None] * W + col[:, None, :])
-        flat = table.reshape(-1)
+        # each step's predecessors (k, l) = (i - di, j - dj) of a whole row:
+        # a slice of the padded table
+        preceding = [(_PAD - di, slice(_PAD - dj, _PAD - dj + m))
+                     for di, dj in self.steps]
         lag_q, lag_mid, lag_sq = self.lagged
         c = np.empty((S, n, m))
         scratch = np.empty((S, n, m))
         here = np.empty((max(n, self.q1.shape[0]), m))
+        first = np.empty((S, n, m), dtype=np.int8)
+        order = np.arange(S, dtype=np.int8)[:, None, None]
         for i in range(1, m):
             np.multiply(lag_q, self.q1k[i], out=c)
             c += np.multiply(self.q1i[i, 0], Q, out=here)  # the same for every step
             c += np.multiply(self.q1m[i], lag_mid, out=scratch)
             c *= self.factor[i][:, None, :]
             c += lag_sq
-            c += np.take(flat[i * n * W:], where, out=scratch)
+            for s, (back, cols) in enumerate(preceding):
+                scratch[s] = table[i + back, :, cols]
+            c += scratch
             c += self.constant[i]
-            best = c.argmin(axis=0)
-            choice[i] = best
-            self.energy[i] = np.take_along_axis(c, best[None], axis=0)[0]
+            row = np.min(c, axis=0, out=self.energy[i])
+            # the first step reaching the minimum (as argmin, faster)
+            np.copyto(first, S)
+            np.copyto(first, order, where=c == row)
+            np.min(first, axis=0, out=choice[i])
         return self._backtrack(choice)
 
     def _backtrack(self, choice):
