@@ -5,7 +5,6 @@ from numbers import Real
 import numpy as np
 from scipy.stats import chi2
 from sklearn.base import BaseEstimator, OutlierMixin
-from sklearn.covariance import MinCovDet
 from sklearn.utils import check_random_state
 from sklearn.utils._param_validation import Interval, StrOptions
 from sklearn.utils.validation import check_is_fitted
@@ -22,6 +21,7 @@ from ._depth import (
 )
 from ._docstrings import fill_doc
 from ._estimator import ShortReprMixin, store_init_params
+from ._robust_covariance import deterministic_mcd
 from ._validation import validate_curves
 
 METHODS = ("boxplot", "magnitude_shape", "depth")
@@ -281,18 +281,23 @@ class CurveOutlierDetector(ShortReprMixin, OutlierMixin, BaseEstimator):
         return self
 
     def _fit_covariance(self, points):
-        mcd = MinCovDet(random_state=check_random_state(self.random_state))
-        mcd.fit(points)
-        self.location_ = mcd.location_
-        self.covariance_ = mcd.covariance_
-        if not np.all(np.isfinite(self.covariance_)) or np.linalg.det(
-                self.covariance_) <= 0:
+        """Deterministic MCD of the (magnitude, shape) points; a singular
+        estimate (an exact fit, or too few curves) is an error."""
+        try:
+            mcd = deterministic_mcd(points)
+            singular = bool(np.linalg.det(mcd.covariance) <= 0)
+        except ValueError as error:
+            singular, mcd = str(error), None
+        if singular is not False:
+            detail = f" ({singular})" if isinstance(singular, str) else ""
             raise ValueError(
                 "The magnitude and shape outlyingness of the training curves have "
                 "a singular robust covariance (for example, more than half of the "
-                "curves are identical up to a shift); use method='boxplot' or "
-                "'depth'."
+                f"curves are identical up to a shift){detail}; use method='boxplot' "
+                "or 'depth'."
             )
+        self.location_ = mcd.location
+        self.covariance_ = mcd.covariance
 
     def _auto_offset(self, depth_cutoff):
         if self.method == "boxplot":
