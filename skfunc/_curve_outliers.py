@@ -65,8 +65,11 @@ class CurveOutlierDetector(ShortReprMixin, OutlierMixin, BaseEstimator):
         * "magnitude_shape": the mean MO (magnitude) and variation VO
           (shape) of each curve's directional outlyingness (Dai & Genton,
           2018), and the robust Mahalanobis distance of (MO, VO^(1/3)) from
-          a minimum covariance determinant fit
-          (:class:`sklearn.covariance.MinCovDet`). The score is minus the
+          a minimum covariance determinant fit, computed with the
+          deterministic algorithm of Hubert, Rousseeuw & Verdonck (2012)
+          (no random subsets: the fit does not depend on ``random_state``
+          or on the order of the curves; consistency and reweighting as
+          :class:`sklearn.covariance.MinCovDet`). The score is minus the
           squared distance; "auto" flags distances beyond the 0.993 quantile
           of the chi-square distribution with 2 degrees of freedom. VO, a
           mean of squares, has a long right tail; its cube root is close to
@@ -100,8 +103,8 @@ class CurveOutlierDetector(ShortReprMixin, OutlierMixin, BaseEstimator):
     factor : float > 0, default=1.5
         Fence of the boxplot rule in widths of the central region.
     random_state : int, RandomState instance or None, default=None
-        Seed for the minimum covariance determinant ("magnitude_shape") and
-        the bootstrap ("depth" with contamination="auto").
+        Seed for the bootstrap ("depth" with contamination="auto"); the
+        other methods are deterministic.
     %(grid)s
 
     Attributes
@@ -141,6 +144,10 @@ class CurveOutlierDetector(ShortReprMixin, OutlierMixin, BaseEstimator):
 
     Notes
     -----
+    The fit needs the training curves in memory (pointwise medians, ranks
+    and the robust covariance are not sums over rows), so it does not take
+    Dask arrays or ``partial_fit``; scoring new curves is row by row.
+
     Integrals over time use the grid's trapezoid weights, so scores do not
     depend on how finely or evenly the curves are sampled (up to the
     quadrature's error). Missing values are not accepted: fill them first,
@@ -178,6 +185,10 @@ class CurveOutlierDetector(ShortReprMixin, OutlierMixin, BaseEstimator):
     Lopez-Pintado, S. and Romo, J. (2009). On the concept of depth for
     functional data. *Journal of the American Statistical Association*
     104(486), 718-734.
+
+    Hubert, M., Rousseeuw, P. J. and Verdonck, T. (2012). A deterministic
+    algorithm for robust location and scatter. *Journal of Computational
+    and Graphical Statistics* 21(3), 618-637.
 
     Hardin, J. and Rocke, D. M. (2005). The distribution of robust
     distances. *Journal of Computational and Graphical Statistics* 14(4),

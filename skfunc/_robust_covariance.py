@@ -38,6 +38,7 @@ C-step for a fixed number of variables, and O(n log^2 n) for each Qn scale
 (selection of the k-th pairwise difference by weighted-median pivots).
 """
 
+from functools import lru_cache
 from typing import NamedTuple
 
 import numpy as np
@@ -196,28 +197,40 @@ def qn_scale(x):
 
 
 # ---------------------------------------------------------------- the MCD
+@lru_cache(maxsize=64)
 def consistency_factor(n_features, fraction):
     """Factor making the covariance of the ``fraction`` of normal points
     with the smallest distances consistent: ``fraction / P(chi2_{p+2} <=
     q)``, q the ``fraction`` quantile of chi2_p (Croux & Haesbroeck, 1999;
     Pison et al., 2002, section 3)."""
     q = chi2.ppf(fraction, df=n_features)
-    return fraction / chi2.cdf(q, df=n_features + 2)
+    return float(fraction / chi2.cdf(q, df=n_features + 2))
+
+
+@lru_cache(maxsize=64)
+def _reweight_cutoff(n_features):
+    return float(chi2.ppf(REWEIGHT_QUANTILE, df=n_features))
 
 
 def _mean_cov(points):
-    mean = points.mean(axis=0)
+    mean = points.sum(axis=0) / points.shape[0]
     centred = points - mean
     return mean, centred.T @ centred / points.shape[0]
 
 
-def _sq_distances(Z, mean, cov):
-    """Squared Mahalanobis distances, or None when cov is singular."""
-    values = np.linalg.eigvalsh(cov)
-    if not np.all(np.isfinite(values)) or values[0] <= SINGULAR_RTOL * max(values[-1], 0):
+def _metric(cov):
+    """Eigenvalues and eigenvectors of cov, or None when it is singular."""
+    values, vectors = np.linalg.eigh(cov)
+    if not np.isfinite(values[-1]) or values[0] <= SINGULAR_RTOL * max(values[-1], 0):
         return None
-    centred = Z - mean
-    return np.einsum("ij,ij->i", centred @ np.linalg.inv(cov), centred)
+    return values, vectors
+
+
+def _sq_distances(Z, mean, metric):
+    """Squared Mahalanobis distances in the metric of :func:`_metric`."""
+    values, vectors = metric
+    projected = (Z - mean) @ vectors
+    return (projected * projected) @ (1.0 / values)
 
 
 def _nearest(d, h):
@@ -236,7 +249,7 @@ def _starting_matrices(Z):
     """The six scatter matrices of Hubert, Rousseeuw & Verdonck (2012),
     section 2.2, on standardized data."""
     n, p = Z.shape
-    ranks = np.apply_along_axis(rankdata, 0, Z)
+    ranks = np.column_stack([rankdata(column) for column in Z.T])
     norms = np.linalg.norm(Z, axis=1)
     signs = Z / np.where(norms > 0, norms, 1.0)[:, None]
     half = Z[_nearest(norms, (n + 1) // 2)]
@@ -275,13 +288,13 @@ def _concentrate(Z, subset, h):
     member[subset] = True
     for _ in range(MAX_C_STEPS):
         mean, cov = _mean_cov(Z[member])
-        d = _sq_distances(Z, mean, cov)
-        if d is None:
+        metric = _metric(cov)
+        if metric is None:
             return 0.0, member
         new = np.zeros_like(member)
-        new[_nearest(d, h)] = True
+        new[_nearest(_sq_distances(Z, mean, metric), h)] = True
         if np.array_equal(new, member):
-            break
+            return float(np.prod(metric[0])), member
         member = new
     return float(np.linalg.det(_mean_cov(Z[member])[1])), member
 
@@ -314,19 +327,15 @@ def deterministic_mcd(X):
     results = []
     for S in _starting_matrices(Z):
         start = _start(Z, S)
-        if start is None:
+        metric = None if start is None else _metric(start[1])
+        if metric is not None:
+            nearest = _nearest(_sq_distances(Z, start[0], metric), max((n + 1) // 2, p + 1))
+            mean, cov = _mean_cov(Z[nearest])
+            metric = _metric(cov)
+        if metric is None:
             results.append((0.0, None))
-            continue
-        d = _sq_distances(Z, *start)
-        if d is None:
-            results.append((0.0, None))
-            continue
-        mean, cov = _mean_cov(Z[_nearest(d, max((n + 1) // 2, p + 1))])
-        d = _sq_distances(Z, mean, cov)
-        if d is None:
-            results.append((0.0, None))
-            continue
-        results.append(_concentrate(Z, _nearest(d, h), h))
+        else:
+            results.append(_concentrate(Z, _nearest(_sq_distances(Z, mean, metric), h), h))
     determinants = np.array([det for det, _ in results])
     found = [i for i, (_, member) in enumerate(results) if member is not None]
     if not found:
@@ -340,11 +349,11 @@ def deterministic_mcd(X):
             "covariance determinant is singular."
         )
     raw_location, raw_covariance = _mean_cov(Xs[member])
-    d = _sq_distances(Xs, raw_location, raw_covariance)
-    if d is None:
+    metric = _metric(raw_covariance)
+    if metric is None:
         raise ExactFitError("The minimum covariance determinant is singular.")
-    d = d / consistency_factor(p, h / n)
-    keep = d < chi2.ppf(REWEIGHT_QUANTILE, df=p)
+    d = _sq_distances(Xs, raw_location, metric) / consistency_factor(p, h / n)
+    keep = d < _reweight_cutoff(p)
     location, covariance = _mean_cov(Xs[keep])
     covariance = covariance * consistency_factor(p, REWEIGHT_QUANTILE)
     raw_support = np.zeros(n, dtype=bool)

@@ -3,6 +3,12 @@
 Targets: modified band depth of 20,000 curves x 200 points; at n = 2,000
 the rank formula at least 100x faster than enumerating the pairs, measured
 in the same run; fit and score cost of the detector growing as n log n.
+Last, fit time against n for each method and for the robust covariance
+alone, with the least-squares line a + b n (the scale target: every time
+within 5% of the line, a below 10 ms) and seconds / (n log2 n): the depths
+rank the values at each grid point and Qn selects among pairwise
+differences, so n log n (and log^2 n for Qn) is the honest model; the
+line shows how close to linear that is over the sizes measured.
 
 Usage::
 
@@ -59,6 +65,7 @@ def main():
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--quick", action="store_true")
     parser.add_argument("--enumerated", type=int, default=3)
+    parser.add_argument("--repeat", type=int, default=3)
     args = parser.parse_args()
     big, m = (4_000, 50) if args.quick else (20_000, 200)
     n_ratio = 300 if args.quick else 2_000
@@ -89,7 +96,56 @@ def main():
             seconds, _ = timed(lambda d=detector, X=X: d.fit(X).score_samples(X))
             print(f"{method:<16} {n:>7} {seconds:>9.3f} "
                   f"{1e6 * seconds / (n * np.log2(n)):>22.3f}")
+    fit_scaling(sizes, m, args.repeat)
 
+
+#: the fits timed against n: label -> detector parameters ("depth" with a
+#: fixed contamination: the automatic cutoff's bootstrap repeats the depth
+#: 50 times per round of trimming, and the number of rounds depends on the
+#: data)
+FITS = {
+    "boxplot": {"method": "boxplot"},
+    "magnitude_shape": {"method": "magnitude_shape"},
+    "depth (mbd, 0.1)": {"method": "depth", "contamination": 0.1},
+    "depth (integrated)": {"method": "depth", "depth": "integrated",
+                           "contamination": 0.1},
+}
+
+
+def line_verdict(ns, seconds):
+    """Least-squares line a + b n; largest relative distance from it."""
+    ns, seconds = np.asarray(ns, dtype=float), np.asarray(seconds)
+    slope, intercept = np.polyfit(ns, seconds, 1)
+    off = np.abs(seconds - (intercept + slope * ns)) / seconds
+    return intercept, off.max()
+
+
+def fit_scaling(sizes, m, repeat):
+    """fit time against n for each method and for the robust covariance
+    alone (DetMCD of n points in 2 dimensions): the line a + b n (target:
+    every time within 5% of it, a < 10 ms) and seconds / (n log2 n)."""
+    from skfunc._robust_covariance import deterministic_mcd
+
+    print(f"\nfit time against n (CPU seconds, best of {repeat}; m = {m}); "
+          "line a + b n: target off line <= 0.05, a < 10 ms")
+    print(f"{'fit':<20} " + "".join(f"{n:>10}" for n in sizes)
+          + f"{'a (ms)':>10} {'off line':>9}  s / (n log2 n) x 1e6")
+    rows = {label: (lambda t, X, p=params: CurveOutlierDetector(grid=t, **p).fit(X))
+            for label, params in FITS.items()}
+    rows["DetMCD, 2-d points"] = lambda t, X: deterministic_mcd(X[:, [0, -1]])
+    data = {n: curves(n, m, seed=3) for n in sizes}
+    for label, fit in rows.items():
+        fit(*data[sizes[0]])  # warm-up
+        seconds = dict.fromkeys(sizes, np.inf)
+        for _ in range(repeat):  # interleaved: load hits every size alike
+            for n in sizes:
+                spent, _ = timed(lambda n=n, fit=fit: fit(*data[n]))
+                seconds[n] = min(seconds[n], spent)
+        times = [seconds[n] for n in sizes]
+        a, off = line_verdict(sizes, times)
+        per = "  ".join(f"{1e6 * s / (n * np.log2(n)):.2f}" for n, s in zip(sizes, times))
+        print(f"{label:<20} " + "".join(f"{s:>10.4f}" for s in times)
+              + f"{1e3 * a:>10.1f} {off:>9.3f}  {per}")
 
 if __name__ == "__main__":
     main()
