@@ -277,18 +277,19 @@ class CurveOutlierDetector(ShortReprMixin, OutlierMixin, BaseEstimator):
             self.reference_, cutoff = (self._trimmed(X, weights)
                                        if self.contamination == "auto" else (X, None))
         self.central_lower_ = self.central_upper_ = None
-        self.location_ = self.covariance_ = None
+        self.location_ = self.covariance_ = points = None
         if self.method == "boxplot":
             depth = DEPTHS[self.depth](X, X, weights)
             _, self.central_lower_, self.central_upper_ = central_region(X, depth)
         elif self.method == "magnitude_shape":
-            self._fit_covariance(self._ms_points(X, weights))
-        scores = self._scores(X, weights)
+            points = self._ms_points(X, weights)  # scored and told apart below
+            self._fit_covariance(points)
+        scores = self._scores(X, weights, points)
         if self.contamination == "auto":
             self.offset_ = self._auto_offset(cutoff)
         else:
             self.offset_ = float(np.percentile(scores, 100.0 * self.contamination))
-        self.outlier_kind_ = self._kinds(X, scores - self.offset_ < 0, weights)
+        self.outlier_kind_ = self._kinds(X, scores - self.offset_ < 0, weights, points)
         return self
 
     def _fit_covariance(self, points):
@@ -367,23 +368,28 @@ class CurveOutlierDetector(ShortReprMixin, OutlierMixin, BaseEstimator):
         mo, vo = self._outlyingness(X, weights)
         return np.column_stack([mo, np.cbrt(vo)])
 
-    def _scores(self, X, weights):
+    def _scores(self, X, weights, points=None):
+        """Scores of X; ``points`` are its (MO, VO^(1/3)) when known."""
         if self.method == "depth":
             return DEPTHS[self.depth](X, self.reference_, weights)
         if self.method == "boxplot":
             return -fence_exceedance(X, self.central_lower_, self.central_upper_)
-        points = self._ms_points(X, weights) - self.location_
+        if points is None:
+            points = self._ms_points(X, weights)
+        points = points - self.location_
         precision = np.linalg.inv(self.covariance_)
         return -np.einsum("ij,jk,ik->i", points, precision, points)
 
-    def _kinds(self, X, flagged, weights):
+    def _kinds(self, X, flagged, weights, points=None):
         kinds = np.full(X.shape[0], KINDS[0], dtype=f"<U{max(map(len, KINDS))}")
         if self.method == "depth":
             kinds[flagged] = "unspecified"
         elif self.method == "boxplot":
             kinds[flagged] = "magnitude"
         else:
-            mo, vo = self._ms_points(X, weights).T
+            if points is None:
+                points = self._ms_points(X, weights)
+            mo, vo = points.T
             z_mag = (mo - self.location_[0]) ** 2 / self.covariance_[0, 0]
             z_shape = np.where(vo > self.location_[1],
                                (vo - self.location_[1]) ** 2 / self.covariance_[1, 1],
@@ -464,7 +470,9 @@ class CurveOutlierDetector(ShortReprMixin, OutlierMixin, BaseEstimator):
         check_is_fitted(self)
         X = self._validate(X, reset=False)
         weights = time_weights(self.grid_, X.shape[1])
-        return self._kinds(X, self._scores(X, weights) - self.offset_ < 0, weights)
+        points = self._ms_points(X, weights) if self.method == "magnitude_shape" else None
+        return self._kinds(X, self._scores(X, weights, points) - self.offset_ < 0,
+                           weights, points)
 
     @fill_doc
     def outlyingness(self, X):

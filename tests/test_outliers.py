@@ -115,7 +115,8 @@ def test_boxplot_rule_false_positives_are_rare():
 def test_magnitude_shape_false_positives_are_few():
     # The 0.993 chi-square cutoff's nominal rate is 0.7 %; measured 3.9 % on
     # clean curves over 100 replicates with VO's cube root (docs/outliers.rst)
-    # and 14 % with VO itself (with scikit-learn's MinCovDet). Bound 6 %: the cutoff on raw VO fails it.
+    # and 14 % with VO itself (with scikit-learn's MinCovDet). Bound 6 %: the
+    # cutoff on raw VO fails it.
     _, false_positive = rates("none", "magnitude_shape", n_replicates=10)
     assert false_positive <= 0.06
 

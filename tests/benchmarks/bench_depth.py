@@ -66,6 +66,8 @@ def main():
     parser.add_argument("--quick", action="store_true")
     parser.add_argument("--enumerated", type=int, default=3)
     parser.add_argument("--repeat", type=int, default=3)
+    parser.add_argument("--fit-scaling", action="store_true",
+                        help="only time the fits against n")
     parser.add_argument("--mcd-comparison", action="store_true",
                         help="only compare DetMCD with scikit-learn's MinCovDet")
     args = parser.parse_args()
@@ -76,6 +78,9 @@ def main():
     n_ratio = 300 if args.quick else 2_000
     sizes = [500, 1_000, 2_000, 4_000] if args.quick else [2_500, 5_000, 10_000,
                                                             20_000]
+    if args.fit_scaling:
+        fit_scaling(sizes, m, args.repeat)
+        return
 
     t, X = curves(big, m)
     seconds, _ = timed(lambda: modified_band_depth(X, grid=t))
