@@ -78,8 +78,9 @@ def main():
     n_ratio = 300 if args.quick else 2_000
     sizes = [500, 1_000, 2_000, 4_000] if args.quick else [2_500, 5_000, 10_000,
                                                             20_000]
+    repeat = 1 if args.quick else args.repeat  # quick: a smoke run
     if args.fit_scaling:
-        fit_scaling(sizes, m, args.repeat)
+        fit_scaling(sizes, m, repeat)
         return
 
     t, X = curves(big, m)
@@ -106,7 +107,7 @@ def main():
             seconds, _ = timed(lambda d=detector, X=X: d.fit(X).score_samples(X))
             print(f"{method:<16} {n:>7} {seconds:>9.3f} "
                   f"{1e6 * seconds / (n * np.log2(n)):>22.3f}")
-    fit_scaling(sizes, m, args.repeat)
+    fit_scaling(sizes, m, repeat)
 
 
 #: the fits timed against n: label -> detector parameters ("depth" with a
