@@ -19,7 +19,9 @@ imports it unless a Dask array was passed in. Validation of Dask input lives
 in :mod:`skfunc._dask`.
 """
 
+import contextlib
 import sys
+import threading
 import warnings
 
 import numpy as np
@@ -70,11 +72,66 @@ def compute_statistics(statistics, X, *others, merge=merge_sums):
     if is_dask_array(X):
         return _reduce_blocks(statistics, X, *others, merge=merge)
     width = sum(int(np.prod(a.shape[1:])) for a in (X, *others) if a is not None)
-    parts = [
-        statistics(X[rows], *(None if o is None else o[rows] for o in others))
-        for rows in row_blocks(X.shape[0], width)
-    ]
-    return merge(*parts)
+    blocks = row_blocks(X.shape[0], width)
+
+    def block_statistics(rows):
+        return statistics(X[rows], *(None if o is None else o[rows] for o in others))
+
+    pool = getattr(_BLOCK_THREADS, "pool", None)
+    if pool is None or X.shape[0] < 2:
+        return merge(*map(block_statistics, blocks))
+    # the same number of blocks on every thread, each within CHUNK_VALUES
+    n_blocks = -(-len(blocks) // pool.n_threads) * pool.n_threads
+    rows = -(-X.shape[0] // n_blocks)
+    # (in order: merged as in one thread)
+    return merge(*pool.executor.map(block_statistics, row_blocks(X.shape[0], width, rows)))
+
+
+#: the block threads of :func:`block_threads`, per calling thread
+_BLOCK_THREADS = threading.local()
+
+
+class _BlockPool:
+    def __init__(self, executor, n_threads):
+        self.executor, self.n_threads = executor, n_threads
+
+
+@contextlib.contextmanager
+def block_threads(n_threads):
+    """Within the block, :func:`compute_statistics` called from this thread
+    computes the statistics of numpy row blocks on ``n_threads`` threads (in
+    equal blocks, a multiple of ``n_threads`` of them), with BLAS at one
+    thread, and merges them in order: the result is that of one thread.
+
+    For statistics functions that are safe to run at once on several blocks
+    (they read the estimator, never write it). Every step of a block's
+    statistics then runs on all cores (the matrix product, the reductions,
+    the page faults of a memory-mapped file), where BLAS threads would share
+    only the product.
+    """
+    from concurrent.futures import ThreadPoolExecutor
+
+    from ._logistic_path import single_thread_blas
+
+    if n_threads <= 1:
+        yield
+        return
+    previous = getattr(_BLOCK_THREADS, "pool", None)
+    with ThreadPoolExecutor(n_threads, thread_name_prefix="skfunc-blocks") as executor, \
+            single_thread_blas():
+        _BLOCK_THREADS.pool = _BlockPool(executor, n_threads)
+        try:
+            yield
+        finally:
+            _BLOCK_THREADS.pool = previous
+
+
+def blas_thread_count():
+    """The threads BLAS would use now (an outer threadpoolctl limit included)."""
+    from threadpoolctl import threadpool_info
+
+    return max((info["num_threads"] for info in threadpool_info()
+                if info["user_api"] == "blas"), default=1)
 
 
 def count_rows(X, *others):

@@ -109,6 +109,12 @@ class AdditiveFitMixin(ShortReprMixin):
     #: (parameter, fitted attribute) of each grid that later batches share
     _batch_grids = (("grid", "grid_"),)
 
+    #: whether the function of ``_statistics_function`` may run on several
+    #: row blocks at once (it reads the estimator, never writes it):
+    #: :func:`skfunc.utils.partial_fit_batches` then spreads a batch's blocks
+    #: over threads (:func:`skfunc._blocks.block_threads`)
+    _statistics_thread_safe = False
+
     def _forget(self):
         """Drop the running statistics: the next batch starts afresh."""
         vars(self).pop("n_samples_seen_", None)

@@ -340,6 +340,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
     #: the coordinates; per fold of rows when alpha is chosen by
     #: cross-validation), merged exactly in any order (Chan et al., 1979)
     _merge_statistics = staticmethod(merge_fold_moments)
+    _statistics_thread_safe = True  # the coordinate maps only read
 
     @fill_doc
     def fit(self, X, y=None):

@@ -47,6 +47,7 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
 
     #: fit runs on skfunc._blocks.compute_statistics, so dask arrays are accepted
     _accepts_dask = True
+    _statistics_thread_safe = True  # the design's statistics only read
 
     def __sklearn_tags__(self):
         tags = super().__sklearn_tags__()
@@ -117,13 +118,14 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
         product = operator if isinstance(operator, BandedProduct) else BandedProduct(operator)
         m = X.shape[1] - self.n_covariates
         covariates = [data_exponent(X[:, j]) for j in range(m, X.shape[1])]
-        design = product(X[:, :m])
+        with np.errstate(over="ignore", invalid="ignore"):  # checked below
+            design = product(X[:, :m])
         curves = data_exponent(design)
         if curves <= PRODUCT_FIRST_MIN_EXPONENT or not np.isfinite(design).all():
             curves = data_exponent(X[:, :m])
             design = product(scale_down(X[:, :m], curves))
-        else:
-            design = scale_down(design, curves)
+        else:  # in place: times a power of two, exact as scale_down's ldexp
+            design *= np.ldexp(1.0, -curves)
         z_exp = np.array([curves] * product.shape[1] + covariates, dtype=np.int64)
         if covariates:
             design = np.hstack([design] + [scale_down(X[:, j:j + 1], e)
