@@ -20,6 +20,7 @@ in :mod:`skfunc._dask`.
 """
 
 import contextlib
+import contextvars
 import sys
 import threading
 import warnings
@@ -83,8 +84,11 @@ def compute_statistics(statistics, X, *others, merge=merge_sums):
     # the same number of blocks on every thread, each within CHUNK_VALUES
     n_blocks = -(-len(blocks) // pool.n_threads) * pool.n_threads
     rows = -(-X.shape[0] // n_blocks)
-    # (in order: merged as in one thread)
-    return merge(*pool.executor.map(block_statistics, row_blocks(X.shape[0], width, rows)))
+    # in the caller's context (numpy's errstate), and in order: merged as in
+    # one thread
+    context = contextvars.copy_context()
+    return merge(*pool.executor.map(lambda rows: context.copy().run(block_statistics, rows),
+                                    row_blocks(X.shape[0], width, rows)))
 
 
 #: the block threads of :func:`block_threads`, per calling thread
@@ -365,9 +369,11 @@ class BandedProduct:
     equals it up to rounding. An operator without that structure (a Fourier
     basis, a dense map) is applied as one product.
 
-    Every value of X enters the result (a NaN or inf anywhere in X makes a
-    value of the result non-finite) as long as no row of the operator is
-    all zero; ``unused`` lists those rows (grid points no column sees).
+    Every value of X enters the result: a NaN or inf anywhere in X makes
+    its row of the result non-finite, also in the columns of X that no
+    column of the operator sees (``unused``: all-zero rows of the operator),
+    for which the row's first value is set to NaN. So the result can stand
+    in for a scan of X.
     """
 
     def __init__(self, operator):
@@ -393,14 +399,19 @@ class BandedProduct:
         if work < 0.6 * self.operator.size:  # else one dense product is as fast
             self.segments = segments
 
-    def __call__(self, X):
-        """``X @ operator`` in float64 (a new array), by row blocks."""
-        if self.segments is None:
-            return chunked_matmul(X, self.operator)
-        out = np.zeros((X.shape[0], self.shape[1]))
-        for rows in row_blocks(*X.shape):
-            block = np.asarray(X[rows], dtype=np.float64)
-            target = out[rows]
-            for columns, selected, part in self.segments:
-                target[:, selected] += block[:, columns] @ part
+    def __call__(self, X, operator=None):
+        """``X @ operator`` in float64 (a new array), by row blocks; or
+        ``X @ operator`` for another ``operator`` with the same zero rows
+        (one product; unused columns handled alike)."""
+        if self.segments is None or operator is not None:
+            out = chunked_matmul(X, self.operator if operator is None else operator)
+        else:
+            out = np.zeros((X.shape[0], self.shape[1]))
+            for rows in row_blocks(*X.shape):
+                block = np.asarray(X[rows], dtype=np.float64)
+                target = out[rows]
+                for columns, selected, part in self.segments:
+                    target[:, selected] += block[:, columns] @ part
+        if self.unused.size and out.shape[1]:
+            out[~np.isfinite(X[:, self.unused]).all(axis=1), 0] = np.nan
         return out

@@ -147,8 +147,8 @@ class CurveCoordinates:
         """The coordinates (n, K) of X's rows, a new float64 array."""
         if not self.features:
             return np.asarray(X, dtype=np.float64) * self.root_w
-        if self._integrate.segments is None:
-            return chunked_matmul(X, self.projection_.T)
+        if self._integrate.segments is None:  # (projection_ has W Phi's zero rows)
+            return self._integrate(X, self.projection_.T)
         return self._integrate(X) @ self._rest
 
     def centered(self, X):

@@ -48,6 +48,7 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
     #: fit runs on skfunc._blocks.compute_statistics, so dask arrays are accepted
     _accepts_dask = True
     _statistics_thread_safe = True  # the design's statistics only read
+    _finite_from_statistics = True  # every value enters the design (BandedProduct)
 
     def __sklearn_tags__(self):
         tags = super().__sklearn_tags__()
@@ -58,17 +59,18 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
         tags.regressor_tags.poor_score = True
         return tags
 
-    def _validate_fit_input(self, X, y, sample_weight, reset=True):
+    def _validate_fit_input(self, X, y, sample_weight, reset=True, check_finite=True):
         X, y = self._validate_curves(
             X, y, reset=reset, y_numeric=True, multi_output=True,
-            ensure_min_samples=2 if reset else 1,
+            ensure_min_samples=2 if reset else 1, check_finite=check_finite,
         )
         return X, y, check_sample_weight(sample_weight, X)
 
-    def _validate_batch(self, X, y, sample_weight, first):
+    def _validate_batch(self, X, y, sample_weight, first, check_finite=True):
         if first:
             self._check_pooled()
-        X, y, sample_weight = self._validate_fit_input(X, y, sample_weight, first)
+        X, y, sample_weight = self._validate_fit_input(X, y, sample_weight, first,
+                                                       check_finite)
         if first:
             self._target_ndim = y.ndim
         else:
@@ -94,6 +96,8 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
         1e-300 neither overflow nor underflow.
         """
         Z, z_exp, y, y_exp = self._scaled_design(X, y, operator)
+        if sample_weight is not None and np.all(sample_weight == 1):
+            sample_weight = None  # the same sums, without multiplying by ones
         stats = centered_cross_products(Z, y, sample_weight)
         stats.update(x_exp=z_exp, y_exp=y_exp)
         return stats

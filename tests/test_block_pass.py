@@ -63,9 +63,16 @@ def test_banded_product_sees_every_value():
             with np.errstate(invalid="ignore"):  # inf * 0, as in numpy's product
                 out = product(X_bad)
             assert not np.isfinite(out[1]).all() and np.isfinite(out[[0, 2]]).all()
-    # grid points no column sees are reported
+    # also at grid points no column of the operator sees
     operator[7] = 0.0
-    assert BandedProduct(operator).unused.tolist() == [7]
+    product = BandedProduct(operator)
+    assert product.unused.tolist() == [7]
+    X_bad = X.copy()
+    X_bad[2, 7] = np.inf
+    with np.errstate(invalid="ignore"):
+        out = product(X_bad)
+    assert not np.isfinite(out[2]).all() and np.isfinite(out[:2]).all()
+    np.testing.assert_allclose(out[:2], X[:2] @ operator, rtol=1e-13)
 
 
 def test_dense_operators_stay_one_product():
@@ -184,3 +191,24 @@ def test_ridge_design_falls_back_where_the_product_overflows():
     np.testing.assert_allclose(np.ldexp(design, z_exp - unit_exp) / a, unit, rtol=1e-12)
     big = FunctionalRidge(grid=grid, alpha=1e-3).fit(X * a, y)
     np.testing.assert_allclose(big.predict(X * a), ridge.predict(X), rtol=1e-8)
+
+
+@pytest.mark.parametrize("n_threads", [1, 2])
+@pytest.mark.parametrize("bad", [np.nan, np.inf])
+@pytest.mark.parametrize("make", [lambda: FunctionalPCA(2, basis="bspline"),
+                                  lambda: FunctionalRidge()])
+def test_unscanned_batches_still_name_the_bad_value(monkeypatch, make, bad, n_threads):
+    # These fits do not scan a batch for NaN and inf before its statistics
+    # (every value enters them); non-finite statistics send the batch through
+    # the full validation, which must raise the usual error, with the
+    # position of a NaN within the batch, and no RuntimeWarning on the way
+    # (pytest turns warnings into errors here). A fit that let the value
+    # through would return NaN coefficients or fail elsewhere.
+    monkeypatch.setattr(_blocks, "CHUNK_VALUES", 40 * 300)  # several blocks per batch
+    X = np.random.default_rng(0).standard_normal((300, 300)).cumsum(axis=1)
+    X[170, 233] = bad
+    y = None if isinstance(make(), FunctionalPCA) else X[:, 3]
+    match = ("contains NaN \\(first at row 70, column 233\\)" if np.isnan(bad)
+             else "contains infinity")
+    with pytest.raises(ValueError, match=match):
+        partial_fit_batches(make(), X, y, batch_size=100, n_threads=n_threads)
