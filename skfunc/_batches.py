@@ -9,6 +9,7 @@ progress. Re-exported by :mod:`skfunc.utils`.
 import mmap
 import sys
 import time
+from concurrent.futures import ThreadPoolExecutor
 from numbers import Integral
 
 import numpy as np
@@ -195,11 +196,16 @@ def _array_batches(X, y, sample_weight, batch_size):
     pages = _MappedPages(X)
 
     def generate():
-        for start in starts:
-            rows = slice(start, min(start + int(batch_size), n_rows))
-            pages.prefetch(slice(rows.stop, min(rows.stop + int(batch_size), n_rows)))
-            yield (_take(X, rows), *(None if o is None else _take(o, rows) for o in others))
-            pages.release(rows)
+        # the finished batch's pages are released on another thread while the
+        # next batch is computed (madvise lets go of the interpreter's lock;
+        # releasing 128 MiB took 3-40 ms here, a good part of a batch's pass)
+        with ThreadPoolExecutor(1, thread_name_prefix="skfunc-pages") as advice:
+            for start in starts:
+                rows = slice(start, min(start + int(batch_size), n_rows))
+                pages.prefetch(slice(rows.stop, min(rows.stop + int(batch_size), n_rows)))
+                yield (_take(X, rows), *(None if o is None else _take(o, rows) for o in others))
+                if pages.map is not None:
+                    advice.submit(pages.release, rows)
 
     return generate(), n_rows, len(starts)
 
