@@ -362,6 +362,8 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
     #: the coordinates; per fold of rows when alpha is chosen by
     #: cross-validation), merged exactly in any order (Chan et al., 1979)
     _merge_statistics = staticmethod(merge_fold_moments)
+    _statistics_thread_safe = True  # the coordinate maps only read
+    _finite_from_statistics = True  # every value enters the coordinates
 
     @fill_doc
     def fit(self, X, y=None):
@@ -390,16 +392,17 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         self._fit_svd(X, coords, solver)
         return self
 
-    def _validate_batch(self, X, y, sample_weight, first):
+    def _validate_batch(self, X, y, sample_weight, first, check_finite=True):
         validated = getattr(self, "_batch_validated", None)
-        X = self._validate_new_batch(X, first) if validated is None else validated
+        X = (self._validate_new_batch(X, first, check_finite) if validated is None
+             else validated)
         if not self._chooses_alpha():
             return (X,)
         # the position of each row over all batches: its fold of curves
         offset = 0 if first else self.n_samples_seen_
         return X, np.arange(offset, offset + X.shape[0])
 
-    def _validate_new_batch(self, X, first):
+    def _validate_new_batch(self, X, first, check_finite=True):
         if not first:
             self._check_chunk_width(X)
             if not hasattr(self, "_partial_statistics"):
@@ -411,7 +414,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
                 )
         else:
             self._check_basis_parameters()
-        X = self._validate(X, reset=first)
+        X = self._validate(X, reset=first, check_finite=check_finite)
         if first and is_dask_array(X):
             self._solver(X.shape[0], self._coordinates().n_coordinates, True)
         return X
@@ -531,8 +534,9 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         self.singular_values_ = np.sqrt(variances * (n - 1))
 
     # ------------------------------------------------------------- helpers
-    def _validate(self, X, reset):
-        return validate_curves(self, X, reset=reset, ensure_min_samples=2 if reset else 1)
+    def _validate(self, X, reset, check_finite=True):
+        return validate_curves(self, X, reset=reset, ensure_min_samples=2 if reset else 1,
+                               check_finite=check_finite)
 
     def _check_chunk_width(self, X):
         width = getattr(X, "shape", (None, None))[-1]
