@@ -32,7 +32,7 @@ from ._fpca import (
     sign_convention,
     svd_directions,
 )
-from ._validation import BASIS_CONSTRAINTS, basis_for, validate_curves
+from ._validation import BASIS_CONSTRAINTS, CHANNEL_N_BASIS, basis_for, validate_curves
 
 SVD_SOLVERS = ("auto", "full", "covariance_eigh", "randomized")
 
@@ -72,15 +72,18 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         is smoothed (``alpha_`` is 0), and ``n_basis``, ``interior_knots``,
         ``alpha > 0`` or candidate alphas are an error (they describe a
         basis; pass one, e.g. ``basis="bspline"``).
-    n_basis : int, default=None
+    n_basis : int or dict, default=None
         Number of basis functions; None means the basis' default (20
         B-splines, 21 Fourier functions, 12 Legendre polynomials) capped by
         the number of grid points. Must not exceed the number of grid points:
-        each curve is fitted by least squares.
+        each curve is fitted by least squares. With channels, a dict
+        ``{channel: n_basis}`` gives each channel its own (a channel left
+        out takes None).
     degree : int, default=3
         Degree of the B-splines. Ignored without a B-spline basis.
-    interior_knots : array-like of shape (n_knots,), default=None
-        Interior B-spline knots; None means evenly spaced.
+    interior_knots : array-like of shape (n_knots,) or dict, default=None
+        Interior B-spline knots; None means evenly spaced. With channels, a
+        dict ``{channel: knots}`` (a channel left out takes None).
     alpha : "auto", float or array-like, default="auto"
         Roughness penalty of smoothed components (with a basis): they
         maximise ``var <x, phi>`` subject to ``||phi||^2 + alpha ||D^q
@@ -135,9 +138,13 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         (Happ and Greven, 2018), so a change of units of one channel changes
         no score; "equal": 1 for every channel (channels in one unit on a
         shared domain, Ramsay and Silverman, 2005, sec. 8.5); a dict gives a
-        positive weight per channel name. Ignored without channels. With
-        channels, components are not smoothed: pass ``alpha=0`` with a
-        basis.
+        positive weight per channel name. Ignored without channels.
+        Smoothed components (a basis and ``alpha`` "auto" or > 0) maximise
+        the weighted variance subject to ``sum_c v_c (||phi_c||^2 + alpha
+        ||D^q phi_c||^2) = 1``, each channel's norms taken on its own
+        domain mapped to [0, 1]: one alpha means the same smoothing in
+        every channel, whatever its unit, and the components are
+        orthonormal in the weighted inner product.
 
     Attributes
     ----------
@@ -220,6 +227,19 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
     over grid points: its eigenvalues scale with the number of points, and on
     uneven grids densely sampled stretches weigh more (see Examples).
 
+    For the same reason the scores are about ``1 / sqrt(m)`` times the
+    scores of ``PCA`` on ``m`` evenly spaced values (an L2 norm on the
+    domain mapped to [0, 1] is the root mean square of the values), and
+    they stay the same on every grid. A model downstream with a fixed
+    penalty sees them at another size than PCA's scores:
+    ``LogisticRegression()`` (``C=1``) penalizes them about ``m`` times
+    harder than after ``PCA``. As scikit-learn advises for penalized linear
+    models, put a ``StandardScaler`` between them
+    (``make_pipeline(FunctionalPCA(10), StandardScaler(),
+    LogisticRegression())``), which whitens the scores, or choose ``C`` by
+    cross-validation; :doc:`/open_data` compares the recipe with ``PCA`` on
+    open data.
+
     With a basis and ``alpha="auto"``, alpha is chosen by cross-validation
     over curves (Rice and Silverman, 1991; Ramsay and Silverman, 2005, sec.
     9.3.3): curves are dealt to 10 folds by their row position (row ``i``
@@ -228,7 +248,8 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
     reconstruct the fold's curves; the criterion is the summed squared L2
     reconstruction error with ``n_components`` components (with
     ``n_components`` None or a fraction, summed over every number of
-    components, 1, 2, ..., so that each counts). It needs only the count,
+    components, 1, 2, ..., so that each counts; with channels, in the
+    weighted norm ``sum_c v_c ||.||^2``). It needs only the count,
     mean and scatter of ``z`` per fold, so it runs from the same additive
     statistics as the fit. A choice at the smallest or largest candidate
     gives an ``AlphaAtEdgeWarning``; at the smallest,
@@ -316,6 +337,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
             None,
         ],
         **BASIS_CONSTRAINTS,
+        **CHANNEL_N_BASIS,
         "basis": [StrOptions(set(BASES)), None],
         "alpha": ALPHA_CONSTRAINT,
         "svd_solver": [StrOptions(set(SVD_SOLVERS))],
@@ -340,6 +362,8 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
     #: the coordinates; per fold of rows when alpha is chosen by
     #: cross-validation), merged exactly in any order (Chan et al., 1979)
     _merge_statistics = staticmethod(merge_fold_moments)
+    _statistics_thread_safe = True  # the coordinate maps only read
+    _finite_from_statistics = True  # every value enters the coordinates
 
     @fill_doc
     def fit(self, X, y=None):
@@ -368,16 +392,17 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         self._fit_svd(X, coords, solver)
         return self
 
-    def _validate_batch(self, X, y, sample_weight, first):
+    def _validate_batch(self, X, y, sample_weight, first, check_finite=True):
         validated = getattr(self, "_batch_validated", None)
-        X = self._validate_new_batch(X, first) if validated is None else validated
+        X = (self._validate_new_batch(X, first, check_finite) if validated is None
+             else validated)
         if not self._chooses_alpha():
             return (X,)
         # the position of each row over all batches: its fold of curves
         offset = 0 if first else self.n_samples_seen_
         return X, np.arange(offset, offset + X.shape[0])
 
-    def _validate_new_batch(self, X, first):
+    def _validate_new_batch(self, X, first, check_finite=True):
         if not first:
             self._check_chunk_width(X)
             if not hasattr(self, "_partial_statistics"):
@@ -389,7 +414,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
                 )
         else:
             self._check_basis_parameters()
-        X = self._validate(X, reset=first)
+        X = self._validate(X, reset=first, check_finite=check_finite)
         if first and is_dask_array(X):
             self._solver(X.shape[0], self._coordinates().n_coordinates, True)
         return X
@@ -427,6 +452,9 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         n_wanted = self._n_wanted(n, coords.n_coordinates)
         alpha, alphas, scores = self._fixed_alpha(), None, None
         if folds is not None:
+            if d is not None:  # the folds in the channels' weighted coordinates
+                folds = dict(folds, mean=folds["mean"] * d,
+                             scatter=folds["scatter"] * np.outer(d, d))
             alpha, alphas, scores = cross_validate_alpha(
                 folds, coords,
                 self.n_components if isinstance(self.n_components, Integral) else None,
@@ -506,8 +534,9 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         self.singular_values_ = np.sqrt(variances * (n - 1))
 
     # ------------------------------------------------------------- helpers
-    def _validate(self, X, reset):
-        return validate_curves(self, X, reset=reset, ensure_min_samples=2 if reset else 1)
+    def _validate(self, X, reset, check_finite=True):
+        return validate_curves(self, X, reset=reset, ensure_min_samples=2 if reset else 1,
+                               check_finite=check_finite)
 
     def _check_chunk_width(self, X):
         width = getattr(X, "shape", (None, None))[-1]

@@ -16,7 +16,7 @@ from sklearn.utils.validation import validate_data
 
 from ._bases import BASES, default_n_basis, default_period, make_basis
 from ._blocks import is_dask_array
-from ._channels import channel_basis, check_channels, set_channels
+from ._channels import PER_CHANNEL_BASIS, channel_basis, check_channels, set_channels
 from ._dask import validate_dask
 from ._grid import QUADRATURES, check_grid, grid_from_labels, resolve_grid
 
@@ -33,6 +33,11 @@ BASIS_CONSTRAINTS = {
     "grid": ["array-like", Mapping, None],
     "quadrature": [StrOptions(set(QUADRATURES))],
 }
+
+#: ``n_basis`` of the estimators that accept several channels: also a
+#: mapping ``{channel: n_basis}`` (``interior_knots`` likewise, already
+#: array-like); see :func:`skfunc._channels.channel_basis`
+CHANNEL_N_BASIS = {"n_basis": [*BASIS_CONSTRAINTS["n_basis"], Mapping]}
 
 
 #: what to do about missing values, for estimators that need complete curves
@@ -54,7 +59,7 @@ def check_level(level, name="level"):
 
 
 def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
-                    n_covariates=0, **check_params):
+                    n_covariates=0, check_finite=True, **check_params):
     """Validate curves (rows of X) and their grid.
 
     On ``reset`` the grid is resolved from ``estimator.grid``, numeric
@@ -64,6 +69,11 @@ def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
 
     ``n_covariates`` trailing columns of X are scalar covariates, not curve
     values: the grid (and its column labels) covers the other columns only.
+
+    ``check_finite=False`` skips the scan of X for NaN and inf (y is still
+    checked), for a caller that finds them in a result every value of X
+    enters and then validates again, naming the first
+    (:meth:`skfunc._fit.AdditiveFitMixin._partial_fit_statistics`).
 
     Dask arrays are validated without gathering them (see ``skfunc._dask``)
     and returned as lazy dask arrays.
@@ -99,7 +109,7 @@ def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
             y,
             reset=reset,
             dtype=[np.float64, np.float32],
-            ensure_all_finite="allow-nan" if allow_nan else True,
+            ensure_all_finite=("allow-nan" if allow_nan else True) if check_finite else False,
             **check_params,
         )
     except ValueError as exc:
@@ -267,6 +277,14 @@ def basis_for(estimator, grid, cap=True):
 
 
 def _single_basis_for(estimator, grid, cap):
+    for param in PER_CHANNEL_BASIS:
+        if isinstance(getattr(estimator, param, None), Mapping):
+            raise ValueError(
+                f"{param} is a mapping by channel, but {type(estimator).__name__} "
+                "was given one curve per row; give one value, or declare the "
+                "channels (grid a mapping {channel: grid}, or (channel, time) "
+                "DataFrame columns)."
+            )
     grid = check_grid(grid)
     name = estimator.basis
     degree = getattr(estimator, "degree", 3)
