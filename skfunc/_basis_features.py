@@ -18,7 +18,7 @@ from ._estimator import store_init_params
 from ._fit import AdditiveTransformerMixin
 from ._grid import DATA_TERMS
 from ._smoother import PenalizedFitMixin
-from ._validation import BASIS_CONSTRAINTS, basis_for, validate_curves
+from ._validation import BASIS_CONSTRAINTS, CHANNEL_N_BASIS, basis_for, validate_curves
 
 
 def orthonormal_operators(basis, grid, weights):
@@ -126,10 +126,11 @@ class BasisFeatures(ChannelwiseMixin, PenalizedFitMixin, AdditiveTransformerMixi
     _accepts_dask = True
 
     #: with channels, these may be mappings {channel: value}
-    _channel_params = ("interior_knots",)
+    _channel_params = ("n_basis", "interior_knots")
 
     _parameter_constraints = {
         **BASIS_CONSTRAINTS,
+        **CHANNEL_N_BASIS,
         **ALPHA_CONSTRAINTS,
         "data_term": [StrOptions(set(DATA_TERMS))],
     }

@@ -31,6 +31,7 @@ How the estimators use it:
 """
 
 from collections.abc import Mapping
+from contextlib import contextmanager
 from numbers import Integral
 
 import numpy as np
@@ -384,11 +385,79 @@ class ChannelBasis:
         return sum(b.null_dimension(order) for b in self.bases)
 
 
+#: basis parameters that may be given per channel, as a mapping
+#: ``{channel: value}`` (a channel left out takes None, the default)
+PER_CHANNEL_BASIS = ("n_basis", "interior_knots")
+
+
+def per_channel(estimator, param, names):
+    """The values of parameter ``param`` for the channels ``names``: the
+    one value for every channel, or a mapping's entry by channel (None for a
+    channel left out). A mapping naming an unknown channel is an error."""
+    value = getattr(estimator, param, None)
+    if not is_channel_grid(value):
+        return [value] * len(names)
+    unknown = [n for n in value if n not in names]
+    if unknown:
+        raise ValueError(
+            f"{param} names channel(s) {unknown} that X does not have; channels: "
+            f"{names} (a channel left out takes the default, None)."
+        )
+    values = [value.get(n) for n in names]
+    if param == "n_basis":
+        for name, v in zip(names, values):
+            if v is not None and (not isinstance(v, Integral) or isinstance(v, bool)
+                                  or v < 1):
+                raise ValueError(
+                    f"n_basis[{name!r}] must be an int >= 1 or None (the default "
+                    f"for that channel's grid); got {v!r}."
+                )
+    return values
+
+
+@contextmanager
+def naming_channel(name):
+    """Prefix a ValueError/TypeError raised inside with ``Channel 'name': ``
+    (same exception type), so a per-channel failure says which channel."""
+    try:
+        yield
+    except (ValueError, TypeError) as exc:
+        if str(exc).startswith("Channel "):
+            raise
+        try:
+            renamed = type(exc)(f"Channel {name!r}: {exc}")
+        except Exception:  # an exception type with another signature
+            raise exc from None
+        raise renamed from exc
+
+
+class _ChannelView:
+    """An estimator's parameters as one channel sees them (the per-channel
+    values of :data:`PER_CHANNEL_BASIS`, everything else the estimator's)."""
+
+    def __init__(self, estimator, values):
+        self._estimator = estimator
+        vars(self).update(values)
+
+    def __getattr__(self, name):
+        if name == "_estimator":
+            raise AttributeError(name)
+        return getattr(self._estimator, name)
+
+
 def channel_basis(single_basis_for, estimator, cap):
     """The :class:`ChannelBasis` of a fitted multichannel estimator: each
-    channel's basis from the estimator's basis parameters on its own grid."""
+    channel's basis from the estimator's basis parameters on its own grid
+    (``n_basis`` and ``interior_knots`` may be mappings by channel)."""
     names, grids = fitted_channels(estimator)
-    return ChannelBasis([single_basis_for(estimator, g, cap) for g in grids], grids)
+    values = {p: per_channel(estimator, p, names) for p in PER_CHANNEL_BASIS
+              if hasattr(estimator, p)}
+    bases = []
+    for c, (name, g) in enumerate(zip(names, grids)):
+        view = _ChannelView(estimator, {p: v[c] for p, v in values.items()})
+        with naming_channel(name):
+            bases.append(single_basis_for(view, g, cap))
+    return ChannelBasis(bases, grids)
 
 
 def channel_penalty(basis, order, gram):
@@ -481,12 +550,6 @@ def channel_coordinates(estimator, coords, squares, mean):
     if layout is None:
         return coords, None
     names = layout[0]
-    if estimator._smooths():
-        raise ValueError(
-            "Smoothed components (alpha > 0, or alpha='auto' with a basis) are "
-            "not available with several channels; pass alpha=0 (components of "
-            "the basis expansions) or basis=None."
-        )
     if estimator.basis is None:
         sizes = estimator.channel_sizes_
     else:
@@ -582,22 +645,16 @@ class ChannelwiseMixin:
         X = self._validate_channels(X, reset=first)
         if first:
             for param in self._channel_params:
-                value = getattr(self, param)
-                if is_channel_grid(value):
-                    unknown = [n for n in value if n not in self.channel_names_]
-                    if unknown:
-                        raise ValueError(
-                            f"{param} names channel(s) {unknown} that X does not "
-                            f"have; channels: {self.channel_names_}."
-                        )
+                per_channel(self, param, self.channel_names_)
             layout = fitted_channels(self)
             estimators = [self._channel_clone(n, g) for n, g in zip(*layout)]
         else:
             estimators = self.channel_estimators_
         fitted = []
-        for est, block in zip(estimators, _blocks(self)):
+        for name, est, block in zip(self.channel_names_, estimators, _blocks(self)):
             part = X[:, block]
-            fitted.append(est.partial_fit(part) if partial else est.fit(part))
+            with naming_channel(name):
+                fitted.append(est.partial_fit(part) if partial else est.fit(part))
         self.channel_estimators_ = fitted
         self.n_samples_seen_ = int(fitted[0].n_samples_seen_)
         self._collect_channels()

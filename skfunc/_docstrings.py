@@ -85,7 +85,9 @@ grid : array-like of shape (n_features,) or dict, default=None
     labels of a DataFrame (with ``(channel, time)`` labels: each channel's
     times), else evenly spaced points on [0, 1]. A dict ``{channel: grid}``
     declares several channels, their columns side by side in that order,
-    each on its own grid (see :doc:`/channels`).
+    each on its own grid (see :doc:`/channels`); ``n_basis`` and
+    ``interior_knots`` may then be dicts ``{channel: value}`` (a channel
+    left out takes None).
 """,
     "aligner_output": """
 output : {"curves", "warps", "warp_coordinates"}, default="curves"
@@ -263,7 +265,9 @@ grid : array-like of shape (n_features - n_covariates,) or dict, default=None
     DataFrame column labels, else evenly spaced points on [0, 1]. A dict
     ``{channel: grid}`` (or ``(channel, time)`` DataFrame labels) declares
     several channels, side by side in that order, each with its own
-    coefficient function (see :doc:`/channels`).
+    coefficient function (see :doc:`/channels`); ``n_basis`` and
+    ``interior_knots`` may then be dicts ``{channel: value}`` (a channel
+    left out takes None).
 %(quadrature)s
 """,
     "scalar_outcome_attributes": """

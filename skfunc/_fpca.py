@@ -29,6 +29,19 @@ orthonormal in the penalized inner product; they are re-orthonormalised in
 L2 in order (Gram-Schmidt), so scores are ordinary L2 inner products and
 their variances add up to at most the total variance.
 
+Several channels (multivariate components, Happ and Greven, 2018): the
+basis is block diagonal (:class:`~skfunc._channels.ChannelBasis`) and the
+penalty one block per channel, each relative to its own Gram matrix
+(:func:`~skfunc._channels.channel_penalty`: channel ``c``'s roughness on
+its domain mapped to [0, 1] times its domain's length), so the penalized
+norm is ``sum_c (||phi_c||^2 + alpha ||D^q phi_c||^2)`` with both norms of
+each channel on its unit domain. Channel weights ``v_c`` enter only
+through the coordinates (:class:`~skfunc._channels.ScaledCoordinates`,
+``z_c`` times ``sqrt(v_c)``): in them the weighted norm and the weighted
+penalty are the unweighted ones, so the same data-free path serves every
+choice of weights, and the components are orthonormal in ``sum_c v_c <f_c,
+g_c>``.
+
 ``alpha="auto"`` chooses alpha by cross-validation over curves of the
 reconstruction error (Rice and Silverman, 1991, sec. 3; Ramsay and
 Silverman, 2005, sec. 9.3.3): rows are dealt to :data:`CV_FOLDS` folds by
@@ -52,9 +65,10 @@ from ._alpha import CV_FOLDS, best_index, candidates_for
 from ._bases import gram_sqrt
 from ._basis_features import orthonormal_operators
 from ._blocks import chunked_matmul, output_dtype
+from ._channels import channel_penalty
 from ._dask import check_rows
 from ._moments import merge_moments, moments, scale_moments
-from ._penalized import SplitPath, penalty_for
+from ._penalized import SplitPath
 
 
 class ComponentCurvesMixin:
@@ -113,7 +127,9 @@ class CurveCoordinates:
             gram = basis.gram()
             self.root, self.inv_root = gram_sqrt(gram)
             if penalty_order is not None:
-                self.path = SplitPath(gram, penalty_for(basis, penalty_order))
+                # (several channels: a block per channel, each relative to
+                # its own Gram matrix, so the same alpha on every channel)
+                self.path = SplitPath(gram, channel_penalty(basis, penalty_order, gram))
 
     @property
     def n_coordinates(self):

@@ -32,7 +32,7 @@ from ._fpca import (
     sign_convention,
     svd_directions,
 )
-from ._validation import BASIS_CONSTRAINTS, basis_for, validate_curves
+from ._validation import BASIS_CONSTRAINTS, CHANNEL_N_BASIS, basis_for, validate_curves
 
 SVD_SOLVERS = ("auto", "full", "covariance_eigh", "randomized")
 
@@ -72,15 +72,18 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         is smoothed (``alpha_`` is 0), and ``n_basis``, ``interior_knots``,
         ``alpha > 0`` or candidate alphas are an error (they describe a
         basis; pass one, e.g. ``basis="bspline"``).
-    n_basis : int, default=None
+    n_basis : int or dict, default=None
         Number of basis functions; None means the basis' default (20
         B-splines, 21 Fourier functions, 12 Legendre polynomials) capped by
         the number of grid points. Must not exceed the number of grid points:
-        each curve is fitted by least squares.
+        each curve is fitted by least squares. With channels, a dict
+        ``{channel: n_basis}`` gives each channel its own (a channel left
+        out takes None).
     degree : int, default=3
         Degree of the B-splines. Ignored without a B-spline basis.
-    interior_knots : array-like of shape (n_knots,), default=None
-        Interior B-spline knots; None means evenly spaced.
+    interior_knots : array-like of shape (n_knots,) or dict, default=None
+        Interior B-spline knots; None means evenly spaced. With channels, a
+        dict ``{channel: knots}`` (a channel left out takes None).
     alpha : "auto", float or array-like, default="auto"
         Roughness penalty of smoothed components (with a basis): they
         maximise ``var <x, phi>`` subject to ``||phi||^2 + alpha ||D^q
@@ -135,9 +138,13 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         (Happ and Greven, 2018), so a change of units of one channel changes
         no score; "equal": 1 for every channel (channels in one unit on a
         shared domain, Ramsay and Silverman, 2005, sec. 8.5); a dict gives a
-        positive weight per channel name. Ignored without channels. With
-        channels, components are not smoothed: pass ``alpha=0`` with a
-        basis.
+        positive weight per channel name. Ignored without channels.
+        Smoothed components (a basis and ``alpha`` "auto" or > 0) maximise
+        the weighted variance subject to ``sum_c v_c (||phi_c||^2 + alpha
+        ||D^q phi_c||^2) = 1``, each channel's norms taken on its own
+        domain mapped to [0, 1]: one alpha means the same smoothing in
+        every channel, whatever its unit, and the components are
+        orthonormal in the weighted inner product.
 
     Attributes
     ----------
@@ -228,7 +235,8 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
     reconstruct the fold's curves; the criterion is the summed squared L2
     reconstruction error with ``n_components`` components (with
     ``n_components`` None or a fraction, summed over every number of
-    components, 1, 2, ..., so that each counts). It needs only the count,
+    components, 1, 2, ..., so that each counts; with channels, in the
+    weighted norm ``sum_c v_c ||.||^2``). It needs only the count,
     mean and scatter of ``z`` per fold, so it runs from the same additive
     statistics as the fit. A choice at the smallest or largest candidate
     gives an ``AlphaAtEdgeWarning``; at the smallest,
@@ -316,6 +324,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
             None,
         ],
         **BASIS_CONSTRAINTS,
+        **CHANNEL_N_BASIS,
         "basis": [StrOptions(set(BASES)), None],
         "alpha": ALPHA_CONSTRAINT,
         "svd_solver": [StrOptions(set(SVD_SOLVERS))],
@@ -427,6 +436,9 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         n_wanted = self._n_wanted(n, coords.n_coordinates)
         alpha, alphas, scores = self._fixed_alpha(), None, None
         if folds is not None:
+            if d is not None:  # the folds in the channels' weighted coordinates
+                folds = dict(folds, mean=folds["mean"] * d,
+                             scatter=folds["scatter"] * np.outer(d, d))
             alpha, alphas, scores = cross_validate_alpha(
                 folds, coords,
                 self.n_components if isinstance(self.n_components, Integral) else None,

@@ -37,11 +37,18 @@ from ._blocks import chunked_matmul, output_dtype
 from ._channels import channel_penalty, curve_weights
 from ._estimator import ShortReprMixin
 from ._penalized import NotIdentifiableError, SplitPath
-from ._validation import BASIS_CONSTRAINTS, basis_for, check_level, validate_curves
+from ._validation import (
+    BASIS_CONSTRAINTS,
+    CHANNEL_N_BASIS,
+    basis_for,
+    check_level,
+    validate_curves,
+)
 
 #: parameter constraints common to every model on the integrated design
 DESIGN_CONSTRAINTS = {
     **{key: value for key, value in BASIS_CONSTRAINTS.items() if key != "period"},
+    **CHANNEL_N_BASIS,
     "n_covariates": [Interval(Integral, 0, None, closed="left")],
     "fit_intercept": ["boolean"],
 }

@@ -61,7 +61,7 @@ from ._penalized import (
     penalty_for,
     power_of_two_scale,
 )
-from ._validation import BASIS_CONSTRAINTS, basis_for, validate_curves
+from ._validation import BASIS_CONSTRAINTS, CHANNEL_N_BASIS, basis_for, validate_curves
 
 
 def _check_eval_points(points):
@@ -538,10 +538,11 @@ class CurveSmoother(ChannelwiseMixin, PenalizedFitMixin, AdditiveTransformerMixi
     _accepts_dask = True
 
     #: with channels, these may be mappings {channel: value}
-    _channel_params = ("eval_points", "interior_knots")
+    _channel_params = ("n_basis", "eval_points", "interior_knots")
 
     _parameter_constraints = {
         **BASIS_CONSTRAINTS,
+        **CHANNEL_N_BASIS,
         **ALPHA_CONSTRAINTS,
         "per_curve": ["boolean"],
         "data_term": [StrOptions(set(DATA_TERMS))],

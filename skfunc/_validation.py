@@ -16,7 +16,7 @@ from sklearn.utils.validation import validate_data
 
 from ._bases import BASES, default_n_basis, default_period, make_basis
 from ._blocks import is_dask_array
-from ._channels import channel_basis, check_channels, set_channels
+from ._channels import PER_CHANNEL_BASIS, channel_basis, check_channels, set_channels
 from ._dask import validate_dask
 from ._grid import QUADRATURES, check_grid, grid_from_labels, resolve_grid
 
@@ -33,6 +33,11 @@ BASIS_CONSTRAINTS = {
     "grid": ["array-like", Mapping, None],
     "quadrature": [StrOptions(set(QUADRATURES))],
 }
+
+#: ``n_basis`` of the estimators that accept several channels: also a
+#: mapping ``{channel: n_basis}`` (``interior_knots`` likewise, already
+#: array-like); see :func:`skfunc._channels.channel_basis`
+CHANNEL_N_BASIS = {"n_basis": [*BASIS_CONSTRAINTS["n_basis"], Mapping]}
 
 
 #: what to do about missing values, for estimators that need complete curves
@@ -267,6 +272,14 @@ def basis_for(estimator, grid, cap=True):
 
 
 def _single_basis_for(estimator, grid, cap):
+    for param in PER_CHANNEL_BASIS:
+        if isinstance(getattr(estimator, param, None), Mapping):
+            raise ValueError(
+                f"{param} is a mapping by channel, but {type(estimator).__name__} "
+                "was given one curve per row; give one value, or declare the "
+                "channels (grid a mapping {channel: grid}, or (channel, time) "
+                "DataFrame columns)."
+            )
     grid = check_grid(grid)
     name = estimator.basis
     degree = getattr(estimator, "degree", 3)
