@@ -330,7 +330,7 @@ def cross_validation_scores(folds, coords, alphas, n_components):
     _, u = np.linalg.eigh((M + np.swapaxes(M, 2, 3)) / 2)
     y = (W * scale[:, None, :]) @ u[..., ::-1][..., :k_max]  # (F, L, K, k)
     q, _ = np.linalg.qr(y)  # Gram-Schmidt in L2, in order (signs do not matter)
-    captured = np.einsum("flka,fkj,flja->fla", q, held, q)
+    captured = np.sum(q * (held[:, None] @ q), axis=2)  # (F, L, k): y' S~ y
     errors = np.trace(held, axis1=1, axis2=2)[:, None, None] - np.cumsum(captured, axis=2)
     if n_components is not None:
         per_fold = errors[np.arange(k.size), :, k - 1]
