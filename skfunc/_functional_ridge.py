@@ -21,6 +21,7 @@ from ._alpha import (
     check_alpha,
     choose_alpha,
 )
+from ._blocks import BandedProduct
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._fit import AdditiveRegressorMixin
@@ -38,6 +39,13 @@ from ._penalized import (
 )
 from ._weights import check_sample_weight
 
+#: :meth:`FunctionalRidgeBase._scaled_design` forms the product of the
+#: curves before scaling while the product's largest value is at least
+#: ``2**PRODUCT_FIRST_MIN_EXPONENT``: then a product term that falls below
+#: float64's normal range (``2**-1022``) is off by at most ``2**-1074``, some
+#: ``2**-170`` of the largest value, against the unit roundoff ``2**-53``
+PRODUCT_FIRST_MIN_EXPONENT = -900
+
 
 class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, RegressorMixin,
                           BaseEstimator):
@@ -45,6 +53,8 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
 
     #: fit runs on skfunc._blocks.compute_statistics, so dask arrays are accepted
     _accepts_dask = True
+    _statistics_thread_safe = True  # the design's statistics only read
+    _finite_from_statistics = True  # every value enters the design (BandedProduct)
 
     def __sklearn_tags__(self):
         tags = super().__sklearn_tags__()
@@ -55,17 +65,18 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
         tags.regressor_tags.poor_score = True
         return tags
 
-    def _validate_fit_input(self, X, y, sample_weight, reset=True):
+    def _validate_fit_input(self, X, y, sample_weight, reset=True, check_finite=True):
         X, y = self._validate_curves(
             X, y, reset=reset, y_numeric=True, multi_output=True,
-            ensure_min_samples=2 if reset else 1,
+            ensure_min_samples=2 if reset else 1, check_finite=check_finite,
         )
         return X, y, check_sample_weight(sample_weight, X)
 
-    def _validate_batch(self, X, y, sample_weight, first):
+    def _validate_batch(self, X, y, sample_weight, first, check_finite=True):
         if first:
             self._check_pooled()
-        X, y, sample_weight = self._validate_fit_input(X, y, sample_weight, first)
+        X, y, sample_weight = self._validate_fit_input(X, y, sample_weight, first,
+                                                       check_finite)
         if first:
             self._target_ndim = y.ndim
         else:
@@ -75,8 +86,8 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
     def _statistics_function(self):
         """Statistics of the integrated design, with the integration operator
         computed once per batch."""
-        return partial(self._statistics,
-                       operator=self._integration_operator(self._basis()))
+        return partial(self._statistics, operator=BandedProduct(
+            self._integration_operator(self._basis())))
 
     def _statistics(self, X, y, sample_weight, operator):
         """Additive statistics of one block of curves.
@@ -91,6 +102,8 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
         1e-300 neither overflow nor underflow.
         """
         Z, z_exp, y, y_exp = self._scaled_design(X, y, operator)
+        if sample_weight is not None and np.all(sample_weight == 1):
+            sample_weight = None  # the same sums, without multiplying by ones
         stats = centered_cross_products(Z, y, sample_weight)
         stats.update(x_exp=z_exp, y_exp=y_exp)
         return stats
@@ -101,17 +114,34 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
         for the curves' columns, one per covariate: covariates are
         unpenalized, so scaling each is a change of units that leaves the
         fit unchanged, and covariates in other units than the curves keep
-        their digits) and y divided by ``2**y_exp``."""
+        their digits) and y divided by ``2**y_exp``.
+
+        The curves' columns are the product of the curves as they are
+        (:class:`~skfunc._blocks.BandedProduct`: B-splines are nonzero on a
+        few knot intervals each), scaled afterwards by the exponent of the
+        product (n x K values, not n x m): a power of two commutes with every
+        rounding in between unless a value overflows or falls below
+        float64's normal range. So
+        where the product is not finite, or its largest value is below
+        ``2**`` :data:`PRODUCT_FIRST_MIN_EXPONENT` (curves near 1e-270),
+        the curves are scaled first, by the exponent of their own values."""
+        product = operator if isinstance(operator, BandedProduct) else BandedProduct(operator)
         m = X.shape[1] - self.n_covariates
-        curves = data_exponent(X[:, :m])
         covariates = [data_exponent(X[:, j]) for j in range(m, X.shape[1])]
-        z_exp = np.array([curves] * operator.shape[1] + covariates, dtype=np.int64)
-        X = np.asarray(X, dtype=np.float64)
-        scaled = np.hstack([scale_down(X[:, :m], curves)]
-                           + [scale_down(X[:, j:j + 1], e)
-                              for j, e in zip(range(m, X.shape[1]), covariates)])
+        with np.errstate(over="ignore", invalid="ignore"):  # checked below
+            design = product(X[:, :m])
+        curves = data_exponent(design)
+        if curves <= PRODUCT_FIRST_MIN_EXPONENT or not np.isfinite(design).all():
+            curves = data_exponent(X[:, :m])
+            design = product(scale_down(X[:, :m], curves))
+        else:  # in place: times a power of two, exact as scale_down's ldexp
+            design *= np.ldexp(1.0, -curves)
+        z_exp = np.array([curves] * product.shape[1] + covariates, dtype=np.int64)
+        if covariates:
+            design = np.hstack([design] + [scale_down(X[:, j:j + 1], e)
+                                           for j, e in zip(range(m, X.shape[1]), covariates)])
         y_exp = data_exponent(y)
-        return self._design(scaled, operator), z_exp, scale_down(y, y_exp), y_exp
+        return design, z_exp, scale_down(y, y_exp), y_exp
 
     def _solve(self, stats):
         self._fit_pooled(stats, self._basis(), self._target_ndim)

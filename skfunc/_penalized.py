@@ -83,7 +83,8 @@ def cross_products(Z, y, sample_weight=None):
     y2 = y.reshape(y.shape[0], -1)
     n = Z.shape[0]
     w = np.ones(n) if sample_weight is None else np.asarray(sample_weight, dtype=np.float64)
-    Zw = np.column_stack([w, Z * w[:, None]])
+    # (without weights, Z itself: the same values, one pass over Z less)
+    Zw = np.column_stack([w, Z if sample_weight is None else Z * w[:, None]])
     ywz = (y2.T @ Zw).T  # (K + 1, p): weighted sums of y, then Z'Wy
     yy = np.zeros(y2.shape[1])
     rows = max(1, (1 << 20) // max(y2.shape[1], 1))
@@ -140,7 +141,7 @@ def centered_cross_products(Z, y, sample_weight=None):
     sw = stats["sw"]
     Zc = Z - (stats["z_sum"] / sw if sw > 0 else 0.0)
     yc = y2 - (stats["y_sum"] / sw if sw > 0 else 0.0)
-    Zcw = Zc * w[:, None]
+    Zcw = Zc if sample_weight is None else Zc * w[:, None]
     stats.update(czz=Zcw.T @ Zc, czy=Zcw.T @ yc, cyy=np.einsum("i,ij,ij->j", w, yc, yc))
     return stats
 

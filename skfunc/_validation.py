@@ -59,7 +59,7 @@ def check_level(level, name="level"):
 
 
 def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
-                    n_covariates=0, **check_params):
+                    n_covariates=0, check_finite=True, **check_params):
     """Validate curves (rows of X) and their grid.
 
     On ``reset`` the grid is resolved from ``estimator.grid``, numeric
@@ -69,6 +69,11 @@ def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
 
     ``n_covariates`` trailing columns of X are scalar covariates, not curve
     values: the grid (and its column labels) covers the other columns only.
+
+    ``check_finite=False`` skips the scan of X for NaN and inf (y is still
+    checked), for a caller that finds them in a result every value of X
+    enters and then validates again, naming the first
+    (:meth:`skfunc._fit.AdditiveFitMixin._partial_fit_statistics`).
 
     Dask arrays are validated without gathering them (see ``skfunc._dask``)
     and returned as lazy dask arrays.
@@ -104,7 +109,7 @@ def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
             y,
             reset=reset,
             dtype=[np.float64, np.float32],
-            ensure_all_finite="allow-nan" if allow_nan else True,
+            ensure_all_finite=("allow-nan" if allow_nan else True) if check_finite else False,
             **check_params,
         )
     except ValueError as exc:

@@ -207,139 +207,177 @@ def dynamic_program_warps(grid, q_template, Q, penalty=0.0):
     n, m = Q.shape
     q1 = np.atleast_2d(q_template)
     out = np.empty((n, m))
-    block = max(1, DP_TABLE_VALUES // (m * m))
-    for start in range(0, n, block):
-        rows = slice(start, start + block)
+    steps = len(_steps_for(m))
+    # per curve: the table, its step choices (one byte), and the arrays of
+    # one table row for every step; a template per curve adds its constants
+    per_curve = (m + _PAD) ** 2 + m * m // 8 + _ROW_ARRAYS * steps * m
+    if q1.shape[0] > 1:
+        per_curve += steps * m * m
+    block = max(1, min(DP_TABLE_VALUES // per_curve,
+                       DP_CACHE_VALUES // (_ROW_ARRAYS * steps * m)))
+    for rows in np.array_split(np.arange(n), max(1, -(-n // block))):
         out[rows] = _DynamicProgram(
             grid, q1 if q1.shape[0] == 1 else q1[rows], Q[rows], penalty
         ).warps()
     return out
 
 
-#: values of the dynamic-programming table held at once (curves are
-#: processed in blocks of DP_TABLE_VALUES // m^2)
+#: values (the table and its work arrays) held at once: curves are processed
+#: in blocks of about DP_TABLE_VALUES // (m^2 + 6 x 11 m) curves
 DP_TABLE_VALUES = 6_000_000
+
+#: values of the arrays of one table row (all steps, curves and columns)
+#: held at once: small enough for a core's cache, so that the time per curve
+#: does not grow with the number of curves
+DP_CACHE_VALUES = 131_072  # 1 MB of float64
+
+#: rows and columns of infinite energy before the table (a step reaches at
+#: most 4 back), so that every step reads the table without a test
+_PAD = 4
+
+#: arrays of one table row per step and curve: lagged curve values, lagged
+#: midpoints, lagged squares, the candidates, a scratch array (and bytes)
+_ROW_ARRAYS = 6
+
+
+def _steps_for(m):
+    """The steps of :data:`DP_STEPS` that fit on m grid points."""
+    return [(di, dj) for di, dj in DP_STEPS if di < m and dj < m]
 
 
 class _DynamicProgram:
-    """The table of minimal energies for a block of curves and its path."""
+    """The table of minimal energies for a block of curves and its path.
+
+    The recursion runs one row of the table at a time; within a row, every
+    step, curve and column at once (arrays of shape (steps, curves,
+    columns)), with the curve-side and template-side pieces of every
+    segment computed before the loop, so the Python work per row is a fixed
+    dozen numpy calls. The step of each cell's minimum is kept (one byte)
+    and read when walking back. Each candidate is evaluated with the same
+    floating-point operations in the same order as a loop over steps would,
+    so the table and the path do not depend on this arrangement.
+    """
 
     def __init__(self, grid, q_template, Q, penalty):
         t = self.t = grid
         m = t.size
         # one template for every curve (1, m), or one per curve (n, m)
-        self.q1 = np.atleast_2d(np.asarray(q_template, dtype=np.float64))
+        self.q1 = q1 = np.atleast_2d(np.asarray(q_template, dtype=np.float64))
         self.Q = Q
-        self.steps = [(di, dj) for di, dj in DP_STEPS if di < m and dj < m]
+        self.steps = _steps_for(m)
         self.pen = penalty * (
-            (self.q1 ** 2) @ quadrature_weights(t) / (t[-1] - t[0])
+            (q1 ** 2) @ quadrature_weights(t) / (t[-1] - t[0])
         )[:, None]
-        # curve-side pieces per dj: 4 x the midpoint values and Simpson's
-        # rule for int q^2 over [t_l, t_{l+dj}], shape (n, m - dj)
-        self.mid4, self.sq = {}, {}
-        for dj in {dj for _, dj in self.steps}:
-            qm = interp_rows(0.5 * (t[:-dj] + t[dj:]), t, Q)
-            self.mid4[dj] = 4.0 * qm
-            self.sq[dj] = ((t[dj:] - t[:-dj]) / 6.0) * (
-                Q[:, :-dj] ** 2 + Q[:, dj:] ** 2 + 4.0 * qm * qm
-            )
-
-    def _template_side(self, i, k, rows=None):
-        """Segment [t_k, t_i] of the template: length, end and midpoint
-        values and Simpson's rule for int q1^2. Scalars i, k give (n1, 1)
-        columns; arrays i, k (S, r) of the curves ``rows`` give (S, r)."""
-        t, q1 = self.t, self.q1
-        h = t[i] - t[k]
-        if rows is None:
-            q1k, q1i = q1[:, k, None], q1[:, i, None]
-            q1m = interp_rows(np.array([0.5 * (t[i] + t[k])]), t, q1)
-        else:
-            which = rows if q1.shape[0] > 1 else np.zeros_like(rows)
-            q1k, q1i = q1[which, k], q1[which, i]
-            mid = 0.5 * (t[i] + t[k])
-            idx = np.clip(np.searchsorted(t, mid, side="right") - 1, 0, t.size - 2)
-            frac = (mid - t[idx]) / (t[idx + 1] - t[idx])
-            q1m = q1[which, idx] * (1.0 - frac) + q1[which, idx + 1] * frac
-        return h, q1k, q1i, q1m, h / 6.0 * (q1k ** 2 + q1i ** 2 + 4.0 * q1m * q1m)
+        n, S = Q.shape[0], len(self.steps)
+        di = np.array([s[0] for s in self.steps])
+        dj = np.array([s[1] for s in self.steps])
+        # curve side, per step, lagged so that column j holds the values at
+        # the segment's start column j - dj: the curve, 4 x its midpoint
+        # value and Simpson's rule for int q^2 over [t_{j-dj}, t_j]
+        self.lagged = np.zeros((3, S, n, m))
+        for d in set(dj.tolist()):
+            mid = interp_rows(0.5 * (t[:-d] + t[d:]), t, Q)
+            sq = ((t[d:] - t[:-d]) / 6.0) * (Q[:, :-d] ** 2 + Q[:, d:] ** 2
+                                             + 4.0 * mid * mid)
+            for s in np.flatnonzero(dj == d):
+                self.lagged[:, s, :, d:] = Q[:, :-d], 4.0 * mid, sq
+        # template side, per table row i and step: the segment [t_k, t_i]
+        # (k = i - di; rows before the table get a finite stand-in, their
+        # energy is infinite), and the slope factors per column
+        i = np.arange(m)[:, None]
+        k = np.maximum(i - di, 0)
+        h = np.where(i - di >= 0, t[i] - t[k], 1.0)  # (m, S)
+        q1k, q1i = q1[:, k], q1[:, np.broadcast_to(i, k.shape)]  # (n1, m, S)
+        q1m = _interp_columns(0.5 * (t[i] + t[k]), t, q1)
+        a1 = h / 6.0 * (q1k ** 2 + q1i ** 2 + 4.0 * q1m * q1m)
+        span = np.zeros((S, m))
+        for s, step in enumerate(self.steps):
+            span[s, step[1]:] = t[step[1]:] - t[:-step[1]]
+        r = np.sqrt(span / h[:, :, None])  # (m, S, m)
+        self.factor = -(h[:, :, None] / 3.0) * r
+        # the template's values as (m, S, n1, 1) columns of one row each
+        self.q1k, self.q1i, self.q1m = (np.moveaxis(v, 0, -1)[..., None]
+                                        for v in (q1k, q1i, q1m))
+        self.constant = (np.moveaxis(a1, 0, -1)[..., None]
+                         + self.pen * h[:, :, None, None]
+                         * ((r - 1.0) ** 2)[:, :, None, :])
+        self.di, self.dj = di, dj
 
     def warps(self):
-        t, Q = self.t, self.Q
-        n, m = Q.shape
-        energy = np.full((m, n, m), np.inf)
-        energy[0, :, 0] = 0.0
-        cand = np.empty((n, m))
+        Q, m, S = self.Q, self.t.size, len(self.steps)
+        n = Q.shape[0]
+        W = m + _PAD
+        table = np.full((W, n, W), np.inf)
+        table[_PAD, :, _PAD] = 0.0
+        self.energy = table[_PAD:, :, _PAD:]
+        choice = np.zeros((m, n, m), dtype=np.int8)
+        # each step's predecessors (k, l) = (i - di, j - dj) of a whole row:
+        # a slice of the padded table
+        preceding = [(_PAD - di, slice(_PAD - dj, _PAD - dj + m))
+                     for di, dj in self.steps]
+        lag_q, lag_mid, lag_sq = self.lagged
+        c = np.empty((S, n, m))
+        scratch = np.empty((S, n, m))
+        here = np.empty((max(n, self.q1.shape[0]), m))
+        first = np.empty((S, n, m), dtype=np.int8)
+        order = np.arange(S, dtype=np.int8)[:, None, None]
         for i in range(1, m):
-            row = energy[i]
-            for di, dj in self.steps:
-                if di > i:
-                    continue
-                k = i - di
-                h, q1k, q1i, q1m, a1 = self._template_side(i, k)
-                r = np.sqrt((t[dj:] - t[:-dj]) / h)
-                c = cand[:, dj:]
-                np.multiply(Q[:, :-dj], q1k, out=c)
-                c += q1i * Q[:, dj:]
-                c += q1m * self.mid4[dj]
-                c *= -(h / 3.0) * r
-                c += self.sq[dj]
-                c += energy[k, :, :-dj]
-                c += a1 + self.pen * h * (r - 1.0) ** 2
-                np.minimum(row[:, dj:], c, out=row[:, dj:])
-        self.energy = energy
-        return self._backtrack()
+            np.multiply(lag_q, self.q1k[i], out=c)
+            c += np.multiply(self.q1i[i, 0], Q, out=here)  # the same for every step
+            c += np.multiply(self.q1m[i], lag_mid, out=scratch)
+            c *= self.factor[i][:, None, :]
+            c += lag_sq
+            for s, (back, cols) in enumerate(preceding):
+                scratch[s] = table[i + back, :, cols]
+            c += scratch
+            c += self.constant[i]
+            row = np.min(c, axis=0, out=self.energy[i])
+            # the first step reaching the minimum (as argmin, faster)
+            np.copyto(first, S)
+            np.copyto(first, order, where=c == row)
+            np.min(first, axis=0, out=choice[i])
+        return self._backtrack(choice)
 
-    def _backtrack(self):
-        """Walk back from (m-1, m-1), choosing at each cell the step whose
-        predecessor energy plus segment cost is smallest (all steps and all
-        curves at once)."""
-        t, Q, energy = self.t, self.Q, self.energy
-        n, m = Q.shape
-        di = np.array([s[0] for s in self.steps])[:, None]
-        dj = np.array([s[1] for s in self.steps])[:, None]
-        # midpoint values and squares per step, padded to m columns
-        mid4 = np.zeros((len(self.steps), n, m))
-        sq = np.zeros((len(self.steps), n, m))
-        for s, (_, step_j) in enumerate(self.steps):
-            mid4[s, :, : m - step_j] = self.mid4[step_j]
-            sq[s, :, : m - step_j] = self.sq[step_j]
-        phi = np.empty((n, m))
-        phi[:, -1] = t[-1]
+    def _backtrack(self, choice):
+        """Walk back from (m-1, m-1) along the kept steps (all curves at
+        once); the warp is linear between the path's vertices."""
+        t = self.t
+        n, m = self.Q.shape
+        di, dj = np.r_[self.di, 0], np.r_[self.dj, 0]  # a last step that stays
+        choice[0] = len(self.steps)
+        rows = np.arange(n)
+        vertex = np.zeros((n, m), dtype=bool)
+        target = np.zeros((n, m), dtype=np.intp)  # the path's column at a vertex row
+        vertex[:, -1], target[:, -1] = True, m - 1
         i = np.full(n, m - 1)
         j = np.full(n, m - 1)
-        rows = np.arange(n)
-        steps_idx = np.arange(len(self.steps))[:, None]
-        while True:
-            r = rows[i > 0]
-            if r.size == 0:
-                break
-            ir, jr = i[r][None, :], j[r][None, :]
-            k, ll = ir - di, jr - dj
-            ok = (k >= 0) & (ll >= 0)
-            k, ll = np.maximum(k, 0), np.maximum(ll, 0)
-            h, q1k, q1i, q1m, a1 = self._template_side(ir, k, r[None, :])
-            h = np.where(ok, h, 1.0)
-            rr = np.sqrt((t[jr] - t[ll]) / h)
-            pen = self.pen[r if self.pen.shape[0] > 1 else 0, 0]
-            cost = (
-                -(h / 3.0) * rr * (
-                    q1k * Q[r, ll] + q1i * Q[r, jr] + q1m * mid4[steps_idx, r, ll]
-                )
-                + sq[steps_idx, r, ll] + energy[k, r, ll] + a1
-                + pen * h * (rr - 1.0) ** 2
-            )
-            best = np.argmin(np.where(ok, cost, np.inf), axis=0)
-            cols = np.arange(r.size)
-            bk, bl = k[best, cols], ll[best, cols]
-            ir, jr = ir[0], jr[0]
-            slope = (t[jr] - t[bl]) / (t[ir] - t[bk])
-            for offset in range(int(di.max())):
-                col = ir - 1 - offset
-                fill = col >= bk
-                phi[r[fill], col[fill]] = t[bl[fill]] + slope[fill] * (
-                    t[col[fill]] - t[bk[fill]]
-                )
-            i[r], j[r] = bk, bl
+        while i.any():
+            step = choice[i, rows, j]
+            i, j = i - di[step], j - dj[step]
+            vertex[rows, i], target[rows, i] = True, j
+        # each column c lies on the segment from the last vertex k <= c to
+        # the next vertex above k
+        index = np.arange(m)
+        start = np.maximum.accumulate(np.where(vertex, index, 0), axis=1)
+        above = np.where(vertex, index, m - 1)[:, ::-1]
+        stop = np.minimum.accumulate(above, axis=1)[:, ::-1]
+        stop = np.concatenate([stop[:, 1:], np.full((n, 1), m - 1)], axis=1)
+        bk, bl = start[:, :-1], np.take_along_axis(target, start[:, :-1], axis=1)
+        ir, jr = stop[:, :-1], np.take_along_axis(target, stop[:, :-1], axis=1)
+        slope = (t[jr] - t[bl]) / (t[ir] - t[bk])
+        phi = np.empty((n, m))
+        phi[:, :-1] = t[bl] + slope * (t[index[:-1]] - t[bk])
+        phi[:, -1] = t[-1]
         return phi
+
+
+def _interp_columns(x, grid, Y):
+    """:func:`interp_rows` at the points ``x`` (any shape), the same
+    arithmetic: shape (n, *x.shape)."""
+    idx = np.clip(np.searchsorted(grid, x, side="right") - 1, 0, grid.size - 2)
+    left = grid[idx]
+    frac = np.clip((x - left) / (grid[idx + 1] - left), 0.0, 1.0)
+    return Y[:, idx] * (1.0 - frac) + Y[:, idx + 1] * frac
 
 
 def pchip_rows(knots, values, x):

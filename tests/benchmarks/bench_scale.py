@@ -32,6 +32,7 @@ them, so read the ratios rather than the seconds.
 
 import argparse
 import json
+import os
 import subprocess
 import sys
 import warnings
@@ -177,6 +178,14 @@ def all_scaling_cases():
     return out
 
 
+def _load():
+    """The machine's load averages (other processes inflate the times)."""
+    try:
+        return ", ".join(f"{value:.1f}" for value in os.getloadavg())
+    except OSError:  # not available on this platform
+        return "unknown"
+
+
 def _rows(data, n):
     return {key: value[:n] for key, value in data.items()}
 
@@ -195,6 +204,7 @@ def bench_scaling(sizes, repeat, names=None):
           "multiple of the sizes); relative distance from the least-squares line "
           "a + b n (target: <= 0.05, a < 10 ms), per-row time relative to the "
           "largest n, and fit time / bare X @ Phi (200 x 20) at the same n")
+    print(f"load average (1, 5, 15 min) at the start: {_load()}")
     print(f"{'numpy X @ Phi':24s} {'n':16s}" + "".join(f"{n:>12,}" for n in sizes))
     print(f"{'':24s} {'seconds':16s}" + "".join(f"{base[n]:12.4f}" for n in sizes))
     verdicts = {}
@@ -224,6 +234,7 @@ def bench_scaling(sizes, repeat, names=None):
             if factor == 1.0:
                 print(f"{'':24s} {'/ X @ Phi':16s}"
                       + "".join(f"{seconds[n] / base[n]:12.2f}" for n in sizes))
+    print(f"load average (1, 5, 15 min) at the end: {_load()}")
     print("linear in n (every time within 5% of the line a + b n, a < 10 ms): "
           + "; ".join(f"{name} {'yes' if ok else 'NO'} (a = {a * 1e3:.1f} ms, "
                       f"off line {d:.3f})" for name, (ok, a, d) in verdicts.items()))

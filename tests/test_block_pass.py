@@ -1,0 +1,214 @@
+"""The per-block pass of the additive fits: the B-spline product by grid
+segments, row blocks on threads, and the scaling of FunctionalRidge's
+design after its product."""
+
+import threading
+import warnings
+
+import numpy as np
+import pytest
+from threadpoolctl import threadpool_info, threadpool_limits
+
+from skfunc import _blocks
+from skfunc._blocks import BandedProduct, block_threads, compute_statistics
+from skfunc._fpca import _fold_rows
+from skfunc.datasets import make_smooth_regression
+from skfunc.decomposition import FunctionalPCA
+from skfunc.linear_model import FunctionalRidge
+from skfunc.utils import partial_fit_batches
+
+GRID = np.linspace(0, 1, 500)
+
+
+def _operator(n_basis, grid=GRID):
+    """W Phi of FunctionalRidge's default B-splines on ``grid``."""
+    X = np.random.default_rng(0).standard_normal((20, grid.size)).cumsum(axis=1)
+    ridge = FunctionalRidge(grid=grid, n_basis=n_basis, alpha=1.0).fit(X, X[:, 3])
+    return ridge._integration_operator(ridge._basis())
+
+
+@pytest.mark.parametrize("n_basis", [20, 39])
+def test_banded_product_is_the_dense_product(n_basis):
+    # Reference: numpy's dense product X @ operator. The segments only
+    # regroup its sums (the skipped terms are exact zeros), so the two agree
+    # to rounding: 1e-13 of the largest value is a few hundred ulps of sums
+    # of 500 terms (the error bound of a sum grows with its length: common
+    # practice).
+    operator = _operator(n_basis)
+    product = BandedProduct(operator)
+    assert product.segments is not None and len(product.segments) == 4
+    # the segments must cut the work: B-splines of degree 3 touch about
+    # K / 4 + 3 columns per quarter of the grid
+    assert sum(part.size for *_, part in product.segments) < 0.6 * operator.size
+    X = np.random.default_rng(1).standard_normal((300, GRID.size))
+    dense = X @ operator
+    np.testing.assert_allclose(product(X), dense, rtol=0, atol=1e-13 * np.abs(dense).max())
+    # float32 rows are read as float64, as by the dense path
+    np.testing.assert_allclose(product(X.astype(np.float32)),
+                               X.astype(np.float32).astype(np.float64) @ operator,
+                               rtol=0, atol=1e-13 * np.abs(dense).max())
+
+
+def test_banded_product_sees_every_value():
+    # A NaN or inf anywhere in X must reach the result (the fits rely on it
+    # to reject such curves): a product that skipped a grid point would not.
+    operator = _operator(20)
+    product = BandedProduct(operator)
+    assert product.unused.size == 0
+    X = np.ones((3, GRID.size))
+    for column in (0, 124, 125, 250, 499):  # segment edges included
+        for bad in (np.nan, np.inf):
+            X_bad = X.copy()
+            X_bad[1, column] = bad
+            with np.errstate(invalid="ignore"):  # inf * 0, as in numpy's product
+                out = product(X_bad)
+            assert not np.isfinite(out[1]).all() and np.isfinite(out[[0, 2]]).all()
+    # also at grid points no column of the operator sees
+    operator[7] = 0.0
+    product = BandedProduct(operator)
+    assert product.unused.tolist() == [7]
+    X_bad = X.copy()
+    X_bad[2, 7] = np.inf
+    with np.errstate(invalid="ignore"):
+        out = product(X_bad)
+    assert not np.isfinite(out[2]).all() and np.isfinite(out[:2]).all()
+    np.testing.assert_allclose(out[:2], X[:2] @ operator, rtol=1e-13)
+
+
+def test_dense_operators_stay_one_product():
+    operator = np.random.default_rng(2).standard_normal((500, 40))  # no zeros
+    assert BandedProduct(operator).segments is None
+    X = np.random.default_rng(3).standard_normal((50, 500))
+    np.testing.assert_array_equal(BandedProduct(operator)(X), X @ operator)
+
+
+def _probe(X, index):
+    """Statistics of a block: its rows, the thread and the BLAS threads."""
+    blas = max(i["num_threads"] for i in threadpool_info() if i["user_api"] == "blas")
+    return {"rows": list(index), "threads": {threading.current_thread().name},
+            "blas": blas}
+
+
+def _concatenate(*stats):
+    return {"rows": sum((s["rows"] for s in stats), []),
+            "threads": set().union(*(s["threads"] for s in stats)),
+            "blas": max(s["blas"] for s in stats)}
+
+
+def test_block_threads_keep_the_order_of_the_blocks(monkeypatch):
+    # With block threads the blocks of a batch run on the pool's threads,
+    # BLAS at one thread, and are merged in row order: concatenating the
+    # row indices must give every row once, in order. A pool that merged in
+    # the order the blocks finish, or lost or repeated a block, fails.
+    monkeypatch.setattr(_blocks, "CHUNK_VALUES", 10 * 8)  # blocks of 10 rows of 8
+    X = np.zeros((97, 7))
+    index = np.arange(97)
+    serial = compute_statistics(_probe, X, index, merge=_concatenate)
+    assert serial["rows"] == list(range(97))
+    with block_threads(2):
+        stats = compute_statistics(_probe, X, index, merge=_concatenate)
+    assert stats["rows"] == list(range(97))
+    assert stats["blas"] == 1
+    assert all(name.startswith("skfunc-blocks") for name in stats["threads"])
+
+
+@pytest.mark.parametrize("make", [
+    # alpha chosen by folds of rows (cross-validation over curves: seconds)
+    pytest.param(lambda: FunctionalPCA(3, basis="bspline"), marks=pytest.mark.slow),
+    lambda: FunctionalRidge(),
+])
+def test_threads_give_the_one_thread_fit(monkeypatch, make):
+    # The statistics of a batch computed on two threads (in equal blocks)
+    # equal those computed in the calling thread up to the order of the
+    # sums: 1e-10 relative, as the memory-mapped test of test_batches. A
+    # block given the wrong rows of y or the wrong fold positions changes
+    # the fit (or the chosen alpha) far beyond that.
+    monkeypatch.setattr(_blocks, "CHUNK_VALUES", 40 * 101)  # blocks of ~40 rows
+    grid = np.linspace(0, 1, 101)
+    X, y = make_smooth_regression(500, grid=grid, random_state=0)[:2]
+    y = y if isinstance(make(), FunctionalRidge) else None
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")  # alpha at the edge of its candidates
+        one = partial_fit_batches(make(), X, y, batch_size=170, n_threads=1)
+        two = partial_fit_batches(make(), X, y, batch_size=170, n_threads=2)
+    assert two.alpha_ == pytest.approx(one.alpha_, rel=1e-10)
+    if y is None:
+        a, b = two.transform(X), one.transform(X)
+    else:
+        a, b = two.predict(X), one.predict(X)
+    assert np.linalg.norm(a - b) / np.linalg.norm(b) < 1e-10
+
+
+def test_threads_follow_an_outer_blas_limit(monkeypatch):
+    # n_threads=None takes the threads BLAS would use: under an outer
+    # threadpoolctl limit of 1 the blocks stay in the calling thread.
+    seen = []
+    original = _blocks.block_threads
+
+    def spy(n_threads):
+        seen.append(n_threads)
+        return original(n_threads)
+
+    monkeypatch.setattr("skfunc._batches.block_threads", spy)
+    X = np.random.default_rng(0).standard_normal((60, 30)).cumsum(axis=1)
+    with threadpool_limits(limits=1, user_api="blas"):
+        partial_fit_batches(FunctionalPCA(2), X, batch_size=20)
+    assert seen == [1]
+
+
+def test_fold_rows_are_those_of_the_mask():
+    # Consecutive positions take every tenth row as a view; any other
+    # positions fall back to masks. Both must select the rows of each fold.
+    for positions in (np.arange(13, 60), np.arange(3), np.array([5, 2, 15, 7, 25])):
+        folds = positions % 10
+        for fold, rows in _fold_rows(folds):
+            np.testing.assert_array_equal(np.arange(len(folds))[rows],
+                                          np.flatnonzero(folds == fold))
+        assert sorted(f for f, _ in _fold_rows(folds)) == sorted(set(folds.tolist()))
+
+
+# coefficients y / X near 1e-307 underflow in the data's units, as they must
+@pytest.mark.filterwarnings("ignore:.*underflows float64:RuntimeWarning")
+def test_ridge_design_falls_back_where_the_product_overflows():
+    # FunctionalRidge forms the product of the curves first and scales the
+    # n x K result. Curves near 1e307 on a grid 10,000 units long make that
+    # product overflow (each B-spline integrates to about 10,000 / 36, so the
+    # integrals are near 3e309 > 1.8e308, numpy.finfo(float).max),
+    # so the design must be formed from the curves scaled first, and the fit
+    # must equal the unit-scale fit scaled (1e-8 relative, the tolerance of
+    # test_bad_inputs' extreme-scale test).
+    grid = np.linspace(0, 10_000, 200)
+    X, y = make_smooth_regression(120, grid=grid, random_state=0)[:2]
+    X = X - X.min() + 1.0  # positive curves: the integrals add up
+    a = 1e307
+    ridge = FunctionalRidge(grid=grid, alpha=1e-3)
+    operator = ridge.fit(X, y)._integration_operator(ridge._basis())
+    with np.errstate(over="ignore"):
+        assert not np.isfinite((X * a) @ operator).all()  # the product overflows
+    design, z_exp, _, _ = ridge._scaled_design(X * a, y, operator)
+    assert np.isfinite(design).all()
+    unit, unit_exp, _, _ = ridge._scaled_design(X, y, operator)
+    np.testing.assert_allclose(np.ldexp(design, z_exp - unit_exp) / a, unit, rtol=1e-12)
+    big = FunctionalRidge(grid=grid, alpha=1e-3).fit(X * a, y)
+    np.testing.assert_allclose(big.predict(X * a), ridge.predict(X), rtol=1e-8)
+
+
+@pytest.mark.parametrize("n_threads", [1, 2])
+@pytest.mark.parametrize("bad", [np.nan, np.inf])
+@pytest.mark.parametrize("make", [lambda: FunctionalPCA(2, basis="bspline"),
+                                  lambda: FunctionalRidge()])
+def test_unscanned_batches_still_name_the_bad_value(monkeypatch, make, bad, n_threads):
+    # These fits do not scan a batch for NaN and inf before its statistics
+    # (every value enters them); non-finite statistics send the batch through
+    # the full validation, which must raise the usual error, with the
+    # position of a NaN within the batch, and no RuntimeWarning on the way
+    # (pytest turns warnings into errors here). A fit that let the value
+    # through would return NaN coefficients or fail elsewhere.
+    monkeypatch.setattr(_blocks, "CHUNK_VALUES", 40 * 300)  # several blocks per batch
+    X = np.random.default_rng(0).standard_normal((300, 300)).cumsum(axis=1)
+    X[170, 233] = bad
+    y = None if isinstance(make(), FunctionalPCA) else X[:, 3]
+    match = ("contains NaN \\(first at row 70, column 233\\)" if np.isnan(bad)
+             else "contains infinity")
+    with pytest.raises(ValueError, match=match):
+        partial_fit_batches(make(), X, y, batch_size=100, n_threads=n_threads)
