@@ -311,23 +311,58 @@ def pooled_moments(folds):
     return merge_moments(*parts)
 
 
-def _add_fold_errors(scores, folds, f, coords, alphas, n_components, K):
-    """Add fold ``f``'s reconstruction errors to ``scores``; 0 if the other
-    folds hold fewer than two curves (no covariance), else 1."""
-    others = {key: np.delete(v, f, axis=0) for key, v in folds.items()}
-    n_train = int(others["n"].sum())
-    if n_train < 2:
-        return 0
-    train = pooled_moments(others)
-    delta = folds["mean"][f] - train["mean"]
-    held = folds["scatter"][f] + folds["n"][f] * np.outer(delta, delta)
-    k = min(K, n_train - 1 if n_components is None else n_components)
-    _, directions = smoothed_directions(train["scatter"] / (n_train - 1), coords,
-                                        alphas, max(k, 1))
-    captured = np.einsum("lka,kj,lja->la", directions, held, directions)
-    errors = np.trace(held) - np.cumsum(captured, axis=1)
-    scores += errors[:, -1] if n_components is not None else errors.sum(axis=1)
-    return 1
+def _held_out_moments(folds):
+    """Per fold ``f``: the other folds' count ``n_t`` (F,) and scatter
+    (F, K, K), and the fold's scatter about the other folds' mean
+    ``S_f + n_f e_t e_t'`` (F, K, K), ``e_t = m_f - m_t``; from the pooled
+    moments minus the fold's (the merge of Chan et al., 1979, solved for
+    one part): with ``e = m_f - m``, ``e_t = (n / n_t) e`` and ``S_t = S -
+    S_f - (n_f n / n_t) e e'``."""
+    total = pooled_moments(folds)
+    n, n_f = total["n"], folds["n"]
+    n_t = n - n_f
+    ratio = np.divide(n, n_t, out=np.zeros_like(n_f), where=n_t > 0)
+    e = folds["mean"] - total["mean"]  # (F, K)
+    outer = e[:, :, None] * e[:, None, :]
+    train = total["scatter"] - folds["scatter"] - (n_f * ratio)[:, None, None] * outer
+    held = folds["scatter"] + (n_f * ratio**2)[:, None, None] * outer
+    return n_t, train, held
+
+
+def cross_validation_scores(folds, coords, alphas, n_components):
+    """Summed reconstruction errors (L,) of :func:`cross_validate_alpha` and
+    the number of folds that count (a row or more, two rows elsewhere).
+
+    All folds and candidates at once: with ``W = G^{1/2} U`` (the path's
+    Demmler-Reinsch basis) one product ``A_f = W' C_f W`` per fold, and each
+    candidate's ``B' C_f B`` of :func:`smoothed_directions` is ``A_f``
+    scaled by ``d^{-1/2}`` on both sides; one stacked eigensolve for all.
+    """
+    n_f = folds["n"]
+    used = np.flatnonzero((n_f > 0) & (n_f.sum() - n_f >= 2))
+    if used.size == 0:
+        return np.zeros(alphas.size), 0
+    n_t, train, held = (v[used] for v in _held_out_moments(folds))
+    K = train.shape[1]
+    # components per fold: n_components, or all the training covariance has
+    k = np.minimum(K, n_t - 1 if n_components is None else np.full(n_t.size, n_components))
+    k = np.maximum(k, 1).astype(int)
+    k_max = int(k.max())
+    W = coords.root @ coords.path.eigvecs
+    scale = 1.0 / np.sqrt(coords.path.denominators(alphas))  # (L, K)
+    A = W.T @ (train / (n_t - 1)[:, None, None]) @ W  # (F, K, K)
+    M = A[:, None] * (scale[:, :, None] * scale[:, None, :])  # (F, L, K, K)
+    _, u = np.linalg.eigh((M + np.swapaxes(M, 2, 3)) / 2)
+    y = (W * scale[:, None, :]) @ u[..., ::-1][..., :k_max]  # (F, L, K, k)
+    q, _ = np.linalg.qr(y)  # Gram-Schmidt in L2, in order (signs do not matter)
+    captured = np.sum(q * (held[:, None] @ q), axis=2)  # (F, L, k): y' S~ y
+    errors = np.trace(held, axis1=1, axis2=2)[:, None, None] - np.cumsum(captured, axis=2)
+    if n_components is not None:
+        per_fold = errors[np.arange(k.size), :, k - 1]
+    else:
+        counted = np.arange(k_max) < k[:, None]  # (F, k)
+        per_fold = np.einsum("fla,fa->fl", errors, counted)
+    return per_fold.sum(axis=0), used.size
 
 
 def cross_validate_alpha(folds, coords, n_components, alpha="auto"):
@@ -352,13 +387,10 @@ def cross_validate_alpha(folds, coords, n_components, alpha="auto"):
     scores)``.
     """
     alphas = candidates_for(alpha, coords.path)
-    K = coords.path.eigvecs.shape[0]
-    scores, used = np.zeros(alphas.size), 0
     # small batched eigensolves: BLAS threads only add synchronisation
     # (see _single_thread), measured 17x slower on a busy two-core machine
-    with threadpool_limits(limits=1, user_api="blas"):
-        for f in np.flatnonzero(folds["n"] > 0):
-            used += _add_fold_errors(scores, folds, f, coords, alphas, n_components, K)
+    with single_thread_blas():
+        scores, used = cross_validation_scores(folds, coords, alphas, n_components)
     if used == 0:
         raise ValueError(
             "alpha='auto' (or candidate alphas) chooses the smoothing of the "

@@ -308,39 +308,82 @@ def spline_curves(rng, n, domain=(0.0, 1.0), n_basis=10, noise=0.0):
     return basis, coef + noise * rng.standard_normal(coef.shape)
 
 
-@pytest.mark.parametrize("n_components", [2, None])
-def test_cross_validation_equals_brute_force_refits(rng, n_components):
-    # Source: the definition of cross-validation over curves (Rice and
-    # Silverman, 1991; Ramsay and Silverman, 2005, sec. 9.3.3), computed by
-    # brute force: for each fold (row i in fold i mod 10) refit at a fixed
-    # alpha on the other rows, reconstruct the fold's curves and add their
-    # squared L2 errors, integrated exactly with the Gram matrix of scipy
-    # B-splines (spline_gram_and_penalty). The curves lie in the basis, so
-    # the reconstruction is exact apart from the components. A criterion
-    # that centred held-out curves at their own mean, forgot the fold
-    # offset, or used the smoothing of the full data would differ.
-    t = np.linspace(0, 10, 60)
-    basis, coef = spline_curves(rng, 33, (0, 10), 10, noise=0.3)
-    X = coef @ basis.evaluate(t).T
-    alphas = np.array([1e-6, 1e-3])
-    kw = {"basis": "bspline", "n_basis": 10, "grid": t, "n_components": n_components}
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore")  # a choice at an end is not checked here
-        fitted = FunctionalPCA(alpha=alphas, **kw).fit(X)
-    gram, _ = spline_gram_and_penalty(basis)
+def brute_force_cv(X, coef, gram, alphas, n_components, **kw):
+    """Cross-validation over curves through the public API: for each fold
+    (row i in fold i mod 10) refit at a fixed alpha on the other rows,
+    reconstruct the fold's curves and add their squared L2 errors,
+    integrated exactly with ``gram`` (the curves lie in the basis, with
+    coefficients ``coef``, so the reconstruction is exact apart from the
+    components)."""
     folds = np.arange(X.shape[0]) % 10
-    expected = np.zeros(alphas.size)
+    expected = np.zeros(len(alphas))
     for j, alpha in enumerate(alphas):
         for f in range(10):
-            est = FunctionalPCA(alpha=alpha, **kw).fit(X[folds != f])
+            est = FunctionalPCA(alpha=alpha, n_components=n_components, **kw)
+            est.fit(X[folds != f])
             held = coef[folds == f] - est.mean_basis_coef_
             scores = held @ gram @ est.components_basis_coef_.T
-            ks = [n_components] if n_components else range(1, est.n_components_ + 1)
-            for k in ks:
+            # None: every number of components up to the rank of the
+            # training covariance (n_train - 1 when fewer curves than basis
+            # functions; the refit keeps one more, of variance zero)
+            rank = min(est.n_components_, int(np.sum(folds != f)) - 1)
+            for k in [n_components] if n_components else range(1, rank + 1):
                 resid = held - scores[:, :k] @ est.components_basis_coef_[:k]
                 expected[j] += np.einsum("ia,ab,ib->", resid, gram, resid)
+    return expected
+
+
+@pytest.mark.parametrize("n_curves, n_components", [(33, 2), (33, None), (11, None)])
+def test_cross_validation_equals_brute_force_refits(rng, n_curves, n_components):
+    # Source: the definition of cross-validation over curves (Rice and
+    # Silverman, 1991; Ramsay and Silverman, 2005, sec. 9.3.3), computed by
+    # brute force (brute_force_cv) with the Gram matrix of scipy B-splines
+    # (spline_gram_and_penalty). A criterion that centred held-out curves
+    # at their own mean, forgot the fold offset, or used the smoothing of
+    # the full data would differ. With 11 curves and 10 basis functions the
+    # folds' training covariances have rank 8 (the fold of two curves) or 9,
+    # so the number of components summed over differs between folds.
+    t = np.linspace(0, 10, 60)
+    basis, coef = spline_curves(rng, n_curves, (0, 10), 10, noise=0.3)
+    X = coef @ basis.evaluate(t).T
+    alphas = np.array([1e-6, 1e-4, 1e-3])
+    kw = {"basis": "bspline", "n_basis": 10, "grid": t}
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")  # a choice at an end is not checked here
+        fitted = FunctionalPCA(alpha=alphas, n_components=n_components, **kw).fit(X)
+        gram, _ = spline_gram_and_penalty(basis)
+        expected = brute_force_cv(X, coef, gram, alphas, n_components, **kw)
+    # 1e-6: the Gram matrix by the trapezoid rule on 20,001 points (error
+    # ~1e-8 relative) against skfunc's exact one, through the eigenvectors
     np.testing.assert_allclose(fitted.criterion_path_, expected, rtol=1e-6)
     np.testing.assert_array_equal(fitted.alphas_path_, alphas)
+    assert fitted.alpha_ == alphas[np.argmin(expected)]
+
+
+def test_cross_validation_with_channels_equals_brute_force_refits(rng):
+    # Source: as above, for two channels on their own domains (Happ and
+    # Greven, 2018: the weighted inner product sum_c v_c <f_c, g_c>), with
+    # fixed channel weights v so every refit uses the same inner product;
+    # the L2 error of a fold is then integrated with diag(v_1 G_1, v_2 G_2)
+    # of scipy B-splines. A criterion that ignored the weights in the
+    # held-out error or penalized the channels on one scale would differ.
+    t, s = np.linspace(0, 10, 60), np.linspace(0, 2, 35)
+    basis_t, coef_t = spline_curves(rng, 33, (0, 10), 10, noise=0.3)
+    basis_s, coef_s = spline_curves(rng, 33, (0, 2), 10, noise=0.3)
+    X = np.hstack([coef_t @ basis_t.evaluate(t).T, coef_s @ basis_s.evaluate(s).T])
+    weights = {"a": 0.7, "b": 2.0}
+    alphas = np.array([1e-6, 1e-4, 1e-3])
+    kw = {"basis": "bspline", "n_basis": 10, "grid": {"a": t, "b": s},
+          "channel_weights": weights}
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        fitted = FunctionalPCA(alpha=alphas, n_components=2, **kw).fit(X)
+        gram = scipy.linalg.block_diag(
+            weights["a"] * spline_gram_and_penalty(basis_t)[0],
+            weights["b"] * spline_gram_and_penalty(basis_s)[0])
+        expected = brute_force_cv(X, np.hstack([coef_t, coef_s]), gram, alphas, 2,
+                                  **kw)
+    np.testing.assert_allclose(fitted.criterion_path_, expected, rtol=1e-6)
     assert fitted.alpha_ == alphas[np.argmin(expected)]
 
 

@@ -23,7 +23,9 @@ runs (``skfunc.datasets.make_kiln_firing``, without dropouts), best of the
 repeats taken in turns. Same target, 1.5x.
 
 Run ``python tests/benchmarks/bench_alpha.py`` (full sizes) or with
-``--quick`` (small sizes, a few seconds) from the repository root.
+``--quick`` (small sizes, a few seconds) from the repository root;
+``--estimators [NAME ...]`` runs only the per-estimator table (for the named
+estimators), ``--kiln-runs N`` and ``--repeat K`` set its size.
 """
 
 import argparse
@@ -171,14 +173,17 @@ def estimator_cases(n):
     ]
 
 
-def bench_estimators(n, repeat):
-    """Fit time of ``alpha="auto"`` against ``alpha=alpha_`` per estimator."""
+def bench_estimators(n, repeat, names=None):
+    """Fit time of ``alpha="auto"`` against ``alpha=alpha_`` per estimator
+    (those in ``names``; None for all)."""
     from sklearn.base import clone
 
     print(f"\nEvery penalized estimator on {n} kiln runs: fit with alpha='auto' "
           f"against alpha=alpha_ (best of {repeat}, in turns; target <= 1.5x)")
     print(f"  {'estimator':<30}{'auto (s)':>10}{'fixed (s)':>11}{'ratio':>8}")
     for name, est, X, y in estimator_cases(n):
+        if names is not None and name not in names:
+            continue
         args = (X,) if y is None else (X, y)
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
@@ -201,7 +206,21 @@ def bench_estimators(n, repeat):
 def main():
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--quick", action="store_true", help="small sizes, few repeats")
+    parser.add_argument("--estimators", nargs="*", metavar="NAME",
+                        help="only the per-estimator table, for these estimators "
+                        "(all when no name is given)")
+    parser.add_argument("--kiln-runs", type=int, default=None,
+                        help="kiln runs of the per-estimator table (default 300; "
+                        "30 with --quick)")
+    parser.add_argument("--repeat", type=int, default=None,
+                        help="best of this many runs in the per-estimator table "
+                        "(default 3; 1 with --quick)")
     args = parser.parse_args()
+    n_runs = args.kiln_runs or (30 if args.quick else 300)
+    repeat_estimators = args.repeat or (1 if args.quick else 3)
+    if args.estimators is not None:
+        bench_estimators(n_runs, repeat_estimators, args.estimators or None)
+        return
     rng = np.random.default_rng(0)
     repeat = 3 if args.quick else 7
     sizes = [(200, 100, 20)] if args.quick else [(2000, 500, 20), (2000, 500, 40)]
@@ -212,7 +231,7 @@ def main():
                bench_smoother(n, m, K, rng, repeat))
         report(f"scalar-outcome ridge: {n} curves x {m} points, K={K}",
                bench_ridge(n, m, K, rng, repeat))
-    bench_estimators(30 if args.quick else 300, 1 if args.quick else 3)
+    bench_estimators(n_runs, repeat_estimators)
 
 
 if __name__ == "__main__":
