@@ -149,7 +149,7 @@ def _curves_only(grid):
 
 
 def _smoother_curves_only(grid):
-    # 5 Fourier terms: a covariance surface that 15 x 15 B-splines represent
+    # 5 Fourier terms: a covariance surface that 10 x 10 B-splines represent
     # (11 terms put variation at scales the smoothed surface leaves to noise)
     return make_smooth_regression(N_CURVES, grid=grid, n_terms=5, random_state=0)[0], None
 
