@@ -41,7 +41,7 @@ from ._logistic_path import (
     single_thread_blas,
     split_design,
 )
-from ._penalized import SplitPath, centered, penalty_scale
+from ._penalized import SplitPath, centered, penalty_scale, to_data_units
 from ._weights import check_sample_weight
 
 
@@ -317,8 +317,12 @@ class FunctionalLogisticRegression(
         U = path.eigvecs
         # the design in the path's coordinates: U' (G + R) U = diag(g), and
         # the roughness is exactly diag(p) (the null space first, exactly 0)
+        # (in the units of the statistics: the design divided by the merged
+        # powers of two, so no square of X overflows or underflows)
+        z_exp = np.asarray(stats["x_exp"])
         D = apply_rows(split_design, X, lead + U.shape[1], operator=operator,
-                       n_covariates=self.n_covariates, z_mean=z_mean, U=U, lead=lead)
+                       n_covariates=self.n_covariates, z_exp=z_exp, z_mean=z_mean,
+                       U=U, lead=lead)
         if is_dask_array(D):
             # read at every Newton step: computed once, kept on the workers
             D, Y, weight = D.persist(), Y.persist(), weight.persist()
@@ -352,7 +356,12 @@ class FunctionalLogisticRegression(
                            for c in range(n_out)])
         coef = theta[:, lead:] @ U.T
         intercept = theta[:, 0] - coef @ z_mean if lead else np.zeros(n_out)
-        self._set_coefficients(basis, coef, intercept, blocks, squeeze=False)
+        # back to the data's units: coefficients of Z / 2**z_exp are those of
+        # Z times 2**-z_exp (the curves' share one exponent, z_exp[0])
+        curves = {"x_exp": int(z_exp[0]), "y_exp": 0}
+        self._set_coefficients(
+            basis, to_data_units(coef, stats, -1, 0, "coef_"), intercept,
+            to_data_units(blocks, curves, -2, 0, "coef_covariance_"), squeeze=False)
         return self
 
     def _ridge(self, gram, basis, scale, metric):

@@ -22,6 +22,7 @@ from ._integrated_design import (
     DESIGN_CONSTRAINTS,
     PERIOD_CONSTRAINT,
     IntegratedDesignMixin,
+    scaled_integrated_design,
 )
 from ._penalized import (
     centered,
@@ -90,22 +91,12 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
         return stats
 
     def _scaled_design(self, X, y, operator):
-        """``(Z, z_exp, y, y_exp)``: the integrated design of the curves and
-        the covariates divided by powers of two ``2**z_exp`` (one exponent
-        for the curves' columns, one per covariate: covariates are
-        unpenalized, so scaling each is a change of units that leaves the
-        fit unchanged, and covariates in other units than the curves keep
-        their digits) and y divided by ``2**y_exp``."""
-        m = X.shape[1] - self.n_covariates
-        curves = data_exponent(X[:, :m])
-        covariates = [data_exponent(X[:, j]) for j in range(m, X.shape[1])]
-        z_exp = np.array([curves] * operator.shape[1] + covariates, dtype=np.int64)
-        X = np.asarray(X, dtype=np.float64)
-        scaled = np.hstack([scale_down(X[:, :m], curves)]
-                           + [scale_down(X[:, j:j + 1], e)
-                              for j, e in zip(range(m, X.shape[1]), covariates)])
+        """``(Z, z_exp, y, y_exp)``: the integrated design divided by powers
+        of two ``2**z_exp`` (:func:`~skfunc._integrated_design.scaled_integrated_design`)
+        and y divided by ``2**y_exp``."""
+        Z, z_exp = scaled_integrated_design(X, operator, self.n_covariates)
         y_exp = data_exponent(y)
-        return self._design(scaled, operator), z_exp, scale_down(y, y_exp), y_exp
+        return Z, z_exp, scale_down(y, y_exp), y_exp
 
     def _solve(self, stats):
         self._fit_pooled(stats, self._basis(), self._target_ndim)

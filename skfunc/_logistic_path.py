@@ -36,7 +36,7 @@ from threadpoolctl import ThreadpoolController
 
 from ._alpha import best_index
 from ._blocks import compute_statistics
-from ._integrated_design import integrated_design
+from ._integrated_design import scaled_integrated_design
 from ._penalized import centered_cross_products
 
 #: what the smallest candidate means for the classifier: training classes
@@ -118,15 +118,22 @@ def newton_statistics(D, Y, sample_weight, theta, derivatives=True):
 def design_statistics(X, Y, sample_weight, operator, n_covariates):
     """Additive statistics of the integrated design of a block of curves
     (:func:`~skfunc._penalized.centered_cross_products` with the class
-    indicators as responses: their sums are the class totals)."""
-    return centered_cross_products(integrated_design(X, operator, n_covariates), Y,
-                                   sample_weight)
+    indicators as responses: their sums are the class totals), of the design
+    divided by powers of two as the least-squares models' statistics
+    (:func:`~skfunc._integrated_design.scaled_integrated_design`; exponents
+    ``x_exp`` per column, ``y_exp`` 0 for the 0/1 indicators), merged
+    exactly by :func:`~skfunc._penalized.merge` whatever each block's scale."""
+    Z, z_exp = scaled_integrated_design(X, operator, n_covariates)
+    stats = centered_cross_products(Z, Y, sample_weight)
+    stats.update(x_exp=z_exp, y_exp=0)
+    return stats
 
 
-def split_design(X, operator, n_covariates, z_mean, U, lead):
-    """Rows of the Newton design: ``[1, (Z - z_mean) U]`` (a row-block
-    function; ``lead`` is 1 with an intercept column, else 0)."""
-    Zc = integrated_design(X, operator, n_covariates) - z_mean
+def split_design(X, operator, n_covariates, z_exp, z_mean, U, lead):
+    """Rows of the Newton design: ``[1, (Z / 2**z_exp - z_mean) U]`` with the
+    merged statistics' exponents ``z_exp`` (a row-block function; ``lead`` is
+    1 with an intercept column, else 0)."""
+    Zc = scaled_integrated_design(X, operator, n_covariates, z_exp)[0] - z_mean
     return np.hstack([np.ones((len(Zc), lead)), Zc @ U])
 
 
