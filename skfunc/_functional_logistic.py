@@ -22,7 +22,13 @@ from sklearn.utils.class_weight import compute_class_weight
 from sklearn.utils.multiclass import check_classification_targets
 
 from ._alpha import ALPHA_CONSTRAINT, candidates_for, check_alpha
-from ._blocks import _along_rows_of, apply_rows, compute_statistics, is_dask_array
+from ._blocks import (
+    _along_rows_of,
+    apply_rows,
+    compute_statistics,
+    is_dask_array,
+    single_thread_blas,
+)
 from ._channels import channel_penalty
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
@@ -38,7 +44,6 @@ from ._logistic_path import (
     LogisticProblem,
     coef_covariance,
     design_statistics,
-    single_thread_blas,
     split_design,
 )
 from ._penalized import SplitPath, centered, penalty_scale, to_data_units

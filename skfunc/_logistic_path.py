@@ -32,10 +32,9 @@ from scipy.linalg import (
     solve_triangular,
 )
 from scipy.special import expit
-from threadpoolctl import ThreadpoolController
 
 from ._alpha import best_index
-from ._blocks import compute_statistics
+from ._blocks import compute_statistics, single_thread_blas
 from ._integrated_design import scaled_integrated_design
 from ._penalized import centered_cross_products
 
@@ -101,17 +100,15 @@ def newton_statistics(D, Y, sample_weight, theta, derivatives=True):
     loss = float(sample_weight @ _row_loss(eta, Y))
     if not derivatives:
         return {"loss": loss}
-    if n_out == 1:
-        prob = expit(eta)
-        grad = ((prob - Y) * sample_weight[:, None]).T @ D
-        hess = (D * (sample_weight * (prob * (1 - prob))[:, 0])[:, None]).T @ D
-        return {"loss": loss, "grad": grad.ravel(), "hess": hess}
-    prob = np.exp(eta - _logsumexp(eta)[:, None])
+    prob = expit(eta) if n_out == 1 else np.exp(eta - _logsumexp(eta)[:, None])
     grad = ((prob - Y) * sample_weight[:, None]).T @ D
-    curvature = _curvature(prob) * sample_weight[:, None, None]
-    # one product: H[a, :, b, :] = D' diag(curvature[:, a, b]) D
-    weighted = (curvature[:, :, :, None] * D[:, None, None, :]).reshape(len(D), -1)
-    hess = (D.T @ weighted).reshape(p, n_out, n_out, p).transpose(1, 0, 2, 3)
+    if n_out == 1:
+        hess = (D * (sample_weight * (prob * (1 - prob))[:, 0])[:, None]).T @ D
+    else:
+        curvature = _curvature(prob) * sample_weight[:, None, None]
+        # one product: H[a, :, b, :] = D' diag(curvature[:, a, b]) D
+        weighted = (curvature[:, :, :, None] * D[:, None, None, :]).reshape(len(D), -1)
+        hess = (D.T @ weighted).reshape(p, n_out, n_out, p).transpose(1, 0, 2, 3)
     return {"loss": loss, "grad": grad.ravel(), "hess": hess.reshape(n_out * p, n_out * p)}
 
 
@@ -386,20 +383,7 @@ def _single_thread(size):
     threads only add synchronisation, which on a busy machine costs many
     times the solve itself.
     """
-    global _CONTROLLER
-    if size <= 4000:
-        if _CONTROLLER is None:  # inspecting the loaded libraries is slow: once
-            _CONTROLLER = ThreadpoolController()
-        return _CONTROLLER.limit(limits=1, user_api="blas")
-    return contextlib.nullcontext()
-
-
-_CONTROLLER = None
-
-
-def single_thread_blas():
-    """One BLAS thread in this process, whatever the problem size."""
-    return _single_thread(0)
+    return single_thread_blas() if size <= 4000 else contextlib.nullcontext()
 
 
 def _solve(matrix, rhs):
