@@ -329,7 +329,12 @@ def power_of_two_scale(*arrays):
     values near 1e300 and normal for values near 1e-300; a power of two
     changes no digit, so fits on ``x / s`` times ``s`` equal fits on ``x``.
     """
-    exponent = data_exponent(*arrays)
+    return power_of_two(data_exponent(*arrays))
+
+
+def power_of_two(exponent):
+    """``2**exponent`` as a float; 1 for :data:`ZERO_EXPONENT` (all-zero
+    data are left as they are)."""
     return 1.0 if exponent == ZERO_EXPONENT else float(np.ldexp(1.0, exponent))
 
 

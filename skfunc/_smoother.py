@@ -54,13 +54,13 @@ from ._estimator import store_init_params
 from ._fit import AdditiveTransformerMixin
 from ._grid import DATA_TERMS, check_grid, data_weights, quadrature_weights
 from ._penalized import (
-    ZERO_EXPONENT,
     NotIdentifiableError,
     SplitPath,
     data_exponent,
     gcv_score,
     merge,
     penalty_for,
+    power_of_two,
     power_of_two_scale,
 )
 from ._validation import BASIS_CONSTRAINTS, basis_for, validate_curves
@@ -332,7 +332,7 @@ class PenalizedFitMixin:
         stats = [{"rss": zeros, "pen_rss": zeros, "edf": zeros, "logdet": zeros,
                   "n_obs": 0, "dof": 0, "weight": 0.0}]
         for rows, rotated, yy, path, n_obs, weight in self._problem().blocks(
-                X, scale=1.0 if x_exp == ZERO_EXPONENT else np.ldexp(1.0, x_exp)):
+                X, scale=power_of_two(x_exp)):
             # the reductions are quadratic in each rotated column, so their
             # sums over rows are the reductions of the column norms
             norms = np.linalg.norm(rotated, axis=0)[None]
