@@ -32,7 +32,7 @@ from sklearn.utils.validation import (
     check_array,
 )
 
-from ._blocks import _along_rows_of, is_dask_array
+from ._blocks import _along_rows_of, is_dask_array, output_dtype
 from ._grid import check_curve_points, empty_curve_error
 
 
@@ -63,18 +63,18 @@ def _check_block(block, name, allow_nan, n_points=None, block_info=None):
     return block
 
 
-def _float_dtype(array, name, accepted=(np.float64, np.float32)):
+def _float_dtype(array, name):
+    """The dtype numbers are validated to (:func:`skfunc._blocks.output_dtype`:
+    float32 kept, float64 otherwise); an error for anything but numbers."""
     kind = array.dtype.kind
-    if array.dtype in accepted:
-        return array.dtype
-    if kind in "biuf":
-        return np.dtype(accepted[0])
     if kind == "c":
         raise ValueError(f"Complex data not supported: {name} has dtype {array.dtype}.")
-    raise TypeError(
-        f"{name} must hold numbers (float64, float32, integers or booleans); "
-        f"got a dask array of dtype {array.dtype}."
-    )
+    if kind not in "biuf":
+        raise TypeError(
+            f"{name} must hold numbers (float64, float32, integers or booleans); "
+            f"got a dask array of dtype {array.dtype}."
+        )
+    return output_dtype(array)
 
 
 def _whole_rows(array, name):

@@ -85,11 +85,20 @@ def scaled_integrated_design(X, operator, n_covariates, z_exp=None):
     if z_exp is None:
         z_exp = design_exponents(X, k, n_covariates)
     m = X.shape[1] - n_covariates
-    X = np.asarray(X, dtype=np.float64)
-    scaled = np.hstack([scale_down(X[:, :m], z_exp[0])]
-                       + [scale_down(X[:, j:j + 1], e)
-                          for j, e in zip(range(m, X.shape[1]), z_exp[k:])])
-    return integrated_design(scaled, operator, n_covariates), z_exp
+    # (X / 2**e) W Phi = X (W Phi / 2**e) to the last bit while the scaled
+    # operator stays in float64's normal range: no copy of the curves
+    with np.errstate(over="ignore", under="ignore"):
+        scaled = scale_down(operator, z_exp[0])
+    nonzero = operator != 0
+    if (np.all(np.isfinite(scaled))
+            and np.all(np.abs(scaled[nonzero]) >= np.finfo(np.float64).tiny)):
+        Z = integrated_design(X[:, :m], scaled, 0)
+    else:
+        Z = integrated_design(scale_down(X[:, :m], z_exp[0]), operator, 0)
+    if n_covariates:
+        Z = np.hstack([Z] + [scale_down(X[:, j:j + 1], e)
+                             for j, e in zip(range(m, X.shape[1]), z_exp[k:])])
+    return Z, z_exp
 
 
 class IntegratedDesignMixin(ShortReprMixin):
