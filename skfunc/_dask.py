@@ -212,15 +212,13 @@ def validate_dask(estimator, X, y="no_validation", *, reset, allow_nan=False,
     if not no_y and is_dask_array(y) and not is_dask_array(X):
         # a small in-memory X (covariates) beside dask curves y: split X the
         # same way
-        import dask.array as da
-
         X = np.asarray(X)
         if X.ndim != 2 or X.shape[0] != y.shape[0]:
             raise ValueError(
                 f"X must be 2-D with one row per row of y ({y.shape[0]}); got "
                 f"shape {X.shape}."
             )
-        X = da.from_array(X, chunks=(y.chunks[0],) + X.shape[1:])
+        X = _along_rows_of(y, X)
     if y is None and get_tags(estimator).target_tags.required:
         raise ValueError(
             f"This {type(estimator).__name__} estimator requires y to be passed, "
