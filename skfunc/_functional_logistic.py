@@ -23,6 +23,7 @@ from sklearn.utils.multiclass import check_classification_targets
 
 from ._alpha import ALPHA_CONSTRAINT, candidates_for, check_alpha
 from ._blocks import (
+    CHUNK_VALUES,
     _along_rows_of,
     apply_rows,
     compute_statistics,
@@ -329,8 +330,12 @@ class FunctionalLogisticRegression(
                        n_covariates=self.n_covariates, z_exp=z_exp, z_mean=z_mean,
                        U=U, lead=lead)
         if is_dask_array(D):
-            # read at every Newton step: computed once, kept on the workers
-            D, Y, weight = D.persist(), Y.persist(), weight.persist()
+            # read at every Newton step: computed once, kept on the workers,
+            # in row blocks of about CHUNK_VALUES values (D is narrow: X's
+            # blocks would make many small tasks, and a Newton pass is bound
+            # by the rounds of messages, not by arithmetic)
+            rows = {0: max(1, CHUNK_VALUES // D.shape[1])}
+            D, Y, weight = (a.rechunk(rows).persist() for a in (D, Y, weight))
         column_size = np.concatenate([[stats["sw"]] * lead, np.diag(U.T @ gram @ U)])
         ridge_theta = np.zeros((lead + U.shape[1],) * 2)
         ridge_theta[lead:, lead:] = U.T @ ridge @ U
