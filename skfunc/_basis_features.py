@@ -99,6 +99,23 @@ class BasisFeatures(ChannelwiseMixin, PenalizedFitMixin, AdditiveTransformerMixi
     so :meth:`partial_fit` equals :meth:`fit` on all batches; the operator
     itself depends on the grid and alpha only.
 
+    The coordinates have the size of L2 norms on the domain mapped to
+    [0, 1], that is of the root mean square of a curve's values: about
+    ``1 / sqrt(m)`` of the Euclidean size of its ``m`` raw values, which is
+    what makes them the same on every grid. A model downstream with a fixed
+    penalty therefore sees features of another size than the raw values:
+    ``LogisticRegression()`` (``C=1``) penalizes them about ``m`` times
+    harder, and loses to itself on the raw values (GunPoint, 150 points:
+    0.727 against 0.833 test accuracy). Put a ``StandardScaler`` in
+    between, as scikit-learn advises for penalized linear models:
+    ``make_pipeline(BasisFeatures(), StandardScaler(), LogisticRegression())``
+    scored 0.820 there, and on ten open sets it lost to scikit-learn on the
+    raw values only by 1 to 8 test curves, within the chance of one test
+    split. Choosing ``C`` by cross-validation (``LogisticRegressionCV``) is
+    the other remedy. Nearest neighbours need neither (a common factor
+    does not change which neighbour is nearest). :doc:`/open_data` has the
+    measurements.
+
     Dask arrays are accepted: ``fit`` validates them block by block on the
     workers, and ``transform`` returns a lazy dask array computed block by
     block (rows must not be split across blocks; see ``skfunc._dask``).

@@ -9,6 +9,18 @@ is two fragments.
 
 import textwrap
 
+#: the ``alpha`` entry; the ``criterion`` entry that follows differs in its
+#: default (``alpha`` and ``alpha_reml``)
+_ALPHA = """
+alpha : "auto", float or array-like, default="auto"
+    Weight of the roughness penalty. Unit-free: the same number gives the
+    same fit whatever the grid's unit or origin and the data's scale (see
+    :doc:`/bases_and_penalties`). ``"auto"`` chooses it from the training
+    data by ``criterion`` among candidates spanning every fit from nearly
+    unpenalized to the penalty's null space; a number >= 0 fixes it (0: no
+    penalty); an array of numbers > 0 gives the candidates to choose from.
+"""
+
 _FRAGMENTS = {
     "basis": """
 basis : {"bspline", "fourier", "legendre"}, default="bspline"
@@ -30,18 +42,18 @@ interior_knots : array-like of shape (n_knots,), default=None
 penalty_order : int, default=2
     Derivative order ``q`` of the roughness penalty ``int (D^q f)^2``.
 """,
-    "alpha": """
-alpha : "auto", float or array-like, default="auto"
-    Weight of the roughness penalty. Unit-free: the same number gives the
-    same fit whatever the grid's unit or origin and the data's scale (see
-    :doc:`/bases_and_penalties`). ``"auto"`` chooses it from the training
-    data by ``criterion`` among candidates spanning every fit from nearly
-    unpenalized to the penalty's null space; a number >= 0 fixes it (0: no
-    penalty); an array of numbers > 0 gives the candidates to choose from.
-criterion : {"gcv", "reml"}, default="gcv"
+    "alpha": _ALPHA + """criterion : {"gcv", "reml"}, default="gcv"
     How alpha is chosen when it is not fixed: generalized cross-validation
     (Craven and Wahba, 1979) or the restricted likelihood of the
     mixed-model form (REML; Wood, 2011), which undersmooths less often.
+""",
+    "alpha_reml": _ALPHA + """criterion : {"gcv", "reml"}, default="reml"
+    How alpha is chosen when it is not fixed: the restricted likelihood of
+    the mixed-model form (REML; Wood, 2011) or generalized cross-validation
+    (Craven and Wahba, 1979). REML is the default here: with a few dozen
+    curves against the basis the fit can nearly interpolate the outcomes,
+    and GCV then often picks such a fit (see
+    :doc:`/bases_and_penalties`).
 """,
     "alpha_attributes": """
 alpha_ : float

@@ -220,6 +220,19 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
     over grid points: its eigenvalues scale with the number of points, and on
     uneven grids densely sampled stretches weigh more (see Examples).
 
+    For the same reason the scores are about ``1 / sqrt(m)`` times the
+    scores of ``PCA`` on ``m`` evenly spaced values (an L2 norm on the
+    domain mapped to [0, 1] is the root mean square of the values), and
+    they stay the same on every grid. A model downstream with a fixed
+    penalty sees them at another size than PCA's scores:
+    ``LogisticRegression()`` (``C=1``) penalizes them about ``m`` times
+    harder than after ``PCA``. As scikit-learn advises for penalized linear
+    models, put a ``StandardScaler`` between them
+    (``make_pipeline(FunctionalPCA(10), StandardScaler(),
+    LogisticRegression())``), which whitens the scores, or choose ``C`` by
+    cross-validation; :doc:`/open_data` compares the recipe with ``PCA`` on
+    open data.
+
     With a basis and ``alpha="auto"``, alpha is chosen by cross-validation
     over curves (Rice and Silverman, 1991; Ramsay and Silverman, 2005, sec.
     9.3.3): curves are dealt to 10 folds by their row position (row ``i``

@@ -14,7 +14,13 @@ from functools import partial
 import numpy as np
 from sklearn.base import BaseEstimator, RegressorMixin
 
-from ._alpha import ALPHA_CONSTRAINTS, AUTO, check_alpha, choose_alpha
+from ._alpha import (
+    ALPHA_CONSTRAINTS,
+    AUTO,
+    CURVE_DESIGN_CRITERION,
+    check_alpha,
+    choose_alpha,
+)
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._fit import AdditiveRegressorMixin
@@ -218,7 +224,7 @@ class FunctionalRidge(FunctionalRidgeBase):
 
     Parameters
     ----------
-    %(alpha)s
+    %(alpha_reml)s
     %(scalar_outcome)s
     %(period)s
 
@@ -259,8 +265,8 @@ class FunctionalRidge(FunctionalRidgeBase):
         **ALPHA_CONSTRAINTS,
     }
 
-    def __init__(self, alpha=AUTO, *, criterion="gcv", basis="bspline", n_basis=None,
-                 degree=3, interior_knots=None, penalty_order=2, period=None,
+    def __init__(self, alpha=AUTO, *, criterion=CURVE_DESIGN_CRITERION, basis="bspline",
+                 n_basis=None, degree=3, interior_knots=None, penalty_order=2, period=None,
                  n_covariates=0, fit_intercept=True, grid=None, quadrature="trapezoid"):
         store_init_params(self, locals())
 

@@ -496,6 +496,23 @@ class CurveSmoother(ChannelwiseMixin, PenalizedFitMixin, AdditiveTransformerMixi
     (linearly across long gaps and beyond the last observation, for
     ``penalty_order=2``).
 
+    With ``n_basis=None`` there are at most 39 cubic B-splines (35 interior
+    knots; :doc:`/bases_and_penalties`). Long records with fine structure
+    may need more, and then the basis, not alpha, limits the smooth: an
+    ``edf_`` close to ``n_basis_`` is the sign (the chosen alpha already
+    gives nearly the unpenalized fit), and a larger ``n_basis`` is the
+    remedy. On the open PigCVP set (2,000 points of a pressure signal per
+    curve) the default chose ``edf_`` 38.7 of 39 and removed a residual of
+    root mean square 1.34 from curves whose values vary by 1.55 (standard
+    deviation within a curve), detail a classifier used:
+    ``LogisticRegression()`` scored 0.053 on the smoothed values against
+    0.096 on the raw ones, 0.091 with ``n_basis=100`` (``edf_`` 98.8) and
+    0.101 with ``n_basis=200`` (``edf_`` 194); run to convergence
+    (``max_iter=1000``), 0.077 against 0.115, and 0.115 with
+    ``n_basis=200``. The smoothed values keep the
+    scale of the raw ones, so a model downstream needs no rescaling that
+    the raw values would not need (:doc:`/open_data`).
+
     %(cautions)s
 
     References

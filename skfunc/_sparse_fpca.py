@@ -34,6 +34,16 @@ through conditional expectation, built on the package's penalized engine:
    ``xi_i = Lambda Phi_i' (Phi_i Lambda Phi_i' + sigma^2 I)^{-1} (y_i - mu_i)``,
    computed in the K x K form ``(sigma^2 Lambda^{-1} + Phi_i' Phi_i)^{-1}
    Phi_i' (y_i - mu_i)`` (Woodbury), one small system per curve.
+6. **Likelihood refinement.** Steps 1-4 are moment estimates: each cell of
+   the surface averages the few curves observed near both of its times, and
+   curves with many readings weigh as many pairs, so the components carry
+   more sampling error than the data hold. ``fit`` then maximises the
+   penalized Gaussian likelihood of the reduced-rank model ``y_i = mu_i +
+   Psi_i Gamma z_i + e_i`` (James, Hastie and Sugar, 2000) over the K
+   loading functions ``Gamma`` and ``sigma^2`` by EM, started from steps
+   3-4, with the surface's roughness penalty on each loading function
+   (:class:`_EStep`). Each EM step is one pass of additive sums over the row
+   blocks (per grid column: ``sum_i E[z_i z_i']`` and ``sum_i r_ij E[z_i]``).
 """
 
 import warnings
@@ -43,6 +53,7 @@ import numpy as np
 import scipy.sparse
 from scipy.stats import norm
 from sklearn.base import BaseEstimator, ClassNamePrefixFeaturesOutMixin, TransformerMixin
+from sklearn.exceptions import ConvergenceWarning
 from sklearn.utils import Bunch
 from sklearn.utils._param_validation import Interval, RealNotInt, StrOptions
 from sklearn.utils.validation import check_is_fitted
@@ -56,17 +67,25 @@ from ._alpha import (
     choose_alpha,
 )
 from ._bases import BSplineBasis, default_n_basis, gram_sqrt
-from ._blocks import output_dtype, row_blocks
+from ._blocks import (
+    apply_rows,
+    compute_statistics,
+    is_dask_array,
+    output_dtype,
+    row_blocks,
+)
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
-from ._fit import AdditiveTransformerMixin
+from ._fit import AdditiveTransformerMixin, check_finite_fit
 from ._fpca import ComponentCurvesMixin, _single_thread, sign_convention
 from ._penalized import (
+    ZERO_EXPONENT,
     NotIdentifiableError,
     Penalty,
     SplitPath,
+    data_exponent,
     penalty_for,
-    power_of_two_scale,
+    penalty_scale,
 )
 from ._validation import check_level, resolve_n_basis, validate_curves
 
@@ -305,6 +324,93 @@ class _BatchStatistics:
         return {"columns": columns, "pairs": pairs}
 
 
+class _BinSums:
+    """Count and sum of the observed values per covariance bin of a block of
+    curves (additive; picklable)."""
+
+    def __init__(self, column_bin, n_bins):
+        self.column_bin, self.n_bins = column_bin, n_bins
+
+    def __call__(self, X):
+        rows, cols, values = _observations(np.asarray(X, dtype=np.float64))
+        bins = self.column_bin[cols]
+        return {"count": np.bincount(bins, minlength=self.n_bins),
+                "sum": np.bincount(bins, values, minlength=self.n_bins)}
+
+
+class _SpreadExponent:
+    """:func:`skfunc._penalized.data_exponent` of the values less their bin's
+    shift, for a block of curves (merged by :func:`_merge_exponents`)."""
+
+    def __init__(self, column_bin, shift):
+        self.column_bin, self.shift = column_bin, shift
+
+    def __call__(self, X):
+        rows, cols, values = _observations(np.asarray(X, dtype=np.float64))
+        return {"exponent": data_exponent(values - self.shift[self.column_bin[cols]])}
+
+
+def _merge_exponents(*stats):
+    return {"exponent": max(s["exponent"] for s in stats)}
+
+
+class _EStep:
+    """The E-step of the reduced-rank model over a block of curves.
+
+    Model (James, Hastie and Sugar, 2000): ``y_i = mu_i + A_i z_i + e_i``,
+    ``z_i ~ N(0, I_K)``, ``e_i ~ N(0, sigma^2 I)``, ``A = Psi Gamma`` the
+    K loading functions on the grid. With ``M_i = I + A_i' A_i / sigma^2``
+    and ``b_i = A_i' r_i / sigma^2`` (``r_i = (y_i - mu_i) / scale``), the
+    posterior of ``z_i`` is ``N(M_i^{-1} b_i, M_i^{-1})``. Returns the sums
+    the M-step needs, per grid column ``c``: ``ezz[c] = sum_i o_ic
+    E[z_i z_i']`` and ``rez[c] = sum_i r_ic E[z_i]``; the total ``rr`` of
+    ``r^2``; and the log-likelihood of the block under the current
+    parameters (``log det Sigma_i = n_i log sigma^2 + log det M_i``,
+    ``r' Sigma_i^{-1} r = r'r / sigma^2 - b' M^{-1} b``, Woodbury).
+    Additive over rows; picklable (arrays and floats only).
+    """
+
+    def __init__(self, mean, loadings, noise, scale):
+        self.mean, self.loadings, self.noise, self.scale = mean, loadings, noise, scale
+
+    def __call__(self, X):
+        X = np.asarray(X, dtype=np.float64)
+        A, s2 = self.loadings, self.noise
+        k = A.shape[1]
+        missing = np.isnan(X)
+        observed = (~missing).astype(np.float64)
+        resid = (X - self.mean) / self.scale
+        resid[missing] = 0.0
+        pairs = (A[:, :, None] * A[:, None, :]).reshape(-1, k * k)
+        system = (observed @ pairs).reshape(-1, k, k) / s2
+        system[:, np.arange(k), np.arange(k)] += 1.0
+        b = resid @ A / s2
+        chol = np.linalg.cholesky(system)
+        inverse = np.linalg.inv(system)
+        ez = np.einsum("nab,nb->na", inverse, b)
+        ezz = inverse + ez[:, :, None] * ez[:, None, :]
+        rr = np.einsum("nj,nj->n", resid, resid)
+        n_obs = observed.sum(axis=1)
+        log_det = n_obs * np.log(s2) + 2 * np.log(np.diagonal(chol, axis1=1, axis2=2)).sum(1)
+        quad = rr / s2 - np.einsum("na,na->n", b, ez)
+        return {
+            "ezz": observed.T @ ezz.reshape(-1, k * k),
+            "rez": resid.T @ ez,
+            "rr": float(rr.sum()),
+            "loglik": float(-0.5 * np.sum(log_det + quad + n_obs * np.log(2 * np.pi))),
+        }
+
+
+class _LogLikelihood:
+    """Only the log-likelihood of an :class:`_EStep` (additive; picklable)."""
+
+    def __init__(self, step):
+        self.step = step
+
+    def __call__(self, X):
+        return {"loglik": self.step(X)["loglik"]}
+
+
 @fill_doc
 class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
                           ClassNamePrefixFeaturesOutMixin, TransformerMixin, BaseEstimator):
@@ -361,6 +467,12 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         equal-width bins of the domain, each placed at the mean time of its
         observations. This bounds the surface fit at this number squared
         cells whatever the number of curves or distinct times.
+    max_iter : int, default=100
+        Maximum number of EM steps of the likelihood refinement (see Notes);
+        0 keeps the moment estimates of Yao et al. (2005).
+    tol : float, default=1e-6
+        The EM stops after a step that changes the log-likelihood by at
+        most ``tol`` per observed value.
     %(grid)s
 
     Attributes
@@ -412,6 +524,12 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         Degree of the surface's B-splines.
     n_observations_ : int
         Number of observed values (non-NaN entries) in the fit.
+    n_iter_ : int
+        Number of EM steps run (0 for the moment fit).
+    log_likelihood_ : float or None
+        Gaussian log-likelihood of the observed values under the fitted
+        mean, components, eigenvalues and noise variance, in the units of
+        X (None for the moment fit).
     n_samples_seen_ : int
         Number of curves the fit is based on (summed over ``partial_fit``).
     %(curve_input_attributes)s
@@ -444,6 +562,30 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
     floored at ``sqrt(eps)`` times the average of ``V`` so that curves
     observed without error still give well-posed scores.
 
+    The moment estimates weight every pair of observations equally, so a
+    curve with ten readings counts as 90 pairs and one with two as 2, while
+    the information in a curve about the K-dimensional scores is bounded;
+    their components carry more error than the data hold (in the
+    simulation of Yao et al. at 500 curves, 0.117 in L2 for the second
+    component on average over 20 replicates, against 0.069 refined).
+    :meth:`fit` therefore refines them by penalized maximum likelihood of
+    the Gaussian reduced-rank model ``y_i = mu_i + Psi_i Gamma z_i + e_i``,
+    ``z_i ~ N(0, I_K)`` (James, Hastie and Sugar, 2000), which weighs each
+    curve by its own covariance ``Psi_i Gamma Gamma' Psi_i' + sigma^2 I``.
+    EM runs from the moment estimates (K = ``n_components_``); each M-step
+    minimises the expected residual sum of squares plus ``lam sum_k int
+    (D^q gamma_k)^2`` over the loading functions, then sets ``sigma^2`` to
+    the expected mean squared residual; ``lam`` is the surface's unit-free
+    ``covariance_alpha_`` on the scale of the observations' Gram matrix
+    (:func:`skfunc._penalized.penalty_scale`): the penalty chosen by
+    cross-validation for the surface, applied to each loading function.
+    The mean stays the pooled one. The components are the L2
+    eigenfunctions of ``Gamma Gamma'``, the eigenvalues its eigenvalues,
+    and ``sigma^2`` the EM's estimate (floored as above), so the model used
+    by the scores is the one fitted. ``max_iter=0`` keeps the moment
+    estimates; :meth:`partial_fit` gives those too, since each EM step needs
+    every curve again.
+
     The bands of :meth:`predict_curves` are pointwise, from the conditional
     covariance of the scores given a curve's observations (Yao et al., 2005,
     sec. 3); they treat the mean, components and variances as known, so
@@ -473,6 +615,10 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
     Yao, F., Mueller, H.-G. and Wang, J.-L. (2005). Functional data analysis
     for sparse longitudinal data. *Journal of the American Statistical
     Association* 100(470), 577-590.
+
+    James, G. M., Hastie, T. J. and Sugar, C. A. (2000). Principal
+    component models for sparse functional data. *Biometrika* 87(3),
+    587-602.
 
     Rice, J. A. and Silverman, B. W. (1991). Estimating the mean and
     covariance structure nonparametrically when the data are curves.
@@ -520,6 +666,8 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         "covariance_alpha": ALPHA_CONSTRAINT,
         "noise_variance": [Interval(Real, 0, None, closed="left"), StrOptions({"auto"})],
         "max_covariance_points": [Interval(Integral, 3, None, closed="left")],
+        "max_iter": [Interval(Integral, 0, None, closed="left")],
+        "tol": [Interval(Real, 0, None, closed="left")],
         "grid": ["array-like", None],
     }
 
@@ -535,6 +683,8 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         covariance_alpha="auto",
         noise_variance="auto",
         max_covariance_points=100,
+        max_iter=100,
+        tol=1e-6,
         grid=None,
     ):
         store_init_params(self, locals())
@@ -545,8 +695,10 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         return tags
 
     # ------------------------------------------------------------------ fit
-    #: fitted in memory from additive statistics; not yet over Dask arrays
-    _accepts_dask = False
+    #: the moment fit is one pass of additive statistics and each EM step
+    #: another (skfunc._blocks.compute_statistics), so dask arrays are fitted
+    #: where their blocks are
+    _accepts_dask = True
 
     @fill_doc
     def fit(self, X, y=None):
@@ -554,31 +706,114 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
 
         Parameters
         ----------
-        X : array-like of shape (n_samples, n_features)
+        X : array-like or dask array of shape (n_samples, n_features)
             Curves, one per row, on the grid; NaN where a curve was not
-            observed. Every row needs at least one observed value.
+            observed. Every row needs at least one observed value. A Dask
+            array is fitted where its blocks are: the moment fit is one pass
+            of summed statistics over the row blocks, each EM step another.
         %(y_ignored_returns_transformer)s
         """
-        return self._fit_statistics(X)
+        self._fit_statistics(X)
+        X = vars(self).pop("_batch_X")
+        if self.max_iter > 0 and self._refinable:
+            self._refine(X)
+            check_finite_fit(self)
+        return self
 
     @fill_doc
     def partial_fit(self, X, y=None):
         """Add a batch of curves and refit from the statistics of all batches.
 
-        The fit depends on the curves only through sums per grid column and
-        per covariance cell (see Notes), so after the last batch it equals
-        :meth:`fit` on all batches stacked, up to rounding; rows are dealt to
-        the folds of the alpha choice by their position over all batches.
-        The first batch fixes the grid.
+        The moment fit (steps 1-5 of the method, ``max_iter=0``) depends on
+        the curves only through sums per grid column and per covariance cell
+        (see Notes), so after the last batch it equals :meth:`fit` with
+        ``max_iter=0`` on all batches stacked, up to rounding; rows are dealt
+        to the folds of the alpha choice by their position over all batches.
+        The likelihood refinement is not run here: each of its steps needs
+        every curve again (:meth:`fit` does that). The first batch fixes the
+        grid.
 
         Parameters
         ----------
-        X : array-like of shape (n_samples, n_features)
+        X : array-like or dask array of shape (n_samples, n_features)
             A batch of curves on the grid of the first batch, NaN where not
             observed.
         %(partial_fit_y_returns)s
         """
-        return self._partial_fit_statistics(X)
+        self._partial_fit_statistics(X)
+        vars(self).pop("_batch_X", None)
+        return self
+
+    def _refine(self, X):
+        """Penalized maximum likelihood of the reduced-rank model by EM,
+        started from the moment fit (see Notes of the class)."""
+        grid, scale = self.grid_, self._value_scale
+        domain = (grid[0], grid[-1])
+        cbasis = BSplineBasis(domain, self.covariance_n_basis_, degree=self.covariance_degree_)
+        psi = cbasis.evaluate(grid)
+        n_basis, k = psi.shape[1], self.n_components_
+        counts = self._partial_statistics["columns"][0].sum(axis=0)
+        n_obs = float(counts.sum())
+        penalty = penalty_for(cbasis, self.penalty_order)
+        lam = self.covariance_alpha_ * penalty_scale(psi.T @ (counts[:, None] * psi), penalty)
+        rough = lam * np.kron(np.eye(k), penalty.matrix)
+        # loadings Gamma (basis x K): the moment fit's components times the
+        # square roots of their variances, in units of X / scale
+        gamma = (self.components_basis_coef_.T * np.sqrt(self.explained_variance_)) / scale
+        fixed_noise = self.noise_variance != "auto"
+        mean_square = self._mean_square
+        floor = NOISE_FLOOR * max(mean_square, np.finfo(float).tiny)
+        noise = max(self.noise_variance_ / scale**2, floor)
+        if is_dask_array(X):  # read at every step: computed once, kept on the workers
+            X = X.persist()
+        previous, converged = None, False
+        for n_iter in range(1, self.max_iter + 1):  # noqa: B007  (n_iter_)
+            stats = compute_statistics(_EStep(self.mean_, psi @ gamma, noise, scale), X)
+            ezz, rez = stats["ezz"].reshape(-1, k, k), stats["rez"]
+            hessian = rough.copy()
+            for a in range(k):
+                for b in range(k):
+                    hessian[a * n_basis:(a + 1) * n_basis, b * n_basis:(b + 1) * n_basis] += (
+                        psi.T @ (ezz[:, a, b, None] * psi))
+            gamma = np.linalg.solve(hessian, (psi.T @ rez).T.ravel()).reshape(k, n_basis).T
+            if not fixed_noise:
+                A = psi @ gamma
+                expected = (stats["rr"] - 2 * np.sum(A * rez)
+                            + np.einsum("ca,cab,cb->", A, ezz, A))
+                noise = max(expected / n_obs, floor)
+            converged = previous is not None and abs(stats["loglik"] - previous) <= (
+                self.tol * n_obs)
+            previous = stats["loglik"]
+            if converged:
+                break
+        # the log-likelihood at the fitted parameters: one more E-step pass
+        final = _EStep(self.mean_, psi @ gamma, noise, scale)
+        loglik = compute_statistics(_LogLikelihood(final), X)["loglik"]
+        if not converged:
+            warnings.warn(
+                f"SparseFunctionalPCA: the likelihood refinement did not converge in "
+                f"max_iter={self.max_iter} EM steps (change of the log-likelihood "
+                f"per observation above tol={self.tol}); increase max_iter.",
+                ConvergenceWarning,
+                stacklevel=3,
+            )
+        root, inv_root = gram_sqrt(cbasis.gram())
+        eigvals, eigvecs = np.linalg.eigh(root @ (gamma @ gamma.T) @ root)
+        eigvals, eigvecs = eigvals[::-1][:k], eigvecs[:, ::-1][:, :k]
+        eigvals = np.maximum(eigvals, EIGEN_RTOL * max(eigvals[0], np.finfo(float).tiny))
+        coef = (inv_root @ eigvecs).T
+        components = coef @ psi.T
+        signs = sign_convention(components)
+        self.components_basis_coef_ = coef * signs[:, None]
+        self.components_ = components * signs[:, None]
+        self.explained_variance_ = eigvals * scale**2
+        self.explained_variance_ratio_ = eigvals / (eigvals.sum() + self._tail_variance)
+        self.covariance_basis_coef_ = gamma @ gamma.T * scale**2
+        if not fixed_noise:
+            self.noise_variance_ = float(noise * scale**2)
+        # the log-likelihood in the units of X (the density of y = scale r)
+        self.log_likelihood_ = float(loglik - n_obs * np.log(scale))
+        self.n_iter_ = int(n_iter)
 
     def _forget(self):
         super()._forget()
@@ -590,15 +825,18 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         if first:
             # offsets that keep the pair sums free of cancellation: the
             # first batch's mean per covariance bin, and a power of two
-            # bringing the centred values near 1 (exact scalings)
+            # bringing the centred values near 1 (exact scalings); two
+            # small passes of additive statistics (on the workers for Dask)
             column_bin, n_bins = self._column_bins()
-            rows, cols, values = _observations(X)
-            bins = column_bin[cols]
-            count = np.bincount(bins, minlength=n_bins)
-            total = np.bincount(bins, values, minlength=n_bins)
-            overall = float(values.mean()) if values.size else 0.0
+            sums = compute_statistics(_BinSums(column_bin, n_bins), X)
+            count, total = sums["count"], sums["sum"]
+            overall = float(total.sum() / count.sum()) if count.sum() else 0.0
             self._bin_shift = np.where(count > 0, total / np.maximum(count, 1), overall)
-            self._value_scale = power_of_two_scale(values - self._bin_shift[bins])
+            exponent = compute_statistics(_SpreadExponent(column_bin, self._bin_shift), X,
+                                          merge=_merge_exponents)["exponent"]
+            self._value_scale = (1.0 if exponent == ZERO_EXPONENT
+                                 else float(np.ldexp(1.0, exponent)))
+        self._batch_X = X  # read again by the likelihood refinement of fit
         offset = 0 if first else self.n_samples_seen_
         return X, np.arange(offset, offset + X.shape[0])
 
@@ -711,6 +949,7 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         eigvals, eigvecs = np.linalg.eigh(root @ cov_coef @ root)
         eigvals, eigvecs = eigvals[::-1], eigvecs[:, ::-1]
         positive = eigvals > EIGEN_RTOL * max(eigvals[0], 0.0)
+        refinable = bool(positive.any())
         mean_square = float(((S2 - 2 * e * S1 + e**2 * N_c).sum()) / n_obs)
         if not positive.any():
             # nothing varies between times: keep the leading direction with
@@ -758,6 +997,13 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         self.noise_variance_ = noise
         self.n_components_ = int(n_keep)
         self.n_observations_ = int(n_obs)
+        self.n_iter_, self.log_likelihood_ = 0, None
+        # read by the likelihood refinement (fit): whether it applies (a
+        # surface that varies, with a positive eigenvalue), the variance of
+        # the components left out and the mean square of the residuals
+        self._refinable = bool(refinable and occupied.size >= 3)
+        self._tail_variance = float(eigvals[n_keep:].sum())
+        self._mean_square = mean_square
 
     def _covariance_points(self, counts, column_bin, n_bins):
         """The time of each covariance bin: the grid point itself, or the mean
@@ -838,16 +1084,19 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
 
         Parameters
         ----------
-        X : array-like of shape (n_samples, n_features)
+        X : array-like or dask array of shape (n_samples, n_features)
             Curves on the fitted grid, NaN where not observed.
 
         Returns
         -------
-        scores : ndarray of shape (n_samples, n_components_)
+        scores : ndarray or dask array of shape (n_samples, n_components_)
             ``E[xi_k | observations]`` under the fitted model (the best
             linear predictor).
         """
         X = self._validate(X)
+        return apply_rows(self._scores, X, self.n_components_, dtype=output_dtype(X))
+
+    def _scores(self, X):
         return self._conditional(X)[0].astype(output_dtype(X), copy=False)
 
     def predict_curves(self, X, *, level=0.95, eval_points=None):

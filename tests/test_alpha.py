@@ -285,3 +285,17 @@ def test_automatic_choice_does_not_depend_on_units(criterion):
     for alpha, pred in out[1:]:
         assert np.isclose(alpha, out[0][0], rtol=1e-8)
         np.testing.assert_allclose(pred, out[0][1], rtol=1e-8, atol=1e-10 * np.abs(out[0][1]).max())
+
+
+def test_gcv_low_edge_advice_names_reml():
+    # A GCV choice at the smallest candidate suggests REML (which on few
+    # curves against the basis does not pick a near-interpolating fit: see
+    # test_linear_model.py); a REML choice there does not suggest itself.
+    scores = np.array([1.0, 2.0, 3.0])  # best at the smallest alpha
+    alphas = np.array([1e-6, 1e-3, 1.0])
+    with pytest.warns(AlphaAtEdgeWarning, match="criterion='reml'"):
+        best_index(scores, alphas, criterion="GCV")
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        best_index(scores, alphas, criterion="REML")
+    assert caught and all("criterion='reml'" not in str(w.message) for w in caught)

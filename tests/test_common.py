@@ -72,8 +72,9 @@ def test_resolution_invariance(name):
                                                              "partial_fit")])
 def test_partial_fit_equals_fit(name):
     # The fit reads additive statistics only, so three batches give the fit
-    # on all rows up to rounding (1e-8 relative: sums in another order).
-    whole, X, y, output = _fit(name, EVEN)
+    # on all rows up to rounding (1e-8 relative: sums in another order); a
+    # case's partial_fit_params set what of fit partial_fit does.
+    whole, X, y, output = _fit(name, EVEN, **ESTIMATOR_CASES[name].get("partial_fit_params", {}))
     streamed = make_case(name, EVEN)[0]
     for rows in np.array_split(np.arange(X.shape[0]), 3):
         streamed.partial_fit(X[rows], None if y is None else y[rows])

@@ -641,3 +641,40 @@ def _root():
     import pathlib
 
     return str(pathlib.Path(__file__).resolve().parents[1])
+
+
+def sparse_kiln_runs(n_runs, n_minutes=61, per_run=5, seed=0):
+    """Invented kiln-firing runs read by hand at ``per_run`` random minutes
+    each (NaN elsewhere): the sparse curves of SparseFunctionalPCA."""
+    grid, X, _ = kiln_runs(n_runs, n_minutes, seed)
+    rng = np.random.default_rng(seed)
+    keep = rng.random(X.shape).argsort(axis=1) < per_run
+    return grid, np.where(keep, X, np.nan)
+
+
+def test_sparse_fpca_on_cluster_equals_in_memory(client, monkeypatch):
+    # The moment pass and every EM step are tree-reduced sums on the
+    # workers; the curves are never converted to numpy in this process.
+    # Equal to the in-memory fit within 1e-8 (the order of the sums
+    # differs, and the EM iterates on them).
+    from skfunc.decomposition import SparseFunctionalPCA
+
+    t, X = sparse_kiln_runs(600)
+    Xd = da.from_array(X, chunks=(100, X.shape[1]))
+
+    def refuse(*args, **kwargs):
+        raise AssertionError("a dask array was converted to numpy as a whole")
+
+    monkeypatch.setattr(type(Xd), "__array__", refuse)
+    model = SparseFunctionalPCA(2, grid=t).fit(Xd)
+    scores = model.transform(Xd)
+    monkeypatch.undo()
+    reference = SparseFunctionalPCA(2, grid=t).fit(X)
+    assert model.n_samples_seen_ == 600 and model.n_iter_ == reference.n_iter_ > 0
+    assert model.alpha_ == pytest.approx(reference.alpha_, rel=1e-8)
+    assert model.covariance_alpha_ == pytest.approx(reference.covariance_alpha_, rel=1e-8)
+    for name in ("mean_", "components_", "explained_variance_", "noise_variance_",
+                 "log_likelihood_"):
+        assert_rel_close(getattr(model, name), getattr(reference, name), rtol=1e-8)
+    assert is_dask_array(scores)
+    assert_rel_close(scores.compute(), reference.transform(X), rtol=1e-8)

@@ -316,7 +316,8 @@ def test_resolution_invariance_on_drawn_grids(name, m, strength):
 
 #: outputs in X's units (scaled by s), else unit-free; curve responses are
 #: scaled with X in this test
-_IN_X_UNITS = ("CurveSmoother", "BasisFeatures", "FunctionalPCA", "ShiftAligner",
+_IN_X_UNITS = ("CurveSmoother", "BasisFeatures", "FunctionalPCA", "SparseFunctionalPCA",
+               "ShiftAligner",
                "LandmarkAligner", "ElasticAligner", "FunctionOnScalarRidge",
                "FunctionOnFunctionRidge", "ConcurrentFunctionRidge")
 
@@ -330,7 +331,7 @@ _UNIT_FAILURES: dict = {}
 def _unit_names():
     return [pytest.param(*p.values, marks=[*p.marks, _UNIT_FAILURES[p.values[0]]])
             if not isinstance(p, str) and p.values[0] in _UNIT_FAILURES else p
-            for p in _names(lambda n: n != "SparseFunctionalPCA", fast="FunctionalRidgeCV")]
+            for p in _names(fast="FunctionalRidgeCV")]
 
 
 @pytest.mark.parametrize("name", _unit_names())
@@ -344,7 +345,6 @@ def test_unit_invariance_for_drawn_units(name, shift, stretch, scale, auto):
     # automatic choice. 1e-7 relative: rounding of grids whose origin is up
     # to 100 spans away loses about log10(100 * 200) = 4.3 of 16 digits in
     # the spacings (the fixed test's 1e-8 at shift 3 spans).
-    # SparseFunctionalPCA's alpha is not unit-free yet (xfail there).
     c, s = 10.0 ** stretch, 10.0 ** scale
     grid = np.linspace(0, 1, 51)
     base, X, y = _case(name, grid)

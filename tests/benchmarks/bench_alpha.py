@@ -17,6 +17,11 @@ Two problem shapes, each with K basis functions:
 Ratios are printed with and without the data pass (``engine only``).
 Target: automatic choice at most 1.5x a fixed-alpha fit (with the data pass).
 
+Then every penalized estimator, through its public ``fit``: ``alpha="auto"``
+against ``alpha=alpha_`` (the automatic fit's own choice), on invented kiln
+runs (``skfunc.datasets.make_kiln_firing``, without dropouts), best of the
+repeats taken in turns. Same target, 1.5x.
+
 Run ``python tests/benchmarks/bench_alpha.py`` (full sizes) or with
 ``--quick`` (small sizes, a few seconds) from the repository root.
 """
@@ -136,6 +141,63 @@ def report(name, times):
         print(f"  {key:<15}{1e3 * value:>12.3f}{with_data:>15.2f}x{value / base:>13.2f}x")
 
 
+def estimator_cases(n):
+    """(name, estimator, X, y) of every penalized estimator on ``n`` kiln runs."""
+    import skfunc
+    from skfunc.datasets import make_kiln_firing
+
+    kiln = make_kiln_firing(n, dropout_fraction=0.0, random_state=0)
+    X, minutes = kiln.data, kiln.grid
+    rng = np.random.default_rng(0)
+    concurrent_y = 0.5 * kiln.true_curves + rng.normal(0, 5.0, X.shape)
+    return [
+        ("CurveSmoother", skfunc.CurveSmoother(grid=minutes), X, None),
+        ("BasisFeatures", skfunc.BasisFeatures(grid=minutes), X, None),
+        ("FunctionalPCA", skfunc.FunctionalPCA(n_components=3, basis="bspline",
+                                               grid=minutes), X, None),
+        ("FunctionalRidge", skfunc.FunctionalRidge(grid=minutes), X, kiln.strength),
+        ("FunctionalRidge(gcv)", skfunc.FunctionalRidge(grid=minutes, criterion="gcv"),
+         X, kiln.strength),
+        ("FunctionalRidgeCV", skfunc.FunctionalRidgeCV(grid=minutes), X, kiln.strength),
+        ("FunctionOnScalarRidge", skfunc.FunctionOnScalarRidge(response_grid=minutes),
+         kiln.settings, X),
+        ("FunctionOnFunctionRidge", skfunc.FunctionOnFunctionRidge(
+            grid=kiln.oxygen_grid, response_grid=minutes), kiln.oxygen, X),
+        ("ConcurrentFunctionRidge", skfunc.ConcurrentFunctionRidge(grid=minutes,
+                                                             response_grid=minutes),
+         X, concurrent_y),
+        ("FunctionalLogisticRegression", skfunc.FunctionalLogisticRegression(
+            grid=minutes), X, kiln.cracked),
+    ]
+
+
+def bench_estimators(n, repeat):
+    """Fit time of ``alpha="auto"`` against ``alpha=alpha_`` per estimator."""
+    from sklearn.base import clone
+
+    print(f"\nEvery penalized estimator on {n} kiln runs: fit with alpha='auto' "
+          f"against alpha=alpha_ (best of {repeat}, in turns; target <= 1.5x)")
+    print(f"  {'estimator':<30}{'auto (s)':>10}{'fixed (s)':>11}{'ratio':>8}")
+    for name, est, X, y in estimator_cases(n):
+        args = (X,) if y is None else (X, y)
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            try:
+                auto = clone(est).fit(*args)
+            except (TypeError, ValueError) as exc:  # a case this script got wrong
+                print(f"  {name:<30}skipped: {exc}")
+                continue
+            chosen = np.asarray(getattr(auto, "alpha_", np.nan))
+            if chosen.size != 1 or not np.isfinite(chosen):
+                print(f"  {name:<30}skipped: alpha_ is {chosen!r}")
+                continue
+            fixed = clone(est).set_params(alpha=float(chosen))
+            times = best_times({"auto": lambda e=est, a=args: clone(e).fit(*a),
+                                "fixed": lambda e=fixed, a=args: clone(e).fit(*a)}, repeat)
+        ratio = times["auto"] / times["fixed"]
+        print(f"  {name:<30}{times['auto']:>10.3f}{times['fixed']:>11.3f}{ratio:>7.2f}x")
+
+
 def main():
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--quick", action="store_true", help="small sizes, few repeats")
@@ -150,6 +212,7 @@ def main():
                bench_smoother(n, m, K, rng, repeat))
         report(f"scalar-outcome ridge: {n} curves x {m} points, K={K}",
                bench_ridge(n, m, K, rng, repeat))
+    bench_estimators(30 if args.quick else 300, 1 if args.quick else 3)
 
 
 if __name__ == "__main__":
