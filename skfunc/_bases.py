@@ -130,10 +130,14 @@ class Basis(ABC):
         self.check_derivative(order, name="penalty_order")
         return self._null_space(r)
 
+    @abstractmethod
     def _null_space(self, r):
-        # polynomials are in the span: interpolate them at r + (K - r) points
-        # where the basis is unisolvent (subclasses give exact closed forms)
-        raise NotImplementedError  # pragma: no cover
+        """Basis coefficients (K, r) of the shifted Legendre polynomials
+        ``P_i(2 (t - a) / L - 1)``, ``i < r``, for ``0 < r < K``
+        (:meth:`null_space` handles ``r = 0`` and ``r = K``), exact up to
+        rounding: each basis writes them from its own structure (B-splines
+        by interpolation at the Greville abscissae, Fourier the constant,
+        Legendre the first ``r`` unit vectors)."""
 
     def unit_roughness(self, order):
         """Roughness of the same functions on the domain mapped to [0, 1].

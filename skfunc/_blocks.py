@@ -177,11 +177,24 @@ def _single_threaded_blas_under_threads(collection):
 
     import dask.threaded
     from dask.base import get_scheduler
-    from threadpoolctl import threadpool_limits
 
     if get_scheduler(collections=[collection]) is dask.threaded.get:
-        return threadpool_limits(limits=1, user_api="blas")
+        return single_thread_blas()
     return contextlib.nullcontext()
+
+
+_CONTROLLER = None
+
+
+def single_thread_blas():
+    """A context with one BLAS thread in this process (the one place skfunc
+    lowers the BLAS threads: work it runs beside other threads)."""
+    global _CONTROLLER
+    if _CONTROLLER is None:  # inspecting the loaded libraries is slow: once
+        from threadpoolctl import ThreadpoolController
+
+        _CONTROLLER = ThreadpoolController()
+    return _CONTROLLER.limit(limits=1, user_api="blas")
 
 
 def _along_rows_of(X, other):

@@ -32,12 +32,12 @@ from sklearn.utils.validation import (
     check_array,
 )
 
-from ._blocks import _along_rows_of, is_dask_array
+from ._blocks import _along_rows_of, is_dask_array, output_dtype
+from ._grid import check_curve_points, empty_curve_error
 
 
 def _is_dask_collection(X):
     return type(X).__module__.split(".")[0] in ("dask", "dask_expr")
-
 
 
 def _check_block(block, name, allow_nan, n_points=None, block_info=None):
@@ -59,25 +59,22 @@ def _check_block(block, name, allow_nan, n_points=None, block_info=None):
         if allow_nan and name == "X":
             empty = np.flatnonzero(np.all(np.isnan(values[:, :n_points]), axis=1))
             if empty.size:
-                raise ValueError(
-                    f"Row {offset + int(empty[0])} of X is entirely NaN: a curve "
-                    "needs observed values to be represented."
-                )
+                raise empty_curve_error(offset + empty[0])
     return block
 
 
-def _float_dtype(array, name, accepted=(np.float64, np.float32)):
+def _float_dtype(array, name):
+    """The dtype numbers are validated to (:func:`skfunc._blocks.output_dtype`:
+    float32 kept, float64 otherwise); an error for anything but numbers."""
     kind = array.dtype.kind
-    if array.dtype in accepted:
-        return array.dtype
-    if kind in "biuf":
-        return np.dtype(accepted[0])
     if kind == "c":
         raise ValueError(f"Complex data not supported: {name} has dtype {array.dtype}.")
-    raise TypeError(
-        f"{name} must hold numbers (float64, float32, integers or booleans); "
-        f"got a dask array of dtype {array.dtype}."
-    )
+    if kind not in "biuf":
+        raise TypeError(
+            f"{name} must hold numbers (float64, float32, integers or booleans); "
+            f"got a dask array of dtype {array.dtype}."
+        )
+    return output_dtype(array)
 
 
 def _whole_rows(array, name):
@@ -92,35 +89,34 @@ def _whole_rows(array, name):
     return array
 
 
-def _validate_dask_X(estimator, X, reset, allow_nan, ensure_min_samples, curves,
-                     n_covariates):
+def _float_rows(X, what=""):
+    """A 2-D dask X in whole rows of float64 (float32 kept), lazily."""
     if X.ndim != 2:
-        raise ValueError(
-            f"Expected a 2-D dask array (one curve per row), got {X.ndim}-D with "
-            f"shape {X.shape}."
-        )
+        raise ValueError(f"Expected a 2-D dask array{what}, got {X.ndim}-D with "
+                         f"shape {X.shape}.")
     X = _whole_rows(X, "X")
     dtype = _float_dtype(X, "X")
-    if X.dtype != dtype:
-        X = X.astype(dtype)
+    return X.astype(dtype) if X.dtype != dtype else X
+
+
+def _checked_blocks(X, allow_nan=False, n_points=None):
+    """X with each block checked for values sklearn would reject when it
+    is computed (:func:`_check_block`)."""
+    return X.map_blocks(_check_block, "X", allow_nan, n_points,
+                        meta=np.empty((0, 0), dtype=X.dtype))
+
+
+def _validate_dask_X(estimator, X, reset, allow_nan, ensure_min_samples, curves,
+                     n_covariates):
+    X = _float_rows(X, " (one curve per row)")
     n, m = X.shape
     if n < ensure_min_samples:
         raise ValueError(
             f"Found array with {n} sample(s) (shape={X.shape}) while a minimum of "
             f"{ensure_min_samples} is required by {type(estimator).__name__}."
         )
-    if curves and n_covariates and m - n_covariates < 2:
-        raise ValueError(
-            f"X has {m} column(s), of which the last n_covariates={n_covariates} "
-            f"are scalar covariates, leaving {m - n_covariates} grid point(s); a "
-            "curve needs at least 2 grid points (columns of X) before the "
-            "covariates."
-        )
-    if curves and m < 2:
-        raise ValueError(
-            f"X has {m} feature(s) (grid points); a curve needs at least "
-            f"2 grid points, one per column of X, to be represented."
-        )
+    if curves:
+        check_curve_points(m, n_covariates)
     if m < 1:
         raise ValueError(
             f"Found array with 0 feature(s) (shape={X.shape}) while a minimum of "
@@ -128,10 +124,7 @@ def _validate_dask_X(estimator, X, reset, allow_nan, ensure_min_samples, curves,
         )
     _check_feature_names(estimator, X, reset=reset)
     _check_n_features(estimator, X, reset=reset)
-    return X.map_blocks(
-        _check_block, "X", allow_nan, m - n_covariates,
-        meta=np.empty((0, 0), dtype=X.dtype),
-    )
+    return _checked_blocks(X, allow_nan, m - n_covariates)
 
 
 def check_rows(X, n_columns=None, what="values"):
@@ -144,12 +137,7 @@ def check_rows(X, n_columns=None, what="values"):
     if not is_dask_array(X):
         X = check_array(X, dtype=[np.float64, np.float32])
     else:
-        if X.ndim != 2:
-            raise ValueError(f"Expected a 2-D dask array, got shape {X.shape}.")
-        X = _whole_rows(X, "X")
-        dtype = _float_dtype(X, "X")
-        X = X.astype(dtype) if X.dtype != dtype else X
-        X = X.map_blocks(_check_block, "X", False, meta=np.empty((0, 0), dtype=dtype))
+        X = _checked_blocks(_float_rows(X))
     if n_columns is not None and X.shape[1] != n_columns:
         raise ValueError(f"Expected {n_columns} {what}; got {X.shape[1]}.")
     return X
@@ -224,15 +212,13 @@ def validate_dask(estimator, X, y="no_validation", *, reset, allow_nan=False,
     if not no_y and is_dask_array(y) and not is_dask_array(X):
         # a small in-memory X (covariates) beside dask curves y: split X the
         # same way
-        import dask.array as da
-
         X = np.asarray(X)
         if X.ndim != 2 or X.shape[0] != y.shape[0]:
             raise ValueError(
                 f"X must be 2-D with one row per row of y ({y.shape[0]}); got "
                 f"shape {X.shape}."
             )
-        X = da.from_array(X, chunks=(y.chunks[0],) + X.shape[1:])
+        X = _along_rows_of(y, X)
     if y is None and get_tags(estimator).target_tags.required:
         raise ValueError(
             f"This {type(estimator).__name__} estimator requires y to be passed, "

@@ -228,6 +228,11 @@ X : array-like or dask array of shape (n_samples, n_features)
     Curves, one per row, sampled on the grid.
 %(y_ignored_returns_transformer)s
 """,
+    "partial_fit_additive": """
+The fit depends on the data only through additive statistics, so after the
+last batch it equals :meth:`fit` on all batches stacked (up to rounding), a
+penalty chosen from the data included. The first batch fixes the grids.
+""",
     "partial_fit_y_returns": """
 y : None
     Ignored; accepted for pipeline compatibility.

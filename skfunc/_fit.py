@@ -196,9 +196,7 @@ class AdditiveTransformerMixin(PreservesFloat32Mixin, AdditiveFitMixin):
     def partial_fit(self, X, y=None):
         """Add a batch of curves and refit from the statistics of all batches.
 
-        The fit depends on the curves only through additive statistics, so
-        after the last batch it equals :meth:`fit` on all batches stacked (up
-        to rounding). The first batch fixes the grid.
+        %(partial_fit_additive)s
 
         Parameters
         ----------
@@ -226,13 +224,12 @@ class AdditiveRegressorMixin(AdditiveFitMixin):
         """
         return self._fit_statistics(X, y, sample_weight)
 
+    @fill_doc
     def partial_fit(self, X, y, sample_weight=None):
         """Add a batch of observations and refit from the statistics of all
         batches.
 
-        The fit depends on the data only through additive statistics, so
-        after the last batch it equals :meth:`fit` on all batches stacked
-        (up to rounding), a penalty chosen by GCV included.
+        %(partial_fit_additive)s
 
         Parameters
         ----------

@@ -22,7 +22,14 @@ from sklearn.utils.class_weight import compute_class_weight
 from sklearn.utils.multiclass import check_classification_targets
 
 from ._alpha import ALPHA_CONSTRAINT, candidates_for, check_alpha
-from ._blocks import _along_rows_of, apply_rows, compute_statistics, is_dask_array
+from ._blocks import (
+    CHUNK_VALUES,
+    _along_rows_of,
+    apply_rows,
+    compute_statistics,
+    is_dask_array,
+    single_thread_blas,
+)
 from ._channels import channel_penalty
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
@@ -38,10 +45,9 @@ from ._logistic_path import (
     LogisticProblem,
     coef_covariance,
     design_statistics,
-    single_thread_blas,
     split_design,
 )
-from ._penalized import SplitPath, centered, penalty_scale
+from ._penalized import SplitPath, centered, penalty_scale, to_data_units
 from ._weights import check_sample_weight
 
 
@@ -317,11 +323,19 @@ class FunctionalLogisticRegression(
         U = path.eigvecs
         # the design in the path's coordinates: U' (G + R) U = diag(g), and
         # the roughness is exactly diag(p) (the null space first, exactly 0)
+        # (in the units of the statistics: the design divided by the merged
+        # powers of two, so no square of X overflows or underflows)
+        z_exp = np.asarray(stats["x_exp"])
         D = apply_rows(split_design, X, lead + U.shape[1], operator=operator,
-                       n_covariates=self.n_covariates, z_mean=z_mean, U=U, lead=lead)
+                       n_covariates=self.n_covariates, z_exp=z_exp, z_mean=z_mean,
+                       U=U, lead=lead)
         if is_dask_array(D):
-            # read at every Newton step: computed once, kept on the workers
-            D, Y, weight = D.persist(), Y.persist(), weight.persist()
+            # read at every Newton step: computed once, kept on the workers,
+            # in row blocks of about CHUNK_VALUES values (D is narrow: X's
+            # blocks would make many small tasks, and a Newton pass is bound
+            # by the rounds of messages, not by arithmetic)
+            rows = {0: max(1, CHUNK_VALUES // D.shape[1])}
+            D, Y, weight = (a.rechunk(rows).persist() for a in (D, Y, weight))
         column_size = np.concatenate([[stats["sw"]] * lead, np.diag(U.T @ gram @ U)])
         ridge_theta = np.zeros((lead + U.shape[1],) * 2)
         ridge_theta[lead:, lead:] = U.T @ ridge @ U
@@ -352,7 +366,12 @@ class FunctionalLogisticRegression(
                            for c in range(n_out)])
         coef = theta[:, lead:] @ U.T
         intercept = theta[:, 0] - coef @ z_mean if lead else np.zeros(n_out)
-        self._set_coefficients(basis, coef, intercept, blocks, squeeze=False)
+        # back to the data's units: coefficients of Z / 2**z_exp are those of
+        # Z times 2**-z_exp (the curves' share one exponent, z_exp[0])
+        curves = {"x_exp": int(z_exp[0]), "y_exp": 0}
+        self._set_coefficients(
+            basis, to_data_units(coef, stats, -1, 0, "coef_"), intercept,
+            to_data_units(blocks, curves, -2, 0, "coef_covariance_"), squeeze=False)
         return self
 
     def _ridge(self, gram, basis, scale, metric):

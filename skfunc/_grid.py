@@ -16,6 +16,33 @@ SECONDS_PER_DAY = 86400.0
 QUADRATURES = ("trapezoid", "simpson")
 
 
+def check_curve_points(n_columns, n_covariates=0):
+    """Raise unless X's ``n_columns`` leave at least 2 grid points, one per
+    column, before its ``n_covariates`` trailing scalar columns: a single
+    point cannot carry a curve (the one rule for numpy and Dask input)."""
+    n_points = n_columns - n_covariates
+    if n_covariates and n_points < 2:
+        raise ValueError(
+            f"X has {n_columns} column(s), of which the last n_covariates="
+            f"{n_covariates} are scalar covariates, leaving {n_points} grid "
+            "point(s); a curve needs at least 2 grid points (columns of X) "
+            "before the covariates."
+        )
+    if n_columns < 2:
+        raise ValueError(
+            f"X has {n_columns} feature(s) (grid points); a curve needs at least "
+            f"2 grid points, one per column of X, to be represented."
+        )
+
+
+def empty_curve_error(row):
+    """The error for a row of X with no observed value (all NaN)."""
+    return ValueError(
+        f"Row {int(row)} of X is entirely NaN: a curve needs observed values to "
+        "be represented."
+    )
+
+
 def check_grid(grid, n_points=None, *, name="grid", data_name="X"):
     """Validate a grid and return it as a new 1-D float64 array.
 

@@ -36,7 +36,7 @@ from ._bands import critical_value
 from ._blocks import chunked_matmul, output_dtype
 from ._channels import channel_penalty, curve_weights
 from ._estimator import ShortReprMixin
-from ._penalized import NotIdentifiableError, SplitPath
+from ._penalized import NotIdentifiableError, SplitPath, data_exponent, scale_down
 from ._validation import (
     BASIS_CONSTRAINTS,
     CHANNEL_N_BASIS,
@@ -65,6 +65,47 @@ def integrated_design(X, operator, n_covariates):
     if n_covariates:
         Z = np.hstack([Z, np.asarray(X[:, m:], dtype=np.float64)])
     return Z
+
+
+def design_exponents(X, n_basis, n_covariates):
+    """Power-of-two exponents (:func:`~skfunc._penalized.data_exponent`) of
+    the integrated design's columns for curves X: one shared by the ``n_basis``
+    columns of the curves, then one per covariate (covariates are
+    unpenalized, so scaling each is a change of units that leaves the fit
+    unchanged, and covariates in other units than the curves keep their
+    digits)."""
+    m = X.shape[1] - n_covariates
+    curves = data_exponent(X[:, :m])
+    covariates = [data_exponent(X[:, j]) for j in range(m, X.shape[1])]
+    return np.array([curves] * n_basis + covariates, dtype=np.int64)
+
+
+def scaled_integrated_design(X, operator, n_covariates, z_exp=None):
+    """``(Z / 2**z_exp, z_exp)``: the integrated design of a block of curves
+    with each column divided by a power of two (exact), so that its cross
+    products neither overflow (X near 1e150) nor underflow (X near 1e-170).
+
+    ``z_exp`` defaults to the block's own :func:`design_exponents`; give the
+    exponents of merged statistics to build rows in the units of a fit.
+    """
+    k = operator.shape[1]
+    if z_exp is None:
+        z_exp = design_exponents(X, k, n_covariates)
+    m = X.shape[1] - n_covariates
+    # (X / 2**e) W Phi = X (W Phi / 2**e) to the last bit while the scaled
+    # operator stays in float64's normal range: no copy of the curves
+    with np.errstate(over="ignore", under="ignore"):
+        scaled = scale_down(operator, z_exp[0])
+    nonzero = operator != 0
+    if (np.all(np.isfinite(scaled))
+            and np.all(np.abs(scaled[nonzero]) >= np.finfo(np.float64).tiny)):
+        Z = integrated_design(X[:, :m], scaled, 0)
+    else:
+        Z = integrated_design(scale_down(X[:, :m], z_exp[0]), operator, 0)
+    if n_covariates:
+        Z = np.hstack([Z] + [scale_down(X[:, j:j + 1], e)
+                             for j, e in zip(range(m, X.shape[1]), z_exp[k:])])
+    return Z, z_exp
 
 
 class IntegratedDesignMixin(ShortReprMixin):

@@ -32,11 +32,10 @@ from scipy.linalg import (
     solve_triangular,
 )
 from scipy.special import expit
-from threadpoolctl import ThreadpoolController
 
 from ._alpha import best_index
-from ._blocks import compute_statistics
-from ._integrated_design import integrated_design
+from ._blocks import compute_statistics, single_thread_blas
+from ._integrated_design import scaled_integrated_design
 from ._penalized import centered_cross_products
 
 #: what the smallest candidate means for the classifier: training classes
@@ -105,32 +104,37 @@ def newton_statistics(D, Y, sample_weight, theta, derivatives=True):
     loss = float(sample_weight @ _row_loss(eta, Y))
     if not derivatives:
         return {"loss": loss}
-    if n_out == 1:
-        prob = expit(eta)
-        grad = ((prob - Y) * sample_weight[:, None]).T @ D
-        hess = (D * (sample_weight * (prob * (1 - prob))[:, 0])[:, None]).T @ D
-        return {"loss": loss, "grad": grad.ravel(), "hess": hess}
-    prob = np.exp(eta - _logsumexp(eta)[:, None])
+    prob = expit(eta) if n_out == 1 else np.exp(eta - _logsumexp(eta)[:, None])
     grad = ((prob - Y) * sample_weight[:, None]).T @ D
-    curvature = _curvature(prob) * sample_weight[:, None, None]
-    # one product: H[a, :, b, :] = D' diag(curvature[:, a, b]) D
-    weighted = (curvature[:, :, :, None] * D[:, None, None, :]).reshape(len(D), -1)
-    hess = (D.T @ weighted).reshape(p, n_out, n_out, p).transpose(1, 0, 2, 3)
+    if n_out == 1:
+        hess = (D * (sample_weight * (prob * (1 - prob))[:, 0])[:, None]).T @ D
+    else:
+        curvature = _curvature(prob) * sample_weight[:, None, None]
+        # one product: H[a, :, b, :] = D' diag(curvature[:, a, b]) D
+        weighted = (curvature[:, :, :, None] * D[:, None, None, :]).reshape(len(D), -1)
+        hess = (D.T @ weighted).reshape(p, n_out, n_out, p).transpose(1, 0, 2, 3)
     return {"loss": loss, "grad": grad.ravel(), "hess": hess.reshape(n_out * p, n_out * p)}
 
 
 def design_statistics(X, Y, sample_weight, operator, n_covariates):
     """Additive statistics of the integrated design of a block of curves
     (:func:`~skfunc._penalized.centered_cross_products` with the class
-    indicators as responses: their sums are the class totals)."""
-    return centered_cross_products(integrated_design(X, operator, n_covariates), Y,
-                                   sample_weight)
+    indicators as responses: their sums are the class totals), of the design
+    divided by powers of two as the least-squares models' statistics
+    (:func:`~skfunc._integrated_design.scaled_integrated_design`; exponents
+    ``x_exp`` per column, ``y_exp`` 0 for the 0/1 indicators), merged
+    exactly by :func:`~skfunc._penalized.merge` whatever each block's scale."""
+    Z, z_exp = scaled_integrated_design(X, operator, n_covariates)
+    stats = centered_cross_products(Z, Y, sample_weight)
+    stats.update(x_exp=z_exp, y_exp=0)
+    return stats
 
 
-def split_design(X, operator, n_covariates, z_mean, U, lead):
-    """Rows of the Newton design: ``[1, (Z - z_mean) U]`` (a row-block
-    function; ``lead`` is 1 with an intercept column, else 0)."""
-    Zc = integrated_design(X, operator, n_covariates) - z_mean
+def split_design(X, operator, n_covariates, z_exp, z_mean, U, lead):
+    """Rows of the Newton design: ``[1, (Z / 2**z_exp - z_mean) U]`` with the
+    merged statistics' exponents ``z_exp`` (a row-block function; ``lead`` is
+    1 with an intercept column, else 0)."""
+    Zc = scaled_integrated_design(X, operator, n_covariates, z_exp)[0] - z_mean
     return np.hstack([np.ones((len(Zc), lead)), Zc @ U])
 
 
@@ -383,20 +387,7 @@ def _single_thread(size):
     threads only add synchronisation, which on a busy machine costs many
     times the solve itself.
     """
-    global _CONTROLLER
-    if size <= 4000:
-        if _CONTROLLER is None:  # inspecting the loaded libraries is slow: once
-            _CONTROLLER = ThreadpoolController()
-        return _CONTROLLER.limit(limits=1, user_api="blas")
-    return contextlib.nullcontext()
-
-
-_CONTROLLER = None
-
-
-def single_thread_blas():
-    """One BLAS thread in this process, whatever the problem size."""
-    return _single_thread(0)
+    return single_thread_blas() if size <= 4000 else contextlib.nullcontext()
 
 
 def _solve(matrix, rhs):

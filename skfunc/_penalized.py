@@ -330,7 +330,12 @@ def power_of_two_scale(*arrays):
     values near 1e300 and normal for values near 1e-300; a power of two
     changes no digit, so fits on ``x / s`` times ``s`` equal fits on ``x``.
     """
-    exponent = data_exponent(*arrays)
+    return power_of_two(data_exponent(*arrays))
+
+
+def power_of_two(exponent):
+    """``2**exponent`` as a float; 1 for :data:`ZERO_EXPONENT` (all-zero
+    data are left as they are)."""
     return 1.0 if exponent == ZERO_EXPONENT else float(np.ldexp(1.0, exponent))
 
 
@@ -368,15 +373,18 @@ def scale_down(a, exponent):
 #: ``y / 2**ey`` and so carries the factor ``2**(-p ex - q ey)``. The keys of
 #: :func:`cross_products`, :func:`centered_cross_products` and the
 #: curve-response statistics (``yproj``; the concurrent model's per-point
-#: ``x``, ``xx``, ``y``, ``xy``); ``n`` and ``sw`` carry no unit.
+#: ``x``, ``xx``, ``y``, ``xy``; the smoother's residual sums of squares of
+#: the curves ``rss``, ``pen_rss``); ``n`` and ``sw`` carry no unit.
 SCALE_POWERS = {
     "z_sum": (1, 0), "y_sum": (0, 1), "zz": (2, 0), "zy": (1, 1), "yy": (0, 2),
     "czz": (2, 0), "czy": (1, 1), "cyy": (0, 2), "yproj": (0, 2),
     "x": (1, 0), "xx": (2, 0), "y": (0, 1), "xy": (1, 1),
+    "rss": (2, 0), "pen_rss": (2, 0),
 }
 
-#: statistics that are counts, not sums of data
-_UNITLESS = ("n", "sw", "x_exp", "y_exp")
+#: statistics that are counts (or degrees of freedom and log-determinants
+#: of the smoother's criterion statistics), not sums of data
+_UNITLESS = ("n", "sw", "x_exp", "y_exp", "edf", "logdet", "n_obs", "dof", "weight")
 
 
 def scaled_statistics(statistics, X, y, sample_weight=None, **kwargs):

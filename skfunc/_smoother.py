@@ -36,6 +36,7 @@ from ._alpha import (
     candidates_for,
     check_alpha,
     gcv_criterion,
+    gcv_in_data_units,
     reml_criterion,
     reml_score,
 )
@@ -44,7 +45,6 @@ from ._blocks import (
     Float32Product,
     apply_rows,
     chunked_matmul,
-    is_dask_array,
     output_dtype,
     row_blocks,
 )
@@ -56,9 +56,11 @@ from ._grid import DATA_TERMS, check_grid, data_weights, quadrature_weights
 from ._penalized import (
     NotIdentifiableError,
     SplitPath,
+    data_exponent,
     gcv_score,
     merge,
     penalty_for,
+    power_of_two,
     power_of_two_scale,
 )
 from ._validation import BASIS_CONSTRAINTS, CHANNEL_N_BASIS, basis_for, validate_curves
@@ -298,14 +300,12 @@ class PenalizedFitMixin:
         return check_alpha(self.alpha)
 
     def _setup_alphas(self, X, problem):
-        """Candidates (``alphas_path_``) and the power-of-two scale of X."""
+        """Candidates (``alphas_path_``)."""
         alpha = self._alpha()
         self.alphas_path_ = candidates_for(alpha, problem.full)
         if isinstance(alpha, float) and alpha == 0:
             phi_w = problem.phi * problem.weights()[:, None]
             check_unpenalized_fit(phi_w.T @ problem.phi, problem.basis.gram())
-        # a power of two fixed by the first batch: squares stay finite
-        self._x_scale = 1.0 if is_dask_array(X) else power_of_two_scale(X)
 
     def _problem(self):
         alpha = self._alpha()
@@ -321,14 +321,18 @@ class PenalizedFitMixin:
         candidate), ``n_obs``, ``dof`` (observed points less unpenalized
         functions) and ``weight`` (total data weight): sums over curves,
         merged key by key (:func:`skfunc._penalized.merge`), in the units of
-        X divided by the first batch's power-of-two scale.
+        X divided by a power of two ``2**x_exp``: each block's own
+        (:func:`skfunc._penalized.data_exponent`), so no square overflows or
+        underflows, and merging brings blocks and batches of any magnitudes
+        to the largest exactly.
         """
         alphas = self.alphas_path_
         zeros = np.zeros(alphas.size)
+        x_exp = data_exponent(X)
         stats = [{"rss": zeros, "pen_rss": zeros, "edf": zeros, "logdet": zeros,
                   "n_obs": 0, "dof": 0, "weight": 0.0}]
         for rows, rotated, yy, path, n_obs, weight in self._problem().blocks(
-                X, scale=self._x_scale):
+                X, scale=power_of_two(x_exp)):
             # the reductions are quadratic in each rotated column, so their
             # sums over rows are the reductions of the column norms
             norms = np.linalg.norm(rotated, axis=0)[None]
@@ -347,16 +351,20 @@ class PenalizedFitMixin:
                 "dof": rows.size * (n_obs - path.n_null),
                 "weight": rows.size * weight,
             })
-        return merge(*stats)
+        return dict(merge(*stats), x_exp=x_exp, y_exp=0)
 
-    def _scores(self, stats, k2=1.0):
-        """The pooled criterion per candidate; ``k2=_x_scale**2`` gives it in
-        the units of X (the statistics are of X divided by ``_x_scale``)."""
+    def _scores(self, stats, data_units=False):
+        """The pooled criterion per candidate, of the scaled curves (the
+        statistics are of X divided by ``2**x_exp``) or, with
+        ``data_units``, of X itself."""
+        x_exp = stats.get("x_exp", 0) if data_units else 0
         if self.criterion == "reml":
-            return reml_score(stats["pen_rss"] * k2, stats["dof"], stats["logdet"])
+            return reml_score(stats["pen_rss"], stats["dof"], stats["logdet"],
+                              log_scale=2 * x_exp * np.log(2.0))
         if not stats["n_obs"]:
             return np.full(self.alphas_path_.size, np.inf)
-        return gcv_score(stats["rss"] * k2, stats["edf"], stats["n_obs"], stats["weight"])
+        scores = gcv_score(stats["rss"], stats["edf"], stats["n_obs"], stats["weight"])
+        return gcv_in_data_units(scores, x_exp) if data_units else scores
 
     def _choose(self, stats):
         """Set ``alpha_``, ``criterion_path_``, ``edf_path_`` and ``edf_``
@@ -369,8 +377,7 @@ class PenalizedFitMixin:
         else:
             best = _choose_rows(self._scores(stats), alphas, self.criterion.upper())
             self.alpha_ = float(alphas[best[0]])
-            with np.errstate(over="ignore"):
-                self.criterion_path_ = self._scores(stats, self._x_scale**2)
+            self.criterion_path_ = self._scores(stats, data_units=True)
         problem = self._problem()
         path = problem.full
         self.edf_path_ = path.edf(alphas)

@@ -18,7 +18,14 @@ from ._bases import BASES, default_n_basis, default_period, make_basis
 from ._blocks import is_dask_array
 from ._channels import PER_CHANNEL_BASIS, channel_basis, check_channels, set_channels
 from ._dask import validate_dask
-from ._grid import QUADRATURES, check_grid, grid_from_labels, resolve_grid
+from ._grid import (
+    QUADRATURES,
+    check_curve_points,
+    check_grid,
+    empty_curve_error,
+    grid_from_labels,
+    resolve_grid,
+)
 
 #: the parameters naming a basis and its roughness penalty, as scikit-learn
 #: parameter constraints; every estimator taking ``basis=`` uses these
@@ -123,27 +130,13 @@ def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
         ) from exc
     X = out[0] if isinstance(out, tuple) else out
     n_points = X.shape[1] - n_covariates
-    if n_covariates and n_points < 2:
-        raise ValueError(
-            f"X has {X.shape[1]} column(s), of which the last n_covariates="
-            f"{n_covariates} are scalar covariates, leaving {n_points} grid "
-            "point(s); a curve needs at least 2 grid points (columns of X) "
-            "before the covariates."
-        )
-    if X.shape[1] < 2:
-        raise ValueError(
-            f"X has {X.shape[1]} feature(s) (grid points); a curve needs at least "
-            f"2 grid points, one per column of X, to be represented."
-        )
+    check_curve_points(X.shape[1], n_covariates)
     if allow_nan:
         # an all-NaN row starts with NaN: scan only those rows, not all of X
         suspect = np.flatnonzero(np.isnan(X[:, 0]))
         empty = suspect[np.all(np.isnan(X[suspect, :n_points]), axis=1)]
         if empty.size:
-            raise ValueError(
-                f"Row {int(empty[0])} of X is entirely NaN: a curve needs observed "
-                "values to be represented."
-            )
+            raise empty_curve_error(empty[0])
     if reset:
         if not set_channels(estimator, X_in, n_points, n_covariates):
             grid = getattr(estimator, "grid", None)

@@ -82,22 +82,32 @@ def test_partial_fit_equals_fit(name):
     assert _relative(output(streamed, X), output(whole, X)) < 1e-8
 
 
-@pytest.mark.parametrize("name", [n for n in NAMES
-                                  if getattr(dict(all_estimators())[n],
-                                             "_accepts_dask", False)])
-def test_dask_fit_equals_in_memory_fit(name):
+#: the estimators that fit on Dask arrays (``_accepts_dask``)
+DASK_NAMES = [n for n in NAMES if getattr(dict(all_estimators())[n], "_accepts_dask", False)]
+
+
+# (the automatic choice doubles the fits: kept for the full run)
+@pytest.mark.parametrize("alpha", ["case", pytest.param("auto", marks=pytest.mark.slow)])
+@pytest.mark.parametrize("name", DASK_NAMES)
+def test_dask_fit_equals_in_memory_fit(name, alpha):
     da = pytest.importorskip("dask.array")
     import dask
 
-    in_memory, X, y, output = _fit(name, EVEN)
-    estimator = make_case(name, EVEN)[0]
+    # the case's fixed alpha, and the automatic choice (its criterion from
+    # statistics pooled over the blocks)
+    extra = {} if alpha == "case" else {"alpha": "auto"}
+    in_memory, X, y, output = _fit(name, EVEN, **extra)
+    estimator = make_case(name, EVEN)[0].set_params(**extra)
     Xd = da.from_array(X, chunks=(17, -1))
     yd = None if y is None else da.from_array(y, chunks=(17,) + y.shape[1:])
     with dask.config.set(scheduler="sync"):
         estimator.fit(Xd, yd)
     # statistics of blocks merged in a tree: the in-memory sums in another
-    # order (1e-8 relative)
+    # order (1e-8 relative); a dropped or doubled block moves them by percents
     assert _relative(output(estimator, X), output(in_memory, X)) < 1e-8
+    for key in ("alpha_", "criterion_path_"):
+        if getattr(in_memory, key, None) is not None:
+            assert _relative(getattr(estimator, key), getattr(in_memory, key)) < 1e-8, key
 
 
 def _frame(values, labels):

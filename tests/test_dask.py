@@ -274,6 +274,38 @@ def test_functional_logistic_on_cluster_equals_in_memory(client):
     assert_rel_close(model.predict_proba(X), reference.predict_proba(X), 1e-8)
 
 
+@pytest.mark.parametrize("factor", [1e150, 1e-170])
+def test_functional_logistic_on_cluster_at_extreme_scales(client, factor):
+    # Curves near 1e153 or 1e-167 (squares beyond float64's range) with a
+    # covariate near 1: the statistics are of the design divided by powers
+    # of two, merged exactly across blocks, so the Dask fit equals the
+    # in-memory one (1e-8, as above) and both equal the fit at scale 1 with
+    # the curves' coefficients divided by the factor (a linear predictor's
+    # coefficients scale inversely with their input, common practice; alpha
+    # is unit-free). Unscaled cross products overflow to inf at 1e150 (an
+    # error) and underflow to 0 at 1e-170 (a zero coefficient function).
+    from skfunc.linear_model import FunctionalLogisticRegression
+
+    t, X, labels = kiln_classes(300, 2)
+    load = np.random.default_rng(5).uniform(2, 4, (len(X), 1))
+    params = {"grid": t, "n_covariates": 1}
+    reference = FunctionalLogisticRegression(**params).fit(np.hstack([X, load]), labels)
+    scaled = np.hstack([X * factor, load])
+    with warnings.catch_warnings():
+        # coef_covariance_ (squares of coefficients near 1e-150 or 1e170)
+        # leaves float64 in the data's units: warned, as for the ridge models
+        warnings.simplefilter("ignore", RuntimeWarning)
+        model = FunctionalLogisticRegression(**params).fit(
+            da.from_array(scaled, chunks=(70, 62)), da.from_array(labels, chunks=70))
+        memory = FunctionalLogisticRegression(**params).fit(scaled, labels)
+    assert_same_logistic_fit(model, memory)
+    assert model.alpha_ == pytest.approx(reference.alpha_, rel=1e-8)
+    assert_rel_close(model.criterion_path_, reference.criterion_path_, 1e-8)
+    assert_rel_close(model.coef_function_ * factor, reference.coef_function_, 1e-8)
+    assert_rel_close(model.covariate_coef_, reference.covariate_coef_, 1e-8)
+    assert_rel_close(model.intercept_, reference.intercept_, 1e-8)
+
+
 def test_functional_logistic_gathers_no_rows(sync, monkeypatch):
     # Neither the curves nor the labels are converted to numpy as a whole.
     from skfunc.linear_model import FunctionalLogisticRegression
@@ -540,6 +572,34 @@ def test_curve_smoother_partial_fit_pools_gcv_statistics(sync):
     batches.set_params(grid=t * 60)
     with pytest.raises(ValueError, match="grid that differs from the one of its earlier"):
         batches.partial_fit(X[:5])
+
+
+def test_curve_smoother_merges_blocks_of_very_different_magnitudes(sync):
+    # Half the curves near 1e-147, half near 1e153: each block's criterion
+    # statistics are of its curves divided by its own power of two and merged
+    # to the largest exactly, so Dask blocks and partial_fit batches (the
+    # small ones first) give the in-memory fit. The GCV and REML scores of
+    # curves multiplied by c are c^2 times those of the curves (GCV is a mean
+    # square; REML shifts by a constant: common practice), so the choice is
+    # that of the curves divided by 1e150, where the small ones are 0.
+    t, X, _ = kiln_runs(600, n_minutes=61)
+    X[10, 5:9] = np.nan  # a thermocouple drop-out
+    mixed = np.vstack([X[:300] * 1e-150, X[300:] * 1e150])
+    for criterion in ("gcv", "reml"):
+        reference = CurveSmoother(grid=t, criterion=criterion).fit(mixed)
+        blocks = CurveSmoother(grid=t, criterion=criterion).fit(
+            da.from_array(mixed, chunks=(100, 61)))
+        batches = CurveSmoother(grid=t, criterion=criterion)
+        batches.partial_fit(mixed[:300]).partial_fit(mixed[300:])
+        unit = CurveSmoother(grid=t, criterion=criterion).fit(
+            np.vstack([X[:300] * 0.0, X[300:]]))  # (the drop-out kept)
+        for model in (blocks, batches):
+            assert model.alpha_ == pytest.approx(reference.alpha_, rel=RTOL)
+            assert_rel_close(model.criterion_path_, reference.criterion_path_, 1e-8)
+            assert_rel_close(model.projection_, reference.projection_)
+        assert reference.alpha_ == pytest.approx(unit.alpha_, rel=RTOL)
+        if criterion == "gcv":
+            assert_rel_close(reference.criterion_path_, unit.criterion_path_ * 1e300, 1e-8)
 
 
 def test_functional_ridge_partial_fit_and_memory_only_criteria(sync):

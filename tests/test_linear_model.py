@@ -283,6 +283,28 @@ def test_too_few_curves_for_the_unpenalized_part(rng):
         FunctionalRidge(alpha=1.0).fit(X, y)
 
 
+@pytest.mark.parametrize("size, spacing", [(1e150, 0.025), (1e-300, 2.5e9)])
+def test_scaled_integrated_design_equals_numpy(rng, size, spacing):
+    # The design of X / 2**e (numpy's ldexp and matmul): at X near 1e150 the
+    # operator is divided instead of the curves (the same numbers: a power
+    # of two commutes with every product), at X near 1e-300 on a grid of
+    # spacing 2.5e9 the divided operator would overflow, so the curves are
+    # divided. A design of the raw curves is off by 2**e; one with the
+    # covariate scaled by the curves' exponent is off in its last column.
+    from skfunc._integrated_design import scaled_integrated_design
+
+    grid = np.arange(41) * spacing
+    X = np.hstack([rng.normal(size=(30, 41)) * size, rng.normal(size=(30, 1)) * 1e3])
+    model = FunctionalRidge(n_basis=8, n_covariates=1, grid=grid, alpha=1.0).fit(
+        rng.normal(size=(30, 42)), rng.normal(size=30))  # (for its operator)
+    operator = model._integration_operator(model._basis())
+    Z, z_exp = scaled_integrated_design(X, operator, 1)
+    e, c = np.frexp(np.abs(X[:, :41]).max())[1], np.frexp(np.abs(X[:, 41]).max())[1]
+    np.testing.assert_array_equal(z_exp, [e] * 8 + [c])
+    expected = np.hstack([np.ldexp(X[:, :41], -e) @ operator, np.ldexp(X[:, 41:], -c)])
+    np.testing.assert_allclose(Z, expected, rtol=1e-13, atol=0)
+
+
 def _few_kiln_runs(seed, n=20):
     """``n`` invented kiln runs with noise-free, gap-free curves (strength
     noise 1 MPa) and 300 test runs with their true (noise-free) strengths."""
