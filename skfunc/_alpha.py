@@ -329,7 +329,13 @@ def reml_score(penalized_rss, dof, log_det_ratio, log_scale=0.0):
     d_p = np.maximum(np.asarray(penalized_rss, dtype=np.float64), 0.0)
     with np.errstate(divide="ignore", invalid="ignore"):
         out = dof * (np.log(2 * np.pi * d_p / dof) + log_scale + 1) + log_det_ratio
-    return np.where((np.asarray(dof) > 0) & (d_p > 0), out, np.inf)
+    out = np.where((np.asarray(dof) > 0) & (d_p > 0), out, np.inf)
+    # a response fitted exactly at every candidate (it lies in what the
+    # unpenalized part fits, e.g. a penalty that leaves every direction
+    # free): every alpha gives the same fit, so the criterion is flat (0)
+    # and the tie policy picks the largest alpha, as GCV's flat 0 does
+    exact = np.all(d_p <= 0, axis=-1, keepdims=True) & (np.asarray(dof) > 0)
+    return np.where(exact, 0.0, out)
 
 
 def gcv_in_data_units(scores, y_exp):

@@ -299,3 +299,19 @@ def test_gcv_low_edge_advice_names_reml():
         warnings.simplefilter("always")
         best_index(scores, alphas, criterion="REML")
     assert caught and all("criterion='reml'" not in str(w.message) for w in caught)
+
+
+def test_reml_is_flat_when_every_candidate_fits_exactly():
+    # y is linear in the two grid values and a 2-point grid leaves a
+    # second-derivative penalty nothing to penalize: every alpha gives the
+    # same exact fit, so REML (whose profiled likelihood is unbounded at a
+    # zero residual) must not refuse; the tie policy then takes the largest
+    # alpha (the same data as scikit-learn's check_sample_weights_shape)
+    X = np.repeat([[1.0, 3.0], [2.0, 1.0], [3.0, 3.0], [4.0, 1.0]], 4, axis=0)
+    y = 2.5 - 0.5 * X[:, 1]  # exact: numpy arithmetic, outside the package
+    from skfunc.linear_model import FunctionalRidge
+
+    model = FunctionalRidge(criterion="reml").fit(X, y)
+    np.testing.assert_allclose(model.predict(X), y, atol=1e-12)
+    assert model.alpha_ == np.max(model.alphas_path_)
+    assert np.all(model.criterion_path_ == 0.0)
