@@ -9,6 +9,10 @@ import warnings
 import numpy as np
 import pandas as pd
 import pytest
+from _channel_data import EXACT, T, U  # noqa: F401
+from _channel_data import close as _close
+from _channel_data import curves as _curves
+from _channel_data import two_channels as _two_channels
 from sklearn.base import clone
 from sklearn.pipeline import make_pipeline
 
@@ -25,38 +29,6 @@ from skfunc.linear_model import (
 )
 from skfunc.persistence import load_model, save_model
 from skfunc.preprocessing import BasisFeatures, CurveSmoother
-
-T = np.linspace(0.0, 1.0, 41)
-#: a second channel on its own domain and grid (hours 0..5, 26 points)
-U = np.linspace(0.0, 5.0, 26)
-
-#: agreement of a one-channel fit with the single-channel fit: the same
-#: arithmetic up to the order of a few operations and a scalar factor in the
-#: penalty coordinates (rounding, ~1e-14 relative); the bound the task asks
-EXACT = 1e-10
-
-
-def _curves(n=80, seed=0):
-    X, y, _ = make_smooth_regression(n, grid=T, noise=0.1, random_state=seed)
-    return X, y
-
-
-def _two_channels(n=80, seed=0):
-    """Temperature-like curves on T and a second, partly related channel on U."""
-    X, y = _curves(n, seed)
-    rng = np.random.default_rng(seed + 1)
-    other, _, _ = make_smooth_regression(n, grid=np.linspace(0, 1, U.size),
-                                         noise=0.0, random_state=seed + 5)
-    second = 0.5 * X[:, ::-1][:, : U.size] + other
-    y2 = y + second @ np.full(U.size, 0.2 * (U[1] - U[0])) + rng.normal(0, 0.05, n)
-    return np.hstack([X, second]), y2
-
-
-def _close(a, b, tol=EXACT):
-    a, b = np.asarray(a, dtype=float), np.asarray(b, dtype=float)
-    scale = max(np.abs(b).max(), 1e-300)
-    assert np.abs(a - b).max() <= tol * scale, np.abs(a - b).max() / scale
-
 
 # -------------------------------------------------- one channel = itself
 

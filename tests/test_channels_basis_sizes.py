@@ -7,12 +7,14 @@ scipy; bad mappings are errors that name the channel."""
 import numpy as np
 import pytest
 import statsmodels.api as sm
+from _channel_data import EXACT, T, U, two_channels  # noqa: F401
+from _channel_data import close as _close
+from _channel_data import curves as _curves
 from scipy.integrate import trapezoid
 from scipy.interpolate import BSpline
 from scipy.linalg import block_diag, eigh
 from sklearn.base import clone
 
-from skfunc.datasets import make_smooth_regression
 from skfunc.decomposition import FunctionalPCA
 from skfunc.linear_model import (
     FunctionalLogisticRegression,
@@ -21,36 +23,13 @@ from skfunc.linear_model import (
 )
 from skfunc.preprocessing import BasisFeatures, CurveSmoother
 
-T = np.linspace(0.0, 1.0, 41)
-U = np.linspace(0.0, 5.0, 26)
 GRID = {"T": T, "O": U}
 #: mixed sizes: a rich basis for the first channel, a small one for the second
 SIZES = {"T": 9, "O": 6}
 KNOTS = [0.2, 0.35, 0.5, 0.8]
 
-#: the same arithmetic up to the order of operations (rounding, ~1e-14)
-EXACT = 1e-10
-
-
-def _close(a, b, tol=EXACT):
-    a, b = np.asarray(a, dtype=float), np.asarray(b, dtype=float)
-    scale = max(np.abs(b).max(), 1e-300)
-    assert np.abs(a - b).max() <= tol * scale, np.abs(a - b).max() / scale
-
-
-def _curves(n=80, seed=0):
-    X, y, _ = make_smooth_regression(n, grid=T, noise=0.1, random_state=seed)
-    return X, y
-
-
 def _two_channels(n=80, seed=0):
-    X, y = _curves(n, seed)
-    rng = np.random.default_rng(seed + 1)
-    other, _, _ = make_smooth_regression(n, grid=np.linspace(0, 1, U.size),
-                                         noise=0.0, random_state=seed + 5)
-    second = 0.5 * X[:, ::-1][:, : U.size] + other + rng.normal(0, 0.05, (n, U.size))
-    y2 = y + second @ np.full(U.size, 0.04) + rng.normal(0, 0.05, n)
-    return np.hstack([X, second]), y2
+    return two_channels(n, seed, second_noise=0.05)
 
 
 # ------------------------------------------------ independent references

@@ -7,6 +7,8 @@ are orthonormal in the weighted inner product (scipy quadrature)."""
 
 import numpy as np
 import pytest
+from _channel_data import EXACT, T, U  # noqa: F401
+from _channel_data import close as _close
 from numpy.polynomial import Polynomial
 from scipy.integrate import quad
 from scipy.interpolate import BSpline
@@ -14,21 +16,6 @@ from scipy.interpolate import BSpline
 from skfunc import _channels
 from skfunc.datasets import make_smooth_regression
 from skfunc.decomposition import FunctionalPCA
-
-T = np.linspace(0.0, 1.0, 41)
-#: a second channel on its own domain (hours 0..5) and grid
-U = np.linspace(0.0, 5.0, 26)
-
-#: agreement of fits that are the same arithmetic up to the order of a few
-#: operations and scalar factors in the penalty's coordinates (rounding,
-#: measured below 1e-13 relative)
-EXACT = 1e-10
-
-
-def _close(a, b, tol=EXACT):
-    a, b = np.asarray(a, dtype=float), np.asarray(b, dtype=float)
-    scale = max(np.abs(b).max(), 1e-300)
-    assert np.abs(a - b).max() <= tol * scale, np.abs(a - b).max() / scale
 
 
 def _noisy(n=80, seed=0):
