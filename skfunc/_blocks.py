@@ -115,8 +115,6 @@ def block_threads(n_threads):
     """
     from concurrent.futures import ThreadPoolExecutor
 
-    from ._logistic_path import single_thread_blas
-
     if n_threads <= 1:
         yield
         return

@@ -59,15 +59,13 @@ import numpy as np
 import scipy.linalg
 from sklearn.utils.extmath import randomized_svd
 from sklearn.utils.validation import check_is_fitted
-from threadpoolctl import threadpool_limits
 
 from ._alpha import CV_FOLDS, best_index, candidates_for
 from ._bases import gram_sqrt
 from ._basis_features import orthonormal_operators
-from ._blocks import BandedProduct, chunked_matmul, output_dtype
+from ._blocks import BandedProduct, chunked_matmul, output_dtype, single_thread_blas
 from ._channels import channel_penalty
 from ._dask import check_rows
-from ._logistic_path import single_thread_blas
 from ._moments import merge_moments, moments, scale_moments
 from ._penalized import SplitPath
 
@@ -410,7 +408,7 @@ def _single_thread(K):
     per chunk). Tiny problems skip the (millisecond) thread-pool switch.
     """
     if 64 <= K <= 2000:
-        return threadpool_limits(limits=1, user_api="blas")
+        return single_thread_blas()
     return contextlib.nullcontext()
 
 

@@ -58,7 +58,6 @@ from sklearn.exceptions import ConvergenceWarning
 from sklearn.utils import Bunch
 from sklearn.utils._param_validation import Interval, RealNotInt, StrOptions
 from sklearn.utils.validation import check_is_fitted
-from threadpoolctl import ThreadpoolController
 
 from ._alpha import (
     ALPHA_CONSTRAINT,
@@ -75,6 +74,7 @@ from ._blocks import (
     is_dask_array,
     output_dtype,
     row_blocks,
+    single_thread_blas,
 )
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
@@ -122,20 +122,6 @@ _NOISE_NODES = 64
 #: products (BLAS) instead of sparse ones; both give the same sums
 _DENSE_FRACTION = 0.1
 
-
-@functools.lru_cache(maxsize=1)
-def _blas_controller():
-    return ThreadpoolController()
-
-
-def _one_blas_thread():
-    """One BLAS thread for the fixed-size smoothing problems (K x K
-    eigensolves with K <= a few hundred): they are bound by latency, and
-    extra threads on a busy machine cost several times the solves (measured:
-    0.23 s of CPU time per moment solve with the default threads against
-    0.045 s with one). The controller scans the loaded libraries once, so
-    each switch costs about 0.1 ms instead of about 1 ms."""
-    return _blas_controller().limit(limits=1, user_api="blas")
 
 
 #: observations of a block up to which the pair sums of all folds come from
@@ -964,7 +950,11 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         return column_bin, self.max_covariance_points
 
     def _solve(self, stats):
-        with _one_blas_thread():
+        # one BLAS thread for the fixed-size smoothing problems (K x K
+        # eigensolves, K <= a few hundred): bound by latency, and extra
+        # threads on a busy machine cost several times the solves (measured:
+        # 0.23 s of CPU time per moment solve against 0.045 s with one)
+        with single_thread_blas():
             self._solve_moments(stats)
 
     def _solve_moments(self, stats):
