@@ -25,9 +25,12 @@ How the estimators use it:
   of units of one channel changes no prediction; FunctionalPCA weighs the
   channels' inner products (:func:`channel_coordinates`);
 * channel-separable transformers (BasisFeatures, CurveSmoother) fit one
-  single-channel estimator per channel (:class:`ChannelwiseMixin`): their
-  problem is block diagonal, so this is the same fit with each channel's own
-  alpha.
+  single-channel estimator per channel (:class:`ChannelwiseMixin`, on the
+  fit skeleton of :mod:`skfunc._fit`, channel by channel): their problem is
+  block diagonal, so this is the same fit with each channel's own alpha.
+
+The channels' columns in grids, curves and coefficients are
+:func:`channel_slices` of their sizes.
 """
 
 from collections.abc import Mapping
