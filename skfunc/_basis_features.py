@@ -157,12 +157,6 @@ class BasisFeatures(ChannelwiseMixin, PenalizedFitMixin, AdditiveTransformerMixi
                  data_term="mean", grid=None, quadrature="trapezoid"):
         store_init_params(self, locals())
 
-    def _validate_batch(self, X, y, sample_weight, first):
-        X = validate_curves(self, X, reset=first)
-        if first:
-            self._setup_alphas(X, self._problem())
-        return (X,)
-
     def _solve(self, stats):
         """The projection and reconstruction operators on ``grid_``."""
         problem, operator = self._choose(stats)

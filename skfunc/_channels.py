@@ -25,9 +25,12 @@ How the estimators use it:
   of units of one channel changes no prediction; FunctionalPCA weighs the
   channels' inner products (:func:`channel_coordinates`);
 * channel-separable transformers (BasisFeatures, CurveSmoother) fit one
-  single-channel estimator per channel (:class:`ChannelwiseMixin`): their
-  problem is block diagonal, so this is the same fit with each channel's own
-  alpha.
+  single-channel estimator per channel (:class:`ChannelwiseMixin`, on the
+  fit skeleton of :mod:`skfunc._fit`, channel by channel): their problem is
+  block diagonal, so this is the same fit with each channel's own alpha.
+
+The channels' columns in grids, curves and coefficients are
+:func:`channel_slices` of their sizes.
 """
 
 from collections.abc import Mapping
@@ -39,16 +42,8 @@ from scipy.linalg import block_diag
 from sklearn.base import clone
 from sklearn.utils.validation import check_is_fitted
 
-from ._docstrings import fill_doc
-from ._grid import check_grid, grid_from_labels, quadrature_weights
-from ._penalized import Penalty, penalty_for, penalty_scale
-
-#: the estimators that accept several channels (named in error messages)
-ACCEPTING = (
-    "BasisFeatures, CurveSmoother, FunctionalPCA, FunctionalRidge, "
-    "FunctionalRidgeCV and FunctionalLogisticRegression"
-)
-
+from ._grid import check_grid, grid_from_labels, quadrature_weights, same_grid
+from ._penalized import Penalty, merge, penalty_for, penalty_scale
 
 # ---------------------------------------------------------------- the layout
 
@@ -58,8 +53,26 @@ def is_channel_grid(grid):
     return isinstance(grid, Mapping)
 
 
-def _multi_columns(X):
-    """The (channel, time) column labels of a DataFrame, or None."""
+def accepting():
+    """The names of the estimators that accept several channels (those whose
+    class sets ``_accepts_channels``), for messages: "A, B and C"."""
+    from .utils import all_estimators
+
+    names = [n for n, cls in all_estimators() if getattr(cls, "_accepts_channels", False)]
+    return f"{', '.join(names[:-1])} and {names[-1]}"
+
+
+def channel_slices(sizes):
+    """The columns of each channel (a slice each) in values laid side by side
+    channel by channel, channel ``c`` taking ``sizes[c]`` columns: the one
+    rule for the channels' boundaries in grids, curves and coefficients."""
+    bounds = np.cumsum([0, *sizes])
+    return [slice(int(a), int(b)) for a, b in zip(bounds[:-1], bounds[1:])]
+
+
+def _multi_columns(X, n_covariates=0):
+    """The (channel, time) column labels of a DataFrame (those of its curve
+    columns: without the ``n_covariates`` trailing ones), or None."""
     columns = getattr(X, "columns", None)
     nlevels = getattr(columns, "nlevels", 1) if columns is not None else 1
     if not isinstance(nlevels, Integral) or nlevels == 1:  # (lazy collections too)
@@ -69,7 +82,7 @@ def _multi_columns(X):
             f"X has column labels of {columns.nlevels} levels; channels are read "
             "from two levels, (channel, time)."
         )
-    return list(columns)
+    return list(columns)[: len(columns) - n_covariates]
 
 
 def _grid_layout(grid):
@@ -112,13 +125,22 @@ def _describe(names, sizes):
     return ", ".join(f"{n!r}: {s}" for n, s in zip(names, sizes))
 
 
+def _layout_mismatch(found, times, names, grids):
+    """None when the channels ``found`` of (channel, time) labels, with
+    ``times`` per channel, are the channels ``names`` with as many points as
+    their ``grids``, in order; else the descriptions of both layouts."""
+    sizes, expected = [len(t) for t in times], [g.size for g in grids]
+    if found == names and sizes == expected:
+        return None
+    return _describe(found, sizes), _describe(names, expected)
+
+
 def fitted_channels(estimator):
     """``(names, grids)`` of a fitted multichannel estimator, else None."""
     sizes = getattr(estimator, "channel_sizes_", None)
     if sizes is None:
         return None
-    bounds = np.cumsum([0] + list(sizes))
-    grids = [estimator.grid_[a:b] for a, b in zip(bounds[:-1], bounds[1:])]
+    grids = [estimator.grid_[cols] for cols in channel_slices(sizes)]
     return list(estimator.channel_names_), grids
 
 
@@ -132,9 +154,7 @@ def set_channels(estimator, X, n_points, n_covariates=0):
     for attr in ("channel_names_", "channel_sizes_", "channel_weights_"):
         vars(estimator).pop(attr, None)
     grid = getattr(estimator, "grid", None)
-    labels = _multi_columns(X)
-    if labels is not None and n_covariates:
-        labels = labels[: len(labels) - n_covariates]
+    labels = _multi_columns(X, n_covariates)
     if not is_channel_grid(grid) and labels is None:
         return False
     name = type(estimator).__name__
@@ -143,22 +163,21 @@ def set_channels(estimator, X, n_points, n_covariates=0):
             "X has (channel, time) column labels"
         raise ValueError(
             f"{what}, but {name} takes one curve per row; the estimators that "
-            f"accept several channels are {ACCEPTING}. Fit one {name} per channel "
+            f"accept several channels are {accepting()}. Fit one {name} per channel "
             "(select its columns) instead."
         )
     if labels is not None:
         label_names, times = _label_layout(labels)
     if is_channel_grid(grid):
         names, grids = _grid_layout(grid)
-        if labels is not None:
-            sizes = [len(t) for t in times]
-            if label_names != names or sizes != [g.size for g in grids]:
-                raise ValueError(
-                    f"The (channel, time) columns of X ({_describe(label_names, sizes)}"
-                    f" columns) do not match the channels of grid "
-                    f"({_describe(names, [g.size for g in grids])} points), in "
-                    "order; give the channels' grids in the order of X's columns."
-                )
+        mismatch = labels is not None and _layout_mismatch(label_names, times, names,
+                                                           grids)
+        if mismatch:
+            raise ValueError(
+                f"The (channel, time) columns of X ({mismatch[0]} columns) do not "
+                f"match the channels of grid ({mismatch[1]} points), in order; give "
+                "the channels' grids in the order of X's columns."
+            )
     else:
         names = label_names
         grids = []
@@ -189,7 +208,7 @@ def check_channels(estimator, X, n_covariates=0):
     Returns True when the estimator was fitted with channels (the caller
     skips its single-grid label check), False otherwise.
     """
-    labels = _multi_columns(X)
+    labels = _multi_columns(X, n_covariates)
     layout = fitted_channels(estimator)
     name = type(estimator).__name__
     if layout is None:
@@ -209,8 +228,6 @@ def check_channels(estimator, X, n_covariates=0):
                 "with the channels' columns side by side."
             )
         return True
-    if n_covariates:
-        labels = labels[: len(labels) - n_covariates]
     names, grids = layout
     found, times = _label_layout(labels)
     unknown = [c for c in found if c not in names]
@@ -219,17 +236,16 @@ def check_channels(estimator, X, n_covariates=0):
             f"X has columns of channel(s) {unknown} that {name} was not fitted "
             f"on; fitted channels: {names}."
         )
-    sizes = [len(t) for t in times]
-    if found != names or sizes != [g.size for g in grids]:
+    mismatch = _layout_mismatch(found, times, names, grids)
+    if mismatch:
         raise ValueError(
-            f"The channels of X ({_describe(found, sizes)} columns) differ from "
-            f"those {name} was fitted on ({_describe(names, [g.size for g in grids])}"
-            "), in order; pass every fitted channel, in the same order, on its "
-            "fitted grid."
+            f"The channels of X ({mismatch[0]} columns) differ from those {name} "
+            f"was fitted on ({mismatch[1]}), in order; pass every fitted channel, "
+            "in the same order, on its fitted grid."
         )
     for channel, t, g in zip(names, times, grids):
         inferred = grid_from_labels(t)
-        if inferred is not None and not np.allclose(inferred, g, rtol=1e-9, atol=0):
+        if inferred is not None and not same_grid(inferred, g):
             raise ValueError(
                 f"The time labels of channel {channel!r} in X differ from the grid "
                 f"{name} was fitted on; resample that channel to its fitted grid."
@@ -284,17 +300,14 @@ def split_channels(estimator, values):
             "channels; its values need no splitting."
         )
     values = np.asarray(values)
-    total = sum(g.size for g in layout[1])
+    total = estimator.grid_.size
     if values.ndim == 0 or values.shape[-1] != total:
         raise ValueError(
             f"values must have {total} entries along the last axis (one per point "
             f"of grid_); got shape {values.shape}."
         )
-    bounds = np.cumsum([0] + [g.size for g in layout[1]])
-    return {
-        name: (g, values[..., a:b])
-        for name, g, a, b in zip(layout[0], layout[1], bounds[:-1], bounds[1:])
-    }
+    slices = channel_slices(estimator.channel_sizes_)
+    return {name: (g, values[..., cols]) for name, g, cols in zip(*layout, slices)}
 
 
 def channel_columns(estimator, channel, name):
@@ -309,15 +322,13 @@ def channel_columns(estimator, channel, name):
                 f"fitted on one curve per row; {name} needs channel=None."
             )
         return slice(None)
-    names, grids = layout
+    names = layout[0]
     if channel not in names:
         raise ValueError(
             f"{type(estimator).__name__} was fitted on channels {names}; pass "
             f"{name} one of them as channel= (got {channel!r})."
         )
-    c = names.index(channel)
-    start = sum(g.size for g in grids[:c])
-    return slice(start, start + grids[c].size)
+    return channel_slices(estimator.channel_sizes_)[names.index(channel)]
 
 
 # ------------------------------------------------------- the composite basis
@@ -348,7 +359,7 @@ class ChannelBasis:
                 f"Points of a multichannel basis must be the channels' points side "
                 f"by side ({sum(self.grid_sizes)} values); got shape {t.shape}."
             )
-        return np.split(t, np.cumsum(self.grid_sizes)[:-1])
+        return [t[cols] for cols in channel_slices(self.grid_sizes)]
 
     def evaluate(self, t, derivative=0):
         return block_diag(*[b.evaluate(part, derivative)
@@ -373,13 +384,7 @@ class ChannelBasis:
         return self._blocks("unit_gram")
 
     def null_space(self, order):
-        parts = [b.null_space(order) for b in self.bases]
-        out = np.zeros((self.n_basis, sum(p.shape[1] for p in parts)))
-        row = col = 0
-        for p in parts:
-            out[row : row + p.shape[0], col : col + p.shape[1]] = p
-            row, col = row + p.shape[0], col + p.shape[1]
-        return out
+        return self._blocks("null_space", order)
 
     def null_dimension(self, order):
         return sum(b.null_dimension(order) for b in self.bases)
@@ -445,18 +450,26 @@ class _ChannelView:
         return getattr(self._estimator, name)
 
 
+def channel_params(estimator, params, names):
+    """Each channel's own values of those of ``params`` that ``estimator``
+    has as mappings ``{channel: value}`` (checked by :func:`per_channel`):
+    one dict per channel of ``names``; the other parameters are the
+    estimator's, alike for every channel."""
+    values = {p: per_channel(estimator, p, names) for p in params
+              if is_channel_grid(getattr(estimator, p, None))}
+    return [{p: v[c] for p, v in values.items()} for c in range(len(names))]
+
+
 def channel_basis(single_basis_for, estimator, cap):
     """The :class:`ChannelBasis` of a fitted multichannel estimator: each
     channel's basis from the estimator's basis parameters on its own grid
     (``n_basis`` and ``interior_knots`` may be mappings by channel)."""
     names, grids = fitted_channels(estimator)
-    values = {p: per_channel(estimator, p, names) for p in PER_CHANNEL_BASIS
-              if hasattr(estimator, p)}
     bases = []
-    for c, (name, g) in enumerate(zip(names, grids)):
-        view = _ChannelView(estimator, {p: v[c] for p, v in values.items()})
+    for name, g, params in zip(names, grids,
+                               channel_params(estimator, PER_CHANNEL_BASIS, names)):
         with naming_channel(name):
-            bases.append(single_basis_for(view, g, cap))
+            bases.append(single_basis_for(_ChannelView(estimator, params), g, cap))
     return ChannelBasis(bases, grids)
 
 
@@ -478,13 +491,9 @@ def channel_penalty(basis, order, gram):
     if not isinstance(basis, ChannelBasis):
         return penalty_for(basis, order)
     gram = np.asarray(gram, dtype=np.float64)
-    parts, scales = [], []
-    start = 0
-    for b, k in zip(basis.bases, basis.sizes):
-        part = penalty_for(b, order)
-        parts.append(part)
-        scales.append(penalty_scale(gram[start : start + k, start : start + k], part))
-        start += k
+    parts = [penalty_for(b, order) for b in basis.bases]
+    scales = [penalty_scale(gram[cols, cols], part)
+              for cols, part in zip(channel_slices(basis.sizes), parts)]
     # the split coordinates channel by channel (null-space columns of every
     # channel first, as Penalty keeps them), each divided by sqrt(s_c): the
     # engine's coordinates then do not change with any channel's units
@@ -556,7 +565,7 @@ def channel_coordinates(estimator, coords, squares, mean):
         from ._validation import basis_for
 
         sizes = basis_for(estimator, estimator.grid_).sizes
-    bounds = np.cumsum([0] + list(sizes))
+    cuts = channel_slices(sizes)
     option = estimator.channel_weights
     if isinstance(option, Mapping):
         missing = [n for n in names if n not in option]
@@ -574,9 +583,8 @@ def channel_coordinates(estimator, coords, squares, mean):
     elif option == "equal":
         weights = np.ones(len(names))
     else:
-        cuts = list(zip(bounds[:-1], bounds[1:]))
-        variance = np.array([squares[a:b].sum() for a, b in cuts])
-        level = np.array([mean[a:b] @ mean[a:b] for a, b in cuts])
+        variance = np.array([squares[cols].sum() for cols in cuts])
+        level = np.array([mean[cols] @ mean[cols] for cols in cuts])
         flat = [n for n, v, m in zip(names, variance, level) if v <= 1e-20 * m or v <= 0]
         if flat:
             raise ValueError(
@@ -587,7 +595,7 @@ def channel_coordinates(estimator, coords, squares, mean):
             )
         weights = 1.0 / variance
     estimator.channel_weights_ = weights
-    d = np.repeat(np.sqrt(weights), np.diff(bounds))
+    d = np.repeat(np.sqrt(weights), sizes)
     d_grid = np.repeat(np.sqrt(weights), estimator.channel_sizes_)
     return ScaledCoordinates(coords, d, d_grid), d
 
@@ -595,68 +603,91 @@ def channel_coordinates(estimator, coords, squares, mean):
 # ------------------------------------------- channel-separable transformers
 
 
-def _blocks(estimator):
-    bounds = np.cumsum([0] + list(estimator.channel_sizes_))
-    return [slice(int(a), int(b)) for a, b in zip(bounds[:-1], bounds[1:])]
+class _ChannelStatistics:
+    """A block's statistics with channels: each channel's estimator's
+    statistics of its columns (``blocks``, channel by channel), a list
+    (picklable, for Dask workers)."""
+
+    def __init__(self, names, functions):
+        self.names, self.functions = names, functions
+
+    def __call__(self, *blocks):
+        out = []
+        for name, function, block in zip(self.names, self.functions, blocks):
+            with naming_channel(name):
+                out.append(function(block))
+        return out
 
 
 class ChannelwiseMixin:
     """Channels for transformers whose problem separates by channel.
 
-    With a channel layout the fit is one clone of the estimator per channel
-    (its grid the channel's grid, its parameters otherwise the same; those
-    in ``_channel_params`` may be mappings {channel: value}, a channel left
-    out taking None), stored in
-    ``channel_estimators_``; outputs are the channels' outputs side by side.
-    Without a layout nothing changes. Subclasses list the per-channel
-    parameters given as mappings in ``_channel_params``.
+    With a channel layout the estimator holds one clone of itself per
+    channel (its grid the channel's grid, its parameters otherwise the same;
+    those in ``_channel_params`` may be mappings {channel: value}, a channel
+    left out taking None), stored in ``channel_estimators_``, and fits on the
+    skeleton of :class:`skfunc._fit.AdditiveFitMixin` channel by channel:
+    each channel's estimator validates its columns of a batch, a block's
+    statistics are the list of the channels' statistics, merged channel by
+    channel, and the solve is each channel's solve from its own statistics.
+    The problem being block diagonal, this is the joint fit with each
+    channel's own alpha. Outputs are the channels' outputs side by side.
+    Without a layout nothing changes. It comes first among the bases: its
+    hooks wrap the skeleton's and the estimator's ``_validate_batch``.
     """
 
     _accepts_channels = True
     _channel_params = ()
 
-    def _uses_channels(self, X, first):
+    def _validate_batch(self, X, y, sample_weight, first):
         if first:
-            return is_channel_grid(self.grid) or _multi_columns(X) is not None
-        return hasattr(self, "channel_estimators_")
-
-    def _validate_channels(self, X, reset):
+            vars(self).pop("channel_estimators_", None)
+            if not is_channel_grid(self.grid) and _multi_columns(X) is None:
+                return super()._validate_batch(X, y, sample_weight, first)
+        elif not hasattr(self, "channel_estimators_"):
+            return super()._validate_batch(X, y, sample_weight, first)
         from ._validation import validate_curves
 
-        return validate_curves(self, X, reset=reset, allow_nan=True)
-
-    def _channel_clone(self, name, grid):
-        params = {"grid": grid}
-        for param in self._channel_params:
-            value = getattr(self, param)
-            if is_channel_grid(value):  # a channel left out gets the default
-                params[param] = value.get(name)
-        return clone(self).set_params(**params)
-
-    def _fit_channels(self, X, partial):
-        first = not partial or not hasattr(self, "channel_estimators_")
+        X = validate_curves(self, X, reset=first, allow_nan=True)
+        names = self.channel_names_
         if first:
-            self._validate_params()
-            vars(self).pop("channel_estimators_", None)
-        else:
-            from ._validation import check_batch_grid
-
-            check_batch_grid(self)
-        X = self._validate_channels(X, reset=first)
-        if first:
-            for param in self._channel_params:
-                per_channel(self, param, self.channel_names_)
-            layout = fitted_channels(self)
-            estimators = [self._channel_clone(n, g) for n, g in zip(*layout)]
-        else:
-            estimators = self.channel_estimators_
-        fitted = []
-        for name, est, block in zip(self.channel_names_, estimators, _blocks(self)):
-            part = X[:, block]
+            params = channel_params(self, self._channel_params, names)
+            self.channel_estimators_ = [
+                clone(self).set_params(grid=g, **p)
+                for g, p in zip(fitted_channels(self)[1], params)
+            ]
+        blocks = []
+        for name, est, cols in zip(names, self.channel_estimators_,
+                                   channel_slices(self.channel_sizes_)):
             with naming_channel(name):
-                fitted.append(est.partial_fit(part) if partial else est.fit(part))
-        self.channel_estimators_ = fitted
-        self.n_samples_seen_ = int(fitted[0].n_samples_seen_)
+                if first:
+                    est._validate_params()
+                blocks.append(est._validate_batch(X[:, cols], None, None, first)[0])
+        return tuple(blocks)
+
+    def _statistics_function(self):
+        if not hasattr(self, "channel_estimators_"):
+            return super()._statistics_function()
+        return _ChannelStatistics(
+            self.channel_names_, [e._statistics_function() for e in self.channel_estimators_]
+        )
+
+    @staticmethod
+    def _merge_statistics(*stats):
+        """Statistics merged key by key (:func:`skfunc._penalized.merge`);
+        with channels (lists), channel by channel."""
+        if isinstance(stats[0], list):
+            return [merge(*parts) for parts in zip(*stats)]
+        return merge(*stats)
+
+    def _solve_statistics(self):
+        if not hasattr(self, "channel_estimators_"):
+            return super()._solve_statistics()
+        for name, est, stats in zip(self.channel_names_, self.channel_estimators_,
+                                    self._partial_statistics):
+            est._partial_statistics, est.n_samples_seen_ = stats, self.n_samples_seen_
+            with naming_channel(name):
+                est._solve_statistics()
         self._collect_channels()
         return self
 
@@ -669,45 +700,13 @@ class ChannelwiseMixin:
         if hasattr(ests[0], "eval_points_"):
             self.eval_points_ = np.concatenate([e.eval_points_ for e in ests])
 
-    @fill_doc
-    def fit(self, X, y=None):
-        """Fit on the curves in X (forgetting earlier batches); with
-        channels, one fit per channel.
-
-        %(transformer_fit)s
-        """
-        if not self._uses_channels(X, True):
-            vars(self).pop("channel_estimators_", None)
-            return super().fit(X, y)
-        return self._fit_channels(X, partial=False)
-
-    @fill_doc
-    def partial_fit(self, X, y=None):
-        """Add a batch of curves and refit from the statistics of all batches.
-
-        The first batch fixes the grid (and the channels); with channels,
-        each channel's estimator takes its columns of the batch.
-
-        Parameters
-        ----------
-        X : array-like or dask array of shape (n_samples, n_features)
-            A batch of curves on the grid of the first batch.
-        %(partial_fit_y_returns)s
-        """
-        first = not hasattr(self, "n_samples_seen_")
-        if not self._uses_channels(X, first):
-            return super().partial_fit(X, y)
-        return self._fit_channels(X, partial=True)
-
     def _per_channel(self, X, method, columns=False):
         """``method`` of each channel's estimator on its columns of X, side
         by side (``columns``: each output is one column)."""
-        X = self._validate_channels(X, reset=False)
-        parts = [getattr(e, method)(X[:, block])
-                 for e, block in zip(self.channel_estimators_, _blocks(self))]
-        if columns:
-            parts = [p[:, None] for p in parts]
-        return _hstack(parts)
+        from ._validation import validate_curves
+
+        X = validate_curves(self, X, reset=False, allow_nan=True)
+        return split_columns(self, X, method, self.channel_sizes_, columns)
 
     def _channel_feature_names(self, input_features):
         """Output names ``channel__name`` from the channels' estimators."""
@@ -722,12 +721,14 @@ class ChannelwiseMixin:
         return np.asarray(names, dtype=object)
 
 
-def split_columns(estimator, X, method, widths):
+def split_columns(estimator, X, method, widths, columns=False):
     """``method`` of each channel's estimator on its ``widths`` columns of X
-    (outputs of the estimator, such as coordinates), side by side."""
-    bounds = np.cumsum([0] + list(widths))
-    parts = [getattr(e, method)(X[:, a:b]) for e, a, b in
-             zip(estimator.channel_estimators_, bounds[:-1], bounds[1:])]
+    (curves, or outputs of the estimator such as coordinates), side by side
+    (``columns``: each output is one column)."""
+    parts = [getattr(e, method)(X[:, cols]) for e, cols in
+             zip(estimator.channel_estimators_, channel_slices(widths))]
+    if columns:
+        parts = [p[:, None] for p in parts]
     return _hstack(parts)
 
 

@@ -190,6 +190,13 @@ def grid_from_labels(labels):
     )
 
 
+def same_grid(grid, other):
+    """Whether two grids are the same points, up to rounding (relative 1e-9):
+    the one tolerance for a grid met again (column labels, later batches)."""
+    grid, other = np.asarray(grid, dtype=np.float64), np.asarray(other, dtype=np.float64)
+    return grid.shape == other.shape and np.allclose(grid, other, rtol=1e-9, atol=0)
+
+
 def resolve_grid(grid, X, n_points, *, name="grid", data_name="X"):
     """The grid for ``X``: ``grid`` if given, else numeric DataFrame column
     labels, else days from date/time labels (:func:`time_grid`), else evenly

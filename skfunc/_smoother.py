@@ -296,8 +296,26 @@ class PenalizedFitMixin:
     ``data_term``, ``quadrature`` and ``grid_``.
     """
 
+    #: whether curves may miss values (NaN)
+    _allow_nan = False
+
+    def __sklearn_tags__(self):
+        tags = super().__sklearn_tags__()
+        tags.input_tags.allow_nan = self._allow_nan
+        return tags
+
     def _alpha(self):
         return check_alpha(self.alpha)
+
+    def _validate_batch(self, X, y, sample_weight, first):
+        X = validate_curves(self, X, reset=first, allow_nan=self._allow_nan)
+        if first:
+            self._setup(X)
+        return (X,)
+
+    def _setup(self, X):
+        """Everything that depends on the parameters and grid only."""
+        self._setup_alphas(X, self._problem())
 
     def _setup_alphas(self, X, problem):
         """Candidates (``alphas_path_``)."""
@@ -564,6 +582,9 @@ class CurveSmoother(ChannelwiseMixin, PenalizedFitMixin, AdditiveTransformerMixi
     #: with channels, these may be mappings {channel: value}
     _channel_params = ("n_basis", "eval_points", "interior_knots")
 
+    #: missing values are filled in
+    _allow_nan = True
+
     _parameter_constraints = {
         **BASIS_CONSTRAINTS,
         **CHANNEL_N_BASIS,
@@ -580,18 +601,7 @@ class CurveSmoother(ChannelwiseMixin, PenalizedFitMixin, AdditiveTransformerMixi
                  eval_points=None, grid=None, quadrature="trapezoid"):
         store_init_params(self, locals())
 
-    def __sklearn_tags__(self):
-        tags = super().__sklearn_tags__()
-        tags.input_tags.allow_nan = True
-        return tags
-
     # -- fitting: grid-only setup, additive statistics, solve ----------------
-
-    def _validate_batch(self, X, y, sample_weight, first):
-        X = validate_curves(self, X, reset=first, allow_nan=True)
-        if first:
-            self._setup(X)
-        return (X,)
 
     def _setup(self, X):
         """Everything that depends on the parameters and grid only."""

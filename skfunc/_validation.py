@@ -25,6 +25,7 @@ from ._grid import (
     empty_curve_error,
     grid_from_labels,
     resolve_grid,
+    same_grid,
 )
 
 #: the parameters naming a basis and its roughness penalty, as scikit-learn
@@ -179,7 +180,7 @@ def explain_not_numbers(exc, X, y):
 
 def check_labels(estimator, inferred, fitted, data_name, grid_name):
     """ValueError if numeric column labels give a grid other than the fitted one."""
-    if inferred is not None and not np.allclose(inferred, fitted, rtol=1e-9, atol=0):
+    if inferred is not None and not same_grid(inferred, fitted):
         raise ValueError(
             f"The column labels of {data_name} give a {grid_name} that differs from "
             f"the one {type(estimator).__name__} was fitted on; resample the curves "
@@ -202,8 +203,7 @@ def check_batch_grid(estimator, grid_param="grid", grid_attr="grid_"):
         grid = np.concatenate([np.asarray(g, dtype=np.float64) for g in grid.values()])
     if grid is not None:
         fitted = getattr(estimator, grid_attr)
-        grid = np.asarray(grid, dtype=np.float64)
-        if grid.shape != fitted.shape or not np.allclose(grid, fitted, rtol=1e-9, atol=0):
+        if not same_grid(grid, fitted):
             raise ValueError(
                 f"partial_fit of {type(estimator).__name__} got a {grid_param} that "
                 f"differs from the one of its earlier calls ({grid_attr}); all "

@@ -287,6 +287,23 @@ def test_partial_fit_with_channels_equals_fit():
         _close(getattr(parts, method)(X), getattr(whole, method)(X), 1e-9)
 
 
+@pytest.mark.parametrize("estimator", [BasisFeatures(), CurveSmoother(per_curve=True)],
+                         ids=repr)
+def test_partial_fit_batches_with_channels_equal_fit(estimator):
+    # Fits are sums over batches (skfunc._fit), channel by channel: the same
+    # statistics merged in another order, so equal up to rounding.
+    from skfunc.utils import partial_fit_batches
+
+    X, _ = _two_channels(40)
+    estimator = clone(estimator).set_params(grid={"T": T, "O": U})
+    whole = clone(estimator).fit(X)
+    batched = partial_fit_batches(clone(estimator), X, batch_size=15)
+    assert batched.n_samples_seen_ == len(X)
+    assert [e.n_samples_seen_ for e in batched.channel_estimators_] == [len(X)] * 2
+    _close(batched.alpha_, whole.alpha_, 1e-9)
+    _close(batched.transform(X), whole.transform(X), 1e-9)
+
+
 @pytest.mark.slow
 def test_pipeline_and_persistence_with_channels(tmp_path):
     X, y = _two_channels()
