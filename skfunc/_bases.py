@@ -240,14 +240,19 @@ class BSplineBasis(Basis):
 
     def penalty(self, order):
         order = self.check_derivative(order, name="penalty_order")
-        breaks = np.unique(self.knots)
-        nodes, weights = np.polynomial.legendre.leggauss(self.degree + 1)
-        left, right = breaks[:-1, None], breaks[1:, None]
-        half = (right - left) / 2
-        points = (left + right) / 2 + half * nodes  # (spans, nodes)
-        w = (half * weights).ravel()
-        values = self._spline()(points.ravel(), nu=order)
-        return (values * w[:, None]).T @ values
+        # a fit asks for the Gram matrix several times (coordinates, penalty
+        # split, scale): computed once per basis, handed out as copies
+        known = vars(self).setdefault("_penalties", {})
+        if order not in known:
+            breaks = np.unique(self.knots)
+            nodes, weights = np.polynomial.legendre.leggauss(self.degree + 1)
+            left, right = breaks[:-1, None], breaks[1:, None]
+            half = (right - left) / 2
+            points = (left + right) / 2 + half * nodes  # (spans, nodes)
+            w = (half * weights).ravel()
+            values = self._spline()(points.ravel(), nu=order)
+            known[order] = (values * w[:, None]).T @ values
+        return known[order].copy()
 
 
 class FourierBasis(Basis):
