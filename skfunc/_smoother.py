@@ -48,6 +48,7 @@ from ._blocks import (
     chunked_matmul,
     output_dtype,
     row_blocks,
+    single_thread_for,
 )
 from ._channels import ChannelwiseMixin
 from ._docstrings import fill_doc
@@ -209,7 +210,12 @@ class _Problem:
         self.quadrature = estimator.quadrature
         self.basis = basis_for(estimator, grid, cap=not penalized)
         self.phi = self.basis.evaluate(grid)
-        self.penalty = penalty_for(self.basis, estimator.penalty_order)
+        with single_thread_for(self.basis.n_basis):
+            self._decompose(estimator.penalty_order, penalized)
+
+    def _decompose(self, penalty_order, penalized):
+        """The split penalty and the decomposition of complete curves."""
+        self.penalty = penalty_for(self.basis, penalty_order)
         # functions the penalty leaves free (0 without a penalty: then every
         # coefficient needs the data, and too few values are an error)
         self.null_dimension = self.penalty.n_null if penalized else 0
@@ -221,6 +227,7 @@ class _Problem:
         # with 39 cubic B-splines, 4x on 51), which is not resolution-free.
         w = self.weights()
         self.full = self.path(w, scale=float(w.sum()))
+        self.full_rotation = self.rotation(self.full, w)
 
     def weights(self, observed=None):
         """Data weights (:func:`skfunc._grid.data_weights`), zero where missing."""
@@ -252,7 +259,7 @@ class _Problem:
         """
         if rows is None:
             w, path = self.weights(), self.full
-            rotated, missing = _products(X, self.rotation(path, w) / scale)
+            rotated, missing = _products(X, self.full_rotation / scale)
             complete = np.flatnonzero(~missing)
             if complete.size:
                 whole = complete.size == X.shape[0]
@@ -323,10 +330,11 @@ class PenalizedFitMixin:
     def _setup_alphas(self, X, problem):
         """Candidates (``alphas_path_``)."""
         alpha = self._alpha()
-        self.alphas_path_ = candidates_for(alpha, problem.full)
-        if isinstance(alpha, float) and alpha == 0:
-            phi_w = problem.phi * problem.weights()[:, None]
-            check_unpenalized_fit(phi_w.T @ problem.phi, problem.basis.gram())
+        with single_thread_for(problem.basis.n_basis):
+            self.alphas_path_ = candidates_for(alpha, problem.full)
+            if isinstance(alpha, float) and alpha == 0:
+                phi_w = problem.phi * problem.weights()[:, None]
+                check_unpenalized_fit(phi_w.T @ problem.phi, problem.basis.gram())
 
     def _problem(self):
         """The :class:`_Problem` of the parameters and ``grid_``; built once
@@ -360,7 +368,7 @@ class PenalizedFitMixin:
             return super()._partial_fit_statistics(*args, **kwargs)
 
     def _solve_statistics(self):
-        with self._one_problem():
+        with self._one_problem(), single_thread_for(self._problem().basis.n_basis):
             return super()._solve_statistics()
 
     def _statistics(self, X):
