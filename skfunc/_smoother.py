@@ -367,6 +367,10 @@ class PenalizedFitMixin:
         with self._one_problem():
             return super()._partial_fit_statistics(*args, **kwargs)
 
+    def _statistics_function(self):
+        self._problem()  # built here, before the blocks (and Dask's copies) use it
+        return self._statistics
+
     def _solve_statistics(self):
         with self._one_problem(), single_thread_for(self._problem().basis.n_basis):
             return super()._solve_statistics()
