@@ -22,6 +22,7 @@ exact (Gauss-Legendre per knot span for splines, closed forms otherwise). To
 add a basis, subclass :class:`Basis` and register it in :data:`BASES`.
 """
 
+import functools
 import warnings
 from abc import ABC, abstractmethod
 
@@ -240,14 +241,19 @@ class BSplineBasis(Basis):
 
     def penalty(self, order):
         order = self.check_derivative(order, name="penalty_order")
-        breaks = np.unique(self.knots)
-        nodes, weights = np.polynomial.legendre.leggauss(self.degree + 1)
-        left, right = breaks[:-1, None], breaks[1:, None]
-        half = (right - left) / 2
-        points = (left + right) / 2 + half * nodes  # (spans, nodes)
-        w = (half * weights).ravel()
-        values = self._spline()(points.ravel(), nu=order)
-        return (values * w[:, None]).T @ values
+        # a fit asks for the Gram matrix several times (coordinates, penalty
+        # split, scale): computed once per basis, handed out as copies
+        known = vars(self).setdefault("_penalties", {})
+        if order not in known:
+            breaks = np.unique(self.knots)
+            nodes, weights = gauss_legendre(self.degree + 1)
+            left, right = breaks[:-1, None], breaks[1:, None]
+            half = (right - left) / 2
+            points = (left + right) / 2 + half * nodes  # (spans, nodes)
+            w = (half * weights).ravel()
+            values = self._spline()(points.ravel(), nu=order)
+            known[order] = (values * w[:, None]).T @ values
+        return known[order].copy()
 
 
 class FourierBasis(Basis):
@@ -316,7 +322,7 @@ class FourierBasis(Basis):
             # functions to rounding.
             cycles = self.length / self.period * (self.n_basis // 2 + 1)
             panels = int(np.ceil(2 * cycles)) + 1
-            nodes, weights = np.polynomial.legendre.leggauss(40)
+            nodes, weights = gauss_legendre(40)
             edges = np.linspace(*self.domain, panels + 1)
             half = np.diff(edges)[:, None] / 2
             points = ((edges[:-1, None] + edges[1:, None]) / 2 + half * nodes).ravel()
@@ -497,6 +503,16 @@ def _whitened(matrix, metric):
     lower = np.linalg.cholesky(metric)
     half = np.linalg.solve(lower, matrix)
     return np.linalg.solve(lower, half.T).T
+
+
+@functools.cache
+def gauss_legendre(n):
+    """Nodes and weights of the ``n``-point Gauss-Legendre rule on [-1, 1]
+    (``numpy.polynomial.legendre.leggauss``, which solves an eigenproblem:
+    computed once per ``n``; read-only)."""
+    nodes, weights = npleg.leggauss(n)
+    nodes.flags.writeable = weights.flags.writeable = False
+    return nodes, weights
 
 
 def gram_sqrt(gram):

@@ -195,6 +195,14 @@ def single_thread_blas():
     return _CONTROLLER.limit(limits=1, user_api="blas")
 
 
+def single_thread_for(K):
+    """:func:`single_thread_blas` for the dense algebra of K x K problems up
+    to K = 2000 (bound by latency there: a team of BLAS threads made a 39 x
+    39 eigensolve 30 times slower on a busy two-core machine; the switch
+    costs about 30 microseconds); no limit for larger K."""
+    return single_thread_blas() if K <= 2000 else contextlib.nullcontext()
+
+
 def _along_rows_of(X, other):
     """``other`` (numpy or dask) as a dask array with X's row chunks."""
     import dask.array as da

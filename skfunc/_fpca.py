@@ -53,7 +53,6 @@ of the coordinates per fold (:func:`fold_moments`), so it runs from the same
 additive statistics as the fit, in memory, over batches or on Dask blocks.
 """
 
-import contextlib
 
 import numpy as np
 import scipy.linalg
@@ -63,7 +62,13 @@ from sklearn.utils.validation import check_is_fitted
 from ._alpha import CV_FOLDS, best_index, candidates_for
 from ._bases import gram_sqrt
 from ._basis_features import orthonormal_operators
-from ._blocks import BandedProduct, chunked_matmul, output_dtype, single_thread_blas
+from ._blocks import (
+    BandedProduct,
+    chunked_matmul,
+    output_dtype,
+    single_thread_blas,
+    single_thread_for,
+)
 from ._channels import channel_penalty
 from ._dask import check_rows
 from ._moments import merge_moments, moments, scale_moments
@@ -223,7 +228,7 @@ def covariance_directions(covariance, n_wanted=None, coords=None, alpha=0.0):
         variances, directions = smoothed_directions(covariance, coords, [alpha], k)
         return variances[0], directions[0]
     subset = None if k == K else [K - k, K - 1]
-    with _single_thread(K):
+    with single_thread_for(K):
         variances, directions = scipy.linalg.eigh(covariance, subset_by_index=subset)
     variances, directions = variances[::-1], directions[:, ::-1]
     return np.clip(variances, 0.0, None), directions
@@ -243,7 +248,7 @@ def smoothed_directions(covariance, coords, alphas, k):
     d = path.denominators(np.asarray(alphas, dtype=np.float64))  # (L, K)
     B = (coords.root @ path.eigvecs)[None] / np.sqrt(d)[:, None, :]
     M = np.swapaxes(B, 1, 2) @ covariance @ B
-    with _single_thread(covariance.shape[0]):
+    with single_thread_for(covariance.shape[0]):
         _, u = np.linalg.eigh((M + np.swapaxes(M, 1, 2)) / 2)
     y = B @ u[:, :, ::-1][:, :, :k]
     q, r = np.linalg.qr(y)  # Gram-Schmidt in L2, in order
@@ -261,14 +266,40 @@ def fold_moments(Z, folds):
     out = {"n": np.zeros(CV_FOLDS), "mean": np.zeros((CV_FOLDS, K)),
            "scatter": np.zeros((CV_FOLDS, K, K))}
     # ten small products per block: latency-bound, one BLAS thread (see
-    # _single_thread; measured 3x faster on a busy two-core machine), through
+    # single_thread_for; measured 3x faster on a busy two-core machine), through
     # a controller made once (threadpool_limits inspects the loaded
     # libraries on every call: milliseconds per block)
     with single_thread_blas():
-        for f, rows in _fold_rows(folds):
+        parts = _fold_rows(folds)
+        if len(folds) >= CV_FOLDS and isinstance(parts[0][1], slice):
+            return _turn_moments(Z, int(folds[0]), out)
+        for f, rows in parts:
             part = moments(Z[rows])
             out["n"][f], out["mean"][f], out["scatter"][f] = (
                 part["n"], part["mean"], part["scatter"])
+    return out
+
+
+def _turn_moments(Z, first, out):
+    """:func:`fold_moments` where the folds run in turn from fold ``first``:
+    the rows as a (q, CV_FOLDS, K) array, every fold's mean and centered rows
+    in one pass (strided views of every tenth row would be read row by
+    row), and the last ``len(Z) mod CV_FOLDS`` rows merged one by one."""
+    q = Z.shape[0] // CV_FOLDS
+    turns = Z[: q * CV_FOLDS].reshape(q, CV_FOLDS, Z.shape[1])
+    mean = turns.mean(axis=0)
+    centered = turns - mean
+    folds = (first + np.arange(CV_FOLDS)) % CV_FOLDS
+    out["n"][folds], out["mean"][folds] = q, mean
+    for i, f in enumerate(folds):
+        out["scatter"][f] = centered[:, i].T @ centered[:, i]
+    for i, row in enumerate(Z[q * CV_FOLDS:]):
+        f = folds[i]
+        part = merge_moments(
+            {"n": q, "mean": out["mean"][f], "scatter": out["scatter"][f]},
+            {"n": 1, "mean": row, "scatter": np.zeros_like(out["scatter"][f])})
+        out["n"][f], out["mean"][f], out["scatter"][f] = (
+            part["n"], part["mean"], part["scatter"])
     return out
 
 
@@ -350,8 +381,8 @@ def cross_validation_scores(folds, coords, alphas, n_components):
     scale = 1.0 / np.sqrt(coords.path.denominators(alphas))  # (L, K)
     A = W.T @ (train / (n_t - 1)[:, None, None]) @ W  # (F, K, K)
     M = A[:, None] * (scale[:, :, None] * scale[:, None, :])  # (F, L, K, K)
-    _, u = np.linalg.eigh((M + np.swapaxes(M, 2, 3)) / 2)
-    y = (W * scale[:, None, :]) @ u[..., ::-1][..., :k_max]  # (F, L, K, k)
+    u = leading_eigenvectors((M + np.swapaxes(M, 2, 3)) / 2, k_max)
+    y = (W * scale[:, None, :]) @ u  # (F, L, K, k)
     q, _ = np.linalg.qr(y)  # Gram-Schmidt in L2, in order (signs do not matter)
     captured = np.sum(q * (held[:, None] @ q), axis=2)  # (F, L, k): y' S~ y
     errors = np.trace(held, axis1=1, axis2=2)[:, None, None] - np.cumsum(captured, axis=2)
@@ -361,6 +392,35 @@ def cross_validation_scores(folds, coords, alphas, n_components):
         counted = np.arange(k_max) < k[:, None]  # (F, k)
         per_fold = np.einsum("fla,fa->fl", errors, counted)
     return per_fold.sum(axis=0), used.size
+
+
+#: :func:`leading_eigenvectors` asks LAPACK for only the leading ``k`` of
+#: ``K`` eigenvectors when ``k * SUBSET_RATIO <= K``: the stacked solver of
+#: all of them costs less below that (single-thread CPU time of 250
+#: matrices, ms: K = 39, k = 3: 29 stacked, 20 subset; K = 20, k = 5: 7.5
+#: against 12.3; K = 39, k = 10: 30 against 49)
+SUBSET_RATIO = 8
+
+
+def leading_eigenvectors(M, k):
+    """Eigenvectors (..., K, k) of the ``k`` largest eigenvalues, largest
+    first, of each symmetric matrix of the stack ``M`` (..., K, K)."""
+    K = M.shape[-1]
+    if k * SUBSET_RATIO > K:
+        return np.linalg.eigh(M)[1][..., ::-1][..., :k]
+    # LAPACK's relatively robust representations (dsyevr) for an index
+    # range, one matrix at a time (numpy's stacked solver has no range)
+    stack = M.reshape(-1, K, K)
+    out = np.empty((stack.shape[0], K, k))
+    lwork, liwork = scipy.linalg.lapack.dsyevr_lwork(K)[:2]
+    for i, matrix in enumerate(stack):
+        _, vectors, _, _, info = scipy.linalg.lapack.dsyevr(
+            matrix, compute_v=1, range="I", il=K - k + 1, iu=K,
+            lwork=lwork, liwork=liwork)
+        if info:
+            raise np.linalg.LinAlgError(f"Eigenvalues did not converge (dsyevr info {info})")
+        out[i] = vectors[:, ::-1]
+    return out.reshape(M.shape[:-2] + (K, k))
 
 
 def cross_validate_alpha(folds, coords, n_components, alpha="auto"):
@@ -386,7 +446,7 @@ def cross_validate_alpha(folds, coords, n_components, alpha="auto"):
     """
     alphas = candidates_for(alpha, coords.path)
     # small batched eigensolves: BLAS threads only add synchronisation
-    # (see _single_thread), measured 17x slower on a busy two-core machine
+    # (see single_thread_for), measured 17x slower on a busy two-core machine
     with single_thread_blas():
         scores, used = cross_validation_scores(folds, coords, alphas, n_components)
     if used == 0:
@@ -397,19 +457,6 @@ def cross_validate_alpha(folds, coords, n_components, alpha="auto"):
         )
     index = best_index(scores, alphas, criterion="cross-validation over curves")
     return float(alphas[index]), alphas, scores
-
-
-def _single_thread(K):
-    """One BLAS thread for a K x K eigensolve of moderate size.
-
-    Up to K of a few thousand the symmetric eigensolver is bound by latency,
-    not arithmetic; extra BLAS threads only add synchronisation, which costs
-    several times the solve itself on a busy machine (partial_fit solves once
-    per chunk). Tiny problems skip the (millisecond) thread-pool switch.
-    """
-    if 64 <= K <= 2000:
-        return single_thread_blas()
-    return contextlib.nullcontext()
 
 
 def svd_directions(Z, n_wanted, solver, random_state=None, n_oversamples=10,

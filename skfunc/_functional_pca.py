@@ -17,7 +17,7 @@ from sklearn.utils.validation import check_is_fitted
 
 from ._alpha import ALPHA_CONSTRAINT, check_alpha
 from ._bases import BASES
-from ._blocks import chunked_matmul, is_dask_array, output_dtype
+from ._blocks import chunked_matmul, is_dask_array, output_dtype, single_thread_for
 from ._channels import CHANNEL_WEIGHTS, channel_coordinates, curve_weights
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
@@ -431,8 +431,13 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         return coords.fold_statistics if self._chooses_alpha() else coords.statistics
 
     def _solve(self, stats):
-        """Set the fitted attributes from merged statistics."""
+        """Set the fitted attributes from merged statistics (K x K algebra:
+        one BLAS thread up to K = 2000, ``single_thread_for``)."""
         coords = self._batch_coords()
+        with single_thread_for(coords.n_coordinates):
+            self._solve_moments(stats, coords)
+
+    def _solve_moments(self, stats, coords):
         folds = stats if np.ndim(stats["n"]) else None
         if folds is not None:
             stats = pooled_moments(folds)
@@ -599,10 +604,10 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
                     "need positive weights. Use quadrature='trapezoid' or a basis."
                 )
             return CurveCoordinates(weights)
-        return CurveCoordinates(
-            weights, basis_for(self, self.grid_), self.grid_,
-            self.penalty_order if self._smooths() else None,
-        )
+        basis = basis_for(self, self.grid_)
+        with single_thread_for(basis.n_basis):
+            return CurveCoordinates(weights, basis, self.grid_,
+                                    self.penalty_order if self._smooths() else None)
 
     def _fraction(self):
         return isinstance(self.n_components, Real) and not isinstance(

@@ -353,10 +353,17 @@ def data_exponent(*arrays):
     """
     top = 0.0
     for a in arrays:
-        a = np.asarray(a, dtype=np.float64)
+        a = np.asarray(a)
+        if a.dtype.kind != "f":
+            a = a.astype(np.float64)
         if a.size:
-            with np.errstate(invalid="ignore"):
-                m = np.max(np.abs(a), where=np.isfinite(a), initial=0.0)
+            # two reading passes and no temporary; NaN or inf among the
+            # values takes the masked reduction
+            high, low = float(np.max(a)), float(np.min(a))
+            m = max(high, -low)
+            if not np.isfinite([high, low]).all():
+                with np.errstate(invalid="ignore"):
+                    m = np.max(np.abs(a), where=np.isfinite(a), initial=0.0)
             top = max(top, float(m))
     if top == 0.0:
         return ZERO_EXPONENT

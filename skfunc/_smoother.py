@@ -21,6 +21,7 @@ complete pattern's scale so that alpha means the same in every pattern.
 Complete rows take the single fast path.
 """
 
+import contextlib
 import warnings
 from numbers import Integral
 
@@ -47,6 +48,7 @@ from ._blocks import (
     chunked_matmul,
     output_dtype,
     row_blocks,
+    single_thread_for,
 )
 from ._channels import ChannelwiseMixin
 from ._docstrings import fill_doc
@@ -90,9 +92,18 @@ def _products(X, first_T, second_T=None, dtype=np.float64):
     """
     n, m = X.shape
     extended = np.column_stack([first_T, np.ones(m)])
+    missing = np.empty(n, dtype=bool)
+    if second_T is None and dtype == np.float64:
+        # straight into the result, with the flag column beside it (no
+        # copy of each block's product)
+        out = np.empty((n, extended.shape[1]))
+        for part in row_blocks(n, m):
+            with np.errstate(invalid="ignore", over="ignore"):  # inf is flagged
+                np.matmul(np.asarray(X[part], dtype=np.float64), extended, out=out[part])
+            missing[part] = ~np.isfinite(out[part, -1])
+        return out[:, :-1], missing
     width = first_T.shape[1] if second_T is None else second_T.shape[1]
     out = np.empty((n, width), dtype=dtype)
-    missing = np.empty(n, dtype=bool)
     if dtype == np.float32:
         first = Float32Product(X, extended)
         second_T = None if second_T is None else second_T.astype(np.float32)
@@ -111,13 +122,24 @@ def _products(X, first_T, second_T=None, dtype=np.float64):
 
 
 def _weighted_squares(X, w, scale=1.0):
-    """``sum_j w_j (x_ij / scale)^2`` per row, in row blocks (no (n, m)
-    temporary beyond a block; dividing first keeps squares of values near
-    1e300 finite)."""
+    """``sum_j w_j (x_ij / scale)^2`` per row for a power of two ``scale``,
+    in row blocks (no (n, m) temporary beyond a block; dividing first keeps
+    squares of values near 1e300 finite).
+
+    float64 rows of moderate scale are squared where they are, and the
+    sums divided by ``scale**2``: the same numbers (a power of two changes
+    no digit), without writing a scaled copy of each block.
+    """
     out = np.empty(X.shape[0])
+    exponent = int(np.frexp(scale)[1]) - 1
+    in_place = getattr(X, "dtype", None) == np.float64 and abs(exponent) <= 200
     for part in row_blocks(*X.shape):
-        block = np.asarray(X[part], dtype=np.float64) / scale
-        out[part] = np.einsum("ij,ij,j->i", block, block, w)
+        if in_place:
+            block = np.asarray(X[part])
+            out[part] = np.ldexp(np.einsum("ij,ij,j->i", block, block, w), -2 * exponent)
+        else:
+            block = np.asarray(X[part], dtype=np.float64) / scale
+            out[part] = np.einsum("ij,ij,j->i", block, block, w)
     return out
 
 
@@ -188,7 +210,12 @@ class _Problem:
         self.quadrature = estimator.quadrature
         self.basis = basis_for(estimator, grid, cap=not penalized)
         self.phi = self.basis.evaluate(grid)
-        self.penalty = penalty_for(self.basis, estimator.penalty_order)
+        with single_thread_for(self.basis.n_basis):
+            self._decompose(estimator.penalty_order, penalized)
+
+    def _decompose(self, penalty_order, penalized):
+        """The split penalty and the decomposition of complete curves."""
+        self.penalty = penalty_for(self.basis, penalty_order)
         # functions the penalty leaves free (0 without a penalty: then every
         # coefficient needs the data, and too few values are an error)
         self.null_dimension = self.penalty.n_null if penalized else 0
@@ -200,6 +227,7 @@ class _Problem:
         # with 39 cubic B-splines, 4x on 51), which is not resolution-free.
         w = self.weights()
         self.full = self.path(w, scale=float(w.sum()))
+        self.full_rotation = self.rotation(self.full, w)
 
     def weights(self, observed=None):
         """Data weights (:func:`skfunc._grid.data_weights`), zero where missing."""
@@ -231,7 +259,7 @@ class _Problem:
         """
         if rows is None:
             w, path = self.weights(), self.full
-            rotated, missing = _products(X, self.rotation(path, w) / scale)
+            rotated, missing = _products(X, self.full_rotation / scale)
             complete = np.flatnonzero(~missing)
             if complete.size:
                 whole = complete.size == X.shape[0]
@@ -320,15 +348,50 @@ class PenalizedFitMixin:
     def _setup_alphas(self, X, problem):
         """Candidates (``alphas_path_``)."""
         alpha = self._alpha()
-        self.alphas_path_ = candidates_for(alpha, problem.full)
-        if isinstance(alpha, float) and alpha == 0:
-            phi_w = problem.phi * problem.weights()[:, None]
-            check_unpenalized_fit(phi_w.T @ problem.phi, problem.basis.gram())
+        with single_thread_for(problem.basis.n_basis):
+            self.alphas_path_ = candidates_for(alpha, problem.full)
+            if isinstance(alpha, float) and alpha == 0:
+                phi_w = problem.phi * problem.weights()[:, None]
+                check_unpenalized_fit(phi_w.T @ problem.phi, problem.basis.gram())
 
     def _problem(self):
+        """The :class:`_Problem` of the parameters and ``grid_``; built once
+        per batch of a fit (:meth:`_one_problem`), else anew."""
+        cache = vars(self).get("_problem_cache")
+        if cache:
+            return cache[0]
         alpha = self._alpha()
         penalized = not isinstance(alpha, float) or alpha > 0
-        return _Problem(self, self.grid_, penalized)
+        problem = _Problem(self, self.grid_, penalized)
+        if cache is not None:
+            cache.append(problem)
+        return problem
+
+    @contextlib.contextmanager
+    def _one_problem(self):
+        """Within: :meth:`_problem` builds the problem once (basis values,
+        penalty, decomposition: milliseconds) and every step of the fit and
+        every row block reuses it; the estimator keeps no problem after."""
+        if "_problem_cache" in vars(self):  # nested: the outer one owns it
+            yield
+            return
+        self._problem_cache = []
+        try:
+            yield
+        finally:
+            del self._problem_cache
+
+    def _partial_fit_statistics(self, *args, **kwargs):
+        with self._one_problem():
+            return super()._partial_fit_statistics(*args, **kwargs)
+
+    def _statistics_function(self):
+        self._problem()  # built here, before the blocks (and Dask's copies) use it
+        return self._statistics
+
+    def _solve_statistics(self):
+        with self._one_problem(), single_thread_for(self._problem().basis.n_basis):
+            return super()._solve_statistics()
 
     def _statistics(self, X):
         """Additive criterion statistics of the curves in X, per candidate.
