@@ -6,6 +6,7 @@ from skfunc._penalized import (
     NotIdentifiableError,
     SplitPath,
     centered,
+    centered_cross_products,
     cross_products,
     engine_alpha,
     gcv_score,
@@ -46,6 +47,34 @@ def test_statistics_are_sums(rng):
     yc = y - y_mean
     np.testing.assert_allclose(yy, (w[:, None] * yc**2).sum(axis=0), rtol=1e-10)
     np.testing.assert_allclose(zy, (Z - z_mean).T @ (w[:, None] * yc), rtol=1e-10)
+
+
+@pytest.mark.parametrize("weighted", [False, True])
+def test_centered_statistics_are_sums(rng, weighted):
+    # Reference: numpy sums Z'WZ, Z'Wy, y'Wy (raw) and the same about the
+    # weighted means (numpy.average), on data with a mean 1000 times the
+    # spread (where raw sums minus sw m m' lose about 6 digits); merged over
+    # chunks exactly as on all rows (Chan, Golub and LeVeque, 1979).
+    Z = 1000 + rng.normal(size=(30, 4))
+    y = 50 + rng.normal(size=(30, 2))
+    w = rng.uniform(0.5, 2, 30) if weighted else None
+    v = np.ones(30) if w is None else w
+    whole = centered_cross_products(Z, y, w)
+    zm, ym = np.average(Z, axis=0, weights=v), np.average(y, axis=0, weights=v)
+    Zc, yc = Z - zm, y - ym
+    expected = {
+        "n": 30, "sw": v.sum(), "z_sum": v @ Z, "y_sum": v @ y,
+        "zz": Z.T @ (v[:, None] * Z), "zy": Z.T @ (v[:, None] * y),
+        "yy": v @ (y * y), "czz": Zc.T @ (v[:, None] * Zc),
+        "czy": Zc.T @ (v[:, None] * yc), "cyy": v @ (yc * yc),
+    }
+    assert set(whole) == set(expected)
+    for key, value in expected.items():
+        np.testing.assert_allclose(whole[key], value, rtol=1e-12, err_msg=key)
+    parts = merge(centered_cross_products(Z[:11], y[:11], None if w is None else w[:11]),
+                  centered_cross_products(Z[11:], y[11:], None if w is None else w[11:]))
+    for key, value in expected.items():
+        np.testing.assert_allclose(parts[key], value, rtol=1e-10, err_msg=key)
 
 
 # -- the split engine -------------------------------------------------------
