@@ -439,13 +439,15 @@ def rescaled(stats, x_exp, y_exp):
         if key not in SCALE_POWERS:
             raise KeyError(f"the statistic {key!r} has no declared scale (SCALE_POWERS)")
         p, q = SCALE_POWERS[key]
-        if dx.ndim == 0 or p == 0:
+        if p == 0:  # of y only: per-column x exponents must not broadcast it
+            shift = 0
+        elif dx.ndim == 0:
             shift = p * dx
         elif p == 2:
             shift = dx[:, None] + dx[None, :]
         else:  # one design index: the first axis of a matrix, the only of a vector
             shift = dx if np.ndim(value) == 1 else dx[:, None]
-        out[key] = np.ldexp(value, (shift + q * dy).astype(np.int64))
+        out[key] = np.ldexp(value, np.asarray(shift + q * dy, dtype=np.int64))
     return out
 
 

@@ -77,6 +77,33 @@ def test_centered_statistics_are_sums(rng, weighted):
         np.testing.assert_allclose(parts[key], value, rtol=1e-10, err_msg=key)
 
 
+def test_merge_with_per_column_exponents_keeps_the_response_sums(rng):
+    # Blocks whose design columns carry different power-of-two exponents
+    # (x_exp per column, as the integrated design's) merge to the sums of
+    # all rows: numpy's Z'Z, Z'y and y'y of the unscaled data, with y's sums
+    # keeping one value per target (a per-column exponent must not
+    # broadcast them to one per design column).
+    Z = rng.normal(size=(40, 5))
+    Z[20:, 3] *= 1e6  # the second block's fourth column in another binade
+    y = rng.normal(size=(40, 2))
+    blocks = []
+    for rows in (slice(0, 20), slice(20, 40)):
+        e = np.array([np.frexp(np.abs(Z[rows, j]).max())[1] for j in range(5)])
+        stats = centered_cross_products(np.ldexp(Z[rows], -e), y[rows])
+        stats.update(x_exp=e, y_exp=0)
+        blocks.append(stats)
+    assert np.any(blocks[0]["x_exp"] != blocks[1]["x_exp"])
+    merged = merge(*blocks)
+    e = merged["x_exp"]
+    for key in ("y_sum", "yy", "cyy"):
+        assert merged[key].shape == (2,), key
+    np.testing.assert_allclose(merged["yy"], (y * y).sum(axis=0), rtol=1e-12)
+    np.testing.assert_allclose(merged["y_sum"], y.sum(axis=0), rtol=1e-12)
+    np.testing.assert_allclose(np.ldexp(merged["zz"], e[:, None] + e[None, :]), Z.T @ Z,
+                               rtol=1e-12)
+    np.testing.assert_allclose(np.ldexp(merged["zy"], e[:, None]), Z.T @ y, rtol=1e-12)
+
+
 # -- the split engine -------------------------------------------------------
 
 
