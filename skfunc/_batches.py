@@ -65,7 +65,8 @@ def partial_fit_batches(estimator, X, y=None, *, sample_weight=None, batch_size=
         ``FunctionalRidgeCV``): each thread takes a share of the batch's rows
         with BLAS at one thread, so every step of the pass (the matrix
         product, the reductions, reading the pages of a memory-mapped file)
-        runs on every core. None means as many threads as BLAS would use
+        runs on every core; the small solve after the last batch then runs
+        with BLAS at one thread too. None means as many threads as BLAS would use
         (so an outer ``threadpoolctl`` limit holds); 1 computes in the
         calling thread, BLAS with its own threads. The result does not
         depend on it.
@@ -145,10 +146,12 @@ def partial_fit_batches(estimator, X, y=None, *, sample_weight=None, batch_size=
             seen = True
             if progress is not None:
                 progress.update(batch[0])
-    if not seen:
-        raise ValueError("X holds no batch of rows: nothing to fit.")
-    if additive:
-        estimator._solve_statistics()
+        if not seen:
+            raise ValueError("X holds no batch of rows: nothing to fit.")
+        if additive:
+            # (a small problem: with BLAS threads idling beside it, its
+            # solve took 5-8 times the processor time of one thread)
+            estimator._solve_statistics()
     if progress is not None:
         progress.done()
     return estimator

@@ -21,7 +21,7 @@ from ._alpha import (
     check_alpha,
     choose_alpha,
 )
-from ._blocks import BandedProduct
+from ._blocks import BandedProduct, single_thread_blas
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._fit import AdditiveRegressorMixin
@@ -29,6 +29,7 @@ from ._integrated_design import (
     DESIGN_CONSTRAINTS,
     PERIOD_CONSTRAINT,
     IntegratedDesignMixin,
+    scaled_integrated_design,
 )
 from ._penalized import (
     centered,
@@ -38,13 +39,6 @@ from ._penalized import (
     to_data_units,
 )
 from ._weights import check_sample_weight
-
-#: :meth:`FunctionalRidgeBase._scaled_design` forms the product of the
-#: curves before scaling while the product's largest value is at least
-#: ``2**PRODUCT_FIRST_MIN_EXPONENT``: then a product term that falls below
-#: float64's normal range (``2**-1022``) is off by at most ``2**-1074``, some
-#: ``2**-170`` of the largest value, against the unit roundoff ``2**-53``
-PRODUCT_FIRST_MIN_EXPONENT = -900
 
 
 class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, RegressorMixin,
@@ -109,42 +103,19 @@ class FunctionalRidgeBase(AdditiveRegressorMixin, IntegratedDesignMixin, Regress
         return stats
 
     def _scaled_design(self, X, y, operator):
-        """``(Z, z_exp, y, y_exp)``: the integrated design of the curves and
-        the covariates divided by powers of two ``2**z_exp`` (one exponent
-        for the curves' columns, one per covariate: covariates are
-        unpenalized, so scaling each is a change of units that leaves the
-        fit unchanged, and covariates in other units than the curves keep
-        their digits) and y divided by ``2**y_exp``.
-
-        The curves' columns are the product of the curves as they are
-        (:class:`~skfunc._blocks.BandedProduct`: B-splines are nonzero on a
-        few knot intervals each), scaled afterwards by the exponent of the
-        product (n x K values, not n x m): a power of two commutes with every
-        rounding in between unless a value overflows or falls below
-        float64's normal range. So
-        where the product is not finite, or its largest value is below
-        ``2**`` :data:`PRODUCT_FIRST_MIN_EXPONENT` (curves near 1e-270),
-        the curves are scaled first, by the exponent of their own values."""
-        product = operator if isinstance(operator, BandedProduct) else BandedProduct(operator)
-        m = X.shape[1] - self.n_covariates
-        covariates = [data_exponent(X[:, j]) for j in range(m, X.shape[1])]
-        with np.errstate(over="ignore", invalid="ignore"):  # checked below
-            design = product(X[:, :m])
-        curves = data_exponent(design)
-        if curves <= PRODUCT_FIRST_MIN_EXPONENT or not np.isfinite(design).all():
-            curves = data_exponent(X[:, :m])
-            design = product(scale_down(X[:, :m], curves))
-        else:  # in place: times a power of two, exact as scale_down's ldexp
-            design *= np.ldexp(1.0, -curves)
-        z_exp = np.array([curves] * product.shape[1] + covariates, dtype=np.int64)
-        if covariates:
-            design = np.hstack([design] + [scale_down(X[:, j:j + 1], e)
-                                           for j, e in zip(range(m, X.shape[1]), covariates)])
+        """``(Z, z_exp, y, y_exp)``: the integrated design divided by powers
+        of two ``2**z_exp`` (:func:`~skfunc._integrated_design.scaled_integrated_design`)
+        and y divided by ``2**y_exp``."""
+        design, z_exp = scaled_integrated_design(X, operator, self.n_covariates)
         y_exp = data_exponent(y)
         return design, z_exp, scale_down(y, y_exp), y_exp
 
     def _solve(self, stats):
-        self._fit_pooled(stats, self._basis(), self._target_ndim)
+        # K x K problems: one BLAS thread (with BLAS's threads beside it
+        # this solve took 20 times the processor time on a busy 2-core
+        # machine, 85 ms against 4 ms)
+        with single_thread_blas():
+            self._fit_pooled(stats, self._basis(), self._target_ndim)
 
     def _check_pooled(self):
         """Raise if the estimator's settings need every curve at once."""

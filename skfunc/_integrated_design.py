@@ -33,10 +33,16 @@ from sklearn.utils._param_validation import Interval
 from sklearn.utils.validation import check_is_fitted
 
 from ._bands import critical_value
-from ._blocks import chunked_matmul, output_dtype
+from ._blocks import BandedProduct, chunked_matmul, output_dtype
 from ._channels import channel_penalty, curve_weights
 from ._estimator import ShortReprMixin
-from ._penalized import NotIdentifiableError, SplitPath, data_exponent, scale_down
+from ._penalized import (
+    ZERO_EXPONENT,
+    NotIdentifiableError,
+    SplitPath,
+    data_exponent,
+    scale_down,
+)
 from ._validation import (
     BASIS_CONSTRAINTS,
     CHANNEL_N_BASIS,
@@ -67,45 +73,58 @@ def integrated_design(X, operator, n_covariates):
     return Z
 
 
-def design_exponents(X, n_basis, n_covariates):
-    """Power-of-two exponents (:func:`~skfunc._penalized.data_exponent`) of
-    the integrated design's columns for curves X: one shared by the ``n_basis``
-    columns of the curves, then one per covariate (covariates are
-    unpenalized, so scaling each is a change of units that leaves the fit
-    unchanged, and covariates in other units than the curves keep their
-    digits)."""
-    m = X.shape[1] - n_covariates
-    curves = data_exponent(X[:, :m])
-    covariates = [data_exponent(X[:, j]) for j in range(m, X.shape[1])]
-    return np.array([curves] * n_basis + covariates, dtype=np.int64)
+#: :func:`scaled_integrated_design` forms the product of the curves before
+#: scaling while the product's largest value is at least
+#: ``2**PRODUCT_FIRST_MIN_EXPONENT``: then a product term that falls below
+#: float64's normal range (``2**-1022``) is off by at most ``2**-1074``, some
+#: ``2**-170`` of the largest value, against the unit roundoff ``2**-53``
+PRODUCT_FIRST_MIN_EXPONENT = -900
 
 
 def scaled_integrated_design(X, operator, n_covariates, z_exp=None):
     """``(Z / 2**z_exp, z_exp)``: the integrated design of a block of curves
-    with each column divided by a power of two (exact), so that its cross
-    products neither overflow (X near 1e150) nor underflow (X near 1e-170).
+    (and trailing covariates) with each column divided by a power of two, so
+    that its cross products neither overflow (X near 1e150) nor underflow (X
+    near 1e-170). The one scaling rule of the models on the integrated
+    design.
 
-    ``z_exp`` defaults to the block's own :func:`design_exponents`; give the
+    ``z_exp`` defaults to the block's own exponents: one shared by the
+    curves' columns, then one per covariate (covariates are unpenalized, so
+    scaling each is a change of units that leaves the fit unchanged, and
+    covariates in other units than the curves keep their digits). Give the
     exponents of merged statistics to build rows in the units of a fit.
+
+    The curves' columns are the product of the curves as they are
+    (``operator``, ``W Phi`` or its :class:`~skfunc._blocks.BandedProduct`:
+    B-splines are nonzero on a few knot intervals each), divided afterwards
+    (n x K values, not n x m, and no copy of the curves): a power of two
+    commutes with every rounding in between unless a value overflows or
+    falls below float64's normal range. So where the product is not finite,
+    or its largest value is below ``2**`` :data:`PRODUCT_FIRST_MIN_EXPONENT`
+    (curves near 1e-270), the curves are divided first (by their own
+    exponent when ``z_exp`` is not given). A NaN or inf of X leaves its row
+    of Z non-finite (:class:`~skfunc._blocks.BandedProduct`).
     """
-    k = operator.shape[1]
-    if z_exp is None:
-        z_exp = design_exponents(X, k, n_covariates)
+    product = operator if isinstance(operator, BandedProduct) else BandedProduct(operator)
     m = X.shape[1] - n_covariates
-    # (X / 2**e) W Phi = X (W Phi / 2**e) to the last bit while the scaled
-    # operator stays in float64's normal range: no copy of the curves
-    with np.errstate(over="ignore", under="ignore"):
-        scaled = scale_down(operator, z_exp[0])
-    nonzero = operator != 0
-    if (np.all(np.isfinite(scaled))
-            and np.all(np.abs(scaled[nonzero]) >= np.finfo(np.float64).tiny)):
-        Z = integrated_design(X[:, :m], scaled, 0)
+    with np.errstate(over="ignore", invalid="ignore"):  # checked below
+        design = product(X[:, :m])
+        top = np.maximum(-design.min(), design.max()) if design.size else 0.0
+    if np.isfinite(top) and top >= np.ldexp(1.0, PRODUCT_FIRST_MIN_EXPONENT):
+        curves = int(np.frexp(top)[1]) if z_exp is None else int(z_exp[0])
+        if curves != ZERO_EXPONENT:  # (as scale_down, in place: exact)
+            np.ldexp(design, -curves, out=design)
     else:
-        Z = integrated_design(scale_down(X[:, :m], z_exp[0]), operator, 0)
+        curves = data_exponent(X[:, :m]) if z_exp is None else int(z_exp[0])
+        design = product(scale_down(X[:, :m], curves))
+    if z_exp is None:
+        covariates = [data_exponent(X[:, j]) for j in range(m, X.shape[1])]
+        z_exp = np.array([curves] * product.shape[1] + covariates, dtype=np.int64)
     if n_covariates:
-        Z = np.hstack([Z] + [scale_down(X[:, j:j + 1], e)
-                             for j, e in zip(range(m, X.shape[1]), z_exp[k:])])
-    return Z, z_exp
+        design = np.hstack([design] + [
+            scale_down(X[:, j:j + 1], e)
+            for j, e in zip(range(m, X.shape[1]), z_exp[product.shape[1]:])])
+    return design, z_exp
 
 
 class IntegratedDesignMixin(ShortReprMixin):

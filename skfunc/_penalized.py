@@ -132,18 +132,34 @@ def centered_cross_products(Z, y, sample_weight=None):
     :func:`centered` need not subtract ``sw m m'`` from raw sums, which loses
     digits when the means are large against the spread (curves near 1200 °C
     varying by tens of degrees, say).
+
+    The raw cross products are those about the means plus ``sw m m'``
+    (the same sums up to rounding, each term nonnegative on the diagonal):
+    one product of the design with itself instead of two.
     """
-    stats = cross_products(Z, y, sample_weight)
     Z = np.asarray(Z, dtype=np.float64)
     y2 = np.asarray(y, dtype=np.float64).reshape(Z.shape[0], -1)
-    w = np.ones(Z.shape[0]) if sample_weight is None else np.asarray(
-        sample_weight, dtype=np.float64)
-    sw = stats["sw"]
-    Zc = Z - (stats["z_sum"] / sw if sw > 0 else 0.0)
-    yc = y2 - (stats["y_sum"] / sw if sw > 0 else 0.0)
-    Zcw = Zc if sample_weight is None else Zc * w[:, None]
-    stats.update(czz=Zcw.T @ Zc, czy=Zcw.T @ yc, cyy=np.einsum("i,ij,ij->j", w, yc, yc))
-    return stats
+    n = Z.shape[0]
+    if sample_weight is None:
+        w, sw = None, float(n)
+        z_sum, y_sum = Z.sum(axis=0), y2.sum(axis=0)
+    else:
+        w = np.asarray(sample_weight, dtype=np.float64)
+        sw = float(w.sum())
+        z_sum, y_sum = w @ Z, w @ y2
+    z_mean = z_sum / sw if sw > 0 else np.zeros_like(z_sum)
+    y_mean = y_sum / sw if sw > 0 else np.zeros_like(y_sum)
+    Zc, yc = Z - z_mean, y2 - y_mean
+    Zcw = Zc if w is None else Zc * w[:, None]
+    czz, czy = Zcw.T @ Zc, Zcw.T @ yc
+    cyy = np.einsum("ij,ij->j", yc, yc) if w is None else np.einsum("i,ij,ij->j", w, yc, yc)
+    return {
+        "n": n, "sw": sw, "z_sum": z_sum, "y_sum": y_sum,
+        "zz": czz + sw * np.outer(z_mean, z_mean),
+        "zy": czy + sw * np.outer(z_mean, y_mean),
+        "yy": cyy + sw * y_mean**2,
+        "czz": czz, "czy": czy, "cyy": cyy,
+    }
 
 
 #: keys of :func:`centered_cross_products` that are not plain sums
@@ -430,13 +446,15 @@ def rescaled(stats, x_exp, y_exp):
         if key not in SCALE_POWERS:
             raise KeyError(f"the statistic {key!r} has no declared scale (SCALE_POWERS)")
         p, q = SCALE_POWERS[key]
-        if dx.ndim == 0 or p == 0:
+        if p == 0:  # of y only: per-column x exponents must not broadcast it
+            shift = 0
+        elif dx.ndim == 0:
             shift = p * dx
         elif p == 2:
             shift = dx[:, None] + dx[None, :]
         else:  # one design index: the first axis of a matrix, the only of a vector
             shift = dx if np.ndim(value) == 1 else dx[:, None]
-        out[key] = np.ldexp(value, (shift + q * dy).astype(np.int64))
+        out[key] = np.ldexp(value, np.asarray(shift + q * dy, dtype=np.int64))
     return out
 
 

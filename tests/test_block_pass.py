@@ -156,6 +156,31 @@ def test_threads_follow_an_outer_blas_limit(monkeypatch):
     assert seen == [1]
 
 
+@pytest.mark.skipif(max((i["num_threads"] for i in threadpool_info()
+                         if i["user_api"] == "blas"), default=1) < 2,
+                    reason="BLAS runs one thread here")
+@pytest.mark.parametrize("n_threads, expected", [(1, "blas"), (2, 1)])
+def test_final_solve_runs_at_one_blas_thread_beside_block_threads(monkeypatch, n_threads,
+                                                                  expected):
+    # The solve after the last batch is a small problem: beside the block
+    # threads it runs with BLAS at one thread (threadpoolctl's report), as
+    # the blocks do; with n_threads=1 BLAS keeps its own threads.
+    before = max(i["num_threads"] for i in threadpool_info() if i["user_api"] == "blas")
+    seen = []
+    original = FunctionalRidge._solve_statistics
+
+    def spy(self):
+        seen.append(max(i["num_threads"] for i in threadpool_info()
+                        if i["user_api"] == "blas"))
+        return original(self)
+
+    monkeypatch.setattr(FunctionalRidge, "_solve_statistics", spy)
+    X = np.random.default_rng(0).standard_normal((60, 30)).cumsum(axis=1)
+    partial_fit_batches(FunctionalRidge(alpha=1.0), X, X[:, 3], batch_size=20,
+                        n_threads=n_threads)
+    assert seen == [before if expected == "blas" else expected]
+
+
 def test_fold_rows_are_those_of_the_mask():
     # Consecutive positions take every tenth row as a view; any other
     # positions fall back to masks. Both must select the rows of each fold.

@@ -283,14 +283,17 @@ def test_too_few_curves_for_the_unpenalized_part(rng):
         FunctionalRidge(alpha=1.0).fit(X, y)
 
 
-@pytest.mark.parametrize("size, spacing", [(1e150, 0.025), (1e-300, 2.5e9)])
-def test_scaled_integrated_design_equals_numpy(rng, size, spacing):
-    # The design of X / 2**e (numpy's ldexp and matmul): at X near 1e150 the
-    # operator is divided instead of the curves (the same numbers: a power
-    # of two commutes with every product), at X near 1e-300 on a grid of
-    # spacing 2.5e9 the divided operator would overflow, so the curves are
-    # divided. A design of the raw curves is off by 2**e; one with the
-    # covariate scaled by the curves' exponent is off in its last column.
+@pytest.mark.parametrize("size, spacing, first", [(1e150, 0.025, "product"),
+                                                  (1e-300, 2.5e9, "curves")])
+def test_scaled_integrated_design_equals_numpy(rng, size, spacing, first):
+    # The design divided by powers of two (numpy's frexp, ldexp and matmul).
+    # At X near 1e150 the product X W Phi is formed first and divided by its
+    # own exponent (a power of two commutes with every product); at X near
+    # 1e-300 on a grid of spacing 2.5e9 the product falls below 2**-900, so
+    # the curves are divided first, by their own exponent. A design of the
+    # raw curves is off by 2**e; one with the covariate scaled by the
+    # curves' exponent is off in its last column. Given exponents (those of
+    # merged statistics) divide by exactly those.
     from skfunc._integrated_design import scaled_integrated_design
 
     grid = np.arange(41) * spacing
@@ -299,9 +302,18 @@ def test_scaled_integrated_design_equals_numpy(rng, size, spacing):
         rng.normal(size=(30, 42)), rng.normal(size=30))  # (for its operator)
     operator = model._integration_operator(model._basis())
     Z, z_exp = scaled_integrated_design(X, operator, 1)
-    e, c = np.frexp(np.abs(X[:, :41]).max())[1], np.frexp(np.abs(X[:, 41]).max())[1]
+    product = X[:, :41] @ operator
+    assert (np.abs(product).max() >= 2.0**-900) == (first == "product")
+    e = np.frexp(np.abs(product if first == "product" else X[:, :41]).max())[1]
+    c = np.frexp(np.abs(X[:, 41]).max())[1]
     np.testing.assert_array_equal(z_exp, [e] * 8 + [c])
     expected = np.hstack([np.ldexp(X[:, :41], -e) @ operator, np.ldexp(X[:, 41:], -c)])
+    np.testing.assert_allclose(Z, expected, rtol=1e-13, atol=0)
+    given = z_exp + np.array([3] * 8 + [-2])
+    Z, z_given = scaled_integrated_design(X, operator, 1, given)
+    np.testing.assert_array_equal(z_given, given)
+    expected = np.hstack([np.ldexp(X[:, :41], -e - 3) @ operator,
+                          np.ldexp(X[:, 41:], -c + 2)])
     np.testing.assert_allclose(Z, expected, rtol=1e-13, atol=0)
 
 

@@ -6,6 +6,7 @@ from skfunc._penalized import (
     NotIdentifiableError,
     SplitPath,
     centered,
+    centered_cross_products,
     cross_products,
     engine_alpha,
     gcv_score,
@@ -46,6 +47,61 @@ def test_statistics_are_sums(rng):
     yc = y - y_mean
     np.testing.assert_allclose(yy, (w[:, None] * yc**2).sum(axis=0), rtol=1e-10)
     np.testing.assert_allclose(zy, (Z - z_mean).T @ (w[:, None] * yc), rtol=1e-10)
+
+
+@pytest.mark.parametrize("weighted", [False, True])
+def test_centered_statistics_are_sums(rng, weighted):
+    # Reference: numpy sums Z'WZ, Z'Wy, y'Wy (raw) and the same about the
+    # weighted means (numpy.average), on data with a mean 1000 times the
+    # spread (where raw sums minus sw m m' lose about 6 digits); merged over
+    # chunks exactly as on all rows (Chan, Golub and LeVeque, 1979).
+    Z = 1000 + rng.normal(size=(30, 4))
+    y = 50 + rng.normal(size=(30, 2))
+    w = rng.uniform(0.5, 2, 30) if weighted else None
+    v = np.ones(30) if w is None else w
+    whole = centered_cross_products(Z, y, w)
+    zm, ym = np.average(Z, axis=0, weights=v), np.average(y, axis=0, weights=v)
+    Zc, yc = Z - zm, y - ym
+    expected = {
+        "n": 30, "sw": v.sum(), "z_sum": v @ Z, "y_sum": v @ y,
+        "zz": Z.T @ (v[:, None] * Z), "zy": Z.T @ (v[:, None] * y),
+        "yy": v @ (y * y), "czz": Zc.T @ (v[:, None] * Zc),
+        "czy": Zc.T @ (v[:, None] * yc), "cyy": v @ (yc * yc),
+    }
+    assert set(whole) == set(expected)
+    for key, value in expected.items():
+        np.testing.assert_allclose(whole[key], value, rtol=1e-12, err_msg=key)
+    parts = merge(centered_cross_products(Z[:11], y[:11], None if w is None else w[:11]),
+                  centered_cross_products(Z[11:], y[11:], None if w is None else w[11:]))
+    for key, value in expected.items():
+        np.testing.assert_allclose(parts[key], value, rtol=1e-10, err_msg=key)
+
+
+def test_merge_with_per_column_exponents_keeps_the_response_sums(rng):
+    # Blocks whose design columns carry different power-of-two exponents
+    # (x_exp per column, as the integrated design's) merge to the sums of
+    # all rows: numpy's Z'Z, Z'y and y'y of the unscaled data, with y's sums
+    # keeping one value per target (a per-column exponent must not
+    # broadcast them to one per design column).
+    Z = rng.normal(size=(40, 5))
+    Z[20:, 3] *= 1e6  # the second block's fourth column in another binade
+    y = rng.normal(size=(40, 2))
+    blocks = []
+    for rows in (slice(0, 20), slice(20, 40)):
+        e = np.array([np.frexp(np.abs(Z[rows, j]).max())[1] for j in range(5)])
+        stats = centered_cross_products(np.ldexp(Z[rows], -e), y[rows])
+        stats.update(x_exp=e, y_exp=0)
+        blocks.append(stats)
+    assert np.any(blocks[0]["x_exp"] != blocks[1]["x_exp"])
+    merged = merge(*blocks)
+    e = merged["x_exp"]
+    for key in ("y_sum", "yy", "cyy"):
+        assert merged[key].shape == (2,), key
+    np.testing.assert_allclose(merged["yy"], (y * y).sum(axis=0), rtol=1e-12)
+    np.testing.assert_allclose(merged["y_sum"], y.sum(axis=0), rtol=1e-12)
+    np.testing.assert_allclose(np.ldexp(merged["zz"], e[:, None] + e[None, :]), Z.T @ Z,
+                               rtol=1e-12)
+    np.testing.assert_allclose(np.ldexp(merged["zy"], e[:, None]), Z.T @ y, rtol=1e-12)
 
 
 # -- the split engine -------------------------------------------------------

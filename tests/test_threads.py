@@ -21,6 +21,7 @@ from threadpoolctl import threadpool_info, threadpool_limits
 
 from skfunc import BasisFeatures
 from skfunc._blocks import compute_statistics
+from skfunc.linear_model import FunctionalRidge, FunctionalRidgeCV
 
 
 def blas_threads():
@@ -65,6 +66,26 @@ def test_outer_limits_are_kept():
         assert compute_statistics(probe, X, merge=most) == {"threads": 1, "n": 300}
         BasisFeatures().fit(X).transform(X)
         assert blas_threads() == 1
+
+
+@needs_threads
+@pytest.mark.parametrize("cls", [FunctionalRidge, FunctionalRidgeCV])
+def test_ridge_solve_runs_at_one_blas_thread(monkeypatch, cls):
+    # The solve from pooled statistics is a K x K problem: BLAS at one
+    # thread there (threadpoolctl's report), its own threads again after.
+    seen = []
+    original = cls._fit_pooled
+
+    def spy(self, *args):
+        seen.append(blas_threads())
+        return original(self, *args)
+
+    monkeypatch.setattr(cls, "_fit_pooled", spy)
+    before = blas_threads()
+    X = np.random.default_rng(0).standard_normal((40, 30)).cumsum(axis=1)
+    cls().fit(X, X[:, 3])
+    assert seen == [1]
+    assert blas_threads() == before
 
 
 @pytest.mark.slow  # a grid search in worker processes
