@@ -119,6 +119,12 @@ NOISE_FLOOR = np.sqrt(np.finfo(float).eps)
 #: and far below the statistical error otherwise
 _NOISE_NODES = 64
 
+
+@functools.lru_cache(maxsize=1)
+def _noise_rule():
+    """Gauss-Legendre nodes and weights on [-1, 1] (computed once: 1 ms)."""
+    return np.polynomial.legendre.leggauss(_NOISE_NODES)
+
 #: fraction of observed cells above which the covariance sums use dense
 #: products (BLAS) instead of sparse ones; both give the same sums
 _DENSE_FRACTION = 0.1
@@ -191,13 +197,7 @@ class _CurveFoldFit:
                 grams = np.einsum("ka,fkl,lb->fab", basis, grams, basis, optimize=True)
                 total = grams.sum(axis=0)
             self._fold_grams = grams
-            self._folds = []
-            for gram in grams:
-                try:
-                    fold = SplitPath(total - gram, penalty, scale=self.path.scale)
-                except NotIdentifiableError:
-                    fold = None
-                self._folds.append(fold)
+            self._folds = SplitPath.stack(total - grams, penalty, self.path.scale)
         return self._folds
 
     def solve(self, rhs, yy, alpha):
@@ -1175,7 +1175,7 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         if self.noise_variance != "auto":
             return float(self.noise_variance)
         a, b = domain
-        nodes, weights = np.polynomial.legendre.leggauss(_NOISE_NODES)
+        nodes, weights = _noise_rule()
         t = (a + b) / 2 + (b - a) / 4 * nodes  # the middle half [a + L/4, b - L/4]
         w = weights * (b - a) / 4
         pointwise = basis.evaluate(t) @ variance_coef
