@@ -457,11 +457,13 @@ _SPARSE_FRACTION = 0.25
 
 
 def _residual_rows(X, mean, scale):
-    """A block of curves as the E-step reads it: ``(O, R, rr, n_obs)``, the
-    indicator of the observed values and the residuals ``(y - mu) / scale``
-    (0 where not observed), sparse rows (CSR) where at most
-    :data:`_SPARSE_FRACTION` of the block is observed, else dense; each
-    curve's sum of squared residuals and number of observed values."""
+    """A block of curves as the E-step reads it: ``(O, R, O', R', rr,
+    n_obs)``, the indicator of the observed values and the residuals ``(y -
+    mu) / scale`` (0 where not observed), sparse rows (CSR) where at most
+    :data:`_SPARSE_FRACTION` of the block is observed, else dense, and their
+    transposes (a sparse transpose is an object that costs 0.2 ms to form:
+    formed once for all EM steps); each curve's sum of squared residuals and
+    number of observed values."""
     X = np.asarray(X, dtype=np.float64)
     observed = ~np.isnan(X)
     n_obs = observed.sum(axis=1)
@@ -476,7 +478,7 @@ def _residual_rows(X, mean, scale):
         O = scipy.sparse.csr_matrix((np.ones_like(resid), cols, indptr), shape=X.shape)
         R = scipy.sparse.csr_matrix((resid, cols, indptr), shape=X.shape)
         rr = np.bincount(rows, resid * resid, minlength=X.shape[0])
-    return O, R, rr, n_obs
+    return O, R, O.T, R.T, rr, n_obs
 
 
 class _EStep:
@@ -504,7 +506,7 @@ class _EStep:
     def __call__(self, X):
         return self.on_rows(*_residual_rows(X, self.mean, self.scale))
 
-    def on_rows(self, O, R, rr, n_obs):
+    def on_rows(self, O, R, Ot, Rt, rr, n_obs):
         A, s2 = self.loadings, self.noise
         k = A.shape[1]
         pairs = (A[:, :, None] * A[:, None, :]).reshape(-1, k * k)
@@ -518,8 +520,8 @@ class _EStep:
         log_det = n_obs * np.log(s2) + 2 * np.log(np.diagonal(chol, axis1=1, axis2=2)).sum(1)
         quad = rr / s2 - np.einsum("na,na->n", b, ez)
         return {
-            "ezz": np.asarray(O.T @ ezz.reshape(-1, k * k)),
-            "rez": np.asarray(R.T @ ez),
+            "ezz": np.asarray(Ot @ ezz.reshape(-1, k * k)),
+            "rez": np.asarray(Rt @ ez),
             "rr": float(rr.sum()),
             "loglik": float(-0.5 * np.sum(log_det + quad + n_obs * np.log(2 * np.pi))),
         }
