@@ -49,7 +49,8 @@ class NotIdentifiableError(ValueError):
 
 
 def _symmetric(a):
-    return (a + a.T) / 2
+    """The symmetric part of a matrix, or of each matrix of a stack."""
+    return (a + np.swapaxes(a, -1, -2)) / 2
 
 
 def gcv_score(rss, edf, n_obs, total_weight=None):
@@ -503,15 +504,62 @@ def _unseen_null_space(F, abs_t, abs_gram):
     beside a design in the grid's units): a diagonal entry at the rounding
     level of its own column (``|T_N|' |G| |T_N|``, the size of the terms
     summed into it), or the smallest eigenvalue of ``F`` scaled to a unit
-    diagonal at rounding level (collinear columns)."""
-    r = F.shape[0]
-    d = np.diag(F)
-    noise = np.einsum("ij,ik,kj->j", abs_t, abs_gram, abs_t)
-    if np.any(d <= _RCOND * 1e-3 * r * noise):
-        return True
-    root = np.sqrt(d)
-    lam = np.linalg.eigvalsh(F / np.outer(root, root))
-    return bool(lam[0] <= _RCOND * r * lam[-1])
+    diagonal at rounding level (collinear columns). ``F`` and ``abs_gram``
+    may be stacks (..., r, r) and (..., K, K): one answer per matrix."""
+    r = F.shape[-1]
+    d = np.diagonal(F, axis1=-2, axis2=-1)
+    noise = np.einsum("ij,...ik,kj->...j", abs_t, abs_gram, abs_t)
+    low = np.any(d <= _RCOND * 1e-3 * r * noise, axis=-1)
+    root = np.sqrt(np.where(low[..., None], 1.0, d))
+    lam = np.linalg.eigvalsh(F / (root[..., :, None] * root[..., None, :]))
+    return low | (lam[..., 0] <= _RCOND * r * lam[..., -1])
+
+
+def _split(grams, penalty):
+    """The simultaneous diagonalisation of :class:`SplitPath` for each matrix
+    of a stack ``grams`` (n, K, K), in one stacked call per step (a batched
+    eigensolve instead of n).
+
+    Returns ``(eigvecs, g, seen)``: ``U`` (n, K, K), the diagonals ``g`` (n,
+    K) of ``U' G U``, and whether each matrix determines the penalty's null
+    space (where it does not, its ``U`` and ``g`` are meaningless).
+    """
+    r = penalty.n_null
+    T = penalty.transform
+    Gt = _symmetric(T.T @ grams @ T)
+    F, C, R = Gt[:, :r, :r], Gt[:, :r, r:], Gt[:, r:, r:]
+    if r:
+        seen = ~_unseen_null_space(F, np.abs(T[:, :r]), np.abs(grams))
+        # (unseen ones get the identity, so that one factorisation runs on all)
+        lower = np.linalg.cholesky(np.where(seen[:, None, None], F, np.eye(r)))
+        W = np.linalg.solve(lower, C)  # L^{-1} F_NC
+        S = _symmetric(R - np.swapaxes(W, -1, -2) @ W)
+        T_n = np.broadcast_to(T[:, :r].T, (grams.shape[0],) + T[:, :r].T.shape)
+        A_n = np.swapaxes(np.linalg.solve(lower, T_n), -1, -2)  # T_N L^{-T}
+    else:
+        seen = np.ones(grams.shape[0], dtype=bool)
+        W = np.zeros((grams.shape[0], 0, R.shape[-1]))
+        S, A_n = R, np.zeros((grams.shape[0], T.shape[0], 0))
+    s, V = np.linalg.eigh(S)
+    s = np.clip(s, 0.0, None)
+    # rounding in S = R - W'W is relative to the penalized block R, not
+    # to the null-space block (an intercept of weight sum w, say), whose
+    # size says nothing about it: directions below that are unseen
+    top_c = np.maximum(np.abs(np.diagonal(R, axis1=-2, axis2=-1)).max(axis=-1, initial=0.0),
+                       np.finfo(float).tiny)
+    top = np.maximum(s.max(axis=-1, initial=0.0), top_c) * max(s.shape[-1], 1)
+    s[s <= 1e-13 * top[:, None]] = 0.0
+    E = (T[:, r:] - A_n @ W) @ V
+    g = np.concatenate([np.ones((grams.shape[0], r)), s], axis=-1)
+    return np.concatenate([A_n, E], axis=-1), g, seen
+
+
+def _check_finite(gram):
+    if not np.all(np.isfinite(gram)):
+        raise ValueError(
+            "The data's cross products are not finite (overflow or NaN); "
+            "rescale the data (power_of_two_scale) before forming them."
+        )
 
 
 class SplitPath:
@@ -558,45 +606,43 @@ class SplitPath:
 
     def __init__(self, gram, penalty, scale=None):
         gram = _symmetric(np.asarray(gram, dtype=np.float64))
-        if not np.all(np.isfinite(gram)):
-            raise ValueError(
-                "The data's cross products are not finite (overflow or NaN); "
-                "rescale the data (power_of_two_scale) before forming them."
-            )
+        _check_finite(gram)
         if scale is None:
             scale = penalty_scale(gram, penalty)
-        self.scale = float(scale)
-        r = self.n_null = penalty.n_null
-        T = penalty.transform
-        Gt = _symmetric(T.T @ gram @ T)
-        F, C, R = Gt[:r, :r], Gt[:r, r:], Gt[r:, r:]
-        if r:
-            if _unseen_null_space(F, np.abs(T[:, :r]), np.abs(gram)):
-                raise NotIdentifiableError(
-                    "The data do not determine the functions the roughness "
-                    "penalty leaves free (for example a straight line needs "
-                    "two distinct observed points): no alpha can fix that. "
-                    "Use a lower penalty_order, more observations, or remove "
-                    "rows with too few observed values."
-                )
-            lower = np.linalg.cholesky(F)
-            W = np.linalg.solve(lower, C)  # L^{-1} F_NC
-            S = _symmetric(R - W.T @ W)
-            A_n = np.linalg.solve(lower, T[:, :r].T).T  # T_N L^{-T}
-        else:
-            W = np.zeros((0, R.shape[0]))
-            S, A_n = R, np.zeros((T.shape[0], 0))
-        s, V = np.linalg.eigh(S)
-        s = np.clip(s, 0.0, None)
-        # rounding in S = R - W'W is relative to the penalized block R, not
-        # to the null-space block (an intercept of weight sum w, say), whose
-        # size says nothing about it: directions below that are unseen
-        top_c = max(np.abs(np.diag(R)).max(initial=0.0), np.finfo(float).tiny)
-        s[s <= 1e-13 * max(s.max(initial=0.0), top_c) * max(s.size, 1)] = 0.0
-        E = (T[:, r:] - A_n @ W) @ V
-        self.eigvecs = np.column_stack([A_n, E])
-        self.g = np.concatenate([np.ones(r), s])
-        self.p = np.concatenate([np.zeros(r), np.ones(s.size)])
+        (eigvecs,), (g,), (seen,) = _split(gram[None], penalty)
+        if not seen:
+            raise NotIdentifiableError(
+                "The data do not determine the functions the roughness "
+                "penalty leaves free (for example a straight line needs "
+                "two distinct observed points): no alpha can fix that. "
+                "Use a lower penalty_order, more observations, or remove "
+                "rows with too few observed values."
+            )
+        self._set(eigvecs, g, penalty.n_null, scale)
+
+    def _set(self, eigvecs, g, n_null, scale):
+        self.scale, self.n_null = float(scale), n_null
+        self.eigvecs, self.g = eigvecs, g
+        self.p = np.concatenate([np.zeros(n_null), np.ones(g.size - n_null)])
+
+    @classmethod
+    def stack(cls, grams, penalty, scale):
+        """One path per matrix of the stack ``grams`` (n, K, K), all with the
+        one ``scale`` (one meaning of alpha: the folds of a cross-validation,
+        say), None where a matrix does not determine the penalty's null
+        space (where ``SplitPath`` raises :class:`NotIdentifiableError`).
+        The decompositions run as stacked calls: the same steps as ``n``
+        constructions, at the fixed cost of one."""
+        grams = _symmetric(np.asarray(grams, dtype=np.float64))
+        _check_finite(grams)
+        out = []
+        for eigvecs, g, seen in zip(*_split(grams, penalty), strict=True):
+            path = None
+            if seen:
+                path = cls.__new__(cls)
+                path._set(eigvecs, g, penalty.n_null, scale)
+            out.append(path)
+        return out
 
     @property
     def s(self):

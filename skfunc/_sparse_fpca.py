@@ -86,6 +86,7 @@ from ._penalized import (
     Penalty,
     SplitPath,
     data_exponent,
+    merge,
     penalty_for,
     penalty_scale,
 )
@@ -117,6 +118,12 @@ NOISE_FLOOR = np.sqrt(np.finfo(float).eps)
 #: of the domain: exact for the cubic-spline integrand on up to 30 knot spans,
 #: and far below the statistical error otherwise
 _NOISE_NODES = 64
+
+
+@functools.lru_cache(maxsize=1)
+def _noise_rule():
+    """Gauss-Legendre nodes and weights on [-1, 1] (computed once: 1 ms)."""
+    return np.polynomial.legendre.leggauss(_NOISE_NODES)
 
 #: fraction of observed cells above which the covariance sums use dense
 #: products (BLAS) instead of sparse ones; both give the same sums
@@ -190,13 +197,7 @@ class _CurveFoldFit:
                 grams = np.einsum("ka,fkl,lb->fab", basis, grams, basis, optimize=True)
                 total = grams.sum(axis=0)
             self._fold_grams = grams
-            self._folds = []
-            for gram in grams:
-                try:
-                    fold = SplitPath(total - gram, penalty, scale=self.path.scale)
-                except NotIdentifiableError:
-                    fold = None
-                self._folds.append(fold)
+            self._folds = SplitPath.stack(total - grams, penalty, self.path.scale)
         return self._folds
 
     def solve(self, rhs, yy, alpha):
@@ -448,6 +449,38 @@ def _merge_exponents(*stats):
     return {"exponent": max(s["exponent"] for s in stats)}
 
 
+#: observed fraction of X up to which the likelihood refinement keeps the
+#: residuals as sparse rows (:func:`_residual_rows`, 20 bytes per observed
+#: value: at most 0.625 of X's float64 values) for all its EM steps, rather
+#: than reading X again at each step
+_SPARSE_FRACTION = 0.25
+
+
+def _residual_rows(X, mean, scale):
+    """A block of curves as the E-step reads it: ``(O, R, O', R', rr,
+    n_obs)``, the indicator of the observed values and the residuals ``(y -
+    mu) / scale`` (0 where not observed), sparse rows (CSR) where at most
+    :data:`_SPARSE_FRACTION` of the block is observed, else dense, and their
+    transposes (a sparse transpose is an object that costs 0.2 ms to form:
+    formed once for all EM steps); each curve's sum of squared residuals and
+    number of observed values."""
+    X = np.asarray(X, dtype=np.float64)
+    observed = ~np.isnan(X)
+    n_obs = observed.sum(axis=1)
+    if n_obs.sum() > _SPARSE_FRACTION * X.size:
+        resid = np.where(observed, X - mean, 0.0) / scale
+        O, R = observed.astype(np.float64), resid
+        rr = np.einsum("nj,nj->n", resid, resid)
+    else:
+        rows, cols = np.nonzero(observed)
+        resid = (X[rows, cols] - mean[cols]) / scale
+        indptr = np.concatenate([[0], np.cumsum(n_obs)])
+        O = scipy.sparse.csr_matrix((np.ones_like(resid), cols, indptr), shape=X.shape)
+        R = scipy.sparse.csr_matrix((resid, cols, indptr), shape=X.shape)
+        rr = np.bincount(rows, resid * resid, minlength=X.shape[0])
+    return O, R, O.T, R.T, rr, n_obs
+
+
 class _EStep:
     """The E-step of the reduced-rank model over a block of curves.
 
@@ -461,48 +494,37 @@ class _EStep:
     ``r^2``; and the log-likelihood of the block under the current
     parameters (``log det Sigma_i = n_i log sigma^2 + log det M_i``,
     ``r' Sigma_i^{-1} r = r'r / sigma^2 - b' M^{-1} b``, Woodbury).
-    Additive over rows; picklable (arrays and floats only).
+    Additive over rows; picklable (arrays and floats only). Called on a
+    block of X, or (:meth:`on_rows`) on its :func:`_residual_rows`, which
+    the refinement keeps for every step when X is sparse: a step then costs
+    time in the observed values, not in the size of X.
     """
 
     def __init__(self, mean, loadings, noise, scale):
         self.mean, self.loadings, self.noise, self.scale = mean, loadings, noise, scale
 
     def __call__(self, X):
-        X = np.asarray(X, dtype=np.float64)
+        return self.on_rows(*_residual_rows(X, self.mean, self.scale))
+
+    def on_rows(self, O, R, Ot, Rt, rr, n_obs):
         A, s2 = self.loadings, self.noise
         k = A.shape[1]
-        missing = np.isnan(X)
-        observed = (~missing).astype(np.float64)
-        resid = (X - self.mean) / self.scale
-        resid[missing] = 0.0
         pairs = (A[:, :, None] * A[:, None, :]).reshape(-1, k * k)
-        system = (observed @ pairs).reshape(-1, k, k) / s2
+        system = np.asarray(O @ pairs).reshape(-1, k, k) / s2
         system[:, np.arange(k), np.arange(k)] += 1.0
-        b = resid @ A / s2
+        b = np.asarray(R @ A) / s2
         chol = np.linalg.cholesky(system)
         inverse = np.linalg.inv(system)
         ez = np.einsum("nab,nb->na", inverse, b)
         ezz = inverse + ez[:, :, None] * ez[:, None, :]
-        rr = np.einsum("nj,nj->n", resid, resid)
-        n_obs = observed.sum(axis=1)
         log_det = n_obs * np.log(s2) + 2 * np.log(np.diagonal(chol, axis1=1, axis2=2)).sum(1)
         quad = rr / s2 - np.einsum("na,na->n", b, ez)
         return {
-            "ezz": observed.T @ ezz.reshape(-1, k * k),
-            "rez": resid.T @ ez,
+            "ezz": np.asarray(Ot @ ezz.reshape(-1, k * k)),
+            "rez": np.asarray(Rt @ ez),
             "rr": float(rr.sum()),
             "loglik": float(-0.5 * np.sum(log_det + quad + n_obs * np.log(2 * np.pi))),
         }
-
-
-class _LogLikelihood:
-    """Only the log-likelihood of an :class:`_EStep` (additive; picklable)."""
-
-    def __init__(self, step):
-        self.step = step
-
-    def __call__(self, X):
-        return {"loglik": self.step(X)["loglik"]}
 
 
 @fill_doc
@@ -858,17 +880,16 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         mean_square = self._mean_square
         floor = NOISE_FLOOR * max(mean_square, np.finfo(float).tiny)
         noise = max(self.noise_variance_ / scale**2, floor)
-        if is_dask_array(X):  # read at every step: computed once, kept on the workers
-            X = X.persist()
+        e_step = self._e_step_runner(X)
+        # the M-step's data term per pair of loadings (a, b): sum_c ezz[c, a, b]
+        # psi_c psi_c', one product for all pairs
+        psi_pairs = (psi[:, :, None] * psi[:, None, :]).reshape(psi.shape[0], -1)
         previous, converged = None, False
         for n_iter in range(1, self.max_iter + 1):  # noqa: B007  (n_iter_)
-            stats = compute_statistics(_EStep(self.mean_, psi @ gamma, noise, scale), X)
+            stats = e_step(_EStep(self.mean_, psi @ gamma, noise, scale))
             ezz, rez = stats["ezz"].reshape(-1, k, k), stats["rez"]
-            hessian = rough.copy()
-            for a in range(k):
-                for b in range(k):
-                    hessian[a * n_basis:(a + 1) * n_basis, b * n_basis:(b + 1) * n_basis] += (
-                        psi.T @ (ezz[:, a, b, None] * psi))
+            data_term = (stats["ezz"].T @ psi_pairs).reshape(k, k, n_basis, n_basis)
+            hessian = rough + data_term.transpose(0, 2, 1, 3).reshape(k * n_basis, -1)
             gamma = np.linalg.solve(hessian, (psi.T @ rez).T.ravel()).reshape(k, n_basis).T
             if not fixed_noise:
                 A = psi @ gamma
@@ -881,8 +902,7 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
             if converged:
                 break
         # the log-likelihood at the fitted parameters: one more E-step pass
-        final = _EStep(self.mean_, psi @ gamma, noise, scale)
-        loglik = compute_statistics(_LogLikelihood(final), X)["loglik"]
+        loglik = e_step(_EStep(self.mean_, psi @ gamma, noise, scale))["loglik"]
         if not converged:
             warnings.warn(
                 f"SparseFunctionalPCA: the likelihood refinement did not converge in "
@@ -908,6 +928,20 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         # the log-likelihood in the units of X (the density of y = scale r)
         self.log_likelihood_ = float(loglik - n_obs * np.log(scale))
         self.n_iter_ = int(n_iter)
+
+    def _e_step_runner(self, X):
+        """``run(step)``: the merged statistics of an :class:`_EStep` over
+        the rows of X. Sparse numpy X is read once: its residuals are kept
+        as sparse rows (:func:`_residual_rows`) for every step; dense X is
+        read at each step, and a dask array where its blocks are (persisted
+        first, computed once)."""
+        if is_dask_array(X):
+            X = X.persist()
+        elif np.count_nonzero(~np.isnan(X)) <= _SPARSE_FRACTION * X.size:
+            kept = [_residual_rows(X[rows], self.mean_, self._value_scale)
+                    for rows in row_blocks(*X.shape)]
+            return lambda step: merge(*(step.on_rows(*rows) for rows in kept))
+        return lambda step: compute_statistics(step, X)
 
     def _forget(self):
         super()._forget()
@@ -1143,7 +1177,7 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         if self.noise_variance != "auto":
             return float(self.noise_variance)
         a, b = domain
-        nodes, weights = np.polynomial.legendre.leggauss(_NOISE_NODES)
+        nodes, weights = _noise_rule()
         t = (a + b) / 2 + (b - a) / 4 * nodes  # the middle half [a + L/4, b - L/4]
         w = weights * (b - a) / 4
         pointwise = basis.evaluate(t) @ variance_coef

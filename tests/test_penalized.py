@@ -304,3 +304,61 @@ def test_directions_the_data_do_not_see_get_no_coefficient(rng):
         coef = path.coef(path.rotate(rhs), 1e-12)
         np.testing.assert_allclose(Z @ coef, y, atol=1e-6)
         np.testing.assert_allclose(coef, expected, rtol=1e-5, atol=1e-5)
+
+
+def test_stacked_paths_match_scipy_generalized_eigensolver_fold_by_fold(rng):
+    # The folds of a cross-validation over curves: the data without each of
+    # 10 groups of rows, one path per fold from one stacked decomposition.
+    # Reference, fold by fold: scipy.linalg.eigh(P, G), the generalized
+    # symmetric eigensolver (P v = w G v, V'GV = I, V'PV = diag(w)); the
+    # path's U'GU = diag(g), U'PU = diag(p) give the same problem's
+    # eigenvalues p / g (0 on the penalty's null space, 1 / s elsewhere),
+    # and (G + lam P)^{-1} = V diag(1 / (1 + lam w)) V' (common practice).
+    import scipy.linalg
+
+    basis = BSplineBasis((0.0, 1.0), 12)
+    pen = penalty_for(basis, 2)
+    # a smoother's design: the B-splines at 300 random times, weighted
+    Z = basis.evaluate(rng.uniform(0, 1, 300)) * rng.uniform(0.5, 2.0, size=(300, 1))
+    folds = np.arange(Z.shape[0]) % 10
+    total = Z.T @ Z
+    grams = np.array([total - Z[folds == f].T @ Z[folds == f] for f in range(10)])
+    scale = penalty_scale(total, pen)
+    paths = SplitPath.stack(grams, pen, scale)
+    assert len(paths) == 10
+    for gram, path in zip(grams, paths, strict=True):
+        w, V = scipy.linalg.eigh(pen.matrix, gram)
+        ratio = np.sort(path.p / path.g)
+        np.testing.assert_allclose(ratio[pen.n_null:], np.sort(w)[pen.n_null:], rtol=1e-8)
+        np.testing.assert_allclose(np.sort(w)[:pen.n_null], 0.0, atol=1e-10 * w.max())
+        assert path.scale == scale
+        # (the generalized solver whitens by G's Cholesky factor and loses
+        # digits with the condition number of G + lam P, about 1e7 at
+        # alpha = 10 here: 6e-9 of the largest entry from the direct inverse)
+        for alpha in (1e-6, 1e-2, 10.0):
+            lam = alpha * scale
+            inverse = (V / (1.0 + lam * w)) @ V.T
+            np.testing.assert_allclose(path.operator(alpha), inverse, rtol=1e-6,
+                                       atol=1e-7 * np.abs(inverse).max())
+
+
+def test_stacked_paths_mark_folds_that_leave_the_null_space_free(rng):
+    # A fold whose other rows see one point only cannot fix a straight line
+    # (two unknowns): SplitPath raises NotIdentifiableError for it, the stack
+    # gives None there and the ordinary path elsewhere.
+    basis = BSplineBasis((0.0, 1.0), 8)
+    pen = penalty_for(basis, 2)
+    one = basis.evaluate([0.3])
+    two = basis.evaluate([0.3, 0.8])
+    grams = np.array([one.T @ one, two.T @ two])
+    with pytest.raises(NotIdentifiableError):
+        SplitPath(grams[0], pen, scale=1.0)
+    first, second = SplitPath.stack(grams, pen, 1.0)
+    assert first is None
+    alone = SplitPath(grams[1], pen, scale=1.0)
+    # reference: the inverse of the 8 x 8 system, numpy.linalg.inv
+    direct = np.linalg.inv(grams[1] + 0.1 * pen.matrix)
+    np.testing.assert_allclose(second.operator(0.1), direct, rtol=1e-7,
+                               atol=1e-9 * np.abs(direct).max())
+    np.testing.assert_allclose(alone.operator(0.1), direct, rtol=1e-7,
+                               atol=1e-9 * np.abs(direct).max())
