@@ -250,6 +250,24 @@ def single_thread_blas():
     return _CONTROLLER.limit(limits=1, user_api="blas")
 
 
+#: dense solves and eigensolves of up to this many unknowns run with one
+#: BLAS thread (:func:`single_thread_blas_up_to`): the Newton systems of the
+#: classifier (2,236 unknowns for 52 classes) and FPCA's K x K eigensolves
+SMALL_DENSE_SIZE = 4000
+
+
+def single_thread_blas_up_to(size):
+    """:func:`single_thread_blas` for a dense solve or eigensolve of ``size``
+    unknowns up to :data:`SMALL_DENSE_SIZE`; no limit for larger ones.
+
+    Up to a few thousand unknowns these are bound by latency, not
+    arithmetic: extra BLAS threads only add synchronisation, which on a busy
+    machine costs several times the solve itself. Switching costs about
+    0.1 ms (the controller is made once), so small sizes switch too.
+    """
+    return single_thread_blas() if size <= SMALL_DENSE_SIZE else contextlib.nullcontext()
+
+
 def _along_rows_of(X, other):
     """``other`` (numpy or dask) as a dask array with X's row chunks."""
     import dask.array as da

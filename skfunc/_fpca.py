@@ -53,7 +53,6 @@ of the coordinates per fold (:func:`fold_moments`), so it runs from the same
 additive statistics as the fit, in memory, over batches or on Dask blocks.
 """
 
-import contextlib
 
 import numpy as np
 import scipy.linalg
@@ -63,7 +62,13 @@ from sklearn.utils.validation import check_is_fitted
 from ._alpha import CV_FOLDS, best_index, candidates_for
 from ._bases import gram_sqrt
 from ._basis_features import orthonormal_operators
-from ._blocks import BandedProduct, chunked_matmul, output_dtype, single_thread_blas
+from ._blocks import (
+    BandedProduct,
+    chunked_matmul,
+    output_dtype,
+    single_thread_blas,
+    single_thread_blas_up_to,
+)
 from ._channels import channel_penalty
 from ._dask import check_rows
 from ._moments import merge_moments, moments, scale_moments
@@ -223,7 +228,7 @@ def covariance_directions(covariance, n_wanted=None, coords=None, alpha=0.0):
         variances, directions = smoothed_directions(covariance, coords, [alpha], k)
         return variances[0], directions[0]
     subset = None if k == K else [K - k, K - 1]
-    with _single_thread(K):
+    with single_thread_blas_up_to(K):
         variances, directions = scipy.linalg.eigh(covariance, subset_by_index=subset)
     variances, directions = variances[::-1], directions[:, ::-1]
     return np.clip(variances, 0.0, None), directions
@@ -243,7 +248,7 @@ def smoothed_directions(covariance, coords, alphas, k):
     d = path.denominators(np.asarray(alphas, dtype=np.float64))  # (L, K)
     B = (coords.root @ path.eigvecs)[None] / np.sqrt(d)[:, None, :]
     M = np.swapaxes(B, 1, 2) @ covariance @ B
-    with _single_thread(covariance.shape[0]):
+    with single_thread_blas_up_to(covariance.shape[0]):
         _, u = np.linalg.eigh((M + np.swapaxes(M, 1, 2)) / 2)
     y = B @ u[:, :, ::-1][:, :, :k]
     q, r = np.linalg.qr(y)  # Gram-Schmidt in L2, in order
@@ -261,7 +266,7 @@ def fold_moments(Z, folds):
     out = {"n": np.zeros(CV_FOLDS), "mean": np.zeros((CV_FOLDS, K)),
            "scatter": np.zeros((CV_FOLDS, K, K))}
     # ten small products per block: latency-bound, one BLAS thread (see
-    # _single_thread; measured 3x faster on a busy two-core machine), through
+    # single_thread_blas_up_to; measured 3x faster on a busy two-core machine), through
     # a controller made once (threadpool_limits inspects the loaded
     # libraries on every call: milliseconds per block)
     with single_thread_blas():
@@ -386,7 +391,7 @@ def cross_validate_alpha(folds, coords, n_components, alpha="auto"):
     """
     alphas = candidates_for(alpha, coords.path)
     # small batched eigensolves: BLAS threads only add synchronisation
-    # (see _single_thread), measured 17x slower on a busy two-core machine
+    # (see single_thread_blas_up_to), measured 17x slower on a busy two-core machine
     with single_thread_blas():
         scores, used = cross_validation_scores(folds, coords, alphas, n_components)
     if used == 0:
@@ -397,19 +402,6 @@ def cross_validate_alpha(folds, coords, n_components, alpha="auto"):
         )
     index = best_index(scores, alphas, criterion="cross-validation over curves")
     return float(alphas[index]), alphas, scores
-
-
-def _single_thread(K):
-    """One BLAS thread for a K x K eigensolve of moderate size.
-
-    Up to K of a few thousand the symmetric eigensolver is bound by latency,
-    not arithmetic; extra BLAS threads only add synchronisation, which costs
-    several times the solve itself on a busy machine (partial_fit solves once
-    per chunk). Tiny problems skip the (millisecond) thread-pool switch.
-    """
-    if 64 <= K <= 2000:
-        return single_thread_blas()
-    return contextlib.nullcontext()
 
 
 def svd_directions(Z, n_wanted, solver, random_state=None, n_oversamples=10,

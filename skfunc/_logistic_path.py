@@ -20,7 +20,6 @@ Wood, S. N. (2008). Fast stable direct fitting and smoothness selection for
 generalized additive models. *J. R. Statist. Soc. B* 70, 495-518.
 """
 
-import contextlib
 from functools import partial
 
 import numpy as np
@@ -40,7 +39,7 @@ from ._blocks import (
     is_dask_array,
     kept_blocks,
     reduce_delayed,
-    single_thread_blas,
+    single_thread_blas_up_to,
 )
 from ._integrated_design import scaled_integrated_design
 from ._penalized import centered_cross_products
@@ -401,7 +400,7 @@ class LogisticProblem:
         path_tol = PATH_TOL if path_tol is None else path_tol
         loose = max(tol, path_tol) if alphas.size > 1 else tol
         theta, current, n_iter, fits = self.start(), None, 0, {}
-        with _single_thread(self.penalized.size * self.class_sums.size):
+        with single_thread_blas_up_to(self.penalized.size * self.class_sums.size):
             for j in range(alphas.size)[::-1]:
                 # the likelihood's sums at the last fit serve the next alpha
                 # (the penalty is added in closed form): no pass to start
@@ -450,16 +449,6 @@ def _row_loss(eta, Y):
     return _logsumexp(eta) - np.sum(Y * eta, axis=1)
 
 
-def _single_thread(size):
-    """One BLAS thread for the small dense solves of a Newton path.
-
-    Systems of a few hundred unknowns are bound by latency; extra BLAS
-    threads only add synchronisation, which on a busy machine costs many
-    times the solve itself.
-    """
-    return single_thread_blas() if size <= 4000 else contextlib.nullcontext()
-
-
 def _solve(matrix, rhs):
     """Solve with a symmetric positive definite matrix (Cholesky)."""
     return cho_solve(cho_factor(matrix), rhs)
@@ -482,7 +471,7 @@ def coef_covariance(problem, hess, alpha):
     """
     n_out, p = problem.shape
     penalized = hess + problem.quadratic(alpha)
-    with _single_thread(n_out * p):
+    with single_thread_blas_up_to(n_out * p):
         try:
             inverse = _solve(penalized, np.eye(n_out * p))
         except (np.linalg.LinAlgError, LinAlgError):
