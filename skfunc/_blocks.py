@@ -143,25 +143,80 @@ def count_rows(X, *others):
 
 def _reduce_blocks(statistics, X, *others, merge):
     """Per-block statistics on the workers, merged in a tree."""
-    import dask
+    return reduce_delayed(statistics, delayed_row_blocks(X, *others), merge)
 
+
+def delayed_row_blocks(X, *others):
+    """The row blocks of a dask ``X`` with the matching blocks of ``others``
+    (None passed through): one tuple of delayed objects per block."""
     blocks = [X.to_delayed().ravel()]
     for other in others:
         if other is None:
             blocks.append([None] * len(blocks[0]))
         else:
             blocks.append(_along_rows_of(X, other).to_delayed().ravel())
+    return list(zip(*blocks, strict=True))
+
+
+def reduce_delayed(statistics, blocks, merge=merge_sums):
+    """``merge`` of ``statistics(*block)`` over delayed row blocks.
+
+    Partial results are merged on the workers in a tree, :data:`SPLIT_EVERY`
+    at a time, until at most that many are left; those are fetched and
+    merged here (one task and one transfer between workers fewer than a last
+    merge on a worker: a pass is bound by its rounds of messages).
+    """
+    import dask
+
     func = dask.delayed(statistics, pure=True)
-    parts = [func(*block) for block in zip(*blocks, strict=True)]
+    parts = [func(*block) for block in blocks]
     merge_task = dask.delayed(merge, pure=True)
-    while len(parts) > 1:
+    while len(parts) > SPLIT_EVERY:
         parts = [
             merge_task(*parts[i : i + SPLIT_EVERY])
             for i in range(0, len(parts), SPLIT_EVERY)
         ]
     with _single_threaded_blas_under_threads(parts[0]):
-        (stats,) = dask.compute(parts[0])
-    return stats
+        return merge(*dask.compute(*parts))
+
+
+def kept_blocks(func, X, *others):
+    """``func(*block)`` of every row block of dask arrays, computed and kept
+    (on the workers with a distributed scheduler): a list of persisted
+    delayed results, one per block, for passes that reuse what a first pass
+    formed (for example with :func:`reduce_delayed`)."""
+    import dask
+
+    func = dask.delayed(func, pure=True)
+    parts = [func(*block) for block in delayed_row_blocks(X, *others)]
+    with _single_threaded_blas_under_threads(parts[0]):
+        return list(dask.persist(*parts))
+
+
+class KeptRows:
+    """Row-aligned arrays that many passes read (the steps of a Newton path).
+
+    ``kept(statistics)`` is ``compute_statistics(statistics, *arrays)``. Dask
+    arrays are rechunked to row blocks of about :data:`CHUNK_VALUES` values
+    (a narrow array in the row chunks of wide curves would make many small
+    tasks), persisted, and cut into their delayed blocks once, so that a pass
+    builds only its own tasks.
+    """
+
+    def __init__(self, X, *others):
+        self._blocks = None
+        if is_dask_array(X):
+            import dask
+
+            rows = {0: max(1, CHUNK_VALUES // max(int(np.prod(X.shape[1:])), 1))}
+            X, *others = dask.persist(*(a.rechunk(rows) for a in (X, *others)))
+            self._blocks = delayed_row_blocks(X, *others)
+        self.arrays = (X, *others)
+
+    def __call__(self, statistics, merge=merge_sums):
+        if self._blocks is None:
+            return compute_statistics(statistics, *self.arrays, merge=merge)
+        return reduce_delayed(statistics, self._blocks, merge)
 
 
 def _single_threaded_blas_under_threads(collection):
@@ -195,12 +250,22 @@ def single_thread_blas():
     return _CONTROLLER.limit(limits=1, user_api="blas")
 
 
-def single_thread_for(K):
-    """:func:`single_thread_blas` for the dense algebra of K x K problems up
-    to K = 2000 (bound by latency there: a team of BLAS threads made a 39 x
-    39 eigensolve 30 times slower on a busy two-core machine; the switch
-    costs about 30 microseconds); no limit for larger K."""
-    return single_thread_blas() if K <= 2000 else contextlib.nullcontext()
+#: dense solves and eigensolves of up to this many unknowns run with one
+#: BLAS thread (:func:`single_thread_blas_up_to`): the Newton systems of the
+#: classifier (2,236 unknowns for 52 classes) and FPCA's K x K eigensolves
+SMALL_DENSE_SIZE = 4000
+
+
+def single_thread_blas_up_to(size):
+    """:func:`single_thread_blas` for a dense solve or eigensolve of ``size``
+    unknowns up to :data:`SMALL_DENSE_SIZE`; no limit for larger ones.
+
+    Up to a few thousand unknowns these are bound by latency, not
+    arithmetic: extra BLAS threads only add synchronisation, which on a busy
+    machine costs several times the solve itself. Switching costs about
+    0.1 ms (the controller is made once), so small sizes switch too.
+    """
+    return single_thread_blas() if size <= SMALL_DENSE_SIZE else contextlib.nullcontext()
 
 
 def _along_rows_of(X, other):

@@ -67,7 +67,7 @@ from ._blocks import (
     chunked_matmul,
     output_dtype,
     single_thread_blas,
-    single_thread_for,
+    single_thread_blas_up_to,
 )
 from ._channels import channel_penalty
 from ._dask import check_rows
@@ -228,7 +228,7 @@ def covariance_directions(covariance, n_wanted=None, coords=None, alpha=0.0):
         variances, directions = smoothed_directions(covariance, coords, [alpha], k)
         return variances[0], directions[0]
     subset = None if k == K else [K - k, K - 1]
-    with single_thread_for(K):
+    with single_thread_blas_up_to(K):
         variances, directions = scipy.linalg.eigh(covariance, subset_by_index=subset)
     variances, directions = variances[::-1], directions[:, ::-1]
     return np.clip(variances, 0.0, None), directions
@@ -248,7 +248,7 @@ def smoothed_directions(covariance, coords, alphas, k):
     d = path.denominators(np.asarray(alphas, dtype=np.float64))  # (L, K)
     B = (coords.root @ path.eigvecs)[None] / np.sqrt(d)[:, None, :]
     M = np.swapaxes(B, 1, 2) @ covariance @ B
-    with single_thread_for(covariance.shape[0]):
+    with single_thread_blas_up_to(covariance.shape[0]):
         _, u = np.linalg.eigh((M + np.swapaxes(M, 1, 2)) / 2)
     y = B @ u[:, :, ::-1][:, :, :k]
     q, r = np.linalg.qr(y)  # Gram-Schmidt in L2, in order
@@ -266,7 +266,7 @@ def fold_moments(Z, folds):
     out = {"n": np.zeros(CV_FOLDS), "mean": np.zeros((CV_FOLDS, K)),
            "scatter": np.zeros((CV_FOLDS, K, K))}
     # ten small products per block: latency-bound, one BLAS thread (see
-    # single_thread_for; measured 3x faster on a busy two-core machine), through
+    # single_thread_blas_up_to; measured 3x faster on a busy two-core machine), through
     # a controller made once (threadpool_limits inspects the loaded
     # libraries on every call: milliseconds per block)
     with single_thread_blas():
@@ -446,7 +446,7 @@ def cross_validate_alpha(folds, coords, n_components, alpha="auto"):
     """
     alphas = candidates_for(alpha, coords.path)
     # small batched eigensolves: BLAS threads only add synchronisation
-    # (see single_thread_for), measured 17x slower on a busy two-core machine
+    # (see single_thread_blas_up_to), measured 17x slower on a busy two-core machine
     with single_thread_blas():
         scores, used = cross_validation_scores(folds, coords, alphas, n_components)
     if used == 0:

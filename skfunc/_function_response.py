@@ -65,13 +65,12 @@ from ._alpha import (
     reml_score,
 )
 from ._bands import critical_value
-from ._blocks import chunked_matmul, is_dask_array, row_blocks
+from ._blocks import chunked_matmul, is_dask_array, row_blocks, single_thread_blas
 from ._dask import check_accepts_dask
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._fit import AdditiveFitMixin
 from ._grid import check_grid, grid_from_labels, quadrature_weights, resolve_grid
-from ._logistic_path import _single_thread
 from ._penalized import (
     _RCOND,
     NotIdentifiableError,
@@ -690,7 +689,7 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         thread, whose latency is lower than that of a team of threads
         (several times lower on a busy machine).
         """
-        with _single_thread(0):
+        with single_thread_blas():
             self._solve_small(stats)
 
     def _solve_small(self, stats):

@@ -23,7 +23,6 @@ from sklearn.utils.multiclass import check_classification_targets
 
 from ._alpha import ALPHA_CONSTRAINT, candidates_for, check_alpha
 from ._blocks import (
-    CHUNK_VALUES,
     _along_rows_of,
     apply_rows,
     compute_statistics,
@@ -42,10 +41,9 @@ from ._integrated_design import (
 from ._logistic_path import (
     N_ALPHAS,
     RIDGE,
+    IntegratedDesign,
     LogisticProblem,
     coef_covariance,
-    design_statistics,
-    split_design,
 )
 from ._penalized import SplitPath, centered, penalty_scale, to_data_units
 from ._weights import check_sample_weight
@@ -287,15 +285,12 @@ class FunctionalLogisticRegression(
         # Dask workers in this process (a LocalCluster of threads) would run
         # multi-threaded BLAS on top of one another: one thread each
         with single_thread_blas() if is_dask_array(X) else contextlib.nullcontext():
-            stats = compute_statistics(
-                partial(design_statistics, operator=operator,
-                        n_covariates=self.n_covariates),
-                X, Y, weight,
-            )
-            self._solve(X, Y, weight, stats, basis, operator)
+            design = IntegratedDesign(X, Y, weight, operator, self.n_covariates)
+            self._solve(design, Y, weight, basis)
         return check_finite_fit(self)
 
-    def _solve(self, X, Y, weight, stats, basis, operator):
+    def _solve(self, design, Y, weight, basis):
+        stats = design.stats
         totals = np.r_[stats["sw"] - stats["y_sum"].sum(), stats["y_sum"]] \
             if self.classes_.size == 2 else stats["y_sum"]
         if np.any(totals <= 0):
@@ -326,16 +321,7 @@ class FunctionalLogisticRegression(
         # (in the units of the statistics: the design divided by the merged
         # powers of two, so no square of X overflows or underflows)
         z_exp = np.asarray(stats["x_exp"])
-        D = apply_rows(split_design, X, lead + U.shape[1], operator=operator,
-                       n_covariates=self.n_covariates, z_exp=z_exp, z_mean=z_mean,
-                       U=U, lead=lead)
-        if is_dask_array(D):
-            # read at every Newton step: computed once, kept on the workers,
-            # in row blocks of about CHUNK_VALUES values (D is narrow: X's
-            # blocks would make many small tasks, and a Newton pass is bound
-            # by the rounds of messages, not by arithmetic)
-            rows = {0: max(1, CHUNK_VALUES // D.shape[1])}
-            D, Y, weight = (a.rechunk(rows).persist() for a in (D, Y, weight))
+        D = design.newton_rows(z_exp, z_mean, U, lead)
         column_size = np.concatenate([[stats["sw"]] * lead, np.diag(U.T @ gram @ U)])
         ridge_theta = np.zeros((lead + U.shape[1],) * 2)
         ridge_theta[lead:, lead:] = U.T @ ridge @ U
@@ -512,6 +498,12 @@ def _indicators(y, classes, sample_weight, class_weight):
         sample_weight = _along_rows_of(y, sample_weight)
     weight = sample_weight * apply_rows(class_factors, y[:, None], classes=classes,
                                         factors=factors)
+    if is_dask_array(y):
+        import dask
+
+        # read by the design pass and by every Newton step: computed once,
+        # kept where the rows are
+        Y, weight = dask.persist(Y, weight)
     return Y, weight
 
 

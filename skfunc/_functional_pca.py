@@ -17,7 +17,7 @@ from sklearn.utils.validation import check_is_fitted
 
 from ._alpha import ALPHA_CONSTRAINT, check_alpha
 from ._bases import BASES
-from ._blocks import chunked_matmul, is_dask_array, output_dtype, single_thread_for
+from ._blocks import chunked_matmul, is_dask_array, output_dtype, single_thread_blas_up_to
 from ._channels import CHANNEL_WEIGHTS, channel_coordinates, curve_weights
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
@@ -432,9 +432,9 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
 
     def _solve(self, stats):
         """Set the fitted attributes from merged statistics (K x K algebra:
-        one BLAS thread up to K = 2000, ``single_thread_for``)."""
+        one BLAS thread up to 4,000 unknowns, ``single_thread_blas_up_to``)."""
         coords = self._batch_coords()
-        with single_thread_for(coords.n_coordinates):
+        with single_thread_blas_up_to(coords.n_coordinates):
             self._solve_moments(stats, coords)
 
     def _solve_moments(self, stats, coords):
@@ -605,7 +605,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
                 )
             return CurveCoordinates(weights)
         basis = basis_for(self, self.grid_)
-        with single_thread_for(basis.n_basis):
+        with single_thread_blas_up_to(basis.n_basis):
             return CurveCoordinates(weights, basis, self.grid_,
                                     self.penalty_order if self._smooths() else None)
 

@@ -20,7 +20,6 @@ Wood, S. N. (2008). Fast stable direct fitting and smoothness selection for
 generalized additive models. *J. R. Statist. Soc. B* 70, 495-518.
 """
 
-import contextlib
 from functools import partial
 
 import numpy as np
@@ -34,7 +33,14 @@ from scipy.linalg import (
 from scipy.special import expit
 
 from ._alpha import best_index
-from ._blocks import compute_statistics, single_thread_blas
+from ._blocks import (
+    KeptRows,
+    compute_statistics,
+    is_dask_array,
+    kept_blocks,
+    reduce_delayed,
+    single_thread_blas_up_to,
+)
 from ._integrated_design import scaled_integrated_design
 from ._penalized import centered_cross_products
 
@@ -116,26 +122,91 @@ def newton_statistics(D, Y, sample_weight, theta, derivatives=True):
     return {"loss": loss, "grad": grad.ravel(), "hess": hess.reshape(n_out * p, n_out * p)}
 
 
-def design_statistics(X, Y, sample_weight, operator, n_covariates):
-    """Additive statistics of the integrated design of a block of curves
-    (:func:`~skfunc._penalized.centered_cross_products` with the class
-    indicators as responses: their sums are the class totals), of the design
-    divided by powers of two as the least-squares models' statistics
-    (:func:`~skfunc._integrated_design.scaled_integrated_design`; exponents
-    ``x_exp`` per column, ``y_exp`` 0 for the 0/1 indicators), merged
-    exactly by :func:`~skfunc._penalized.merge` whatever each block's scale."""
+def design_block(X, Y, sample_weight, operator, n_covariates):
+    """The integrated design of a block of curves divided by powers of two
+    as the least-squares models' design
+    (:func:`~skfunc._integrated_design.scaled_integrated_design`), and its
+    additive statistics: ``(Z / 2**x_exp, stats)``.
+
+    The statistics are :func:`~skfunc._penalized.centered_cross_products`
+    with the class indicators as responses (their sums are the class
+    totals), with the exponents ``x_exp`` per column and ``y_exp`` 0 (for
+    the 0/1 indicators), merged exactly by :func:`~skfunc._penalized.merge`
+    whatever each block's scale."""
     Z, z_exp = scaled_integrated_design(X, operator, n_covariates)
     stats = centered_cross_products(Z, Y, sample_weight)
     stats.update(x_exp=z_exp, y_exp=0)
-    return stats
+    return Z, stats
+
+
+def design_statistics(X, Y, sample_weight, operator, n_covariates):
+    """The statistics of :func:`design_block` alone (a row-block function)."""
+    return design_block(X, Y, sample_weight, operator, n_covariates)[1]
 
 
 def split_design(X, operator, n_covariates, z_exp, z_mean, U, lead):
     """Rows of the Newton design: ``[1, (Z / 2**z_exp - z_mean) U]`` with the
     merged statistics' exponents ``z_exp`` (a row-block function; ``lead`` is
     1 with an intercept column, else 0)."""
-    Zc = scaled_integrated_design(X, operator, n_covariates, z_exp)[0] - z_mean
+    Z = scaled_integrated_design(X, operator, n_covariates, z_exp)[0]
+    return _split_rows(Z, z_mean, U, lead)
+
+
+def kept_split_design(block, z_exp, z_mean, U, lead):
+    """:func:`split_design` from a :func:`design_block` result: its design,
+    divided by its own block's powers of two, brought to the merged
+    exponents ``z_exp`` by powers of two (exact), so the rows need no second
+    pass over the curves."""
+    Z, stats = block
+    return _split_rows(np.ldexp(Z, np.asarray(stats["x_exp"]) - z_exp), z_mean, U, lead)
+
+
+def _split_rows(Z, z_mean, U, lead):
+    Zc = Z - z_mean
     return np.hstack([np.ones((len(Zc), lead)), Zc @ U])
+
+
+class IntegratedDesign:
+    """The integrated design of curves ``X``: its merged statistics (one pass
+    over the curves, at construction) and the rows of the Newton design in
+    a fit's coordinates (:meth:`newton_rows`).
+
+    For a Dask ``X`` the design of each row block (n x K, small beside the
+    curves) is kept on the workers by the statistics pass, and the Newton
+    rows are formed from it there: the curves are read once.
+    """
+
+    def __init__(self, X, Y, sample_weight, operator, n_covariates):
+        self.X, self.operator, self.n_covariates = X, operator, n_covariates
+        block = partial(design_block, operator=operator, n_covariates=n_covariates)
+        if is_dask_array(X):
+            self._kept = kept_blocks(block, X, Y, sample_weight)
+            self.stats = reduce_delayed(_statistics_of, [(part,) for part in self._kept])
+        else:
+            self._kept = None
+            self.stats = compute_statistics(
+                partial(design_statistics, operator=operator, n_covariates=n_covariates),
+                X, Y, sample_weight)
+
+    def newton_rows(self, z_exp, z_mean, U, lead):
+        """:func:`split_design` of every row (lazily, a dask array, for Dask X)."""
+        if self._kept is None:
+            return split_design(self.X, self.operator, self.n_covariates, z_exp,
+                                z_mean, U, lead)
+        import dask
+        import dask.array as da
+
+        rows = dask.delayed(kept_split_design, pure=True)
+        return da.concatenate([
+            da.from_delayed(rows(part, z_exp, z_mean, U, lead),
+                            (n, lead + U.shape[1]), dtype=np.float64)
+            for part, n in zip(self._kept, self.X.chunks[0], strict=True)
+        ])
+
+
+def _statistics_of(block):
+    """The statistics of a :func:`design_block` result."""
+    return block[1]
 
 
 def saturated_rows(D, Y, sample_weight, theta, eps=1e-12):
@@ -194,7 +265,9 @@ class LogisticProblem:
 
     def __init__(self, D, Y, sample_weight, *, penalized, scale, ridge,
                  fit_intercept, class_sums, total_weight, column_size):
-        self.D, self.Y, self.sample_weight = D, Y, sample_weight
+        # read by every Newton step: Dask arrays are kept on the workers
+        self.rows = KeptRows(D, Y, sample_weight)
+        self.D, self.Y, self.sample_weight = self.rows.arrays
         self.penalized = np.asarray(penalized, dtype=bool)
         self.scale = float(scale)
         self.ridge = ridge
@@ -229,10 +302,7 @@ class LogisticProblem:
     def sums(self, theta, derivatives=True):
         """:func:`newton_statistics` over the row blocks (one pass)."""
         self.n_passes += 1
-        return compute_statistics(
-            partial(newton_statistics, theta=theta, derivatives=derivatives),
-            self.D, self.Y, self.sample_weight,
-        )
+        return self.rows(partial(newton_statistics, theta=theta, derivatives=derivatives))
 
     def start(self):
         """Coefficients of the intercept-only fit (class frequencies)."""
@@ -330,7 +400,7 @@ class LogisticProblem:
         path_tol = PATH_TOL if path_tol is None else path_tol
         loose = max(tol, path_tol) if alphas.size > 1 else tol
         theta, current, n_iter, fits = self.start(), None, 0, {}
-        with _single_thread(self.penalized.size * self.class_sums.size):
+        with single_thread_blas_up_to(self.penalized.size * self.class_sums.size):
             for j in range(alphas.size)[::-1]:
                 # the likelihood's sums at the last fit serve the next alpha
                 # (the penalty is added in closed form): no pass to start
@@ -351,9 +421,8 @@ class LogisticProblem:
                     alphas[best], fits[best][0], tol, max_iter, current=fits[best][1]
                 )
                 n_iter += it
-        saturated = alphas[best] == 0 and compute_statistics(
-            partial(saturated_rows, theta=theta), self.D, self.Y, self.sample_weight
-        )["saturated"] > 0
+        saturated = alphas[best] == 0 and self.rows(
+            partial(saturated_rows, theta=theta))["saturated"] > 0
         return {
             "saturated": saturated,
             "criterion": criterion,
@@ -380,16 +449,6 @@ def _row_loss(eta, Y):
     return _logsumexp(eta) - np.sum(Y * eta, axis=1)
 
 
-def _single_thread(size):
-    """One BLAS thread for the small dense solves of a Newton path.
-
-    Systems of a few hundred unknowns are bound by latency; extra BLAS
-    threads only add synchronisation, which on a busy machine costs many
-    times the solve itself.
-    """
-    return single_thread_blas() if size <= 4000 else contextlib.nullcontext()
-
-
 def _solve(matrix, rhs):
     """Solve with a symmetric positive definite matrix (Cholesky)."""
     return cho_solve(cho_factor(matrix), rhs)
@@ -412,7 +471,7 @@ def coef_covariance(problem, hess, alpha):
     """
     n_out, p = problem.shape
     penalized = hess + problem.quadratic(alpha)
-    with _single_thread(n_out * p):
+    with single_thread_blas_up_to(n_out * p):
         try:
             inverse = _solve(penalized, np.eye(n_out * p))
         except (np.linalg.LinAlgError, LinAlgError):

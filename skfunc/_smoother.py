@@ -48,7 +48,7 @@ from ._blocks import (
     chunked_matmul,
     output_dtype,
     row_blocks,
-    single_thread_for,
+    single_thread_blas_up_to,
 )
 from ._channels import ChannelwiseMixin
 from ._docstrings import fill_doc
@@ -210,7 +210,7 @@ class _Problem:
         self.quadrature = estimator.quadrature
         self.basis = basis_for(estimator, grid, cap=not penalized)
         self.phi = self.basis.evaluate(grid)
-        with single_thread_for(self.basis.n_basis):
+        with single_thread_blas_up_to(self.basis.n_basis):
             self._decompose(estimator.penalty_order, penalized)
 
     def _decompose(self, penalty_order, penalized):
@@ -348,7 +348,7 @@ class PenalizedFitMixin:
     def _setup_alphas(self, X, problem):
         """Candidates (``alphas_path_``)."""
         alpha = self._alpha()
-        with single_thread_for(problem.basis.n_basis):
+        with single_thread_blas_up_to(problem.basis.n_basis):
             self.alphas_path_ = candidates_for(alpha, problem.full)
             if isinstance(alpha, float) and alpha == 0:
                 phi_w = problem.phi * problem.weights()[:, None]
@@ -390,7 +390,7 @@ class PenalizedFitMixin:
         return self._statistics
 
     def _solve_statistics(self):
-        with self._one_problem(), single_thread_for(self._problem().basis.n_basis):
+        with self._one_problem(), single_thread_blas_up_to(self._problem().basis.n_basis):
             return super()._solve_statistics()
 
     def _statistics(self, X):
