@@ -16,7 +16,8 @@ pytestmark = pytest.mark.slow  # about 1 min in all; CI runs it (-m "slow or not
 BENCHMARKS = Path(__file__).resolve().parent / "benchmarks"
 SCRIPTS = sorted(p.name for p in BENCHMARKS.glob("bench_*.py"))
 
-#: seconds one quick script may take: about 10x the slowest on two quiet cores
+#: seconds one quick script may take (the slowest, bench_scale.py, takes about
+#: 7 s of CPU time with one BLAS thread; a loaded machine stretches that ~10x)
 TIMEOUT = 300
 
 
@@ -32,7 +33,12 @@ def test_every_benchmark_is_run():
 
 
 @pytest.mark.parametrize("script", SCRIPTS)
-def test_quick_benchmark_runs(script, capsys):
+def test_quick_benchmark_runs(script, capsys, monkeypatch):
+    # one BLAS thread in the scripts: their quick sizes are small matrices,
+    # on which BLAS threads only wait for work (half the CPU time of these
+    # runs, measured on two cores; the thread paths have tests of their own)
+    for name in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+        monkeypatch.setenv(name, "1")
     # the runner in this process; the script in its own, as run_all runs it
     code = _runner().main(["--quick", "--timeout", str(TIMEOUT), script])
     out = capsys.readouterr().out
