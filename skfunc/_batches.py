@@ -13,8 +13,10 @@ from concurrent.futures import ThreadPoolExecutor
 from numbers import Integral
 
 import numpy as np
+from sklearn.utils._param_validation import Interval, validate_params
 
 from ._blocks import CHUNK_VALUES, blas_thread_count, block_threads
+from ._grid import check_two_dimensional
 
 #: values per batch read from an array when ``batch_size`` is None (128 MiB
 #: of float64): large enough that per-call costs vanish against reading,
@@ -22,6 +24,14 @@ from ._blocks import CHUNK_VALUES, blas_thread_count, block_threads
 BATCH_VALUES = 4 * CHUNK_VALUES
 
 
+@validate_params(
+    {
+        "batch_size": [Interval(Integral, 1, None, closed="left"), None],
+        "n_threads": [Interval(Integral, 1, None, closed="left"), None],
+        "verbose": ["verbose"],
+    },
+    prefer_skip_nested_validation=True,
+)
 def partial_fit_batches(estimator, X, y=None, *, sample_weight=None, batch_size=None,
                         n_threads=None, verbose=0):
     """Fit an estimator one batch of rows at a time, for data larger than memory.
@@ -106,11 +116,6 @@ def partial_fit_batches(estimator, X, y=None, *, sample_weight=None, batch_size=
             f"estimator must have a partial_fit method; {type(estimator).__name__} "
             "has none. Fit it in one call with fit, or on a Dask array."
         )
-    if not isinstance(verbose, Integral) or verbose < 0:
-        raise ValueError(f"verbose must be an integer >= 0 or a bool; got {verbose!r}.")
-    if n_threads is not None and (not isinstance(n_threads, Integral)
-                                  or isinstance(n_threads, bool) or n_threads < 1):
-        raise ValueError(f"n_threads must be a positive integer or None; got {n_threads!r}.")
     if hasattr(X, "shape"):
         batches, n_rows, n_batches = _array_batches(X, y, sample_weight, batch_size)
     else:
@@ -177,15 +182,10 @@ def _as_tuple(batch):
 def _array_batches(X, y, sample_weight, batch_size):
     """Batches of rows of an array X (and the matching rows of y and weights),
     with the number of rows and of batches."""
-    shape = X.shape
-    if len(shape) != 2:
-        raise ValueError(f"X must be 2-D (one curve per row); got shape {shape}.")
-    n_rows, n_features = int(shape[0]), int(shape[1])
+    check_two_dimensional(X.shape, "array")
+    n_rows, n_features = int(X.shape[0]), int(X.shape[1])
     if batch_size is None:
         batch_size = max(1, BATCH_VALUES // max(n_features, 1))
-    elif (not isinstance(batch_size, Integral) or isinstance(batch_size, bool)
-          or batch_size < 1):
-        raise ValueError(f"batch_size must be a positive integer or None; got {batch_size!r}.")
     others = []
     for name, other in (("y", y), ("sample_weight", sample_weight)):
         if other is not None and len(other) != n_rows:

@@ -21,6 +21,7 @@ in :mod:`skfunc._dask`.
 
 import contextlib
 import contextvars
+import functools
 import sys
 import threading
 import warnings
@@ -381,12 +382,25 @@ class Float32Product:
         return out
 
 
-def affine_block(block, coef, intercept=None):
-    """``block @ coef + intercept``, float32 for float32 blocks (else float64):
-    the block function of transforms and predicts."""
-    if output_dtype(block) == np.float32:
-        return Float32Product(block, coef, intercept)(block)
-    return _affine_block64(block, coef, intercept)
+def block_product(sample, operator_T, offset=None, *, dtype=np.float64):
+    """The function ``block -> block @ operator_T (+ offset)`` of row blocks
+    (taking ``out=``): the one place that chooses the precision of a product.
+
+    For ``dtype=np.float32`` (transforms and predictions of float32 input,
+    :func:`output_dtype`) it runs in float32 through :class:`Float32Product`,
+    which checks its error on ``sample``; for anything else every block is
+    promoted to float64 (the statistics of fits, float64 results).
+    """
+    if np.dtype(dtype) == np.float32:
+        return Float32Product(sample, operator_T, offset)
+
+    def product(block, out=None):
+        out = np.matmul(np.asarray(block, dtype=np.float64), operator_T, out=out)
+        if offset is not None:
+            out += offset
+        return out
+
+    return product
 
 
 def chunked_matmul(X, operator_T, offset=None, *, dtype=np.float64):
@@ -396,32 +410,20 @@ def chunked_matmul(X, operator_T, offset=None, *, dtype=np.float64):
     ``dtype=np.float64`` (statistics of fits) every block is converted to
     float64; transforms and predictions pass ``dtype=output_dtype(X)``, so
     float32 rows give a float32 result computed in float32
-    (:class:`Float32Product`). For a dask array X the product runs block by
+    (:func:`block_product`). For a dask array X the product runs block by
     block and a lazy dask array is returned.
     """
     dtype = np.dtype(dtype)
     if is_dask_array(X):
-        block = affine_block if dtype == np.float32 else _affine_block64
-        return map_row_blocks(block, X, operator_T.shape[1], dtype=dtype,
-                              coef=operator_T, intercept=offset)
+        # each dask block through the loop below (picklable: a partial of
+        # this module-level function)
+        return map_row_blocks(functools.partial(chunked_matmul, dtype=dtype), X,
+                              operator_T.shape[1], dtype=dtype,
+                              operator_T=operator_T, offset=offset)
     out = np.empty((X.shape[0], operator_T.shape[1]), dtype=dtype)
-    if dtype == np.float32:
-        product = Float32Product(X, operator_T, offset)
-        for rows in row_blocks(*X.shape):
-            product(X[rows], out=out[rows])
-        return out
+    product = block_product(X, operator_T, offset, dtype=dtype)
     for rows in row_blocks(*X.shape):
-        np.matmul(np.asarray(X[rows], dtype=np.float64), operator_T, out=out[rows])
-    if offset is not None:
-        out += offset
-    return out
-
-
-def _affine_block64(block, coef, intercept=None):
-    """``block @ coef + intercept`` in float64."""
-    out = np.asarray(block, dtype=np.float64) @ coef
-    if intercept is not None:
-        out += intercept
+        product(X[rows], out=out[rows])
     return out
 
 

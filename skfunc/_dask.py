@@ -33,7 +33,7 @@ from sklearn.utils.validation import (
 )
 
 from ._blocks import _along_rows_of, is_dask_array, output_dtype
-from ._grid import check_curve_points, empty_curve_error
+from ._grid import check_curve_points, check_two_dimensional, empty_curve_error
 
 
 def _is_dask_collection(X):
@@ -91,9 +91,7 @@ def _whole_rows(array, name):
 
 def _float_rows(X, what=""):
     """A 2-D dask X in whole rows of float64 (float32 kept), lazily."""
-    if X.ndim != 2:
-        raise ValueError(f"Expected a 2-D dask array{what}, got {X.ndim}-D with "
-                         f"shape {X.shape}.")
+    check_two_dimensional(X.shape, "dask array", what)
     X = _whole_rows(X, "X")
     dtype = _float_dtype(X, "X")
     return X.astype(dtype) if X.dtype != dtype else X

@@ -168,11 +168,17 @@ class AdditiveFitMixin(ShortReprMixin):
         if not first:
             stats = self._merge_statistics(self._partial_statistics, stats)
             n_rows += self.n_samples_seen_
-        self._partial_statistics = stats
-        self.n_samples_seen_ = int(n_rows)
+        self._keep_statistics(stats, n_rows)
         if solve:
             self._solve_statistics()
         return self
+
+    def _keep_statistics(self, stats, n_rows):
+        """Keep ``stats`` of ``n_rows`` rows as the running statistics: the
+        next ``partial_fit`` merges its batch into them. Also for a ``fit``
+        that reaches them by another route (all rows at once)."""
+        self._partial_statistics = stats
+        self.n_samples_seen_ = int(n_rows)
 
     def _solve_statistics(self):
         """Set the fitted attributes from the statistics of all batches so far."""

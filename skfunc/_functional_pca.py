@@ -501,7 +501,7 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
             if d is not None:  # the statistics are of the unweighted coordinates
                 scatter /= np.outer(d, d)
             self.coordinate_scatter_ = scatter
-            self._partial_statistics = {"n": n, "mean": mean, "scatter": scatter}
+            self._keep_statistics({"n": n, "mean": mean, "scatter": scatter}, n)
         self._set_components(
             squares / (n - 1), directions, total, weighted_mean, n, n_wanted, coords
         )

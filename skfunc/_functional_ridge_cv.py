@@ -169,8 +169,7 @@ class FunctionalRidgeCV(FunctionalRidgeBase):
             path, part = self._path(stats, basis)
             criterion = self._held_out_error(path, part, Z, y2, sample_weight, alphas,
                                              True)
-        self.n_samples_seen_ = int(X.shape[0])
-        self._partial_statistics = stats
+        self._keep_statistics(stats, X.shape[0])
         self._target_ndim = y.ndim
         return check_finite_fit(self._select(stats, criterion, alphas, basis, y.ndim))
 

@@ -35,6 +35,14 @@ def check_curve_points(n_columns, n_covariates=0):
         )
 
 
+def check_two_dimensional(shape, kind="array", what=" (one curve per row)"):
+    """Raise unless ``shape`` is 2-D: X holds one curve per row (the one
+    rule for numpy, Dask and memory-mapped input read in batches)."""
+    if len(shape) != 2:
+        raise ValueError(f"Expected a 2-D {kind}{what}, got {len(shape)}-D with "
+                         f"shape {tuple(shape)}.")
+
+
 def empty_curve_error(row):
     """The error for a row of X with no observed value (all NaN)."""
     return ValueError(

@@ -43,8 +43,8 @@ from ._alpha import (
 )
 from ._bases import check_unpenalized_fit
 from ._blocks import (
-    Float32Product,
     apply_rows,
+    block_product,
     chunked_matmul,
     output_dtype,
     row_blocks,
@@ -81,7 +81,7 @@ def _check_eval_points(points):
 def _products(X, first_T, second_T=None, dtype=np.float64):
     """``X @ first_T`` (then ``@ second_T``) in row chunks, and a mask of the
     rows of X that hold NaN; in float64, or with ``dtype=np.float32`` (the
-    transform of float32 X) in float32 by :class:`skfunc._blocks.Float32Product`.
+    transform of float32 X) in float32 (:func:`skfunc._blocks.block_product`).
 
     Both products run chunk by chunk, so X is read once and the (rows, K)
     intermediate stays small. An extra column of ones in ``first_T`` gives
@@ -104,12 +104,10 @@ def _products(X, first_T, second_T=None, dtype=np.float64):
         return out[:, :-1], missing
     width = first_T.shape[1] if second_T is None else second_T.shape[1]
     out = np.empty((n, width), dtype=dtype)
-    if dtype == np.float32:
-        first = Float32Product(X, extended)
-        second_T = None if second_T is None else second_T.astype(np.float32)
-    else:
-        def first(block):
-            return np.asarray(block, dtype=np.float64) @ extended
+    missing = np.empty(n, dtype=bool)
+    first = block_product(X, extended, dtype=dtype)
+    if second_T is not None:
+        second_T = second_T.astype(dtype, copy=False)
     for part in row_blocks(n, m):
         with np.errstate(invalid="ignore", over="ignore"):  # inf is flagged
             coef = first(X[part])

@@ -4,10 +4,6 @@ from ._batches import partial_fit_batches
 
 __all__ = ["all_estimators", "partial_fit_batches"]
 
-#: the public modules that export estimators
-_ESTIMATOR_MODULES = ("preprocessing", "decomposition", "linear_model", "alignment",
-                      "outliers")
-
 
 def all_estimators():
     """Every public skfunc estimator, as scikit-learn's ``all_estimators`` lists
@@ -16,9 +12,8 @@ def all_estimators():
     Returns
     -------
     estimators : list of (str, type) tuples
-        ``(name, class)`` of each estimator class exported by
-        :mod:`skfunc.preprocessing`, :mod:`skfunc.decomposition`,
-        :mod:`skfunc.linear_model`, :mod:`skfunc.alignment` and :mod:`skfunc.outliers`,
+        ``(name, class)`` of each estimator class (a scikit-learn
+        ``BaseEstimator``) in the ``__all__`` of a public skfunc module,
         sorted by name.
 
     Examples
@@ -28,14 +23,19 @@ def all_estimators():
     'CurveSmoother'
     """
     import inspect
+    import pkgutil
     from importlib import import_module
 
     from sklearn.base import BaseEstimator
 
+    import skfunc
+
     found = {}
-    for name in _ESTIMATOR_MODULES:
-        module = import_module(f"skfunc.{name}")
-        for attr in module.__all__:
+    for info in pkgutil.iter_modules(skfunc.__path__):
+        if info.name.startswith("_"):
+            continue
+        module = import_module(f"skfunc.{info.name}")
+        for attr in getattr(module, "__all__", ()):
             obj = getattr(module, attr)
             if inspect.isclass(obj) and issubclass(obj, BaseEstimator):
                 found[attr] = obj

@@ -16,6 +16,10 @@ PAGES = sorted((ROOT / "docs").glob("*.rst"))
 
 @pytest.mark.slow
 def test_docs_build_without_warnings(tmp_path):
+    # The build also runs every script in examples/ (sphinx-gallery, in the
+    # example's folder, aborting on an error): the one run of the examples
+    # in the suite, checked below as tests/test_examples.py checked them in
+    # processes of their own.
     pytest.importorskip("sphinx")
     pytest.importorskip("numpydoc")
     pytest.importorskip("sphinx_gallery")
@@ -52,6 +56,13 @@ def test_docs_build_without_warnings(tmp_path):
     figures = list((tmp_path / "html" / "_images").glob("sphx_glr_kiln_*_001.png"))
     drawn = [name for name in examples if name.startswith("kiln_")]
     assert len(figures) == len(drawn), sorted(p.name for p in figures)
+    for name in examples:
+        # every example prints what it found (its output block on its page)
+        html = (gallery / f"{name}.html").read_text(encoding="utf-8")
+        assert "sphx-glr-script-out" in html, f"{name} printed nothing"
+    # and leaves no files behind (they would be written in its folder)
+    assert sorted(p.name for p in (source / "examples").iterdir()) \
+        == sorted(p.name for p in (ROOT / "examples").iterdir())
     page = (gallery / "kiln_strength_coefficient.html").read_text(encoding="utf-8")
     assert "sphx_glr_kiln_strength_coefficient_001.png" in page
 

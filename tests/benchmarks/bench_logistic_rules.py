@@ -147,7 +147,7 @@ def main():
     parser.add_argument("--quick", action="store_true", help="GunPoint and Coffee only")
     parser.add_argument("--pig", action="store_true", help="also PigCVP (UBRE rules only)")
     args = parser.parse_args()
-    sets = open_sets(False)
+    sets = open_sets(args.quick)  # (quick: without loading PigCVP)
     if args.quick:
         sets = {k: sets[k] for k in ("GunPoint", "Coffee")}
     elif not args.pig:

@@ -8,7 +8,7 @@ the same run. sklearn's RidgeCV on the raw grid values is shown for scale.
 Run from the repository root::
 
     python tests/benchmarks/bench_ridge.py           # full size (about 2 min)
-    python tests/benchmarks/bench_ridge.py --quick   # small, < 20 s
+    python tests/benchmarks/bench_ridge.py --quick   # small, 10 alphas: a smoke run
 """
 
 import argparse
@@ -35,22 +35,22 @@ def make_data(n, m, seed=0):
 
 def main():
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--quick", action="store_true", help="small sizes (< 20 s)")
+    parser.add_argument("--quick", action="store_true", help="small sizes, 10 alphas")
     args = parser.parse_args()
-    n, m = (1_000, 100) if args.quick else (50_000, 500)
+    # (the grid search refits 5 x n_alphas times: most of a quick run)
+    n, m, n_alphas, repeat = (1_000, 100, 10, 2) if args.quick else (50_000, 500, 50, 5)
     X, y = make_data(n, m)
-    alphas = np.logspace(-9, 0, 50)
-    repeat = 5
+    alphas = np.logspace(-9, 0, n_alphas)
 
     fast = best_times(
         {
             "FunctionalRidge, one fit at fixed alpha": lambda: FunctionalRidge(
                 alpha=1e-5
             ).fit(X, y),
-            "FunctionalRidgeCV, 50 alphas, gcv": lambda: FunctionalRidgeCV(
+            f"FunctionalRidgeCV, {n_alphas} alphas, gcv": lambda: FunctionalRidgeCV(
                 alpha=alphas
             ).fit(X, y),
-            "FunctionalRidgeCV, 50 alphas, loo": lambda: FunctionalRidgeCV(
+            f"FunctionalRidgeCV, {n_alphas} alphas, loo": lambda: FunctionalRidgeCV(
                 alpha=alphas, criterion="loo"
             ).fit(X, y),
         },
@@ -64,21 +64,21 @@ def main():
 
     kfold = FunctionalRidgeCV(alpha=alphas, cv=5)
     rows.append(
-        ("FunctionalRidgeCV, 50 alphas, cv=5", best_time(lambda: kfold.fit(X, y), 1))
+        (f"FunctionalRidgeCV, {n_alphas} alphas, cv=5", best_time(lambda: kfold.fit(X, y), 1))
     )
     search = GridSearchCV(FunctionalRidge(), {"alpha": alphas}, cv=5, n_jobs=1)
     grid_seconds = best_time(lambda: search.fit(X, y), 1)
-    rows.append(("GridSearchCV(FunctionalRidge), 50 alphas, cv=5", grid_seconds))
+    rows.append((f"GridSearchCV(FunctionalRidge), {n_alphas} alphas, cv=5", grid_seconds))
     raw = RidgeCV(alphas=alphas)
     rows.append(
         (
-            "sklearn RidgeCV on raw values, 50 alphas",
+            f"sklearn RidgeCV on raw values, {n_alphas} alphas",
             best_time(lambda: raw.fit(X, y), 1),
         )
     )
 
     print(
-        f"n_curves={n}, n_points={m}, 50 alphas, "
+        f"n_curves={n}, n_points={m}, {n_alphas} alphas, "
         f"best of {repeat} in turns (1 for the slow rows)"
     )
     print(

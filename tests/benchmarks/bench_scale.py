@@ -416,8 +416,8 @@ def main(argv=None):
     run = set(args.only or SECTIONS)
     if args.quick:
         "memory" in run and bench_memory(50_000, names=TRANSFORMERS[:1])
-        "scaling" in run and bench_scaling([500, 1_000, 2_000, 4_000], 1, args.names)
-        "dask" in run and bench_dask(20_000, repeat=1)
+        "scaling" in run and bench_scaling([250, 500, 1_000, 2_000], 1, args.names)
+        "dask" in run and bench_dask(10_000, repeat=1)
         if "cluster" in run:  # starting worker processes is most of a smoke run
             print("\nLocalCluster: skipped with --quick (tests/test_dask.py runs one)")
         "float32" in run and bench_float32(5_000, 500, repeat=1)

@@ -7,9 +7,9 @@ Usage, from the repository root::
 
 Each ``bench_*.py`` runs in its own process (so peak-memory figures are not
 mixed up) with ``--quick`` passed through. ``--jobs 2`` runs two scripts at a
-time (for smoke runs; timings then compete for the cores). The exit status
-is non-zero when any script fails; its error output is printed after its
-table.
+time (for smoke runs; timings then compete for the cores); ``--timeout S``
+stops a script after S seconds. The exit status is non-zero when any script
+fails or is stopped; its error output is printed after its table.
 """
 
 import argparse
@@ -50,6 +50,8 @@ def main(argv=None):
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--quick", action="store_true", help="small sizes")
     parser.add_argument("--jobs", type=int, default=1, help="scripts run at a time")
+    parser.add_argument("--timeout", type=float, default=None,
+                        help="seconds a script may run before it is stopped (a failure)")
     parser.add_argument("scripts", nargs="*", help="only these bench_*.py names")
     args = parser.parse_args(argv)
     scripts = sorted(HERE.glob("bench_*.py"))
@@ -62,7 +64,13 @@ def main(argv=None):
     def run(script):
         command = [sys.executable, str(script)] + (["--quick"] if args.quick else [])
         start = time.perf_counter()
-        done = subprocess.run(command, cwd=ROOT, env=env, capture_output=True, text=True)
+        try:
+            done = subprocess.run(command, cwd=ROOT, env=env, capture_output=True,
+                                  text=True, timeout=args.timeout)
+        except subprocess.TimeoutExpired as stopped:
+            done = subprocess.CompletedProcess(
+                command, "timeout", _text(stopped.stdout),
+                _text(stopped.stderr) + f"\nstopped after {args.timeout:g} s (--timeout)")
         return script.name, time.perf_counter() - start, done
 
     summary = []
@@ -77,7 +85,14 @@ def main(argv=None):
     for name, seconds, code in summary:
         print(f"{name:32s} {seconds:8.1f}  {'ok' if code == 0 else f'FAILED ({code})'}")
     print(f"{'total':32s} {sum(s for _, s, _ in summary):8.1f}")
-    return int(any(code for _, _, code in summary))
+    return int(any(code != 0 for _, _, code in summary))
+
+
+def _text(output):
+    """What a stopped script had printed, as text."""
+    if output is None:
+        return ""
+    return output.decode(errors="replace") if isinstance(output, bytes) else output
 
 
 if __name__ == "__main__":
