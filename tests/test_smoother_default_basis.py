@@ -155,3 +155,12 @@ def test_pigcvp_default_is_not_limited_by_the_basis():
                                     LogisticRegression()), *data)
     raw = accuracy(make_pipeline(LogisticRegression()), *data)
     assert recipe >= raw - two_standard_errors(recipe, raw, len(data[3]))
+
+
+def test_dask_array_grows_as_in_memory():
+    da = pytest.importorskip("dask.array")
+    _, X = wiggly(n=6)
+    memory = quiet_fit(CurveSmoother(grid=T), X)
+    lazy = quiet_fit(CurveSmoother(grid=T), da.from_array(X, chunks=(2, -1)))
+    assert lazy.n_basis_ == memory.n_basis_ > 39
+    np.testing.assert_allclose(lazy.transform(X), memory.transform(X), atol=1e-8)
