@@ -132,8 +132,10 @@ def _weighted_squares(X, w, scale=1.0):
 #: ``n_basis_``) above which a default basis grows: at 0.9 the penalty removes
 #: less than a tenth of the basis' dimensions, so the fit is close to the
 #: unpenalized one and the number of functions, not alpha, limits it; smooth
-#: curves choose far less (the kiln curves about a quarter), so they never
-#: pay for a trial
+#: curves choose far less (sines of one to four cycles plus noise on 601
+#: points: edf 19 to 23 of 39), so they never pay for a trial. The invented
+#: kiln curves choose 38.7 of 39 (sharp corners where ramp meets soak) and
+#: do grow, to 74
 GROW_EDF_FRACTION = 0.9
 
 
@@ -358,7 +360,7 @@ class PenalizedFitMixin:
         statistics already computed). Each larger basis costs one more pass
         over the batch. The size is fixed here, before later batches'
         statistics are summed, so ``partial_fit`` decides it on its first
-        batch.
+        batch. Needs ``n_basis_`` from ``_setup`` (CurveSmoother's).
         """
         if not (self._grows_default_basis and self.n_basis is None
                 and self.interior_knots is None and self.basis == "bspline"
