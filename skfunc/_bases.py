@@ -463,6 +463,25 @@ def default_n_basis(name, n_points, degree=3):
     return min(count, n_points)
 
 
+def grown_n_basis(n_basis, n_points, degree=3, limit=None):
+    """The next size of a default B-spline basis that the fit found too
+    small: twice the interior knots, at most ``n_points // 4`` of them (the
+    four points per knot of :func:`default_n_basis`, whose cap of 35 knots is
+    the one lifted) and at most ``limit`` functions; None when the basis
+    cannot grow.
+
+    This is the step of the "myopic" algorithm of Ruppert (2002, section 4):
+    start from the default number of knots and double it while the
+    generalized cross-validation score improves (the caller decides when to
+    try, and keeps the larger basis only when its score is lower).
+    """
+    knots = n_basis - degree - 1
+    larger = min(2 * max(knots, 1), int(n_points) // 4)
+    if limit is not None:
+        larger = min(larger, limit - degree - 1)
+    return degree + 1 + larger if larger > knots else None
+
+
 #: condition number of the data's Gram matrix relative to the basis Gram
 #: above which an unpenalized fit is called ill-conditioned: 1e8 loses half
 #: of float64's 16 digits (common practice for a warning threshold)

@@ -672,6 +672,16 @@ class ChannelwiseMixin:
             self.channel_names_, [e._statistics_function() for e in self.channel_estimators_]
         )
 
+    def _first_batch(self, stats, arrays):
+        if not hasattr(self, "channel_estimators_"):
+            return super()._first_batch(stats, arrays)
+        out = []
+        for name, est, part, block in zip(self.channel_names_, self.channel_estimators_,
+                                          stats, arrays):
+            with naming_channel(name):
+                out.append(est._first_batch(part, (block,)))
+        return out
+
     @staticmethod
     def _merge_statistics(*stats):
         """Statistics merged key by key (:func:`skfunc._penalized.merge`);

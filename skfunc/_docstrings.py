@@ -30,9 +30,10 @@ n_basis : int, default=None
     Number of basis functions. None follows P-spline practice (a generous
     basis, the penalty controls smoothness): ``degree + 1 + min(m // 4,
     35)`` B-splines on ``m`` grid points, the same count made odd for
-    Fourier, at most 12 Legendre polynomials, never more than ``m``.
-    Without a penalty (``alpha=0``) it may not exceed the number of grid
-    points.
+    Fourier, at most 12 Legendre polynomials, never more than ``m``;
+    :class:`~skfunc.preprocessing.CurveSmoother` grows this B-spline default
+    when its fit uses nearly all of it (see its Notes). Without a penalty
+    (``alpha=0``) it may not exceed the number of grid points.
 degree : int, default=3
     Degree of the B-splines (3: cubic). Ignored by the other bases.
 interior_knots : array-like of shape (n_knots,), default=None

@@ -24,7 +24,9 @@ estimator using it defines:
   statistics need something computed once per batch;
 * ``_merge_statistics``: the merge of its statistics (default
   :func:`skfunc._penalized.merge`, sums key by key);
-* ``_solve(stats)``: set the fitted attributes from merged statistics.
+* ``_solve(stats)``: set the fitted attributes from merged statistics;
+* optionally ``_first_batch(stats, arrays)``: the first batch's statistics,
+  possibly recomputed after fixing a size chosen from that batch.
 
 Set ``_accepts_dask = True`` once all of that runs on
 :func:`skfunc._blocks.compute_statistics`.
@@ -164,6 +166,8 @@ class AdditiveFitMixin(ShortReprMixin):
             # raises, naming the first NaN or inf of X; finite values whose
             # sums overflowed go on to the solve, which says so
             self._validate_batch(X, y, sample_weight, first=first)
+        if first:
+            stats = self._first_batch(stats, arrays)
         n_rows = arrays[0].shape[0]
         if not first:
             stats = self._merge_statistics(self._partial_statistics, stats)
@@ -179,6 +183,13 @@ class AdditiveFitMixin(ShortReprMixin):
         that reaches them by another route (all rows at once)."""
         self._partial_statistics = stats
         self.n_samples_seen_ = int(n_rows)
+
+    def _first_batch(self, stats, arrays):
+        """The first batch's statistics, before later batches merge into them:
+        where an estimator may fix a size chosen from the data (it must be
+        fixed before statistics are summed); ``arrays`` are the validated
+        batch's. The default keeps them."""
+        return stats
 
     def _solve_statistics(self):
         """Set the fitted attributes from the statistics of all batches so far."""

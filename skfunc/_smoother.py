@@ -41,11 +41,12 @@ from ._alpha import (
     reml_criterion,
     reml_score,
 )
-from ._bases import check_unpenalized_fit
+from ._bases import check_unpenalized_fit, grown_n_basis
 from ._blocks import (
     apply_rows,
     block_product,
     chunked_matmul,
+    compute_statistics,
     output_dtype,
     row_blocks,
     single_thread_blas_up_to,
@@ -65,7 +66,13 @@ from ._penalized import (
     power_of_two,
     power_of_two_scale,
 )
-from ._validation import BASIS_CONSTRAINTS, CHANNEL_N_BASIS, basis_for, validate_curves
+from ._validation import (
+    BASIS_CONSTRAINTS,
+    CHANNEL_N_BASIS,
+    MAX_N_BASIS,
+    basis_for,
+    validate_curves,
+)
 
 
 def _check_eval_points(points):
@@ -139,6 +146,26 @@ def _weighted_squares(X, w, scale=1.0):
             block = np.asarray(X[part], dtype=np.float64) / scale
             out[part] = np.einsum("ij,ij,j->i", block, block, w)
     return out
+
+
+#: share of the basis (mean edf per curve at the chosen alpha over
+#: ``n_basis_``) above which a default basis grows: at 0.9 the penalty removes
+#: less than a tenth of the basis' dimensions, so the fit is close to the
+#: unpenalized one and the number of functions, not alpha, limits it; smooth
+#: curves choose far less (sines of one to four cycles plus noise on 601
+#: points: edf 19 to 23 of 39), so they never pay for a trial. The invented
+#: kiln curves choose 38.7 of 39 (sharp corners where ramp meets soak) and
+#: do grow, to 74
+GROW_EDF_FRACTION = 0.9
+
+
+def _gcv_of(stats):
+    """Pooled GCV score per candidate, of the scaled curves: the criterion
+    that compares basis sizes on one batch (Ruppert 2002), whatever
+    ``criterion`` chooses alpha."""
+    if not stats["n_obs"]:
+        return np.full(np.shape(stats["rss"]), np.inf)
+    return gcv_score(stats["rss"], stats["edf"], stats["n_obs"], stats["weight"])
 
 
 def _choose_rows(scores, alphas, name):
@@ -325,6 +352,10 @@ class PenalizedFitMixin:
     #: whether curves may miss values (NaN)
     _allow_nan = False
 
+    #: whether ``n_basis=None`` with a chosen alpha may grow the basis on the
+    #: first batch (:meth:`_first_batch`)
+    _grows_default_basis = False
+
     def __sklearn_tags__(self):
         tags = super().__sklearn_tags__()
         tags.input_tags.allow_nan = self._allow_nan
@@ -336,8 +367,58 @@ class PenalizedFitMixin:
     def _validate_batch(self, X, y, sample_weight, first):
         X = validate_curves(self, X, reset=first, allow_nan=self._allow_nan)
         if first:
+            vars(self).pop("_grown_n_basis", None)
             self._setup(X)
         return (X,)
+
+    def _first_batch(self, stats, arrays):
+        """Grow a default basis that limits the fit, on the first batch.
+
+        Ruppert (2002)'s "myopic" algorithm: when the chosen fit uses nearly
+        all of the basis (mean ``edf`` per curve at the chosen alpha above
+        ``GROW_EDF_FRACTION`` of ``n_basis_``: the penalty then barely
+        acts, so the basis size, not alpha, decides the smooth), double the
+        interior knots (:func:`skfunc._bases.grown_n_basis`) and keep the
+        larger basis while its smallest GCV score is lower, repeating the
+        test on the kept one. Only B-splines with ``n_basis`` and
+        ``interior_knots`` left at None and alpha chosen from the data; a
+        fit that does not trigger costs nothing more (the test reads the
+        statistics already computed). Each larger basis costs one more pass
+        over the batch. The size is fixed here, before later batches'
+        statistics are summed, so ``partial_fit`` decides it on its first
+        batch. Needs ``n_basis_`` from ``_setup`` (CurveSmoother's).
+        """
+        if not (self._grows_default_basis and self.n_basis is None
+                and self.interior_knots is None and self.basis == "bspline"
+                and not isinstance(self._alpha(), float)):
+            return stats
+        n_rows = arrays[0].shape[0]
+        best = np.min(_gcv_of(stats))
+        while True:
+            with warnings.catch_warnings():  # _solve warns about the final choice
+                warnings.simplefilter("ignore")
+                chosen = _choose_rows(self._scores(stats), self.alphas_path_,
+                                      self.criterion.upper())[0]
+            if stats["edf"][chosen] <= GROW_EDF_FRACTION * self.n_basis_ * n_rows:
+                return stats
+            larger = grown_n_basis(self.n_basis_, self.grid_.size, self.degree,
+                                   limit=MAX_N_BASIS)
+            if larger is None:
+                return stats
+            kept = getattr(self, "_grown_n_basis", None)
+            self._grown_n_basis = larger
+            self._setup(arrays[0])
+            trial = compute_statistics(self._statistics_function(), *arrays,
+                                       merge=self._merge_statistics)
+            score = np.min(_gcv_of(trial))
+            if not score < best:  # no improvement: back to the kept basis
+                if kept is None:
+                    del self._grown_n_basis
+                else:
+                    self._grown_n_basis = kept
+                self._setup(arrays[0])
+                return stats
+            stats, best = trial, score
 
     def _setup(self, X):
         """Everything that depends on the parameters and grid only."""
@@ -440,9 +521,7 @@ class PenalizedFitMixin:
         if self.criterion == "reml":
             return reml_score(stats["pen_rss"], stats["dof"], stats["logdet"],
                               log_scale=2 * x_exp * np.log(2.0))
-        if not stats["n_obs"]:
-            return np.full(self.alphas_path_.size, np.inf)
-        scores = gcv_score(stats["rss"], stats["edf"], stats["n_obs"], stats["weight"])
+        scores = _gcv_of(stats)
         return gcv_in_data_units(scores, x_exp) if data_units else scores
 
     def _choose(self, stats):
@@ -529,7 +608,8 @@ class CurveSmoother(ChannelwiseMixin, PenalizedFitMixin, AdditiveTransformerMixi
     eval_points_ : ndarray of shape (n_outputs,)
         Points at which :meth:`transform` evaluates the curves.
     n_basis_ : int
-        Number of basis functions.
+        Number of basis functions: with ``n_basis=None``, the default or the
+        larger basis the fit chose (Notes).
     %(alpha_attributes)s
     edf_ : float
         Effective degrees of freedom (trace of the hat matrix) of the smoother
@@ -575,22 +655,37 @@ class CurveSmoother(ChannelwiseMixin, PenalizedFitMixin, AdditiveTransformerMixi
     (linearly across long gaps and beyond the last observation, for
     ``penalty_order=2``).
 
-    With ``n_basis=None`` there are at most 39 cubic B-splines (35 interior
-    knots; :doc:`/bases_and_penalties`). Long records with fine structure
-    may need more, and then the basis, not alpha, limits the smooth: an
-    ``edf_`` close to ``n_basis_`` is the sign (the chosen alpha already
-    gives nearly the unpenalized fit), and a larger ``n_basis`` is the
-    remedy. On the open PigCVP set (2,000 points of a pressure signal per
-    curve) the default chose ``edf_`` 38.7 of 39 and removed a residual of
-    root mean square 1.34 from curves whose values vary by 1.55 (standard
-    deviation within a curve), detail a classifier used:
-    ``LogisticRegression()`` scored 0.053 on the smoothed values against
-    0.096 on the raw ones, 0.091 with ``n_basis=100`` (``edf_`` 98.8) and
-    0.101 with ``n_basis=200`` (``edf_`` 194); run to convergence
-    (``max_iter=1000``), 0.077 against 0.115, and 0.115 with
-    ``n_basis=200``. The smoothed values keep the
-    scale of the raw ones, so a model downstream needs no rescaling that
-    the raw values would not need (:doc:`/open_data`).
+    With ``n_basis=None`` the fit starts from at most 39 cubic B-splines (35
+    interior knots; :doc:`/bases_and_penalties`). Long records with fine
+    structure may need more, and then the basis, not alpha, limits the
+    smooth: the chosen alpha gives nearly the unpenalized fit. So when
+    alpha is chosen from the data, a default B-spline basis grows, following
+    the "myopic" rule of Ruppert (2002): if the mean effective degrees of
+    freedom per training curve at the chosen alpha exceed 0.9 of the basis
+    size, the interior knots double (at most one knot per four grid points),
+    and the larger basis is kept while its smallest pooled GCV score is lower
+    (GCV also with ``criterion="reml"``: restricted likelihoods of different
+    bases are not compared). ``n_basis_`` reports the size used. Smooth
+    curves choose far fewer degrees of freedom than the basis holds and
+    never try a larger one, so their fit costs nothing more; each larger
+    basis tried costs one more pass over the curves. The size is decided on
+    the first batch (``fit``'s curves, ``partial_fit``'s first call, a Dask
+    array as a whole), because later batches' statistics must be summed in
+    a fixed basis. An explicit ``n_basis`` or ``interior_knots``, a fixed
+    alpha and the other bases are never changed. A trigger needs a basis
+    that partly follows the curves: where the default basis cannot follow
+    them at all (many more cycles than knots), GCV sees noise, chooses a
+    nearly straight line, and an explicit larger ``n_basis`` is the remedy.
+
+    On the open PigCVP set (2,000 points of a pressure signal per curve)
+    the default basis of 39 functions chose ``edf_`` 38.7 and removed a
+    residual of root mean square 1.34 from curves whose values vary by
+    1.55 (standard deviation within a curve), detail a classifier used:
+    ``CurveSmoother()``, ``StandardScaler()`` and ``LogisticRegression()``
+    scored 0.082 against 0.096 on the raw values. The grown default uses
+    504 functions (``edf_`` 498.5) and scores 0.101. The smoothed values
+    keep the scale of the raw ones, so a model downstream needs no
+    rescaling that the raw values would not need (:doc:`/open_data`).
 
     %(cautions)s
 
@@ -608,6 +703,9 @@ class CurveSmoother(ChannelwiseMixin, PenalizedFitMixin, AdditiveTransformerMixi
 
     Ramsay, J. O. and Silverman, B. W. (2005). *Functional Data Analysis*,
     2nd ed., ch. 5. Springer.
+
+    Ruppert, D. (2002). Selecting the number of knots for penalized splines.
+    *Journal of Computational and Graphical Statistics* 11(4), 735-757.
 
     Examples
     --------
@@ -645,6 +743,9 @@ class CurveSmoother(ChannelwiseMixin, PenalizedFitMixin, AdditiveTransformerMixi
 
     #: missing values are filled in
     _allow_nan = True
+
+    #: n_basis=None grows a basis the fit finds too small
+    _grows_default_basis = True
 
     _parameter_constraints = {
         **BASIS_CONSTRAINTS,

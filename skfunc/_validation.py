@@ -260,7 +260,10 @@ def basis_for(estimator, grid, cap=True):
     With ``n_basis=None`` on a grid of fewer than ``degree + 1`` points, the
     B-spline degree is lowered to ``n_points - 1`` (the polynomial through the
     points): the adaptive default serves tiny grids, while an explicit
-    ``n_basis`` the degree cannot support stays an error.
+    ``n_basis`` the degree cannot support stays an error. With
+    ``n_basis=None``, a size the fit chose from the data (the estimator's
+    ``_grown_n_basis``, :meth:`skfunc._smoother.PenalizedFitMixin._first_batch`)
+    replaces the default.
     """
     sizes = getattr(estimator, "channel_sizes_", None)
     if sizes is not None and np.shape(grid) == np.shape(estimator.grid_) \
@@ -282,7 +285,11 @@ def _single_basis_for(estimator, grid, cap):
     name = estimator.basis
     degree = getattr(estimator, "degree", 3)
     knots = getattr(estimator, "interior_knots", None)
-    n_basis = resolve_n_basis(name, estimator.n_basis, grid.size, degree, knots, cap)
+    # a default basis the fit has grown (PenalizedFitMixin._first_batch)
+    n_basis = estimator.n_basis
+    if n_basis is None:
+        n_basis = getattr(estimator, "_grown_n_basis", None)
+    n_basis = resolve_n_basis(name, n_basis, grid.size, degree, knots, cap)
     if name == "bspline" and estimator.n_basis is None and knots is None:
         degree = min(degree, n_basis - 1)
     period = getattr(estimator, "period", None)
