@@ -406,19 +406,24 @@ class PenalizedFitMixin:
             if larger is None:
                 return stats
             kept = getattr(self, "_grown_n_basis", None)
-            self._grown_n_basis = larger
-            self._setup(arrays[0])
+            self._resize(larger, arrays[0])
             trial = compute_statistics(self._statistics_function(), *arrays,
                                        merge=self._merge_statistics)
             score = np.min(_gcv_of(trial))
             if not score < best:  # no improvement: back to the kept basis
-                if kept is None:
-                    del self._grown_n_basis
-                else:
-                    self._grown_n_basis = kept
-                self._setup(arrays[0])
+                self._resize(kept, arrays[0])
                 return stats
             stats, best = trial, score
+
+    def _resize(self, n_basis, X):
+        """Set up anew with a grown default basis of ``n_basis`` functions
+        (None: the default size); the problem of the old size is dropped."""
+        if n_basis is None:
+            vars(self).pop("_grown_n_basis", None)
+        else:
+            self._grown_n_basis = n_basis
+        vars(self).get("_problem_cache", []).clear()
+        self._setup(X)
 
     def _setup(self, X):
         """Everything that depends on the parameters and grid only."""
@@ -764,6 +769,16 @@ class CurveSmoother(ChannelwiseMixin, PenalizedFitMixin, AdditiveTransformerMixi
         store_init_params(self, locals())
 
     # -- fitting: grid-only setup, additive statistics, solve ----------------
+
+    def _resize(self, n_basis, X):
+        """Set up anew with a grown default basis of ``n_basis`` functions
+        (None: the default size); the problem of the old size is dropped."""
+        if n_basis is None:
+            vars(self).pop("_grown_n_basis", None)
+        else:
+            self._grown_n_basis = n_basis
+        vars(self).get("_problem_cache", []).clear()
+        self._setup(X)
 
     def _setup(self, X):
         """Everything that depends on the parameters and grid only."""
