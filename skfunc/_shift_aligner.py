@@ -7,6 +7,7 @@ import numpy as np
 from sklearn.utils._param_validation import Interval, StrOptions
 
 from ._aligner_base import AlignerBase
+from ._blocks import single_thread_blas
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._grid import quadrature_weights
@@ -205,8 +206,12 @@ class ShiftAligner(AlignerBase):
     def _shifts(self, X, template):
         criterion = ShiftCriterion(self.grid_, template, self.candidate_shifts_, self.ends)
         out = np.empty(X.shape[0])
-        for rows in self._row_blocks(X.shape[0]):
-            out[rows] = criterion.best_shifts(X[rows])
+        # one BLAS thread: a block's products are small, and a team of
+        # threads meeting once per block waits for each other (seconds per
+        # fit on a busy machine)
+        with single_thread_blas():
+            for rows in self._row_blocks(X.shape[0]):
+                out[rows] = criterion.best_shifts(X[rows])
         return out
 
     def _shifted(self, X, shifts, rows):
