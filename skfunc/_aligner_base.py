@@ -6,7 +6,7 @@ from sklearn.base import BaseEstimator, TransformerMixin
 from sklearn.utils._param_validation import StrOptions
 from sklearn.utils.validation import _check_feature_names_in, check_array, check_is_fitted
 
-from ._blocks import output_dtype, row_blocks
+from ._blocks import cache_rows, output_dtype, row_blocks
 from ._docstrings import fill_doc
 from ._estimator import PreservesFloat32Mixin, ShortReprMixin
 from ._validation import validate_curves
@@ -66,7 +66,29 @@ class AlignerBase(ShortReprMixin, PreservesFloat32Mixin, TransformerMixin, BaseE
         return self
 
     def _row_blocks(self, n):
-        return row_blocks(n, self.grid_.size)
+        """Blocks of rows whose temporaries stay in cache."""
+        return row_blocks(n, self.grid_.size, rows=cache_rows(self.grid_.size))
+
+    def _by_blocks(self, func, n):
+        """``func(rows)`` (rows of curves on the grid) for every block of
+        :meth:`_row_blocks`, in one (n, n_features) array."""
+        out = np.empty((n, self.grid_.size))
+        for rows in self._row_blocks(n):
+            out[rows] = func(rows)
+        return out
+
+    def _mean_by_blocks(self, func, n):
+        """Mean of the rows of ``func(rows)`` over the blocks of
+        :meth:`_row_blocks`, without holding them all: the rows are added one
+        after the other, as ``np.mean(..., axis=0)`` adds the rows of one
+        array, so the result is the same bit for bit."""
+        total = None
+        for rows in self._row_blocks(n):
+            block = func(rows)
+            if total is not None:
+                block = np.concatenate([total[None, :], block])
+            total = block.sum(axis=0)
+        return total / n
 
     @fill_doc
     def transform(self, X):

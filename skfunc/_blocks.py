@@ -5,7 +5,9 @@ fit needs from the data (counts, sums, cross products) is additive over rows.
 This module runs that one path on whatever holds the rows:
 
 * :func:`row_blocks` cuts rows into blocks of about :data:`CHUNK_VALUES`
-  values, the one memory bound of every in-memory loop over rows;
+  values, the one memory bound of every in-memory loop over rows
+  (:func:`cache_rows`: blocks of :data:`CACHE_VALUES`, for row-wise work
+  whose temporaries should stay in cache);
 * :func:`compute_statistics` applies a per-block statistics function to row
   blocks of numpy arrays, or, for Dask arrays, to every block on the workers,
   and reduces the results in a tree, so only statistic-sized results (K x K,
@@ -34,6 +36,13 @@ from ._penalized import merge as merge_sums
 #: this many values (32 MiB of float64)
 CHUNK_VALUES = 1 << 22
 
+#: rows per block of a row-wise computation whose temporaries are as large
+#: as the block (interpolation, scoring candidates) are chosen so that one
+#: block holds about this many values (1 MiB of float64): its temporaries
+#: stay within a core's cache, so the time per row does not grow with the
+#: number of rows
+CACHE_VALUES = 1 << 17
+
 #: how many partial results one task of the tree reduction merges
 SPLIT_EVERY = 8
 
@@ -49,6 +58,11 @@ def row_blocks(n_rows, n_features, rows=None):
     :data:`CHUNK_VALUES` values (or of ``rows`` rows)."""
     rows = rows or max(1, CHUNK_VALUES // max(int(n_features), 1))
     return [slice(start, min(start + rows, n_rows)) for start in range(0, n_rows, rows)]
+
+
+def cache_rows(n_features):
+    """Rows of ``n_features`` values that hold about :data:`CACHE_VALUES`."""
+    return max(1, CACHE_VALUES // max(int(n_features), 1))
 
 
 def compute_statistics(statistics, X, *others, merge=merge_sums):

@@ -22,7 +22,7 @@ import numpy as np
 from sklearn.utils.validation import check_array
 
 from ._docstrings import fill_doc
-from ._grid import grid_weights, resolve_grid
+from ._grid import check_curve_points, grid_weights, resolve_grid
 
 #: 1 / Phi^{-1}(3/4): makes the MAD a consistent scale for normal data
 #: (common practice; Hampel, 1974)
@@ -44,11 +44,7 @@ def check_curves(X, name="X", *, min_curves=1, what="this depth"):
     """``X`` as a finite float64 array of curves (rows) with >= 2 grid points."""
     values = check_array(X, dtype=np.float64, ensure_all_finite=True,
                          ensure_min_samples=1, input_name=name)
-    if values.shape[1] < 2:
-        raise ValueError(
-            f"{name} has {values.shape[1]} column(s); a curve needs at least 2 grid "
-            "points (columns)."
-        )
+    check_curve_points(values.shape[1], data_name=name)
     if values.shape[0] < min_curves:
         raise ValueError(
             f"{name} has {values.shape[0]} curve(s); {what} needs at least "

@@ -16,10 +16,11 @@ SECONDS_PER_DAY = 86400.0
 QUADRATURES = ("trapezoid", "simpson")
 
 
-def check_curve_points(n_columns, n_covariates=0):
+def check_curve_points(n_columns, n_covariates=0, data_name="X"):
     """Raise unless X's ``n_columns`` leave at least 2 grid points, one per
     column, before its ``n_covariates`` trailing scalar columns: a single
-    point cannot carry a curve (the one rule for numpy and Dask input)."""
+    point cannot carry a curve (the one rule for numpy and Dask input, and
+    for curves passed under another name, ``data_name``)."""
     n_points = n_columns - n_covariates
     if n_covariates and n_points < 2:
         raise ValueError(
@@ -30,8 +31,8 @@ def check_curve_points(n_columns, n_covariates=0):
         )
     if n_columns < 2:
         raise ValueError(
-            f"X has {n_columns} feature(s) (grid points); a curve needs at least "
-            f"2 grid points, one per column of X, to be represented."
+            f"{data_name} has {n_columns} feature(s) (grid points); a curve needs at "
+            f"least 2 grid points, one per column of {data_name}, to be represented."
         )
 
 

@@ -1,5 +1,7 @@
 """LandmarkAligner: smooth monotone warps that map landmarks onto targets."""
 
+from functools import partial
+
 import numpy as np
 from sklearn.utils._param_validation import StrOptions
 
@@ -197,7 +199,8 @@ class LandmarkAligner(AlignerBase):
                 f"target_landmarks has {self.target_landmarks_.size} times but the "
                 f"curves have {self.landmarks_.shape[1]} landmarks each."
             )
-        self.template_ = compose(self.grid_, X, self._warp(self.landmarks_, True)).mean(axis=0)
+        self.template_ = self._mean_by_blocks(
+            partial(self._aligned, X, self.landmarks_), X.shape[0])
         return self
 
     def _warp(self, times, inverse):
@@ -219,8 +222,14 @@ class LandmarkAligner(AlignerBase):
                 f"landmarks has {times.shape[1]} times per curve; the aligner was "
                 f"fitted with {self.target_landmarks_.size}."
             )
-        return (compose(self.grid_, X, self._warp(times, True)) if curves else None,
-                self._warp(times, False) if warps else None)
+        n = X.shape[0]
+        return (self._by_blocks(partial(self._aligned, X, times), n) if curves else None,
+                self._by_blocks(lambda rows: self._warp(times[rows], False), n)
+                if warps else None)
+
+    def _aligned(self, X, times, rows):
+        """The curves of these rows, aligned: ``x_i o gamma_i^{-1}``."""
+        return compose(self.grid_, X[rows], self._warp(times[rows], True))
 
     @fill_doc
     def transform(self, X, landmarks=None):

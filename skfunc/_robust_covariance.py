@@ -21,7 +21,10 @@ starts them from six deterministic estimates instead:
 4. from each, the ``ceil(n / 2)`` nearest points give a mean and a
    covariance, their ``h`` nearest points a first subset, and concentration
    steps (C-steps) run to convergence; the subset with the smallest
-   determinant wins.
+   determinant wins. A C-step's result depends on its subset only, so a
+   start whose path reaches a subset an earlier start's path went through
+   ends as that one did, without running the steps again (the starts often
+   give the same first subset).
 
 As in scikit-learn's :class:`sklearn.covariance.MinCovDet`, ``h`` is
 ``ceil((n + p + 1) / 2)``; the raw distances are made consistent at the
@@ -35,7 +38,7 @@ Everything is computed on the rows sorted lexicographically, so the result
 depends on the set of rows only, not on their order, bit for bit, and there
 is no random number generator. For a fixed number of variables the cost is
 O(n log n) per sort, O(n) per C-step and O(n log n) per round of the exact
-Qn selection (one or two rounds for 500 to 500,000 points; each round that
+Qn selection (two rounds for 500 to 500,000 points; each round that
 fails to bracket the target falls back to a weighted-median pivot, so the
 worst case is O(n log^2 n)).
 """
@@ -62,9 +65,11 @@ REWEIGHT_QUANTILE = 0.975
 #: or leaves the subset unchanged, so they stop long before)
 MAX_C_STEPS = 200
 #: candidate pairwise differences are gathered and selected directly once
-#: at most this many per point, or GATHER_ANY in all, are left
+#: at most this many per point, or GATHER_ANY in all, are left (a larger
+#: GATHER_ANY makes a fixed cost: 2**16 made Qn of 500 points cost twice
+#: as much per point as of 4,000)
 GATHER_PER_POINT = 4
-GATHER_ANY = 1 << 16
+GATHER_ANY = 1 << 12
 #: a covariance whose smallest eigenvalue is below this fraction of its
 #: largest is singular (an exact fit: points on a hyperplane)
 SINGULAR_RTOL = 1e-12
@@ -282,23 +287,53 @@ def _start(Z, S):
     return centre, vectors * variances @ vectors.T
 
 
-def _concentrate(Z, subset, h):
-    """C-steps (Rousseeuw & Van Driessen, 1999) from a subset until it no
-    longer changes: the h points nearest the subset's mean in its metric.
-    Returns (determinant, subset); determinant 0 for an exact fit."""
-    member = np.zeros(Z.shape[0], dtype=bool)
-    member[subset] = True
-    for _ in range(MAX_C_STEPS):
-        mean, cov = _mean_cov(Z[member])
-        metric = _metric(cov)
-        if metric is None:
-            return 0.0, member
-        new = np.zeros_like(member)
-        new[_nearest(_sq_distances(Z, mean, metric), h)] = True
-        if np.array_equal(new, member):
-            return float(np.prod(metric[0])), member
-        member = new
-    return float(np.linalg.det(_mean_cov(Z[member])[1])), member
+class _Paths:
+    """C-step paths (Rousseeuw & Van Driessen, 1999) from several starts,
+    sharing their common parts.
+
+    A C-step replaces a subset by the h points nearest its mean in its
+    metric: the next subset depends on the current one only. So once a path
+    reaches a subset an earlier path went through, it ends as that path
+    ended, the same number of steps later; the rest is not recomputed (the
+    starts of DetMCD often give the same first subsets). Results are those
+    of running every path in full, as long as the shortcut stays within
+    MAX_C_STEPS; otherwise the path runs on.
+    """
+
+    def __init__(self, Z, h):
+        self.Z, self.h = Z, h
+        self.seen = {}  # subset's bytes -> (index of the path's outcome, step)
+        self.outcomes = []  # (determinant, subset, step it ended at or None)
+
+    def concentrate(self, subset):
+        """C-steps from a subset until it no longer changes. Returns
+        (determinant, subset); determinant 0 for an exact fit."""
+        Z, h = self.Z, self.h
+        member = np.zeros(Z.shape[0], dtype=bool)
+        member[subset] = True
+        index = len(self.outcomes)
+        for step in range(MAX_C_STEPS):
+            key = np.packbits(member).tobytes()
+            earlier, at = self.seen.get(key, (index, 0))
+            if earlier != index:
+                det, final, end = self.outcomes[earlier]
+                if end is not None and step + end - at < MAX_C_STEPS:
+                    return self._ended(det, final, step + end - at)
+            self.seen.setdefault(key, (index, step))
+            mean, cov = _mean_cov(Z[member])
+            metric = _metric(cov)
+            if metric is None:
+                return self._ended(0.0, member, step)
+            new = np.zeros_like(member)
+            new[_nearest(_sq_distances(Z, mean, metric), h)] = True
+            if np.array_equal(new, member):
+                return self._ended(float(np.prod(metric[0])), member, step)
+            member = new
+        return self._ended(float(np.linalg.det(_mean_cov(Z[member])[1])), member, None)
+
+    def _ended(self, det, member, step):
+        self.outcomes.append((det, member, step))
+        return det, member
 
 
 def deterministic_mcd(X):
@@ -327,6 +362,7 @@ def deterministic_mcd(X):
         )
     Z = (Xs - median) / scale
     results = []
+    paths = _Paths(Z, h)
     for S in _starting_matrices(Z):
         start = _start(Z, S)
         metric = None if start is None else _metric(start[1])
@@ -337,7 +373,7 @@ def deterministic_mcd(X):
         if metric is None:
             results.append((0.0, None))
         else:
-            results.append(_concentrate(Z, _nearest(_sq_distances(Z, mean, metric), h), h))
+            results.append(paths.concentrate(_nearest(_sq_distances(Z, mean, metric), h)))
     determinants = np.array([det for det, _ in results])
     found = [i for i, (_, member) in enumerate(results) if member is not None]
     if not found:

@@ -1,11 +1,13 @@
 """ShiftAligner: align curves by shifting them in time."""
 
+from functools import partial
 from numbers import Integral, Real
 
 import numpy as np
 from sklearn.utils._param_validation import Interval, StrOptions
 
 from ._aligner_base import AlignerBase
+from ._blocks import single_thread_blas
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._grid import quadrature_weights
@@ -18,55 +20,71 @@ ENDS = ("constant", "overlap")
 N_HALF = 32
 
 
-def shift_costs(grid, X, template, shifts, ends):
-    """L2 criterion of every curve at every candidate shift, shape (n, K).
+class ShiftCriterion:
+    """L2 criterion of curves at every candidate shift against one template.
 
     ``cost[i, k] = int_a^b (x_i(t + d_k) - T(t))^2 dt`` with ``x_i`` held at
     its end values beyond the domain (``ends="constant"``), or the mean of
     the squared difference over the overlap of the two domains
     (``ends="overlap"``). The change of variables ``s = t + d_k`` moves the
     shift onto the template, so all candidates cost two matrix products with
-    X; integrals are exact for the piecewise-linear interpolants.
+    X; integrals are exact for the piecewise-linear interpolants. The
+    template's side (weights over each candidate's overlap, the shifted
+    template) is computed once here, so that calling it on small blocks of
+    curves costs no more per curve than on all of them.
     """
-    a, b = grid[0], grid[-1]
-    lo = a + np.maximum(shifts, 0.0)
-    hi = b + np.minimum(shifts, 0.0)
-    W = partial_weights(grid, lo, hi)  # (K, m), over s in [lo, hi]
-    T_shift = np.interp(grid[None, :] - shifts[:, None], grid, template)
-    WT = W * T_shift
-    cost = (X * X) @ W.T
-    cost -= 2.0 * (X @ WT.T)
-    cost += np.sum(WT * T_shift, axis=1)
-    if ends == "overlap":
-        return cost / (hi - lo)
-    # the part of [a, b] where x(t + d) is held at an end value
-    right = partial_weights(grid, b - np.maximum(shifts, 0.0), np.full_like(shifts, b))
-    left = partial_weights(grid, np.full_like(shifts, a), a + np.maximum(-shifts, 0.0))
-    for end_values, Wend, length in (
-        (X[:, -1], right, np.maximum(shifts, 0.0)),
-        (X[:, 0], left, np.maximum(-shifts, 0.0)),
-    ):
-        cost += end_values[:, None] ** 2 * length[None, :]
-        cost -= 2.0 * end_values[:, None] * (Wend @ template)[None, :]
-        cost += (Wend @ (template * template))[None, :]
-    return cost
 
+    def __init__(self, grid, template, shifts, ends):
+        a, b = grid[0], grid[-1]
+        lo = a + np.maximum(shifts, 0.0)
+        hi = b + np.minimum(shifts, 0.0)
+        self.shifts = shifts
+        self.W = partial_weights(grid, lo, hi)  # (K, m), over s in [lo, hi]
+        T_shift = np.interp(grid[None, :] - shifts[:, None], grid, template)
+        self.WT = self.W * T_shift
+        self.template_term = np.sum(self.WT * T_shift, axis=1)
+        self.overlap = hi - lo if ends == "overlap" else None
+        if ends == "overlap":
+            return
+        # the part of [a, b] where x(t + d) is held at an end value
+        right = partial_weights(grid, b - np.maximum(shifts, 0.0), np.full_like(shifts, b))
+        left = partial_weights(grid, np.full_like(shifts, a), a + np.maximum(-shifts, 0.0))
+        self.ends = [  # (column of X, length held, integrals of T and T^2 there)
+            (column, length, Wend @ template, Wend @ (template * template))
+            for column, length, Wend in ((-1, np.maximum(shifts, 0.0), right),
+                                         (0, np.maximum(-shifts, 0.0), left))
+        ]
 
-def best_shifts(grid, X, template, shifts, ends):
-    """The candidate shift with the smallest cost for every row, refined by
-    the vertex of the parabola through it and its two neighbours."""
-    cost = shift_costs(grid, X, template, shifts, ends)
-    k = np.argmin(cost, axis=1)
-    rows = np.arange(X.shape[0])
-    best = shifts[k]
-    inner = (k > 0) & (k < shifts.size - 1)
-    kk = np.clip(k, 1, shifts.size - 2)
-    c0, c1, c2 = cost[rows, kk - 1], cost[rows, kk], cost[rows, kk + 1]
-    curvature = c0 - 2.0 * c1 + c2
-    step = shifts[1] - shifts[0] if shifts.size > 1 else 0.0
-    with np.errstate(invalid="ignore", divide="ignore"):
-        move = np.where(curvature > 0, 0.5 * step * (c0 - c2) / curvature, 0.0)
-    return np.where(inner, best + np.clip(move, -step, step), best)
+    def __call__(self, X):
+        """The criterion of every row of X at every candidate, shape (n, K)."""
+        cost = (X * X) @ self.W.T
+        cost -= 2.0 * (X @ self.WT.T)
+        cost += self.template_term
+        if self.overlap is not None:
+            return cost / self.overlap
+        for column, length, end_template, end_square in self.ends:
+            end_values = X[:, column]
+            cost += end_values[:, None] ** 2 * length[None, :]
+            cost -= 2.0 * end_values[:, None] * end_template[None, :]
+            cost += end_square[None, :]
+        return cost
+
+    def best_shifts(self, X):
+        """The candidate shift with the smallest cost for every row, refined
+        by the vertex of the parabola through it and its two neighbours."""
+        shifts = self.shifts
+        cost = self(X)
+        k = np.argmin(cost, axis=1)
+        rows = np.arange(X.shape[0])
+        best = shifts[k]
+        inner = (k > 0) & (k < shifts.size - 1)
+        kk = np.clip(k, 1, shifts.size - 2)
+        c0, c1, c2 = cost[rows, kk - 1], cost[rows, kk], cost[rows, kk + 1]
+        curvature = c0 - 2.0 * c1 + c2
+        step = shifts[1] - shifts[0] if shifts.size > 1 else 0.0
+        with np.errstate(invalid="ignore", divide="ignore"):
+            move = np.where(curvature > 0, 0.5 * step * (c0 - c2) / curvature, 0.0)
+        return np.where(inner, best + np.clip(move, -step, step), best)
 
 
 @fill_doc
@@ -175,7 +193,8 @@ class ShiftAligner(AlignerBase):
             template = X.mean(axis=0)
             for it in range(1, self.max_iter + 1):  # noqa: B007  (n_iter_)
                 shifts = self._shifts(X, template)
-                new = self._shifted(X, shifts - shifts.mean()).mean(axis=0)
+                new = self._mean_by_blocks(
+                    partial(self._shifted, X, shifts - shifts.mean()), X.shape[0])
                 change = np.sqrt(((new - template) ** 2) @ w)
                 template = new
                 if change <= self.tol * np.sqrt((template ** 2) @ w):
@@ -185,20 +204,22 @@ class ShiftAligner(AlignerBase):
         self.shifts_ = self._shifts(X, self.template_)
 
     def _shifts(self, X, template):
+        criterion = ShiftCriterion(self.grid_, template, self.candidate_shifts_, self.ends)
         out = np.empty(X.shape[0])
-        for rows in self._row_blocks(X.shape[0]):
-            out[rows] = best_shifts(self.grid_, X[rows], template,
-                                    self.candidate_shifts_, self.ends)
+        # one BLAS thread: a block's products are small, and a team of
+        # threads meeting once per block waits for each other (seconds per
+        # fit on a busy machine)
+        with single_thread_blas():
+            for rows in self._row_blocks(X.shape[0]):
+                out[rows] = criterion.best_shifts(X[rows])
         return out
 
-    def _shifted(self, X, shifts):
-        out = np.empty_like(X)
-        for rows in self._row_blocks(X.shape[0]):
-            out[rows] = interp_rows(self.grid_[None, :] + shifts[rows, None],
-                                    self.grid_, X[rows])
-        return out
+    def _shifted(self, X, shifts, rows):
+        """The curves of these rows, shifted."""
+        return interp_rows(self.grid_[None, :] + shifts[rows, None], self.grid_, X[rows])
 
     def _align(self, X, curves=True, warps=True):
         shifts = self._shifts(X, self.template_)
-        return (self._shifted(X, shifts) if curves else None,
+        return (self._by_blocks(partial(self._shifted, X, shifts), X.shape[0])
+                if curves else None,
                 self.grid_[None, :] - shifts[:, None] if warps else None)

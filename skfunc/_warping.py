@@ -11,7 +11,13 @@ from math import gcd
 
 import numpy as np
 
+from ._blocks import CACHE_VALUES, cache_rows, row_blocks
 from ._grid import quadrature_weights
+
+#: most rows laid end to end in one np.interp by :func:`interp_rows`: the
+#: offsets that separate them cost bits of the points' precision (4,096 rows
+#: about 12 bits)
+INTERP_ROWS = 4096
 
 #: steps (di, dj) of the dynamic program: coprime pairs with 1 <= di, dj <= 4,
 #: so warps are piecewise linear with slopes between 1/4 and 4
@@ -37,15 +43,15 @@ def interp_rows(x_new, grid, Y):
     # one np.interp over the rows of a block laid end to end: each row's
     # points are clipped to the domain (constant beyond the ends) and offset
     # past the previous row, so np.interp's search starts next to the
-    # answer; blocks keep the offsets (and their rounding) small
+    # answer; blocks of cache size keep the temporaries in cache, and the
+    # offsets (and their rounding) small
     n, m = Y.shape
     a, b = grid[0], grid[-1]
     out = np.empty(x_new.shape)
-    block = 4096
+    block = min(INTERP_ROWS, cache_rows(max(m, x_new.shape[1])))
     offset = (np.arange(min(n, block), dtype=np.float64) * (2.0 * (b - a)))[:, None]
-    for start in range(0, n, block):
-        rows = slice(start, min(start + block, n))
-        off = offset[: rows.stop - start]
+    for rows in row_blocks(n, m, rows=block):
+        off = offset[: rows.stop - rows.start]
         query = np.clip(x_new[rows], a, b)
         query += off
         out[rows] = np.interp(
@@ -214,10 +220,11 @@ def dynamic_program_warps(grid, q_template, Q, penalty=0.0):
     if q1.shape[0] > 1:
         per_curve += steps * m * m
     block = max(1, min(DP_TABLE_VALUES // per_curve,
-                       DP_CACHE_VALUES // (_ROW_ARRAYS * steps * m)))
+                       CACHE_VALUES // (_ROW_ARRAYS * steps * m)))
+    shared = _TemplateSide(grid, q1, penalty) if q1.shape[0] == 1 else None
     for rows in np.array_split(np.arange(n), max(1, -(-n // block))):
         out[rows] = _DynamicProgram(
-            grid, q1 if q1.shape[0] == 1 else q1[rows], Q[rows], penalty
+            grid, q1 if shared is not None else q1[rows], Q[rows], penalty, shared
         ).warps()
     return out
 
@@ -225,11 +232,6 @@ def dynamic_program_warps(grid, q_template, Q, penalty=0.0):
 #: values (the table and its work arrays) held at once: curves are processed
 #: in blocks of about DP_TABLE_VALUES // (m^2 + 6 x 11 m) curves
 DP_TABLE_VALUES = 6_000_000
-
-#: values of the arrays of one table row (all steps, curves and columns)
-#: held at once: small enough for a core's cache, so that the time per curve
-#: does not grow with the number of curves
-DP_CACHE_VALUES = 131_072  # 1 MB of float64
 
 #: rows and columns of infinite energy before the table (a step reaches at
 #: most 4 back), so that every step reads the table without a test
@@ -245,45 +247,23 @@ def _steps_for(m):
     return [(di, dj) for di, dj in DP_STEPS if di < m and dj < m]
 
 
-class _DynamicProgram:
-    """The table of minimal energies for a block of curves and its path.
+class _TemplateSide:
+    """The template's pieces of every segment of the dynamic program, per
+    table row and step, for one template (shape (1, m): computed once and
+    shared by every block of curves) or one per curve (n, m)."""
 
-    The recursion runs one row of the table at a time; within a row, every
-    step, curve and column at once (arrays of shape (steps, curves,
-    columns)), with the curve-side and template-side pieces of every
-    segment computed before the loop, so the Python work per row is a fixed
-    dozen numpy calls. The step of each cell's minimum is kept (one byte)
-    and read when walking back. Each candidate is evaluated with the same
-    floating-point operations in the same order as a loop over steps would,
-    so the table and the path do not depend on this arrangement.
-    """
-
-    def __init__(self, grid, q_template, Q, penalty):
-        t = self.t = grid
+    def __init__(self, grid, q_template, penalty):
+        t = grid
         m = t.size
-        # one template for every curve (1, m), or one per curve (n, m)
         self.q1 = q1 = np.atleast_2d(np.asarray(q_template, dtype=np.float64))
-        self.Q = Q
         self.steps = _steps_for(m)
-        self.pen = penalty * (
-            (q1 ** 2) @ quadrature_weights(t) / (t[-1] - t[0])
-        )[:, None]
-        n, S = Q.shape[0], len(self.steps)
-        di = np.array([s[0] for s in self.steps])
-        dj = np.array([s[1] for s in self.steps])
-        # curve side, per step, lagged so that column j holds the values at
-        # the segment's start column j - dj: the curve, 4 x its midpoint
-        # value and Simpson's rule for int q^2 over [t_{j-dj}, t_j]
-        self.lagged = np.zeros((3, S, n, m))
-        for d in set(dj.tolist()):
-            mid = interp_rows(0.5 * (t[:-d] + t[d:]), t, Q)
-            sq = ((t[d:] - t[:-d]) / 6.0) * (Q[:, :-d] ** 2 + Q[:, d:] ** 2
-                                             + 4.0 * mid * mid)
-            for s in np.flatnonzero(dj == d):
-                self.lagged[:, s, :, d:] = Q[:, :-d], 4.0 * mid, sq
-        # template side, per table row i and step: the segment [t_k, t_i]
-        # (k = i - di; rows before the table get a finite stand-in, their
-        # energy is infinite), and the slope factors per column
+        pen = penalty * ((q1 ** 2) @ quadrature_weights(t) / (t[-1] - t[0]))[:, None]
+        S = len(self.steps)
+        self.di = di = np.array([s[0] for s in self.steps])
+        self.dj = np.array([s[1] for s in self.steps])
+        # per table row i and step: the segment [t_k, t_i] (k = i - di; rows
+        # before the table get a finite stand-in, their energy is infinite),
+        # and the slope factors per column
         i = np.arange(m)[:, None]
         k = np.maximum(i - di, 0)
         h = np.where(i - di >= 0, t[i] - t[k], 1.0)  # (m, S)
@@ -299,38 +279,76 @@ class _DynamicProgram:
         self.q1k, self.q1i, self.q1m = (np.moveaxis(v, 0, -1)[..., None]
                                         for v in (q1k, q1i, q1m))
         self.constant = (np.moveaxis(a1, 0, -1)[..., None]
-                         + self.pen * h[:, :, None, None]
+                         + pen * h[:, :, None, None]
                          * ((r - 1.0) ** 2)[:, :, None, :])
-        self.di, self.dj = di, dj
+
+
+class _DynamicProgram:
+    """The table of minimal energies for a block of curves and its path.
+
+    The recursion runs one row of the table at a time; within a row, every
+    step, curve and column at once (arrays of shape (steps, curves,
+    columns)), with the curve-side and template-side pieces of every
+    segment computed before the loop (the template side, a
+    :class:`_TemplateSide`, may be shared by the blocks), so the Python work
+    per row is a fixed dozen numpy calls. The step of each cell's minimum is
+    kept (one byte) and read when walking back. Each candidate is evaluated
+    with the same floating-point operations in the same order as a loop over
+    steps would, so the table and the path do not depend on this
+    arrangement.
+    """
+
+    def __init__(self, grid, q_template, Q, penalty, template_side=None):
+        t = self.t = grid
+        m = t.size
+        side = self.side = (template_side if template_side is not None
+                            else _TemplateSide(grid, q_template, penalty))
+        self.Q = Q
+        n, S = Q.shape[0], len(side.steps)
+        # curve side, per step, lagged so that column j holds the values at
+        # the segment's start column j - dj: the curve, 4 x its midpoint
+        # value and Simpson's rule for int q^2 over [t_{j-dj}, t_j]
+        self.lagged = np.zeros((3, S, n, m))
+        for d in set(side.dj.tolist()):
+            mid = interp_rows(0.5 * (t[:-d] + t[d:]), t, Q)
+            sq = ((t[d:] - t[:-d]) / 6.0) * (Q[:, :-d] ** 2 + Q[:, d:] ** 2
+                                             + 4.0 * mid * mid)
+            for s in np.flatnonzero(side.dj == d):
+                self.lagged[:, s, :, d:] = Q[:, :-d], 4.0 * mid, sq
 
     def warps(self):
-        Q, m, S = self.Q, self.t.size, len(self.steps)
+        side = self.side
+        Q, m, S = self.Q, self.t.size, len(side.steps)
         n = Q.shape[0]
         W = m + _PAD
         table = np.full((W, n, W), np.inf)
         table[_PAD, :, _PAD] = 0.0
         self.energy = table[_PAD:, :, _PAD:]
         choice = np.zeros((m, n, m), dtype=np.int8)
-        # each step's predecessors (k, l) = (i - di, j - dj) of a whole row:
-        # a slice of the padded table
-        preceding = [(_PAD - di, slice(_PAD - dj, _PAD - dj + m))
-                     for di, dj in self.steps]
+        # each step's predecessors (k, l) = (i - di, j - dj) of a whole row,
+        # all steps in one gather from a view of the padded table:
+        # window[i, a, :, b, j] = table[i + a, :, b + j], and step (di, dj)
+        # reads a = _PAD - di, b = _PAD - dj
+        t0, t1, t2 = table.strides
+        window = np.lib.stride_tricks.as_strided(
+            table, shape=(m, _PAD, n, _PAD, m), strides=(t0, t0, t1, t2, t2),
+            writeable=False)
+        back = _PAD - side.di
+        left = _PAD - side.dj
         lag_q, lag_mid, lag_sq = self.lagged
         c = np.empty((S, n, m))
         scratch = np.empty((S, n, m))
-        here = np.empty((max(n, self.q1.shape[0]), m))
+        here = np.empty((max(n, side.q1.shape[0]), m))
         first = np.empty((S, n, m), dtype=np.int8)
         order = np.arange(S, dtype=np.int8)[:, None, None]
         for i in range(1, m):
-            np.multiply(lag_q, self.q1k[i], out=c)
-            c += np.multiply(self.q1i[i, 0], Q, out=here)  # the same for every step
-            c += np.multiply(self.q1m[i], lag_mid, out=scratch)
-            c *= self.factor[i][:, None, :]
+            np.multiply(lag_q, side.q1k[i], out=c)
+            c += np.multiply(side.q1i[i, 0], Q, out=here)  # the same for every step
+            c += np.multiply(side.q1m[i], lag_mid, out=scratch)
+            c *= side.factor[i][:, None, :]
             c += lag_sq
-            for s, (back, cols) in enumerate(preceding):
-                scratch[s] = table[i + back, :, cols]
-            c += scratch
-            c += self.constant[i]
+            c += window[i, back, :, left]
+            c += side.constant[i]
             row = np.min(c, axis=0, out=self.energy[i])
             # the first step reaching the minimum (as argmin, faster)
             np.copyto(first, S)
@@ -343,8 +361,8 @@ class _DynamicProgram:
         once); the warp is linear between the path's vertices."""
         t = self.t
         n, m = self.Q.shape
-        di, dj = np.r_[self.di, 0], np.r_[self.dj, 0]  # a last step that stays
-        choice[0] = len(self.steps)
+        di, dj = np.r_[self.side.di, 0], np.r_[self.side.dj, 0]  # a last step that stays
+        choice[0] = len(self.side.steps)
         rows = np.arange(n)
         vertex = np.zeros((n, m), dtype=bool)
         target = np.zeros((n, m), dtype=np.intp)  # the path's column at a vertex row

@@ -31,7 +31,7 @@ from conftest import make_case
 from sklearn.base import clone
 from sklearn.linear_model import Ridge
 
-from skfunc import hilbert, metrics
+from skfunc import hilbert, metrics, outliers
 from skfunc._alpha import AlphaAtEdgeWarning
 from skfunc.persistence import load_model, save_model
 from skfunc.utils import all_estimators
@@ -166,6 +166,16 @@ FUNCTION_CASES = [
     ("correlation-rows-differ", lambda p: hilbert.correlation(XS, XS[:2]), ["curves"]),
     ("simple_regression-constant-x",
      lambda p: hilbert.simple_regression(np.full(30, 3.0), T), ["constant x"]),
+    # depth: the one message of a curve with fewer than 2 grid points, naming
+    # the array
+    ("depth-one-point", lambda p: outliers.modified_band_depth(XS[:, :1]),
+     ["X has 1 feature(s) (grid points); a curve needs at least 2 grid points"]),
+    ("depth-reference-one-point", lambda p: outliers.integrated_depth(
+        XS[:, :1], reference=XS[:, :1]),
+     ["X has 1 feature(s) (grid points); a curve needs at least 2 grid points"]),
+    ("depth-reference-one-point-only", lambda p: outliers.band_depth(
+        XS, reference=XS[:, :1]),
+     ["reference has 1 feature(s) (grid points); a curve needs at least 2 grid points"]),
     # metrics
     ("r2-negative-weights", lambda p: metrics.integrated_r2_score(
         XS, XS + 0.1, sample_weight=-np.ones(5)), ["sample_weight"]),

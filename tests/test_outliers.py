@@ -21,7 +21,9 @@ from sklearn.decomposition import PCA
 from sklearn.utils.estimator_checks import parametrize_with_checks
 
 from skfunc._robust_covariance import (
+    MAX_C_STEPS,
     QN_SMALL,
+    _Paths,
     consistency_factor,
     deterministic_mcd,
     kth_pairwise_difference,
@@ -291,7 +293,8 @@ def test_bad_inputs():
 # ------------------------------- deterministic minimum covariance determinant
 def test_kth_pairwise_difference_is_the_order_statistic():
     # against numpy: the k-th of all sorted differences, with and without
-    # ties; 400 and 1500 points take the pivot steps (more than 2**16 pairs)
+    # ties; 101, 400 and 1500 points take the pivot steps (more than 2**12
+    # pairs)
     rng = np.random.default_rng(20)
     for n in (2, 3, 10, 101, 400, 1500):
         for x in (rng.standard_normal(n), rng.integers(0, 7, n).astype(float)):
@@ -415,6 +418,57 @@ def test_deterministic_mcd_subset_is_a_c_step_fixed_point():
         h = result.raw_support.sum()
         assert np.max(d[result.raw_support]) <= np.sort(d)[h - 1]
         assert np.min(d[~result.raw_support]) >= np.sort(d)[h - 1]
+
+
+def _c_steps(X, member, h, max_steps):
+    """C-steps (Rousseeuw & Van Driessen, 1999) written out with numpy: the h
+    points nearest the subset's mean in its metric, until it stays or
+    ``max_steps`` steps were taken."""
+    for _ in range(max_steps):
+        mean, cov = np.mean(X[member], axis=0), np.cov(X[member].T, bias=True)
+        d = np.sum((X - mean) @ np.linalg.inv(cov) * (X - mean), axis=1)
+        new = np.zeros_like(member)
+        new[np.argsort(d, kind="stable")[:h]] = True
+        if np.array_equal(new, member):
+            break
+        member = new
+    return member
+
+
+@pytest.mark.parametrize("max_steps", [MAX_C_STEPS, 13])
+def test_c_step_paths_that_meet_end_as_each_run_alone(monkeypatch, max_steps):
+    # starts whose paths meet an earlier path take its end instead of
+    # running on: each start's subset and determinant must be those of the
+    # C-steps run from it alone (written out with numpy above). 30% of the
+    # points form a far cloud, so starts near it end elsewhere than starts
+    # near the centre; starts repeat (the second run is all shortcut) and
+    # differ by one point. The first start is where the path from the far
+    # cloud is after 2 steps, so that path meets it 2 steps late: cut to
+    # 13 steps, it must stop where it would alone (it needs 14), not take
+    # the first path's end (12 steps after the meeting point).
+    monkeypatch.setattr("skfunc._robust_covariance.MAX_C_STEPS", max_steps)
+    rng = np.random.default_rng(28)
+    X = _gaussian_points(rng, 300, 0.3)
+    h = 152
+    near = {tuple(c): np.argsort(np.sum((X - c) ** 2, axis=1))[:h]
+            for c in ((0, 0), (10, -10), (5, -5), (-3, 3))}
+    far = np.zeros(300, dtype=bool)
+    far[near[10, -10]] = True
+    starts = [np.flatnonzero(_c_steps(X, far, h, 2)), near[10, -10], near[0, 0],
+              near[0, 0], near[5, -5], np.r_[near[10, -10][:-1], near[0, 0][-1]],
+              near[-3, 3], near[10, -10]]
+    paths = _Paths(X, h)
+    ends = set()
+    for subset in starts:
+        det, member = paths.concentrate(subset)
+        alone = np.zeros(300, dtype=bool)
+        alone[subset] = True
+        expected = _c_steps(X, alone, h, max_steps)
+        np.testing.assert_array_equal(member, expected)
+        np.testing.assert_allclose(det, np.linalg.det(np.cov(X[expected].T, bias=True)),
+                                   rtol=1e-9)
+        ends.add(expected.tobytes())
+    assert len(ends) >= 3  # the starts end in different subsets
 
 
 @pytest.mark.slow
