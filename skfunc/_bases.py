@@ -24,11 +24,23 @@ add a basis, subclass :class:`Basis` and register it in :data:`BASES`.
 
 import warnings
 from abc import ABC, abstractmethod
+from functools import lru_cache
 
 import numpy as np
 from numpy.polynomial import legendre as npleg
 from scipy.interpolate import BSpline
 from scipy.linalg import solve
+
+
+@lru_cache(maxsize=64)
+def gauss_legendre(n):
+    """Gauss-Legendre nodes and weights of ``n`` points on [-1, 1]
+    (:func:`numpy.polynomial.legendre.leggauss`, computed once per ``n``:
+    an eigenvalue problem that costs more than the matrices built from it;
+    read-only, being shared)."""
+    nodes, weights = npleg.leggauss(n)
+    nodes.flags.writeable = weights.flags.writeable = False
+    return nodes, weights
 
 
 class Basis(ABC):
@@ -241,7 +253,7 @@ class BSplineBasis(Basis):
     def penalty(self, order):
         order = self.check_derivative(order, name="penalty_order")
         breaks = np.unique(self.knots)
-        nodes, weights = np.polynomial.legendre.leggauss(self.degree + 1)
+        nodes, weights = gauss_legendre(self.degree + 1)
         left, right = breaks[:-1, None], breaks[1:, None]
         half = (right - left) / 2
         points = (left + right) / 2 + half * nodes  # (spans, nodes)
@@ -316,7 +328,7 @@ class FourierBasis(Basis):
             # functions to rounding.
             cycles = self.length / self.period * (self.n_basis // 2 + 1)
             panels = int(np.ceil(2 * cycles)) + 1
-            nodes, weights = np.polynomial.legendre.leggauss(40)
+            nodes, weights = gauss_legendre(40)
             edges = np.linspace(*self.domain, panels + 1)
             half = np.diff(edges)[:, None] / 2
             points = ((edges[:-1, None] + edges[1:, None]) / 2 + half * nodes).ravel()

@@ -6,7 +6,7 @@ from functools import partial
 import numpy as np
 
 from ._alpha import check_alpha, gcv_in_data_units, reml_score
-from ._blocks import compute_statistics, output_dtype
+from ._blocks import compute_statistics, in_pieces, output_dtype
 from ._docstrings import fill_doc
 from ._fit import check_finite_fit
 from ._function_response import (
@@ -197,8 +197,12 @@ class ConcurrentFunctionRidge(CurveInputResponseRegressor):
         ``xy``, ``yy`` (weighted sums of X, X^2, y, X y, y^2 per response
         point, X read there): all sums, of X and y divided by powers of two
         (``x_exp``, ``y_exp``: :func:`skfunc._penalized.scaled_statistics`),
-        merged key by key (:func:`skfunc._penalized.merge`).
+        merged key by key (:func:`skfunc._penalized.merge`); formed over
+        cache-sized row pieces (:func:`skfunc._blocks.in_pieces`).
         """
+        return in_pieces(self._piece_statistics, X, y, sample_weight)
+
+    def _piece_statistics(self, X, y, sample_weight):
         X = self._input_at(np.asarray(X, dtype=np.float64), self.response_grid_)
         return scaled_statistics(self._point_sums, X, y, sample_weight)
 
@@ -295,20 +299,27 @@ class ConcurrentFunctionRidge(CurveInputResponseRegressor):
         # (beta_0, beta_1) in the data's units: y's and y / x's
         coef = to_data_units(coef.reshape(2, K)[::-1], stats, np.array([[0], [-1]]), 1,
                              "basis_coef_")
-        self._store(basis, coef, np.full((2 * K, 2 * K), np.nan),
-                    alphas, criterion, path.edf(alphas), best)
+        self._store(basis, coef, alphas, criterion, path.edf(alphas), best)
 
     def _score_products(self, X, y, sample_weight, x_exp, y_exp):
         """``sum w g g'`` of the curves' score contributions at the fit,
         ``g_i = (Phi' W e_i, Phi' W (X_i e_i))`` (key ``meat``; a sum), with
-        X and y divided by ``2**x_exp`` and ``2**y_exp``."""
-        X = scale_down(self._input_at(np.asarray(X, dtype=np.float64), self.response_grid_), x_exp)
+        X and y divided by ``2**x_exp`` and ``2**y_exp``; over cache-sized
+        row pieces (:func:`skfunc._blocks.in_pieces`)."""
         basis, weights = self._response_basis()
-        phi_w = basis.evaluate(self.response_grid_) * weights[:, None]
         scaled = {"x_exp": x_exp, "y_exp": y_exp}
-        resid = scale_down(y, y_exp) - to_data_units(self.intercept_function_, scaled,
-                                                     0, -1)
-        resid -= X * to_data_units(self.coef_function_, scaled, 1, -1)
+        return in_pieces(partial(
+            self._piece_score_products, x_exp=x_exp, y_exp=y_exp,
+            phi_w=basis.evaluate(self.response_grid_) * weights[:, None],
+            intercept=to_data_units(self.intercept_function_, scaled, 0, -1),
+            slope=to_data_units(self.coef_function_, scaled, 1, -1)), X, y, sample_weight)
+
+    def _piece_score_products(self, X, y, sample_weight, x_exp, y_exp, phi_w, intercept,
+                              slope):
+        X = scale_down(self._input_at(np.asarray(X, dtype=np.float64), self.response_grid_),
+                       x_exp)
+        resid = scale_down(y, y_exp) - intercept
+        resid -= X * slope
         scores = np.hstack([resid @ phi_w, (resid * X) @ phi_w])
         return {"meat": (scores * sample_weight[:, None]).T @ scores}
 
