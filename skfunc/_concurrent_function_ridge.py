@@ -150,11 +150,11 @@ class ConcurrentFunctionRidge(CurveInputResponseRegressor):
         X, y, w = self._validate_batch(X, y, sample_weight, first=True)
         stats = compute_statistics(self._statistics, X, y, w)
         self.n_samples_seen_ = int(X.shape[0])
-        self._solve(stats)
+        path, basis = self._solve(stats)
         # the second pass in the first one's units (X, y over powers of two)
         meat = compute_statistics(partial(self._score_products, x_exp=stats["x_exp"],
                                           y_exp=stats["y_exp"]), X, y, w)["meat"]
-        self.coef_covariance_ = self._sandwich(stats, meat)
+        self.coef_covariance_ = self._sandwich(stats, meat, path, basis.n_basis)
         return check_finite_fit(self)
 
     def _validate_batch(self, X, y, sample_weight, first):
@@ -271,7 +271,8 @@ class ConcurrentFunctionRidge(CurveInputResponseRegressor):
         return path, basis, weights, phi_w
 
     def _solve(self, stats):
-        """Penalized least squares for (beta_0, beta_1); alpha by GCV or REML."""
+        """Penalized least squares for (beta_0, beta_1); alpha by GCV or REML.
+        Returns the split path and the basis (the sandwich's bread)."""
         path, basis, weights, phi_w = self._path(stats)
         rot = path.rotate(np.concatenate([stats["xy"] @ phi_w, stats["y"] @ phi_w])[None])
         alphas = resolve_candidates(self.alpha, path.s, path.scale)
@@ -300,6 +301,7 @@ class ConcurrentFunctionRidge(CurveInputResponseRegressor):
         coef = to_data_units(coef.reshape(2, K)[::-1], stats, np.array([[0], [-1]]), 1,
                              "basis_coef_")
         self._store(basis, coef, alphas, criterion, path.edf(alphas), best)
+        return path, basis
 
     def _score_products(self, X, y, sample_weight, x_exp, y_exp):
         """``sum w g g'`` of the curves' score contributions at the fit,
@@ -323,12 +325,11 @@ class ConcurrentFunctionRidge(CurveInputResponseRegressor):
         scores = np.hstack([resid @ phi_w, (resid * X) @ phi_w])
         return {"meat": (scores * sample_weight[:, None]).T @ scores}
 
-    def _sandwich(self, stats, meat):
+    def _sandwich(self, stats, meat, path, K):
         """Sandwich covariance ``H^-1 (sum w g g') H^-1`` of the basis coefs,
-        ``H`` the penalized normal matrix; the factor ``sw / (sw - 2)``
+        ``H`` the penalized normal matrix (``path``, of ``K`` basis
+        functions per coefficient function); the factor ``sw / (sw - 2)``
         corrects for the two fitted functions."""
-        path, basis, _, _ = self._path(stats)
-        K = basis.n_basis
         order = np.r_[np.arange(K, 2 * K), np.arange(K)]  # to (beta_0, beta_1)
         bread = path.operator(self.alpha_)[np.ix_(order, order)]
         sw = stats["sw"]
