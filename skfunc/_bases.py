@@ -104,6 +104,13 @@ class Basis(ABC):
     def feature_names(self):
         return [f"{self.name}{k}" for k in range(self.n_basis)]
 
+    def cache_key(self):
+        """A hashable key of what defines the functions (the class and its
+        numbers): bases with equal keys have equal matrices."""
+        return (type(self).__qualname__, *(
+            (name, value.tobytes() if isinstance(value, np.ndarray) else value)
+            for name, value in sorted(vars(self).items())))
+
     # -- the roughness penalty split into its null space and complement -----
 
     def null_dimension(self, order):

@@ -129,7 +129,8 @@ class FunctionOnFunctionRidge(AdditiveRegressorMixin, CurveInputResponseRegresso
         psi = self._input_basis()
         if self._unpenalized():
             return psi.unit_gram(), None
-        return psi.unit_gram(), penalty_for(psi, self.penalty_order)
+        penalty = penalty_for(psi, self.penalty_order)
+        return penalty.metric, penalty  # (the metric is the unit Gram matrix)
 
     def _coef_rows(self):
         psi = basis_for(self, self.grid_, cap=False).evaluate(self.grid_)

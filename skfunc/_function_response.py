@@ -800,12 +800,18 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
                            & (stats["z_sum"] != 0))
         metric = None if underflow else block_diag(gram_s, 1.0)
         regular = (p_t > 0) & (g > 0)
+        # the directions of the response penalty's null space (p_k = 0) share
+        # one design penalty: only Ps acts
+        null_pen = None
+        if np.any(p_t == 0):
+            null_pen = free_penalty(p) if pen_s is None else Penalty(
+                pen_s.matrix / s_t, pen_s.transform[:, :pen_s.n_null])
         try:
             directions = _Directions(
                 _StackedPaths(S, g[regular], gram_s, pen_s, s_t, scale),
                 np.flatnonzero(regular),
                 lambda k: self._direction_path(S, g[k], p_t[k], gram_s, pen_s, s_t,
-                                               scale, metric),
+                                               scale, metric, null_pen),
                 np.flatnonzero(p_t <= 0), rot)
         except NotIdentifiableError as exc:
             raise self._not_identifiable("design", stats["n"]) from exc
@@ -908,18 +914,15 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         )
 
     @staticmethod
-    def _direction_path(S, g_k, p_k, gram_s, pen_s, s_t, scale, metric):
+    def _direction_path(S, g_k, p_k, gram_s, pen_s, s_t, scale, metric, null_pen):
         """``(path, n_dropped)`` of response direction k (None when the data
-        do not see it): design block penalized by ``g_k / s_t Ps + p_k Gs``,
-        the intercept (last) unpenalized; the minimum-norm solution in
-        ``metric`` where the data do not determine the unpenalized part
-        (:func:`min_norm_path`)."""
+        do not see it): design block penalized by ``g_k / s_t Ps + p_k Gs``
+        (``null_pen`` where ``p_k = 0``), the intercept (last) unpenalized;
+        the minimum-norm solution in ``metric`` where the data do not
+        determine the unpenalized part (:func:`min_norm_path`)."""
         p = gram_s.shape[0]
         if p_k == 0:  # the response penalty's null space: only Ps acts
-            if pen_s is None:
-                pen = free_penalty(p)
-            else:
-                pen = Penalty(pen_s.matrix / s_t, pen_s.transform[:, :pen_s.n_null])
+            pen = null_pen
         elif g_k <= 0:
             return None
         else:
