@@ -101,11 +101,15 @@ def in_pieces(statistics, X, *others, merge=merge_sums):
     of about :data:`CACHE_VALUES` values of one block of numpy rows (None
     entries of ``others`` pass through): for statistics made of elementwise
     products, which then run in the cache (2 to 3 times faster than over a
-    block of :data:`CHUNK_VALUES`, and no slower on bigger blocks)."""
+    block of :data:`CHUNK_VALUES`, and no slower on bigger blocks). The
+    pieces' matrix products are small (a few MFlop): they run on one BLAS
+    thread, whose latency is lower than a team's (on a busy machine a team
+    of two made a fit several times slower)."""
     width = sum(int(np.prod(np.shape(a)[1:])) for a in (X, *others) if a is not None)
     pieces = row_blocks(X.shape[0], width, rows=max(1, CACHE_VALUES // max(width, 1)))
-    return merge(*(statistics(X[rows], *(None if o is None else o[rows] for o in others))
-                   for rows in pieces or [slice(0, 0)]))
+    with single_thread_blas():
+        return merge(*(statistics(X[rows], *(None if o is None else o[rows] for o in others))
+                       for rows in pieces or [slice(0, 0)]))
 
 
 #: the block threads of :func:`block_threads`, per calling thread
