@@ -6,7 +6,7 @@ from functools import partial
 import numpy as np
 
 from ._alpha import check_alpha, gcv_in_data_units, reml_score
-from ._blocks import compute_statistics, in_pieces, output_dtype
+from ._blocks import compute_statistics, in_pieces, output_dtype, single_thread_blas
 from ._docstrings import fill_doc
 from ._fit import check_finite_fit
 from ._function_response import (
@@ -150,11 +150,15 @@ class ConcurrentFunctionRidge(CurveInputResponseRegressor):
         X, y, w = self._validate_batch(X, y, sample_weight, first=True)
         stats = compute_statistics(self._statistics, X, y, w)
         self.n_samples_seen_ = int(X.shape[0])
-        path, basis = self._solve(stats)
+        # the solves are small (2K square): one BLAS thread, whose latency is
+        # lower than a team's (many times lower on a busy machine)
+        with single_thread_blas():
+            path, basis = self._solve(stats)
         # the second pass in the first one's units (X, y over powers of two)
         meat = compute_statistics(partial(self._score_products, x_exp=stats["x_exp"],
                                           y_exp=stats["y_exp"]), X, y, w)["meat"]
-        self.coef_covariance_ = self._sandwich(stats, meat, path, basis.n_basis)
+        with single_thread_blas():
+            self.coef_covariance_ = self._sandwich(stats, meat, path, basis.n_basis)
         return check_finite_fit(self)
 
     def _validate_batch(self, X, y, sample_weight, first):
