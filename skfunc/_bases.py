@@ -22,14 +22,25 @@ exact (Gauss-Legendre per knot span for splines, closed forms otherwise). To
 add a basis, subclass :class:`Basis` and register it in :data:`BASES`.
 """
 
-import functools
 import warnings
 from abc import ABC, abstractmethod
+from functools import lru_cache
 
 import numpy as np
 from numpy.polynomial import legendre as npleg
 from scipy.interpolate import BSpline
 from scipy.linalg import solve
+
+
+@lru_cache(maxsize=64)
+def gauss_legendre(n):
+    """Gauss-Legendre nodes and weights of ``n`` points on [-1, 1]
+    (:func:`numpy.polynomial.legendre.leggauss`, computed once per ``n``:
+    an eigenvalue problem that costs more than the matrices built from it;
+    read-only, being shared)."""
+    nodes, weights = npleg.leggauss(n)
+    nodes.flags.writeable = weights.flags.writeable = False
+    return nodes, weights
 
 
 class Basis(ABC):
@@ -92,6 +103,15 @@ class Basis(ABC):
 
     def feature_names(self):
         return [f"{self.name}{k}" for k in range(self.n_basis)]
+
+    def cache_key(self):
+        """A hashable key of what defines the functions (the class and its
+        numbers; not the matrices a basis keeps once computed, under names
+        starting with an underscore): bases with equal keys have equal
+        matrices."""
+        return (type(self).__qualname__, *(
+            (name, value.tobytes() if isinstance(value, np.ndarray) else value)
+            for name, value in sorted(vars(self).items()) if not name.startswith("_")))
 
     # -- the roughness penalty split into its null space and complement -----
 
@@ -522,16 +542,6 @@ def _whitened(matrix, metric):
     lower = np.linalg.cholesky(metric)
     half = np.linalg.solve(lower, matrix)
     return np.linalg.solve(lower, half.T).T
-
-
-@functools.cache
-def gauss_legendre(n):
-    """Nodes and weights of the ``n``-point Gauss-Legendre rule on [-1, 1]
-    (``numpy.polynomial.legendre.leggauss``, which solves an eigenproblem:
-    computed once per ``n``; read-only)."""
-    nodes, weights = npleg.leggauss(n)
-    nodes.flags.writeable = weights.flags.writeable = False
-    return nodes, weights
 
 
 def gram_sqrt(gram):

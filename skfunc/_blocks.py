@@ -40,12 +40,11 @@ CHUNK_VALUES = 1 << 22
 #: as the block (interpolation, scoring candidates) are chosen so that one
 #: block holds about this many values (1 MiB of float64): its temporaries
 #: stay within a core's cache, so the time per row does not grow with the
-#: number of rows
+#: number of rows (also the row pieces of :func:`in_pieces`)
 CACHE_VALUES = 1 << 17
 
 #: how many partial results one task of the tree reduction merges
 SPLIT_EVERY = 8
-
 
 def is_dask_array(X):
     """Whether ``X`` is a Dask array, without importing Dask."""
@@ -104,6 +103,22 @@ def compute_statistics(statistics, X, *others, merge=merge_sums):
     context = contextvars.copy_context()
     return merge(*pool.executor.map(lambda rows: context.copy().run(block_statistics, rows),
                                     row_blocks(X.shape[0], width, rows)))
+
+
+def in_pieces(statistics, X, *others, merge=merge_sums):
+    """``merge`` of ``statistics(X_piece, *other_pieces)`` over row pieces
+    of about :data:`CACHE_VALUES` values of one block of numpy rows (None
+    entries of ``others`` pass through): for statistics made of elementwise
+    products, which then run in the cache (2 to 3 times faster than over a
+    block of :data:`CHUNK_VALUES`, and no slower on bigger blocks). The
+    pieces' matrix products are small (a few MFlop): they run on one BLAS
+    thread, whose latency is lower than a team's (on a busy machine a team
+    of two made a fit several times slower)."""
+    width = sum(int(np.prod(np.shape(a)[1:])) for a in (X, *others) if a is not None)
+    pieces = row_blocks(X.shape[0], width, rows=cache_rows(width))
+    with single_thread_blas():
+        return merge(*(statistics(X[rows], *(None if o is None else o[rows] for o in others))
+                       for rows in pieces or [slice(0, 0)]))
 
 
 #: the block threads of :func:`block_threads`, per calling thread

@@ -6,7 +6,7 @@ from functools import partial
 import numpy as np
 
 from ._alpha import check_alpha, gcv_in_data_units, reml_score
-from ._blocks import compute_statistics, output_dtype
+from ._blocks import compute_statistics, in_pieces, output_dtype, single_thread_blas
 from ._docstrings import fill_doc
 from ._fit import check_finite_fit
 from ._function_response import (
@@ -150,11 +150,15 @@ class ConcurrentFunctionRidge(CurveInputResponseRegressor):
         X, y, w = self._validate_batch(X, y, sample_weight, first=True)
         stats = compute_statistics(self._statistics, X, y, w)
         self.n_samples_seen_ = int(X.shape[0])
-        self._solve(stats)
+        # the solves are small (2K square): one BLAS thread, whose latency is
+        # lower than a team's (many times lower on a busy machine)
+        with single_thread_blas():
+            path, basis = self._solve(stats)
         # the second pass in the first one's units (X, y over powers of two)
         meat = compute_statistics(partial(self._score_products, x_exp=stats["x_exp"],
                                           y_exp=stats["y_exp"]), X, y, w)["meat"]
-        self.coef_covariance_ = self._sandwich(stats, meat)
+        with single_thread_blas():
+            self.coef_covariance_ = self._sandwich(stats, meat, path, basis.n_basis)
         return check_finite_fit(self)
 
     def _validate_batch(self, X, y, sample_weight, first):
@@ -197,8 +201,12 @@ class ConcurrentFunctionRidge(CurveInputResponseRegressor):
         ``xy``, ``yy`` (weighted sums of X, X^2, y, X y, y^2 per response
         point, X read there): all sums, of X and y divided by powers of two
         (``x_exp``, ``y_exp``: :func:`skfunc._penalized.scaled_statistics`),
-        merged key by key (:func:`skfunc._penalized.merge`).
+        merged key by key (:func:`skfunc._penalized.merge`); formed over
+        cache-sized row pieces (:func:`skfunc._blocks.in_pieces`).
         """
+        return in_pieces(self._piece_statistics, X, y, sample_weight)
+
+    def _piece_statistics(self, X, y, sample_weight):
         X = self._input_at(np.asarray(X, dtype=np.float64), self.response_grid_)
         return scaled_statistics(self._point_sums, X, y, sample_weight)
 
@@ -267,7 +275,8 @@ class ConcurrentFunctionRidge(CurveInputResponseRegressor):
         return path, basis, weights, phi_w
 
     def _solve(self, stats):
-        """Penalized least squares for (beta_0, beta_1); alpha by GCV or REML."""
+        """Penalized least squares for (beta_0, beta_1); alpha by GCV or REML.
+        Returns the split path and the basis (the sandwich's bread)."""
         path, basis, weights, phi_w = self._path(stats)
         rot = path.rotate(np.concatenate([stats["xy"] @ phi_w, stats["y"] @ phi_w])[None])
         alphas = resolve_candidates(self.alpha, path.s, path.scale)
@@ -295,29 +304,36 @@ class ConcurrentFunctionRidge(CurveInputResponseRegressor):
         # (beta_0, beta_1) in the data's units: y's and y / x's
         coef = to_data_units(coef.reshape(2, K)[::-1], stats, np.array([[0], [-1]]), 1,
                              "basis_coef_")
-        self._store(basis, coef, np.full((2 * K, 2 * K), np.nan),
-                    alphas, criterion, path.edf(alphas), best)
+        self._store(basis, coef, alphas, criterion, path.edf(alphas), best)
+        return path, basis
 
     def _score_products(self, X, y, sample_weight, x_exp, y_exp):
         """``sum w g g'`` of the curves' score contributions at the fit,
         ``g_i = (Phi' W e_i, Phi' W (X_i e_i))`` (key ``meat``; a sum), with
-        X and y divided by ``2**x_exp`` and ``2**y_exp``."""
-        X = scale_down(self._input_at(np.asarray(X, dtype=np.float64), self.response_grid_), x_exp)
+        X and y divided by ``2**x_exp`` and ``2**y_exp``; over cache-sized
+        row pieces (:func:`skfunc._blocks.in_pieces`)."""
         basis, weights = self._response_basis()
-        phi_w = basis.evaluate(self.response_grid_) * weights[:, None]
         scaled = {"x_exp": x_exp, "y_exp": y_exp}
-        resid = scale_down(y, y_exp) - to_data_units(self.intercept_function_, scaled,
-                                                     0, -1)
-        resid -= X * to_data_units(self.coef_function_, scaled, 1, -1)
+        return in_pieces(partial(
+            self._piece_score_products, x_exp=x_exp, y_exp=y_exp,
+            phi_w=basis.evaluate(self.response_grid_) * weights[:, None],
+            intercept=to_data_units(self.intercept_function_, scaled, 0, -1),
+            slope=to_data_units(self.coef_function_, scaled, 1, -1)), X, y, sample_weight)
+
+    def _piece_score_products(self, X, y, sample_weight, x_exp, y_exp, phi_w, intercept,
+                              slope):
+        X = scale_down(self._input_at(np.asarray(X, dtype=np.float64), self.response_grid_),
+                       x_exp)
+        resid = scale_down(y, y_exp) - intercept
+        resid -= X * slope
         scores = np.hstack([resid @ phi_w, (resid * X) @ phi_w])
         return {"meat": (scores * sample_weight[:, None]).T @ scores}
 
-    def _sandwich(self, stats, meat):
+    def _sandwich(self, stats, meat, path, K):
         """Sandwich covariance ``H^-1 (sum w g g') H^-1`` of the basis coefs,
-        ``H`` the penalized normal matrix; the factor ``sw / (sw - 2)``
+        ``H`` the penalized normal matrix (``path``, of ``K`` basis
+        functions per coefficient function); the factor ``sw / (sw - 2)``
         corrects for the two fitted functions."""
-        path, basis, _, _ = self._path(stats)
-        K = basis.n_basis
         order = np.r_[np.arange(K, 2 * K), np.arange(K)]  # to (beta_0, beta_1)
         bread = path.operator(self.alpha_)[np.ix_(order, order)]
         sw = stats["sw"]

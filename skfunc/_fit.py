@@ -47,6 +47,11 @@ from ._validation import check_batch_grid
 #: residual degrees of freedom left) are a warning, not an error
 _UNCERTAINTY = ("noise_variance_", "coef_covariance_")
 
+#: private fitted attributes checked in the name of a public one that is
+#: formed on first use: the variances on its diagonal (a covariance is
+#: finite where they are)
+_CHECKED_FOR = {"_coef_variance": "coef_covariance_"}
+
 
 class UndefinedUncertaintyWarning(UserWarning):
     """The fit leaves no residual degrees of freedom: the noise variance and
@@ -69,6 +74,7 @@ def check_finite_fit(estimator):
     name = type(estimator).__name__
     uncertain, overflow = [], []
     for key, value in vars(estimator).items():
+        key = _CHECKED_FOR.get(key, key)
         if not key.endswith("_") or key.startswith("_"):
             continue
         arr = np.asarray(value) if isinstance(value, (float, np.ndarray)) else None

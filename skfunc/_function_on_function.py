@@ -47,7 +47,10 @@ class FunctionOnFunctionRidge(AdditiveRegressorMixin, CurveInputResponseRegresso
         Coefficients in the response basis: row 0 the intercept, then the
         rows of ``B``, one per input basis function.
     coef_covariance_ : ndarray of shape (n_rows * n_basis_, n_rows * n_basis_)
-        Estimated covariance of ``basis_coef_`` flattened row-major.
+        Estimated covariance of ``basis_coef_`` flattened row-major. Formed
+        on first use (by :meth:`confidence_band`, or when read) from small
+        fitted factors and then kept: it has ``(n_rows * n_basis_)**2``
+        entries, more work than the rest of the fit.
     %(curve_response_attributes)s
     %(n_samples_seen)s
     %(curve_input_attributes)s
@@ -126,7 +129,8 @@ class FunctionOnFunctionRidge(AdditiveRegressorMixin, CurveInputResponseRegresso
         psi = self._input_basis()
         if self._unpenalized():
             return psi.unit_gram(), None
-        return psi.unit_gram(), penalty_for(psi, self.penalty_order)
+        penalty = penalty_for(psi, self.penalty_order)
+        return penalty.metric, penalty  # (the metric is the unit Gram matrix)
 
     def _coef_rows(self):
         psi = basis_for(self, self.grid_, cap=False).evaluate(self.grid_)

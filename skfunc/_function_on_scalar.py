@@ -47,7 +47,8 @@ class FunctionOnScalarRidge(AdditiveRegressorMixin, CurveResponseRegressor):
         functions.
     coef_covariance_ : ndarray of shape ((n_features_in_ + 1) * n_basis_,) * 2
         Estimated covariance of ``basis_coef_`` flattened row-major, used by
-        :meth:`confidence_band`.
+        :meth:`confidence_band`; formed on first use from small fitted
+        factors and then kept.
     %(curve_response_attributes)s
     %(n_samples_seen)s
     n_features_in_ : int

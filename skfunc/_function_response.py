@@ -43,6 +43,7 @@ Craven, P. and Wahba, G. (1979). Smoothing noisy data with spline functions.
 """
 
 import warnings
+from functools import cached_property, partial
 from types import SimpleNamespace
 
 import numpy as np
@@ -65,7 +66,13 @@ from ._alpha import (
     reml_score,
 )
 from ._bands import critical_value
-from ._blocks import chunked_matmul, is_dask_array, row_blocks, single_thread_blas
+from ._blocks import (
+    chunked_matmul,
+    in_pieces,
+    is_dask_array,
+    row_blocks,
+    single_thread_blas,
+)
 from ._dask import check_accepts_dask
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
@@ -162,6 +169,37 @@ def _sym(a):
     return (a + _swap(a)) / 2
 
 
+def _whitenings(gram_s, pen_s, c):
+    """``T_k`` with ``T_k' Q_k T_k = I`` for every ``Q_k = Gs + c_k Ps``
+    (``Ps`` None: 0), stacked: the complement transforms of
+    :class:`~skfunc._penalized.Penalty` of ``Q_k`` with an empty null space.
+
+    One decomposition of the pencil serves every k: with ``Gs = L L'`` and
+    ``L^-1 Ps L^-T = V diag(e) V'``, ``Q_k = L V diag(1 + c_k e) V' L'``, so
+    ``T_k = L^-T V diag(1 + c_k e)^(-1/2)``. Where ``Gs`` is not positive
+    definite, each ``Q_k`` is decomposed (and the engine's error raised
+    where one is singular).
+    """
+    p, n = gram_s.shape[0], c.size
+    try:
+        lower = np.linalg.cholesky(_sym(gram_s))
+    except np.linalg.LinAlgError:
+        lower = None
+    if lower is not None:
+        inv_t = np.linalg.solve(lower, np.eye(p)).T  # L^-T
+        if pen_s is None:
+            return np.broadcast_to(inv_t, (n, p, p))
+        e, V = np.linalg.eigh(_sym(inv_t.T @ pen_s.matrix @ inv_t))
+        lam = 1.0 + c[:, None] * np.clip(e, 0.0, None)
+        return (inv_t @ V) / np.sqrt(lam)[:, None, :]
+    matrix = np.broadcast_to(gram_s, (n, p, p)) if pen_s is None else (
+        gram_s + c[:, None, None] * pen_s.matrix)
+    lam, vec = np.linalg.eigh(_sym(matrix))
+    if n and lam[:, 0].min() <= 0:
+        Penalty(matrix[np.argmin(lam[:, 0])], np.zeros((p, 0)))  # raises its error
+    return vec / np.sqrt(lam)[:, None, :]
+
+
 class _StackedPaths:
     """The :class:`~skfunc._penalized.SplitPath` of many response directions
     at once, in stacked arrays (axis 0: the direction).
@@ -182,17 +220,9 @@ class _StackedPaths:
     def __init__(self, S, g, gram_s, pen_s, s_t, scale):
         p, n = gram_s.shape[0], g.size
         self.scale = float(scale)
-        # Penalty(Q_k, no null space): Q_k = V diag(lam) V', T_C = V / sqrt(lam)
-        if pen_s is None:
-            matrix = np.broadcast_to(gram_s, (n, p, p))
-        else:
-            matrix = gram_s + (g / s_t)[:, None, None] * pen_s.matrix
-        lam, vec = np.linalg.eigh(_sym(matrix))
-        if n and lam[:, 0].min() <= 0:
-            Penalty(matrix[np.argmin(lam[:, 0])], np.zeros((p, 0)))  # raises its error
         T = np.zeros((n, p + 1, p + 1))  # extended: column 0 the intercept
         T[:, p, 0] = 1.0
-        T[:, :p, 1:] = vec / np.sqrt(lam)[:, None, :]
+        T[:, :p, 1:] = _whitenings(gram_s, pen_s, g / s_t)
         # SplitPath(g_k S, that penalty): profile out the intercept, then
         # diagonalise the Schur complement of the design block
         gram = _sym(g[:, None, None] * S)
@@ -563,27 +593,72 @@ def _pinvh(A):
     return (vec * inv[..., None, :]) @ np.swapaxes(vec, -1, -2)
 
 
-def _coef_covariance(stats, U, mu, S, rot, C, A_inv, dof, transform):
-    """Covariance of the coefficients ``transform @ C @ U'``, indexed
-    [a, b, c, d] (row a, response basis function b).
-
-    Residual covariance in the basis, ``Omega = U' sum w e e' U / dof`` with
-    projected residuals ``e_i = Phi'W Y_i - Gq B' zaug_i``, from the
-    statistics; then ``Cov(c_k, c_l) = A_k^+ S A_l^+ Omega_kl`` for the
-    rotated coefficients, mapped by ``transform`` (rows) and ``U``
-    (directions) with plain matrix products.
-    """
+def covariance_factors(stats, U, mu, S, rot, C, A_inv, dof, transform, x_power):
+    """What the covariance of the coefficients ``transform @ C @ U'`` is made
+    of, small arrays (the matrix itself has ``((p + 1) K)**2`` entries): the
+    operators ``A_k^+`` of the rotated directions, ``S``, ``transform``,
+    ``U``, the residual covariance in the basis, ``Omega = U' sum w e e' U /
+    dof`` with projected residuals ``e_i = Phi'W Y_i - Gq B' zaug_i`` (from
+    the statistics), and the powers of two back to the data's units
+    (``x_power`` of each row, twice the exponent of y)."""
     M = np.diag(mu)
     cross = rot.T @ C @ M
     resid = U.T @ stats["yproj"] @ U - cross - cross.T + M @ C.T @ S @ C @ M
     omega = resid / dof if dof > 0 else np.full_like(resid, np.nan)
-    K, P = A_inv.shape[:2]
-    left = (transform @ (A_inv @ S)).reshape(K * P, P)  # [(k, a), j]
-    right = (transform @ A_inv).reshape(K * P, P)  # [(l, c), j]
-    cov = (left @ right.T).reshape(K, P, K, P) * omega[:, None, :, None]
+    return {"A_inv": A_inv, "S": S, "transform": transform, "U": U, "omega": omega,
+            "x_power": x_power, "x_exp": stats["x_exp"], "y_exp": stats["y_exp"]}
+
+
+def _covariance_sides(factors):
+    """``transform A_k^+ S`` and ``transform A_k^+``, each (K, P, P)."""
+    A_inv, transform = factors["A_inv"], factors["transform"]
+    return transform @ (A_inv @ factors["S"]), transform @ A_inv
+
+
+def _exponents(factors, x_power):
+    """:func:`~skfunc._penalized.to_data_units`'s arguments for a variance
+    whose rows carry ``x_power``."""
+    return {"x_exp": factors["x_exp"], "y_exp": factors["y_exp"]}, x_power
+
+
+def coef_covariance(factors):
+    """The covariance (P K, P K) of the coefficients, indexed [(a, b), (c,
+    d)] (row a, response basis function b), in the data's units, from
+    :func:`covariance_factors`: ``Cov(c_k, c_l) = A_k^+ S A_l^+ Omega_kl``
+    for the rotated coefficients, mapped by ``transform`` (rows) and ``U``
+    (directions) with plain matrix products. Its underflow or overflow was
+    told at the fit (:func:`coef_variance`). One BLAS thread, as in the fit,
+    so that the matrix is the same whenever it is formed."""
+    with single_thread_blas():
+        return _coef_covariance(factors)
+
+
+def _coef_covariance(factors):
+    left, right = _covariance_sides(factors)
+    U, omega, x_power = factors["U"], factors["omega"], factors["x_power"]
+    K, P = left.shape[:2]
+    cov = (left.reshape(K * P, P) @ right.reshape(K * P, P).T).reshape(K, P, K, P)
+    cov *= omega[:, None, :, None]
     cov = (U @ cov.reshape(K, -1)).reshape(K, P, K, P)  # [b, a, l, c]
     cov = cov.transpose(1, 0, 3, 2).reshape(-1, K) @ U.T  # [(a, b, c), d]
-    return cov.reshape(P, K, P, K)
+    scaled, power = _exponents(factors, x_power[:, None, None, None]
+                               + x_power[None, None, :, None])
+    cov = to_data_units(cov.reshape(P, K, P, K), scaled, power, 2)
+    return cov.reshape(P * K, P * K)
+
+
+def coef_variance(factors):
+    """The diagonal of :func:`coef_covariance` as (P, K), in the data's
+    units, at a small part of its cost: what the fit checks (a covariance
+    overflows where a variance does, ``|c_ij| <= sqrt(c_ii c_jj)``; an
+    underflowing variance warns, naming ``coef_covariance_``)."""
+    left, right = _covariance_sides(factors)
+    U, omega, x_power = factors["U"], factors["omega"], factors["x_power"]
+    # [a, k, l] = sum_j left[k, a, j] right[l, a, j], weighted by Omega_kl
+    inner = left.transpose(1, 0, 2) @ right.transpose(1, 2, 0) * omega
+    var = ((U @ inner) * U).sum(axis=-1)  # sum_kl U_bk U_bl inner[a, k, l]
+    scaled, power = _exponents(factors, 2 * x_power[:, None])
+    return to_data_units(var, scaled, power, 2, "coef_covariance_")
 
 
 class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
@@ -654,13 +729,15 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         :func:`skfunc._penalized.scaled_statistics`, so squares of data near
         1e300 or 1e-300 stay finite and normal), merged key by key
         (:func:`skfunc._penalized.merge`). The solve works in those units.
+        Formed over cache-sized row pieces (:func:`skfunc._blocks.in_pieces`).
         """
-        return scaled_statistics(self._scaled_statistics, X, y, sample_weight,
-                                 design=design)
-
-    def _scaled_statistics(self, X, y, sample_weight=None, design=None):
         basis, weights = self._response_basis()
         phi_w = basis.evaluate(self.response_grid_) * weights[:, None]
+        return in_pieces(partial(scaled_statistics, self._scaled_statistics,
+                                 design=design, phi_w=phi_w), X, y, sample_weight)
+
+    @staticmethod
+    def _scaled_statistics(X, y, sample_weight, design, phi_w):
         Y = np.asarray(y, dtype=np.float64)
         Z = X if design is None else chunked_matmul(X, design)
         stats = cross_products(Z, Y, sample_weight)
@@ -722,12 +799,18 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
                            & (stats["z_sum"] != 0))
         metric = None if underflow else block_diag(gram_s, 1.0)
         regular = (p_t > 0) & (g > 0)
+        # the directions of the response penalty's null space (p_k = 0) share
+        # one design penalty: only Ps acts
+        null_pen = None
+        if np.any(p_t == 0):
+            null_pen = free_penalty(p) if pen_s is None else Penalty(
+                pen_s.matrix / s_t, pen_s.transform[:, :pen_s.n_null])
         try:
             directions = _Directions(
                 _StackedPaths(S, g[regular], gram_s, pen_s, s_t, scale),
                 np.flatnonzero(regular),
                 lambda k: self._direction_path(S, g[k], p_t[k], gram_s, pen_s, s_t,
-                                               scale, metric),
+                                               scale, metric, null_pen),
                 np.flatnonzero(p_t <= 0), rot)
         except NotIdentifiableError as exc:
             raise self._not_identifiable("design", stats["n"]) from exc
@@ -769,20 +852,18 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         A_inv = A_inv[:, order][:, :, order]
         transform = np.eye(p + 1)
         transform[0, 1:] = -z_mean  # back to the original (uncentered) covariates
-        cov = _coef_covariance(stats, U, g, S, rot, C, A_inv, sw - sample_edf.max(),
-                               transform)
-        p1, K = C.shape
         # back to the data's units: the intercept row is in y's, the others
         # in y / x (powers of two, exact; variances may overflow: checked)
         x_power = np.r_[0.0, -np.ones(p)]
         basis_coef = to_data_units(transform @ C @ U.T, stats, x_power[:, None], 1,
                                    "basis_coef_")
-        cov = to_data_units(cov, stats, x_power[:, None, None, None]
-                            + x_power[None, None, :, None], 2, "coef_covariance_")
         if criterion is not None and self.criterion == "gcv":
             criterion = gcv_in_data_units(criterion, stats["y_exp"])
-        self._store(basis, basis_coef, cov.reshape(p1 * K, p1 * K),
-                    alphas, criterion, directions.edf(alphas), best)
+        self._store(basis, basis_coef, alphas, criterion, directions.edf(alphas), best)
+        # the covariance (((p + 1) K)**2 entries) is formed on first use
+        self._covariance_factors = covariance_factors(
+            stats, U, g, S, rot, C, A_inv, sw - sample_edf.max(), transform, x_power)
+        self._coef_variance = coef_variance(self._covariance_factors)
 
     def _not_identifiable(self, side, n_samples):
         """The error for coefficients the data cannot determine, with the
@@ -832,18 +913,15 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         )
 
     @staticmethod
-    def _direction_path(S, g_k, p_k, gram_s, pen_s, s_t, scale, metric):
+    def _direction_path(S, g_k, p_k, gram_s, pen_s, s_t, scale, metric, null_pen):
         """``(path, n_dropped)`` of response direction k (None when the data
-        do not see it): design block penalized by ``g_k / s_t Ps + p_k Gs``,
-        the intercept (last) unpenalized; the minimum-norm solution in
-        ``metric`` where the data do not determine the unpenalized part
-        (:func:`min_norm_path`)."""
+        do not see it): design block penalized by ``g_k / s_t Ps + p_k Gs``
+        (``null_pen`` where ``p_k = 0``), the intercept (last) unpenalized;
+        the minimum-norm solution in ``metric`` where the data do not
+        determine the unpenalized part (:func:`min_norm_path`)."""
         p = gram_s.shape[0]
         if p_k == 0:  # the response penalty's null space: only Ps acts
-            if pen_s is None:
-                pen = free_penalty(p)
-            else:
-                pen = Penalty(pen_s.matrix / s_t, pen_s.transform[:, :pen_s.n_null])
+            pen = null_pen
         elif g_k <= 0:
             return None
         else:
@@ -851,20 +929,39 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
             pen = Penalty(matrix, np.zeros((p, 0)))
         return min_norm_path(g_k * S, pen.extend(1), scale, metric)
 
-    def _store(self, basis, basis_coef, coef_covariance, alphas, criterion, edf, best):
-        """Set the fitted attributes of the solution at candidate ``best``."""
+    def _store(self, basis, basis_coef, alphas, criterion, edf, best):
+        """Set the fitted attributes of the solution at candidate ``best``
+        (the covariance: see :attr:`coef_covariance_`)."""
+        for stale in ("coef_covariance_", "_covariance_factors", "_coef_variance"):
+            vars(self).pop(stale, None)
         self.n_basis_ = basis.n_basis
         self.basis_coef_ = basis_coef
-        self.coef_covariance_ = coef_covariance
         self.alpha_ = float(alphas[best])
         self.alphas_path_ = alphas
         self.criterion_path_ = criterion
         self.edf_ = float(edf[best])
         self.edf_path_ = edf
-        p1 = self.basis_coef_.shape[0]
-        self.intercept_function_ = self._evaluate(np.eye(p1)[:1])[0][0]
-        values = self._evaluate(self._coef_rows())[0]
-        self.coef_function_ = values.reshape(self._coef_shape(values.shape[1]))
+        self.intercept_function_, self.coef_function_ = self._functions(
+            basis.evaluate(self.response_grid_))
+
+    @cached_property
+    def coef_covariance_(self):
+        """Estimated covariance of ``basis_coef_`` flattened row-major.
+
+        Formed on first use from small fitted factors (it has ``((p + 1)
+        n_basis_)**2`` entries, more work than the rest of a fit when the
+        design is an input basis) and then kept with the fitted
+        attributes, so it pickles with them; a refit drops it. The fit
+        already checked it (a warning where its variances overflow,
+        underflow or are undefined).
+        """
+        factors = vars(self).get("_covariance_factors")
+        if factors is None:
+            raise AttributeError(
+                f"This {type(self).__name__} instance is not fitted yet: "
+                "coef_covariance_ is set by fit."
+            )
+        return coef_covariance(factors)
 
     # -- the response basis ----------------------------------------------------
 
@@ -890,8 +987,16 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
         phi = basis.evaluate(eval_points)
         return left @ self.basis_coef_ @ phi.T, phi
 
+    def _functions(self, phi):
+        """The intercept and coefficient functions (shaped like
+        ``coef_function_``) where the response basis takes the values ``phi``."""
+        p1 = self.basis_coef_.shape[0]
+        intercept = (np.eye(p1)[:1] @ self.basis_coef_ @ phi.T)[0]
+        values = self._coef_rows() @ self.basis_coef_ @ phi.T
+        return intercept, values.reshape(self._coef_shape(phi.shape[0]))
+
     def _coef_shape(self, n_points):
-        return (self._coef_rows().shape[0], n_points)
+        return (-1, n_points)
 
     # -- public helpers --------------------------------------------------------
 
@@ -910,10 +1015,8 @@ class CurveResponseRegressor(AdditiveFitMixin, RegressorMixin, BaseEstimator):
             Shaped like ``coef_function_`` with ``n_points`` response points.
         """
         check_is_fitted(self)
-        p1 = self.basis_coef_.shape[0]
-        intercept = self._evaluate(np.eye(p1)[:1], eval_points)[0][0]
-        values = self._evaluate(self._coef_rows(), eval_points)[0]
-        return intercept, values.reshape(self._coef_shape(values.shape[1]))
+        basis = self._response_basis()[0]
+        return self._functions(basis.evaluate(check_eval_points(eval_points, basis.domain)))
 
     @fill_doc
     def predict(self, X, eval_points=None):

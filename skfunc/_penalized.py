@@ -284,10 +284,32 @@ class Penalty:
         return out
 
 
+#: penalty_for's decompositions, by basis key and order (at most
+#: _PENALTY_CACHE_SIZE, the oldest dropped first)
+_PENALTIES = {}
+_PENALTY_CACHE_SIZE = 32
+
+
 def penalty_for(basis, order):
-    """The :class:`Penalty` of ``basis`` for ``int (D^order f)^2``, on [0, 1]."""
+    """The :class:`Penalty` of ``basis`` for ``int (D^order f)^2``, on [0, 1].
+
+    Data-free and a fixed cost of every fit (exact matrices, the null space,
+    a decomposition), so it is kept for bases with a ``cache_key`` and shared
+    by later calls for an equal basis and order: its arrays are read-only.
+    """
     order = int(order)
-    return Penalty(basis.unit_roughness(order), basis.null_space(order), basis.unit_gram())
+    key = (*basis.cache_key(), order) if hasattr(basis, "cache_key") else None
+    penalty = _PENALTIES.get(key) if key is not None else None
+    if penalty is None:
+        penalty = Penalty(basis.unit_roughness(order), basis.null_space(order),
+                          basis.unit_gram())
+        if key is not None:
+            for array in (penalty.matrix, penalty.transform, penalty.metric):
+                array.flags.writeable = False
+            if len(_PENALTIES) >= _PENALTY_CACHE_SIZE:
+                _PENALTIES.pop(next(iter(_PENALTIES)), None)
+            _PENALTIES[key] = penalty
+    return penalty
 
 
 def penalty_scale(gram, penalty):

@@ -167,6 +167,95 @@ def test_bands_equal_pointwise_ols_standard_errors(rng):
     assert_allclose((upper + lower) / 2, model.coef_function_, atol=1e-10)
 
 
+@pytest.mark.parametrize("name", ["FunctionOnScalarRidge", "FunctionOnFunctionRidge"])
+def test_coef_covariance_is_the_multivariate_ols_covariance(rng, name):
+    # Hat functions at the grid points (degree 1, one per point) and alpha = 0:
+    # the basis coefficients are the values on the grid, and the fit is
+    # ordinary least squares of every response column on the design [1, Z]
+    # (covariates, or the input curves' basis coordinates X_i(s_a) w_a). The
+    # covariance of the coefficients is then the textbook multivariate one,
+    # (Z'Z)^-1 kron R'R / (n - p - 1) with R the residual curves (common
+    # practice; numpy.linalg.lstsq for the fit), whole, not only its diagonal.
+    m, n = 7, 40
+    X, Y, t, _ = _scalar_data(rng, n=n, m=m)
+    if name == "FunctionOnScalarRidge":
+        model = FunctionOnScalarRidge(alpha=0, n_basis=m, degree=1)
+        Z = X
+    else:
+        X = rng.normal(size=(n, m)) @ np.triu(np.ones((m, m)))  # input curves
+        model = FunctionOnFunctionRidge(alpha=0, n_basis=m, degree=1)
+        Z = X * trapezoid_weights(t)
+    model.fit(X, Y)
+    design = np.column_stack([np.ones(n), Z])
+    coef, *_ = np.linalg.lstsq(design, Y, rcond=None)
+    resid = Y - design @ coef
+    expected = np.kron(np.linalg.inv(design.T @ design),
+                       resid.T @ resid / (n - design.shape[1]))
+    assert_allclose(model.basis_coef_, coef, rtol=1e-8, atol=1e-10)
+    assert_allclose(model.coef_covariance_, expected, rtol=1e-7,
+                    atol=1e-10 * np.abs(expected).max())
+
+
+def _eager_covariance(factors):
+    """The covariance as the fit formed it before it was made lazy, written
+    out as one einsum: ``Cov[a, b, c, d] = sum_kl T_a A_k S A_l' T_c' Omega_kl
+    U_bk U_dl`` (the rotated directions' sandwich mapped by the row
+    transform T and the response rotation U), times the powers of two back
+    to the data's units."""
+    A, S, T, U = (factors[k] for k in ("A_inv", "S", "transform", "U"))
+    left, right = T @ (A @ S), T @ A  # (K, P, P) each: direction k, row a, j
+    cov = np.einsum("kaj,lcj,kl,bk,dl->abcd", left, right, factors["omega"], U, U)
+    power = (factors["x_power"][:, None] + factors["x_power"][None, :]) * factors["x_exp"]
+    cov = cov * np.exp2(power + 2 * factors["y_exp"])[:, None, :, None]
+    P, K = left.shape[1], U.shape[0]
+    return cov.reshape(P * K, P * K)
+
+
+@pytest.mark.parametrize("name", ["FunctionOnScalarRidge", "FunctionOnFunctionRidge"])
+def test_lazy_coef_covariance_is_the_eager_one_and_persists(rng, name, tmp_path):
+    # coef_covariance_ is formed on first use from the fitted factors; it
+    # must be the matrix the fit used to form (its formula written out
+    # independently with numpy.einsum above), the same after pickling,
+    # joblib persistence (before or after first use) and a refit of a clone,
+    # and dropped by a refit on other data.
+    import pickle
+
+    import joblib
+    from sklearn.base import clone
+    from sklearn.exceptions import NotFittedError
+    from sklearn.utils.validation import check_is_fitted
+
+    X, Y, t, _ = _scalar_data(rng, n=50, m=21)
+    if name == "FunctionOnFunctionRidge":
+        X = rng.normal(size=(50, 15)) @ np.triu(np.ones((15, 15))) * 1e3  # not unit scale
+    w = rng.uniform(0.5, 2.0, 50)
+    model = (FunctionOnScalarRidge(n_basis=9) if name == "FunctionOnScalarRidge"
+             else FunctionOnFunctionRidge(n_basis=7)).fit(X, Y, sample_weight=w)
+    assert "coef_covariance_" not in vars(model)  # not formed by fit
+    unpickled = pickle.loads(pickle.dumps(model))
+    joblib.dump(model, tmp_path / "model.joblib")
+    expected = _eager_covariance(model._covariance_factors)
+    assert_allclose(model.coef_covariance_, expected, rtol=1e-10,
+                    atol=1e-12 * np.abs(expected).max())
+    assert model.coef_covariance_ is model.coef_covariance_  # formed once, kept
+    assert_allclose(unpickled.coef_covariance_, model.coef_covariance_, rtol=0, atol=0)
+    loaded = joblib.load(tmp_path / "model.joblib")
+    assert_allclose(loaded.coef_covariance_, model.coef_covariance_, rtol=0, atol=0)
+    joblib.dump(model, tmp_path / "used.joblib")  # after first use: stored with it
+    assert_allclose(joblib.load(tmp_path / "used.joblib").coef_covariance_,
+                    model.coef_covariance_, rtol=0, atol=0)
+    fresh = clone(model)
+    assert not hasattr(fresh, "coef_covariance_")
+    with pytest.raises(NotFittedError):
+        check_is_fitted(fresh)
+    fresh.fit(X, Y, sample_weight=w)
+    assert_allclose(fresh.coef_covariance_, model.coef_covariance_, rtol=0, atol=0)
+    fresh.fit(X[:40], Y[:40])  # a refit forgets the old matrix
+    assert_allclose(fresh.coef_covariance_, _eager_covariance(fresh._covariance_factors),
+                    rtol=1e-10, atol=1e-12 * np.abs(expected).max())
+    assert not np.allclose(fresh.coef_covariance_, model.coef_covariance_)
+
+
 def test_fixed_alpha_matches_dense_kronecker_solve(rng):
     # The criterion sum_i int (Y_i - fit_i)^2 + lam sum_{j >= 1} int (D^2 beta_j)^2
     # (the intercept function unpenalized) written out as one dense

@@ -362,3 +362,27 @@ def test_stacked_paths_mark_folds_that_leave_the_null_space_free(rng):
                                atol=1e-9 * np.abs(direct).max())
     np.testing.assert_allclose(alone.operator(0.1), direct, rtol=1e-7,
                                atol=1e-9 * np.abs(direct).max())
+
+
+def test_penalty_for_keeps_one_decomposition_per_basis():
+    # penalty_for keeps its decompositions by basis key: an equal basis gets
+    # the same (read-only) object, a basis that differs in any number that
+    # defines it (knots, degree, domain, period, size) gets its own, equal to
+    # the decomposition made afresh with Penalty (the class's definition)
+    from skfunc._penalized import Penalty
+
+    bases = [BSplineBasis((0, 1), 8), BSplineBasis((0, 1), 8, degree=2),
+             BSplineBasis((0, 1), knots=[0.1, 0.2, 0.5, 0.9]), BSplineBasis((0, 2), 8),
+             FourierBasis((0, 1), 7), FourierBasis((0, 1), 7, period=1.5),
+             make_basis("legendre", (0, 1), 6)]
+    for basis in bases:
+        shared = penalty_for(basis, 2)
+        fresh = Penalty(basis.unit_roughness(2), basis.null_space(2), basis.unit_gram())
+        np.testing.assert_array_equal(shared.matrix, fresh.matrix)
+        np.testing.assert_array_equal(shared.transform, fresh.transform)
+        np.testing.assert_array_equal(shared.metric, fresh.metric)
+        assert not shared.transform.flags.writeable
+        assert penalty_for(basis, 1) is not shared
+    keys = {basis.cache_key() for basis in bases}
+    assert len(keys) == len(bases)
+    assert penalty_for(BSplineBasis((0, 1), 8), 2) is penalty_for(bases[0], 2)
