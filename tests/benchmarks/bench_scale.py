@@ -288,13 +288,6 @@ CLUSTER_CASES = {
 }
 
 
-def _load():
-    """The 1-minute load average (other processes on the machine skew times)."""
-    import os
-
-    return os.getloadavg()[0]
-
-
 def bench_cluster(n, repeat):
     try:
         import dask.array as da
@@ -325,7 +318,7 @@ def bench_cluster(n, repeat):
             # run's own ratio is kept (the spread shows the machine's noise)
             runs = []
             for _ in range(repeat):
-                load = _load()
+                load = os.getloadavg()[0]  # the 1-minute load
                 start = time.perf_counter()
                 fitted_here = make(cls, t).fit(*here)
                 memory = time.perf_counter() - start
