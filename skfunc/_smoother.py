@@ -770,16 +770,6 @@ class CurveSmoother(ChannelwiseMixin, PenalizedFitMixin, AdditiveTransformerMixi
 
     # -- fitting: grid-only setup, additive statistics, solve ----------------
 
-    def _resize(self, n_basis, X):
-        """Set up anew with a grown default basis of ``n_basis`` functions
-        (None: the default size); the problem of the old size is dropped."""
-        if n_basis is None:
-            vars(self).pop("_grown_n_basis", None)
-        else:
-            self._grown_n_basis = n_basis
-        vars(self).get("_problem_cache", []).clear()
-        self._setup(X)
-
     def _setup(self, X):
         """Everything that depends on the parameters and grid only."""
         alpha = self._alpha()
