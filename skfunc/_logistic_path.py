@@ -36,6 +36,7 @@ from ._alpha import best_index
 from ._blocks import (
     KeptRows,
     compute_statistics,
+    in_pieces,
     is_dask_array,
     kept_blocks,
     reduce_delayed,
@@ -300,9 +301,13 @@ class LogisticProblem:
         return np.kron(np.eye(n_out), Q) + self.shift
 
     def sums(self, theta, derivatives=True):
-        """:func:`newton_statistics` over the row blocks (one pass)."""
+        """:func:`newton_statistics` over the row blocks (one pass), each
+        block in cache-sized row pieces (:func:`skfunc._blocks.in_pieces`:
+        the per-row cost of a step does not grow once the design outgrows
+        the cache)."""
         self.n_passes += 1
-        return self.rows(partial(newton_statistics, theta=theta, derivatives=derivatives))
+        return self.rows(partial(in_pieces, partial(
+            newton_statistics, theta=theta, derivatives=derivatives)))
 
     def start(self):
         """Coefficients of the intercept-only fit (class frequencies)."""
@@ -421,8 +426,8 @@ class LogisticProblem:
                     alphas[best], fits[best][0], tol, max_iter, current=fits[best][1]
                 )
                 n_iter += it
-        saturated = alphas[best] == 0 and self.rows(
-            partial(saturated_rows, theta=theta))["saturated"] > 0
+        saturated = alphas[best] == 0 and self.rows(partial(
+            in_pieces, partial(saturated_rows, theta=theta)))["saturated"] > 0
         return {
             "saturated": saturated,
             "criterion": criterion,
