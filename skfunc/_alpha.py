@@ -121,13 +121,24 @@ def _log_lambda_for_edf(s, targets):
     """``x = log lam`` with ``sum_k s_k / (s_k + e^x) = target``, per target.
 
     The function falls monotonically in x; a 128-point log grid brackets each
-    root, then safeguarded Newton steps (derivative ``-sum s e^x / (s + e^x)^2``)
-    converge to rounding. Vectorised over targets: a dozen array operations.
+    root (found by bisection over the grid: seven evaluations per target
+    instead of 128, the cost of ``len(s)`` in the thousands for a curve
+    response), then safeguarded Newton steps (derivative ``-sum s e^x / (s +
+    e^x)^2``) converge to rounding. Vectorised over targets: a dozen array
+    operations.
     """
     targets = np.asarray(targets, dtype=np.float64)
     grid = np.linspace(np.log(s.min()) - 12.0, np.log(s.sum()) + 12.0, 128)
-    edf = (s / (s + np.exp(grid)[:, None])).sum(axis=1)  # decreasing
-    j = np.clip(np.searchsorted(-edf, -targets), 1, grid.size - 1)
+    # j = the first grid index with edf <= target (searchsorted on the
+    # decreasing edf), in [0, 128]
+    j, top = np.zeros(targets.shape, dtype=int), np.full(targets.shape, grid.size)
+    while np.any(j < top):
+        mid = np.minimum((j + top) // 2, grid.size - 1)
+        below = (s / (s + np.exp(grid[mid])[:, None])).sum(axis=1) <= targets
+        open_ = j < top
+        top = np.where(open_ & below, mid, top)
+        j = np.where(open_ & ~below, mid + 1, j)
+    j = np.clip(j, 1, grid.size - 1)
     lo, hi = grid[j - 1], grid[j]
     x = (lo + hi) / 2
     for _ in range(12):
