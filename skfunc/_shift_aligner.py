@@ -29,31 +29,42 @@ class ShiftCriterion:
     (``ends="overlap"``). The change of variables ``s = t + d_k`` moves the
     shift onto the template, so all candidates cost two matrix products with
     X; integrals are exact for the piecewise-linear interpolants. The
-    template's side (weights over each candidate's overlap, the shifted
-    template) is computed once here, so that calling it on small blocks of
-    curves costs no more per curve than on all of them.
+    weights over each candidate's overlap are computed once (they do not
+    depend on the template), the template's side once per template
+    (:meth:`set_template`), so that calling it on small blocks of curves
+    costs no more per curve than on all of them.
     """
 
-    def __init__(self, grid, template, shifts, ends):
+    def __init__(self, grid, shifts, ends):
+        # the template-free part (weights over each candidate's overlap and
+        # where a curve is held at its ends): once per fit, not per template
         a, b = grid[0], grid[-1]
         lo = a + np.maximum(shifts, 0.0)
         hi = b + np.minimum(shifts, 0.0)
+        self.grid = grid
         self.shifts = shifts
         self.W = partial_weights(grid, lo, hi)  # (K, m), over s in [lo, hi]
-        T_shift = np.interp(grid[None, :] - shifts[:, None], grid, template)
-        self.WT = self.W * T_shift
-        self.template_term = np.sum(self.WT * T_shift, axis=1)
         self.overlap = hi - lo if ends == "overlap" else None
         if ends == "overlap":
             return
         # the part of [a, b] where x(t + d) is held at an end value
         right = partial_weights(grid, b - np.maximum(shifts, 0.0), np.full_like(shifts, b))
         left = partial_weights(grid, np.full_like(shifts, a), a + np.maximum(-shifts, 0.0))
-        self.ends = [  # (column of X, length held, integrals of T and T^2 there)
-            (column, length, Wend @ template, Wend @ (template * template))
-            for column, length, Wend in ((-1, np.maximum(shifts, 0.0), right),
-                                         (0, np.maximum(-shifts, 0.0), left))
-        ]
+        self.end_weights = [(-1, np.maximum(shifts, 0.0), right),
+                            (0, np.maximum(-shifts, 0.0), left)]
+
+    def set_template(self, template):
+        """Compute the template's side; returns self."""
+        grid, shifts = self.grid, self.shifts
+        T_shift = np.interp(grid[None, :] - shifts[:, None], grid, template)
+        self.WT = self.W * T_shift
+        self.template_term = np.sum(self.WT * T_shift, axis=1)
+        if self.overlap is None:
+            self.ends = [  # (column of X, length held, integrals of T and T^2 there)
+                (column, length, Wend @ template, Wend @ (template * template))
+                for column, length, Wend in self.end_weights
+            ]
+        return self
 
     def __call__(self, X):
         """The criterion of every row of X at every candidate, shape (n, K)."""
@@ -186,13 +197,14 @@ class ShiftAligner(AlignerBase):
             )
         self.candidate_shifts_ = np.linspace(-max_shift, max_shift, 2 * N_HALF + 1)
         w = quadrature_weights(t)
+        criterion = ShiftCriterion(t, self.candidate_shifts_, self.ends)
         if self.template is not None:
             self.template_ = self._check_template(self.template)
             self.n_iter_ = 0
         else:
             template = X.mean(axis=0)
             for it in range(1, self.max_iter + 1):  # noqa: B007  (n_iter_)
-                shifts = self._shifts(X, template)
+                shifts = self._shifts(X, template, criterion)
                 new = self._mean_by_blocks(
                     partial(self._shifted, X, shifts - shifts.mean()), X.shape[0])
                 change = np.sqrt(((new - template) ** 2) @ w)
@@ -201,10 +213,12 @@ class ShiftAligner(AlignerBase):
                     break
             self.template_ = template
             self.n_iter_ = it
-        self.shifts_ = self._shifts(X, self.template_)
+        self.shifts_ = self._shifts(X, self.template_, criterion)
 
-    def _shifts(self, X, template):
-        criterion = ShiftCriterion(self.grid_, template, self.candidate_shifts_, self.ends)
+    def _shifts(self, X, template, criterion=None):
+        if criterion is None:
+            criterion = ShiftCriterion(self.grid_, self.candidate_shifts_, self.ends)
+        criterion.set_template(template)
         out = np.empty(X.shape[0])
         # one BLAS thread: a block's products are small, and a team of
         # threads meeting once per block waits for each other (seconds per

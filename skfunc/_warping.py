@@ -339,8 +339,7 @@ class _DynamicProgram:
         c = np.empty((S, n, m))
         scratch = np.empty((S, n, m))
         here = np.empty((max(n, side.q1.shape[0]), m))
-        first = np.empty((S, n, m), dtype=np.int8)
-        order = np.arange(S, dtype=np.int8)[:, None, None]
+        first = np.empty((n, m), dtype=np.intp)
         for i in range(1, m):
             np.multiply(lag_q, side.q1k[i], out=c)
             c += np.multiply(side.q1i[i, 0], Q, out=here)  # the same for every step
@@ -349,11 +348,10 @@ class _DynamicProgram:
             c += lag_sq
             c += window[i, back, :, left]
             c += side.constant[i]
-            row = np.min(c, axis=0, out=self.energy[i])
-            # the first step reaching the minimum (as argmin, faster)
-            np.copyto(first, S)
-            np.copyto(first, order, where=c == row)
-            np.min(first, axis=0, out=choice[i])
+            np.min(c, axis=0, out=self.energy[i])
+            # the first step reaching the minimum (c has no NaN: its terms
+            # are finite but the table's inf)
+            choice[i] = np.argmin(c, axis=0, out=first)
         return self._backtrack(choice)
 
     def _backtrack(self, choice):
