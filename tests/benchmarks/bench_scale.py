@@ -28,7 +28,9 @@ Usage, from the repository root::
     python tests/benchmarks/bench_scale.py --quick   # small sizes, no cluster: a smoke run
     python tests/benchmarks/bench_scale.py --only scaling float32   # some sections
 
-Times are the best of a few runs; other processes on the machine inflate
+Times are the best of a few runs (15 for the scaling table: at 25,000 rows a
+fit takes 20-80 ms, and the noise of a best of 5 was several percent);
+other processes on the machine inflate
 them, so read the ratios rather than the seconds.
 """
 
@@ -416,7 +418,7 @@ def main(argv=None):
         "float32" in run and bench_float32(5_000, 500, repeat=1)
     else:
         "memory" in run and bench_memory(1_000_000)
-        "scaling" in run and bench_scaling([25_000, 50_000, 100_000, 200_000], 5, args.names)
+        "scaling" in run and bench_scaling([25_000, 50_000, 100_000, 200_000], 15, args.names)
         "dask" in run and bench_dask(200_000, repeat=3)
         "cluster" in run and bench_cluster(200_000, repeat=3)
         "float32" in run and bench_float32(100_000, 500, repeat=5)
