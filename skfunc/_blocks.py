@@ -46,6 +46,7 @@ CACHE_VALUES = 1 << 17
 #: how many partial results one task of the tree reduction merges
 SPLIT_EVERY = 8
 
+
 def is_dask_array(X):
     """Whether ``X`` is a Dask array, without importing Dask."""
     module = sys.modules.get("dask.array")

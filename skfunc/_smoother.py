@@ -100,29 +100,23 @@ def _products(X, first_T, second_T=None, dtype=np.float64):
     n, m = X.shape
     extended = np.column_stack([first_T, np.ones(m)])
     missing = np.empty(n, dtype=bool)
-    if second_T is None and dtype == np.float64:
+    first = block_product(X, extended, dtype=dtype)
+    if second_T is None:
         # straight into the result, with the flag column beside it (no
         # copy of each block's product)
-        out = np.empty((n, extended.shape[1]))
+        out = np.empty((n, extended.shape[1]), dtype=dtype)
         for part in row_blocks(n, m):
             with np.errstate(invalid="ignore", over="ignore"):  # inf is flagged
-                np.matmul(np.asarray(X[part], dtype=np.float64), extended, out=out[part])
+                first(X[part], out=out[part])
             missing[part] = ~np.isfinite(out[part, -1])
         return out[:, :-1], missing
-    width = first_T.shape[1] if second_T is None else second_T.shape[1]
-    out = np.empty((n, width), dtype=dtype)
-    missing = np.empty(n, dtype=bool)
-    first = block_product(X, extended, dtype=dtype)
-    if second_T is not None:
-        second_T = second_T.astype(dtype, copy=False)
+    out = np.empty((n, second_T.shape[1]), dtype=dtype)
+    second_T = second_T.astype(dtype, copy=False)
     for part in row_blocks(n, m):
         with np.errstate(invalid="ignore", over="ignore"):  # inf is flagged
             coef = first(X[part])
         missing[part] = ~np.isfinite(coef[:, -1])
-        if second_T is None:
-            out[part] = coef[:, :-1]
-        else:
-            np.matmul(coef[:, :-1], second_T, out=out[part])
+        np.matmul(coef[:, :-1], second_T, out=out[part])
     return out, missing
 
 
