@@ -1,5 +1,7 @@
 """BasisFeatures: curves to L2-orthonormal basis coordinates."""
 
+from functools import partial
+
 import numpy as np
 from sklearn.base import BaseEstimator, TransformerMixin
 from sklearn.utils._param_validation import StrOptions
@@ -18,7 +20,13 @@ from ._estimator import store_init_params
 from ._fit import AdditiveTransformerMixin
 from ._grid import DATA_TERMS
 from ._smoother import PenalizedFitMixin
-from ._validation import BASIS_CONSTRAINTS, CHANNEL_N_BASIS, basis_for, validate_curves
+from ._validation import (
+    BASIS_CONSTRAINTS,
+    CHANNEL_N_BASIS,
+    basis_for,
+    product_of_curves,
+    validate_curves,
+)
 
 
 def orthonormal_operators(basis, grid, weights):
@@ -183,8 +191,9 @@ class BasisFeatures(ChannelwiseMixin, PenalizedFitMixin, AdditiveTransformerMixi
         check_is_fitted(self)
         if hasattr(self, "channel_estimators_"):
             return self._per_channel(X, "transform")
-        X = validate_curves(self, X, reset=False)
-        return chunked_matmul(X, self.projection_.T, dtype=output_dtype(X))
+        return product_of_curves(
+            partial(validate_curves, self, reset=False), X,
+            lambda X: chunked_matmul(X, self.projection_.T, dtype=output_dtype(X)))
 
     def inverse_transform(self, X):
         """Values on ``grid_`` of the functions with coordinates ``X``.

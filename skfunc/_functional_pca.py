@@ -3,6 +3,7 @@
 The numeric core (coordinates, eigensolvers) is :mod:`skfunc._fpca`.
 """
 
+from functools import partial
 from numbers import Integral, Real
 
 import numpy as np
@@ -32,7 +33,13 @@ from ._fpca import (
     sign_convention,
     svd_directions,
 )
-from ._validation import BASIS_CONSTRAINTS, CHANNEL_N_BASIS, basis_for, validate_curves
+from ._validation import (
+    BASIS_CONSTRAINTS,
+    CHANNEL_N_BASIS,
+    basis_for,
+    product_of_curves,
+    validate_curves,
+)
 
 SVD_SOLVERS = ("auto", "full", "covariance_eigh", "randomized")
 
@@ -700,10 +707,11 @@ class FunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         scores : ndarray of shape (n_samples, n_components_)
         """
         check_is_fitted(self)
-        X = self._validate(X, reset=False)
         operator_T = self.projection_.T
-        return chunked_matmul(X, operator_T, -self.mean_ @ operator_T,
-                              dtype=output_dtype(X))
+        return product_of_curves(
+            partial(self._validate, reset=False), X,
+            lambda X: chunked_matmul(X, operator_T, -self.mean_ @ operator_T,
+                                     dtype=output_dtype(X)))
 
     @fill_doc
     def score_samples(self, X):

@@ -25,6 +25,7 @@ Cardot, H., Ferraty, F. and Sarda, P. (2003). Spline estimators for the
 functional linear model. *Statistica Sinica* 13, 571-591.
 """
 
+from functools import partial
 from numbers import Integral
 
 import numpy as np
@@ -48,6 +49,7 @@ from ._validation import (
     CHANNEL_N_BASIS,
     basis_for,
     check_level,
+    product_of_curves,
     validate_curves,
 )
 
@@ -213,10 +215,13 @@ class IntegratedDesignMixin(ShortReprMixin):
         """``X @ coef_.T + intercept_`` for validated curves X (float32 for
         float32 X with ``keep_float32``, else float64)."""
         check_is_fitted(self)
-        X = self._validate_curves(X, reset=False)
         coef = np.atleast_2d(self.coef_)
-        dtype = output_dtype(X) if keep_float32 else np.float64
-        eta = chunked_matmul(X, coef.T, self.intercept_, dtype=dtype)
+
+        def product(X):
+            dtype = output_dtype(X) if keep_float32 else np.float64
+            return chunked_matmul(X, coef.T, self.intercept_, dtype=dtype)
+
+        eta = product_of_curves(partial(self._validate_curves, reset=False), X, product)
         return eta[:, 0] if np.ndim(self.coef_) == 1 else eta
 
     def confidence_band(self, level=0.95, *, simultaneous=False, n_draws=4000,

@@ -148,6 +148,28 @@ def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
     return out
 
 
+def product_of_curves(validate, X, product):
+    """``product(validate(X))`` with X scanned for NaN and inf only when
+    the result is not finite.
+
+    For a ``product`` every value of X enters (a matrix product with the
+    curves, :func:`skfunc._blocks.chunked_matmul`): a NaN or inf of X makes
+    its row of the result NaN or inf, so the scan, a pass over X as long as
+    a thin product, is left out; a non-finite result sends X through the
+    full validation, which names the first NaN or inf. Finite values whose
+    products overflow pass it, as they would the scan. ``validate(X,
+    check_finite=...)`` is the estimator's curve validation (with
+    ``reset=False``); dask arrays are validated first as usual.
+    """
+    if is_dask_array(X):
+        return product(validate(X))
+    with np.errstate(invalid="ignore", over="ignore"):
+        result = product(validate(X, check_finite=False))
+    if not np.isfinite(result).all():
+        validate(X)
+    return result
+
+
 def first_nan(data):
     """`` (first at row i, column j)`` for the first NaN of ``data``, or ""."""
     try:

@@ -237,3 +237,44 @@ def test_unscanned_batches_still_name_the_bad_value(monkeypatch, make, bad, n_th
              else "contains infinity")
     with pytest.raises(ValueError, match=match):
         partial_fit_batches(make(), X, y, batch_size=100, n_threads=n_threads)
+
+
+@pytest.mark.parametrize("dtype", [np.float64, np.float32])
+@pytest.mark.parametrize("bad", [np.nan, np.inf, -np.inf])
+@pytest.mark.parametrize("name, column", [
+    (name, column) for name in ("FunctionalPCA", "BasisFeatures", "FunctionalRidge",
+                                "FunctionalLogisticRegression")
+    # 120: the covariate column of the models that take one
+    for column in (0, 57, 119) + ((120,) if name.startswith("FunctionalR")
+                                  or name.startswith("FunctionalL") else ())])
+def test_unscanned_transforms_still_name_the_bad_value(name, column, bad, dtype):
+    # transform / predict do not scan X for NaN and inf before the product
+    # (every value enters it); a non-finite result sends X through the full
+    # validation, which must raise the usual error with the NaN's position,
+    # without a RuntimeWarning on the way (errors here, see pyproject.toml).
+    # An implementation that skipped the scan without the check would return
+    # NaN or inf scores instead (common practice: scikit-learn's
+    # check_array rejects NaN and inf at predict time).
+    from skfunc.linear_model import FunctionalLogisticRegression
+    from skfunc.preprocessing import BasisFeatures
+
+    grid = np.linspace(0, 1, 120)
+    X, y = make_smooth_regression(80, grid=grid, random_state=1)[:2]
+    covariate = np.random.default_rng(1).standard_normal((80, 1))
+    make = {"FunctionalPCA": lambda: FunctionalPCA(2, basis="bspline", grid=grid),
+            "BasisFeatures": lambda: BasisFeatures(n_basis=12, grid=grid),
+            "FunctionalRidge": lambda: FunctionalRidge(grid=grid, n_covariates=1),
+            "FunctionalLogisticRegression": lambda: FunctionalLogisticRegression(
+                grid=grid, n_covariates=1)}[name]
+    has_covariate = name in ("FunctionalRidge", "FunctionalLogisticRegression")
+    data = np.hstack([X, covariate]) if has_covariate else X
+    target = {"FunctionalRidge": y, "FunctionalLogisticRegression": y > np.median(y)}
+    est = make().fit(data, target.get(name))
+    method = getattr(est, "predict" if has_covariate else "transform")
+    bad_data = data.astype(dtype)
+    bad_data[37, column] = bad
+    match = (f"contains NaN \\(first at row 37, column {column}\\)" if np.isnan(bad)
+             else "contains infinity")
+    with pytest.raises(ValueError, match=match):
+        method(bad_data)
+    assert np.isfinite(method(data.astype(dtype))).all()  # the clean rows pass
