@@ -278,3 +278,30 @@ def test_unscanned_transforms_still_name_the_bad_value(name, column, bad, dtype)
     with pytest.raises(ValueError, match=match):
         method(bad_data)
     assert np.isfinite(method(data.astype(dtype))).all()  # the clean rows pass
+
+
+@pytest.mark.parametrize("shift", [0.0, 1200.0])
+@pytest.mark.parametrize("dtype", [np.float64, np.float32])
+@pytest.mark.parametrize("k", [1, 5])
+def test_chunked_products_on_threads_equal_one_thread(monkeypatch, k, dtype, shift):
+    # chunked_matmul runs one-column products (numpy's einsum) and centered
+    # float32 products on threads: the result must equal the one-thread run
+    # bit for bit (each block is computed alone) and the float64 numpy
+    # product of the same values within float32's promise, 1e-5 of the
+    # largest value (IEEE 754 unit roundoff 2^-24 times the 300 terms and
+    # the 1200 / 1 ratio of mean to spread, common practice), or 1e-12 for
+    # float64
+    monkeypatch.setattr(_blocks, "CHUNK_VALUES", 300 * 50)  # 50 rows per block
+    rng = np.random.default_rng(3)
+    X = (rng.standard_normal((1000, 300)).cumsum(axis=1) / 10 + shift).astype(dtype)
+    operator = rng.standard_normal((300, k))
+    offset = rng.standard_normal(k)
+    exact = X.astype(np.float64) @ operator + offset
+    monkeypatch.setattr(_blocks, "blas_thread_count", lambda: 2)  # also on one core
+    got = _blocks.chunked_matmul(X, operator, offset, dtype=dtype)
+    assert got.dtype == dtype
+    monkeypatch.setattr(_blocks, "blas_thread_count", lambda: 1)  # no block threads
+    alone = _blocks.chunked_matmul(X, operator, offset, dtype=dtype)
+    np.testing.assert_array_equal(got, alone)
+    tol = 1e-5 if dtype == np.float32 else 1e-12
+    np.testing.assert_allclose(got, exact, rtol=0, atol=tol * np.abs(exact).max())
