@@ -29,8 +29,9 @@ Usage, from the repository root::
     python tests/benchmarks/bench_scale.py --only scaling float32   # some sections
 
 Times are the best of a few runs (15 for the scaling table: at 25,000 rows a
-fit takes 20-80 ms, and the noise of a best of 5 was several percent);
-other processes on the machine inflate
+fit takes 20-80 ms, and the noise of a best of 5 was several percent; 15 for
+float32 too: a prediction takes 7-15 ms, and its ratio moved by 0.1 between
+runs of a best of 5); other processes on the machine inflate
 them, so read the ratios rather than the seconds.
 """
 
@@ -421,7 +422,7 @@ def main(argv=None):
         "scaling" in run and bench_scaling([25_000, 50_000, 100_000, 200_000], 15, args.names)
         "dask" in run and bench_dask(200_000, repeat=3)
         "cluster" in run and bench_cluster(200_000, repeat=3)
-        "float32" in run and bench_float32(100_000, 500, repeat=5)
+        "float32" in run and bench_float32(100_000, 500, repeat=15)
 
 
 if __name__ == "__main__":
