@@ -375,3 +375,22 @@ def test_open_data_defaults_match_sklearn(name):
         if issubclass(w.category, AlphaAtEdgeWarning) and "smallest" in str(w.message):
             assert "ridge on beta" in str(w.message)
             assert "fewer basis functions" not in str(w.message)
+
+
+@pytest.mark.parametrize("shift", [0, -3, -40, -1000, -1060, -1080])
+def test_kept_design_brought_to_merged_powers_of_two_exactly(shift):
+    # the Newton rows come from each block's kept design, divided by its own
+    # powers of two, brought to the merged ones (at most its own: shift <= 0):
+    # a power of two per column,
+    # which must equal numpy's np.ldexp bit for bit, also where the power
+    # itself is not a normal float (|shift| > 1022: the multiply would lose
+    # it), then centred and rotated as numpy computes it
+    from skfunc._logistic_path import kept_split_design
+
+    rng = np.random.default_rng(0)
+    Z = rng.uniform(0.5, 1000.0, (50, 4))
+    x_exp = shift + np.array([0, 1, -1, 0])
+    z_mean, U = np.zeros(4), rng.standard_normal((4, 3))  # tiny values stay visible
+    got = kept_split_design((Z, {"x_exp": x_exp}), 0, z_mean, U, 1)
+    expected = np.hstack([np.ones((50, 1)), (np.ldexp(Z, x_exp) - z_mean) @ U])
+    np.testing.assert_array_equal(got, expected)
