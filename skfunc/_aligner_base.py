@@ -6,7 +6,7 @@ from sklearn.base import BaseEstimator, TransformerMixin
 from sklearn.utils._param_validation import StrOptions
 from sklearn.utils.validation import _check_feature_names_in, check_array, check_is_fitted
 
-from ._blocks import cache_rows, output_dtype, row_blocks
+from ._blocks import apply_rows, cache_rows, is_dask_array, output_dtype, row_blocks
 from ._docstrings import fill_doc
 from ._estimator import PreservesFloat32Mixin, ShortReprMixin
 from ._validation import validate_curves
@@ -34,11 +34,13 @@ class AlignerBase(ShortReprMixin, PreservesFloat32Mixin, TransformerMixin, BaseE
     # -- validation -----------------------------------------------------------
 
     def _validate(self, X, reset):
-        """Curves as float64; on ``reset`` (fit) the parameters too."""
+        """Curves as float64 (a dask array stays lazy: an aligner that
+        accepts one, ``_accepts_dask``, reads it block by block); on
+        ``reset`` (fit) the parameters too."""
         if reset:
             self._validate_params()
         X = validate_curves(self, X, reset=reset)
-        return np.asarray(X, dtype=np.float64)
+        return X.astype(np.float64) if is_dask_array(X) else np.asarray(X, dtype=np.float64)
 
     def _check_template(self, template):
         """A user template as a curve on the fitted grid."""
@@ -113,6 +115,12 @@ class AlignerBase(ShortReprMixin, PreservesFloat32Mixin, TransformerMixin, BaseE
     def _transform(self, X, **kwargs):
         check_is_fitted(self)
         X = validate_curves(self, X, reset=False)
+        # a dask X block by block, lazily
+        return apply_rows(self._transform_rows, X, self.grid_.size, dtype=output_dtype(X),
+                          **kwargs)
+
+    def _transform_rows(self, X, **kwargs):
+        """:meth:`_transform` of validated numpy curves."""
         dtype = output_dtype(X)  # aligned in float64, returned in X's precision
         X = np.asarray(X, dtype=np.float64)
         if self.output == "curves":
@@ -125,6 +133,10 @@ class AlignerBase(ShortReprMixin, PreservesFloat32Mixin, TransformerMixin, BaseE
     def _warps(self, X, **kwargs):
         check_is_fitted(self)
         X = self._validate(X, reset=False)
+        return apply_rows(self._warps_rows, X, self.grid_.size, **kwargs)
+
+    def _warps_rows(self, X, **kwargs):
+        """:meth:`_warps` of validated float64 numpy curves."""
         return self._align(X, curves=False, **kwargs)[1]
 
     def inverse_transform(self, X, warps=None):

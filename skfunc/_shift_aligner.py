@@ -7,7 +7,14 @@ import numpy as np
 from sklearn.utils._param_validation import Interval, StrOptions
 
 from ._aligner_base import AlignerBase
-from ._blocks import single_thread_blas
+from ._blocks import (
+    KeptRows,
+    cache_rows,
+    compute_statistics,
+    is_dask_array,
+    row_blocks,
+    single_thread_blas,
+)
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._grid import quadrature_weights
@@ -98,6 +105,36 @@ class ShiftCriterion:
         return np.where(inner, best + np.clip(move, -step, step), best)
 
 
+def _best_shifts(X, criterion):
+    """``criterion.best_shifts`` of every row of X, in blocks whose
+    temporaries stay in the cache, with one BLAS thread: a block's products
+    are small, and a team of threads meeting once per block waits for each
+    other (seconds per fit on a busy machine)."""
+    X = np.asarray(X, dtype=np.float64)
+    out = np.empty(X.shape[0])
+    with single_thread_blas():
+        for rows in row_blocks(*X.shape, rows=cache_rows(X.shape[1])):
+            out[rows] = criterion.best_shifts(X[rows])
+    return out
+
+
+def _shifted_sum(X, shifts, grid):
+    """The sum of the rows of X shifted by ``shifts`` (None: not shifted)
+    and their number: a row block's share of a mean."""
+    X = np.asarray(X, dtype=np.float64)
+    total = np.zeros(X.shape[1])
+    for rows in row_blocks(*X.shape, rows=cache_rows(X.shape[1])):
+        block = X[rows] if shifts is None else interp_rows(
+            grid[None, :] + shifts[rows, None], grid, X[rows])
+        total += block.sum(axis=0)
+    return {"sum": total, "n": X.shape[0]}
+
+
+def _concatenate(*parts):
+    """Per-curve results of row blocks, in order."""
+    return np.concatenate(parts)
+
+
 @fill_doc
 class ShiftAligner(AlignerBase):
     """Align curves by shifting each one in time towards a template.
@@ -173,6 +210,10 @@ class ShiftAligner(AlignerBase):
     array([-0.1,  0. ,  0.1])
     """
 
+    #: fits on dask arrays: each Procrustes iteration is a pass of per-block
+    #: shifts and sums over the rows, persisted once
+    _accepts_dask = True
+
     _parameter_constraints = {
         "max_shift": [Interval(Real, 0, None, closed="neither"), None],
         "ends": [StrOptions(set(ENDS))],
@@ -198,15 +239,16 @@ class ShiftAligner(AlignerBase):
         self.candidate_shifts_ = np.linspace(-max_shift, max_shift, 2 * N_HALF + 1)
         w = quadrature_weights(t)
         criterion = ShiftCriterion(t, self.candidate_shifts_, self.ends)
+        if is_dask_array(X):  # read at every iteration: persisted once
+            X = KeptRows(X).arrays[0]
         if self.template is not None:
             self.template_ = self._check_template(self.template)
             self.n_iter_ = 0
         else:
-            template = X.mean(axis=0)
+            template = self._mean_shifted(X, None)
             for it in range(1, self.max_iter + 1):  # noqa: B007  (n_iter_)
                 shifts = self._shifts(X, template, criterion)
-                new = self._mean_by_blocks(
-                    partial(self._shifted, X, shifts - shifts.mean()), X.shape[0])
+                new = self._mean_shifted(X, shifts - shifts.mean())
                 change = np.sqrt(((new - template) ** 2) @ w)
                 template = new
                 if change <= self.tol * np.sqrt((template ** 2) @ w):
@@ -216,17 +258,29 @@ class ShiftAligner(AlignerBase):
         self.shifts_ = self._shifts(X, self.template_, criterion)
 
     def _shifts(self, X, template, criterion=None):
+        """Every curve's shift against ``template`` (for a dask X, computed
+        block by block and gathered: one number per curve)."""
         if criterion is None:
             criterion = ShiftCriterion(self.grid_, self.candidate_shifts_, self.ends)
         criterion.set_template(template)
-        out = np.empty(X.shape[0])
-        # one BLAS thread: a block's products are small, and a team of
-        # threads meeting once per block waits for each other (seconds per
-        # fit on a busy machine)
-        with single_thread_blas():
-            for rows in self._row_blocks(X.shape[0]):
-                out[rows] = criterion.best_shifts(X[rows])
-        return out
+        if is_dask_array(X):
+            return compute_statistics(partial(_best_shifts, criterion=criterion), X,
+                                      merge=_concatenate)
+        return _best_shifts(X, criterion)
+
+    def _mean_shifted(self, X, shifts):
+        """The mean of the curves shifted by ``shifts`` (None: not shifted),
+        for a dask X from per-block sums."""
+        if is_dask_array(X):
+            import dask.array as da
+
+            if shifts is not None:
+                shifts = da.from_array(shifts, chunks=(X.chunks[0],))
+            sums = compute_statistics(partial(_shifted_sum, grid=self.grid_), X, shifts)
+            return sums["sum"] / sums["n"]
+        if shifts is None:
+            return X.mean(axis=0)
+        return self._mean_by_blocks(partial(self._shifted, X, shifts), X.shape[0])
 
     def _shifted(self, X, shifts, rows):
         """The curves of these rows, shifted."""
