@@ -1,12 +1,21 @@
 """What the aligners share: validation, output choice, warps as features,
 putting aligned curves back on their own clocks."""
 
+from functools import partial
+
 import numpy as np
 from sklearn.base import BaseEstimator, TransformerMixin
 from sklearn.utils._param_validation import StrOptions
 from sklearn.utils.validation import _check_feature_names_in, check_array, check_is_fitted
 
-from ._blocks import apply_rows, cache_rows, is_dask_array, output_dtype, row_blocks
+from ._blocks import (
+    apply_rows,
+    cache_rows,
+    compute_statistics,
+    is_dask_array,
+    output_dtype,
+    row_blocks,
+)
 from ._docstrings import fill_doc
 from ._estimator import PreservesFloat32Mixin, ShortReprMixin
 from ._validation import validate_curves
@@ -14,6 +23,22 @@ from ._warping import compose, warp_coordinates
 
 #: what ``transform`` returns
 OUTPUTS = ("curves", "warps", "warp_coordinates")
+
+
+def _row_sum(X, *per_row, func):
+    """The sum over the rows of ``func(X_rows, *per_row_rows)`` and their
+    number, in pieces whose temporaries stay in the cache: a row block's
+    share of a mean."""
+    X = np.asarray(X, dtype=np.float64)
+    total = 0.0
+    for rows in row_blocks(*X.shape, rows=cache_rows(X.shape[1])):
+        total = total + func(X[rows], *(a[rows] for a in per_row)).sum(axis=0)
+    return {"sum": total, "n": X.shape[0]}
+
+
+def _concatenate(*parts):
+    """Per-curve results of row blocks, in order."""
+    return np.concatenate(parts)
 
 
 class AlignerBase(ShortReprMixin, PreservesFloat32Mixin, TransformerMixin, BaseEstimator):
@@ -78,6 +103,30 @@ class AlignerBase(ShortReprMixin, PreservesFloat32Mixin, TransformerMixin, BaseE
         for rows in self._row_blocks(n):
             out[rows] = func(rows)
         return out
+
+    def _mean_of_rows(self, func, X, *per_row):
+        """The mean over the curves X of ``func(X_rows, *per_row_rows)`` (an
+        array of rows of the grid's length; ``per_row``: arrays with a row
+        per curve). For a dask X, per-block sums on the workers (``func``
+        picklable); else :meth:`_mean_by_blocks`."""
+        if is_dask_array(X):
+            import dask.array as da
+
+            per_row = [da.from_array(a, chunks=(X.chunks[0],) + np.shape(a)[1:])
+                       for a in per_row]
+            sums = compute_statistics(partial(_row_sum, func=func), X, *per_row)
+            return sums["sum"] / sums["n"]
+        return self._mean_by_blocks(
+            lambda rows: func(X[rows], *(a[rows] for a in per_row)), X.shape[0])
+
+    @staticmethod
+    def _per_row(func, X):
+        """``func(X)`` (a result per curve, along the first axis); for a
+        dask X computed block by block and gathered: one small row per
+        curve comes back."""
+        if is_dask_array(X):
+            return compute_statistics(func, X, merge=_concatenate)
+        return func(X)
 
     def _mean_by_blocks(self, func, n):
         """Mean of the rows of ``func(rows)`` over the blocks of

@@ -6,6 +6,7 @@ import numpy as np
 from sklearn.utils._param_validation import StrOptions
 
 from ._aligner_base import AlignerBase
+from ._blocks import KeptRows, is_dask_array
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._warping import compose, pchip_rows
@@ -50,7 +51,7 @@ class LandmarkAligner(AlignerBase):
         ``transform``: the time of each curve's largest (``"peak"``) or
         smallest (``"trough"``) interior value, refined between grid points;
         or a function ``landmarks(X, grid)`` returning an array of shape
-        (n_samples, k).
+        (n_samples, k) (for a dask X it is called on each row block).
     target_landmarks : array-like of shape (k,), default=None
         Where the landmarks go, strictly increasing and strictly inside the
         domain. None means the mean landmark times of the training curves.
@@ -109,6 +110,10 @@ class LandmarkAligner(AlignerBase):
     array([0.5, 0.5])
     """
 
+    #: fits on dask arrays: landmarks found per row block, the template
+    #: from per-block sums (landmarks given to transform: numpy X only)
+    _accepts_dask = True
+
     _parameter_constraints = {
         "landmarks": [StrOptions(set(FINDERS)), callable],
         "target_landmarks": ["array-like", None],
@@ -123,6 +128,8 @@ class LandmarkAligner(AlignerBase):
 
     def _landmarks(self, X, landmarks):
         if landmarks is None:
+            if is_dask_array(X):  # found block by block; one row per curve comes back
+                return self._per_row(partial(self._landmarks, landmarks=None), X)
             if callable(self.landmarks):
                 landmarks = self.landmarks(X, self.grid_.copy())
                 source = "the landmarks function"
@@ -188,6 +195,8 @@ class LandmarkAligner(AlignerBase):
             Fitted aligner.
         """
         X = self._validate(X, reset=True)
+        if is_dask_array(X):  # read twice (landmarks, template): persisted once
+            X = KeptRows(X).arrays[0]
         self.landmarks_ = self._landmarks(X, landmarks)
         if self.target_landmarks is None:
             self.target_landmarks_ = self.landmarks_.mean(axis=0)
@@ -199,8 +208,7 @@ class LandmarkAligner(AlignerBase):
                 f"target_landmarks has {self.target_landmarks_.size} times but the "
                 f"curves have {self.landmarks_.shape[1]} landmarks each."
             )
-        self.template_ = self._mean_by_blocks(
-            partial(self._aligned, X, self.landmarks_), X.shape[0])
+        self.template_ = self._mean_of_rows(self._aligned_rows, X, self.landmarks_)
         return self
 
     def _warp(self, times, inverse):
@@ -229,7 +237,19 @@ class LandmarkAligner(AlignerBase):
 
     def _aligned(self, X, times, rows):
         """The curves of these rows, aligned: ``x_i o gamma_i^{-1}``."""
-        return compose(self.grid_, X[rows], self._warp(times[rows], True))
+        return self._aligned_rows(X[rows], times[rows])
+
+    def _aligned_rows(self, X, times):
+        """Curves aligned by their landmark ``times``."""
+        return compose(self.grid_, X, self._warp(times, True))
+
+    def _check_dask_landmarks(self, X, landmarks):
+        if landmarks is not None and is_dask_array(X):
+            raise ValueError(
+                "landmarks= cannot be given with a dask X in transform or "
+                "transform_warps (they would not follow its row blocks); give "
+                "numpy curves, or leave landmarks=None to find them block by block."
+            )
 
     @fill_doc
     def transform(self, X, landmarks=None):
@@ -240,6 +260,7 @@ class LandmarkAligner(AlignerBase):
 
         %(aligned_returns)s
         """
+        self._check_dask_landmarks(X, landmarks)
         return self._transform(X, landmarks=landmarks)
 
     @fill_doc
@@ -263,4 +284,5 @@ class LandmarkAligner(AlignerBase):
 
         %(warps_returns)s
         """
+        self._check_dask_landmarks(X, landmarks)
         return self._warps(X, landmarks=landmarks)

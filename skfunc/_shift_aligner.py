@@ -7,14 +7,7 @@ import numpy as np
 from sklearn.utils._param_validation import Interval, StrOptions
 
 from ._aligner_base import AlignerBase
-from ._blocks import (
-    KeptRows,
-    cache_rows,
-    compute_statistics,
-    is_dask_array,
-    row_blocks,
-    single_thread_blas,
-)
+from ._blocks import KeptRows, cache_rows, is_dask_array, row_blocks, single_thread_blas
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._grid import quadrature_weights
@@ -118,21 +111,9 @@ def _best_shifts(X, criterion):
     return out
 
 
-def _shifted_sum(X, shifts, grid):
-    """The sum of the rows of X shifted by ``shifts`` (None: not shifted)
-    and their number: a row block's share of a mean."""
-    X = np.asarray(X, dtype=np.float64)
-    total = np.zeros(X.shape[1])
-    for rows in row_blocks(*X.shape, rows=cache_rows(X.shape[1])):
-        block = X[rows] if shifts is None else interp_rows(
-            grid[None, :] + shifts[rows, None], grid, X[rows])
-        total += block.sum(axis=0)
-    return {"sum": total, "n": X.shape[0]}
-
-
-def _concatenate(*parts):
-    """Per-curve results of row blocks, in order."""
-    return np.concatenate(parts)
+def _shift_rows(X, shifts, grid):
+    """Curves shifted: ``x_i(t + d_i)``, held at their end values."""
+    return interp_rows(grid[None, :] + shifts[:, None], grid, X)
 
 
 @fill_doc
@@ -258,33 +239,21 @@ class ShiftAligner(AlignerBase):
         self.shifts_ = self._shifts(X, self.template_, criterion)
 
     def _shifts(self, X, template, criterion=None):
-        """Every curve's shift against ``template`` (for a dask X, computed
-        block by block and gathered: one number per curve)."""
+        """Every curve's shift against ``template``."""
         if criterion is None:
             criterion = ShiftCriterion(self.grid_, self.candidate_shifts_, self.ends)
         criterion.set_template(template)
-        if is_dask_array(X):
-            return compute_statistics(partial(_best_shifts, criterion=criterion), X,
-                                      merge=_concatenate)
-        return _best_shifts(X, criterion)
+        return self._per_row(partial(_best_shifts, criterion=criterion), X)
 
     def _mean_shifted(self, X, shifts):
-        """The mean of the curves shifted by ``shifts`` (None: not shifted),
-        for a dask X from per-block sums."""
-        if is_dask_array(X):
-            import dask.array as da
-
-            if shifts is not None:
-                shifts = da.from_array(shifts, chunks=(X.chunks[0],))
-            sums = compute_statistics(partial(_shifted_sum, grid=self.grid_), X, shifts)
-            return sums["sum"] / sums["n"]
-        if shifts is None:
-            return X.mean(axis=0)
-        return self._mean_by_blocks(partial(self._shifted, X, shifts), X.shape[0])
+        """The mean of the curves shifted by ``shifts`` (None: not shifted)."""
+        if shifts is not None:
+            return self._mean_of_rows(partial(_shift_rows, grid=self.grid_), X, shifts)
+        return self._mean_of_rows(np.asarray, X) if is_dask_array(X) else X.mean(axis=0)
 
     def _shifted(self, X, shifts, rows):
         """The curves of these rows, shifted."""
-        return interp_rows(self.grid_[None, :] + shifts[rows, None], self.grid_, X[rows])
+        return _shift_rows(X[rows], shifts[rows], self.grid_)
 
     def _align(self, X, curves=True, warps=True):
         shifts = self._shifts(X, self.template_)

@@ -486,11 +486,11 @@ def test_other_dask_collections_are_refused_with_advice(sync):
 
 
 def test_estimators_without_dask_support_refuse_dask_input(sync):
-    from skfunc.alignment import LandmarkAligner
+    from skfunc.alignment import ElasticAligner
 
     _, X, _ = kiln_runs(30)
     with pytest.raises(TypeError, match="does not accept dask arrays yet"):
-        LandmarkAligner().fit(da.from_array(X, chunks=10))
+        ElasticAligner().fit(da.from_array(X, chunks=10))
 
 
 def test_integer_and_float32_dtypes_follow_sklearn(sync):
@@ -710,3 +710,36 @@ def test_shift_aligner_on_cluster_equals_in_memory(client, monkeypatch, ends):
     assert is_dask_array(aligned) and is_dask_array(warps)
     assert_rel_close(aligned.compute(), reference.transform(X), rtol=1e-8)
     assert_rel_close(warps.compute(), reference.transform_warps(X), rtol=1e-8)
+
+
+@pytest.mark.parametrize("given", [False, True])
+def test_landmark_aligner_on_cluster_equals_in_memory(client, monkeypatch, given):
+    # Landmarks found block by block on the workers (or given, one row per
+    # curve), the template from per-block sums; the curves are never
+    # converted to numpy in this process. Equal to the in-memory fit within
+    # 1e-8, transforms lazy and equal too.
+    from skfunc.alignment import LandmarkAligner
+
+    t = np.linspace(0, 1, 121)
+    rng = np.random.default_rng(5)
+    peaks = rng.uniform(0.35, 0.65, 500)
+    X = np.exp(-((t - peaks[:, None]) / 0.08) ** 2) + 0.01 * rng.standard_normal((500, 121))
+    Xd = da.from_array(X, chunks=(110, 121))
+    landmarks = peaks[:, None] if given else None
+
+    def refuse(*args, **kwargs):
+        raise AssertionError("a dask array was converted to numpy as a whole")
+
+    monkeypatch.setattr(type(Xd), "__array__", refuse)
+    model = LandmarkAligner(grid=t).fit(Xd, landmarks=landmarks)
+    aligned, warps = model.transform(Xd), model.transform_warps(Xd)
+    monkeypatch.undo()
+    reference = LandmarkAligner(grid=t).fit(X, landmarks=landmarks)
+    assert_rel_close(model.landmarks_, reference.landmarks_, rtol=1e-8)
+    assert_rel_close(model.target_landmarks_, reference.target_landmarks_, rtol=1e-8)
+    assert_rel_close(model.template_, reference.template_, rtol=1e-8)
+    assert is_dask_array(aligned) and is_dask_array(warps)
+    assert_rel_close(aligned.compute(), reference.transform(X), rtol=1e-8)
+    assert_rel_close(warps.compute(), reference.transform_warps(X), rtol=1e-8)
+    with pytest.raises(ValueError, match="landmarks= cannot be given with a dask X"):
+        model.transform(Xd, landmarks=peaks[:, None])
