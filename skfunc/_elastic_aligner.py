@@ -1,6 +1,7 @@
 """ElasticAligner: alignment by the Fisher-Rao metric (square-root slope
 functions, dynamic programming, Karcher mean)."""
 
+from functools import partial
 from numbers import Integral, Real
 
 import numpy as np
@@ -8,6 +9,7 @@ from sklearn.utils._param_validation import Interval
 from sklearn.utils.validation import check_is_fitted
 
 from ._aligner_base import AlignerBase
+from ._blocks import KeptRows, delayed_row_blocks, is_dask_array, kept_blocks, reduce_delayed
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._grid import check_grid, quadrature_weights
@@ -21,6 +23,25 @@ from ._warping import (
     srsf,
     warp_srsf,
 )
+
+
+def _block_warps(X, grid, mu, penalty):
+    """Warps aligning a block of curves to the square-root slope function
+    ``mu``."""
+    return dynamic_program_warps(grid, mu, srsf(grid, np.asarray(X, dtype=np.float64)),
+                                 penalty)
+
+
+def _row_sums(rows):
+    """The sum of the rows and their number."""
+    return {"sum": rows.sum(axis=0), "n": rows.shape[0]}
+
+
+def _warped_srsf_sums(X, phi, grid, mean_inv):
+    """Sums of a block's square-root slope functions warped by its warps
+    ``phi`` composed with the inverse of the mean warp ``mean_inv``."""
+    Q = srsf(grid, np.asarray(X, dtype=np.float64))
+    return _row_sums(warp_srsf(grid, Q, interp_rows(mean_inv, grid, phi)))
 
 
 @fill_doc
@@ -105,6 +126,10 @@ class ElasticAligner(AlignerBase):
     np.True_
     """
 
+    #: fits on dask arrays: each Karcher iteration is one dynamic program
+    #: per curve on the workers and two passes of sums
+    _accepts_dask = True
+
     _parameter_constraints = {
         "penalty": [Interval(Real, 0, None, closed="left")],
         "template": ["array-like", None],
@@ -124,24 +149,51 @@ class ElasticAligner(AlignerBase):
             self.template_srsf_ = srsf(t, self.template_[None, :])[0]
             self.n_iter_ = 0
             return
-        Q = srsf(t, X)
         w = quadrature_weights(t)
-        mu = Q.mean(axis=0)
+        if is_dask_array(X):  # read at every iteration: persisted once
+            X = KeptRows(X).arrays[0]
+            mu = self._mean_of_rows(partial(srsf, t), X)
+            step = partial(self._karcher_step_on_blocks, X)
+        else:
+            Q = srsf(t, X)
+            mu = Q.mean(axis=0)
+            step = partial(self._karcher_step, Q)
         for it in range(1, self.max_iter + 1):  # noqa: B007  (n_iter_)
-            phi = dynamic_program_warps(t, mu, Q, self.penalty)
-            # centre: compose with the inverse of the mean warp, so that the
-            # warps average to the identity (mean of phi_i o mean^{-1})
-            mean_inv = invert_warps(t, phi.mean(axis=0, keepdims=True))[0]
-            phi = interp_rows(mean_inv, t, phi)
-            new = warp_srsf(t, Q, phi).mean(axis=0)
+            new = step(mu)
             change = np.sqrt(((new - mu) ** 2) @ w)
             mu = new
             if change <= self.tol * np.sqrt((mu ** 2) @ w):
                 break
-        phi = dynamic_program_warps(t, mu, Q, self.penalty)
         self.template_srsf_ = mu
-        self.template_ = compose(t, X, phi).mean(axis=0)
+        self.template_ = self._mean_of_rows(self._aligned_rows, X)
         self.n_iter_ = it
+
+    def _karcher_step(self, Q, mu):
+        """The next Karcher mean of the square-root slope functions ``Q``:
+        each aligned to ``mu``, the warps centred (composed with the inverse
+        of their mean, so that they average to the identity), then averaged."""
+        t = self.grid_
+        phi = dynamic_program_warps(t, mu, Q, self.penalty)
+        mean_inv = invert_warps(t, phi.mean(axis=0, keepdims=True))[0]
+        return warp_srsf(t, Q, interp_rows(mean_inv, t, phi)).mean(axis=0)
+
+    def _karcher_step_on_blocks(self, X, mu):
+        """:meth:`_karcher_step` for a dask X: each block's warps are kept on
+        the workers between the two sums (their mean, then the mean of the
+        warped square-root slope functions), so the dynamic program runs
+        once per curve and iteration."""
+        t = self.grid_
+        kept = kept_blocks(partial(_block_warps, grid=t, mu=mu, penalty=self.penalty), X)
+        sums = reduce_delayed(_row_sums, [(phi,) for phi in kept])
+        mean_inv = invert_warps(t, (sums["sum"] / sums["n"])[None, :])[0]
+        blocks = [(block[0], phi) for block, phi in zip(delayed_row_blocks(X), kept,
+                                                         strict=True)]
+        sums = reduce_delayed(partial(_warped_srsf_sums, grid=t, mean_inv=mean_inv), blocks)
+        return sums["sum"] / sums["n"]
+
+    def _aligned_rows(self, X):
+        """Curves aligned to the template's square-root slope function."""
+        return compose(self.grid_, X, self._phi(X))
 
     def _phi(self, X):
         return dynamic_program_warps(self.grid_, self.template_srsf_,
@@ -169,12 +221,16 @@ class ElasticAligner(AlignerBase):
             slopes (0 for no warping, at most pi/2).
         """
         check_is_fitted(self)
-        X = self._validate(X, reset=False)
+        both = self._per_row(self._distances_rows, self._validate(X, reset=False))
+        return both[:, 0], both[:, 1]
+
+    def _distances_rows(self, X):
+        """:meth:`distances` of numpy curves, as two columns."""
         t = self.grid_
         Q = srsf(t, X)
         phi = dynamic_program_warps(t, self.template_srsf_, Q, self.penalty)
         amplitude = l2_norms(t, warp_srsf(t, Q, phi) - self.template_srsf_)
-        return amplitude, phase_distances(t, phi)
+        return np.column_stack([amplitude, phase_distances(t, phi)])
 
 
 def _paired_curves(X, Y, grid):
