@@ -24,6 +24,7 @@ in :mod:`skfunc._dask`.
 import contextlib
 import contextvars
 import functools
+import os
 import sys
 import threading
 import warnings
@@ -152,19 +153,35 @@ def block_threads(n_threads):
     the page faults of a memory-mapped file), where BLAS threads would share
     only the product.
     """
-    from concurrent.futures import ThreadPoolExecutor
-
     if n_threads <= 1:
         yield
         return
     previous = getattr(_BLOCK_THREADS, "pool", None)
-    with ThreadPoolExecutor(n_threads, thread_name_prefix="skfunc-blocks") as executor, \
-            single_thread_blas():
-        _BLOCK_THREADS.pool = _BlockPool(executor, n_threads)
+    with single_thread_blas():
+        _BLOCK_THREADS.pool = _BlockPool(_executor(n_threads), n_threads)
         try:
             yield
         finally:
             _BLOCK_THREADS.pool = previous
+
+
+#: the thread pools of :func:`block_threads`: (process id, threads) -> pool
+_EXECUTORS = {}
+
+
+def _executor(n_threads):
+    """A pool of ``n_threads`` threads kept for the process: starting the
+    threads at every call cost about 1 ms, a sixth of a float32 prediction
+    of 100,000 curves on 500 points. The process id is part of the key, so
+    a forked child (whose copy of a pool has no threads) starts its own."""
+    from concurrent.futures import ThreadPoolExecutor
+
+    key = (os.getpid(), int(n_threads))
+    executor = _EXECUTORS.get(key)
+    if executor is None:
+        executor = _EXECUTORS[key] = ThreadPoolExecutor(
+            n_threads, thread_name_prefix="skfunc-blocks")
+    return executor
 
 
 def blas_thread_count():

@@ -2,6 +2,7 @@
 segments, row blocks on threads, and the scaling of FunctionalRidge's
 design after its product."""
 
+import sys
 import threading
 import warnings
 
@@ -305,3 +306,34 @@ def test_chunked_products_on_threads_equal_one_thread(monkeypatch, k, dtype, shi
     np.testing.assert_array_equal(got, alone)
     tol = 1e-5 if dtype == np.float32 else 1e-12
     np.testing.assert_allclose(got, exact, rtol=0, atol=tol * np.abs(exact).max())
+
+
+def _threaded_product_in_child(queue):
+    X = np.ones((4000, 300), dtype=np.float32)
+    queue.put(float(_blocks.chunked_matmul(X, np.ones((300, 1)), dtype=np.float32).sum()))
+
+
+@pytest.mark.skipif(sys.platform == "win32", reason="no fork on Windows")
+def test_block_threads_work_in_a_forked_child(monkeypatch):
+    # block_threads keeps its thread pool for the process; a child forked
+    # after the pool started has a copy without threads, which would never
+    # run a task (the parent's idle threads are counted but gone): the child
+    # must start its own pool and finish (a timeout here means a hang).
+    # Expected value: 4000 rows of 300 ones times a column of ones (exact
+    # in float32, common practice).
+    import multiprocessing
+
+    monkeypatch.setattr(_blocks, "CHUNK_VALUES", 300 * 500)  # 8 blocks
+    monkeypatch.setattr(_blocks, "blas_thread_count", lambda: 2)
+    X = np.ones((4000, 300), dtype=np.float32)
+    assert _blocks.chunked_matmul(X, np.ones((300, 1)), dtype=np.float32).sum() == 4000 * 300
+    context = multiprocessing.get_context("fork")
+    queue = context.Queue()
+    child = context.Process(target=_threaded_product_in_child, args=(queue,))
+    child.start()
+    child.join(timeout=60)
+    alive = child.is_alive()
+    if alive:
+        child.kill()
+    assert not alive, "the forked child hung on the parent's thread pool"
+    assert queue.get(timeout=5) == 4000 * 300
