@@ -682,98 +682,79 @@ def test_sparse_fpca_on_cluster_equals_in_memory(client, monkeypatch):
     assert_rel_close(scores.compute(), reference.transform(X), rtol=1e-8)
 
 
+def refuse_conversion(*args, **kwargs):
+    raise AssertionError("a dask array was converted to numpy as a whole")
+
+
+def assert_aligner_on_cluster_equals_in_memory(monkeypatch, make, X, rows, attributes,
+                                               **fit_params):
+    """Fit ``make()`` on a dask copy of X in blocks of ``rows`` (never
+    converted to numpy in this process) and on X itself: the fitted
+    ``attributes``, ``transform`` and ``transform_warps`` (and ``distances``
+    where there is one) equal within 1e-8 (the sums run in another order),
+    the dask outputs lazy."""
+    Xd = da.from_array(X, chunks=(rows, X.shape[1]))
+    monkeypatch.setattr(type(Xd), "__array__", refuse_conversion)
+    model = make().fit(Xd, **fit_params)
+    outputs = {"transform": model.transform(Xd), "transform_warps": model.transform_warps(Xd)}
+    distances = model.distances(Xd) if hasattr(model, "distances") else None
+    monkeypatch.undo()
+    reference = make().fit(X, **fit_params)
+    assert getattr(model, "n_iter_", None) == getattr(reference, "n_iter_", None)
+    for name in attributes:
+        assert_rel_close(getattr(model, name), getattr(reference, name), rtol=1e-8)
+    for method, lazy in outputs.items():
+        assert is_dask_array(lazy)
+        assert_rel_close(lazy.compute(), getattr(reference, method)(X), rtol=1e-8)
+    if distances is not None:
+        for got, expected in zip(distances, reference.distances(X), strict=True):
+            assert_rel_close(got, expected, rtol=1e-8)
+
+
 @pytest.mark.parametrize("ends", ["constant", "overlap"])
 def test_shift_aligner_on_cluster_equals_in_memory(client, monkeypatch, ends):
     # Each Procrustes iteration is a pass over the rows persisted on the
     # workers: per-block shifts (one number per curve comes back) and
-    # per-block sums of the shifted curves; the curves are never converted
-    # to numpy in this process. Equal to the in-memory fit within 1e-8 (the
-    # sums run in another order), transforms lazy and equal too.
+    # per-block sums of the shifted curves.
     from skfunc.alignment import ShiftAligner
 
     t, X, _ = kiln_runs(400)
     delays = np.random.default_rng(4).uniform(-40, 40, 400)  # minutes
     X = np.array([np.interp(t - d, t, x) for d, x in zip(delays, X, strict=True)])
-    Xd = da.from_array(X, chunks=(90, X.shape[1]))
-
-    def refuse(*args, **kwargs):
-        raise AssertionError("a dask array was converted to numpy as a whole")
-
-    monkeypatch.setattr(type(Xd), "__array__", refuse)
-    model = ShiftAligner(ends=ends, grid=t).fit(Xd)
-    aligned, warps = model.transform(Xd), model.transform_warps(Xd)
-    monkeypatch.undo()
-    reference = ShiftAligner(ends=ends, grid=t).fit(X)
-    assert model.n_iter_ == reference.n_iter_
-    assert_rel_close(model.template_, reference.template_, rtol=1e-8)
-    assert_rel_close(model.shifts_, reference.shifts_, rtol=1e-8)
-    assert is_dask_array(aligned) and is_dask_array(warps)
-    assert_rel_close(aligned.compute(), reference.transform(X), rtol=1e-8)
-    assert_rel_close(warps.compute(), reference.transform_warps(X), rtol=1e-8)
+    assert_aligner_on_cluster_equals_in_memory(
+        monkeypatch, lambda: ShiftAligner(ends=ends, grid=t), X, 90, ("template_", "shifts_"))
 
 
 @pytest.mark.parametrize("given", [False, True])
 def test_landmark_aligner_on_cluster_equals_in_memory(client, monkeypatch, given):
     # Landmarks found block by block on the workers (or given, one row per
-    # curve), the template from per-block sums; the curves are never
-    # converted to numpy in this process. Equal to the in-memory fit within
-    # 1e-8, transforms lazy and equal too.
+    # curve), the template from per-block sums; landmarks given with a dask
+    # X at transform time are refused with advice.
     from skfunc.alignment import LandmarkAligner
 
     t = np.linspace(0, 1, 121)
     rng = np.random.default_rng(5)
     peaks = rng.uniform(0.35, 0.65, 500)
     X = np.exp(-((t - peaks[:, None]) / 0.08) ** 2) + 0.01 * rng.standard_normal((500, 121))
-    Xd = da.from_array(X, chunks=(110, 121))
-    landmarks = peaks[:, None] if given else None
-
-    def refuse(*args, **kwargs):
-        raise AssertionError("a dask array was converted to numpy as a whole")
-
-    monkeypatch.setattr(type(Xd), "__array__", refuse)
-    model = LandmarkAligner(grid=t).fit(Xd, landmarks=landmarks)
-    aligned, warps = model.transform(Xd), model.transform_warps(Xd)
-    monkeypatch.undo()
-    reference = LandmarkAligner(grid=t).fit(X, landmarks=landmarks)
-    assert_rel_close(model.landmarks_, reference.landmarks_, rtol=1e-8)
-    assert_rel_close(model.target_landmarks_, reference.target_landmarks_, rtol=1e-8)
-    assert_rel_close(model.template_, reference.template_, rtol=1e-8)
-    assert is_dask_array(aligned) and is_dask_array(warps)
-    assert_rel_close(aligned.compute(), reference.transform(X), rtol=1e-8)
-    assert_rel_close(warps.compute(), reference.transform_warps(X), rtol=1e-8)
+    assert_aligner_on_cluster_equals_in_memory(
+        monkeypatch, lambda: LandmarkAligner(grid=t), X, 110,
+        ("landmarks_", "target_landmarks_", "template_"),
+        landmarks=peaks[:, None] if given else None)
+    model = LandmarkAligner(grid=t).fit(X)
     with pytest.raises(ValueError, match="landmarks= cannot be given with a dask X"):
-        model.transform(Xd, landmarks=peaks[:, None])
+        model.transform(da.from_array(X, chunks=(110, 121)), landmarks=peaks[:, None])
 
 
 def test_elastic_aligner_on_cluster_equals_in_memory(client, monkeypatch):
     # Each Karcher iteration: one dynamic program per curve on the workers,
     # the block's warps kept there between the two sums (the mean warp, then
-    # the mean warped square-root slope function); the curves are never
-    # converted to numpy in this process. Equal to the in-memory fit within
-    # 1e-8; transforms lazy and equal, distances equal.
+    # the mean warped square-root slope function).
     from skfunc.alignment import ElasticAligner
 
     t = np.linspace(0, 1, 41)
     rng = np.random.default_rng(6)
     powers = rng.uniform(0.7, 1.4, 150)
     X = np.sin(np.pi * t[None, :] ** powers[:, None]) + 0.01 * rng.standard_normal((150, 41))
-    Xd = da.from_array(X, chunks=(40, 41))
-
-    def refuse(*args, **kwargs):
-        raise AssertionError("a dask array was converted to numpy as a whole")
-
-    monkeypatch.setattr(type(Xd), "__array__", refuse)
-    model = ElasticAligner(grid=t, max_iter=3).fit(Xd)
-    aligned, warps = model.transform(Xd), model.transform_warps(Xd)
-    amplitude, phase = model.distances(Xd)
-    monkeypatch.undo()
-    reference = ElasticAligner(grid=t, max_iter=3).fit(X)
-    assert model.n_iter_ == reference.n_iter_
-    assert_rel_close(model.template_srsf_, reference.template_srsf_, rtol=1e-8)
-    assert_rel_close(model.template_, reference.template_, rtol=1e-8)
-    assert is_dask_array(aligned) and is_dask_array(warps)
-    assert_rel_close(aligned.compute(), reference.transform(X), rtol=1e-8)
-    assert_rel_close(warps.compute(), reference.transform_warps(X), rtol=1e-8)
-    expected = reference.distances(X)
-    assert_rel_close(amplitude, expected[0], rtol=1e-8)
-    assert_rel_close(phase, expected[1], rtol=1e-8)
+    assert_aligner_on_cluster_equals_in_memory(
+        monkeypatch, lambda: ElasticAligner(grid=t, max_iter=3), X, 40,
+        ("template_srsf_", "template_"))
