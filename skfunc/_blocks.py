@@ -524,7 +524,10 @@ def chunked_matmul(X, operator_T, offset=None, *, dtype=np.float64):
     # a block's work that runs mostly in numpy, on one core (a one-column
     # product, product_into; centering, Float32Product): the blocks on as
     # many threads as BLAS would use, each with one BLAS thread
-    in_numpy = operator_T.shape[1] == 1 or getattr(product, "center", None) is not None
+    # (from the main thread only: the BLAS limit is process-wide, and
+    # overlapping limits of Dask's local threads could close out of order)
+    in_numpy = (operator_T.shape[1] == 1 or getattr(product, "center", None) is not None) \
+        and threading.current_thread() is threading.main_thread()
     with block_threads(min(len(blocks), blas_thread_count()) if in_numpy else 1):
         on_block_threads(lambda rows: product(X[rows], out=out[rows]), blocks)
     return out
