@@ -323,6 +323,22 @@ def single_thread_blas():
     return _controller().limit(limits=1, user_api="blas")
 
 
+def in_main_thread():
+    """Whether this is the process's main thread. The BLAS limit of
+    :func:`single_thread_blas` is process-wide: limits opened by several
+    threads at once (Dask's local threads computing a lazy transform) could
+    close out of order and leave BLAS at one thread, so work that may run
+    in such threads limits BLAS, or starts threads of its own, only from
+    the main thread."""
+    return threading.current_thread() is threading.main_thread()
+
+
+def single_thread_blas_from_main():
+    """:func:`single_thread_blas` in the main thread; elsewhere no change
+    (see :func:`in_main_thread`)."""
+    return single_thread_blas() if in_main_thread() else contextlib.nullcontext()
+
+
 #: dense solves and eigensolves of up to this many unknowns run with one
 #: BLAS thread (:func:`single_thread_blas_up_to`): the Newton systems of the
 #: classifier (2,236 unknowns for 52 classes) and FPCA's K x K eigensolves
@@ -523,11 +539,10 @@ def chunked_matmul(X, operator_T, offset=None, *, dtype=np.float64):
     blocks = row_blocks(*X.shape)
     # a block's work that runs mostly in numpy, on one core (a one-column
     # product, product_into; centering, Float32Product): the blocks on as
-    # many threads as BLAS would use, each with one BLAS thread
-    # (from the main thread only: the BLAS limit is process-wide, and
-    # overlapping limits of Dask's local threads could close out of order)
+    # many threads as BLAS would use, each with one BLAS thread (from the
+    # main thread only, in_main_thread)
     in_numpy = (operator_T.shape[1] == 1 or getattr(product, "center", None) is not None) \
-        and threading.current_thread() is threading.main_thread()
+        and in_main_thread()
     with block_threads(min(len(blocks), blas_thread_count()) if in_numpy else 1):
         on_block_threads(lambda rows: product(X[rows], out=out[rows]), blocks)
     return out

@@ -7,7 +7,13 @@ import numpy as np
 from sklearn.utils._param_validation import Interval, StrOptions
 
 from ._aligner_base import AlignerBase
-from ._blocks import KeptRows, cache_rows, is_dask_array, row_blocks, single_thread_blas
+from ._blocks import (
+    KeptRows,
+    cache_rows,
+    is_dask_array,
+    row_blocks,
+    single_thread_blas_from_main,
+)
 from ._docstrings import fill_doc
 from ._estimator import store_init_params
 from ._grid import quadrature_weights
@@ -102,10 +108,11 @@ def _best_shifts(X, criterion):
     """``criterion.best_shifts`` of every row of X, in blocks whose
     temporaries stay in the cache, with one BLAS thread: a block's products
     are small, and a team of threads meeting once per block waits for each
-    other (seconds per fit on a busy machine)."""
+    other (seconds per fit on a busy machine). (From the main thread only:
+    in Dask's threads the limit is set around the pass, or not at all.)"""
     X = np.asarray(X, dtype=np.float64)
     out = np.empty(X.shape[0])
-    with single_thread_blas():
+    with single_thread_blas_from_main():
         for rows in row_blocks(*X.shape, rows=cache_rows(X.shape[1])):
             out[rows] = criterion.best_shifts(X[rows])
     return out

@@ -2,6 +2,7 @@
 segments, row blocks on threads, and the scaling of FunctionalRidge's
 design after its product."""
 
+import contextlib
 import sys
 import threading
 import warnings
@@ -337,3 +338,34 @@ def test_block_threads_work_in_a_forked_child(monkeypatch):
         child.kill()
     assert not alive, "the forked child hung on the parent's thread pool"
     assert queue.get(timeout=5) == 4000 * 300
+
+
+def test_blas_is_limited_from_the_main_thread_only(monkeypatch):
+    # The one-thread BLAS limit is process-wide: opened by Dask's local
+    # threads on a lazy transform, limits could close out of order and leave
+    # BLAS at one thread. Work that may run in such threads (ShiftAligner's
+    # shift search, the block threads of chunked_matmul) limits BLAS only
+    # from the main thread.
+    opened = []
+    monkeypatch.setattr(_blocks, "single_thread_blas",
+                        lambda: opened.append(threading.current_thread().name)
+                        or contextlib.nullcontext())
+    with _blocks.single_thread_blas_from_main():
+        pass
+    worker = threading.Thread(target=lambda: _blocks.single_thread_blas_from_main().__enter__(),
+                              name="dask-like")
+    worker.start()
+    worker.join(10)
+    assert opened == [threading.main_thread().name]
+    # and chunked_matmul starts no block threads outside the main thread
+    monkeypatch.setattr(_blocks, "blas_thread_count", lambda: 2)
+    monkeypatch.setattr(_blocks, "CHUNK_VALUES", 8 * 10)  # 5 blocks
+    started = []
+    monkeypatch.setattr(_blocks, "block_threads",
+                        lambda n: started.append(n) or contextlib.nullcontext())
+    X = np.ones((50, 8), dtype=np.float32)
+    worker = threading.Thread(target=lambda: _blocks.chunked_matmul(X, np.ones((8, 1))))
+    worker.start()
+    worker.join(10)
+    _blocks.chunked_matmul(X, np.ones((8, 1)))
+    assert started == [1, 2]
