@@ -369,3 +369,23 @@ def test_blas_is_limited_from_the_main_thread_only(monkeypatch):
     worker.join(10)
     _blocks.chunked_matmul(X, np.ones((8, 1)))
     assert started == [1, 2]
+
+
+def test_scratch_is_reused_per_thread_and_only_when_small():
+    # one buffer per thread, reused by the next call from that thread; large
+    # temporaries get a fresh array each time
+    import threading
+
+    from skfunc._blocks import CACHE_VALUES, scratch
+
+    a = scratch((100, 7))
+    assert a.shape == (100, 7) and a.dtype == np.float64
+    b = scratch((50, 3))
+    assert np.shares_memory(a, b)
+    big = (4 * CACHE_VALUES + 1,)
+    assert not np.shares_memory(scratch(big), scratch(big))
+    other = []
+    thread = threading.Thread(target=lambda: other.append(scratch((100, 7))))
+    thread.start()
+    thread.join()
+    assert not np.shares_memory(other[0], scratch((100, 7)))

@@ -340,6 +340,34 @@ def test_statistics_are_reduced_on_workers_in_a_tree(client):
     assert_rel_close(stats["yy"], (y**2).sum(axis=0))
 
 
+def test_kept_rows_pass_is_one_task_per_worker(client, monkeypatch):
+    # a pass over kept rows on a cluster: one submitted task per worker over
+    # the blocks that worker holds, and the sums of numpy's products over
+    # all rows (however the blocks are grouped)
+    import distributed
+
+    from skfunc import _blocks
+    from skfunc._blocks import KeptRows
+
+    monkeypatch.setattr(_blocks, "KEPT_MIN_VALUES", 1)  # keep the 8 small blocks
+
+    rng = np.random.default_rng(5)
+    Z = rng.normal(size=(4000, 30))
+    y = rng.normal(size=(4000, 2))
+    kept = KeptRows(da.from_array(Z, chunks=(500, 30)), da.from_array(y, chunks=(500, 2)), None)
+    workers = set(client.scheduler_info()["workers"])
+    assert kept._groups is not None
+    assert 1 <= len(kept._groups[1]) <= len(workers)
+    assert sum(len(group) for group in kept._groups[1]) == 8
+    with distributed.get_task_stream(client) as stream:
+        stats = kept(cross_products)
+    tasks = [t for t in stream.data if any(s["action"] == "compute" for s in t["startstops"])]
+    assert len(tasks) == len(kept._groups[1])
+    assert stats["n"] == 4000
+    assert_rel_close(stats["zz"], Z.T @ Z)
+    assert_rel_close(stats["zy"], Z.T @ y)
+
+
 def test_centered_statistics_merge_exactly_on_workers(client):
     # kiln-like design: means near 1200, spread of a few units
     rng = np.random.default_rng(4)

@@ -1,6 +1,7 @@
 """FunctionalLogisticRegression against scikit-learn's LogisticRegression."""
 
 import warnings
+from functools import partial
 
 import numpy as np
 import pytest
@@ -375,6 +376,66 @@ def test_open_data_defaults_match_sklearn(name):
         if issubclass(w.category, AlphaAtEdgeWarning) and "smallest" in str(w.message):
             assert "ridge on beta" in str(w.message)
             assert "fewer basis functions" not in str(w.message)
+
+
+def test_newton_statistics_of_binary_rows_equal_statsmodels(rng):
+    # Source: statsmodels' Logit: loglike, score = D'(y - p) and hessian =
+    # -D' diag(p (1 - p)) D of the unweighted binary model. Rows well beyond
+    # one cache-sized piece, so the reused scratch buffer of the weighted
+    # design serves several pieces of one pass.
+    sm = pytest.importorskip("statsmodels.api")
+    from skfunc._blocks import cache_rows, in_pieces
+    from skfunc._logistic_path import newton_statistics
+
+    n, p = 5 * cache_rows(7) + 11, 5
+    D = np.column_stack([np.ones(n), rng.standard_normal((n, p - 1))])
+    theta = 0.3 * rng.standard_normal((1, p))
+    y = (rng.uniform(size=n) < expit(D @ theta[0])).astype(float)
+    got = in_pieces(partial(newton_statistics, theta=theta), D, y[:, None], np.ones(n))
+    model = sm.Logit(y, D)
+    np.testing.assert_allclose(got["loss"], -model.loglike(theta[0]), rtol=1e-12)
+    np.testing.assert_allclose(got["grad"], -model.score(theta[0]), rtol=1e-10, atol=1e-8)
+    np.testing.assert_allclose(got["hess"], -model.hessian(theta[0]), rtol=1e-10)
+
+
+def test_newton_statistics_of_multinomial_rows_equal_the_formula(rng):
+    # Common practice (the multinomial logit's Hessian): sum over rows of
+    # w_i kron(diag(p_i) - p_i p_i', d_i d_i'), here summed row by row in a
+    # plain loop against the blocked, piecewise computation.
+    from skfunc._blocks import in_pieces
+    from skfunc._logistic_path import newton_statistics
+
+    n, p, T = 3000, 4, 3
+    D = np.column_stack([np.ones(n), rng.standard_normal((n, p - 1))])
+    theta = 0.5 * rng.standard_normal((T, p))
+    Y = np.eye(T)[rng.integers(0, T, n)]
+    w = rng.uniform(0.5, 2.0, n)
+    got = in_pieces(partial(newton_statistics, theta=theta), D, Y, w)
+    eta = D @ theta.T
+    prob = np.exp(eta - eta.max(axis=1, keepdims=True))
+    prob /= prob.sum(axis=1, keepdims=True)
+    hess = sum(w[i] * np.kron(np.diag(prob[i]) - np.outer(prob[i], prob[i]),
+                              np.outer(D[i], D[i])) for i in range(n))
+    grad = ((prob - Y) * w[:, None]).T @ D
+    np.testing.assert_allclose(got["hess"], hess, rtol=1e-10, atol=1e-10)
+    np.testing.assert_allclose(got["grad"], grad.ravel(), rtol=1e-10, atol=1e-10)
+
+
+def test_kept_design_rows_over_several_pieces(rng):
+    # the rows are formed in cache-sized pieces; beyond one piece they equal
+    # numpy's whole-array computation (np.ldexp, centring, one product)
+    from skfunc._blocks import cache_rows
+    from skfunc._logistic_path import kept_split_design
+
+    n = 3 * cache_rows(4) + 5
+    Z = rng.uniform(0.5, 1000.0, (n, 4))
+    x_exp = np.array([0, 1, -1, 0])
+    z_mean, U = rng.uniform(100, 200, 4), rng.standard_normal((4, 3))
+    got = kept_split_design((Z, {"x_exp": x_exp}), 2, z_mean, U, 1)
+    expected = np.hstack([np.ones((n, 1)), (np.ldexp(Z, x_exp - 2) - z_mean) @ U])
+    np.testing.assert_allclose(got, expected, rtol=1e-13, atol=1e-10)
+    no_intercept = kept_split_design((Z, {"x_exp": x_exp}), 2, z_mean, U, 0)
+    np.testing.assert_array_equal(no_intercept, got[:, 1:])
 
 
 @pytest.mark.parametrize("shift", [0, -3, -40, -1000, -1060, -1080])
