@@ -366,6 +366,20 @@ def test_bad_parameters(params, match, rng):
         CurveSmoother(**params).fit(X)
 
 
+def test_empty_row_found_beyond_the_first_piece(rng):
+    # rows starting with NaN are scanned in cache-sized pieces: an empty row
+    # in a later piece is found and named, the first of two
+    from skfunc._blocks import cache_rows
+
+    n = 3 * cache_rows(30) + 17
+    X = rng.normal(size=(n, 30))
+    X[::2, 0] = np.nan  # half the rows start with NaN, still observed
+    X[n - 10] = np.nan
+    X[n - 4] = np.nan
+    with pytest.raises(ValueError, match=f"Row {n - 10} of X is entirely NaN"):
+        CurveSmoother().fit(X)
+
+
 def test_bad_rows(rng):
     X = rng.normal(size=(5, 30))
     X_empty = X.copy()
