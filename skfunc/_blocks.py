@@ -294,8 +294,8 @@ class KeptRows:
     it holds, submitted to the client directly (:meth:`_per_worker`): the
     scheduler's cost per task and a graph built and optimised per pass took
     as long as the arithmetic (a Newton pass over 200,000 rows in 8 blocks
-    on two workers: 60-80 ms as 8 tasks, about 50 ms as 2 submitted ones,
-    against 37 ms in memory).
+    on two workers: 60-100 ms as a graph of 8 tasks, 40-57 ms as 2
+    submitted ones, against 35-45 ms in memory).
     """
 
     def __init__(self, X, *others):
@@ -312,10 +312,16 @@ class KeptRows:
                               for a in (X, *others))
             X, *others = dask.persist(X, *others)
             self._blocks = delayed_row_blocks(X, *others)
-            self._groups = _blocks_by_worker(X, *others)
         self.arrays = (X, *others)
+        self._grouped = False
 
     def __call__(self, statistics, merge=merge_sums):
+        """``merge`` of ``statistics(*block)`` over the row blocks; on a
+        cluster the blocks come grouped by worker, not in row order, so
+        ``merge`` must not depend on their order (sums)."""
+        if self._blocks is not None and not self._grouped:
+            # (at the first pass: users of ``arrays`` alone need no grouping)
+            self._groups, self._grouped = _blocks_by_worker(*self.arrays), True
         if self._groups is not None:
             return self._per_worker(statistics, merge)
         if self._blocks is None:

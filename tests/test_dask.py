@@ -356,6 +356,7 @@ def test_kept_rows_pass_is_one_task_per_worker(client, monkeypatch):
     y = rng.normal(size=(4000, 2))
     kept = KeptRows(da.from_array(Z, chunks=(500, 30)), da.from_array(y, chunks=(500, 2)), None)
     workers = set(client.scheduler_info()["workers"])
+    kept(cross_products)  # the first pass groups the blocks by worker
     assert kept._groups is not None
     assert 1 <= len(kept._groups[1]) <= len(workers)
     assert sum(len(group) for group in kept._groups[1]) == 8
