@@ -421,6 +421,25 @@ def test_newton_statistics_of_multinomial_rows_equal_the_formula(rng):
     np.testing.assert_allclose(got["grad"], grad.ravel(), rtol=1e-10, atol=1e-10)
 
 
+def test_multinomial_hessian_memory_grows_with_classes_not_their_square(rng):
+    # 20 classes, 10 columns, 2,000 rows in one piece: one weighted copy of
+    # the design per pair of classes would hold 2,000 x 400 x 10 values (64
+    # MB); the products p_i (x) d_i hold 2,000 x 200 (3.2 MB)
+    import tracemalloc
+
+    from skfunc._logistic_path import newton_statistics
+
+    n, p, T = 2000, 10, 20
+    D = np.column_stack([np.ones(n), rng.standard_normal((n, p - 1))])
+    Y = np.eye(T)[rng.integers(0, T, n)]
+    theta = 0.1 * rng.standard_normal((T, p))
+    tracemalloc.start()
+    newton_statistics(D, Y, np.ones(n), theta)
+    peak = tracemalloc.get_traced_memory()[1]
+    tracemalloc.stop()
+    assert peak < 16e6
+
+
 def test_kept_design_rows_over_several_pieces(rng):
     # the rows are formed in cache-sized pieces; beyond one piece they equal
     # numpy's whole-array computation (np.ldexp, centring, one product)
