@@ -28,8 +28,8 @@ from scipy.linalg import (
     cho_factor,
     cho_solve,
     cholesky,
-    solve_triangular,
 )
+from scipy.linalg.lapack import dpotri
 from scipy.special import expit
 
 from ._alpha import best_index
@@ -398,13 +398,20 @@ class LogisticProblem:
         and Raynor, 1986; Gu, 1992; Wood, 2008). For 0/1 labels the deviance
         is twice the negative log-likelihood.
         """
-        # edf = dim - trace(M^-1 S), M = H + S = L L': trace(L^-1 S L^-T)
+        # edf = dim - trace(M^-1 S), M = H + S = L L'; M^-1 from the
+        # Cholesky factor (LAPACK potri, its lower triangle: 2/3 n^3 flops,
+        # against 3 n^3 for L^-1 and L^-1 S), and trace(M^-1 S) = sum of
+        # M^-1 * S elementwise (both symmetric)
         try:
             lower = cholesky(stats["hess"] + quadratic, lower=True)
         except (np.linalg.LinAlgError, LinAlgError):
             return np.inf, np.nan
-        inv_lower = solve_triangular(lower, np.eye(len(lower)), lower=True)
-        edf = len(lower) - float(np.sum((inv_lower @ quadratic) * inv_lower))
+        inverse, info = dpotri(lower, lower=1)
+        if info != 0:
+            return np.inf, np.nan
+        inverse = np.tril(inverse)
+        trace = 2 * np.sum(inverse * quadratic) - np.sum(np.diag(inverse) * np.diag(quadratic))
+        edf = len(lower) - float(trace)
         return (2 * stats["loss"] + 2 * edf) / self.total_weight - 1.0, edf
 
     def path(self, alphas, tol, max_iter, path_tol=None, warn=True):

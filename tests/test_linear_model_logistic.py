@@ -440,6 +440,27 @@ def test_multinomial_hessian_memory_grows_with_classes_not_their_square(rng):
     assert peak < 16e6
 
 
+@pytest.mark.parametrize("size", [6, 40, 300])
+def test_ubre_edf_is_the_trace_of_the_hat_matrix(rng, size):
+    # edf = trace((H + S)^-1 H) (Wood, 2008, for the penalized likelihood),
+    # against numpy's dense solve; H a Hessian (D' W D), S a penalty of
+    # rank below the dimension (a null space, as the roughness has)
+    from types import SimpleNamespace
+
+    from skfunc._logistic_path import LogisticProblem
+
+    D = rng.standard_normal((3 * size, size))
+    H = D.T @ (D * rng.uniform(0.05, 0.25, 3 * size)[:, None])
+    B = rng.standard_normal((size, size - 2))
+    S = 0.7 * B @ B.T
+    stats = {"hess": H, "loss": 12.5}
+    problem = SimpleNamespace(total_weight=3.0 * size)
+    criterion, edf = LogisticProblem.ubre(problem, stats, S)
+    expected = np.trace(np.linalg.solve(H + S, H))
+    assert edf == pytest.approx(expected, rel=1e-10, abs=1e-10)
+    assert criterion == pytest.approx((2 * 12.5 + 2 * expected) / (3.0 * size) - 1.0, rel=1e-10)
+
+
 def test_kept_design_rows_over_several_pieces(rng):
     # the rows are formed in cache-sized pieces; beyond one piece they equal
     # numpy's whole-array computation (np.ldexp, centring, one product)
