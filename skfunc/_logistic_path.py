@@ -27,9 +27,8 @@ from scipy.linalg import (
     LinAlgError,
     cho_factor,
     cho_solve,
-    cholesky,
 )
-from scipy.linalg.lapack import dpotri
+from scipy.linalg.lapack import dpotrf, dpotri
 from scipy.special import expit
 
 from ._alpha import best_index
@@ -399,18 +398,18 @@ class LogisticProblem:
         is twice the negative log-likelihood.
         """
         # edf = dim - trace(M^-1 S), M = H + S = L L'; M^-1 from the
-        # Cholesky factor (LAPACK potri, its lower triangle: 2/3 n^3 flops,
-        # against 3 n^3 for L^-1 and L^-1 S), and trace(M^-1 S) = sum of
-        # M^-1 * S elementwise (both symmetric)
-        try:
-            lower = cholesky(stats["hess"] + quadratic, lower=True)
-        except (np.linalg.LinAlgError, LinAlgError):
+        # Cholesky factor (LAPACK potrf and potri: 1 n^3 flops, against 3.3
+        # n^3 for L, L^-1 and L^-1 S). potri writes the lower triangle of
+        # M^-1 over L and leaves the upper one as it was, zero (potrf with
+        # clean=1), so trace(M^-1 S), the elementwise sum of the symmetric
+        # M^-1 * S, is twice the sum over the lower triangle less the diagonal
+        lower, info = dpotrf(stats["hess"] + quadratic, lower=1, clean=1)
+        if info == 0:
+            inverse, info = dpotri(lower, lower=1)
+        if info != 0 or not np.isfinite(lower).all():
             return np.inf, np.nan
-        inverse, info = dpotri(lower, lower=1)
-        if info != 0:
-            return np.inf, np.nan
-        inverse = np.tril(inverse)
-        trace = 2 * np.sum(inverse * quadratic) - np.sum(np.diag(inverse) * np.diag(quadratic))
+        # (the factor is in Fortran order: its transpose meets S in C order)
+        trace = 2 * np.vdot(inverse.T, quadratic) - np.diagonal(inverse) @ np.diagonal(quadratic)
         edf = len(lower) - float(trace)
         return (2 * stats["loss"] + 2 * edf) / self.total_weight - 1.0, edf
 

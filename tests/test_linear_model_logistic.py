@@ -459,6 +459,9 @@ def test_ubre_edf_is_the_trace_of_the_hat_matrix(rng, size):
     expected = np.trace(np.linalg.solve(H + S, H))
     assert edf == pytest.approx(expected, rel=1e-10, abs=1e-10)
     assert criterion == pytest.approx((2 * 12.5 + 2 * expected) / (3.0 * size) - 1.0, rel=1e-10)
+    # no Cholesky factor (H + S not positive definite): no criterion
+    criterion, edf = LogisticProblem.ubre(problem, {"hess": -H, "loss": 12.5}, S)
+    assert criterion == np.inf and np.isnan(edf)
 
 
 def test_kept_design_rows_over_several_pieces(rng):
