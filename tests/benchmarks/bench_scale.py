@@ -9,7 +9,13 @@
    time within 5% of the least-squares line ``a + b n`` ("off line"), with
    a constant ``a`` below 10 ms; also shown, the time per row relative to
    the largest n and the ratio to the bare numpy product ``X @ Phi``
-   (n x 200 by 200 x 20).
+   (n x 200 by 200 x 20). A diagnostic row, "paired off line", fits the
+   same line to each size's time relative to the largest size's in the same
+   round (median over rounds), scaled by the largest size's best time: the
+   machine's speed drifts between rounds by up to 13% here, and the best
+   times of different sizes can come from rounds at different speeds; the
+   paired figures are not moved by that. The target's verdict stays on the
+   best times.
 3. Dask: fit and transform of a chunked dask array on the local thread pool
    against the in-memory fit and transform (ratio; no target), and
    ``FunctionOnFunctionRidge`` and ``FunctionalLogisticRegression`` (default
@@ -215,30 +221,38 @@ def bench_scaling(sizes, repeat, names=None):
     print(f"load average (1, 5, 15 min) at the start: {_load()}")
     print(f"{'numpy X @ Phi':24s} {'n':16s}" + "".join(f"{n:>12,}" for n in sizes))
     print(f"{'':24s} {'seconds':16s}" + "".join(f"{base[n]:12.4f}" for n in sizes))
-    verdicts = {}
+    verdicts, paired_verdicts = {}, {}
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")  # edge and convergence notices of some sizes
         for name, (cls, make, call, factor) in cases.items():
             # at least 8, 16, 32, 64 rows: distinct sizes even for small factors
             ns = [max(8 << i, int(round(n * factor))) for i, n in enumerate(sizes)]
             call(make(cls, t), _rows(data, ns[0]))  # warm-up
-            seconds = dict.fromkeys(ns, np.inf)
-            for _ in range(repeat):  # interleaved, so load hits every size alike
-                for n in ns:
+            rounds = np.empty((repeat, len(ns)))
+            for r in range(repeat):  # interleaved, so load hits every size alike
+                for i, n in enumerate(ns):
                     cut = _rows(data, n)
-                    seconds[n] = min(seconds[n], best_time(
-                        partial(call, make(cls, t), cut), 1))
-            times = np.array([seconds[n] for n in ns])
+                    rounds[r, i] = best_time(partial(call, make(cls, t), cut), 1)
+            times = rounds.min(axis=0)
+            seconds = dict(zip(ns, times, strict=True))
             per_row = times / np.array(ns)
-            slope, intercept = np.polyfit(ns, times, 1)
-            deviation = np.abs(times - (intercept + slope * np.array(ns))) / times
+            intercept, deviation = _line(ns, times)
             verdicts[name] = (bool(deviation.max() <= 0.05 and intercept < 0.010),
                               intercept, deviation.max())
+            # the same rounds, each size against the largest in the same round
+            # (median over rounds), scaled by the largest size's best: a
+            # diagnostic that a drift of the machine's speed between rounds
+            # cannot move (the best times of different sizes may come from
+            # rounds at different speeds)
+            paired = np.median(rounds / rounds[:, -1:], axis=0) * times[-1]
+            paired_verdicts[name] = _line(ns, paired)
             print(f"{name:24s} {'n':16s}" + "".join(f"{n:12,}" for n in ns))
             print(f"{'':24s} {'seconds':16s}" + "".join(f"{seconds[n]:12.4f}" for n in ns))
             print(f"{'':24s} {'per row / last':16s}"
                   + "".join(f"{r:12.3f}" for r in per_row / per_row[-1]))
             print(f"{'':24s} {'off line':16s}" + "".join(f"{d:12.3f}" for d in deviation))
+            print(f"{'':24s} {'paired off line':16s}"
+                  + "".join(f"{d:12.3f}" for d in paired_verdicts[name][1]))
             if factor == 1.0:
                 print(f"{'':24s} {'/ X @ Phi':16s}"
                       + "".join(f"{seconds[n] / base[n]:12.2f}" for n in sizes))
@@ -246,7 +260,17 @@ def bench_scaling(sizes, repeat, names=None):
     print("linear in n (every time within 5% of the line a + b n, a < 10 ms): "
           + "; ".join(f"{name} {'yes' if ok else 'NO'} (a = {a * 1e3:.1f} ms, "
                       f"off line {d:.3f})" for name, (ok, a, d) in verdicts.items()))
+    print("diagnostic, paired within rounds (not the target's measure): "
+          + "; ".join(f"{name} a = {a * 1e3:.1f} ms, off line {d.max():.3f}"
+                      for name, (a, d) in paired_verdicts.items()))
     return verdicts
+
+
+def _line(ns, times):
+    """Intercept of the least-squares line a + b n through ``times``, and
+    each time's relative distance from it."""
+    slope, intercept = np.polyfit(ns, times, 1)
+    return intercept, np.abs(times - (intercept + slope * np.asarray(ns))) / times
 
 
 # ---------------------------------------------------------------------------
