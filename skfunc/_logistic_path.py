@@ -127,11 +127,11 @@ def newton_statistics(D, Y, sample_weight, theta, derivatives=True):
         # block diagonal D' diag(w p_a) D less F' diag(w) F, with the rows of
         # F the products p_i (x) d_i (n x T p values, not the n x T^2 p of
         # one weighted copy of the design per pair of classes)
-        root = np.sqrt(sample_weight)[:, None]
-        F = np.multiply(prob[:, :, None], (D * root)[:, None, :],
+        weighted = D * np.sqrt(sample_weight)[:, None]
+        F = np.multiply(prob[:, :, None], weighted[:, None, :],
                         out=scratch((len(D), n_out, p))).reshape(len(D), -1)
         hess = -(F.T @ F)
-        blocks = ((D * root).T @ F).reshape(p, n_out, p).transpose(1, 0, 2)
+        blocks = (weighted.T @ F).reshape(p, n_out, p).transpose(1, 0, 2)
         classes = np.arange(n_out)
         hess.reshape(n_out, p, n_out, p)[classes, :, classes, :] += blocks
     return {"loss": loss, "grad": grad.ravel(), "hess": hess.reshape(n_out * p, n_out * p)}

@@ -15,7 +15,7 @@ from sklearn.utils._param_validation import Interval, StrOptions
 from sklearn.utils.validation import validate_data
 
 from ._bases import BASES, default_n_basis, default_period, make_basis
-from ._blocks import cache_rows, is_dask_array
+from ._blocks import cache_rows, is_dask_array, row_blocks
 from ._channels import PER_CHANNEL_BASIS, channel_basis, check_channels, set_channels
 from ._dask import validate_dask
 from ._grid import (
@@ -138,9 +138,8 @@ def validate_curves(estimator, X, y="no_validation", *, reset, allow_nan=False,
         # one copy of those rows was as large as X, and at 80 MB it cost
         # more than the rest of a sparse FPCA's validation)
         suspect = np.flatnonzero(np.isnan(X[:, 0]))
-        step = cache_rows(n_points)
-        for start in range(0, suspect.size, step):
-            rows = suspect[start:start + step]
+        for piece in row_blocks(suspect.size, n_points, rows=cache_rows(n_points)):
+            rows = suspect[piece]
             empty = rows[np.all(np.isnan(X[rows, :n_points]), axis=1)]
             if empty.size:
                 raise empty_curve_error(empty[0])
