@@ -15,7 +15,10 @@
    machine's speed drifts between rounds by up to 13% here, and the best
    times of different sizes can come from rounds at different speeds; the
    paired figures are not moved by that. The target's verdict stays on the
-   best times.
+   best times. Each estimator runs at least ``repeat`` (15) interleaved
+   rounds, more for short fits (up to 100, until about
+   :data:`ROUND_BUDGET` seconds): as timeit's autorange, so the best of a
+   20 ms fit is as settled as that of a 0.5 s one.
 3. Dask: fit and transform of a chunked dask array on the local thread pool
    against the in-memory fit and transform (ratio; no target), and
    ``FunctionOnFunctionRidge`` and ``FunctionalLogisticRegression`` (default
@@ -55,6 +58,10 @@ from _timing import best_time, best_times, status_bytes  # noqa: E402
 from skfunc.utils import all_estimators  # noqa: E402
 
 M = 200  # grid points
+
+#: seconds of interleaved rounds per estimator in the scaling section, at
+#: least ``repeat`` rounds and at most 100 (short fits get more rounds)
+ROUND_BUDGET = 8.0
 
 
 def smooth_curves(n, m=M, seed=0):
@@ -204,10 +211,11 @@ def _rows(data, n):
     return {key: value[:n] for key, value in data.items()}
 
 
-def bench_scaling(sizes, repeat, names=None):
+def bench_scaling(sizes, repeat, names=None, budget=ROUND_BUDGET):
     """Fit time against n for every estimator (each at its own multiple of
     ``sizes``); least-squares line a + b n; verdict: every time within 5% of
-    the line and a below 10 ms."""
+    the line and a below 10 ms. At least ``repeat`` rounds, more for short
+    fits within ``budget`` seconds (at most 100)."""
     cases = all_scaling_cases()
     if names:
         cases = {k: v for k, v in cases.items() if k in names}
@@ -228,8 +236,10 @@ def bench_scaling(sizes, repeat, names=None):
             # at least 8, 16, 32, 64 rows: distinct sizes even for small factors
             ns = [max(8 << i, int(round(n * factor))) for i, n in enumerate(sizes)]
             call(make(cls, t), _rows(data, ns[0]))  # warm-up
-            rounds = np.empty((repeat, len(ns)))
-            for r in range(repeat):  # interleaved, so load hits every size alike
+            largest = best_time(partial(call, make(cls, t), _rows(data, ns[-1])), 1)
+            n_rounds = int(np.clip(budget / (largest * sum(ns) / ns[-1]), repeat, 100))
+            rounds = np.empty((n_rounds, len(ns)))
+            for r in range(n_rounds):  # interleaved, so load hits every size alike
                 for i, n in enumerate(ns):
                     cut = _rows(data, n)
                     rounds[r, i] = best_time(partial(call, make(cls, t), cut), 1)
@@ -246,7 +256,8 @@ def bench_scaling(sizes, repeat, names=None):
             # rounds at different speeds)
             paired = np.median(rounds / rounds[:, -1:], axis=0) * times[-1]
             paired_verdicts[name] = _line(ns, paired)
-            print(f"{name:24s} {'n':16s}" + "".join(f"{n:12,}" for n in ns))
+            print(f"{name:24s} {'n':16s}" + "".join(f"{n:12,}" for n in ns)
+                  + f"   ({n_rounds} rounds)")
             print(f"{'':24s} {'seconds':16s}" + "".join(f"{seconds[n]:12.4f}" for n in ns))
             print(f"{'':24s} {'per row / last':16s}"
                   + "".join(f"{r:12.3f}" for r in per_row / per_row[-1]))
@@ -436,7 +447,7 @@ def main(argv=None):
     run = set(args.only or SECTIONS)
     if args.quick:
         "memory" in run and bench_memory(50_000, names=TRANSFORMERS[:1])
-        "scaling" in run and bench_scaling([250, 500, 1_000, 2_000], 1, args.names)
+        "scaling" in run and bench_scaling([250, 500, 1_000, 2_000], 1, args.names, budget=0)
         "dask" in run and bench_dask(10_000, repeat=1)
         if "cluster" in run:  # starting worker processes is most of a smoke run
             print("\nLocalCluster: skipped with --quick (tests/test_dask.py runs one)")
