@@ -557,7 +557,7 @@ class _EStep:
         A, s2 = self.loadings, self.noise
         k, n = A.shape[1], rr.shape[0]
         pairs = (A[:, :, None] * A[:, None, :]).reshape(-1, k * k)
-        # the K x K systems along the last axis, one row of curves per entry
+        # the K x K systems along the last axis (one per curve)
         system = np.ascontiguousarray((O @ pairs).T).reshape(k, k, n) / s2
         system[np.arange(k), np.arange(k)] += 1.0
         b = np.asarray(R @ A).T / s2
@@ -985,9 +985,8 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         if is_dask_array(X):
             X = X.persist()
         elif np.count_nonzero(~np.isnan(X)) <= _SPARSE_FRACTION * X.size:
-            rows = _piece_rows(0, self.n_components_)
-            kept = [_residual_rows(X[piece], self.mean_, self._value_scale)
-                    for piece in row_blocks(*X.shape, rows=rows)]
+            pieces = row_blocks(*X.shape, rows=_piece_rows(0, self.n_components_))
+            kept = [_residual_rows(X[piece], self.mean_, self._value_scale) for piece in pieces]
             return lambda step: merge(*(step.on_rows(*rows) for rows in kept))
         return lambda step: compute_statistics(step, X)
 
@@ -1252,7 +1251,7 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
             block = np.asarray(X[rows], dtype=np.float64)
             observed = ~np.isnan(block)
             resid = np.where(observed, block - self.mean_, 0.0)
-            # Phi_i' Phi_i along the last axis, one curve per entry
+            # Phi_i' Phi_i along the last axis (one per curve)
             system = np.ascontiguousarray((observed @ pairs).T).reshape(k, k, -1)
             system[np.arange(k), np.arange(k)] += ratio[:, None]
             inverse = _inverse_log_det(system)[0]
