@@ -299,7 +299,7 @@ class KeptRows:
     """
 
     def __init__(self, X, *others):
-        self._blocks = self._groups = None
+        self._blocks = None
         if is_dask_array(X):
             import dask
 
@@ -313,23 +313,26 @@ class KeptRows:
             X, *others = dask.persist(X, *others)
             self._blocks = delayed_row_blocks(X, *others)
         self.arrays = (X, *others)
-        self._grouped = False
 
     def __call__(self, statistics, merge=merge_sums):
         """``merge`` of ``statistics(*block)`` over the row blocks; on a
         cluster the blocks come grouped by worker, not in row order, so
         ``merge`` must not depend on their order (sums)."""
-        if self._blocks is not None and not self._grouped:
-            # (at the first pass: users of ``arrays`` alone need no grouping)
-            self._groups, self._grouped = _blocks_by_worker(*self.arrays), True
-        if self._groups is not None:
+        if self._worker_groups is not None:
             return self._per_worker(statistics, merge)
         if self._blocks is None:
             return compute_statistics(statistics, *self.arrays, merge=merge)
         return reduce_delayed(statistics, self._blocks, merge)
 
+    @functools.cached_property
+    def _worker_groups(self):
+        """:func:`_blocks_by_worker` of the persisted arrays (None in memory
+        or without a distributed client), formed at the first pass: users
+        of ``arrays`` alone need no grouping."""
+        return None if self._blocks is None else _blocks_by_worker(*self.arrays)
+
     def _per_worker(self, statistics, merge):
-        client, groups = self._groups
+        client, groups = self._worker_groups
         parts = [client.submit(_over_blocks, statistics, merge, blocks, pure=False)
                  for blocks in groups]
         return merge(*client.gather(parts))

@@ -69,6 +69,7 @@ from ._alpha import (
 )
 from ._bases import BSplineBasis, default_n_basis, gram_sqrt
 from ._blocks import (
+    CHUNK_VALUES,
     apply_rows,
     cache_rows,
     compute_statistics,
@@ -985,7 +986,10 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         if is_dask_array(X):
             X = X.persist()
         elif np.count_nonzero(~np.isnan(X)) <= _SPARSE_FRACTION * X.size:
-            pieces = row_blocks(*X.shape, rows=_piece_rows(0, self.n_components_))
+            # pieces whose K x K systems stay in the cache, and at most a
+            # block of X (its mask is formed once per piece)
+            rows = min(_piece_rows(0, self.n_components_), max(1, CHUNK_VALUES // X.shape[1]))
+            pieces = row_blocks(*X.shape, rows=rows)
             kept = [_residual_rows(X[piece], self.mean_, self._value_scale) for piece in pieces]
             return lambda step: merge(*(step.on_rows(*rows) for rows in kept))
         return lambda step: compute_statistics(step, X)

@@ -357,13 +357,13 @@ def test_kept_rows_pass_is_one_task_per_worker(client, monkeypatch):
     kept = KeptRows(da.from_array(Z, chunks=(500, 30)), da.from_array(y, chunks=(500, 2)), None)
     workers = set(client.scheduler_info()["workers"])
     kept(cross_products)  # the first pass groups the blocks by worker
-    assert kept._groups is not None
-    assert 1 <= len(kept._groups[1]) <= len(workers)
-    assert sum(len(group) for group in kept._groups[1]) == 8
+    assert kept._worker_groups is not None
+    assert 1 <= len(kept._worker_groups[1]) <= len(workers)
+    assert sum(len(group) for group in kept._worker_groups[1]) == 8
     with distributed.get_task_stream(client) as stream:
         stats = kept(cross_products)
     tasks = [t for t in stream.data if any(s["action"] == "compute" for s in t["startstops"])]
-    assert len(tasks) == len(kept._groups[1])
+    assert len(tasks) == len(kept._worker_groups[1])
     assert stats["n"] == 4000
     assert_rel_close(stats["zz"], Z.T @ Z)
     assert_rel_close(stats["zy"], Z.T @ y)

@@ -229,7 +229,7 @@ def bench_scaling(sizes, repeat, names=None, budget=ROUND_BUDGET):
     print(f"load average (1, 5, 15 min) at the start: {_load()}")
     print(f"{'numpy X @ Phi':24s} {'n':16s}" + "".join(f"{n:>12,}" for n in sizes))
     print(f"{'':24s} {'seconds':16s}" + "".join(f"{base[n]:12.4f}" for n in sizes))
-    verdicts, paired_verdicts = {}, {}
+    verdicts, paired_lines = {}, {}
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")  # edge and convergence notices of some sizes
         for name, (cls, make, call, factor) in cases.items():
@@ -255,7 +255,7 @@ def bench_scaling(sizes, repeat, names=None, budget=ROUND_BUDGET):
             # cannot move (the best times of different sizes may come from
             # rounds at different speeds)
             paired = np.median(rounds / rounds[:, -1:], axis=0) * times[-1]
-            paired_verdicts[name] = _line(ns, paired)
+            paired_lines[name] = _line(ns, paired)
             print(f"{name:24s} {'n':16s}" + "".join(f"{n:12,}" for n in ns)
                   + f"   ({n_rounds} rounds)")
             print(f"{'':24s} {'seconds':16s}" + "".join(f"{seconds[n]:12.4f}" for n in ns))
@@ -263,7 +263,7 @@ def bench_scaling(sizes, repeat, names=None, budget=ROUND_BUDGET):
                   + "".join(f"{r:12.3f}" for r in per_row / per_row[-1]))
             print(f"{'':24s} {'off line':16s}" + "".join(f"{d:12.3f}" for d in deviation))
             print(f"{'':24s} {'paired off line':16s}"
-                  + "".join(f"{d:12.3f}" for d in paired_verdicts[name][1]))
+                  + "".join(f"{d:12.3f}" for d in paired_lines[name][1]))
             if factor == 1.0:
                 print(f"{'':24s} {'/ X @ Phi':16s}"
                       + "".join(f"{seconds[n] / base[n]:12.2f}" for n in sizes))
@@ -273,7 +273,7 @@ def bench_scaling(sizes, repeat, names=None, budget=ROUND_BUDGET):
                       f"off line {d:.3f})" for name, (ok, a, d) in verdicts.items()))
     print("diagnostic, paired within rounds (not the target's measure): "
           + "; ".join(f"{name} a = {a * 1e3:.1f} ms, off line {d.max():.3f}"
-                      for name, (a, d) in paired_verdicts.items()))
+                      for name, (a, d) in paired_lines.items()))
     return verdicts
 
 
