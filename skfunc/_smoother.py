@@ -41,7 +41,7 @@ from ._alpha import (
     reml_criterion,
     reml_score,
 )
-from ._bases import check_unpenalized_fit, grown_n_basis
+from ._bases import GROW_EDF_FRACTION, check_unpenalized_fit, grown_n_basis
 from ._blocks import (
     apply_rows,
     block_product,
@@ -140,17 +140,6 @@ def _weighted_squares(X, w, scale=1.0):
             block = np.asarray(X[part], dtype=np.float64) / scale
             out[part] = np.einsum("ij,ij,j->i", block, block, w)
     return out
-
-
-#: share of the basis (mean edf per curve at the chosen alpha over
-#: ``n_basis_``) above which a default basis grows: at 0.9 the penalty removes
-#: less than a tenth of the basis' dimensions, so the fit is close to the
-#: unpenalized one and the number of functions, not alpha, limits it; smooth
-#: curves choose far less (sines of one to four cycles plus noise on 601
-#: points: edf 19 to 23 of 39), so they never pay for a trial. The invented
-#: kiln curves choose 38.7 of 39 (sharp corners where ramp meets soak) and
-#: do grow, to 74
-GROW_EDF_FRACTION = 0.9
 
 
 def _gcv_of(stats):
