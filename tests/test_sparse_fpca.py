@@ -603,6 +603,32 @@ def test_default_mean_basis_grows_for_narrow_peaks():
     assert error[0] < 0.3 * error[1], error
 
 
+def test_grown_bases_of_partial_fit_equal_fit():
+    # The sizes are chosen from the merged sums at each solve, so batches
+    # give the fit of the stacked rows (numpy stacking is the reference),
+    # grown sizes included; max_iter=0 (partial_fit is the moment fit).
+    t, X, _ = _peaked_curves(60, 1, observed=0.3)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        fitted = SparseFunctionalPCA(max_iter=0, grid=t).fit(X)
+        streamed = SparseFunctionalPCA(max_iter=0, grid=t)
+        for chunk in np.array_split(X, [7, 30]):
+            streamed.partial_fit(chunk)
+    assert fitted.n_basis_ > 39  # the case grows
+    assert (streamed.n_basis_, streamed.covariance_n_basis_) == (
+        fitted.n_basis_, fitted.covariance_n_basis_)
+    for name in ("mean_", "noise_variance_", "covariance_basis_coef_"):
+        np.testing.assert_allclose(getattr(streamed, name), getattr(fitted, name),
+                                   rtol=1e-8, atol=1e-10, err_msg=name)
+    top = fitted.explained_variance_[0]
+    np.testing.assert_allclose(streamed.explained_variance_, fitted.explained_variance_,
+                               rtol=0, atol=1e-8 * top)
+    # the two simulated components (the trailing ones, of eigenvalues near
+    # rounding relative to these, turn with it)
+    np.testing.assert_allclose(streamed.components_[:2], fitted.components_[:2],
+                               rtol=1e-6, atol=1e-8)
+
+
 def test_default_bases_stay_for_smooth_curves(simulation_fits):
     # Yao et al.'s smooth design (above): the default sizes already fit, so
     # no larger basis is clearly better and none is kept.
