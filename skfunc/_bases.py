@@ -483,8 +483,9 @@ def default_n_basis(name, n_points, degree=3):
     return min(count, n_points)
 
 
-#: share of the basis (mean edf per curve at the chosen alpha over
-#: ``n_basis_``) above which CurveSmoother's default basis grows
+#: share of the basis (edf at the chosen alpha over the number of basis
+#: functions: per curve for CurveSmoother, of the pooled fit for
+#: SparseFunctionalPCA's mean) above which a default basis is tried larger
 #: (:func:`grown_n_basis`): at 0.9 the penalty removes
 #: less than a tenth of the basis' dimensions, so the fit is close to the
 #: unpenalized one and the number of functions, not alpha, limits it; smooth

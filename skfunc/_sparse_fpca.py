@@ -69,6 +69,7 @@ from ._alpha import (
     choose_alpha,
 )
 from ._bases import (
+    GROW_EDF_FRACTION,
     BSplineBasis,
     default_n_basis,
     gram_sqrt,
@@ -291,22 +292,24 @@ def _clearly_lower(errors, than):
     return bool(diff.mean() > diff.std(ddof=1) / np.sqrt(diff.size))
 
 
-def _grown_fit(fit_of, n_basis, n_points, degree, grows=True, limit=None):
+def _grown_fit(fit_of, n_basis, n_points, degree, grows=True, limit=None, busy=None):
     """A default basis grown while a larger one fits clearly better:
     Ruppert (2002)'s myopic search, scored by cross-validation over curves.
 
     ``fit_of(n)`` fits with ``n`` B-splines and returns ``(fit, solution)``,
     a :class:`_CurveFoldFit` and its :meth:`_CurveFoldFit.solve` result.
     The interior knots are doubled (:func:`grown_n_basis`, at most
-    ``n_points // 4`` knots and ``limit`` functions) and the larger basis kept while its held-out
-    errors (at its chosen alpha, on the same folds of curves) are lower by
-    more than one standard error (:func:`_clearly_lower`). Only where
-    ``grows`` (a default size, alpha chosen from the data). Returns
-    ``(n_basis, fit, solution, doublings)``.
+    ``n_points // 4`` knots and ``limit`` functions) and the larger basis
+    kept while its held-out errors (at its chosen alpha, on the same folds
+    of curves) are lower by more than one standard error
+    (:func:`_clearly_lower`). Only where ``grows`` (a default size, alpha
+    chosen from the data), and, given ``busy``, only while ``busy(fit,
+    alpha)`` says the basis limits the fit (:func:`_uses_its_basis`).
+    Returns ``(n_basis, fit, solution, doublings)``.
     """
     fit, solution, told = _recorded(fit_of, n_basis)
     doublings = 0
-    while grows and fit.held_out is not None:
+    while grows and fit.held_out is not None and (busy is None or busy(fit, solution[1])):
         larger = grown_n_basis(n_basis, n_points, degree, limit)
         if larger is None:
             break
@@ -319,6 +322,14 @@ def _grown_fit(fit_of, n_basis, n_points, degree, grows=True, limit=None):
         warnings.warn_explicit(message.message, message.category, message.filename,
                                message.lineno)
     return n_basis, fit, solution, doublings
+
+
+def _uses_its_basis(fit, alpha):
+    """Whether the fit at ``alpha`` uses more than :data:`GROW_EDF_FRACTION`
+    of its basis' dimensions (effective degrees of freedom over the number
+    of functions): the penalty then barely acts and the basis, not alpha,
+    limits the fit (CurveSmoother's rule for trying a larger basis)."""
+    return float(fit.path.edf(alpha)) > GROW_EDF_FRACTION * fit.path.g.size
 
 
 def _recorded(fit_of, n_basis):
@@ -711,9 +722,10 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
         Number of cubic B-splines of the mean function (and of the smoothed
         pointwise variance). None means the package's default rule on the
         number of distinct observed times (4 + min(times // 4, 35)), grown
-        where it limits the fit: the interior knots are doubled (at most a
-        quarter of the distinct times) while 10-fold cross-validation over
-        curves finds the larger basis clearly better (see Notes).
+        where it limits the fit: while the fit uses more than 90% of the
+        basis, the interior knots are doubled (at most a quarter of the
+        distinct times) as long as 10-fold cross-validation over curves
+        finds the larger basis clearly better (see Notes).
     covariance_n_basis : int, default=None
         Number of B-splines per direction of the covariance surface. None
         means the same rule on the covariance grid, capped at 10; where the
@@ -839,8 +851,11 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
     basis is kept while its cross-validated error over curves (at its own
     chosen alpha, on the same folds) is lower than the smaller basis' by
     more than one standard error of the ten paired fold differences (the
-    one-standard-error rule). Smooth curves keep the default sizes at the
-    cost of one trial of the mean; curves with features finer than the
+    one-standard-error rule). A larger mean basis is tried only while the
+    chosen fit uses more than 90% of the basis' dimensions (effective
+    degrees of freedom over the number of B-splines), the rule
+    :class:`~skfunc.preprocessing.CurveSmoother` follows: smooth curves keep
+    the default sizes without a trial; curves with features finer than the
     default knots (spectra, for example) grow. Where the mean's basis grew
     the curves' variation is taken to have features as fine, so the
     surface's knots are doubled as often and then grow on by the same
@@ -1227,7 +1242,8 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
             return fit, fit.solve((S1 + u * N_c) @ phi, mean_yy, self.alpha)
 
         n_mean, mean_fit, solution, doublings = _grown_fit(
-            mean_of, basis.n_basis, seen.size, basis.degree, grows=self.n_basis is None)
+            mean_of, basis.n_basis, seen.size, basis.degree, grows=self.n_basis is None,
+            busy=_uses_its_basis)
         mean_coef, mean_alpha, mean_alphas, mean_scores = solution
         basis = BSplineBasis(domain, n_mean, degree=basis.degree)
         phi = basis.evaluate(grid)

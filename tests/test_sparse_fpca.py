@@ -629,12 +629,23 @@ def test_grown_bases_of_partial_fit_equal_fit():
                                rtol=1e-6, atol=1e-8)
 
 
-def test_default_bases_stay_for_smooth_curves(simulation_fits):
+def test_default_bases_stay_for_smooth_curves(simulation_fits, monkeypatch):
     # Yao et al.'s smooth design (above): the default sizes already fit, so
-    # no larger basis is clearly better and none is kept.
+    # none grows, and no larger basis is even tried (the chosen mean uses
+    # far less than 90% of its basis).
+    import skfunc._sparse_fpca as module
+
     for fitted, data, _ in simulation_fits:
         assert fitted.covariance_n_basis_ == 10
         assert fitted.n_basis_ == 4 + min(len(data.grid) // 4, 35)
+    tried = []
+    monkeypatch.setattr(module, "grown_n_basis",
+                        lambda *args, **kw: tried.append(args) or None)
+    data, _ = simulate(500, 0)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        SparseFunctionalPCA(2, grid=data.grid, max_iter=0).fit(data.X)
+    assert tried == []
 
 
 @pytest.mark.slow
