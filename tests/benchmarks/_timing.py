@@ -17,6 +17,19 @@ if str(ROOT) not in sys.path:
     sys.path.insert(0, str(ROOT))
 
 
+def round_times(funcs, repeat):
+    """Wall times of each function in each of ``repeat`` interleaved rounds
+    (a dict of name to function: a dict of name to an array of times), so
+    that a busy machine slows all of the functions of a round alike."""
+    times = {key: np.empty(repeat) for key in funcs}
+    for r in range(repeat):
+        for key, func in funcs.items():
+            start = time.perf_counter()
+            func()
+            times[key][r] = time.perf_counter() - start
+    return times
+
+
 def best_times(funcs, repeat):
     """Best wall time of each function over ``repeat`` runs.
 
@@ -25,12 +38,7 @@ def best_times(funcs, repeat):
     a busy machine slows all of the functions alike.
     """
     named = funcs if isinstance(funcs, dict) else dict(enumerate(funcs))
-    best = dict.fromkeys(named, np.inf)
-    for _ in range(repeat):
-        for key, func in named.items():
-            start = time.perf_counter()
-            func()
-            best[key] = min(best[key], time.perf_counter() - start)
+    best = {key: float(times.min()) for key, times in round_times(named, repeat).items()}
     return best if isinstance(funcs, dict) else list(best.values())
 
 
