@@ -314,7 +314,10 @@ def _grown_fit(fit_of, n_basis, n_points, degree, grows=True, limit=None, busy=N
         larger = grown_n_basis(n_basis, n_points, degree, limit)
         if larger is None:
             break
-        trial_fit, trial, trial_told = _recorded(fit_of, larger)
+        try:
+            trial_fit, trial, trial_told = _recorded(fit_of, larger)
+        except ValueError:  # the data do not determine the larger basis
+            break
         if not _clearly_lower(trial_fit.held_out, fit.held_out):
             break
         n_basis, fit, solution, told = larger, trial_fit, trial, trial_told

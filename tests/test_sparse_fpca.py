@@ -694,3 +694,24 @@ def test_surface_scale_is_the_top_generalized_eigenvalue():
         J = basis.unit_gram()
         top = scipy.linalg.eigh(_tensor_gram(psi, pairs), np.kron(J, J), eigvals_only=True)[-1]
         assert _surface_scale(psi, pairs, J) == pytest.approx(top, rel=1e-9)
+
+
+def test_growth_stops_where_a_larger_basis_is_not_determined():
+    # A trial basis the data cannot determine (its fit raises) ends the
+    # search at the size reached, as a trial that is not clearly better.
+    from skfunc._sparse_fpca import _grown_fit
+
+    class Fit:
+        held_out = np.ones(10)
+
+    tried = []
+
+    def fit_of(n_basis):
+        tried.append(n_basis)
+        if n_basis > 39:
+            raise ValueError("The observations do not determine the mean")
+        return Fit(), (np.zeros(n_basis), 1.0, np.ones(3), np.ones(3))
+
+    n_basis, _, _, doublings = _grown_fit(fit_of, 39, 300, 3)
+    assert (n_basis, doublings) == (39, 0)
+    assert tried == [39, 74]  # the trial was made, and refused
