@@ -908,7 +908,15 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
     they do not include the estimation error of the fit nor the components
     left out. Scores are predictions, not measurements: two curves with the
     same true scores but different observation times get different
-    predictions.
+    predictions. They carry the components' variances, so a penalized
+    linear model downstream (``LogisticRegression()``, ``C=1``) penalizes
+    the small components hardest: put a ``StandardScaler`` between them
+    (``make_pipeline(SparseFunctionalPCA(), StandardScaler(),
+    LogisticRegression())``), as for
+    :class:`~skfunc.decomposition.FunctionalPCA`; on open curves
+    thinned to 10% or 30% of their values this recipe scored at least
+    ``SimpleImputer()`` + ``LogisticRegression()`` on 19 of 20 sets, the
+    scores alone on 14 (:doc:`/open_data`).
 
     The covariance needs the smoothed mean, yet the fit takes one pass over
     the data: it keeps, per fold of curves, the count and the sums of
