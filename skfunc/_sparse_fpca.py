@@ -915,8 +915,8 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
     LogisticRegression())``), as for
     :class:`~skfunc.decomposition.FunctionalPCA`; on open curves
     thinned to 10% or 30% of their values this recipe scored at least
-    ``SimpleImputer()`` + ``LogisticRegression()`` on 19 of 20 sets, the
-    scores alone on 14 (:doc:`/open_data`).
+    ``SimpleImputer()`` + ``LogisticRegression()`` in 19 of 20 cases (ten
+    sets, two fractions), the scores alone in 14 (:doc:`/open_data`).
 
     The covariance needs the smoothed mean, yet the fit takes one pass over
     the data: it keeps, per fold of curves, the count and the sums of
