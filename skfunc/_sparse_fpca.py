@@ -284,10 +284,9 @@ def _clearly_lower(errors, than):
     the comparison). False unless the same folds (two or more) are scored."""
     if errors is None or than is None:
         return False
-    diff = than - errors
     if not np.array_equal(np.isnan(errors), np.isnan(than)):
         return False
-    diff = diff[~np.isnan(diff)]
+    diff = (than - errors)[~np.isnan(errors)]
     if diff.size < 2:
         return False
     return bool(diff.mean() > diff.std(ddof=1) / np.sqrt(diff.size))
@@ -1298,19 +1297,20 @@ class SparseFunctionalPCA(AdditiveTransformerMixin, ComponentCurvesMixin,
                 "between times is estimated from pairs of observations of the "
                 "same curve."
             )
+        all_pairs, cov_yy = n_pairs.sum(axis=0), fourth.sum(axis=(1, 2))
 
         def covariance_of(k):
-            psi = BSplineBasis(domain, k, degree=cbasis.degree).evaluate(points)
+            trial_basis = BSplineBasis(domain, k, degree=cbasis.degree)
+            psi = trial_basis.evaluate(points)
             penalty, subspace = _tensor_penalty(domain, k, cbasis.degree, self.penalty_order)
-            unit_gram = BSplineBasis(domain, k, degree=cbasis.degree).unit_gram()
             fit = _CurveFoldFit(
                 np.array([_tensor_gram(psi, pairs) for pairs in n_pairs]),
-                float(n_pairs.sum()), penalty, "covariance surface",
+                float(all_pairs.sum()), penalty, "covariance surface",
                 "covariance_n_basis", subspace=subspace,
-                scale=_surface_scale(psi, n_pairs.sum(axis=0), unit_gram),
+                scale=_surface_scale(psi, all_pairs, trial_basis.unit_gram()),
             )
             return fit, fit.solve(np.array([(psi.T @ c @ psi).ravel() for c in cross]),
-                                  fourth.sum(axis=(1, 2)), self.covariance_alpha)
+                                  cov_yy, self.covariance_alpha)
 
         # where the mean's basis grew, the surface's grows on by the same
         # test (fine features in the mean come with fine features in the
