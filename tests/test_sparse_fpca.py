@@ -603,6 +603,25 @@ def test_default_mean_basis_grows_for_narrow_peaks():
     assert error[0] < 0.3 * error[1], error
 
 
+def test_grown_sizes_do_not_depend_on_units():
+    # Invariance (common practice for a unit-free rule): the growth compares
+    # cross-validated errors of one fit at two sizes and an edf share, so a
+    # new time unit and origin (t -> 5 + 60 t) or data units (X -> 1000 X +
+    # 3) give the same sizes and the same unit-free alphas.
+    t, X, _ = _peaked_curves(60, 0, observed=0.3)
+    fits = []
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        for grid, curves in ((t, X), (5 + 60 * t, X), (t, 1000 * X + 3)):
+            fits.append(SparseFunctionalPCA(max_iter=0, grid=grid).fit(curves))
+    assert fits[0].n_basis_ > 39 and fits[0].covariance_n_basis_ > 10  # the case grows
+    for fitted in fits[1:]:
+        assert (fitted.n_basis_, fitted.covariance_n_basis_) == (
+            fits[0].n_basis_, fits[0].covariance_n_basis_)
+        assert fitted.alpha_ == pytest.approx(fits[0].alpha_, rel=1e-8)
+        assert fitted.covariance_alpha_ == pytest.approx(fits[0].covariance_alpha_, rel=1e-8)
+
+
 def test_grown_bases_of_partial_fit_equal_fit():
     # The sizes are chosen from the merged sums at each solve, so batches
     # give the fit of the stacked rows (numpy stacking is the reference),
