@@ -284,7 +284,8 @@ def test_unscanned_transforms_still_name_the_bad_value(name, column, bad, dtype)
 
 @pytest.mark.parametrize("shift", [0.0, 1200.0])
 @pytest.mark.parametrize("dtype", [np.float64, np.float32])
-@pytest.mark.parametrize("k", [1, 5])
+# 3 and 5 columns: float32 operators padded with zero columns (padded_width)
+@pytest.mark.parametrize("k", [1, 3, 5, 9])
 def test_chunked_products_on_threads_equal_one_thread(monkeypatch, k, dtype, shift):
     # chunked_matmul runs one-column products (numpy's einsum) and centered
     # float32 products on threads: the result must equal the one-thread run
