@@ -581,10 +581,27 @@ class Float32Product:
         block = np.asarray(block, dtype=np.float32)
         if out is None:
             out = np.empty((block.shape[0], self.width), dtype=np.float32)
-        # centered (or not) in pieces of about CACHE_VALUES values, each
-        # multiplied while it is still in the cache: centering a whole block
-        # first would write it to memory and read it back, 0.8x the float64
-        # product's time instead of 0.5x
+        if not self.in_pieces:
+            product_into(block, self.operator32, out)
+        else:
+            self._in_pieces(block, out)
+        out += self.offset32
+        return out
+
+    @property
+    def in_pieces(self):
+        """Whether blocks run in cache-sized pieces (centered or padded).
+        Uncentered padded pieces keep BLAS's threads: on block threads the
+        FunctionalPCA transform of 100,000 x 500 (K = 5) took 0.58-0.59 of
+        the float64 time instead of 0.52-0.53 (best of 15)."""
+        return self.center is not None or self.operator32.shape[1] > self.width
+
+    def _in_pieces(self, block, out):
+        """``block (- center) @ operator32`` into ``out``, in pieces of about
+        :data:`CACHE_VALUES` values, each centered and multiplied while it is
+        still in the cache (centering a whole block first would write it to
+        memory and read it back: 0.8x the float64 product's time instead of
+        0.5x), through a padded result when the operator is padded."""
         rows = cache_rows(block.shape[1])
         padded = self.operator32.shape[1]
         buffer = np.empty((rows, block.shape[1]), dtype=np.float32)
@@ -597,8 +614,6 @@ class Float32Product:
                 product_into(centered, self.operator32, out[piece])
             else:
                 out[piece] = product_into(centered, self.operator32, result[:size])[:, : self.width]
-        out += self.offset32
-        return out
 
 
 def block_product(sample, operator_T, offset=None, *, dtype=np.float64):
