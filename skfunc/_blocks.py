@@ -290,12 +290,16 @@ class KeptRows:
     fewer than :data:`KEPT_MIN_VALUES` values (a narrow array in the row
     chunks of wide curves): those are merged.
 
-    On a distributed cluster a pass is one task per worker over the blocks
-    it holds, submitted to the client directly (:meth:`_per_worker`): the
-    scheduler's cost per task and a graph built and optimised per pass took
-    as long as the arithmetic (a Newton pass over 200,000 rows in 8 blocks
-    on two workers: 60-100 ms as a graph of 8 tasks, 40-57 ms as 2
-    submitted ones, against 35-45 ms in memory).
+    On a distributed cluster a pass is one call per worker over the blocks
+    it holds (:meth:`_per_worker`): the scheduler's cost per task and a
+    graph built and optimised per pass took as long as the arithmetic (a
+    Newton pass over 200,000 rows in 8 blocks on two workers: 60-100 ms as a
+    graph of 8 tasks, 40-57 ms as 2 submitted ones, against 35-45 ms in
+    memory). The call goes to a Dask actor on the worker
+    (:class:`_WorkerBlocks`), which skips the scheduler's round trip; where
+    actors cannot be made, or a call fails (a lost worker), the pass is one
+    submitted task per worker, for which the scheduler recomputes lost
+    blocks.
     """
 
     def __init__(self, X, *others):
@@ -332,10 +336,45 @@ class KeptRows:
         return None if self._blocks is None else _blocks_by_worker(*self.arrays)
 
     def _per_worker(self, statistics, merge):
+        holders = self._holders
+        if holders:
+            try:
+                calls = [holder.run(statistics, merge) for holder in holders]
+                return merge(*(call.result() for call in calls))
+            except Exception:
+                # a lost worker (or an error of the statistics, which the
+                # tasks below raise again): the tasks recompute lost blocks
+                self._holders = []
         client, groups = self._worker_groups
         parts = [client.submit(_over_blocks, statistics, merge, blocks, pure=False)
-                 for blocks in groups]
+                 for _, blocks in groups]
         return merge(*client.gather(parts))
+
+    @functools.cached_property
+    def _holders(self):
+        """A :class:`_WorkerBlocks` actor per worker, holding that worker's
+        blocks ([] where actors cannot be made)."""
+        client, groups = self._worker_groups
+        try:
+            return [client.submit(_WorkerBlocks, blocks, actor=True, workers=[worker],
+                                  allow_other_workers=False, pure=False).result()
+                    for worker, blocks in groups]
+        except Exception:
+            return []
+
+
+class _WorkerBlocks:
+    """One worker's row blocks, held by a Dask actor on that worker, so that
+    a pass is one direct call per worker: a submitted task's round trip
+    through the scheduler took 10-19 ms on the development machine's
+    LocalCluster, an actor's call 3-4 ms, and a Newton path makes 15 to 20
+    passes."""
+
+    def __init__(self, blocks):
+        self.blocks = blocks
+
+    def run(self, statistics, merge):
+        return _over_blocks(statistics, merge, self.blocks)
 
 
 def _over_blocks(statistics, merge, blocks):
@@ -372,7 +411,7 @@ def _blocks_by_worker(X, *others):
     for block in zip(*columns, strict=True):
         workers = holders.get(block[0].key) or ("",)
         groups.setdefault(workers[0], []).append(block)
-    return client, list(groups.values())
+    return client, list(groups.items())
 
 
 def _single_threaded_blas_under_threads(collection):

@@ -9,6 +9,7 @@ a value is known independently, with scipy or numpy.
 
 import subprocess
 import sys
+import time
 import warnings
 
 import numpy as np
@@ -340,30 +341,71 @@ def test_statistics_are_reduced_on_workers_in_a_tree(client):
     assert_rel_close(stats["yy"], (y**2).sum(axis=0))
 
 
-def test_kept_rows_pass_is_one_task_per_worker(client, monkeypatch):
-    # a pass over kept rows on a cluster: one submitted task per worker over
-    # the blocks that worker holds, and the sums of numpy's products over
-    # all rows (however the blocks are grouped)
-    import distributed
-
+def _kept_rows_case(monkeypatch):
     from skfunc import _blocks
     from skfunc._blocks import KeptRows
 
     monkeypatch.setattr(_blocks, "KEPT_MIN_VALUES", 1)  # keep the 8 small blocks
-
     rng = np.random.default_rng(5)
     Z = rng.normal(size=(4000, 30))
     y = rng.normal(size=(4000, 2))
     kept = KeptRows(da.from_array(Z, chunks=(500, 30)), da.from_array(y, chunks=(500, 2)), None)
+    return kept, Z, y
+
+
+def _computed_tasks(stream):
+    return [t for t in stream.data if any(s["action"] == "compute" for s in t["startstops"])]
+
+
+def test_kept_rows_pass_is_one_call_per_worker(client, monkeypatch):
+    # a pass over kept rows on a cluster: one call of the actor that holds
+    # a worker's blocks per worker, no task through the scheduler, and the
+    # sums of numpy's products over all rows (however the blocks are grouped)
+    import gc
+
+    import distributed
+
+    kept, Z, y = _kept_rows_case(monkeypatch)
     workers = set(client.scheduler_info()["workers"])
     kept(cross_products)  # the first pass groups the blocks by worker
-    assert kept._worker_groups is not None
-    assert 1 <= len(kept._worker_groups[1]) <= len(workers)
-    assert sum(len(group) for group in kept._worker_groups[1]) == 8
+    groups = kept._worker_groups[1]
+    assert 1 <= len(groups) <= len(workers)
+    assert sum(len(blocks) for _, blocks in groups) == 8
+    assert len(kept._holders) == len(groups)
     with distributed.get_task_stream(client) as stream:
         stats = kept(cross_products)
-    tasks = [t for t in stream.data if any(s["action"] == "compute" for s in t["startstops"])]
-    assert len(tasks) == len(kept._worker_groups[1])
+    assert _computed_tasks(stream) == []
+    assert stats["n"] == 4000
+    assert_rel_close(stats["zz"], Z.T @ Z)
+    assert_rel_close(stats["zy"], Z.T @ y)
+    # the actors (and their references to the blocks) go with the kept rows
+    keys = {holder.key for holder in kept._holders}
+    assert keys <= set(client.who_has())
+    del kept, groups
+    gc.collect()
+    for _ in range(100):
+        if not keys & set(client.who_has()):
+            break
+        time.sleep(0.05)
+    assert not keys & set(client.who_has())
+
+
+def test_kept_rows_pass_falls_back_to_tasks(client, monkeypatch):
+    # a failed actor call (a lost worker) sends the pass, and the later
+    # ones, through one submitted task per worker, with the same sums
+    import distributed
+
+    class Lost:
+        def run(self, statistics, merge):
+            raise OSError("worker lost")
+
+    kept, Z, y = _kept_rows_case(monkeypatch)
+    kept(cross_products)
+    kept._holders = [Lost()]
+    with distributed.get_task_stream(client) as stream:
+        stats = kept(cross_products)
+    assert kept._holders == []
+    assert len(_computed_tasks(stream)) == len(kept._worker_groups[1])
     assert stats["n"] == 4000
     assert_rel_close(stats["zz"], Z.T @ Z)
     assert_rel_close(stats["zy"], Z.T @ y)
