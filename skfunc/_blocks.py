@@ -27,7 +27,6 @@ import functools
 import os
 import sys
 import threading
-import warnings
 
 import numpy as np
 
@@ -356,9 +355,10 @@ class KeptRows:
         blocks ([] where actors cannot be made)."""
         client, groups = self._worker_groups
         try:
-            return [client.submit(_WorkerBlocks, blocks, actor=True, workers=[worker],
-                                  allow_other_workers=False, pure=False).result()
+            made = [client.submit(_WorkerBlocks, blocks, actor=True, workers=[worker],
+                                  allow_other_workers=False, pure=False)
                     for worker, blocks in groups]
+            return [future.result() for future in made]
         except Exception:
             return []
 
@@ -596,7 +596,8 @@ class Float32Product:
         self.width = k
         padded = padded_width(k)
         if padded > k:
-            self.operator32 = np.pad(self.operator32, ((0, 0), (0, padded - k)))
+            self.operator32 = np.zeros((len(operator_T), padded), dtype=np.float32)
+            self.operator32[:, :k] = operator_T
         self.offset32 = offset.astype(np.float32)
         self.center = None
         step = max(1, sample.shape[0] // FLOAT32_SAMPLE_ROWS)
@@ -609,10 +610,13 @@ class Float32Product:
             size = np.linalg.norm(exact[np.isfinite(exact).all(axis=1)])
             error = np.linalg.norm((plain - exact)[np.isfinite(exact).all(axis=1)])
         if error > FLOAT32_RTOL * size:
-            with np.errstate(all="ignore"), warnings.catch_warnings():
-                warnings.simplefilter("ignore", RuntimeWarning)  # all-NaN columns
-                center = np.nanmean(np.where(np.isfinite(rows), rows, np.nan), axis=0)
-            self.center = np.where(np.isfinite(center), center, 0).astype(np.float32)
+            # the mean of each column's finite values (0 where there are
+            # none; np.nanmean took 0.8 ms here, half of this check)
+            finite = np.isfinite(rows)
+            count = finite.sum(axis=0)
+            total = np.where(finite, rows, 0).sum(axis=0, dtype=np.float64)
+            center = np.divide(total, count, out=np.zeros(len(count)), where=count > 0)
+            self.center = center.astype(np.float32)
             self.offset32 = (self.center.astype(np.float64) @ operator_T
                              + offset).astype(np.float32)
 
