@@ -355,10 +355,12 @@ class KeptRows:
         blocks ([] where actors cannot be made)."""
         client, groups = self._worker_groups
         try:
-            made = [client.submit(_WorkerBlocks, blocks, actor=True, workers=[worker],
-                                  allow_other_workers=False, pure=False)
-                    for worker, blocks in groups]
-            return [future.result() for future in made]
+            # (the actors bind to the current client: the blocks' one)
+            with client.as_current():
+                made = [client.submit(_WorkerBlocks, blocks, actor=True, workers=[worker],
+                                      allow_other_workers=False, pure=False)
+                        for worker, blocks in groups]
+                return [future.result() for future in made]
         except Exception:
             return []
 
